@@ -1,0 +1,364 @@
+//! Locality test of given correlations: does `p(a|q)` have a local (shared-randomness) model?
+//!
+//! We compute the critical white-noise visibility `v*`, the largest `v` for which
+//! `v·P + (1−v)·U` (U: uniformly random answers) is a mixture of deterministic strategies. `P` is
+//! local iff `v* ≥ 1`. We solve the dual LP directly,
+//!
+//! ```text
+//! minimise  U·β   subject to   D_λ·β ≥ 0 for every deterministic strategy λ,   (U − P)·β = 1,
+//! ```
+//!
+//! whose optimum is `v*` by LP duality and whose solution is a separating Bell expression: with
+//! `c = −β`, every local behaviour has `c·p ≤ 0` while `c·P = 1 − v*`.
+
+use std::time::Instant;
+
+use serde::{Deserialize, Serialize};
+use serde_yaml::{Mapping, Value as Yaml};
+
+use crate::error::{Error, Result};
+use crate::game::compile::{parse_labels_for, Context};
+use crate::game::locate::SourceMap;
+use crate::game::spec::{GameSpec, PlayerSpec};
+use crate::lp::{LinearProgram, Relation, VarBounds};
+use crate::scenario::{digits, index_of, Party, Scenario, ScoreKind};
+
+/// Rows must sum to one within this tolerance (typed probabilities carry rounding).
+pub const ROW_TOLERANCE: f64 = 1e-6;
+/// Largest number of deterministic strategies enumerated without `force`.
+pub const STRATEGY_LIMIT: f64 = 200_000.0;
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct CorrelationsFile {
+    #[serde(default)]
+    name: Option<String>,
+    #[serde(default)]
+    description: Option<String>,
+    players: Vec<CorrelationPlayer>,
+    behaviour: Vec<BehaviourRow>,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct CorrelationPlayer {
+    name: String,
+    questions: Yaml,
+    answers: Yaml,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct BehaviourRow {
+    questions: Vec<i64>,
+    probabilities: Vec<Yaml>,
+}
+
+/// Correlations `p(a|q)` for every joint question, in the scenario's layout.
+#[derive(Debug, Clone)]
+pub struct Correlations {
+    pub name: String,
+    pub parties: Vec<Party>,
+    /// `p[q * joint_answers + a]`.
+    pub p: Vec<f64>,
+}
+
+impl Correlations {
+    pub fn from_file(path: &str) -> Result<Self> {
+        let text = std::fs::read_to_string(path).map_err(|source| Error::Io {
+            path: path.to_string(),
+            source,
+        })?;
+        Self::from_yaml(&text, path)
+    }
+
+    /// Parses our correlations schema (YAML or JSON): players with question and answer sets, and
+    /// one row per joint question listing `p(a|q)` over joint answers in mixed radix (first
+    /// player most significant).
+    pub fn from_yaml(text: &str, file: &str) -> Result<Self> {
+        let raw: CorrelationsFile =
+            serde_yaml::from_str(text).map_err(|e| crate::game::yaml_error(e, file))?;
+        let ctx = Context {
+            file: file.to_string(),
+            map: SourceMap::new(text),
+        };
+        let _ = &raw.description;
+        if raw.players.len() < 2 {
+            return Err(ctx.error("players", "correlations need two or more players"));
+        }
+        let mut parties = Vec::new();
+        for (i, p) in raw.players.iter().enumerate() {
+            if parties.iter().any(|q: &Party| q.name == p.name) {
+                return Err(ctx.error(&format!("players[{i}].name"), format!("two players are called `{}`", p.name)));
+            }
+            parties.push(Party {
+                name: p.name.clone(),
+                question_labels: parse_labels_for(&p.questions, &ctx, &format!("players[{i}].questions"))?,
+                answer_labels: parse_labels_for(&p.answers, &ctx, &format!("players[{i}].answers"))?,
+            });
+        }
+        let qr: Vec<usize> = parties.iter().map(Party::questions).collect();
+        let nq: usize = qr.iter().product();
+        let na: usize = parties.iter().map(Party::answers).product();
+        if (nq as f64) * (na as f64) > 1e8 {
+            return Err(ctx.error("players", "the correlation table would exceed 10^8 entries"));
+        }
+        let mut p = vec![f64::NAN; nq * na];
+        let mut seen = vec![false; nq];
+        let mut d = vec![0; parties.len()];
+        for (r, row) in raw.behaviour.iter().enumerate() {
+            let rf = format!("behaviour[{r}]");
+            if row.questions.len() != parties.len() {
+                return Err(ctx.error(&format!("{rf}.questions"), format!("expected one question label per player ({})", parties.len())));
+            }
+            for (i, &label) in row.questions.iter().enumerate() {
+                d[i] = parties[i]
+                    .question_labels
+                    .iter()
+                    .position(|&l| l == label)
+                    .ok_or_else(|| ctx.error(&format!("{rf}.questions[{i}]"), format!("{} has no question {label}", parties[i].name)))?;
+            }
+            let q = index_of(&d, &qr);
+            if seen[q] {
+                return Err(ctx.error(&rf, "this joint question is listed twice"));
+            }
+            seen[q] = true;
+            if row.probabilities.len() != na {
+                return Err(ctx.error(&format!("{rf}.probabilities"), format!("expected {na} probabilities (one per joint answer), found {}", row.probabilities.len())));
+            }
+            let mut total = 0.0;
+            for (a, v) in row.probabilities.iter().enumerate() {
+                let f = format!("{rf}.probabilities[{a}]");
+                let x = crate::game::compile::constant_number(v, &ctx, &f)?;
+                if x < -1e-12 {
+                    return Err(ctx.error(&f, format!("probability {x} is negative")));
+                }
+                p[q * na + a] = x.max(0.0);
+                total += x;
+            }
+            if (total - 1.0).abs() > ROW_TOLERANCE {
+                return Err(ctx.error(&format!("{rf}.probabilities"), format!("probabilities sum to {total}, not 1")));
+            }
+        }
+        if let Some(missing) = seen.iter().position(|s| !s) {
+            digits(missing, &qr, &mut d);
+            let labels: Vec<String> = d
+                .iter()
+                .enumerate()
+                .map(|(i, &k)| parties[i].question_labels[k].to_string())
+                .collect();
+            return Err(ctx.error("behaviour", format!("no row for joint question [{}]; every joint question needs one", labels.join(", "))));
+        }
+        Ok(Correlations {
+            name: raw.name.unwrap_or_else(|| file.to_string()),
+            parties,
+            p,
+        })
+    }
+
+    /// A scenario with these parties and a zero table, for shared indexing helpers.
+    pub fn scenario_shape(&self) -> Scenario {
+        let nq: usize = self.parties.iter().map(Party::questions).product();
+        let na: usize = self.parties.iter().map(Party::answers).product();
+        Scenario::new(self.parties.clone(), vec![1.0; nq], vec![0.0; nq * na], 0.0, ScoreKind::Score)
+    }
+
+    /// Largest violation of the no-signalling conditions (0 for physical correlations).
+    pub fn signalling(&self) -> f64 {
+        let s = self.scenario_shape();
+        let mut lp = LinearProgram::new(true);
+        for _ in 0..self.p.len() {
+            lp.add_var(VarBounds::NONNEGATIVE, 0.0);
+        }
+        crate::nosignal::add_no_signalling_rows(&s, &mut lp, 0);
+        lp.rows
+            .iter()
+            .map(|r| (r.terms.iter().map(|&(i, c)| c * self.p[i]).sum::<f64>() - r.rhs).abs())
+            .fold(0.0, f64::max)
+    }
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct LocalityReport {
+    pub local: bool,
+    /// Critical white-noise visibility v* (≥ 1 iff local; above 1, P is inside the local set).
+    pub visibility: f64,
+    /// Largest violation of the no-signalling conditions by the input.
+    pub signalling: f64,
+    pub deterministic_strategies: usize,
+    /// Separating Bell expression `c(a|q)` (present when not local): local bound 0.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub separating: Option<SeparatingExpression>,
+    pub seconds: f64,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct SeparatingExpression {
+    /// `c[q * joint_answers + a]`.
+    pub coefficients: Vec<f64>,
+    /// max over deterministic strategies of c·D (0 up to solver tolerance).
+    pub local_bound: f64,
+    /// c·P = 1 − v*.
+    pub value: f64,
+}
+
+/// Runs the locality LP. `force` skips the refusal on very many deterministic strategies.
+pub fn locality_test(c: &Correlations, force: bool) -> Result<LocalityReport> {
+    let start = Instant::now();
+    let s = c.scenario_shape();
+    let strategies: f64 = c
+        .parties
+        .iter()
+        .map(|p| (p.answers() as f64).powi(p.questions() as i32))
+        .product();
+    if strategies > STRATEGY_LIMIT && !force {
+        return Err(Error::TooLarge {
+            what: "the locality LP".into(),
+            estimate: format!("{strategies:.3e} deterministic strategies, one constraint each"),
+            hint: "pass --force to try anyway".into(),
+        });
+    }
+    let signalling = c.signalling();
+    let na = s.joint_answers();
+    let nq = s.joint_questions();
+    let uniform = 1.0 / na as f64;
+    let diff: Vec<f64> = c.p.iter().map(|p| uniform - p).collect();
+    if diff.iter().all(|d| d.abs() < 1e-15) {
+        // Pure noise: local, and every visibility stays local.
+        return Ok(LocalityReport {
+            local: true,
+            visibility: f64::INFINITY,
+            signalling,
+            deterministic_strategies: strategies as usize,
+            separating: None,
+            seconds: start.elapsed().as_secs_f64(),
+        });
+    }
+    let mut lp = LinearProgram::new(false);
+    for _ in 0..nq * na {
+        lp.add_var(VarBounds::FREE, uniform);
+    }
+    lp.add_row(diff.iter().enumerate().map(|(i, &d)| (i, d)).collect(), Relation::Eq, 1.0);
+    let strategy_radices: Vec<usize> = c
+        .parties
+        .iter()
+        .flat_map(|p| std::iter::repeat_n(p.answers(), p.questions()))
+        .collect();
+    let qr = s.question_radices();
+    let ar = s.answer_radices();
+    let mut flat = vec![0; strategy_radices.len()];
+    let (mut qd, mut ad) = (vec![0; qr.len()], vec![0; qr.len()]);
+    let offsets: Vec<usize> = c
+        .parties
+        .iter()
+        .scan(0, |acc, p| {
+            let o = *acc;
+            *acc += p.questions();
+            Some(o)
+        })
+        .collect();
+    let n_strategies = strategies as usize;
+    for lambda in 0..n_strategies {
+        digits(lambda, &strategy_radices, &mut flat);
+        let mut terms = Vec::with_capacity(nq);
+        for q in 0..nq {
+            digits(q, &qr, &mut qd);
+            for i in 0..qr.len() {
+                ad[i] = flat[offsets[i] + qd[i]];
+            }
+            terms.push((q * na + index_of(&ad, &ar), 1.0));
+        }
+        lp.add_row(terms, Relation::Ge, 0.0);
+    }
+    let sol = lp.solve("locality LP")?;
+    let visibility = sol.objective;
+    let local = visibility >= 1.0 - 1e-9;
+    let separating = if local {
+        None
+    } else {
+        let coefficients: Vec<f64> = sol
+            .x
+            .iter()
+            .map(|b| if b.abs() < 1e-12 { 0.0 } else { -b })
+            .collect();
+        let mut local_bound = f64::NEG_INFINITY;
+        for lambda in 0..n_strategies {
+            digits(lambda, &strategy_radices, &mut flat);
+            let mut v = 0.0;
+            for q in 0..nq {
+                digits(q, &qr, &mut qd);
+                for i in 0..qr.len() {
+                    ad[i] = flat[offsets[i] + qd[i]];
+                }
+                v += coefficients[q * na + index_of(&ad, &ar)];
+            }
+            local_bound = local_bound.max(v);
+        }
+        let value = coefficients.iter().zip(&c.p).map(|(c, p)| c * p).sum();
+        Some(SeparatingExpression {
+            coefficients,
+            local_bound,
+            value,
+        })
+    };
+    Ok(LocalityReport {
+        local,
+        visibility,
+        signalling,
+        deterministic_strategies: n_strategies,
+        separating,
+        seconds: start.elapsed().as_secs_f64(),
+    })
+}
+
+/// Writes a separating expression as a game file (Bell terms over full events), so that
+/// `bellgap classical` on it confirms the local bound.
+pub fn expression_as_game(c: &Correlations, expr: &SeparatingExpression) -> GameSpec {
+    let s = c.scenario_shape();
+    let qr = s.question_radices();
+    let ar = s.answer_radices();
+    let na = s.joint_answers();
+    let (mut qd, mut ad) = (vec![0; qr.len()], vec![0; qr.len()]);
+    let mut terms = Vec::new();
+    for (k, &coef) in expr.coefficients.iter().enumerate() {
+        if coef == 0.0 {
+            continue;
+        }
+        digits(k / na, &qr, &mut qd);
+        digits(k % na, &ar, &mut ad);
+        let mut event = Mapping::new();
+        for (i, p) in c.parties.iter().enumerate() {
+            event.insert(
+                Yaml::from(p.name.clone()),
+                Yaml::from(format!("{}|{}", p.answer_labels[ad[i]], p.question_labels[qd[i]])),
+            );
+        }
+        let mut term = Mapping::new();
+        term.insert(Yaml::from("coefficient"), Yaml::from(coef));
+        term.insert(Yaml::from("event"), Yaml::Mapping(event));
+        terms.push(Yaml::Mapping(term));
+    }
+    let mut bell = Mapping::new();
+    bell.insert(Yaml::from("terms"), Yaml::Sequence(terms));
+    let labels = |l: &[i64]| Yaml::Sequence(l.iter().map(|&v| Yaml::from(v)).collect());
+    GameSpec {
+        name: Some(format!("separating-{}", c.name)),
+        description: Some(format!(
+            "Bell expression separating {} from the local set: local bound {:.6}, value on the correlations {:.6}",
+            c.name, expr.local_bound, expr.value
+        )),
+        players: c
+            .parties
+            .iter()
+            .map(|p| PlayerSpec {
+                name: p.name.clone(),
+                question: None,
+                answer: None,
+                questions: labels(&p.question_labels),
+                answers: labels(&p.answer_labels),
+            })
+            .collect(),
+        bell: Some(Yaml::Mapping(bell)),
+        ..Default::default()
+    }
+}

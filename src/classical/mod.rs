@@ -1,0 +1,589 @@
+//! The classical value: the best score of players who share randomness but nothing quantum.
+//! Shared randomness never beats the best deterministic strategy (the value is linear in the
+//! strategy), so the value is a maximum over deterministic strategies, and we return one that
+//! attains it.
+//!
+//! Two exact methods:
+//! - [`search`]: all players but one (the *responder*) are enumerated slot by slot (a slot is one
+//!   player's answer to one question) in a depth-first branch and bound; the responder plays the
+//!   best response to each question. The bound at a node takes, for every responder question and
+//!   answer, the exact contribution of the completed question rows and the best possible one of
+//!   the others. Subtrees are searched in parallel (rayon) sharing the best value found.
+//! - [`milp`]: a mixed-integer programme over the players' answer indicators, for games whose
+//!   enumeration would be too long.
+//!
+//! [`locality`] decides whether given correlations have a local model.
+
+pub mod locality;
+
+use std::sync::atomic::{AtomicU64, AtomicUsize, Ordering};
+use std::time::Instant;
+
+use rayon::prelude::*;
+use serde::Serialize;
+
+use crate::error::{Error, Result};
+use crate::lp::{LinearProgram, Relation, VarBounds};
+use crate::scenario::{digits, index_of, Scenario};
+
+/// A deterministic strategy: `answers[i][x]` is player i's answer index to question index x.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct DeterministicStrategy {
+    pub answers: Vec<Vec<usize>>,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Method {
+    Search,
+    Milp,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct ClassicalValue {
+    /// The value, recomputed from the table for the strategy below.
+    pub value: f64,
+    pub strategy: DeterministicStrategy,
+    pub method: Method,
+    /// Search nodes visited (branch and bound only).
+    pub nodes: u64,
+    pub seconds: f64,
+}
+
+/// How to compute the value.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Choice {
+    /// Branch and bound when its worst case is affordable, else the MILP, else refuse.
+    #[default]
+    Auto,
+    Search,
+    Milp,
+}
+
+/// Worst-case work above which `Auto` does not start the search (about an hour on one core).
+pub const SEARCH_WORK_LIMIT: f64 = 1e12;
+/// MILP size (variables) above which `Auto` refuses.
+pub const MILP_VARIABLE_LIMIT: f64 = 20_000.0;
+
+/// Cost estimates for the two methods.
+#[derive(Debug, Clone, Serialize)]
+pub struct ClassicalEstimate {
+    /// The player whose answers are best responses (not enumerated).
+    pub responder: usize,
+    /// Worst-case number of enumerated strategies (before pruning).
+    pub enumerated_strategies: f64,
+    /// Worst-case floating-point operations of the search.
+    pub search_work: f64,
+    pub milp_variables: f64,
+}
+
+impl ClassicalEstimate {
+    pub fn of(s: &Scenario) -> Self {
+        let log_strategies: Vec<f64> = s
+            .parties
+            .iter()
+            .map(|p| p.questions() as f64 * (p.answers() as f64).ln())
+            .collect();
+        let responder = (0..s.players())
+            .max_by(|&i, &j| log_strategies[i].total_cmp(&log_strategies[j]).then(j.cmp(&i)))
+            .unwrap_or(0);
+        let enumerated: f64 = (0..s.players())
+            .filter(|&i| i != responder)
+            .map(|i| log_strategies[i])
+            .sum::<f64>()
+            .exp();
+        let r = &s.parties[responder];
+        let per_leaf = (r.questions() * r.answers()) as f64;
+        ClassicalEstimate {
+            responder,
+            enumerated_strategies: enumerated,
+            search_work: enumerated * per_leaf * 2.0,
+            milp_variables: (s.joint_questions() * s.joint_answers()) as f64
+                + s.parties
+                    .iter()
+                    .map(|p| (p.questions() * p.answers()) as f64)
+                    .sum::<f64>(),
+        }
+    }
+}
+
+/// Reports finished parallel tasks: (done, total).
+pub type Progress<'a> = &'a (dyn Fn(usize, usize) + Sync);
+
+/// Computes the classical value with the chosen method. `force` skips the size refusal.
+pub fn classical_value(
+    s: &Scenario,
+    choice: Choice,
+    force: bool,
+    progress: Option<Progress>,
+) -> Result<ClassicalValue> {
+    let est = ClassicalEstimate::of(s);
+    match choice {
+        Choice::Search => {
+            if !force && est.search_work > SEARCH_WORK_LIMIT {
+                return Err(too_large_search(&est));
+            }
+            Ok(search(s, progress))
+        }
+        Choice::Milp => {
+            if !force && est.milp_variables > MILP_VARIABLE_LIMIT {
+                return Err(too_large_milp(&est));
+            }
+            milp(s)
+        }
+        Choice::Auto => {
+            if est.search_work <= SEARCH_WORK_LIMIT || force {
+                Ok(search(s, progress))
+            } else if est.milp_variables <= MILP_VARIABLE_LIMIT {
+                milp(s)
+            } else {
+                Err(too_large_search(&est))
+            }
+        }
+    }
+}
+
+fn too_large_search(est: &ClassicalEstimate) -> Error {
+    Error::TooLarge {
+        what: "the exact classical search".into(),
+        estimate: format!(
+            "up to {:.2e} strategies of the enumerated players, about {:.1e} operations (hours or more on this machine) before pruning; the MILP would have {:.0} variables",
+            est.enumerated_strategies, est.search_work, est.milp_variables
+        ),
+        hint: "pruning often cuts this a lot: pass --force to try anyway".into(),
+    }
+}
+
+fn too_large_milp(est: &ClassicalEstimate) -> Error {
+    Error::TooLarge {
+        what: "the classical MILP".into(),
+        estimate: format!("{:.0} variables", est.milp_variables),
+        hint: "pass --force to try anyway".into(),
+    }
+}
+
+/// The game seen from the responder: rows are joint questions of the enumerated players.
+struct Layout {
+    responder: usize,
+    /// Enumerated players, in order.
+    others: Vec<usize>,
+    other_q: Vec<usize>,
+    other_a: Vec<usize>,
+    rows: usize,
+    y: usize,
+    b: usize,
+    other_answers: usize,
+    /// `coef[((row * y + yq) * other_answers + ao) * b + bb]`.
+    coef: Vec<f64>,
+    /// `best[(row * y + yq) * b + bb]`: max over the enumerated players' answers.
+    best: Vec<f64>,
+    /// Slots in search order: (index into `others`, question).
+    slots: Vec<(usize, usize)>,
+    /// Rows whose last slot is slot d.
+    completes: Vec<Vec<usize>>,
+    /// Per row, the question of each enumerated player.
+    row_questions: Vec<Vec<usize>>,
+}
+
+impl Layout {
+    fn new(s: &Scenario, responder: usize) -> Self {
+        let n = s.players();
+        let others: Vec<usize> = (0..n).filter(|&i| i != responder).collect();
+        let other_q: Vec<usize> = others.iter().map(|&i| s.parties[i].questions()).collect();
+        let other_a: Vec<usize> = others.iter().map(|&i| s.parties[i].answers()).collect();
+        let rows: usize = other_q.iter().product();
+        let other_answers: usize = other_a.iter().product();
+        let (y, b) = (
+            s.parties[responder].questions(),
+            s.parties[responder].answers(),
+        );
+        let qr = s.question_radices();
+        let ar = s.answer_radices();
+        let na = s.joint_answers();
+        let obj = s.objective();
+        let mut coef = vec![0.0; rows * y * other_answers * b];
+        let (mut qd, mut ad) = (vec![0; n], vec![0; n]);
+        let (mut rd, mut od) = (vec![0; others.len()], vec![0; others.len()]);
+        for q in 0..s.joint_questions() {
+            digits(q, &qr, &mut qd);
+            for (k, &i) in others.iter().enumerate() {
+                rd[k] = qd[i];
+            }
+            let row = index_of(&rd, &other_q);
+            for a in 0..na {
+                digits(a, &ar, &mut ad);
+                for (k, &i) in others.iter().enumerate() {
+                    od[k] = ad[i];
+                }
+                let ao = index_of(&od, &other_a);
+                coef[((row * y + qd[responder]) * other_answers + ao) * b + ad[responder]] =
+                    obj[q * na + a];
+            }
+        }
+        let mut best = vec![f64::NEG_INFINITY; rows * y * b];
+        for row in 0..rows {
+            for yq in 0..y {
+                for ao in 0..other_answers {
+                    for bb in 0..b {
+                        let c = coef[((row * y + yq) * other_answers + ao) * b + bb];
+                        let m = &mut best[(row * y + yq) * b + bb];
+                        *m = m.max(c);
+                    }
+                }
+            }
+        }
+        // Interleave players by question index so question rows complete early and the bound
+        // tightens near the root.
+        let max_q = other_q.iter().copied().max().unwrap_or(0);
+        let mut slots = Vec::new();
+        let mut slot_of = vec![vec![0; max_q]; others.len()];
+        for x in 0..max_q {
+            for k in 0..others.len() {
+                if x < other_q[k] {
+                    slot_of[k][x] = slots.len();
+                    slots.push((k, x));
+                }
+            }
+        }
+        let mut completes = vec![Vec::new(); slots.len()];
+        let mut row_questions = Vec::with_capacity(rows);
+        for row in 0..rows {
+            digits(row, &other_q, &mut rd);
+            let last = (0..others.len()).map(|k| slot_of[k][rd[k]]).max().unwrap_or(0);
+            completes[last].push(row);
+            row_questions.push(rd.clone());
+        }
+        Layout {
+            responder,
+            others,
+            other_q,
+            other_a,
+            rows,
+            y,
+            b,
+            other_answers,
+            coef,
+            best,
+            slots,
+            completes,
+            row_questions,
+        }
+    }
+}
+
+/// Shared best value, as f64 bits (the search only ever raises it).
+struct SharedBest(AtomicU64);
+
+impl SharedBest {
+    fn get(&self) -> f64 {
+        f64::from_bits(self.0.load(Ordering::Relaxed))
+    }
+    fn raise(&self, v: f64) {
+        let mut cur = self.0.load(Ordering::Relaxed);
+        while v > f64::from_bits(cur) {
+            match self
+                .0
+                .compare_exchange_weak(cur, v.to_bits(), Ordering::Relaxed, Ordering::Relaxed)
+            {
+                Ok(_) => break,
+                Err(actual) => cur = actual,
+            }
+        }
+    }
+}
+
+/// One depth-first searcher: the current partial assignment and running sums.
+struct Searcher<'a> {
+    lay: &'a Layout,
+    /// Current answer per (enumerated player, question).
+    assign: Vec<Vec<usize>>,
+    /// `acc[yq * b + bb]`: Σ over rows of the exact (completed) or optimistic contribution.
+    acc: Vec<f64>,
+    tolerance: f64,
+    own_best: f64,
+    best_assign: Option<Vec<Vec<usize>>>,
+    shared: &'a SharedBest,
+    nodes: u64,
+}
+
+impl<'a> Searcher<'a> {
+    fn new(lay: &'a Layout, shared: &'a SharedBest, tolerance: f64) -> Self {
+        let mut acc = vec![0.0; lay.y * lay.b];
+        for row in 0..lay.rows {
+            for (k, a) in acc.iter_mut().enumerate() {
+                *a += lay.best[row * lay.y * lay.b + k];
+            }
+        }
+        Searcher {
+            lay,
+            assign: lay.other_q.iter().map(|&q| vec![0; q]).collect(),
+            acc,
+            tolerance,
+            own_best: f64::NEG_INFINITY,
+            best_assign: None,
+            shared,
+            nodes: 0,
+        }
+    }
+
+    fn bound(&self) -> f64 {
+        self.acc
+            .chunks(self.lay.b)
+            .map(|c| c.iter().cloned().fold(f64::NEG_INFINITY, f64::max))
+            .sum()
+    }
+
+    /// Adds (sign = 1) or removes (sign = -1) the exact contribution of rows completed at slot d.
+    fn apply(&mut self, d: usize, sign: f64) {
+        let lay = self.lay;
+        for &row in &lay.completes[d] {
+            let rq = &lay.row_questions[row];
+            let ao = (0..lay.others.len()).fold(0, |acc, k| acc * lay.other_a[k] + self.assign[k][rq[k]]);
+            for yq in 0..lay.y {
+                let c0 = ((row * lay.y + yq) * lay.other_answers + ao) * lay.b;
+                let m0 = (row * lay.y + yq) * lay.b;
+                for bb in 0..lay.b {
+                    self.acc[yq * lay.b + bb] += sign * (lay.coef[c0 + bb] - lay.best[m0 + bb]);
+                }
+            }
+        }
+    }
+
+    /// Whether a node with this bound can still beat what is known. Ties with the shared best
+    /// are kept so each task finds its own first optimum (the result is then deterministic).
+    fn promising(&self, bound: f64) -> bool {
+        bound > self.own_best + self.tolerance && bound >= self.shared.get() - self.tolerance
+    }
+
+    fn descend(&mut self, d: usize) {
+        self.nodes += 1;
+        if d == self.lay.slots.len() {
+            let v = self.bound();
+            if v > self.own_best + self.tolerance {
+                self.own_best = v;
+                self.best_assign = Some(self.assign.clone());
+                self.shared.raise(v);
+            }
+            return;
+        }
+        let (k, x) = self.lay.slots[d];
+        for alpha in 0..self.lay.other_a[k] {
+            self.assign[k][x] = alpha;
+            self.apply(d, 1.0);
+            if self.promising(self.bound()) {
+                self.descend(d + 1);
+            }
+            self.apply(d, -1.0);
+        }
+    }
+}
+
+/// Exact classical value by parallel branch and bound.
+pub fn search(s: &Scenario, progress: Option<Progress>) -> ClassicalValue {
+    let start = Instant::now();
+    let est = ClassicalEstimate::of(s);
+    let lay = Layout::new(s, est.responder);
+    let scale: f64 = s
+        .objective()
+        .chunks(s.joint_answers())
+        .map(|c| c.iter().fold(0.0f64, |m, v| m.max(v.abs())))
+        .sum();
+    let tolerance = 1e-12 * (1.0 + scale);
+    let shared = SharedBest(AtomicU64::new(f64::NEG_INFINITY.to_bits()));
+
+    // Split the tree at a depth with enough subtrees to keep both cores busy.
+    let mut split = 0;
+    let mut tasks = 1usize;
+    while split < lay.slots.len() && tasks < 256 {
+        tasks *= lay.other_a[lay.slots[split].0];
+        split += 1;
+    }
+    let radices: Vec<usize> = lay.slots[..split]
+        .iter()
+        .map(|&(k, _)| lay.other_a[k])
+        .collect();
+    let done = AtomicUsize::new(0);
+    let results: Vec<(f64, Option<Vec<Vec<usize>>>, u64)> = (0..tasks)
+        .into_par_iter()
+        .map(|t| {
+            let mut sr = Searcher::new(&lay, &shared, tolerance);
+            let mut prefix = vec![0; split];
+            digits(t, &radices, &mut prefix);
+            let mut alive = true;
+            for (d, &alpha) in prefix.iter().enumerate() {
+                let (k, x) = lay.slots[d];
+                sr.assign[k][x] = alpha;
+                sr.apply(d, 1.0);
+                if !sr.promising(sr.bound()) {
+                    alive = false;
+                    break;
+                }
+            }
+            if alive {
+                sr.descend(split);
+            }
+            let finished = done.fetch_add(1, Ordering::Relaxed) + 1;
+            if let Some(p) = progress {
+                p(finished, tasks);
+            }
+            (sr.own_best, sr.best_assign, sr.nodes)
+        })
+        .collect();
+
+    let top = results
+        .iter()
+        .map(|r| r.0)
+        .fold(f64::NEG_INFINITY, f64::max);
+    // The first task (in tree order) reaching the optimum gives the reported strategy.
+    let winner = results
+        .iter()
+        .find(|r| r.1.is_some() && r.0 >= top - tolerance)
+        .and_then(|r| r.1.clone())
+        .expect("some leaf is always reached: the optimum is never pruned");
+    let nodes = results.iter().map(|r| r.2).sum();
+    let strategy = complete_with_best_response(s, &lay, &winner);
+    ClassicalValue {
+        value: s.value_of_strategy(&strategy.answers),
+        strategy,
+        method: Method::Search,
+        nodes,
+        seconds: start.elapsed().as_secs_f64(),
+    }
+}
+
+/// Adds the responder's best response to the enumerated players' answers.
+fn complete_with_best_response(
+    s: &Scenario,
+    lay: &Layout,
+    assign: &[Vec<usize>],
+) -> DeterministicStrategy {
+    let mut answers = vec![Vec::new(); s.players()];
+    for (k, &i) in lay.others.iter().enumerate() {
+        answers[i] = assign[k].clone();
+    }
+    answers[lay.responder] = best_response(s, &answers, lay.responder);
+    DeterministicStrategy { answers }
+}
+
+/// Player `who`'s best answer to each of its questions against the others' fixed answers (its
+/// own entry in `answers` is ignored). Ties go to the smallest answer index.
+pub fn best_response(s: &Scenario, answers: &[Vec<usize>], who: usize) -> Vec<usize> {
+    let qr = s.question_radices();
+    let ar = s.answer_radices();
+    let na = s.joint_answers();
+    let p = &s.parties[who];
+    let mut gain = vec![0.0; p.questions() * p.answers()];
+    let (mut qd, mut ad) = (vec![0; qr.len()], vec![0; qr.len()]);
+    for q in 0..s.joint_questions() {
+        digits(q, &qr, &mut qd);
+        for i in 0..qr.len() {
+            if i != who {
+                ad[i] = answers[i][qd[i]];
+            }
+        }
+        for bb in 0..p.answers() {
+            ad[who] = bb;
+            gain[qd[who] * p.answers() + bb] += s.objective()[q * na + index_of(&ad, &ar)];
+        }
+    }
+    gain.chunks(p.answers())
+        .map(|g| {
+            let mut best = 0;
+            for (k, v) in g.iter().enumerate() {
+                if *v > g[best] {
+                    best = k;
+                }
+            }
+            best
+        })
+        .collect()
+}
+
+/// Exact classical value by a mixed-integer programme: binary answer indicators `s_i(x, a)`
+/// (one answer per question) and behaviour variables `w(a|q) ≤ s_i(q_i, a_i)` with
+/// `Σ_a w(a|q) = 1`, which forces `w` to the product of the indicators.
+pub fn milp(s: &Scenario) -> Result<ClassicalValue> {
+    let start = Instant::now();
+    let n = s.players();
+    let mut lp = LinearProgram::new(true);
+    let indicator: Vec<Vec<Vec<usize>>> = s
+        .parties
+        .iter()
+        .map(|p| {
+            (0..p.questions())
+                .map(|_| {
+                    (0..p.answers())
+                        .map(|_| lp.add_var(VarBounds::BINARY, 0.0))
+                        .collect()
+                })
+                .collect()
+        })
+        .collect();
+    for player in &indicator {
+        for per_q in player {
+            lp.add_row(per_q.iter().map(|&v| (v, 1.0)).collect(), Relation::Eq, 1.0);
+        }
+    }
+    let qr = s.question_radices();
+    let ar = s.answer_radices();
+    let na = s.joint_answers();
+    let (mut qd, mut ad) = (vec![0; n], vec![0; n]);
+    for q in 0..s.joint_questions() {
+        digits(q, &qr, &mut qd);
+        let mut row = Vec::with_capacity(na);
+        for a in 0..na {
+            digits(a, &ar, &mut ad);
+            let w = lp.add_var(
+                VarBounds {
+                    lower: 0.0,
+                    upper: 1.0,
+                    integer: false,
+                },
+                s.objective()[q * na + a],
+            );
+            row.push((w, 1.0));
+            for i in 0..n {
+                lp.add_row(
+                    vec![(w, 1.0), (indicator[i][qd[i]][ad[i]], -1.0)],
+                    Relation::Le,
+                    0.0,
+                );
+            }
+        }
+        lp.add_row(row, Relation::Eq, 1.0);
+    }
+    let sol = lp.solve("classical MILP")?;
+    let answers: Vec<Vec<usize>> = indicator
+        .iter()
+        .map(|player| {
+            player
+                .iter()
+                .map(|per_q| {
+                    per_q
+                        .iter()
+                        .enumerate()
+                        .max_by(|a, b| sol.x[*a.1].total_cmp(&sol.x[*b.1]))
+                        .map(|(k, _)| k)
+                        .unwrap_or(0)
+                })
+                .collect()
+        })
+        .collect();
+    let value = s.value_of_strategy(&answers);
+    if (value - (sol.objective + s.offset)).abs() > 1e-6 * (1.0 + value.abs()) {
+        return Err(Error::solver(
+            "classical MILP",
+            format!(
+                "the rounded strategy scores {value} but the solver reported {}",
+                sol.objective + s.offset
+            ),
+        ));
+    }
+    Ok(ClassicalValue {
+        value,
+        strategy: DeterministicStrategy { answers },
+        method: Method::Milp,
+        nodes: 0,
+        seconds: start.elapsed().as_secs_f64(),
+    })
+}

@@ -1,0 +1,321 @@
+//! Command-line definitions (clap) and the resolution of what the user typed into calls of the
+//! library. Nothing here computes a bound.
+
+use std::io::IsTerminal;
+use std::path::PathBuf;
+use std::sync::Mutex;
+use std::time::Instant;
+
+use clap::{Args, Parser, Subcommand, ValueEnum};
+use serde_json::{json, Value};
+
+use bellgap::classical::locality::{expression_as_game, locality_test, Correlations};
+use bellgap::classical::{self, ClassicalEstimate, Choice};
+use bellgap::game::{families, product, CompileOptions, Game, GameSpec};
+use bellgap::nosignal;
+use bellgap::report::{self, Report};
+use bellgap::{Error, Result};
+
+#[derive(Parser, Debug)]
+#[command(
+    name = "bellgap",
+    version,
+    about = "Bounds for nonlocal games and Bell expressions: classical, no-signalling, and the gaps between them",
+    long_about = None
+)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+pub enum Command {
+    /// Validate a game file and print its sizes and cost estimates.
+    Check(GameArgs),
+    /// Exact classical value and an optimal deterministic strategy.
+    Classical {
+        #[command(flatten)]
+        args: GameArgs,
+        /// How to compute it: branch and bound, a MILP, or chosen by size.
+        #[arg(long, value_enum, default_value_t = MethodArg::Auto)]
+        method: MethodArg,
+    },
+    /// No-signalling value (linear programme).
+    Nosignal(GameArgs),
+    /// Every bound available, then the gaps between them.
+    Bounds(GameArgs),
+    /// Decide whether given correlations p(answers|questions) have a local model.
+    Local {
+        /// Correlations file (YAML or JSON, see README).
+        correlations: PathBuf,
+        /// Write the separating Bell expression (if any) as a game file here.
+        #[arg(long, value_name = "FILE")]
+        save: Option<PathBuf>,
+        /// Run even when the estimate says it would take very long.
+        #[arg(long)]
+        force: bool,
+        /// Print exactly one JSON object on stdout.
+        #[arg(long)]
+        json: bool,
+    },
+    /// Print a standard game or Bell expression as a game file.
+    Family {
+        #[command(subcommand)]
+        family: FamilyCommand,
+        /// Print the game as JSON (also a valid game file) instead of YAML.
+        #[arg(long, global = true)]
+        json: bool,
+    },
+}
+
+#[derive(Args, Debug, Clone)]
+pub struct GameArgs {
+    /// Game file (YAML).
+    pub game: PathBuf,
+    /// Print exactly one JSON object on stdout.
+    #[arg(long)]
+    pub json: bool,
+    /// No progress output on stderr.
+    #[arg(long, short)]
+    pub quiet: bool,
+    /// Run even when the size estimate says it would take very long.
+    #[arg(long)]
+    pub force: bool,
+    /// Build game tables larger than the default memory limit.
+    #[arg(long)]
+    pub allow_large: bool,
+}
+
+#[derive(ValueEnum, Debug, Clone, Copy)]
+pub enum MethodArg {
+    Auto,
+    Search,
+    Milp,
+}
+
+#[derive(Subcommand, Debug)]
+pub enum FamilyCommand {
+    /// CHSH game (win iff a xor b = x·y).
+    Chsh,
+    /// CHSH expression in correlators, E00 + E01 + E10 − E11.
+    ChshExpression,
+    /// XOR game from a sign table.
+    Xor {
+        /// Rows separated by `;`, entries -1, 0 or 1 separated by `,` (e.g. "1,1;1,-1").
+        #[arg(long, allow_hyphen_values = true)]
+        signs: String,
+    },
+    /// Odd cycle game on n vertices.
+    OddCycle {
+        #[arg(long, default_value_t = 3)]
+        n: usize,
+    },
+    /// Magic square game.
+    MagicSquare,
+    /// n-player GHZ parity game.
+    Ghz {
+        #[arg(long, default_value_t = 3)]
+        players: usize,
+    },
+    /// CGLMP expression with d outcomes.
+    Cglmp {
+        #[arg(long, default_value_t = 3)]
+        d: usize,
+    },
+    /// I3322 expression (Collins–Gisin form).
+    I3322,
+    /// Chained Bell expression with m settings.
+    Chained {
+        #[arg(long, default_value_t = 3)]
+        m: usize,
+    },
+    /// Mermin's three-player expression.
+    Mermin,
+    /// k-fold parallel repetition of any game file.
+    Product {
+        /// The game to repeat.
+        #[arg(long)]
+        game: PathBuf,
+        /// Number of rounds played in parallel.
+        #[arg(long, default_value_t = 2)]
+        rounds: usize,
+    },
+}
+
+/// What a command produced: text for people, one JSON object for programs, warnings for stderr.
+pub struct Output {
+    pub text: String,
+    pub json: Value,
+    pub warnings: Vec<String>,
+}
+
+impl Cli {
+    pub fn wants_json(&self) -> bool {
+        match &self.command {
+            Command::Check(a) | Command::Nosignal(a) | Command::Bounds(a) => a.json,
+            Command::Classical { args, .. } => args.json,
+            Command::Local { json, .. } | Command::Family { json, .. } => *json,
+        }
+    }
+}
+
+fn load(args: &GameArgs) -> Result<Game> {
+    Game::from_file(
+        &args.game.to_string_lossy(),
+        CompileOptions {
+            allow_large: args.allow_large,
+        },
+    )
+}
+
+/// Progress on stderr for long searches, only when a person is watching.
+fn progress_printer(quiet: bool) -> Option<impl Fn(usize, usize) + Sync> {
+    if quiet || !std::io::stderr().is_terminal() {
+        return None;
+    }
+    let last = Mutex::new(Instant::now());
+    Some(move |done: usize, total: usize| {
+        let mut t = last.lock().unwrap_or_else(|e| e.into_inner());
+        if t.elapsed().as_millis() >= 200 || done == total {
+            *t = Instant::now();
+            eprint!("\rclassical search: {done}/{total} subtrees");
+            if done == total {
+                eprint!("\r{:40}\r", "");
+            }
+        }
+    })
+}
+
+/// A heads-up before a search whose worst case is long.
+fn warn_long_search(s: &bellgap::Scenario, warnings: &mut Vec<String>) {
+    let est = ClassicalEstimate::of(s);
+    // About 2e8 inner operations per second per core, measured on the bench suite.
+    let seconds = est.search_work / 4e8;
+    if seconds > 30.0 {
+        warnings.push(format!(
+            "the classical search may take up to {seconds:.0} s before pruning ({:.2e} strategies enumerated)",
+            est.enumerated_strategies
+        ));
+    }
+}
+
+fn classical_for(game: &Game, args: &GameArgs, choice: Choice) -> Result<classical::ClassicalValue> {
+    let printer = progress_printer(args.quiet || args.json);
+    let progress = printer.as_ref().map(|p| p as classical::Progress);
+    classical::classical_value(&game.scenario, choice, args.force, progress)
+}
+
+pub fn run(cli: &Cli) -> Result<Output> {
+    match &cli.command {
+        Command::Check(args) => {
+            let game = load(args)?;
+            let mut r = Report::new("check", &game);
+            r.sizes = true;
+            Ok(game_output(&r))
+        }
+        Command::Classical { args, method } => {
+            let game = load(args)?;
+            let choice = match method {
+                MethodArg::Auto => Choice::Auto,
+                MethodArg::Search => Choice::Search,
+                MethodArg::Milp => Choice::Milp,
+            };
+            let mut early = Vec::new();
+            if !matches!(choice, Choice::Milp) {
+                warn_long_search(&game.scenario, &mut early);
+            }
+            print_early(&early, args.quiet);
+            let mut r = Report::new("classical", &game);
+            r.classical = Some(classical_for(&game, args, choice)?);
+            Ok(game_output(&r))
+        }
+        Command::Nosignal(args) => {
+            let game = load(args)?;
+            let mut r = Report::new("nosignal", &game);
+            r.no_signalling = Some(nosignal::no_signalling_value(&game.scenario, args.force)?);
+            Ok(game_output(&r))
+        }
+        Command::Bounds(args) => {
+            let game = load(args)?;
+            let mut early = Vec::new();
+            warn_long_search(&game.scenario, &mut early);
+            print_early(&early, args.quiet);
+            let mut r = Report::new("bounds", &game);
+            r.classical = Some(classical_for(&game, args, Choice::Auto)?);
+            r.no_signalling = Some(nosignal::no_signalling_value(&game.scenario, args.force)?);
+            Ok(game_output(&r))
+        }
+        Command::Local {
+            correlations,
+            save,
+            force,
+            json: _,
+        } => {
+            let path = correlations.to_string_lossy().to_string();
+            let c = Correlations::from_file(&path)?;
+            let report = locality_test(&c, *force)?;
+            let mut saved = None;
+            if let (Some(file), Some(sep)) = (save, &report.separating) {
+                let spec = expression_as_game(&c, sep);
+                std::fs::write(file, spec.to_yaml()).map_err(|source| Error::Io {
+                    path: file.to_string_lossy().to_string(),
+                    source,
+                })?;
+                saved = Some(file.to_string_lossy().to_string());
+            }
+            let mut json = report::locality_json(&c.name, &report);
+            json["saved"] = json!(saved);
+            Ok(Output {
+                text: report::locality_text(&c.name, &report, saved.as_deref()),
+                json,
+                warnings: Vec::new(),
+            })
+        }
+        Command::Family { family, json: _ } => {
+            let spec = family_spec(family)?;
+            // A family must always compile; checking here keeps `games/` honest.
+            Game::from_spec(&spec, "family")?;
+            Ok(Output {
+                text: spec.to_yaml(),
+                json: serde_json::to_value(&spec).map_err(|e| Error::Usage(e.to_string()))?,
+                warnings: Vec::new(),
+            })
+        }
+    }
+}
+
+fn print_early(warnings: &[String], quiet: bool) {
+    if !quiet {
+        for w in warnings {
+            eprintln!("warning: {w}");
+        }
+    }
+}
+
+fn game_output(r: &Report) -> Output {
+    Output {
+        text: r.to_text(),
+        json: r.to_json(),
+        warnings: r.game.warnings.clone(),
+    }
+}
+
+fn family_spec(f: &FamilyCommand) -> Result<GameSpec> {
+    Ok(match f {
+        FamilyCommand::Chsh => families::chsh(),
+        FamilyCommand::ChshExpression => families::chsh_expression(),
+        FamilyCommand::Xor { signs } => families::xor_game(&families::parse_sign_table(signs)?)?,
+        FamilyCommand::OddCycle { n } => families::odd_cycle(*n)?,
+        FamilyCommand::MagicSquare => families::magic_square(),
+        FamilyCommand::Ghz { players } => families::ghz(*players)?,
+        FamilyCommand::Cglmp { d } => families::cglmp(*d)?,
+        FamilyCommand::I3322 => families::i3322(),
+        FamilyCommand::Chained { m } => families::chained_bell(*m)?,
+        FamilyCommand::Mermin => families::mermin(),
+        FamilyCommand::Product { game, rounds } => {
+            let path = game.to_string_lossy().to_string();
+            let g = Game::from_file(&path, CompileOptions::default())?;
+            product::parallel_repetition(&g.scenario, &g.name, *rounds)?
+        }
+    })
+}

@@ -1,0 +1,101 @@
+//! Typed errors of the library. The CLI renders them once, at the edge, and maps each kind to an
+//! exit code: bad input is the user's to fix (exit 2), a solver or internal failure is ours (exit 1).
+
+use std::fmt;
+
+/// Where in an input file something is wrong. Line and column are 1-based; either may be unknown
+/// when the problem is about the file as a whole.
+#[derive(Debug, Clone, Default, PartialEq, Eq, serde::Serialize)]
+pub struct Location {
+    pub file: String,
+    pub line: Option<usize>,
+    pub column: Option<usize>,
+    /// The field path inside the document, e.g. `players[1].questions`.
+    pub field: Option<String>,
+}
+
+impl fmt::Display for Location {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "{}", self.file)?;
+        if let Some(line) = self.line {
+            write!(f, ":{line}")?;
+            if let Some(column) = self.column {
+                write!(f, ":{column}")?;
+            }
+        }
+        if let Some(field) = &self.field {
+            write!(f, " (field `{field}`)")?;
+        }
+        Ok(())
+    }
+}
+
+#[derive(Debug, thiserror::Error)]
+pub enum Error {
+    /// The user's input is wrong: a file that does not parse, a field out of range, a formula that
+    /// does not evaluate.
+    #[error("{location}: {message}")]
+    Input { location: Location, message: String },
+
+    /// A command-line request that cannot be honoured as given (e.g. unknown family parameter).
+    #[error("{0}")]
+    Usage(String),
+
+    /// The requested work would take too long or need too much memory. Carries the estimate so
+    /// the user can decide whether to override.
+    #[error("{what} is too large: {estimate}; {hint}")]
+    TooLarge {
+        what: String,
+        estimate: String,
+        hint: String,
+    },
+
+    /// A numerical solver did not reach an answer we can report.
+    #[error("solver failure in {stage}: {message}")]
+    Solver { stage: String, message: String },
+
+    #[error("cannot read {path}: {source}")]
+    Io {
+        path: String,
+        #[source]
+        source: std::io::Error,
+    },
+}
+
+impl Error {
+    /// Exit code convention of the CLI: 2 for anything the user can fix in the input or command
+    /// line, 1 for failures on our side.
+    pub fn exit_code(&self) -> i32 {
+        match self {
+            Error::Input { .. } | Error::Usage(_) | Error::TooLarge { .. } | Error::Io { .. } => 2,
+            Error::Solver { .. } => 1,
+        }
+    }
+
+    /// Short machine-readable category used in JSON error output.
+    pub fn kind(&self) -> &'static str {
+        match self {
+            Error::Input { .. } => "input",
+            Error::Usage(_) => "usage",
+            Error::TooLarge { .. } => "too_large",
+            Error::Solver { .. } => "solver",
+            Error::Io { .. } => "io",
+        }
+    }
+
+    pub fn location(&self) -> Option<&Location> {
+        match self {
+            Error::Input { location, .. } => Some(location),
+            _ => None,
+        }
+    }
+
+    pub fn solver(stage: &str, message: impl Into<String>) -> Self {
+        Error::Solver {
+            stage: stage.to_string(),
+            message: message.into(),
+        }
+    }
+}
+
+pub type Result<T, E = Error> = std::result::Result<T, E>;

@@ -1,0 +1,166 @@
+//! Source positions of the fields of a YAML document.
+//!
+//! serde gives us typed values but no positions for them, so validation that happens after
+//! deserialisation (a formula with an unknown name, probabilities that do not sum to one) would
+//! otherwise only be able to name the field. This module walks the document once with an
+//! event parser and records where each field path starts, so every error can name file, line,
+//! column and field.
+
+use std::collections::HashMap;
+
+use yaml_rust2::parser::{Event, MarkedEventReceiver, Parser};
+use yaml_rust2::scanner::{Marker, TScalarStyle};
+
+/// Position of a value in the source: 1-based line and column, and whether the value is a
+/// single-line quoted scalar (then its text starts one column later).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Position {
+    pub line: usize,
+    pub column: usize,
+    /// Column where the scalar's text begins, if the scalar is on one line and its characters
+    /// map one-to-one to columns (plain or quoted without escapes).
+    pub text_column: Option<usize>,
+}
+
+/// Field path → position of the value at that path (`players[1].questions`).
+#[derive(Debug, Default)]
+pub struct SourceMap {
+    positions: HashMap<String, Position>,
+}
+
+impl SourceMap {
+    /// Builds the map; a document that fails to parse yields an empty map (serde reports the
+    /// syntax error itself, with its own position).
+    pub fn new(text: &str) -> Self {
+        let mut builder = Builder {
+            text,
+            stack: Vec::new(),
+            map: SourceMap::default(),
+        };
+        let mut parser = Parser::new_from_str(text);
+        if parser.load(&mut builder, false).is_err() {
+            return SourceMap::default();
+        }
+        builder.map
+    }
+
+    /// Position of the value at `path`, or of the nearest enclosing field that has one.
+    pub fn find(&self, path: &str) -> Option<Position> {
+        let mut p = path.to_string();
+        loop {
+            if let Some(pos) = self.positions.get(&p) {
+                return Some(*pos);
+            }
+            let cut = p.rfind(['.', '['])?;
+            p.truncate(cut);
+        }
+    }
+}
+
+enum Frame {
+    /// Inside a mapping: the path of the mapping and, once a key was read, the key awaiting its
+    /// value.
+    Mapping { path: String, key: Option<String> },
+    Sequence { path: String, next: usize },
+}
+
+struct Builder<'a> {
+    text: &'a str,
+    stack: Vec<Frame>,
+    map: SourceMap,
+}
+
+impl Builder<'_> {
+    /// The path of the value that begins now, advancing the parent's cursor. Returns `None`
+    /// when the event is a mapping key rather than a value.
+    fn next_value_path(&mut self, key_text: Option<&str>) -> Option<String> {
+        match self.stack.last_mut() {
+            None => Some(String::new()),
+            Some(Frame::Sequence { path, next }) => {
+                let p = format!("{path}[{next}]");
+                *next += 1;
+                Some(p)
+            }
+            Some(Frame::Mapping { path, key }) => match key.take() {
+                Some(k) => Some(if path.is_empty() {
+                    k
+                } else {
+                    format!("{path}.{k}")
+                }),
+                None => {
+                    *key = Some(key_text.unwrap_or("?").to_string());
+                    None
+                }
+            },
+        }
+    }
+
+    fn record(&mut self, path: String, mark: Marker, text_column: Option<usize>) {
+        self.map.positions.entry(path).or_insert(Position {
+            line: mark.line(),
+            column: mark.col() + 1,
+            text_column,
+        });
+    }
+}
+
+impl MarkedEventReceiver for Builder<'_> {
+    fn on_event(&mut self, ev: Event, mark: Marker) {
+        match ev {
+            Event::Scalar(value, style, _, _) => {
+                if let Some(path) = self.next_value_path(Some(&value)) {
+                    let raw = &self.text[mark.index().min(self.text.len())..];
+                    let first_line = raw.lines().next().unwrap_or("");
+                    let text_column = match style {
+                        TScalarStyle::Plain if first_line.starts_with(value.as_str()) => {
+                            Some(mark.col() + 1)
+                        }
+                        TScalarStyle::SingleQuoted | TScalarStyle::DoubleQuoted
+                            if first_line[1..].starts_with(value.as_str()) =>
+                        {
+                            Some(mark.col() + 2)
+                        }
+                        _ => None,
+                    };
+                    self.record(path, mark, text_column);
+                }
+            }
+            Event::SequenceStart(..) => {
+                let path = self.next_value_path(None).unwrap_or_default();
+                self.record(path.clone(), mark, None);
+                self.stack.push(Frame::Sequence { path, next: 0 });
+            }
+            Event::MappingStart(..) => {
+                let path = self.next_value_path(None).unwrap_or_default();
+                self.record(path.clone(), mark, None);
+                self.stack.push(Frame::Mapping { path, key: None });
+            }
+            Event::SequenceEnd | Event::MappingEnd => {
+                self.stack.pop();
+            }
+            Event::Alias(_) => {
+                let _ = self.next_value_path(None);
+            }
+            _ => {}
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn finds_nested_fields_and_formula_text() {
+        let text = "name: t\nplayers:\n  - name: alice\n    questions: 2\n  - name: bob\n    questions: [0, 5]\nwin: \"a == b\"\n";
+        let map = SourceMap::new(text);
+        let q = map.find("players[0].questions").unwrap();
+        assert_eq!((q.line, q.column), (4, 16));
+        let q = map.find("players[1].questions[1]").unwrap();
+        assert_eq!((q.line, q.column), (6, 20));
+        let w = map.find("win").unwrap();
+        assert_eq!((w.line, w.text_column), (7, Some(7)));
+        // A path below a scalar falls back to the scalar.
+        assert_eq!(map.find("win.inner").unwrap().line, 7);
+    }
+}

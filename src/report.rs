@@ -1,0 +1,266 @@
+//! What the commands print: one report type per command, rendered as a compact aligned table for
+//! people or as exactly one JSON object for programs. Value keys in JSON are stable:
+//! `classical`, `no_signalling` (later: quantum bounds).
+
+use serde_json::{json, Map, Value};
+
+use crate::classical::locality::LocalityReport;
+use crate::classical::{ClassicalEstimate, ClassicalValue, DeterministicStrategy};
+use crate::game::Game;
+use crate::nosignal::NoSignallingValue;
+use crate::scenario::{Scenario, Sizes};
+
+/// Everything computed for one game by `check`, `classical`, `nosignal` or `bounds`.
+#[derive(Debug, Clone)]
+pub struct Report<'a> {
+    pub command: &'static str,
+    pub game: &'a Game,
+    pub classical: Option<ClassicalValue>,
+    pub no_signalling: Option<NoSignallingValue>,
+    /// Include sizes and estimates (the `check` command).
+    pub sizes: bool,
+}
+
+impl<'a> Report<'a> {
+    pub fn new(command: &'static str, game: &'a Game) -> Self {
+        Report {
+            command,
+            game,
+            classical: None,
+            no_signalling: None,
+            sizes: false,
+        }
+    }
+
+    pub fn to_json(&self) -> Value {
+        let s = &self.game.scenario;
+        let mut m = Map::new();
+        m.insert("command".into(), json!(self.command));
+        m.insert("game".into(), json!(self.game.name));
+        m.insert("source".into(), json!(self.game.source));
+        m.insert("kind".into(), json!(s.kind));
+        m.insert(
+            "players".into(),
+            json!(s
+                .parties
+                .iter()
+                .map(|p| json!({"name": p.name, "questions": p.question_labels, "answers": p.answer_labels}))
+                .collect::<Vec<_>>()),
+        );
+        if self.sizes {
+            m.insert("sizes".into(), json!(Sizes::of(s)));
+            m.insert("estimates".into(), json!({"classical": ClassicalEstimate::of(s)}));
+            m.insert("value_range".into(), json!(s.value_range()));
+        }
+        if let Some(c) = &self.classical {
+            m.insert("classical".into(), json!(c.value));
+            m.insert(
+                "classical_details".into(),
+                json!({
+                    "method": c.method,
+                    "nodes": c.nodes,
+                    "seconds": c.seconds,
+                    "strategy": strategy_json(s, &c.strategy),
+                }),
+            );
+        }
+        if let Some(ns) = &self.no_signalling {
+            m.insert("no_signalling".into(), json!(ns.value));
+            m.insert(
+                "no_signalling_details".into(),
+                json!({"variables": ns.variables, "constraints": ns.constraints, "seconds": ns.seconds}),
+            );
+        }
+        if let (Some(c), Some(ns)) = (&self.classical, &self.no_signalling) {
+            m.insert(
+                "gaps".into(),
+                json!({"no_signalling_minus_classical": ns.value - c.value}),
+            );
+        }
+        m.insert("warnings".into(), json!(self.game.warnings));
+        Value::Object(m)
+    }
+
+    pub fn to_text(&self) -> String {
+        let s = &self.game.scenario;
+        let mut out = String::new();
+        let mut rows: Vec<(String, String)> = vec![
+            ("game".into(), format!("{} ({})", self.game.name, self.game.source)),
+            (
+                "players".into(),
+                s.parties
+                    .iter()
+                    .map(|p| format!("{} {}×{}", p.name, p.questions(), p.answers()))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+                    + "  (questions × answers)",
+            ),
+        ];
+        if let Some(d) = &self.game.description {
+            rows.insert(1, ("about".into(), d.clone()));
+        }
+        if self.sizes {
+            let z = Sizes::of(s);
+            let e = ClassicalEstimate::of(s);
+            let (lo, hi) = s.value_range();
+            rows.push(("kind".into(), format!("{:?}", s.kind).to_lowercase()));
+            rows.push((
+                "table".into(),
+                format!(
+                    "{} joint questions × {} joint answers = {} entries",
+                    z.joint_questions, z.joint_answers, z.table_entries
+                ),
+            ));
+            rows.push((
+                "strategies".into(),
+                format!(
+                    "{:.4e} deterministic; search enumerates {:.4e} (responder: {})",
+                    z.deterministic_strategies, e.enumerated_strategies, s.parties[e.responder].name
+                ),
+            ));
+            rows.push(("value range".into(), format!("[{}, {}]", num(lo), num(hi))));
+        }
+        if let Some(c) = &self.classical {
+            rows.push(("classical".into(), with_fraction(c.value)));
+        }
+        if let Some(ns) = &self.no_signalling {
+            rows.push(("no-signalling".into(), with_fraction(ns.value)));
+        }
+        if let (Some(c), Some(ns)) = (&self.classical, &self.no_signalling) {
+            rows.push(("gap ns − classical".into(), num(ns.value - c.value)));
+        }
+        out += &table(&rows);
+        if let Some(c) = &self.classical {
+            out += "\noptimal deterministic strategy (answer to each question):\n";
+            out += &strategy_text(s, &c.strategy);
+            out += &format!(
+                "({:?}, {} nodes, {:.3} s)\n",
+                c.method,
+                c.nodes,
+                c.seconds
+            )
+            .to_lowercase();
+        }
+        out
+    }
+}
+
+/// `{player: {"questions": [...labels], "answers": [...labels]}}`.
+pub fn strategy_json(s: &Scenario, st: &DeterministicStrategy) -> Value {
+    let mut m = Map::new();
+    for (p, ans) in s.parties.iter().zip(&st.answers) {
+        m.insert(
+            p.name.clone(),
+            json!({
+                "questions": p.question_labels,
+                "answers": ans.iter().map(|&a| p.answer_labels[a]).collect::<Vec<_>>(),
+            }),
+        );
+    }
+    Value::Object(m)
+}
+
+fn strategy_text(s: &Scenario, st: &DeterministicStrategy) -> String {
+    let width = s.parties.iter().map(|p| p.name.len()).max().unwrap_or(0);
+    let mut out = String::new();
+    for (p, ans) in s.parties.iter().zip(&st.answers) {
+        let cells: Vec<String> = p
+            .question_labels
+            .iter()
+            .zip(ans)
+            .map(|(q, &a)| format!("{q}→{}", p.answer_labels[a]))
+            .collect();
+        out += &format!("  {:width$}  {}\n", p.name, cells.join("  "));
+    }
+    out
+}
+
+/// Two aligned columns.
+pub fn table(rows: &[(String, String)]) -> String {
+    let width = rows.iter().map(|(k, _)| k.chars().count()).max().unwrap_or(0);
+    rows.iter()
+        .map(|(k, v)| format!("{k:<width$}  {v}\n"))
+        .collect()
+}
+
+/// A value with ten significant digits.
+pub fn num(x: f64) -> String {
+    if x == 0.0 {
+        return "0".into();
+    }
+    if !x.is_finite() {
+        return format!("{x}");
+    }
+    let s = format!("{:.10}", x);
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    if s == "-0" {
+        "0".into()
+    } else {
+        s.to_string()
+    }
+}
+
+/// The value, plus `= p/q` when it is within 1e-12 of a fraction with a small denominator
+/// (exact values of games with rational probabilities are such fractions).
+pub fn with_fraction(x: f64) -> String {
+    match rational_hint(x) {
+        Some((p, q)) if q > 1 => format!("{}  (= {p}/{q})", num(x)),
+        _ => num(x),
+    }
+}
+
+pub fn rational_hint(x: f64) -> Option<(i64, i64)> {
+    if !x.is_finite() || x.abs() > 1e6 {
+        return None;
+    }
+    (1..=1000i64).find_map(|q| {
+        let p = (x * q as f64).round();
+        ((x - p / q as f64).abs() < 1e-12).then_some((p as i64, q))
+    })
+}
+
+/// Locality-test report.
+pub fn locality_json(name: &str, r: &LocalityReport) -> Value {
+    json!({
+        "command": "local",
+        "correlations": name,
+        "local": r.local,
+        "visibility": if r.visibility.is_finite() { json!(r.visibility) } else { Value::Null },
+        "signalling": r.signalling,
+        "deterministic_strategies": r.deterministic_strategies,
+        "separating": r.separating,
+        "seconds": r.seconds,
+    })
+}
+
+pub fn locality_text(name: &str, r: &LocalityReport, saved: Option<&str>) -> String {
+    let mut rows = vec![
+        ("correlations".to_string(), name.to_string()),
+        ("local model".to_string(), if r.local { "yes" } else { "no" }.to_string()),
+        (
+            "critical visibility".to_string(),
+            if r.visibility.is_finite() {
+                num(r.visibility)
+            } else {
+                "unbounded (pure noise)".into()
+            },
+        ),
+        ("signalling".to_string(), num(r.signalling)),
+    ];
+    if let Some(sep) = &r.separating {
+        rows.push((
+            "separating expression".to_string(),
+            format!(
+                "local bound {}, value on the input {}{}",
+                num(sep.local_bound),
+                num(sep.value),
+                saved.map(|f| format!(" (saved to {f})")).unwrap_or_default()
+            ),
+        ));
+    }
+    let mut out = table(&rows);
+    if r.signalling > 1e-6 {
+        out += "warning: these correlations signal: no local or quantum model can produce them\n";
+    }
+    out
+}

@@ -1,0 +1,282 @@
+//! The flat game table every solver reads.
+//!
+//! After parsing, a game is nothing but: for each joint question `q` its weight `w(q)` (a
+//! probability for a game, 1 for a plain Bell expression) and, for each joint answer `a`, the
+//! score `V(a|q)`. The value of a behaviour `p(a|q)` is `offset + Σ_q w(q) Σ_a V(a|q) p(a|q)`.
+//! Joint questions and answers are indexed in mixed radix with player 0 the most significant
+//! digit. Solvers use [`Scenario::objective`], the product `w(q)·V(a|q)`, and never re-evaluate a
+//! formula.
+
+use serde::Serialize;
+
+/// One player's question and answer sets. Labels are what the game file calls them; solvers
+/// work with indices `0..len`.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Party {
+    pub name: String,
+    pub question_labels: Vec<i64>,
+    pub answer_labels: Vec<i64>,
+}
+
+impl Party {
+    pub fn questions(&self) -> usize {
+        self.question_labels.len()
+    }
+    pub fn answers(&self) -> usize {
+        self.answer_labels.len()
+    }
+}
+
+/// Whether scores are win/lose (a game) or real (a Bell expression). Only affects reporting and
+/// warnings; the solvers treat both the same way.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ScoreKind {
+    Win,
+    Score,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Scenario {
+    pub parties: Vec<Party>,
+    /// Weight of each joint question.
+    pub weights: Vec<f64>,
+    /// `V(a|q)` at `q * joint_answers + a`.
+    pub scores: Vec<f64>,
+    /// Constant term of a Bell expression.
+    pub offset: f64,
+    pub kind: ScoreKind,
+    objective: Vec<f64>,
+}
+
+/// Mixed-radix helper: the digits of an index with radices `radices` (first most significant).
+pub fn digits(mut index: usize, radices: &[usize], out: &mut [usize]) {
+    for k in (0..radices.len()).rev() {
+        out[k] = index % radices[k];
+        index /= radices[k];
+    }
+}
+
+/// Inverse of [`digits`].
+pub fn index_of(digits: &[usize], radices: &[usize]) -> usize {
+    digits
+        .iter()
+        .zip(radices)
+        .fold(0, |acc, (&d, &r)| acc * r + d)
+}
+
+impl Scenario {
+    /// Builds a scenario; `weights` has one entry per joint question, `scores` one per joint
+    /// question and answer.
+    pub fn new(
+        parties: Vec<Party>,
+        weights: Vec<f64>,
+        scores: Vec<f64>,
+        offset: f64,
+        kind: ScoreKind,
+    ) -> Self {
+        let mut s = Scenario {
+            parties,
+            weights,
+            scores,
+            offset,
+            kind,
+            objective: Vec::new(),
+        };
+        assert_eq!(s.weights.len(), s.joint_questions());
+        assert_eq!(s.scores.len(), s.joint_questions() * s.joint_answers());
+        let na = s.joint_answers();
+        s.objective = s
+            .scores
+            .iter()
+            .enumerate()
+            .map(|(i, v)| s.weights[i / na] * v)
+            .collect();
+        s
+    }
+
+    pub fn players(&self) -> usize {
+        self.parties.len()
+    }
+    pub fn question_radices(&self) -> Vec<usize> {
+        self.parties.iter().map(Party::questions).collect()
+    }
+    pub fn answer_radices(&self) -> Vec<usize> {
+        self.parties.iter().map(Party::answers).collect()
+    }
+    pub fn joint_questions(&self) -> usize {
+        self.parties.iter().map(Party::questions).product()
+    }
+    pub fn joint_answers(&self) -> usize {
+        self.parties.iter().map(Party::answers).product()
+    }
+
+    /// `w(q)·V(a|q)` at `q * joint_answers + a`: the linear functional every solver maximises.
+    pub fn objective(&self) -> &[f64] {
+        &self.objective
+    }
+
+    /// The value of a behaviour given as `p(a|q)` in the same layout as [`Scenario::scores`].
+    pub fn value_of_behaviour(&self, p: &[f64]) -> f64 {
+        self.offset
+            + self
+                .objective
+                .iter()
+                .zip(p)
+                .map(|(c, p)| c * p)
+                .sum::<f64>()
+    }
+
+    /// The value of a deterministic strategy: `answers[i][x]` is player i's answer index to
+    /// question index x. Recomputed from the table, independently of any search.
+    pub fn value_of_strategy(&self, answers: &[Vec<usize>]) -> f64 {
+        let qr = self.question_radices();
+        let ar = self.answer_radices();
+        let na = self.joint_answers();
+        let mut qd = vec![0; qr.len()];
+        let mut ad = vec![0; qr.len()];
+        let mut total = self.offset;
+        for q in 0..self.joint_questions() {
+            digits(q, &qr, &mut qd);
+            for (i, d) in ad.iter_mut().enumerate() {
+                *d = answers[i][qd[i]];
+            }
+            total += self.objective[q * na + index_of(&ad, &ar)];
+        }
+        total
+    }
+
+    /// The same game with questions, answers and players renamed by permutations: `players[k]`
+    /// is the old index of the new player k; `questions[i][x]` the old question index of player
+    /// i's new question x (i in old numbering); likewise `answers[i][x][a]` per question.
+    /// Used to check that nothing depends on labels.
+    pub fn relabelled(
+        &self,
+        players: &[usize],
+        questions: &[Vec<usize>],
+        answers: &[Vec<Vec<usize>>],
+    ) -> Scenario {
+        let n = self.players();
+        let parties: Vec<Party> = players.iter().map(|&i| self.parties[i].clone()).collect();
+        let new_qr: Vec<usize> = parties.iter().map(Party::questions).collect();
+        let new_ar: Vec<usize> = parties.iter().map(Party::answers).collect();
+        let old_qr = self.question_radices();
+        let old_ar = self.answer_radices();
+        let (nq, na) = (self.joint_questions(), self.joint_answers());
+        let mut weights = vec![0.0; nq];
+        let mut scores = vec![0.0; nq * na];
+        let (mut nqd, mut nad) = (vec![0; n], vec![0; n]);
+        let (mut oqd, mut oad) = (vec![0; n], vec![0; n]);
+        for q in 0..nq {
+            digits(q, &new_qr, &mut nqd);
+            for k in 0..n {
+                let old = players[k];
+                oqd[old] = questions[old][nqd[k]];
+            }
+            let oq = index_of(&oqd, &old_qr);
+            weights[q] = self.weights[oq];
+            for a in 0..na {
+                digits(a, &new_ar, &mut nad);
+                for k in 0..n {
+                    let old = players[k];
+                    oad[old] = answers[old][nqd[k]][nad[k]];
+                }
+                scores[q * na + a] = self.scores[oq * na + index_of(&oad, &old_ar)];
+            }
+        }
+        Scenario::new(parties, weights, scores, self.offset, self.kind)
+    }
+
+    /// Smallest and largest possible value over all behaviours (each question's best and worst
+    /// answer). Bounds every value any model can reach.
+    pub fn value_range(&self) -> (f64, f64) {
+        let na = self.joint_answers();
+        let (mut lo, mut hi) = (self.offset, self.offset);
+        for row in self.objective.chunks(na) {
+            lo += row.iter().cloned().fold(f64::INFINITY, f64::min);
+            hi += row.iter().cloned().fold(f64::NEG_INFINITY, f64::max);
+        }
+        (lo, hi)
+    }
+}
+
+/// Sizes and cost estimates shown by `check` and used to refuse work that would not finish.
+#[derive(Debug, Clone, Serialize)]
+pub struct Sizes {
+    pub players: usize,
+    pub questions: Vec<usize>,
+    pub answers: Vec<usize>,
+    pub joint_questions: usize,
+    pub joint_answers: usize,
+    pub table_entries: usize,
+    /// Number of deterministic strategies (as a float: it overflows integers quickly).
+    pub deterministic_strategies: f64,
+}
+
+impl Sizes {
+    pub fn of(s: &Scenario) -> Self {
+        Sizes {
+            players: s.players(),
+            questions: s.question_radices(),
+            answers: s.answer_radices(),
+            joint_questions: s.joint_questions(),
+            joint_answers: s.joint_answers(),
+            table_entries: s.joint_questions() * s.joint_answers(),
+            deterministic_strategies: s
+                .parties
+                .iter()
+                .map(|p| (p.answers() as f64).powi(p.questions() as i32))
+                .product(),
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn party(name: &str, q: usize, a: usize) -> Party {
+        Party {
+            name: name.into(),
+            question_labels: (0..q as i64).collect(),
+            answer_labels: (0..a as i64).collect(),
+        }
+    }
+
+    #[test]
+    fn mixed_radix_round_trips() {
+        let r = [2, 3, 4];
+        let mut d = [0; 3];
+        for i in 0..24 {
+            digits(i, &r, &mut d);
+            assert_eq!(index_of(&d, &r), i);
+        }
+        digits(23, &r, &mut d);
+        assert_eq!(d, [1, 2, 3]);
+    }
+
+    #[test]
+    fn strategy_value_matches_hand_computation() {
+        // CHSH: win iff a xor b == x and y, uniform questions.
+        let mut scores = vec![0.0; 16];
+        for x in 0..2 {
+            for y in 0..2 {
+                for a in 0..2 {
+                    for b in 0..2 {
+                        scores[(x * 2 + y) * 4 + a * 2 + b] = ((a ^ b) == (x & y)) as u8 as f64;
+                    }
+                }
+            }
+        }
+        let s = Scenario::new(
+            vec![party("a", 2, 2), party("b", 2, 2)],
+            vec![0.25; 4],
+            scores,
+            0.0,
+            ScoreKind::Win,
+        );
+        assert_eq!(s.value_of_strategy(&[vec![0, 0], vec![0, 0]]), 0.75);
+        assert_eq!(s.value_of_strategy(&[vec![0, 1], vec![1, 1]]), 0.25);
+        assert_eq!(s.value_range(), (0.0, 1.0));
+    }
+}
