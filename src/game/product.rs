@@ -71,7 +71,7 @@ pub fn parallel_repetition(scenario: &Scenario, name: &str, rounds: usize) -> Re
     });
     let weight_table = nested_table(&qr, &|d| scenario.weights[q_index(d)]);
 
-    let qvar = |i: usize| format!("x{i}");
+    let qvar = |i: usize| format!("q{i}");
     let avar = |i: usize| format!("a{i}");
     // Index of player i's round-r question (answer) inside its product label.
     let digit = |var: String, radix: usize, r: usize| {

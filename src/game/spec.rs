@@ -64,7 +64,117 @@ impl PlayerSpec {
 
 impl GameSpec {
     /// Renders the game as YAML, as `bellgap family` prints it.
+    /// Lists of numbers (tables, matrices, label lists) are written inline, one row per line
+    /// at most, so generated files stay readable.
     pub fn to_yaml(&self) -> String {
-        serde_yaml::to_string(self).expect("a game spec always serialises")
+        let value = serde_yaml::to_value(self).expect("a game spec always serialises");
+        let mut out = String::new();
+        if let Value::Mapping(m) = &value {
+            emit_mapping(m, 0, false, &mut out);
+        }
+        out
+    }
+}
+
+/// A scalar as serde_yaml would write it (quoted when needed), on one line.
+fn scalar(v: &Value) -> String {
+    serde_yaml::to_string(v)
+        .unwrap_or_default()
+        .trim_end()
+        .to_string()
+}
+
+/// Whether a sequence holds only scalars or such sequences (then it is written inline).
+fn is_flow(v: &Value) -> bool {
+    match v {
+        Value::Sequence(items) => items.iter().all(is_flow),
+        Value::Mapping(_) | Value::Tagged(_) => false,
+        _ => true,
+    }
+}
+
+fn flow(v: &Value) -> String {
+    match v {
+        Value::Sequence(items) => {
+            format!("[{}]", items.iter().map(flow).collect::<Vec<_>>().join(", "))
+        }
+        other => scalar(other),
+    }
+}
+
+/// Scalars that read the same inside `{...}` (no flow indicators to quote).
+fn flow_safe(v: &Value) -> bool {
+    match v {
+        Value::Number(_) | Value::Bool(_) => true,
+        Value::String(s) => {
+            !s.is_empty()
+                && s.chars()
+                    .all(|c| c.is_alphanumeric() || "|_-.".contains(c))
+        }
+        _ => false,
+    }
+}
+
+fn inline_mapping(m: &Mapping) -> String {
+    let parts: Vec<String> = m
+        .iter()
+        .map(|(k, v)| format!("{}: {}", scalar(k), scalar(v)))
+        .collect();
+    format!("{{{}}}", parts.join(", "))
+}
+
+fn emit_mapping(m: &Mapping, indent: usize, first_inline: bool, out: &mut String) {
+    for (i, (k, v)) in m.iter().enumerate() {
+        if !(first_inline && i == 0) {
+            out.push_str(&" ".repeat(indent));
+        }
+        out.push_str(&scalar(k));
+        out.push(':');
+        emit_value(v, indent, out);
+    }
+}
+
+/// Writes the value after `key:` (a space and an inline value, or a nested block).
+fn emit_value(v: &Value, indent: usize, out: &mut String) {
+    match v {
+        Value::Mapping(m) if !m.is_empty() && m.values().all(flow_safe) && inline_mapping(m).len() < 60 => {
+            out.push(' ');
+            out.push_str(&inline_mapping(m));
+            out.push('\n');
+        }
+        Value::Mapping(m) if !m.is_empty() => {
+            out.push('\n');
+            emit_mapping(m, indent + 2, false, out);
+        }
+        Value::Sequence(items) if !is_flow(v) => {
+            out.push('\n');
+            for item in items {
+                out.push_str(&" ".repeat(indent + 2));
+                out.push_str("- ");
+                match item {
+                    Value::Mapping(m) if !m.is_empty() => emit_mapping(m, indent + 4, true, out),
+                    other => {
+                        out.push_str(&flow(other));
+                        out.push('\n');
+                    }
+                }
+            }
+        }
+        Value::Sequence(items) if items.len() > 8 && items.iter().any(|x| x.is_sequence()) => {
+            // A large table: one row per line.
+            out.push_str(" [\n");
+            for (i, item) in items.iter().enumerate() {
+                out.push_str(&" ".repeat(indent + 4));
+                out.push_str(&flow(item));
+                out.push_str(if i + 1 < items.len() { ",\n" } else { "\n" });
+            }
+            out.push_str(&" ".repeat(indent + 2));
+            out.push_str("]\n");
+        }
+        other => {
+            out.push(' ');
+            out.push_str(&flow(other));
+            out.push('\n');
+        }
     }
 }
