@@ -186,15 +186,17 @@ fn progress_printer(quiet: bool) -> Option<impl Fn(usize, usize) + Sync> {
     })
 }
 
-/// A heads-up before a search whose worst case is long.
-fn warn_long_search(s: &bellgap::Scenario, warnings: &mut Vec<String>) {
-    let est = ClassicalEstimate::of(s);
-    // About 2e8 inner operations per second per core, measured on the bench suite.
-    let seconds = est.search_work / 4e8;
-    if seconds > 30.0 {
+/// A heads-up before a search that is estimated to take long (but not so long it is refused).
+fn warn_long_search(s: &bellgap::Scenario, force: bool, warnings: &mut Vec<String>) {
+    if ClassicalEstimate::of(s).search_work < 1e9 {
+        return;
+    }
+    let p = classical::estimate_search(s);
+    if p.seconds > 30.0 && (force || p.seconds <= classical::SEARCH_SECONDS_LIMIT) {
         warnings.push(format!(
-            "the classical search may take up to {seconds:.0} s before pruning ({:.2e} strategies enumerated)",
-            est.enumerated_strategies
+            "the classical search may take about {} (estimate from random probes: {:.1e} nodes)",
+            classical::human_seconds(p.seconds),
+            p.nodes
         ));
     }
 }
@@ -222,7 +224,7 @@ pub fn run(cli: &Cli) -> Result<Output> {
             };
             let mut early = Vec::new();
             if !matches!(choice, Choice::Milp) {
-                warn_long_search(&game.scenario, &mut early);
+                warn_long_search(&game.scenario, args.force, &mut early);
             }
             print_early(&early, args.quiet);
             let mut r = Report::new("classical", &game);
@@ -238,7 +240,7 @@ pub fn run(cli: &Cli) -> Result<Output> {
         Command::Bounds(args) => {
             let game = load(args)?;
             let mut early = Vec::new();
-            warn_long_search(&game.scenario, &mut early);
+            warn_long_search(&game.scenario, args.force, &mut early);
             print_early(&early, args.quiet);
             let mut r = Report::new("bounds", &game);
             r.classical = Some(classical_for(&game, args, Choice::Auto)?);

@@ -1,11 +1,14 @@
-//! A thin adapter over good_lp: linear programs written with plain variable indices, solved by
-//! the pure-Rust simplex backend (microlp), so that nothing outside the Rust toolchain is needed.
+//! Linear programs written with plain variable indices, solved by one of two pure-Rust backends
+//! so that nothing outside the Rust toolchain is needed:
+//! - [`LinearProgram::solve`]: simplex (microlp through good_lp), exact vertices, integers allowed;
+//! - [`LinearProgram::solve_interior_point`]: clarabel's interior-point method, which always
+//!   terminates and copes with degenerate problems that make the simplex cycle (the locality LP).
 //!
-//! The bound modules (no-signalling, locality, the classical MILP) build a [`LinearProgram`] and
-//! never touch good_lp types; swapping the backend touches this file only.
+//! The bound modules build a [`LinearProgram`] and never touch solver types; swapping a backend
+//! touches this file only.
 
 use good_lp::solvers::microlp::microlp;
-use good_lp::{variable, Expression, ProblemVariables, Solution, SolverModel};
+use good_lp::{variable, Expression, ProblemVariables, Solution, SolverModel, WithTimeLimit};
 
 use crate::error::{Error, Result};
 
@@ -61,7 +64,13 @@ pub struct LinearProgram {
 pub struct LpSolution {
     pub x: Vec<f64>,
     pub objective: f64,
+    /// `solved`, or `almost solved` when the interior-point method met only its relaxed
+    /// tolerances.
+    pub status: &'static str,
 }
+
+/// Simplex runs longer than this are stopped and reported as a solver failure rather than hang.
+pub const SIMPLEX_TIME_LIMIT_SECONDS: f64 = 600.0;
 
 impl LinearProgram {
     pub fn new(maximise: bool) -> Self {
@@ -121,7 +130,9 @@ impl LinearProgram {
         } else {
             problem_vars.minimise(objective)
         };
-        let mut model = unsolved.using(microlp);
+        let mut model = unsolved
+            .using(microlp)
+            .with_time_limit(SIMPLEX_TIME_LIMIT_SECONDS);
         for row in &self.rows {
             let mut e = Expression::with_capacity(row.terms.len());
             for &(i, c) in &row.terms {
@@ -137,7 +148,89 @@ impl LinearProgram {
         let solution = model.solve().map_err(|e| Error::solver(stage, e.to_string()))?;
         let x: Vec<f64> = vars.iter().map(|v| solution.value(*v)).collect();
         let objective = x.iter().zip(&self.objective).map(|(x, c)| x * c).sum();
-        Ok(LpSolution { x, objective })
+        Ok(LpSolution {
+            x,
+            objective,
+            status: "solved",
+        })
+    }
+
+    /// Solves with clarabel's interior-point method (continuous variables only).
+    pub fn solve_interior_point(&self, stage: &str) -> Result<LpSolution> {
+        use clarabel::algebra::CscMatrix;
+        use clarabel::solver::{
+            DefaultSettingsBuilder, DefaultSolver, IPSolver, SolverStatus, SupportedConeT,
+        };
+        if self.bounds.iter().any(|b| b.integer) {
+            return Err(Error::solver(stage, "integer variables need the simplex backend"));
+        }
+        let n = self.vars();
+        // clarabel's form: minimise qᵀx s.t. Ax + s = b, s in the cones; equalities first.
+        let (mut rows, mut cols, mut vals, mut rhs) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
+        let mut push = |terms: &[(usize, f64)], sign: f64, b: f64| {
+            let r = rhs.len();
+            for &(j, c) in terms {
+                rows.push(r);
+                cols.push(j);
+                vals.push(sign * c);
+            }
+            rhs.push(sign * b);
+        };
+        for row in self.rows.iter().filter(|r| r.relation == Relation::Eq) {
+            push(&row.terms, 1.0, row.rhs);
+        }
+        let equalities = self.rows.iter().filter(|r| r.relation == Relation::Eq).count();
+        for row in &self.rows {
+            match row.relation {
+                Relation::Le => push(&row.terms, 1.0, row.rhs),
+                Relation::Ge => push(&row.terms, -1.0, row.rhs),
+                Relation::Eq => {}
+            }
+        }
+        for (j, b) in self.bounds.iter().enumerate() {
+            if b.lower.is_finite() {
+                push(&[(j, 1.0)], -1.0, b.lower);
+            }
+            if b.upper.is_finite() {
+                push(&[(j, 1.0)], 1.0, b.upper);
+            }
+        }
+        let m = rhs.len();
+        let a = CscMatrix::new_from_triplets(m, n, rows, cols, vals);
+        let p = CscMatrix::zeros((n, n));
+        let sign = if self.maximise { -1.0 } else { 1.0 };
+        let q: Vec<f64> = self.objective.iter().map(|c| sign * c).collect();
+        let cones = [
+            SupportedConeT::ZeroConeT(equalities),
+            SupportedConeT::NonnegativeConeT(m - equalities),
+        ];
+        let settings = DefaultSettingsBuilder::default()
+            .verbose(false)
+            .tol_gap_abs(1e-10)
+            .tol_gap_rel(1e-10)
+            .tol_feas(1e-10)
+            .build()
+            .map_err(|e| Error::solver(stage, format!("{e:?}")))?;
+        let mut solver = DefaultSolver::new(&p, &q, &a, &rhs, &cones, settings)
+            .map_err(|e| Error::solver(stage, format!("{e:?}")))?;
+        solver.solve();
+        let status = match solver.solution.status {
+            SolverStatus::Solved => "solved",
+            SolverStatus::AlmostSolved => "almost solved",
+            other => {
+                return Err(Error::solver(
+                    stage,
+                    format!("the interior-point method stopped with status {other:?}"),
+                ))
+            }
+        };
+        let x = solver.solution.x.clone();
+        let objective = x.iter().zip(&self.objective).map(|(x, c)| x * c).sum();
+        Ok(LpSolution {
+            x,
+            objective,
+            status,
+        })
     }
 }
 
@@ -155,6 +248,9 @@ mod tests {
         lp.add_row(vec![(x, 3.0), (y, 1.0)], Relation::Le, 6.0);
         let s = lp.solve("test").unwrap();
         assert!((s.objective - 2.8).abs() < 1e-9);
+        let s = lp.solve_interior_point("test").unwrap();
+        assert!((s.objective - 2.8).abs() < 1e-8);
+        assert!((s.x[0] - 1.6).abs() < 1e-7 && (s.x[1] - 1.2).abs() < 1e-7);
         // Integer version: best integer point has value 2 ((1,1), (2,0), (0,2)).
         lp.bounds = vec![
             VarBounds {

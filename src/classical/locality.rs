@@ -270,7 +270,10 @@ pub fn locality_test(c: &Correlations, force: bool) -> Result<LocalityReport> {
         }
         lp.add_row(terms, Relation::Ge, 0.0);
     }
-    let sol = lp.solve("locality LP")?;
+    // The dual has whole lines of optimal solutions (e.g. shifting all coefficients of one
+    // question by a constant and another by minus it), which makes the simplex cycle; the
+    // interior-point method is indifferent to that.
+    let sol = lp.solve_interior_point("locality LP")?;
     let visibility = sol.objective;
     let local = visibility >= 1.0 - 1e-9;
     let separating = if local {

@@ -60,10 +60,15 @@ pub enum Choice {
     Milp,
 }
 
-/// Worst-case work above which `Auto` does not start the search (about an hour on one core).
-pub const SEARCH_WORK_LIMIT: f64 = 1e12;
+/// Estimated search time (seconds) above which `Auto` does not start the search: "hours".
+pub const SEARCH_SECONDS_LIMIT: f64 = 3600.0;
+/// Worst-case work below which the search starts without probing its size.
+const CHEAP_SEARCH_WORK: f64 = 1e8;
 /// MILP size (variables) above which `Auto` refuses.
 pub const MILP_VARIABLE_LIMIT: f64 = 20_000.0;
+/// Seconds per search node and per (responder question × answer) pair on one core, measured on
+/// the bench suite (`cargo bench --bench classical`) on the project machine.
+const SECONDS_PER_NODE_ENTRY: f64 = 3e-8;
 
 /// Cost estimates for the two methods.
 #[derive(Debug, Clone, Serialize)]
@@ -107,6 +112,19 @@ impl ClassicalEstimate {
     }
 }
 
+/// A realistic size estimate of the pruned search: a good strategy found by best-response
+/// hill climbing fixes the pruning threshold, and random dives into the tree (Knuth's
+/// estimator) measure how much of it survives pruning.
+#[derive(Debug, Clone, Serialize)]
+pub struct SearchEstimate {
+    /// Value of the best strategy found by hill climbing (a lower bound on the classical value).
+    pub incumbent: f64,
+    /// Estimated nodes of the pruned tree.
+    pub nodes: f64,
+    /// Estimated wall-clock seconds on this machine's cores.
+    pub seconds: f64,
+}
+
 /// Reports finished parallel tasks: (done, total).
 pub type Progress<'a> = &'a (dyn Fn(usize, usize) + Sync);
 
@@ -118,10 +136,14 @@ pub fn classical_value(
     progress: Option<Progress>,
 ) -> Result<ClassicalValue> {
     let est = ClassicalEstimate::of(s);
+    let probe = || estimate_search(s);
     match choice {
         Choice::Search => {
-            if !force && est.search_work > SEARCH_WORK_LIMIT {
-                return Err(too_large_search(&est));
+            if !force && est.search_work > CHEAP_SEARCH_WORK {
+                let p = probe();
+                if p.seconds > SEARCH_SECONDS_LIMIT {
+                    return Err(too_large_search(&est, &p));
+                }
             }
             Ok(search(s, progress))
         }
@@ -132,25 +154,47 @@ pub fn classical_value(
             milp(s)
         }
         Choice::Auto => {
-            if est.search_work <= SEARCH_WORK_LIMIT || force {
+            if force || est.search_work <= CHEAP_SEARCH_WORK {
+                return Ok(search(s, progress));
+            }
+            let p = probe();
+            if p.seconds <= SEARCH_SECONDS_LIMIT {
                 Ok(search(s, progress))
             } else if est.milp_variables <= MILP_VARIABLE_LIMIT {
                 milp(s)
             } else {
-                Err(too_large_search(&est))
+                Err(too_large_search(&est, &p))
             }
         }
     }
 }
 
-fn too_large_search(est: &ClassicalEstimate) -> Error {
+fn too_large_search(est: &ClassicalEstimate, p: &SearchEstimate) -> Error {
     Error::TooLarge {
         what: "the exact classical search".into(),
         estimate: format!(
-            "up to {:.2e} strategies of the enumerated players, about {:.1e} operations (hours or more on this machine) before pruning; the MILP would have {:.0} variables",
-            est.enumerated_strategies, est.search_work, est.milp_variables
+            "about {:.1e} nodes after pruning, roughly {} on this machine (worst case {:.2e} strategies of the enumerated players); the MILP would have {:.0} variables",
+            p.nodes,
+            human_seconds(p.seconds),
+            est.enumerated_strategies,
+            est.milp_variables
         ),
-        hint: "pruning often cuts this a lot: pass --force to try anyway".into(),
+        hint: "the estimate comes from random probes and can be off by orders of magnitude: pass --force to try anyway".into(),
+    }
+}
+
+/// "3.2 s", "4.1 min", "2.0 h", "3.5 days", "1.2e3 years".
+pub fn human_seconds(s: f64) -> String {
+    if s < 60.0 {
+        format!("{s:.1} s")
+    } else if s < 3600.0 {
+        format!("{:.1} min", s / 60.0)
+    } else if s < 86400.0 {
+        format!("{:.1} h", s / 3600.0)
+    } else if s < 86400.0 * 365.0 {
+        format!("{:.1} days", s / 86400.0)
+    } else {
+        format!("{:.1e} years", s / (86400.0 * 365.0))
     }
 }
 
@@ -159,6 +203,72 @@ fn too_large_milp(est: &ClassicalEstimate) -> Error {
         what: "the classical MILP".into(),
         estimate: format!("{:.0} variables", est.milp_variables),
         hint: "pass --force to try anyway".into(),
+    }
+}
+
+/// Small deterministic generator for the seeded random choices of the estimator (xorshift64*).
+struct Rng(u64);
+
+impl Rng {
+    fn below(&mut self, n: usize) -> usize {
+        self.0 ^= self.0 >> 12;
+        self.0 ^= self.0 << 25;
+        self.0 ^= self.0 >> 27;
+        (self.0.wrapping_mul(0x2545_F491_4F6C_DD1D) >> 33) as usize % n
+    }
+}
+
+/// Best-response hill climbing from a few seeded random starts: a good (not necessarily
+/// optimal) deterministic strategy and its value.
+pub fn hill_climb(s: &Scenario, restarts: usize, seed: u64) -> (f64, Vec<Vec<usize>>) {
+    let mut rng = Rng(seed.max(1));
+    let mut best = (f64::NEG_INFINITY, Vec::new());
+    for _ in 0..restarts {
+        let mut answers: Vec<Vec<usize>> = s
+            .parties
+            .iter()
+            .map(|p| (0..p.questions()).map(|_| rng.below(p.answers())).collect())
+            .collect();
+        let mut value = s.value_of_strategy(&answers);
+        loop {
+            for i in 0..s.players() {
+                answers[i] = best_response(s, &answers, i);
+            }
+            let v = s.value_of_strategy(&answers);
+            if v <= value + 1e-12 {
+                break;
+            }
+            value = v;
+        }
+        if value > best.0 {
+            best = (value, answers);
+        }
+    }
+    best
+}
+
+/// Estimates the pruned search tree by random dives (Knuth 1975, "Estimating the efficiency of
+/// backtrack programs", Math. Comp. 29, 121), with the hill-climbing value as pruning threshold.
+pub fn estimate_search(s: &Scenario) -> SearchEstimate {
+    let est = ClassicalEstimate::of(s);
+    let lay = Layout::new(s, est.responder);
+    let (incumbent, _) = hill_climb(s, 8, 0x5eed);
+    let shared = SharedBest(AtomicU64::new((incumbent - s.offset).to_bits()));
+    let mut sr = Searcher::new(&lay, &shared, 1e-12);
+    let mut rng = Rng(0x0dd5_eed5);
+    let start = Instant::now();
+    let mut total = 0.0;
+    let mut probes = 0;
+    while probes < 16 || (probes < 4096 && start.elapsed().as_secs_f64() < 0.3) {
+        total += sr.dive(&mut rng);
+        probes += 1;
+    }
+    let nodes = total / probes as f64;
+    let cores = rayon::current_num_threads().max(1) as f64;
+    SearchEstimate {
+        incumbent,
+        nodes,
+        seconds: nodes * SECONDS_PER_NODE_ENTRY * (lay.y * lay.b) as f64 / cores,
     }
 }
 
@@ -355,6 +465,38 @@ impl<'a> Searcher<'a> {
         bound > self.own_best + self.tolerance && bound >= self.shared.get() - self.tolerance
     }
 
+    /// One random dive of Knuth's estimator: follows a random surviving child at each level and
+    /// returns 1 + Σ (product of the numbers of surviving children along the path).
+    fn dive(&mut self, rng: &mut Rng) -> f64 {
+        let mut estimate = 1.0;
+        let mut width = 1.0;
+        let mut path = Vec::new();
+        for d in 0..self.lay.slots.len() {
+            let (k, x) = self.lay.slots[d];
+            let mut alive = Vec::new();
+            for alpha in 0..self.lay.other_a[k] {
+                self.assign[k][x] = alpha;
+                self.apply(d, 1.0);
+                if self.promising(self.bound()) {
+                    alive.push(alpha);
+                }
+                self.apply(d, -1.0);
+            }
+            if alive.is_empty() {
+                break;
+            }
+            width *= alive.len() as f64;
+            estimate += width;
+            self.assign[k][x] = alive[rng.below(alive.len())];
+            self.apply(d, 1.0);
+            path.push(d);
+        }
+        for &d in path.iter().rev() {
+            self.apply(d, -1.0);
+        }
+        estimate
+    }
+
     fn descend(&mut self, d: usize) {
         self.nodes += 1;
         if d == self.lay.slots.len() {
@@ -389,7 +531,10 @@ pub fn search(s: &Scenario, progress: Option<Progress>) -> ClassicalValue {
         .map(|c| c.iter().fold(0.0f64, |m, v| m.max(v.abs())))
         .sum();
     let tolerance = 1e-12 * (1.0 + scale);
-    let shared = SharedBest(AtomicU64::new(f64::NEG_INFINITY.to_bits()));
+    // A good strategy from hill climbing prunes from the first node on. Ties with it are kept,
+    // so the optimum (which is at least as good) is never pruned.
+    let (incumbent, _) = hill_climb(s, 4, 0x5eed);
+    let shared = SharedBest(AtomicU64::new((incumbent - s.offset).to_bits()));
 
     // Split the tree at a depth with enough subtrees to keep both cores busy.
     let mut split = 0;

@@ -1,0 +1,191 @@
+//! The `bellgap` binary end to end: JSON output, exit codes, error locations, families and the
+//! locality test.
+
+use std::path::PathBuf;
+use std::process::{Command, Output};
+
+use serde_json::Value;
+
+fn bellgap(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_bellgap"))
+        .args(args)
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .output()
+        .expect("the binary runs")
+}
+
+fn json_of(out: &Output) -> Value {
+    let text = String::from_utf8_lossy(&out.stdout);
+    serde_json::from_str(&text).unwrap_or_else(|e| panic!("not one JSON object ({e}): {text}"))
+}
+
+fn temp_file(name: &str, content: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("bellgap-cli-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let path = dir.join(name);
+    std::fs::write(&path, content).unwrap();
+    path
+}
+
+#[test]
+fn bounds_json_has_the_value_keys() {
+    let out = bellgap(&["bounds", "games/chsh.yaml", "--json"]);
+    assert!(out.status.success());
+    let j = json_of(&out);
+    // CHSH 1969 (classical 3/4); Popescu–Rohrlich 1994 (no-signalling 1).
+    assert!((j["classical"].as_f64().unwrap() - 0.75).abs() < 1e-9);
+    assert!((j["no_signalling"].as_f64().unwrap() - 1.0).abs() < 1e-9);
+    assert!((j["gaps"]["no_signalling_minus_classical"].as_f64().unwrap() - 0.25).abs() < 1e-9);
+    assert_eq!(j["classical_details"]["strategy"]["alice"]["answers"].as_array().unwrap().len(), 2);
+}
+
+#[test]
+fn every_game_command_prints_one_json_object() {
+    for cmd in ["check", "classical", "nosignal", "bounds"] {
+        let out = bellgap(&[cmd, "games/magic-square.yaml", "--json"]);
+        assert!(out.status.success(), "{cmd}");
+        let j = json_of(&out);
+        assert_eq!(j["command"], cmd);
+        assert_eq!(j["game"], "magic-square");
+    }
+    let j = json_of(&bellgap(&["check", "games/magic-square.yaml", "--json"]));
+    assert_eq!(j["sizes"]["table_entries"], 9 * 16);
+}
+
+#[test]
+fn human_output_is_a_table() {
+    let out = bellgap(&["bounds", "games/odd-cycle-3.yaml"]);
+    let text = String::from_utf8_lossy(&out.stdout);
+    // Cleve–Høyer–Toner–Watrous 2004: classical 5/6.
+    assert!(text.contains("classical"), "{text}");
+    assert!(text.contains("(= 5/6)"), "{text}");
+    assert!(text.contains("no-signalling"), "{text}");
+}
+
+#[test]
+fn bad_input_exits_2_with_file_line_and_column() {
+    let bad = temp_file(
+        "bad.yaml",
+        "players:\n  - {name: a, question: x, answer: a, questions: 2, answers: 2}\n  - {name: b, question: y, answer: b, questions: 2, answers: 2}\nwin: \"a == w\"\n",
+    );
+    let path = bad.to_string_lossy().to_string();
+    let out = bellgap(&["classical", &path]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.contains(&format!("{path}:4:12")), "{err}");
+    assert!(err.contains("unknown name `w`"), "{err}");
+    // With --json the error is the one JSON object on stdout.
+    let out = bellgap(&["classical", &path, "--json"]);
+    assert_eq!(out.status.code(), Some(2));
+    let j = json_of(&out);
+    assert_eq!(j["error"]["kind"], "input");
+    assert_eq!(j["error"]["location"]["line"], 4);
+}
+
+#[test]
+fn missing_file_and_usage_errors_exit_2() {
+    assert_eq!(bellgap(&["classical", "no/such/file.yaml"]).status.code(), Some(2));
+    assert_eq!(bellgap(&["frobnicate"]).status.code(), Some(2));
+    assert_eq!(bellgap(&["family", "odd-cycle", "--n", "4"]).status.code(), Some(2));
+}
+
+#[test]
+fn family_output_is_a_game_file() {
+    let out = bellgap(&["family", "odd-cycle", "--n", "5"]);
+    assert!(out.status.success());
+    let path = temp_file("odd5.yaml", &String::from_utf8_lossy(&out.stdout));
+    let j = json_of(&bellgap(&["classical", &path.to_string_lossy(), "--json"]));
+    // Cleve–Høyer–Toner–Watrous 2004: 1 − 1/(2n) = 0.9 for n = 5.
+    assert!((j["classical"].as_f64().unwrap() - 0.9).abs() < 1e-9);
+    // JSON output of a family is a game file too.
+    let out = bellgap(&["family", "xor", "--signs", "1,1;1,-1", "--json"]);
+    let path = temp_file("xor.json", &String::from_utf8_lossy(&out.stdout));
+    let j = json_of(&bellgap(&["classical", &path.to_string_lossy(), "--json"]));
+    assert!((j["classical"].as_f64().unwrap() - 0.75).abs() < 1e-9);
+}
+
+#[test]
+fn family_product_of_a_file() {
+    let out = bellgap(&["family", "product", "--game", "games/chsh.yaml", "--rounds", "2"]);
+    assert!(out.status.success());
+    let path = temp_file("chsh2.yaml", &String::from_utf8_lossy(&out.stdout));
+    let j = json_of(&bellgap(&["bounds", &path.to_string_lossy(), "--json"]));
+    // 10/16 (from memory; recomputed by brute force in published_values.rs).
+    assert!((j["classical"].as_f64().unwrap() - 0.625).abs() < 1e-9);
+}
+
+fn two_bit_correlations(name: &str, rows: [[&str; 4]; 4]) -> PathBuf {
+    let mut text = String::from(
+        "players:\n  - {name: alice, questions: 2, answers: 2}\n  - {name: bob, questions: 2, answers: 2}\nbehaviour:\n",
+    );
+    for (k, row) in rows.iter().enumerate() {
+        text += &format!(
+            "  - questions: [{}, {}]\n    probabilities: [\"{}\", \"{}\", \"{}\", \"{}\"]\n",
+            k / 2,
+            k % 2,
+            row[0],
+            row[1],
+            row[2],
+            row[3]
+        );
+    }
+    temp_file(name, &text)
+}
+
+#[test]
+fn locality_test_of_the_tsirelson_box() {
+    // The optimal CHSH correlations: p(ab|xy) = (1 + (-1)^(a+b+xy)/√2)/4. Their critical white
+    // noise visibility is 1/√2, where the CHSH value 2√2·v reaches the local bound 2 (CHSH 1969;
+    // Cirel'son 1980).
+    let (hi, lo) = ("(1 + 1/sqrt(2))/4", "(1 - 1/sqrt(2))/4");
+    let path = two_bit_correlations("tsirelson.yaml", [[hi, lo, lo, hi], [hi, lo, lo, hi], [hi, lo, lo, hi], [lo, hi, hi, lo]]);
+    let save = std::env::temp_dir().join(format!("bellgap-cli-{}/sep.yaml", std::process::id()));
+    let out = bellgap(&["local", &path.to_string_lossy(), "--json", "--save", &save.to_string_lossy()]);
+    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    let j = json_of(&out);
+    assert_eq!(j["local"], false);
+    assert!((j["visibility"].as_f64().unwrap() - 1.0 / 2f64.sqrt()).abs() < 1e-7);
+    assert!(j["signalling"].as_f64().unwrap() < 1e-12);
+    let value = j["separating"]["value"].as_f64().unwrap();
+    assert!((value - (1.0 - 1.0 / 2f64.sqrt())).abs() < 1e-7);
+    // The saved separating expression is a game file whose classical value is its local bound 0.
+    let c = json_of(&bellgap(&["classical", &save.to_string_lossy(), "--json"]));
+    assert!(c["classical"].as_f64().unwrap().abs() < 1e-7, "{c}");
+}
+
+#[test]
+fn locality_test_of_pr_box_and_local_box() {
+    // PR box (Popescu–Rohrlich 1994): CHSH value 4, so the visibility is 2/4 = 1/2.
+    let path = two_bit_correlations(
+        "pr.yaml",
+        [["1/2", "0", "0", "1/2"], ["1/2", "0", "0", "1/2"], ["1/2", "0", "0", "1/2"], ["0", "1/2", "1/2", "0"]],
+    );
+    let j = json_of(&bellgap(&["local", &path.to_string_lossy(), "--json"]));
+    assert_eq!(j["local"], false);
+    assert!((j["visibility"].as_f64().unwrap() - 0.5).abs() < 1e-7);
+    // Both always answer 0: a deterministic (local) behaviour.
+    let path = two_bit_correlations("det.yaml", [["1", "0", "0", "0"]; 4]);
+    let j = json_of(&bellgap(&["local", &path.to_string_lossy(), "--json"]));
+    assert_eq!(j["local"], true);
+    assert!(j["visibility"].as_f64().unwrap() >= 1.0 - 1e-9);
+}
+
+#[test]
+fn signalling_correlations_are_flagged() {
+    // Bob's answer copies Alice's question: signalling, hence not local.
+    let path = two_bit_correlations(
+        "signal.yaml",
+        [["1", "0", "0", "0"], ["1", "0", "0", "0"], ["0", "1", "0", "0"], ["0", "1", "0", "0"]],
+    );
+    let j = json_of(&bellgap(&["local", &path.to_string_lossy(), "--json"]));
+    assert_eq!(j["local"], false);
+    assert!(j["signalling"].as_f64().unwrap() > 0.5);
+}
+
+#[test]
+fn correlations_rows_must_be_normalised() {
+    let path = two_bit_correlations("unnorm.yaml", [["1", "0", "0", "1"]; 4]);
+    let out = bellgap(&["local", &path.to_string_lossy()]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("sum to 2"));
+}

@@ -1,0 +1,138 @@
+//! Invariants on random small games: the search agrees with brute force and with the MILP,
+//! classical ≤ no-signalling ≤ the table's maximum, the reported strategy re-evaluates to the
+//! reported value, and renaming questions, answers or players changes nothing.
+
+use bellgap::classical::{milp, search};
+use bellgap::nosignal::no_signalling_value;
+use bellgap::scenario::{Party, Scenario, ScoreKind};
+use proptest::prelude::*;
+
+const TOL: f64 = 1e-7;
+
+#[derive(Debug, Clone)]
+struct RandomGame {
+    scenario: Scenario,
+    /// Permutations for the relabelling check.
+    players: Vec<usize>,
+    questions: Vec<Vec<usize>>,
+    answers: Vec<Vec<Vec<usize>>>,
+}
+
+fn permutation(n: usize) -> impl Strategy<Value = Vec<usize>> {
+    Just((0..n).collect::<Vec<_>>()).prop_shuffle()
+}
+
+fn random_game(max_players: usize) -> impl Strategy<Value = RandomGame> {
+    (2..=max_players)
+        .prop_flat_map(|n| proptest::collection::vec((1usize..=3, 1usize..=3), n))
+        .prop_flat_map(|sizes| {
+            let nq: usize = sizes.iter().map(|s| s.0).product();
+            let na: usize = sizes.iter().map(|s| s.1).product();
+            let n = sizes.len();
+            let question_perms: Vec<_> = sizes.iter().map(|s| permutation(s.0)).collect();
+            let answer_perms: Vec<_> = sizes
+                .iter()
+                .map(|s| proptest::collection::vec(permutation(s.1), s.0))
+                .collect();
+            (
+                Just(sizes),
+                proptest::collection::vec(0u8..=3, nq),
+                proptest::collection::vec(-3i8..=3, nq * na),
+                any::<bool>(),
+                permutation(n),
+                question_perms,
+                answer_perms,
+            )
+        })
+        .prop_filter("some question must be asked", |t| t.1.iter().any(|&w| w > 0))
+        .prop_map(|(sizes, weights, scores, win, players, questions, answers)| {
+            let parties = sizes
+                .iter()
+                .enumerate()
+                .map(|(i, &(q, a))| Party {
+                    name: format!("p{i}"),
+                    question_labels: (0..q as i64).collect(),
+                    answer_labels: (0..a as i64).collect(),
+                })
+                .collect();
+            let total: f64 = weights.iter().map(|&w| w as f64).sum();
+            let weights = weights.iter().map(|&w| w as f64 / total).collect();
+            let (scores, kind) = if win {
+                (scores.iter().map(|&v| (v > 0) as u8 as f64).collect(), ScoreKind::Win)
+            } else {
+                (scores.iter().map(|&v| v as f64).collect(), ScoreKind::Score)
+            };
+            RandomGame {
+                scenario: Scenario::new(parties, weights, scores, 0.0, kind),
+                players,
+                questions,
+                answers,
+            }
+        })
+}
+
+/// Every joint deterministic strategy, evaluated directly.
+fn brute_force(s: &Scenario) -> f64 {
+    let radices: Vec<usize> = s
+        .parties
+        .iter()
+        .flat_map(|p| std::iter::repeat_n(p.answers(), p.questions()))
+        .collect();
+    let total: usize = radices.iter().product();
+    let mut best = f64::NEG_INFINITY;
+    let mut digits = vec![0; radices.len()];
+    for k in 0..total {
+        bellgap::scenario::digits(k, &radices, &mut digits);
+        let mut at = 0;
+        let strategy: Vec<Vec<usize>> = s
+            .parties
+            .iter()
+            .map(|p| {
+                let v = digits[at..at + p.questions()].to_vec();
+                at += p.questions();
+                v
+            })
+            .collect();
+        best = best.max(s.value_of_strategy(&strategy));
+    }
+    best
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 96, ..ProptestConfig::default() })]
+
+    #[test]
+    fn search_is_exact_and_below_no_signalling(g in random_game(3)) {
+        let s = &g.scenario;
+        let c = search(s, None);
+        prop_assert!((c.value - brute_force(s)).abs() < TOL, "search {} vs brute force {}", c.value, brute_force(s));
+        prop_assert!((s.value_of_strategy(&c.strategy.answers) - c.value).abs() < TOL);
+        let ns = no_signalling_value(s, false).unwrap().value;
+        let (_, hi) = s.value_range();
+        prop_assert!(c.value <= ns + TOL, "classical {} > no-signalling {}", c.value, ns);
+        prop_assert!(ns <= hi + TOL, "no-signalling {} > table maximum {}", ns, hi);
+    }
+
+    #[test]
+    fn relabelling_changes_nothing(g in random_game(3)) {
+        let s = &g.scenario;
+        let r = s.relabelled(&g.players, &g.questions, &g.answers);
+        let (c1, c2) = (search(s, None).value, search(&r, None).value);
+        prop_assert!((c1 - c2).abs() < TOL, "classical {} vs relabelled {}", c1, c2);
+        let n1 = no_signalling_value(s, false).unwrap().value;
+        let n2 = no_signalling_value(&r, false).unwrap().value;
+        prop_assert!((n1 - n2).abs() < TOL, "no-signalling {} vs relabelled {}", n1, n2);
+    }
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 24, ..ProptestConfig::default() })]
+
+    #[test]
+    fn milp_agrees_with_search(g in random_game(2)) {
+        let s = &g.scenario;
+        let a = search(s, None).value;
+        let b = milp(s).unwrap().value;
+        prop_assert!((a - b).abs() < 1e-6, "search {} vs MILP {}", a, b);
+    }
+}
