@@ -10,7 +10,7 @@ use clap::{Args, Parser, Subcommand, ValueEnum};
 use serde_json::{json, Value};
 
 use bellgap::classical::locality::{expression_as_game, locality_test, Correlations};
-use bellgap::classical::{self, ClassicalEstimate, Choice};
+use bellgap::classical::{self, Choice, ClassicalEstimate};
 use bellgap::game::{families, product, CompileOptions, Game, GameSpec};
 use bellgap::nosignal;
 use bellgap::report::{self, Report};
@@ -201,7 +201,11 @@ fn warn_long_search(s: &bellgap::Scenario, force: bool, warnings: &mut Vec<Strin
     }
 }
 
-fn classical_for(game: &Game, args: &GameArgs, choice: Choice) -> Result<classical::ClassicalValue> {
+fn classical_for(
+    game: &Game,
+    args: &GameArgs,
+    choice: Choice,
+) -> Result<classical::ClassicalValue> {
     let printer = progress_printer(args.quiet || args.json);
     let progress = printer.as_ref().map(|p| p as classical::Progress);
     classical::classical_value(&game.scenario, choice, args.force, progress)

@@ -58,6 +58,10 @@ pub struct LinearProgram {
     pub objective: Vec<f64>,
     pub maximise: bool,
     pub rows: Vec<Row>,
+    /// A fact the caller vouches for: every feasible point has `|x_j| ≤ box` for all j. With it,
+    /// the interior-point route turns its (slightly infeasible) dual solution into a bound on
+    /// the optimum that floating-point error cannot invalidate.
+    pub variable_box: Option<f64>,
 }
 
 #[derive(Debug, Clone)]
@@ -67,6 +71,9 @@ pub struct LpSolution {
     /// `solved`, or `almost solved` when the interior-point method met only its relaxed
     /// tolerances.
     pub status: &'static str,
+    /// A bound on the optimum that holds despite solver and rounding error, derived from the
+    /// dual solution (interior point with [`LinearProgram::variable_box`] set; see there).
+    pub certified_bound: Option<f64>,
 }
 
 /// Simplex runs longer than this are stopped and reported as a solver failure rather than hang.
@@ -145,13 +152,16 @@ impl LinearProgram {
             };
             model = model.with(constraint);
         }
-        let solution = model.solve().map_err(|e| Error::solver(stage, e.to_string()))?;
+        let solution = model
+            .solve()
+            .map_err(|e| Error::solver(stage, e.to_string()))?;
         let x: Vec<f64> = vars.iter().map(|v| solution.value(*v)).collect();
         let objective = x.iter().zip(&self.objective).map(|(x, c)| x * c).sum();
         Ok(LpSolution {
             x,
             objective,
             status: "solved",
+            certified_bound: None,
         })
     }
 
@@ -162,11 +172,15 @@ impl LinearProgram {
             DefaultSettingsBuilder, DefaultSolver, IPSolver, SolverStatus, SupportedConeT,
         };
         if self.bounds.iter().any(|b| b.integer) {
-            return Err(Error::solver(stage, "integer variables need the simplex backend"));
+            return Err(Error::solver(
+                stage,
+                "integer variables need the simplex backend",
+            ));
         }
         let n = self.vars();
         // clarabel's form: minimise qᵀx s.t. Ax + s = b, s in the cones; equalities first.
-        let (mut rows, mut cols, mut vals, mut rhs) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
+        let (mut rows, mut cols, mut vals, mut rhs) =
+            (Vec::new(), Vec::new(), Vec::new(), Vec::new());
         let mut push = |terms: &[(usize, f64)], sign: f64, b: f64| {
             let r = rhs.len();
             for &(j, c) in terms {
@@ -179,7 +193,11 @@ impl LinearProgram {
         for row in self.rows.iter().filter(|r| r.relation == Relation::Eq) {
             push(&row.terms, 1.0, row.rhs);
         }
-        let equalities = self.rows.iter().filter(|r| r.relation == Relation::Eq).count();
+        let equalities = self
+            .rows
+            .iter()
+            .filter(|r| r.relation == Relation::Eq)
+            .count();
         for row in &self.rows {
             match row.relation {
                 Relation::Le => push(&row.terms, 1.0, row.rhs),
@@ -226,11 +244,57 @@ impl LinearProgram {
         };
         let x = solver.solution.x.clone();
         let objective = x.iter().zip(&self.objective).map(|(x, c)| x * c).sum();
+        let certified_bound = self
+            .variable_box
+            .map(|bx| certified(&a, &rhs, &q, &solver.solution.z, equalities, bx, sign));
         Ok(LpSolution {
             x,
             objective,
             status,
+            certified_bound,
         })
+    }
+}
+
+/// Weak duality with the error accounted for. For `min qᵀx` s.t. `Ax + s = b`, s ≥ 0 on the
+/// inequality rows and 0 on the equalities: any z with z ≥ 0 on the inequality rows gives
+/// `qᵀx = rᵀx − zᵀb + zᵀs ≥ rᵀx − zᵀb ≥ −zᵀb − ‖r‖₁·box` with residual `r = q + Aᵀz`. The
+/// solver's z is first projected onto its cone, the residual is recomputed exactly as stated,
+/// and a rounding allowance proportional to the magnitudes involved is added. Returned in the
+/// caller's sense (an upper bound when maximising, a lower bound when minimising).
+fn certified(
+    a: &clarabel::algebra::CscMatrix<f64>,
+    b: &[f64],
+    q: &[f64],
+    z: &[f64],
+    equalities: usize,
+    bx: f64,
+    sign: f64,
+) -> f64 {
+    let z: Vec<f64> = z
+        .iter()
+        .enumerate()
+        .map(|(i, &v)| if i < equalities { v } else { v.max(0.0) })
+        .collect();
+    let mut residual = q.to_vec();
+    let mut magnitude = 0.0;
+    for j in 0..a.n {
+        for k in a.colptr[j]..a.colptr[j + 1] {
+            let t = a.nzval[k] * z[a.rowval[k]];
+            residual[j] += t;
+            magnitude += t.abs();
+        }
+    }
+    let zb: f64 = z.iter().zip(b).map(|(z, b)| z * b).sum();
+    let zb_magnitude: f64 = z.iter().zip(b).map(|(z, b)| (z * b).abs()).sum();
+    let slack: f64 = residual.iter().map(|r| r.abs()).sum::<f64>() * bx;
+    let rounding = 1e-14 * (magnitude * bx + zb_magnitude) * (a.m + a.n) as f64;
+    // min qᵀx ≥ −zᵀb − slack − rounding; the caller maximised −qᵀx when sign = −1.
+    let lower_of_min = -zb - slack - rounding;
+    if sign < 0.0 {
+        -lower_of_min
+    } else {
+        lower_of_min
     }
 }
 
@@ -248,8 +312,11 @@ mod tests {
         lp.add_row(vec![(x, 3.0), (y, 1.0)], Relation::Le, 6.0);
         let s = lp.solve("test").unwrap();
         assert!((s.objective - 2.8).abs() < 1e-9);
+        lp.variable_box = Some(10.0);
         let s = lp.solve_interior_point("test").unwrap();
         assert!((s.objective - 2.8).abs() < 1e-8);
+        let bound = s.certified_bound.unwrap();
+        assert!((2.8..2.8 + 1e-7).contains(&bound), "certified {bound}");
         assert!((s.x[0] - 1.6).abs() < 1e-7 && (s.x[1] - 1.2).abs() < 1e-7);
         // Integer version: best integer point has value 2 ((1,1), (2,0), (0,2)).
         lp.bounds = vec![

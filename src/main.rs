@@ -18,7 +18,10 @@ fn main() -> ExitCode {
                 eprintln!("warning: {w}");
             }
             let text = if json {
-                format!("{}\n", serde_json::to_string_pretty(&out.json).unwrap_or_default())
+                format!(
+                    "{}\n",
+                    serde_json::to_string_pretty(&out.json).unwrap_or_default()
+                )
             } else {
                 out.text
             };

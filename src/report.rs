@@ -49,7 +49,10 @@ impl<'a> Report<'a> {
         );
         if self.sizes {
             m.insert("sizes".into(), json!(Sizes::of(s)));
-            m.insert("estimates".into(), json!({"classical": ClassicalEstimate::of(s)}));
+            m.insert(
+                "estimates".into(),
+                json!({"classical": ClassicalEstimate::of(s)}),
+            );
             m.insert("value_range".into(), json!(s.value_range()));
         }
         if let Some(c) = &self.classical {
@@ -68,7 +71,14 @@ impl<'a> Report<'a> {
             m.insert("no_signalling".into(), json!(ns.value));
             m.insert(
                 "no_signalling_details".into(),
-                json!({"variables": ns.variables, "constraints": ns.constraints, "seconds": ns.seconds}),
+                json!({
+                    "method": ns.method,
+                    "status": ns.status,
+                    "certified_upper": ns.certified_upper,
+                    "variables": ns.variables,
+                    "constraints": ns.constraints,
+                    "seconds": ns.seconds,
+                }),
             );
         }
         if let (Some(c), Some(ns)) = (&self.classical, &self.no_signalling) {
@@ -85,7 +95,10 @@ impl<'a> Report<'a> {
         let s = &self.game.scenario;
         let mut out = String::new();
         let mut rows: Vec<(String, String)> = vec![
-            ("game".into(), format!("{} ({})", self.game.name, self.game.source)),
+            (
+                "game".into(),
+                format!("{} ({})", self.game.name, self.game.source),
+            ),
             (
                 "players".into(),
                 s.parties
@@ -115,7 +128,9 @@ impl<'a> Report<'a> {
                 "strategies".into(),
                 format!(
                     "{:.4e} deterministic; search enumerates {:.4e} (responder: {})",
-                    z.deterministic_strategies, e.enumerated_strategies, s.parties[e.responder].name
+                    z.deterministic_strategies,
+                    e.enumerated_strategies,
+                    s.parties[e.responder].name
                 ),
             ));
             rows.push(("value range".into(), format!("[{}, {}]", num(lo), num(hi))));
@@ -124,7 +139,11 @@ impl<'a> Report<'a> {
             rows.push(("classical".into(), with_fraction(c.value)));
         }
         if let Some(ns) = &self.no_signalling {
-            rows.push(("no-signalling".into(), with_fraction(ns.value)));
+            let mut v = with_fraction(ns.value);
+            if let Some(up) = ns.certified_upper {
+                v += &format!("  ({}, {}; certified ≤ {})", ns.method, ns.status, num(up));
+            }
+            rows.push(("no-signalling".into(), v));
         }
         if let (Some(c), Some(ns)) = (&self.classical, &self.no_signalling) {
             rows.push(("gap ns − classical".into(), num(ns.value - c.value)));
@@ -133,13 +152,8 @@ impl<'a> Report<'a> {
         if let Some(c) = &self.classical {
             out += "\noptimal deterministic strategy (answer to each question):\n";
             out += &strategy_text(s, &c.strategy);
-            out += &format!(
-                "({:?}, {} nodes, {:.3} s)\n",
-                c.method,
-                c.nodes,
-                c.seconds
-            )
-            .to_lowercase();
+            out += &format!("({:?}, {} nodes, {:.3} s)\n", c.method, c.nodes, c.seconds)
+                .to_lowercase();
         }
         out
     }
@@ -177,7 +191,11 @@ fn strategy_text(s: &Scenario, st: &DeterministicStrategy) -> String {
 
 /// Two aligned columns.
 pub fn table(rows: &[(String, String)]) -> String {
-    let width = rows.iter().map(|(k, _)| k.chars().count()).max().unwrap_or(0);
+    let width = rows
+        .iter()
+        .map(|(k, _)| k.chars().count())
+        .max()
+        .unwrap_or(0);
     rows.iter()
         .map(|(k, v)| format!("{k:<width$}  {v}\n"))
         .collect()
@@ -236,7 +254,10 @@ pub fn locality_json(name: &str, r: &LocalityReport) -> Value {
 pub fn locality_text(name: &str, r: &LocalityReport, saved: Option<&str>) -> String {
     let mut rows = vec![
         ("correlations".to_string(), name.to_string()),
-        ("local model".to_string(), if r.local { "yes" } else { "no" }.to_string()),
+        (
+            "local model".to_string(),
+            if r.local { "yes" } else { "no" }.to_string(),
+        ),
         (
             "critical visibility".to_string(),
             if r.visibility.is_finite() {
@@ -254,7 +275,9 @@ pub fn locality_text(name: &str, r: &LocalityReport, saved: Option<&str>) -> Str
                 "local bound {}, value on the input {}{}",
                 num(sep.local_bound),
                 num(sep.value),
-                saved.map(|f| format!(" (saved to {f})")).unwrap_or_default()
+                saved
+                    .map(|f| format!(" (saved to {f})"))
+                    .unwrap_or_default()
             ),
         ));
     }

@@ -36,7 +36,13 @@ fn bounds_json_has_the_value_keys() {
     assert!((j["classical"].as_f64().unwrap() - 0.75).abs() < 1e-9);
     assert!((j["no_signalling"].as_f64().unwrap() - 1.0).abs() < 1e-9);
     assert!((j["gaps"]["no_signalling_minus_classical"].as_f64().unwrap() - 0.25).abs() < 1e-9);
-    assert_eq!(j["classical_details"]["strategy"]["alice"]["answers"].as_array().unwrap().len(), 2);
+    assert_eq!(
+        j["classical_details"]["strategy"]["alice"]["answers"]
+            .as_array()
+            .unwrap()
+            .len(),
+        2
+    );
 }
 
 #[test]
@@ -84,9 +90,15 @@ fn bad_input_exits_2_with_file_line_and_column() {
 
 #[test]
 fn missing_file_and_usage_errors_exit_2() {
-    assert_eq!(bellgap(&["classical", "no/such/file.yaml"]).status.code(), Some(2));
+    assert_eq!(
+        bellgap(&["classical", "no/such/file.yaml"]).status.code(),
+        Some(2)
+    );
     assert_eq!(bellgap(&["frobnicate"]).status.code(), Some(2));
-    assert_eq!(bellgap(&["family", "odd-cycle", "--n", "4"]).status.code(), Some(2));
+    assert_eq!(
+        bellgap(&["family", "odd-cycle", "--n", "4"]).status.code(),
+        Some(2)
+    );
 }
 
 #[test]
@@ -106,7 +118,14 @@ fn family_output_is_a_game_file() {
 
 #[test]
 fn family_product_of_a_file() {
-    let out = bellgap(&["family", "product", "--game", "games/chsh.yaml", "--rounds", "2"]);
+    let out = bellgap(&[
+        "family",
+        "product",
+        "--game",
+        "games/chsh.yaml",
+        "--rounds",
+        "2",
+    ]);
     assert!(out.status.success());
     let path = temp_file("chsh2.yaml", &String::from_utf8_lossy(&out.stdout));
     let j = json_of(&bellgap(&["bounds", &path.to_string_lossy(), "--json"]));
@@ -138,10 +157,28 @@ fn locality_test_of_the_tsirelson_box() {
     // noise visibility is 1/√2, where the CHSH value 2√2·v reaches the local bound 2 (CHSH 1969;
     // Cirel'son 1980).
     let (hi, lo) = ("(1 + 1/sqrt(2))/4", "(1 - 1/sqrt(2))/4");
-    let path = two_bit_correlations("tsirelson.yaml", [[hi, lo, lo, hi], [hi, lo, lo, hi], [hi, lo, lo, hi], [lo, hi, hi, lo]]);
+    let path = two_bit_correlations(
+        "tsirelson.yaml",
+        [
+            [hi, lo, lo, hi],
+            [hi, lo, lo, hi],
+            [hi, lo, lo, hi],
+            [lo, hi, hi, lo],
+        ],
+    );
     let save = std::env::temp_dir().join(format!("bellgap-cli-{}/sep.yaml", std::process::id()));
-    let out = bellgap(&["local", &path.to_string_lossy(), "--json", "--save", &save.to_string_lossy()]);
-    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    let out = bellgap(&[
+        "local",
+        &path.to_string_lossy(),
+        "--json",
+        "--save",
+        &save.to_string_lossy(),
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     let j = json_of(&out);
     assert_eq!(j["local"], false);
     assert!((j["visibility"].as_f64().unwrap() - 1.0 / 2f64.sqrt()).abs() < 1e-7);
@@ -158,7 +195,12 @@ fn locality_test_of_pr_box_and_local_box() {
     // PR box (Popescu–Rohrlich 1994): CHSH value 4, so the visibility is 2/4 = 1/2.
     let path = two_bit_correlations(
         "pr.yaml",
-        [["1/2", "0", "0", "1/2"], ["1/2", "0", "0", "1/2"], ["1/2", "0", "0", "1/2"], ["0", "1/2", "1/2", "0"]],
+        [
+            ["1/2", "0", "0", "1/2"],
+            ["1/2", "0", "0", "1/2"],
+            ["1/2", "0", "0", "1/2"],
+            ["0", "1/2", "1/2", "0"],
+        ],
     );
     let j = json_of(&bellgap(&["local", &path.to_string_lossy(), "--json"]));
     assert_eq!(j["local"], false);
@@ -175,7 +217,12 @@ fn signalling_correlations_are_flagged() {
     // Bob's answer copies Alice's question: signalling, hence not local.
     let path = two_bit_correlations(
         "signal.yaml",
-        [["1", "0", "0", "0"], ["1", "0", "0", "0"], ["0", "1", "0", "0"], ["0", "1", "0", "0"]],
+        [
+            ["1", "0", "0", "0"],
+            ["1", "0", "0", "0"],
+            ["0", "1", "0", "0"],
+            ["0", "1", "0", "0"],
+        ],
     );
     let j = json_of(&bellgap(&["local", &path.to_string_lossy(), "--json"]));
     assert_eq!(j["local"], false);

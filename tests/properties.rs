@@ -3,7 +3,8 @@
 //! reported value, and renaming questions, answers or players changes nothing.
 
 use bellgap::classical::{milp, search};
-use bellgap::nosignal::no_signalling_value;
+use bellgap::lp::{LinearProgram, VarBounds};
+use bellgap::nosignal::{add_no_signalling_rows, no_signalling_value};
 use bellgap::scenario::{Party, Scenario, ScoreKind};
 use proptest::prelude::*;
 
@@ -44,31 +45,38 @@ fn random_game(max_players: usize) -> impl Strategy<Value = RandomGame> {
                 answer_perms,
             )
         })
-        .prop_filter("some question must be asked", |t| t.1.iter().any(|&w| w > 0))
-        .prop_map(|(sizes, weights, scores, win, players, questions, answers)| {
-            let parties = sizes
-                .iter()
-                .enumerate()
-                .map(|(i, &(q, a))| Party {
-                    name: format!("p{i}"),
-                    question_labels: (0..q as i64).collect(),
-                    answer_labels: (0..a as i64).collect(),
-                })
-                .collect();
-            let total: f64 = weights.iter().map(|&w| w as f64).sum();
-            let weights = weights.iter().map(|&w| w as f64 / total).collect();
-            let (scores, kind) = if win {
-                (scores.iter().map(|&v| (v > 0) as u8 as f64).collect(), ScoreKind::Win)
-            } else {
-                (scores.iter().map(|&v| v as f64).collect(), ScoreKind::Score)
-            };
-            RandomGame {
-                scenario: Scenario::new(parties, weights, scores, 0.0, kind),
-                players,
-                questions,
-                answers,
-            }
+        .prop_filter("some question must be asked", |t| {
+            t.1.iter().any(|&w| w > 0)
         })
+        .prop_map(
+            |(sizes, weights, scores, win, players, questions, answers)| {
+                let parties = sizes
+                    .iter()
+                    .enumerate()
+                    .map(|(i, &(q, a))| Party {
+                        name: format!("p{i}"),
+                        question_labels: (0..q as i64).collect(),
+                        answer_labels: (0..a as i64).collect(),
+                    })
+                    .collect();
+                let total: f64 = weights.iter().map(|&w| w as f64).sum();
+                let weights = weights.iter().map(|&w| w as f64 / total).collect();
+                let (scores, kind) = if win {
+                    (
+                        scores.iter().map(|&v| (v > 0) as u8 as f64).collect(),
+                        ScoreKind::Win,
+                    )
+                } else {
+                    (scores.iter().map(|&v| v as f64).collect(), ScoreKind::Score)
+                };
+                RandomGame {
+                    scenario: Scenario::new(parties, weights, scores, 0.0, kind),
+                    players,
+                    questions,
+                    answers,
+                }
+            },
+        )
 }
 
 /// Every joint deterministic strategy, evaluated directly.
@@ -122,6 +130,38 @@ proptest! {
         let n1 = no_signalling_value(s, false).unwrap().value;
         let n2 = no_signalling_value(&r, false).unwrap().value;
         prop_assert!((n1 - n2).abs() < TOL, "no-signalling {} vs relabelled {}", n1, n2);
+    }
+}
+
+/// The no-signalling LP on full probabilities with explicit no-signalling equalities: a second,
+/// independent formulation of the same value.
+fn no_signalling_full(s: &Scenario) -> f64 {
+    let mut lp = LinearProgram::new(true);
+    for &c in s.objective() {
+        lp.add_var(VarBounds::NONNEGATIVE, c);
+    }
+    add_no_signalling_rows(s, &mut lp, 0);
+    s.offset + lp.solve("full no-signalling LP").unwrap().objective
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 64, ..ProptestConfig::default() })]
+
+    #[test]
+    fn no_signalling_formulations_agree(g in random_game(3)) {
+        let s = &g.scenario;
+        let ns = no_signalling_value(s, false).unwrap();
+        let full = no_signalling_full(s);
+        prop_assert!((ns.value - full).abs() < 1e-6, "Collins-Gisin {} vs full {}", ns.value, full);
+        // The optimal behaviour is a behaviour, reaches the value, and does not signal.
+        prop_assert!(ns.behaviour.iter().all(|&p| p > -1e-9));
+        prop_assert!((s.value_of_behaviour(&ns.behaviour) - ns.value).abs() < 1e-6);
+        let mut check = LinearProgram::new(true);
+        add_no_signalling_rows(s, &mut check, 0);
+        for row in &check.rows {
+            let lhs: f64 = row.terms.iter().map(|&(i, c)| c * ns.behaviour[i]).sum();
+            prop_assert!((lhs - row.rhs).abs() < 1e-6);
+        }
     }
 }
 

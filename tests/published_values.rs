@@ -91,7 +91,11 @@ fn odd_cycle() {
     // Classical 1 − 1/(2n): Cleve–Høyer–Toner–Watrous 2004 (quant-ph/0404076). n=3 gives 5/6.
     for n in [3usize, 5, 7] {
         let s = compile(&families::odd_cycle(n).unwrap());
-        assert_close(classical(&s), 1.0 - 1.0 / (2.0 * n as f64), &format!("odd cycle {n}"));
+        assert_close(
+            classical(&s),
+            1.0 - 1.0 / (2.0 * n as f64),
+            &format!("odd cycle {n}"),
+        );
         assert_close(nosignal(&s), 1.0, &format!("odd cycle {n} no-signalling"));
     }
 }
@@ -120,7 +124,11 @@ fn chained_bell() {
     // Local bound 2m − 2: Braunstein–Caves 1990 (Ann. Phys. 202, 22).
     for m in 2..=6 {
         let s = compile(&families::chained_bell(m).unwrap());
-        assert_close(classical(&s), 2.0 * m as f64 - 2.0, &format!("chained m={m}"));
+        assert_close(
+            classical(&s),
+            2.0 * m as f64 - 2.0,
+            &format!("chained m={m}"),
+        );
     }
 }
 
@@ -159,7 +167,11 @@ fn chsh_played_twice_in_parallel() {
     let twice = compile(&product::parallel_repetition(&chsh, "chsh", 2).unwrap());
     let v = search(&twice, None);
     assert_close(v.value, 10.0 / 16.0, "CHSH x2 classical");
-    assert_close(brute_force_two_player(&twice), 10.0 / 16.0, "CHSH x2 brute force");
+    assert_close(
+        brute_force_two_player(&twice),
+        10.0 / 16.0,
+        "CHSH x2 brute force",
+    );
     assert_close(nosignal(&twice), 1.0, "CHSH x2 no-signalling");
 }
 
@@ -170,7 +182,11 @@ fn product_of_expressions_multiplies_values_of_product_strategies() {
     let e = compile(&families::chsh_expression());
     let twice = compile(&product::parallel_repetition(&e, "chsh-expression", 2).unwrap());
     assert!(classical(&twice) >= 4.0 - TOL);
-    assert_close(nosignal(&twice), 16.0, "CHSH expression squared no-signalling");
+    assert_close(
+        nosignal(&twice),
+        16.0,
+        "CHSH expression squared no-signalling",
+    );
 }
 
 #[test]
@@ -191,5 +207,23 @@ fn bundled_games_match_their_families() {
         let path = format!("{}/games/{file}.yaml", env!("CARGO_MANIFEST_DIR"));
         let from_file = Game::from_file(&path, Default::default()).unwrap();
         assert_eq!(from_file.scenario, compile(&spec), "{file}");
+    }
+}
+
+#[test]
+fn large_no_signalling_lps_take_the_interior_point_route_with_a_certified_bound() {
+    // GHZ with 6 players (4096 positivity rows) and CHSH three times in parallel (4096 rows):
+    // both are won with certainty by no-signalling boxes (the quantum GHZ strategy, Mermin 1990;
+    // three PR boxes, Popescu–Rohrlich 1994), so the value is 1.
+    let chsh = compile(&families::chsh());
+    for s in [
+        compile(&families::ghz(6).unwrap()),
+        compile(&product::parallel_repetition(&chsh, "chsh", 3).unwrap()),
+    ] {
+        let ns = no_signalling_value(&s, false).unwrap();
+        assert_eq!(ns.method, "interior point");
+        assert_close(ns.value, 1.0, "no-signalling value");
+        let up = ns.certified_upper.expect("certified bound");
+        assert!((1.0..1.0 + 1e-5).contains(&up), "certified {up}");
     }
 }

@@ -24,7 +24,11 @@ fn load(text: &str) -> Result<Game, Error> {
 /// Asserts an input error at `line:column` whose field and message contain the given text.
 fn expect_error(text: &str, line: usize, column: Option<usize>, field: &str, message: &str) {
     let err = load(text).expect_err("the file must be rejected");
-    let Error::Input { location, message: got } = &err else {
+    let Error::Input {
+        location,
+        message: got,
+    } = &err
+    else {
         panic!("expected an input error, got {err:?}");
     };
     assert_eq!(location.file, "bad.yaml");
@@ -89,27 +93,57 @@ fn unknown_field_is_rejected() {
 #[test]
 fn duplicate_player_names() {
     let text = PLAYERS.replace("name: bob", "name: alice");
-    expect_error(&format!("{text}win: \"a == b\"\n"), 7, Some(11), "players[1].name", "two players");
+    expect_error(
+        &format!("{text}win: \"a == b\"\n"),
+        7,
+        Some(11),
+        "players[1].name",
+        "two players",
+    );
 }
 
 #[test]
 fn duplicate_variable_names() {
     let text = PLAYERS.replace("answer: b", "answer: a");
-    expect_error(&format!("{text}win: \"a == x\"\n"), 9, None, "players[1].answer", "used twice");
+    expect_error(
+        &format!("{text}win: \"a == x\"\n"),
+        9,
+        None,
+        "players[1].answer",
+        "used twice",
+    );
 }
 
 #[test]
 fn empty_question_set() {
     let text = PLAYERS.replacen("questions: 2", "questions: 0", 1);
-    expect_error(&format!("{text}win: \"a == b\"\n"), 5, Some(16), "players[0].questions", "empty");
+    expect_error(
+        &format!("{text}win: \"a == b\"\n"),
+        5,
+        Some(16),
+        "players[0].questions",
+        "empty",
+    );
     let text = PLAYERS.replacen("questions: 2", "questions: []", 1);
-    expect_error(&format!("{text}win: \"a == b\"\n"), 5, None, "players[0].questions", "empty");
+    expect_error(
+        &format!("{text}win: \"a == b\"\n"),
+        5,
+        None,
+        "players[0].questions",
+        "empty",
+    );
 }
 
 #[test]
 fn duplicate_labels() {
     let text = PLAYERS.replacen("answers: 2", "answers: [0, 1, 0]", 1);
-    expect_error(&format!("{text}win: \"a == b\"\n"), 6, None, "players[0].answers[2]", "twice");
+    expect_error(
+        &format!("{text}win: \"a == b\"\n"),
+        6,
+        None,
+        "players[0].answers[2]",
+        "twice",
+    );
 }
 
 #[test]
@@ -130,7 +164,10 @@ fn probabilities_must_sum_to_one_unless_normalised() {
         "distribution.table",
         "sum to 0.8",
     );
-    let g = load(&format!("{PLAYERS}{table}  normalise: true\nwin: \"a == b\"\n")).unwrap();
+    let g = load(&format!(
+        "{PLAYERS}{table}  normalise: true\nwin: \"a == b\"\n"
+    ))
+    .unwrap();
     assert!((g.scenario.weights[0] - 0.625).abs() < 1e-12);
     assert!((g.scenario.weights[3] - 0.375).abs() < 1e-12);
 }
@@ -147,7 +184,13 @@ fn probabilities_may_be_expressions() {
 #[test]
 fn unknown_question_label_in_table() {
     let text = format!("{PLAYERS}distribution:\n  table:\n    - [0, 7, 1]\nwin: \"a == b\"\n");
-    expect_error(&text, 14, Some(11), "distribution.table[0][1]", "bob has no question 7");
+    expect_error(
+        &text,
+        14,
+        Some(11),
+        "distribution.table[0][1]",
+        "bob has no question 7",
+    );
 }
 
 #[test]

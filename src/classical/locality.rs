@@ -89,12 +89,23 @@ impl Correlations {
         let mut parties = Vec::new();
         for (i, p) in raw.players.iter().enumerate() {
             if parties.iter().any(|q: &Party| q.name == p.name) {
-                return Err(ctx.error(&format!("players[{i}].name"), format!("two players are called `{}`", p.name)));
+                return Err(ctx.error(
+                    &format!("players[{i}].name"),
+                    format!("two players are called `{}`", p.name),
+                ));
             }
             parties.push(Party {
                 name: p.name.clone(),
-                question_labels: parse_labels_for(&p.questions, &ctx, &format!("players[{i}].questions"))?,
-                answer_labels: parse_labels_for(&p.answers, &ctx, &format!("players[{i}].answers"))?,
+                question_labels: parse_labels_for(
+                    &p.questions,
+                    &ctx,
+                    &format!("players[{i}].questions"),
+                )?,
+                answer_labels: parse_labels_for(
+                    &p.answers,
+                    &ctx,
+                    &format!("players[{i}].answers"),
+                )?,
             });
         }
         let qr: Vec<usize> = parties.iter().map(Party::questions).collect();
@@ -109,14 +120,22 @@ impl Correlations {
         for (r, row) in raw.behaviour.iter().enumerate() {
             let rf = format!("behaviour[{r}]");
             if row.questions.len() != parties.len() {
-                return Err(ctx.error(&format!("{rf}.questions"), format!("expected one question label per player ({})", parties.len())));
+                return Err(ctx.error(
+                    &format!("{rf}.questions"),
+                    format!("expected one question label per player ({})", parties.len()),
+                ));
             }
             for (i, &label) in row.questions.iter().enumerate() {
                 d[i] = parties[i]
                     .question_labels
                     .iter()
                     .position(|&l| l == label)
-                    .ok_or_else(|| ctx.error(&format!("{rf}.questions[{i}]"), format!("{} has no question {label}", parties[i].name)))?;
+                    .ok_or_else(|| {
+                        ctx.error(
+                            &format!("{rf}.questions[{i}]"),
+                            format!("{} has no question {label}", parties[i].name),
+                        )
+                    })?;
             }
             let q = index_of(&d, &qr);
             if seen[q] {
@@ -124,7 +143,13 @@ impl Correlations {
             }
             seen[q] = true;
             if row.probabilities.len() != na {
-                return Err(ctx.error(&format!("{rf}.probabilities"), format!("expected {na} probabilities (one per joint answer), found {}", row.probabilities.len())));
+                return Err(ctx.error(
+                    &format!("{rf}.probabilities"),
+                    format!(
+                        "expected {na} probabilities (one per joint answer), found {}",
+                        row.probabilities.len()
+                    ),
+                ));
             }
             let mut total = 0.0;
             for (a, v) in row.probabilities.iter().enumerate() {
@@ -137,7 +162,10 @@ impl Correlations {
                 total += x;
             }
             if (total - 1.0).abs() > ROW_TOLERANCE {
-                return Err(ctx.error(&format!("{rf}.probabilities"), format!("probabilities sum to {total}, not 1")));
+                return Err(ctx.error(
+                    &format!("{rf}.probabilities"),
+                    format!("probabilities sum to {total}, not 1"),
+                ));
             }
         }
         if let Some(missing) = seen.iter().position(|s| !s) {
@@ -147,7 +175,13 @@ impl Correlations {
                 .enumerate()
                 .map(|(i, &k)| parties[i].question_labels[k].to_string())
                 .collect();
-            return Err(ctx.error("behaviour", format!("no row for joint question [{}]; every joint question needs one", labels.join(", "))));
+            return Err(ctx.error(
+                "behaviour",
+                format!(
+                    "no row for joint question [{}]; every joint question needs one",
+                    labels.join(", ")
+                ),
+            ));
         }
         Ok(Correlations {
             name: raw.name.unwrap_or_else(|| file.to_string()),
@@ -160,7 +194,13 @@ impl Correlations {
     pub fn scenario_shape(&self) -> Scenario {
         let nq: usize = self.parties.iter().map(Party::questions).product();
         let na: usize = self.parties.iter().map(Party::answers).product();
-        Scenario::new(self.parties.clone(), vec![1.0; nq], vec![0.0; nq * na], 0.0, ScoreKind::Score)
+        Scenario::new(
+            self.parties.clone(),
+            vec![1.0; nq],
+            vec![0.0; nq * na],
+            0.0,
+            ScoreKind::Score,
+        )
     }
 
     /// Largest violation of the no-signalling conditions (0 for physical correlations).
@@ -238,7 +278,11 @@ pub fn locality_test(c: &Correlations, force: bool) -> Result<LocalityReport> {
     for _ in 0..nq * na {
         lp.add_var(VarBounds::FREE, uniform);
     }
-    lp.add_row(diff.iter().enumerate().map(|(i, &d)| (i, d)).collect(), Relation::Eq, 1.0);
+    lp.add_row(
+        diff.iter().enumerate().map(|(i, &d)| (i, d)).collect(),
+        Relation::Eq,
+        1.0,
+    );
     let strategy_radices: Vec<usize> = c
         .parties
         .iter()
@@ -333,7 +377,10 @@ pub fn expression_as_game(c: &Correlations, expr: &SeparatingExpression) -> Game
         for (i, p) in c.parties.iter().enumerate() {
             event.insert(
                 Yaml::from(p.name.clone()),
-                Yaml::from(format!("{}|{}", p.answer_labels[ad[i]], p.question_labels[qd[i]])),
+                Yaml::from(format!(
+                    "{}|{}",
+                    p.answer_labels[ad[i]], p.question_labels[qd[i]]
+                )),
             );
         }
         let mut term = Mapping::new();

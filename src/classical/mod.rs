@@ -90,7 +90,11 @@ impl ClassicalEstimate {
             .map(|p| p.questions() as f64 * (p.answers() as f64).ln())
             .collect();
         let responder = (0..s.players())
-            .max_by(|&i, &j| log_strategies[i].total_cmp(&log_strategies[j]).then(j.cmp(&i)))
+            .max_by(|&i, &j| {
+                log_strategies[i]
+                    .total_cmp(&log_strategies[j])
+                    .then(j.cmp(&i))
+            })
             .unwrap_or(0);
         let enumerated: f64 = (0..s.players())
             .filter(|&i| i != responder)
@@ -348,18 +352,23 @@ impl Layout {
         let mut slots = Vec::new();
         let mut slot_of = vec![vec![0; max_q]; others.len()];
         for x in 0..max_q {
-            for k in 0..others.len() {
-                if x < other_q[k] {
-                    slot_of[k][x] = slots.len();
+            for (k, &questions) in other_q.iter().enumerate() {
+                if x < questions {
                     slots.push((k, x));
                 }
             }
+        }
+        for (position, &(k, x)) in slots.iter().enumerate() {
+            slot_of[k][x] = position;
         }
         let mut completes = vec![Vec::new(); slots.len()];
         let mut row_questions = Vec::with_capacity(rows);
         for row in 0..rows {
             digits(row, &other_q, &mut rd);
-            let last = (0..others.len()).map(|k| slot_of[k][rd[k]]).max().unwrap_or(0);
+            let last = (0..others.len())
+                .map(|k| slot_of[k][rd[k]])
+                .max()
+                .unwrap_or(0);
             completes[last].push(row);
             row_questions.push(rd.clone());
         }
@@ -381,6 +390,10 @@ impl Layout {
     }
 }
 
+/// What one parallel task found: its best value, the enumerated players' answers reaching it,
+/// and the nodes it visited.
+type TaskResult = (f64, Option<Vec<Vec<usize>>>, u64);
+
 /// Shared best value, as f64 bits (the search only ever raises it).
 struct SharedBest(AtomicU64);
 
@@ -391,10 +404,12 @@ impl SharedBest {
     fn raise(&self, v: f64) {
         let mut cur = self.0.load(Ordering::Relaxed);
         while v > f64::from_bits(cur) {
-            match self
-                .0
-                .compare_exchange_weak(cur, v.to_bits(), Ordering::Relaxed, Ordering::Relaxed)
-            {
+            match self.0.compare_exchange_weak(
+                cur,
+                v.to_bits(),
+                Ordering::Relaxed,
+                Ordering::Relaxed,
+            ) {
                 Ok(_) => break,
                 Err(actual) => cur = actual,
             }
@@ -448,7 +463,8 @@ impl<'a> Searcher<'a> {
         let lay = self.lay;
         for &row in &lay.completes[d] {
             let rq = &lay.row_questions[row];
-            let ao = (0..lay.others.len()).fold(0, |acc, k| acc * lay.other_a[k] + self.assign[k][rq[k]]);
+            let ao = (0..lay.others.len())
+                .fold(0, |acc, k| acc * lay.other_a[k] + self.assign[k][rq[k]]);
             for yq in 0..lay.y {
                 let c0 = ((row * lay.y + yq) * lay.other_answers + ao) * lay.b;
                 let m0 = (row * lay.y + yq) * lay.b;
@@ -548,7 +564,7 @@ pub fn search(s: &Scenario, progress: Option<Progress>) -> ClassicalValue {
         .map(|&(k, _)| lay.other_a[k])
         .collect();
     let done = AtomicUsize::new(0);
-    let results: Vec<(f64, Option<Vec<Vec<usize>>>, u64)> = (0..tasks)
+    let results: Vec<TaskResult> = (0..tasks)
         .into_par_iter()
         .map(|t| {
             let mut sr = Searcher::new(&lay, &shared, tolerance);

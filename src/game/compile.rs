@@ -205,13 +205,19 @@ pub(crate) fn parse_labels_for(value: &Yaml, ctx: &Context, field: &str) -> Resu
     match value {
         Yaml::Number(n) => {
             let Some(count) = n.as_u64() else {
-                return Err(ctx.error(field, format!("expected a positive count or a list of integer labels, found {n}")));
+                return Err(ctx.error(
+                    field,
+                    format!("expected a positive count or a list of integer labels, found {n}"),
+                ));
             };
             if count == 0 {
                 return Err(ctx.error(field, "the set is empty: give a count of at least 1"));
             }
             if count as usize > MAX_LABELS {
-                return Err(ctx.error(field, format!("{count} labels is more than the limit of {MAX_LABELS}")));
+                return Err(ctx.error(
+                    field,
+                    format!("{count} labels is more than the limit of {MAX_LABELS}"),
+                ));
             }
             Ok((0..count as i64).collect())
         }
@@ -220,14 +226,23 @@ pub(crate) fn parse_labels_for(value: &Yaml, ctx: &Context, field: &str) -> Resu
                 return Err(ctx.error(field, "the set is empty: list at least one label"));
             }
             if items.len() > MAX_LABELS {
-                return Err(ctx.error(field, format!("{} labels is more than the limit of {MAX_LABELS}", items.len())));
+                return Err(ctx.error(
+                    field,
+                    format!(
+                        "{} labels is more than the limit of {MAX_LABELS}",
+                        items.len()
+                    ),
+                ));
             }
             let mut seen = HashSet::new();
             let mut labels = Vec::with_capacity(items.len());
             for (i, item) in items.iter().enumerate() {
                 let f = format!("{field}[{i}]");
                 let Some(label) = item.as_i64() else {
-                    return Err(ctx.error(&f, format!("labels are integers, found {}", yaml_brief(item))));
+                    return Err(ctx.error(
+                        &f,
+                        format!("labels are integers, found {}", yaml_brief(item)),
+                    ));
                 };
                 if !seen.insert(label) {
                     return Err(ctx.error(&f, format!("label {label} appears twice")));
@@ -238,7 +253,10 @@ pub(crate) fn parse_labels_for(value: &Yaml, ctx: &Context, field: &str) -> Resu
         }
         other => Err(ctx.error(
             field,
-            format!("expected a count or a list of integer labels, found {}", yaml_brief(other)),
+            format!(
+                "expected a count or a list of integer labels, found {}",
+                yaml_brief(other)
+            ),
         )),
     }
 }
@@ -252,7 +270,10 @@ fn parse_parties(spec: &GameSpec, ctx: &Context) -> Result<Vec<Party>> {
             return Err(ctx.error(&format!("{base}.name"), "a player needs a name"));
         }
         if !names.insert(p.name.clone()) {
-            return Err(ctx.error(&format!("{base}.name"), format!("two players are called `{}`", p.name)));
+            return Err(ctx.error(
+                &format!("{base}.name"),
+                format!("two players are called `{}`", p.name),
+            ));
         }
         parties.push(Party {
             name: p.name.clone(),
@@ -265,15 +286,21 @@ fn parse_parties(spec: &GameSpec, ctx: &Context) -> Result<Vec<Party>> {
 
 fn check_identifier(name: &str, ctx: &Context, field: &str) -> Result<()> {
     let mut chars = name.chars();
-    let ok = chars
-        .next()
-        .is_some_and(|c| c.is_alphabetic() || c == '_')
+    let ok = chars.next().is_some_and(|c| c.is_alphabetic() || c == '_')
         && chars.all(|c| c.is_alphanumeric() || c == '_');
     if !ok {
-        return Err(ctx.error(field, format!("`{name}` is not a valid name (letters, digits and _, not starting with a digit)")));
+        return Err(ctx.error(
+            field,
+            format!(
+                "`{name}` is not a valid name (letters, digits and _, not starting with a digit)"
+            ),
+        ));
     }
     if RESERVED.contains(&name) {
-        return Err(ctx.error(field, format!("`{name}` is reserved by the formula language")));
+        return Err(ctx.error(
+            field,
+            format!("`{name}` is reserved by the formula language"),
+        ));
     }
     Ok(())
 }
@@ -294,7 +321,10 @@ fn parse_variables(
                 return Err(ctx.error(&field, format!("the variable `{name}` is used twice")));
             }
             if constants.iter().any(|(c, _)| c == name) {
-                return Err(ctx.error(&field, format!("`{name}` is both a variable and a constant")));
+                return Err(ctx.error(
+                    &field,
+                    format!("`{name}` is both a variable and a constant"),
+                ));
             }
             variables.push((name.clone(), slot));
         }
@@ -309,7 +339,10 @@ fn parse_constants(spec: &GameSpec, ctx: &Context) -> Result<Vec<(String, Value)
     };
     for (key, value) in map {
         let Some(name) = key.as_str() else {
-            return Err(ctx.error("constants", format!("constant names are words, found {}", yaml_brief(key))));
+            return Err(ctx.error(
+                "constants",
+                format!("constant names are words, found {}", yaml_brief(key)),
+            ));
         };
         let field = format!("constants.{name}");
         check_identifier(name, ctx, &field)?;
@@ -350,7 +383,12 @@ fn constant_value(
 }
 
 /// A number written as a YAML number or as a constant expression such as `"1/3"`.
-fn number(value: &Yaml, ctx: &Context, field: &str, constants: &[(String, Value)]) -> Result<Value> {
+fn number(
+    value: &Yaml,
+    ctx: &Context,
+    field: &str,
+    constants: &[(String, Value)],
+) -> Result<Value> {
     match value {
         Yaml::Number(n) => {
             if let Some(i) = n.as_i64() {
@@ -368,11 +406,16 @@ fn number(value: &Yaml, ctx: &Context, field: &str, constants: &[(String, Value)
                 .eval(&[])
                 .map_err(|e| ctx.formula_error(field, &e, "in this expression"))?;
             match v {
-                Value::List(_) => Err(ctx.error(field, "expected a number, the expression gives a table")),
+                Value::List(_) => {
+                    Err(ctx.error(field, "expected a number, the expression gives a table"))
+                }
                 v => Ok(v),
             }
         }
-        other => Err(ctx.error(field, format!("expected a number, found {}", yaml_brief(other)))),
+        other => Err(ctx.error(
+            field,
+            format!("expected a number, found {}", yaml_brief(other)),
+        )),
     }
 }
 
@@ -404,8 +447,15 @@ fn build_weights(
 ) -> Result<Vec<f64>> {
     let nq: usize = parties.iter().map(Party::questions).product();
     let field = "distribution";
-    let default = if kind == ScoreKind::Win { "uniform" } else { "sum" };
-    let dist = spec.distribution.clone().unwrap_or(Yaml::String(default.into()));
+    let default = if kind == ScoreKind::Win {
+        "uniform"
+    } else {
+        "sum"
+    };
+    let dist = spec
+        .distribution
+        .clone()
+        .unwrap_or(Yaml::String(default.into()));
     match &dist {
         Yaml::String(s) if s == "uniform" => return Ok(vec![1.0 / nq as f64; nq]),
         Yaml::String(s) if s == "sum" => return Ok(vec![1.0; nq]),
@@ -420,7 +470,9 @@ fn build_weights(
             ))
         }
     }
-    let Yaml::Mapping(map) = &dist else { unreachable!() };
+    let Yaml::Mapping(map) = &dist else {
+        unreachable!()
+    };
     let mut normalise = false;
     let mut chosen: Option<(&str, &Yaml)> = None;
     for (k, v) in map {
@@ -449,7 +501,10 @@ fn build_weights(
         }
     }
     let Some((key, value)) = chosen else {
-        return Err(ctx.error(field, "expected one of `table`, `product` or `proportional`"));
+        return Err(ctx.error(
+            field,
+            "expected one of `table`, `product` or `proportional`",
+        ));
     };
     let qr: Vec<usize> = parties.iter().map(Party::questions).collect();
     let mut weights = vec![0.0; nq];
@@ -457,14 +512,20 @@ fn build_weights(
     match key {
         "table" => {
             let Yaml::Sequence(rows) = value else {
-                return Err(ctx.error(&path, "expected a list of rows [question of each player..., probability]"));
+                return Err(ctx.error(
+                    &path,
+                    "expected a list of rows [question of each player..., probability]",
+                ));
             };
             let mut seen = vec![false; nq];
             let mut digits_buf = vec![0; parties.len()];
             for (r, row) in rows.iter().enumerate() {
                 let rf = format!("{path}[{r}]");
                 let Some(cells) = row.as_sequence() else {
-                    return Err(ctx.error(&rf, "expected a row [question of each player..., probability]"));
+                    return Err(ctx.error(
+                        &rf,
+                        "expected a row [question of each player..., probability]",
+                    ));
                 };
                 if cells.len() != parties.len() + 1 {
                     return Err(ctx.error(
@@ -499,7 +560,10 @@ fn build_weights(
         }
         "product" => {
             let Yaml::Mapping(per_player) = value else {
-                return Err(ctx.error(&path, "expected a mapping from player name to the list of its question probabilities"));
+                return Err(ctx.error(
+                    &path,
+                    "expected a mapping from player name to the list of its question probabilities",
+                ));
             };
             let mut marginals: Vec<Option<Vec<f64>>> = vec![None; parties.len()];
             for (k, v) in per_player {
@@ -509,10 +573,20 @@ fn build_weights(
                     return Err(ctx.error(&pf, format!("there is no player called `{name}`")));
                 };
                 let Some(list) = v.as_sequence() else {
-                    return Err(ctx.error(&pf, "expected a list of probabilities, one per question"));
+                    return Err(
+                        ctx.error(&pf, "expected a list of probabilities, one per question")
+                    );
                 };
                 if list.len() != parties[i].questions() {
-                    return Err(ctx.error(&pf, format!("{} has {} questions but {} probabilities are given", name, parties[i].questions(), list.len())));
+                    return Err(ctx.error(
+                        &pf,
+                        format!(
+                            "{} has {} questions but {} probabilities are given",
+                            name,
+                            parties[i].questions(),
+                            list.len()
+                        ),
+                    ));
                 }
                 let probs = list
                     .iter()
@@ -538,7 +612,10 @@ fn build_weights(
             let mut d = vec![0; parties.len()];
             for (i, m) in marginals.iter().enumerate() {
                 if m.is_none() {
-                    return Err(ctx.error(&path, format!("no probabilities for player `{}`", parties[i].name)));
+                    return Err(ctx.error(
+                        &path,
+                        format!("no probabilities for player `{}`", parties[i].name),
+                    ));
                 }
             }
             for (q, w) in weights.iter_mut().enumerate() {
@@ -568,11 +645,25 @@ fn build_weights(
                     slots[i] = parties[i].question_labels[d[i]];
                 }
                 let v = expr.eval(&slots).map_err(|e| {
-                    ctx.formula_error(&path, &e, &format!("in the distribution formula at {}", describe_questions(parties, scope, &slots)))
+                    ctx.formula_error(
+                        &path,
+                        &e,
+                        &format!(
+                            "in the distribution formula at {}",
+                            describe_questions(parties, scope, &slots)
+                        ),
+                    )
                 })?;
                 *w = v.as_f64().map_err(|m| ctx.error(&path, m))?;
                 if !(*w >= 0.0 && w.is_finite()) {
-                    return Err(ctx.error(&path, format!("the weight at {} is {}, weights must be finite and non-negative", describe_questions(parties, scope, &slots), w)));
+                    return Err(ctx.error(
+                        &path,
+                        format!(
+                            "the weight at {} is {}, weights must be finite and non-negative",
+                            describe_questions(parties, scope, &slots),
+                            w
+                        ),
+                    ));
                 }
             }
             normalise = true;
@@ -662,7 +753,14 @@ fn build_scores(
                 slots[n + i] = parties[i].answer_labels[ad[i]];
             }
             let v = expr.eval(&slots).map_err(|e| {
-                ctx.formula_error(field, &e, &format!("{what} at {}", describe_slots(parties, scope, &slots, 2 * n)))
+                ctx.formula_error(
+                    field,
+                    &e,
+                    &format!(
+                        "{what} at {}",
+                        describe_slots(parties, scope, &slots, 2 * n)
+                    ),
+                )
             })?;
             let x = match (kind, &v) {
                 (ScoreKind::Win, Value::Bool(b)) => *b as u8 as f64,
@@ -676,7 +774,13 @@ fn build_scores(
                 (ScoreKind::Score, v) => v.as_f64().map_err(|m| ctx.error(field, m))?,
             };
             if !x.is_finite() {
-                return Err(ctx.error(field, format!("the score is {x} at {}", describe_slots(parties, scope, &slots, 2 * n))));
+                return Err(ctx.error(
+                    field,
+                    format!(
+                        "the score is {x} at {}",
+                        describe_slots(parties, scope, &slots, 2 * n)
+                    ),
+                ));
             }
             scores[q * na + a] = x;
         }
@@ -755,7 +859,10 @@ fn build_bell(
         }
     }
     if forms == 0 {
-        return Err(ctx.error("bell", "no coefficients: give `terms`, `collins_gisin` or `correlators`"));
+        return Err(ctx.error(
+            "bell",
+            "no coefficients: give `terms`, `collins_gisin` or `correlators`",
+        ));
     }
     Ok((table.scores, table.offset))
 }
@@ -828,23 +935,41 @@ impl BellTable<'_> {
             .ok_or_else(|| ctx.error(field, format!("there is no player called `{name}`")))
     }
 
-    fn question_index(&self, player: usize, label: i64, ctx: &Context, field: &str) -> Result<usize> {
+    fn question_index(
+        &self,
+        player: usize,
+        label: i64,
+        ctx: &Context,
+        field: &str,
+    ) -> Result<usize> {
         label_index(&self.parties[player].question_labels, label).ok_or_else(|| {
-            ctx.error(field, format!("{} has no question {label}", self.parties[player].name))
+            ctx.error(
+                field,
+                format!("{} has no question {label}", self.parties[player].name),
+            )
         })
     }
 
     fn require_two_answers(&self, player: usize, ctx: &Context, field: &str) -> Result<()> {
         if self.ar[player] != 2 {
-            return Err(ctx.error(field, format!(
-                "correlators need two answers (+1 for the first, -1 for the second); {} has {}",
-                self.parties[player].name, self.ar[player]
-            )));
+            return Err(ctx.error(
+                field,
+                format!(
+                    "correlators need two answers (+1 for the first, -1 for the second); {} has {}",
+                    self.parties[player].name, self.ar[player]
+                ),
+            ));
         }
         Ok(())
     }
 
-    fn add_term(&mut self, term: &Yaml, ctx: &Context, path: &str, constants: &[(String, Value)]) -> Result<()> {
+    fn add_term(
+        &mut self,
+        term: &Yaml,
+        ctx: &Context,
+        path: &str,
+        constants: &[(String, Value)],
+    ) -> Result<()> {
         let Yaml::Mapping(map) = term else {
             return Err(ctx.error(path, "expected a term {coefficient: c, event: {player: \"answer|question\", ...}} or {coefficient: c, correlator: {player: question, ...}}"));
         };
@@ -923,11 +1048,19 @@ impl BellTable<'_> {
                 let mut factors = Vec::new();
                 if r > 0 {
                     let (x, a) = row_event(r);
-                    factors.push(Factor { player: 0, question: x, answer: Some(a) });
+                    factors.push(Factor {
+                        player: 0,
+                        question: x,
+                        answer: Some(a),
+                    });
                 }
                 if c > 0 {
                     let (y, b) = col_event(c);
-                    factors.push(Factor { player: 1, question: y, answer: Some(b) });
+                    factors.push(Factor {
+                        player: 1,
+                        question: y,
+                        answer: Some(b),
+                    });
                 }
                 self.add(&factors, coef);
             }
@@ -939,7 +1072,14 @@ impl BellTable<'_> {
     fn add_correlator_matrix(&mut self, m: &[Vec<f64>], ctx: &Context, path: &str) -> Result<()> {
         self.require_two_answers(0, ctx, path)?;
         self.require_two_answers(1, ctx, path)?;
-        self.check_shape(m, 1 + self.qr[0], 1 + self.qr[1], ctx, path, "1 + questions")?;
+        self.check_shape(
+            m,
+            1 + self.qr[0],
+            1 + self.qr[1],
+            ctx,
+            path,
+            "1 + questions",
+        )?;
         self.offset += m[0][0];
         for (r, row) in m.iter().enumerate() {
             for (c, &coef) in row.iter().enumerate() {
@@ -948,10 +1088,18 @@ impl BellTable<'_> {
                 }
                 let mut factors = Vec::new();
                 if r > 0 {
-                    factors.push(Factor { player: 0, question: r - 1, answer: None });
+                    factors.push(Factor {
+                        player: 0,
+                        question: r - 1,
+                        answer: None,
+                    });
                 }
                 if c > 0 {
-                    factors.push(Factor { player: 1, question: c - 1, answer: None });
+                    factors.push(Factor {
+                        player: 1,
+                        question: c - 1,
+                        answer: None,
+                    });
                 }
                 self.add(&factors, coef);
             }
@@ -959,13 +1107,35 @@ impl BellTable<'_> {
         Ok(())
     }
 
-    fn check_shape(&self, m: &[Vec<f64>], rows: usize, cols: usize, ctx: &Context, path: &str, rule: &str) -> Result<()> {
+    fn check_shape(
+        &self,
+        m: &[Vec<f64>],
+        rows: usize,
+        cols: usize,
+        ctx: &Context,
+        path: &str,
+        rule: &str,
+    ) -> Result<()> {
         if m.len() != rows {
-            return Err(ctx.error(path, format!("expected {rows} rows ({rule} of {}), found {}", self.parties[0].name, m.len())));
+            return Err(ctx.error(
+                path,
+                format!(
+                    "expected {rows} rows ({rule} of {}), found {}",
+                    self.parties[0].name,
+                    m.len()
+                ),
+            ));
         }
         for (r, row) in m.iter().enumerate() {
             if row.len() != cols {
-                return Err(ctx.error(&format!("{path}[{r}]"), format!("expected {cols} columns ({rule} of {}), found {}", self.parties[1].name, row.len())));
+                return Err(ctx.error(
+                    &format!("{path}[{r}]"),
+                    format!(
+                        "expected {cols} columns ({rule} of {}), found {}",
+                        self.parties[1].name,
+                        row.len()
+                    ),
+                ));
             }
         }
         Ok(())

@@ -93,8 +93,10 @@ pub fn xor_game(signs: &[Vec<i64>]) -> Result<GameSpec> {
 /// Odd cycle game on n vertices (n odd ≥ 3): x uniform, y = x or x+1 mod n with probability 1/2
 /// each; win iff a = b when y = x and a ≠ b otherwise.
 pub fn odd_cycle(n: usize) -> Result<GameSpec> {
-    if n < 3 || n % 2 == 0 {
-        return Err(Error::Usage(format!("the odd cycle needs an odd n >= 3, got {n}")));
+    if n < 3 || n.is_multiple_of(2) {
+        return Err(Error::Usage(format!(
+            "the odd cycle needs an odd n >= 3, got {n}"
+        )));
     }
     let mut constants = Mapping::new();
     constants.insert(Value::from("n"), Value::from(n as u64));
@@ -141,7 +143,9 @@ pub fn magic_square() -> GameSpec {
 /// the parity of the answers equals half the number of ones among the questions, mod 2.
 pub fn ghz(players: usize) -> Result<GameSpec> {
     if !(3..=12).contains(&players) {
-        return Err(Error::Usage(format!("the GHZ game is defined here for 3 to 12 players, got {players}")));
+        return Err(Error::Usage(format!(
+            "the GHZ game is defined here for 3 to 12 players, got {players}"
+        )));
     }
     let specs: Vec<PlayerSpec> = (0..players)
         .map(|i| PlayerSpec::counted(&format!("p{i}"), &format!("x{i}"), &format!("a{i}"), 2, 2))
@@ -173,7 +177,9 @@ pub fn ghz(players: usize) -> Result<GameSpec> {
 /// Local bound 2, no-signalling bound 4.
 pub fn cglmp(d: usize) -> Result<GameSpec> {
     if !(2..=64).contains(&d) {
-        return Err(Error::Usage(format!("CGLMP is built here for 2 to 64 outcomes, got {d}")));
+        return Err(Error::Usage(format!(
+            "CGLMP is built here for 2 to 64 outcomes, got {d}"
+        )));
     }
     let mut constants = Mapping::new();
     constants.insert(Value::from("d"), Value::from(d as u64));
@@ -185,9 +191,7 @@ pub fn cglmp(d: usize) -> Result<GameSpec> {
         constants: Some(constants),
         players: two_players(2, d, 2, d),
         distribution: Some(Value::from("sum")),
-        score: Some(
-            "1 - 2 * (((-1) ** (x + y) * (a - b) - x * (1 - y)) % d) / (d - 1)".into(),
-        ),
+        score: Some("1 - 2 * (((-1) ** (x + y) * (a - b) - x * (1 - y)) % d) / (d - 1)".into()),
         ..Default::default()
     })
 }
@@ -218,7 +222,9 @@ pub fn i3322() -> GameSpec {
 /// A_{m} ≡ −A_0 (0-based). Local bound 2m − 2.
 pub fn chained_bell(m: usize) -> Result<GameSpec> {
     if !(2..=256).contains(&m) {
-        return Err(Error::Usage(format!("the chained Bell expression needs 2 to 256 settings, got {m}")));
+        return Err(Error::Usage(format!(
+            "the chained Bell expression needs 2 to 256 settings, got {m}"
+        )));
     }
     let mut constants = Mapping::new();
     constants.insert(Value::from("m"), Value::from(m as u64));

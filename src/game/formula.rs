@@ -146,7 +146,10 @@ impl Function {
 pub enum Expr {
     Literal(Value),
     /// A name not yet resolved (before [`Expr::bind`]).
-    Name { name: String, pos: usize },
+    Name {
+        name: String,
+        pos: usize,
+    },
     /// A resolved player variable: index into the slot array given to [`Expr::eval`].
     Slot(usize),
     Neg(Box<Expr>),
@@ -215,7 +218,8 @@ fn lex(src: &str) -> Result<Vec<(Token, usize)>, FormulaError> {
             continue;
         }
         let start = i;
-        if c.is_ascii_digit() || (c == '.' && chars.get(i + 1).is_some_and(|d| d.is_ascii_digit())) {
+        if c.is_ascii_digit() || (c == '.' && chars.get(i + 1).is_some_and(|d| d.is_ascii_digit()))
+        {
             while i < chars.len() && (chars[i].is_ascii_digit() || chars[i] == '_') {
                 i += 1;
             }
@@ -427,7 +431,10 @@ impl Parser {
         let pos = self.pos();
         self.bump();
         let rhs = self.sum()?;
-        if matches!(self.peek(), Token::Op("==" | "!=" | "<" | "<=" | ">" | ">=")) {
+        if matches!(
+            self.peek(),
+            Token::Op("==" | "!=" | "<" | "<=" | ">" | ">=")
+        ) {
             return self.error("comparisons cannot be chained; join them with `and`");
         }
         Ok(Expr::Binary {
@@ -569,7 +576,10 @@ impl Parser {
                         args.push(self.expr()?);
                     }
                     if !matches!(self.peek(), Token::RParen) {
-                        return self.error(format!("expected `)` or `,`, found {}", describe(self.peek())));
+                        return self.error(format!(
+                            "expected `)` or `,`, found {}",
+                            describe(self.peek())
+                        ));
                     }
                     self.bump();
                     let arity_ok = match func {
@@ -618,7 +628,10 @@ pub fn parse(src: &str) -> Result<Expr, FormulaError> {
     }
     let e = p.expr()?;
     if !matches!(p.peek(), Token::End) {
-        return p.error(format!("unexpected {} after a complete formula", describe(p.peek())));
+        return p.error(format!(
+            "unexpected {} after a complete formula",
+            describe(p.peek())
+        ));
     }
     Ok(e)
 }
@@ -724,11 +737,15 @@ impl Expr {
                 match op {
                     BinaryOp::And => {
                         let l = lhs.eval(slots)?.truthy().map_err(at(*pos))?;
-                        return Ok(Value::Bool(l && rhs.eval(slots)?.truthy().map_err(at(*pos))?));
+                        return Ok(Value::Bool(
+                            l && rhs.eval(slots)?.truthy().map_err(at(*pos))?,
+                        ));
                     }
                     BinaryOp::Or => {
                         let l = lhs.eval(slots)?.truthy().map_err(at(*pos))?;
-                        return Ok(Value::Bool(l || rhs.eval(slots)?.truthy().map_err(at(*pos))?));
+                        return Ok(Value::Bool(
+                            l || rhs.eval(slots)?.truthy().map_err(at(*pos))?,
+                        ));
                     }
                     _ => {}
                 }
@@ -823,7 +840,11 @@ fn binary(op: BinaryOp, l: &Value, r: &Value) -> Result<Value, String> {
                     return Err("division by zero".into());
                 }
                 let q = a.checked_div(b).ok_or_else(ovf)?;
-                Value::Int(if a % b != 0 && ((a < 0) != (b < 0)) { q - 1 } else { q })
+                Value::Int(if a % b != 0 && ((a < 0) != (b < 0)) {
+                    q - 1
+                } else {
+                    q
+                })
             }
             Mod => {
                 if b == 0 {
@@ -959,7 +980,9 @@ mod tests {
     use super::*;
 
     fn eval_const(src: &str) -> Result<Value, FormulaError> {
-        parse(src)?.bind(&ConstantScope { constants: &[] })?.eval(&[])
+        parse(src)?
+            .bind(&ConstantScope { constants: &[] })?
+            .eval(&[])
     }
 
     #[test]
@@ -975,8 +998,14 @@ mod tests {
         assert_eq!(eval_const("(1 == 1) + 1").unwrap(), Value::Int(2));
         assert_eq!(eval_const("1 xor 1").unwrap(), Value::Bool(false));
         assert_eq!(eval_const("not 0 and (2 > 1)").unwrap(), Value::Bool(true));
-        assert_eq!(eval_const("if 3 > 2 then 10 else 20").unwrap(), Value::Int(10));
-        assert_eq!(eval_const("1 + if false then 1 else 2").unwrap(), Value::Int(3));
+        assert_eq!(
+            eval_const("if 3 > 2 then 10 else 20").unwrap(),
+            Value::Int(10)
+        );
+        assert_eq!(
+            eval_const("1 + if false then 1 else 2").unwrap(),
+            Value::Int(3)
+        );
         assert_eq!(eval_const("max(1, 2.5, -3)").unwrap(), Value::Real(2.5));
         assert_eq!(eval_const("min(4, 2, 3)").unwrap(), Value::Int(2));
         assert_eq!(eval_const("abs(-3)").unwrap(), Value::Int(3));
@@ -985,7 +1014,10 @@ mod tests {
 
     #[test]
     fn guards_short_circuit() {
-        assert_eq!(eval_const("false and 1 / 0 > 1").unwrap(), Value::Bool(false));
+        assert_eq!(
+            eval_const("false and 1 / 0 > 1").unwrap(),
+            Value::Bool(false)
+        );
         assert_eq!(eval_const("true or 1 // 0 > 1").unwrap(), Value::Bool(true));
     }
 
@@ -1000,7 +1032,9 @@ mod tests {
         assert_eq!(e.pos, 2);
         let e = parse("1 < 2 < 3").unwrap_err();
         assert!(e.message.contains("chained"));
-        let e = parse("x + y").unwrap().bind(&ConstantScope { constants: &[] });
+        let e = parse("x + y")
+            .unwrap()
+            .bind(&ConstantScope { constants: &[] });
         assert_eq!(e.unwrap_err().pos, 0);
         let e = eval_const("1 + 2 // 0").unwrap_err();
         assert_eq!(e.pos, 6);

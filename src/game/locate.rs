@@ -60,8 +60,14 @@ impl SourceMap {
 enum Frame {
     /// Inside a mapping: the path of the mapping and, once a key was read, the key awaiting its
     /// value.
-    Mapping { path: String, key: Option<String> },
-    Sequence { path: String, next: usize },
+    Mapping {
+        path: String,
+        key: Option<String>,
+    },
+    Sequence {
+        path: String,
+        next: usize,
+    },
 }
 
 struct Builder<'a> {

@@ -59,7 +59,12 @@ impl Game {
         Game::build(spec, &ctx, source, CompileOptions::default())
     }
 
-    fn build(spec: &GameSpec, ctx: &Context, source: &str, options: CompileOptions) -> Result<Game> {
+    fn build(
+        spec: &GameSpec,
+        ctx: &Context,
+        source: &str,
+        options: CompileOptions,
+    ) -> Result<Game> {
         let compiled = compile::compile(spec, ctx, options)?;
         Ok(Game {
             name: spec.name.clone().unwrap_or_else(|| default_name(source)),

@@ -44,13 +44,15 @@ fn nested_table(radices: &[usize], f: &dyn Fn(&[usize]) -> f64) -> Value {
 /// The k-fold product of `scenario` (named `name`) as a game spec.
 pub fn parallel_repetition(scenario: &Scenario, name: &str, rounds: usize) -> Result<GameSpec> {
     if rounds == 0 {
-        return Err(Error::Usage("the number of rounds must be at least 1".into()));
+        return Err(Error::Usage(
+            "the number of rounds must be at least 1".into(),
+        ));
     }
     let n = scenario.players();
     let qr = scenario.question_radices();
     let ar = scenario.answer_radices();
-    let entries = (scenario.joint_questions() as f64 * scenario.joint_answers() as f64)
-        .powi(rounds as i32);
+    let entries =
+        (scenario.joint_questions() as f64 * scenario.joint_answers() as f64).powi(rounds as i32);
     if entries > MAX_PRODUCT_ENTRIES {
         return Err(Error::TooLarge {
             what: format!("the {rounds}-fold product of {name}"),
@@ -83,12 +85,12 @@ pub fn parallel_repetition(scenario: &Scenario, name: &str, rounds: usize) -> Re
     };
     let round_ref = |table: &str, r: usize, with_answers: bool| {
         let mut s = table.to_string();
-        for i in 0..n {
-            s += &format!("[{}]", digit(qvar(i), qr[i], r));
+        for (i, &radix) in qr.iter().enumerate() {
+            s += &format!("[{}]", digit(qvar(i), radix, r));
         }
         if with_answers {
-            for i in 0..n {
-                s += &format!("[{}]", digit(avar(i), ar[i], r));
+            for (i, &radix) in ar.iter().enumerate() {
+                s += &format!("[{}]", digit(avar(i), radix, r));
             }
         }
         s

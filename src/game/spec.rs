@@ -51,7 +51,13 @@ pub struct PlayerSpec {
 
 impl PlayerSpec {
     /// A player with count-labelled questions and answers.
-    pub fn counted(name: &str, question: &str, answer: &str, questions: usize, answers: usize) -> Self {
+    pub fn counted(
+        name: &str,
+        question: &str,
+        answer: &str,
+        questions: usize,
+        answers: usize,
+    ) -> Self {
         PlayerSpec {
             name: name.to_string(),
             question: Some(question.to_string()),
@@ -96,7 +102,10 @@ fn is_flow(v: &Value) -> bool {
 fn flow(v: &Value) -> String {
     match v {
         Value::Sequence(items) => {
-            format!("[{}]", items.iter().map(flow).collect::<Vec<_>>().join(", "))
+            format!(
+                "[{}]",
+                items.iter().map(flow).collect::<Vec<_>>().join(", ")
+            )
         }
         other => scalar(other),
     }
@@ -107,9 +116,7 @@ fn flow_safe(v: &Value) -> bool {
     match v {
         Value::Number(_) | Value::Bool(_) => true,
         Value::String(s) => {
-            !s.is_empty()
-                && s.chars()
-                    .all(|c| c.is_alphanumeric() || "|_-.".contains(c))
+            !s.is_empty() && s.chars().all(|c| c.is_alphanumeric() || "|_-.".contains(c))
         }
         _ => false,
     }
@@ -137,7 +144,9 @@ fn emit_mapping(m: &Mapping, indent: usize, first_inline: bool, out: &mut String
 /// Writes the value after `key:` (a space and an inline value, or a nested block).
 fn emit_value(v: &Value, indent: usize, out: &mut String) {
     match v {
-        Value::Mapping(m) if !m.is_empty() && m.values().all(flow_safe) && inline_mapping(m).len() < 60 => {
+        Value::Mapping(m)
+            if !m.is_empty() && m.values().all(flow_safe) && inline_mapping(m).len() < 60 =>
+        {
             out.push(' ');
             out.push_str(&inline_mapping(m));
             out.push('\n');
