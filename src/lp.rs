@@ -278,10 +278,10 @@ fn certified(
         .collect();
     let mut residual = q.to_vec();
     let mut magnitude = 0.0;
-    for j in 0..a.n {
+    for (j, r) in residual.iter_mut().enumerate() {
         for k in a.colptr[j]..a.colptr[j + 1] {
             let t = a.nzval[k] * z[a.rowval[k]];
-            residual[j] += t;
+            *r += t;
             magnitude += t.abs();
         }
     }

@@ -282,8 +282,11 @@ pub fn locality_text(name: &str, r: &LocalityReport, saved: Option<&str>) -> Str
         ));
     }
     let mut out = table(&rows);
-    if r.signalling > 1e-6 {
-        out += "warning: these correlations signal: no local or quantum model can produce them\n";
+    if r.signalling > 1e-9 {
+        out += &format!(
+            "warning: these correlations signal (largest violation {}): no local or quantum model produces them, and no mixture with noise is local, so the visibility is 0. Frequencies from finitely many rounds usually signal a little; bring them to the no-signalling set before testing\n",
+            num(r.signalling)
+        );
     }
     out
 }
