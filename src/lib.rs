@@ -17,12 +17,15 @@
 //! ```
 
 pub mod classical;
+pub mod collins_gisin;
 pub mod error;
 pub mod game;
 pub mod lp;
 pub mod nosignal;
+pub mod quantum;
 pub mod report;
 pub mod scenario;
+pub mod sdp;
 
 pub use error::{Error, Result};
 pub use game::{CompileOptions, Game, GameSpec};

@@ -13,6 +13,7 @@ use serde::Serialize;
 
 use crate::error::{Error, Result};
 use crate::lp::{LinearProgram, Relation, VarBounds};
+use crate::collins_gisin::CollinsGisin;
 use crate::scenario::{digits, index_of, Scenario};
 
 /// Largest LP (variables) solved without `force`.
@@ -89,133 +90,6 @@ pub fn add_no_signalling_rows(s: &Scenario, lp: &mut LinearProgram, first: usize
                     terms.extend_from_slice(&reference);
                     lp.add_row(terms, Relation::Eq, 0.0);
                 }
-            }
-        }
-    }
-}
-
-/// Collins–Gisin coordinates of the no-signalling set: one free variable per marginal
-/// probability `p(a_S|q_S)` for every non-empty group S of players, with every player's last
-/// answer left out. Every such assignment is no-signalling by construction; the full
-/// probabilities are affine in it, so only their positivity remains to be imposed. This has no
-/// redundant equalities (which make both LP methods slow) and far fewer variables.
-struct CollinsGisin {
-    /// Per player: questions and answers minus one (the answers that get variables).
-    q: Vec<usize>,
-    kept: Vec<usize>,
-    /// First variable of each group, by bit mask.
-    offset: Vec<usize>,
-    variables: usize,
-}
-
-impl CollinsGisin {
-    fn new(s: &Scenario) -> Self {
-        let n = s.players();
-        let q: Vec<usize> = s.question_radices();
-        let kept: Vec<usize> = s.answer_radices().iter().map(|a| a - 1).collect();
-        let mut offset = vec![0; 1 << n];
-        let mut next = 0;
-        for (mask, o) in offset.iter_mut().enumerate().skip(1) {
-            *o = next;
-            next += (0..n)
-                .filter(|i| mask >> i & 1 == 1)
-                .map(|i| q[i] * kept[i])
-                .product::<usize>();
-        }
-        CollinsGisin {
-            q,
-            kept,
-            offset,
-            variables: next,
-        }
-    }
-
-    /// Index of `p(a_S|q_S)`; `answers[i]` must be below `kept[i]` for i in the mask.
-    fn index(&self, mask: usize, questions: &[usize], answers: &[usize]) -> usize {
-        let mut k = 0;
-        for i in 0..self.q.len() {
-            if mask >> i & 1 == 1 {
-                k = k * self.q[i] * self.kept[i] + questions[i] * self.kept[i] + answers[i];
-            }
-        }
-        self.offset[mask] + k
-    }
-
-    /// `p(a|q)` as a constant plus a combination of variables: each player with its last answer
-    /// contributes (1 − Σ of its other answers), the others their own event.
-    fn expand(&self, questions: &[usize], answers: &[usize], out: &mut Vec<(usize, f64)>) -> f64 {
-        out.clear();
-        let mut constant = 0.0;
-        let mut chosen = answers.to_vec();
-        self.expand_from(
-            0,
-            0,
-            1.0,
-            questions,
-            answers,
-            &mut chosen,
-            out,
-            &mut constant,
-        );
-        constant
-    }
-
-    #[allow(clippy::too_many_arguments)]
-    fn expand_from(
-        &self,
-        player: usize,
-        mask: usize,
-        sign: f64,
-        questions: &[usize],
-        answers: &[usize],
-        chosen: &mut Vec<usize>,
-        out: &mut Vec<(usize, f64)>,
-        constant: &mut f64,
-    ) {
-        if player == self.q.len() {
-            if mask == 0 {
-                *constant += sign;
-            } else {
-                out.push((self.index(mask, questions, chosen), sign));
-            }
-            return;
-        }
-        let bit = 1 << player;
-        if answers[player] < self.kept[player] {
-            chosen[player] = answers[player];
-            self.expand_from(
-                player + 1,
-                mask | bit,
-                sign,
-                questions,
-                answers,
-                chosen,
-                out,
-                constant,
-            );
-        } else {
-            self.expand_from(
-                player + 1,
-                mask,
-                sign,
-                questions,
-                answers,
-                chosen,
-                out,
-                constant,
-            );
-            for other in 0..self.kept[player] {
-                chosen[player] = other;
-                self.expand_from(
-                    player + 1,
-                    mask | bit,
-                    -sign,
-                    questions,
-                    answers,
-                    chosen,
-                    out,
-                    constant,
-                );
             }
         }
     }

@@ -1,0 +1,489 @@
+//! Quantum upper bounds by the NPA hierarchy: the moments of a quantum strategy, indexed by a
+//! generating set of operator words, form a positive semidefinite matrix; maximising the game's
+//! value over all such matrices bounds every quantum strategy of any dimension from above.
+//!
+//! Levels ([`Level`]): `k` takes all words of length at most k; `1+joint` takes the words of
+//! length at most 1 and the products of one operator for each of two or more players (the
+//! intermediate level between 1 and 2); custom generating sets are lists of patterns such as
+//! `1 A B AB AA`, where each letter names a player (A the first) and a pattern stands for all
+//! non-degenerate words whose operators belong to those players in that order. Larger
+//! generating sets give smaller or equal bounds.
+//!
+//! The bound reported as verified is [`crate::sdp::Assembled::certified_bound`] of the solver's
+//! dual vector: it holds for every quantum strategy even though the solver is a floating-point
+//! method, because moments of projector products have modulus at most 1 and the moment
+//! matrix of a normalised state has trace at most its size.
+
+use std::collections::{BTreeMap, BTreeSet};
+use std::time::Instant;
+
+use serde::{Deserialize, Serialize};
+
+use super::words::{moment_key, product, projectors_of, words_of_pattern, Projector, Word};
+use crate::collins_gisin::CollinsGisin;
+use crate::error::{Error, Result};
+use crate::scenario::{digits, Scenario};
+use crate::sdp::{upper_index, AffineEntry, MatrixBlock, SdpProblem, SdpSolution};
+
+/// A level of the hierarchy: which words index the moment matrix.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Level {
+    /// All words of length at most k.
+    Length(usize),
+    /// Length at most 1 plus the products of one operator for each of two or more players.
+    Joint,
+    /// Patterns of players, e.g. `[[], [0], [1], [0, 1]]` for `1 A B AB`.
+    Patterns(Vec<Vec<usize>>),
+}
+
+impl Level {
+    /// Parses `2`, `1+joint`, or a pattern list like `1 A B AB AAB` (spaces or commas).
+    pub fn parse(text: &str) -> Result<Level> {
+        let t = text.trim();
+        if let Ok(k) = t.parse::<usize>() {
+            if k == 0 {
+                return Err(Error::Usage("the NPA level must be at least 1".into()));
+            }
+            return Ok(Level::Length(k));
+        }
+        if t.eq_ignore_ascii_case("1+joint") {
+            return Ok(Level::Joint);
+        }
+        let mut patterns = Vec::new();
+        for token in t.split([' ', ',']).filter(|s| !s.is_empty()) {
+            if token == "1" {
+                patterns.push(Vec::new());
+                continue;
+            }
+            let mut p = Vec::new();
+            for c in token.chars() {
+                if !c.is_ascii_uppercase() {
+                    return Err(Error::Usage(format!(
+                        "level `{text}`: expected a number, `1+joint`, or patterns of player letters like `1 A B AB` (found `{token}`)"
+                    )));
+                }
+                p.push((c as u8 - b'A') as usize);
+            }
+            patterns.push(p);
+        }
+        if patterns.is_empty() {
+            return Err(Error::Usage("the NPA level is empty".into()));
+        }
+        Ok(Level::Patterns(patterns))
+    }
+
+    pub fn name(&self) -> String {
+        match self {
+            Level::Length(k) => k.to_string(),
+            Level::Joint => "1+joint".into(),
+            Level::Patterns(ps) => ps
+                .iter()
+                .map(|p| {
+                    if p.is_empty() {
+                        "1".to_string()
+                    } else {
+                        p.iter().map(|&i| (b'A' + i as u8) as char).collect()
+                    }
+                })
+                .collect::<Vec<_>>()
+                .join(" "),
+        }
+    }
+}
+
+/// The moment matrix of a level: its generating words, its distinct moments (the variables),
+/// and each upper-triangle entry.
+pub struct MomentMatrix {
+    pub words: Vec<Word>,
+    /// Variable index → the moment's representative word.
+    pub moments: Vec<Word>,
+    /// Upper-triangle entries (see [`upper_index`]).
+    pub entries: Vec<Entry>,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Entry {
+    Zero,
+    Identity,
+    Moment(usize),
+}
+
+fn projectors(s: &Scenario) -> Vec<Vec<Projector>> {
+    s.parties
+        .iter()
+        .enumerate()
+        .map(|(i, p)| projectors_of(i, p.questions(), p.answers() - 1))
+        .collect()
+}
+
+/// Generating words of a level, identity first, deduplicated.
+pub fn generating_words(s: &Scenario, level: &Level) -> Result<Vec<Word>> {
+    let ops = projectors(s);
+    let n = s.players();
+    let mut set: BTreeSet<Word> = BTreeSet::new();
+    match level {
+        Level::Length(k) => {
+            let all: Vec<Projector> = ops.iter().flatten().copied().collect();
+            let mut frontier: Vec<Word> = vec![Vec::new()];
+            set.insert(Vec::new());
+            for len in 1..=*k {
+                let mut next = BTreeSet::new();
+                for w in &frontier {
+                    for &p in &all {
+                        if let Some(c) = super::words::canonical(w.iter().copied().chain([p])) {
+                            if c.len() == len && !set.contains(&c) {
+                                next.insert(c);
+                            }
+                        }
+                    }
+                }
+                set.extend(next.iter().cloned());
+                frontier = next.into_iter().collect();
+            }
+        }
+        Level::Joint => {
+            set.insert(Vec::new());
+            for p in ops.iter().flatten() {
+                set.insert(vec![*p]);
+            }
+            for mask in 1usize..(1 << n) {
+                if mask.count_ones() >= 2 {
+                    let pattern: Vec<usize> = (0..n).filter(|i| mask >> i & 1 == 1).collect();
+                    set.extend(words_of_pattern(&pattern, &ops));
+                }
+            }
+        }
+        Level::Patterns(patterns) => {
+            set.insert(Vec::new());
+            for p in patterns {
+                if let Some(&bad) = p.iter().find(|&&i| i >= n) {
+                    return Err(Error::Usage(format!(
+                        "level pattern names player {} but the game has {n}",
+                        (b'A' + bad as u8) as char
+                    )));
+                }
+                set.extend(words_of_pattern(p, &ops));
+            }
+        }
+    }
+    // Identity first, then by length, then lexicographically: a stable, readable order.
+    let mut words: Vec<Word> = set.into_iter().collect();
+    words.sort_by(|a, b| a.len().cmp(&b.len()).then(a.cmp(b)));
+    Ok(words)
+}
+
+impl MomentMatrix {
+    pub fn new(words: Vec<Word>) -> Self {
+        let n = words.len();
+        let mut index: BTreeMap<Word, usize> = BTreeMap::new();
+        let mut moments = Vec::new();
+        let mut entries = vec![Entry::Zero; n * (n + 1) / 2];
+        for col in 0..n {
+            for row in 0..=col {
+                entries[upper_index(row, col)] = match product(&words[row], &words[col]) {
+                    None => Entry::Zero,
+                    Some(w) => {
+                        let key = moment_key(w);
+                        if key.is_empty() {
+                            Entry::Identity
+                        } else {
+                            let next = moments.len();
+                            let id = *index.entry(key.clone()).or_insert(next);
+                            if id == next {
+                                moments.push(key);
+                            }
+                            Entry::Moment(id)
+                        }
+                    }
+                };
+            }
+        }
+        MomentMatrix {
+            words,
+            moments,
+            entries,
+        }
+    }
+
+    pub fn size(&self) -> usize {
+        self.words.len()
+    }
+}
+
+/// The NPA relaxation of a game at a level, ready to solve or to check a certificate against.
+pub struct Relaxation {
+    pub level: Level,
+    pub matrix: MomentMatrix,
+    pub problem: SdpProblem,
+}
+
+/// Builds the moment matrix and the SDP. Fails (as a usage error) when the level does not
+/// contain a moment the game's value needs.
+pub fn relaxation(s: &Scenario, level: &Level) -> Result<Relaxation> {
+    let matrix = MomentMatrix::new(generating_words(s, level)?);
+    let cg = CollinsGisin::new(s);
+    let n = s.players();
+    let qr = s.question_radices();
+    let ar = s.answer_radices();
+    let na = s.joint_answers();
+    // The game's value in Collins–Gisin coordinates.
+    let mut cg_objective = vec![0.0; cg.variables];
+    let mut constant = s.offset;
+    let (mut qd, mut ad) = (vec![0; n], vec![0; n]);
+    let mut terms = Vec::new();
+    for q in 0..s.joint_questions() {
+        digits(q, &qr, &mut qd);
+        for a in 0..na {
+            let c = s.objective()[q * na + a];
+            if c == 0.0 {
+                continue;
+            }
+            digits(a, &ar, &mut ad);
+            constant += c * cg.expand(&qd, &ad, &mut terms);
+            for &(v, coef) in &terms {
+                cg_objective[v] += c * coef;
+            }
+        }
+    }
+    let mut index: BTreeMap<&Word, usize> = BTreeMap::new();
+    for (i, m) in matrix.moments.iter().enumerate() {
+        index.insert(m, i);
+    }
+    let mut objective = vec![0.0; matrix.moments.len()];
+    for (v, &c) in cg_objective.iter().enumerate() {
+        if c.abs() < 1e-15 {
+            continue;
+        }
+        let (mask, q, a) = cg.describe(v);
+        let word: Word = (0..n)
+            .filter(|i| mask >> i & 1 == 1)
+            .map(|i| Projector {
+                player: i as u16,
+                setting: q[i] as u32,
+                outcome: a[i] as u32,
+            })
+            .collect();
+        let Some(&id) = index.get(&moment_key(word)) else {
+            return Err(Error::Usage(format!(
+                "level {} does not contain the products of one operator for each of {} players that this game's value needs; use `1+joint` or a higher level",
+                level.name(),
+                mask.count_ones()
+            )));
+        };
+        objective[id] += c;
+    }
+    let size = matrix.size();
+    let upper = matrix
+        .entries
+        .iter()
+        .map(|e| match e {
+            Entry::Zero => AffineEntry::default(),
+            Entry::Identity => AffineEntry {
+                constant: 1.0,
+                terms: Vec::new(),
+            },
+            Entry::Moment(m) => AffineEntry {
+                constant: 0.0,
+                terms: vec![(*m, 1.0)],
+            },
+        })
+        .collect();
+    let problem = SdpProblem {
+        variables: matrix.moments.len(),
+        objective,
+        objective_constant: constant,
+        blocks: vec![MatrixBlock {
+            size,
+            upper,
+            // Every diagonal entry is ⟨ψ|w†w|ψ⟩ ≤ 1 for a quantum strategy.
+            trace_bound: size as f64,
+        }],
+        // |⟨ψ|w|ψ⟩| ≤ ‖w‖ ≤ 1 for a product of projectors.
+        variable_bound: 1.0,
+        ..Default::default()
+    };
+    Ok(Relaxation {
+        level: level.clone(),
+        matrix,
+        problem,
+    })
+}
+
+/// Rough cost of solving with clarabel: its KKT system carries the PSD cone as a dense block of
+/// side n(n+1)/2, factorised at each of about 15 iterations.
+#[derive(Debug, Clone, Serialize)]
+pub struct NpaEstimate {
+    pub matrix_size: usize,
+    pub moments: usize,
+    pub seconds: f64,
+    pub memory_bytes: f64,
+}
+
+/// Flop rate of the dense block factorisation, measured on the bench suite (I3322 level 2 and
+/// CGLMP d=3 at 1+joint) on the project machine.
+const FLOPS_PER_SECOND: f64 = 1.6e9;
+
+pub fn estimate(r: &Relaxation) -> NpaEstimate {
+    let n = r.matrix.size() as f64;
+    let d = n * (n + 1.0) / 2.0;
+    NpaEstimate {
+        matrix_size: r.matrix.size(),
+        moments: r.matrix.moments.len(),
+        seconds: 15.0 * d * d * d / 3.0 / FLOPS_PER_SECOND,
+        memory_bytes: 8.0 * d * d * 2.0,
+    }
+}
+
+/// The result of one NPA solve.
+#[derive(Debug, Clone, Serialize)]
+pub struct NpaBound {
+    pub level: String,
+    /// The solver's dual objective: an upper bound up to solver tolerance.
+    pub quantum_upper: f64,
+    /// A bound every quantum strategy respects, whatever the solver's errors.
+    pub verified_upper: f64,
+    /// The solver's primal objective (the relaxation's value from below).
+    pub primal: f64,
+    pub matrix_size: usize,
+    pub moments: usize,
+    pub status: String,
+    pub iterations: u32,
+    pub seconds: f64,
+    pub build_seconds: f64,
+    #[serde(skip)]
+    pub solution: Option<SdpSolution>,
+}
+
+/// Largest estimated solve time accepted without `force`.
+pub const SECONDS_LIMIT: f64 = 3600.0;
+/// Largest estimated memory accepted without `force`.
+pub const MEMORY_LIMIT: f64 = 16.0 * (1u64 << 30) as f64;
+
+/// Builds and solves the relaxation at `level`.
+pub fn npa_bound(s: &Scenario, level: &Level, force: bool) -> Result<NpaBound> {
+    let start = Instant::now();
+    let r = relaxation(s, level)?;
+    let build_seconds = start.elapsed().as_secs_f64();
+    let est = estimate(&r);
+    if !force && (est.seconds > SECONDS_LIMIT || est.memory_bytes > MEMORY_LIMIT) {
+        return Err(Error::TooLarge {
+            what: format!("NPA level {}", level.name()),
+            estimate: format!(
+                "moment matrix {}×{} with {} moments: about {} and {:.1} GiB with the current solver",
+                est.matrix_size,
+                est.matrix_size,
+                est.moments,
+                crate::classical::human_seconds(est.seconds),
+                est.memory_bytes / (1u64 << 30) as f64
+            ),
+            hint: "choose a lower level, or pass --force".into(),
+        });
+    }
+    let sol = r.problem.solve(&format!("NPA level {}", level.name()))?;
+    Ok(NpaBound {
+        level: level.name(),
+        quantum_upper: sol.dual,
+        verified_upper: sol.certified,
+        primal: sol.primal,
+        matrix_size: r.matrix.size(),
+        moments: r.matrix.moments.len(),
+        status: sol.status.clone(),
+        iterations: sol.iterations,
+        seconds: start.elapsed().as_secs_f64(),
+        build_seconds,
+        solution: Some(sol),
+    })
+}
+
+/// The smallest standard level whose moments contain the game's value, and the largest one
+/// (among 1, 1+joint, 2, 3) that stays cheap; `bounds` uses the latter.
+pub fn default_level(s: &Scenario) -> Result<Level> {
+    let candidates = [Level::Length(1), Level::Joint, Level::Length(2), Level::Length(3)];
+    let mut chosen = None;
+    for level in candidates {
+        let Ok(r) = relaxation(s, &level) else {
+            continue;
+        };
+        let est = estimate(&r);
+        if chosen.is_none() || est.seconds <= 2.0 {
+            chosen = Some((level, est));
+        } else {
+            break;
+        }
+    }
+    chosen
+        .map(|(l, _)| l)
+        .ok_or_else(|| Error::Usage("no standard NPA level contains this game's value".into()))
+}
+
+/// A dual certificate: enough to re-check the verified bound without the solver.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct Certificate {
+    pub format: String,
+    pub game: String,
+    pub level: String,
+    pub matrix_size: usize,
+    pub moments: usize,
+    pub verified_upper: f64,
+    /// The dual vector in the order of [`SdpProblem::assemble`]'s rows.
+    pub dual: Vec<f64>,
+}
+
+pub const CERTIFICATE_FORMAT: &str = "bellgap NPA dual certificate, version 1";
+
+impl Certificate {
+    pub fn new(game: &str, bound: &NpaBound) -> Option<Self> {
+        let sol = bound.solution.as_ref()?;
+        Some(Certificate {
+            format: CERTIFICATE_FORMAT.into(),
+            game: game.into(),
+            level: bound.level.clone(),
+            matrix_size: bound.matrix_size,
+            moments: bound.moments,
+            verified_upper: bound.verified_upper,
+            dual: sol.z.clone(),
+        })
+    }
+}
+
+/// Result of re-checking a certificate.
+#[derive(Debug, Clone, Serialize)]
+pub struct Verification {
+    pub level: String,
+    /// The bound recomputed from the certificate: this is the number that counts.
+    pub verified_upper: f64,
+    /// The bound written in the file.
+    pub claimed: f64,
+    /// Whether the recomputed bound is at most the claimed one (up to 1e-12 relative).
+    pub matches_claim: bool,
+}
+
+/// Rebuilds the relaxation named in the certificate and recomputes the bound from its dual
+/// vector, without any solver.
+pub fn verify(s: &Scenario, cert: &Certificate) -> Result<Verification> {
+    if cert.format != CERTIFICATE_FORMAT {
+        return Err(Error::Usage(format!(
+            "not a certificate of this tool (format `{}`)",
+            cert.format
+        )));
+    }
+    let level = Level::parse(&cert.level)?;
+    let r = relaxation(s, &level)?;
+    if r.matrix.size() != cert.matrix_size || r.matrix.moments.len() != cert.moments {
+        return Err(Error::Usage(format!(
+            "the certificate is for a {0}×{0} moment matrix with {1} moments; this game at level {2} gives {3}×{3} with {4}: wrong game?",
+            cert.matrix_size,
+            cert.moments,
+            cert.level,
+            r.matrix.size(),
+            r.matrix.moments.len()
+        )));
+    }
+    let bound = r.problem.assemble().certified_bound(&cert.dual)?;
+    Ok(Verification {
+        level: cert.level.clone(),
+        verified_upper: bound,
+        claimed: cert.verified_upper,
+        matches_claim: bound <= cert.verified_upper + 1e-12 * (1.0 + cert.verified_upper.abs()),
+    })
+}

@@ -1,0 +1,90 @@
+//! NPA upper bounds against published quantum values; the source of each is named beside it.
+
+use bellgap::classical::search;
+use bellgap::game::{families, Game, GameSpec};
+use bellgap::nosignal::no_signalling_value;
+use bellgap::quantum::npa::{npa_bound, Level};
+use bellgap::Scenario;
+
+fn compile(spec: &GameSpec) -> Scenario {
+    Game::from_spec(spec, "test").unwrap().scenario
+}
+
+fn npa(s: &Scenario, level: &str) -> bellgap::quantum::npa::NpaBound {
+    npa_bound(s, &Level::parse(level).unwrap(), false).unwrap()
+}
+
+/// The raw bound is close to the expected value, and the verified bound is an upper bound at
+/// most 1e-6 above the raw one.
+fn assert_bound(b: &bellgap::quantum::npa::NpaBound, want: f64, tol: f64, what: &str) {
+    assert!((b.quantum_upper - want).abs() < tol, "{what}: got {}, expected {want}", b.quantum_upper);
+    assert!(b.verified_upper >= b.quantum_upper - 1e-9, "{what}: verified {} below raw {}", b.verified_upper, b.quantum_upper);
+    assert!(b.verified_upper <= b.quantum_upper + 1e-6, "{what}: verified {} too loose", b.verified_upper);
+}
+
+#[test]
+fn chsh_level_1_is_tsirelson() {
+    // cos²(π/8): Cirel'son 1980 (Lett. Math. Phys. 4, 93).
+    let b = npa(&compile(&families::chsh()), "1");
+    assert_bound(&b, (std::f64::consts::PI / 8.0).cos().powi(2), 1e-7, "CHSH");
+    // The correlator form: 2√2.
+    let b = npa(&compile(&families::chsh_expression()), "1");
+    assert_bound(&b, 2.0 * 2f64.sqrt(), 1e-6, "CHSH expression");
+}
+
+#[test]
+fn xor_games_are_exact_at_level_1() {
+    // Odd cycle: cos²(π/4n), Cleve–Høyer–Toner–Watrous 2004 (quant-ph/0404076); XOR games are
+    // exact at level 1 (Tsirelson 1987; CHTW 2004).
+    for n in [3usize, 5] {
+        let b = npa(&compile(&families::odd_cycle(n).unwrap()), "1");
+        let want = (std::f64::consts::PI / (4.0 * n as f64)).cos().powi(2);
+        assert_bound(&b, want, 1e-6, &format!("odd cycle {n}"));
+    }
+    // Chained Bell: 2m cos(π/2m), Braunstein–Caves 1990 (Ann. Phys. 202, 22); Wehner 2006.
+    let b = npa(&compile(&families::chained_bell(3).unwrap()), "1");
+    assert_bound(&b, 6.0 * (std::f64::consts::PI / 6.0).cos(), 1e-6, "chained m=3");
+}
+
+#[test]
+fn cglmp_3_at_the_joint_level() {
+    // 1 + √(11/3) ≈ 2.914854: Acín–Durt–Gisin–Latorre 2002 (PRA 65, 052325); tight at 1+AB
+    // (Navascués–Pironio–Acín 2008, NJP 10, 073013).
+    let b = npa(&compile(&families::cglmp(3).unwrap()), "1+joint");
+    assert_bound(&b, 1.0 + (11.0f64 / 3.0).sqrt(), 1e-6, "CGLMP d=3");
+}
+
+#[test]
+fn i3322_decreases_with_the_level() {
+    // Level 1: 0.375; 1+AB: 0.251471; level 2: 0.2509397 (Navascués–Pironio–Acín 2008, NJP 10,
+    // 073013; recomputed). All above the qubit value 0.25 (Collins–Gisin 2004).
+    let s = compile(&families::i3322());
+    let l1 = npa(&s, "1");
+    let joint = npa(&s, "1+joint");
+    let l2 = npa(&s, "2");
+    assert_bound(&l1, 0.375, 1e-6, "I3322 level 1");
+    assert_bound(&joint, 0.251471, 2e-6, "I3322 1+joint");
+    assert_bound(&l2, 0.2509397, 2e-6, "I3322 level 2");
+    assert!(l1.verified_upper >= joint.quantum_upper && joint.quantum_upper >= l2.quantum_upper - 1e-8);
+}
+
+#[test]
+fn ghz_and_magic_square_reach_one() {
+    // GHZ game: quantum value 1 (Mermin 1990, Am. J. Phys. 58, 731).
+    let b = npa(&compile(&families::ghz(3).unwrap()), "1+joint");
+    assert_bound(&b, 1.0, 1e-6, "GHZ");
+    // Magic square: quantum value 1 (Aravind 2002; Brassard–Broadbent–Tapp 2005).
+    let b = npa(&compile(&families::magic_square()), "1");
+    assert_bound(&b, 1.0, 1e-6, "magic square");
+}
+
+#[test]
+fn npa_lies_between_classical_and_no_signalling() {
+    for spec in [families::chsh(), families::i3322(), families::cglmp(3).unwrap(), families::mermin()] {
+        let s = compile(&spec);
+        let c = search(&s, None).value;
+        let ns = no_signalling_value(&s, false).unwrap().value;
+        let b = npa(&s, "1+joint");
+        assert!(c <= b.quantum_upper + 1e-6 && b.quantum_upper <= ns + 1e-6, "{:?}: {c} {} {ns}", spec.name, b.quantum_upper);
+    }
+}
