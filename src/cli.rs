@@ -13,6 +13,7 @@ use bellgap::classical::locality::{expression_as_game, locality_test, Correlatio
 use bellgap::classical::{self, Choice, ClassicalEstimate};
 use bellgap::game::{families, product, CompileOptions, Game, GameSpec};
 use bellgap::nosignal;
+use bellgap::quantum::npa::{self, Level};
 use bellgap::report::{self, Report};
 use bellgap::{Error, Result};
 
@@ -43,7 +44,32 @@ pub enum Command {
     /// No-signalling value (linear programme).
     Nosignal(GameArgs),
     /// Every bound available, then the gaps between them.
-    Bounds(GameArgs),
+    Bounds {
+        #[command(flatten)]
+        args: GameArgs,
+        /// NPA level for the quantum upper bound (default: chosen from the size estimate).
+        #[arg(long)]
+        level: Option<String>,
+    },
+    /// Quantum upper bound from the NPA hierarchy, with a verified bound from the dual solution.
+    Npa {
+        #[command(flatten)]
+        args: GameArgs,
+        /// `1`, `2`, ... (all words up to that length), `1+joint` (level 1 plus products of one
+        /// operator per player), or patterns of player letters such as "1 A B AB AA".
+        #[arg(long, default_value = "1+joint")]
+        level: String,
+        /// Write the dual certificate (JSON) here; `bellgap verify` re-checks it.
+        #[arg(long, value_name = "FILE")]
+        certificate: Option<PathBuf>,
+    },
+    /// Re-check an NPA dual certificate without any solver and print the bound it proves.
+    Verify {
+        #[command(flatten)]
+        args: GameArgs,
+        /// Certificate written by `bellgap npa --certificate`.
+        certificate: PathBuf,
+    },
     /// Decide whether given correlations p(answers|questions) have a local model.
     Local {
         /// Correlations file (YAML or JSON, see README).
@@ -152,8 +178,11 @@ pub struct Output {
 impl Cli {
     pub fn wants_json(&self) -> bool {
         match &self.command {
-            Command::Check(a) | Command::Nosignal(a) | Command::Bounds(a) => a.json,
-            Command::Classical { args, .. } => args.json,
+            Command::Check(a) | Command::Nosignal(a) => a.json,
+            Command::Classical { args, .. }
+            | Command::Bounds { args, .. }
+            | Command::Npa { args, .. }
+            | Command::Verify { args, .. } => args.json,
             Command::Local { json, .. } | Command::Family { json, .. } => *json,
         }
     }
@@ -241,7 +270,7 @@ pub fn run(cli: &Cli) -> Result<Output> {
             r.no_signalling = Some(nosignal::no_signalling_value(&game.scenario, args.force)?);
             Ok(game_output(&r))
         }
-        Command::Bounds(args) => {
+        Command::Bounds { args, level } => {
             let game = load(args)?;
             let mut early = Vec::new();
             warn_long_search(&game.scenario, args.force, &mut early);
@@ -249,7 +278,56 @@ pub fn run(cli: &Cli) -> Result<Output> {
             let mut r = Report::new("bounds", &game);
             r.classical = Some(classical_for(&game, args, Choice::Auto)?);
             r.no_signalling = Some(nosignal::no_signalling_value(&game.scenario, args.force)?);
+            let level = match level {
+                Some(l) => Level::parse(l)?,
+                None => npa::default_level(&game.scenario)?,
+            };
+            r.npa = Some(npa::npa_bound(&game.scenario, &level, args.force)?);
             Ok(game_output(&r))
+        }
+        Command::Npa {
+            args,
+            level,
+            certificate,
+        } => {
+            let game = load(args)?;
+            let mut r = Report::new("npa", &game);
+            let bound = npa::npa_bound(&game.scenario, &Level::parse(level)?, args.force)?;
+            if let Some(file) = certificate {
+                let cert = npa::Certificate::new(&game.name, &bound)
+                    .ok_or_else(|| Error::solver("NPA", "no dual solution to save"))?;
+                let text = serde_json::to_string(&cert)
+                    .map_err(|e| Error::solver("NPA", e.to_string()))?;
+                std::fs::write(file, text).map_err(|source| Error::Io {
+                    path: file.to_string_lossy().to_string(),
+                    source,
+                })?;
+            }
+            r.npa = Some(bound);
+            Ok(game_output(&r))
+        }
+        Command::Verify { args, certificate } => {
+            let game = load(args)?;
+            let path = certificate.to_string_lossy().to_string();
+            let text = std::fs::read_to_string(certificate).map_err(|source| Error::Io {
+                path: path.clone(),
+                source,
+            })?;
+            let cert: npa::Certificate = serde_json::from_str(&text).map_err(|e| Error::Input {
+                location: bellgap::error::Location {
+                    file: path.clone(),
+                    line: Some(e.line()),
+                    column: Some(e.column()),
+                    field: None,
+                },
+                message: format!("not a certificate: {e}"),
+            })?;
+            let v = npa::verify(&game.scenario, &cert)?;
+            Ok(Output {
+                text: report::verification_text(&game, &path, &v),
+                json: report::verification_json(&game, &path, &v),
+                warnings: game.warnings.clone(),
+            })
         }
         Command::Local {
             correlations,

@@ -56,7 +56,12 @@ impl CollinsGisin {
 
     /// `p(a|q)` as a constant plus a combination of variables: each player with its last answer
     /// contributes (1 − Σ of its other answers), the others their own event.
-    pub fn expand(&self, questions: &[usize], answers: &[usize], out: &mut Vec<(usize, f64)>) -> f64 {
+    pub fn expand(
+        &self,
+        questions: &[usize],
+        answers: &[usize],
+        out: &mut Vec<(usize, f64)>,
+    ) -> f64 {
         out.clear();
         let mut constant = 0.0;
         let mut chosen = answers.to_vec();
@@ -134,7 +139,6 @@ impl CollinsGisin {
     }
 }
 
-
 impl CollinsGisin {
     /// The group (bit mask), questions and answers of variable `v` (entries of players outside
     /// the group are 0).
@@ -172,7 +176,9 @@ mod tests {
 
     #[test]
     fn describe_inverts_index() {
-        let s = Game::from_spec(&families::ghz(3).unwrap(), "t").unwrap().scenario;
+        let s = Game::from_spec(&families::ghz(3).unwrap(), "t")
+            .unwrap()
+            .scenario;
         let cg = CollinsGisin::new(&s);
         assert_eq!(cg.variables, 3usize.pow(3) - 1);
         for v in 0..cg.variables {

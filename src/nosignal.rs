@@ -11,9 +11,9 @@ use std::time::Instant;
 
 use serde::Serialize;
 
+use crate::collins_gisin::CollinsGisin;
 use crate::error::{Error, Result};
 use crate::lp::{LinearProgram, Relation, VarBounds};
-use crate::collins_gisin::CollinsGisin;
 use crate::scenario::{digits, index_of, Scenario};
 
 /// Largest LP (variables) solved without `force`.

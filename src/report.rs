@@ -8,6 +8,7 @@ use crate::classical::locality::LocalityReport;
 use crate::classical::{ClassicalEstimate, ClassicalValue, DeterministicStrategy};
 use crate::game::Game;
 use crate::nosignal::NoSignallingValue;
+use crate::quantum::npa::{NpaBound, Verification};
 use crate::scenario::{Scenario, Sizes};
 
 /// Everything computed for one game by `check`, `classical`, `nosignal` or `bounds`.
@@ -17,6 +18,7 @@ pub struct Report<'a> {
     pub game: &'a Game,
     pub classical: Option<ClassicalValue>,
     pub no_signalling: Option<NoSignallingValue>,
+    pub npa: Option<NpaBound>,
     /// Include sizes and estimates (the `check` command).
     pub sizes: bool,
 }
@@ -28,6 +30,7 @@ impl<'a> Report<'a> {
             game,
             classical: None,
             no_signalling: None,
+            npa: None,
             sizes: false,
         }
     }
@@ -81,11 +84,38 @@ impl<'a> Report<'a> {
                 }),
             );
         }
+        if let Some(b) = &self.npa {
+            m.insert("quantum_upper".into(), json!(b.quantum_upper));
+            m.insert("verified_upper".into(), json!(b.verified_upper));
+            m.insert("level".into(), json!(b.level));
+            m.insert("matrix_size".into(), json!(b.matrix_size));
+            m.insert("moments".into(), json!(b.moments));
+            m.insert("status".into(), json!(b.status));
+            m.insert("iterations".into(), json!(b.iterations));
+            m.insert("seconds".into(), json!(b.seconds));
+            m.insert("npa_primal".into(), json!(b.primal));
+        }
+        let mut gaps = Map::new();
         if let (Some(c), Some(ns)) = (&self.classical, &self.no_signalling) {
-            m.insert(
-                "gaps".into(),
-                json!({"no_signalling_minus_classical": ns.value - c.value}),
+            gaps.insert(
+                "no_signalling_minus_classical".into(),
+                json!(ns.value - c.value),
             );
+        }
+        if let (Some(c), Some(b)) = (&self.classical, &self.npa) {
+            gaps.insert(
+                "quantum_upper_minus_classical".into(),
+                json!(b.verified_upper - c.value),
+            );
+        }
+        if let (Some(ns), Some(b)) = (&self.no_signalling, &self.npa) {
+            gaps.insert(
+                "no_signalling_minus_quantum_upper".into(),
+                json!(ns.value - b.verified_upper),
+            );
+        }
+        if !gaps.is_empty() {
+            m.insert("gaps".into(), Value::Object(gaps));
         }
         m.insert("warnings".into(), json!(self.game.warnings));
         Value::Object(m)
@@ -144,6 +174,35 @@ impl<'a> Report<'a> {
                 v += &format!("  ({}, {}; certified ≤ {})", ns.method, ns.status, num(up));
             }
             rows.push(("no-signalling".into(), v));
+        }
+        if let Some(b) = &self.npa {
+            rows.push((
+                "quantum ≤ (NPA)".into(),
+                format!(
+                    "{}  (verified; raw {}, level {}, {}×{} matrix, {} moments, {}, {} iterations, {:.2} s)",
+                    num(b.verified_upper),
+                    num(b.quantum_upper),
+                    b.level,
+                    b.matrix_size,
+                    b.matrix_size,
+                    b.moments,
+                    b.status,
+                    b.iterations,
+                    b.seconds
+                ),
+            ));
+        }
+        if let (Some(c), Some(b)) = (&self.classical, &self.npa) {
+            rows.push((
+                "gap quantum − classical".into(),
+                format!("≤ {}", num(b.verified_upper - c.value)),
+            ));
+        }
+        if let (Some(ns), Some(b)) = (&self.no_signalling, &self.npa) {
+            rows.push((
+                "gap ns − quantum".into(),
+                format!("≥ {}", num(ns.value - b.verified_upper)),
+            ));
         }
         if let (Some(c), Some(ns)) = (&self.classical, &self.no_signalling) {
             rows.push(("gap ns − classical".into(), num(ns.value - c.value)));
@@ -287,6 +346,33 @@ pub fn locality_text(name: &str, r: &LocalityReport, saved: Option<&str>) -> Str
             "warning: these correlations signal (largest violation {}): no local or quantum model produces them, and no mixture with noise is local, so the visibility is 0. Frequencies from finitely many rounds usually signal a little; bring them to the no-signalling set before testing\n",
             num(r.signalling)
         );
+    }
+    out
+}
+
+/// `bellgap verify` report.
+pub fn verification_json(game: &Game, certificate: &str, v: &Verification) -> Value {
+    json!({
+        "command": "verify",
+        "game": game.name,
+        "certificate": certificate,
+        "level": v.level,
+        "verified_upper": v.verified_upper,
+        "claimed": v.claimed,
+        "matches_claim": v.matches_claim,
+    })
+}
+
+pub fn verification_text(game: &Game, certificate: &str, v: &Verification) -> String {
+    let mut out = table(&[
+        ("game".into(), format!("{} ({})", game.name, game.source)),
+        ("certificate".into(), certificate.to_string()),
+        ("level".into(), v.level.clone()),
+        ("verified quantum ≤".into(), num(v.verified_upper)),
+        ("claimed in file".into(), num(v.claimed)),
+    ]);
+    if !v.matches_claim {
+        out += "warning: the recomputed bound is larger than the one the file claims; the recomputed one holds\n";
     }
     out
 }

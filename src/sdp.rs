@@ -92,7 +92,8 @@ pub fn upper_index(row: usize, col: usize) -> usize {
 
 impl SdpProblem {
     pub fn assemble(&self) -> Assembled {
-        let (mut rows, mut cols, mut vals, mut b) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
+        let (mut rows, mut cols, mut vals, mut b) =
+            (Vec::new(), Vec::new(), Vec::new(), Vec::new());
         let mut push = |terms: &[(usize, f64)], scale: f64, rhs: f64, b: &mut Vec<f64>| {
             let r = b.len();
             for &(j, c) in terms {
@@ -114,7 +115,11 @@ impl SdpProblem {
             for col in 0..block.size {
                 for row in 0..=col {
                     let e = &block.upper[upper_index(row, col)];
-                    let scale = if row == col { 1.0 } else { std::f64::consts::SQRT_2 };
+                    let scale = if row == col {
+                        1.0
+                    } else {
+                        std::f64::consts::SQRT_2
+                    };
                     // s = scale·(constant + Σ c y) = b − (A y)  ⇒  b = scale·constant, A = −scale·c.
                     push(&e.terms, -scale, scale * e.constant, &mut b);
                 }
@@ -167,14 +172,20 @@ impl SdpProblem {
             other => {
                 return Err(Error::solver(
                     stage,
-                    format!("the SDP solver stopped with status {other:?} after {} iterations", solver.info.iterations),
+                    format!(
+                        "the SDP solver stopped with status {other:?} after {} iterations",
+                        solver.info.iterations
+                    ),
                 ))
             }
         };
         let y = solver.solution.x.clone();
         let z = solver.solution.z.clone();
         let primal = self.objective_constant
-            + y.iter().zip(&self.objective).map(|(y, c)| y * c).sum::<f64>();
+            + y.iter()
+                .zip(&self.objective)
+                .map(|(y, c)| y * c)
+                .sum::<f64>();
         let dual = self.objective_constant + z.iter().zip(&asm.b).map(|(z, b)| z * b).sum::<f64>();
         let certified = asm.certified_bound(&z)?;
         Ok(SdpSolution {
@@ -197,11 +208,18 @@ impl Assembled {
         if z.len() != self.b.len() {
             return Err(Error::solver(
                 "certificate check",
-                format!("the dual vector has {} entries, the problem {}", z.len(), self.b.len()),
+                format!(
+                    "the dual vector has {} entries, the problem {}",
+                    z.len(),
+                    self.b.len()
+                ),
             ));
         }
         if z.iter().any(|v| !v.is_finite()) {
-            return Err(Error::solver("certificate check", "the dual vector has non-finite entries"));
+            return Err(Error::solver(
+                "certificate check",
+                "the dual vector has non-finite entries",
+            ));
         }
         // Project onto the dual cone's simple parts: free on equalities, ≥ 0 on inequalities.
         let mut z = z.to_vec();
@@ -266,7 +284,11 @@ mod tests {
             objective: vec![1.0],
             blocks: vec![MatrixBlock {
                 size: 2,
-                upper: vec![entry(1.0, vec![]), entry(0.0, vec![(0, 1.0)]), entry(1.0, vec![])],
+                upper: vec![
+                    entry(1.0, vec![]),
+                    entry(0.0, vec![(0, 1.0)]),
+                    entry(1.0, vec![]),
+                ],
                 trace_bound: 2.0,
             }],
             variable_bound: 1.0,
@@ -274,7 +296,11 @@ mod tests {
         };
         let s = p.solve("test").unwrap();
         assert!((s.primal - 1.0).abs() < 1e-7, "{}", s.primal);
-        assert!(s.certified >= 1.0 && s.certified < 1.0 + 1e-6, "{}", s.certified);
+        assert!(
+            s.certified >= 1.0 && s.certified < 1.0 + 1e-6,
+            "{}",
+            s.certified
+        );
         // A deliberately bad certificate still gives a valid (looser) bound.
         let asm = p.assemble();
         let bad: Vec<f64> = s.z.iter().map(|v| v * 0.9).collect();

@@ -236,3 +236,109 @@ fn correlations_rows_must_be_normalised() {
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("sum to 2"));
 }
+
+#[test]
+fn npa_json_keys_and_certificate_round_trip() {
+    let dir = std::env::temp_dir().join(format!("bellgap-cli-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let cert = dir.join("chsh-cert.json");
+    let out = bellgap(&[
+        "npa",
+        "games/chsh.yaml",
+        "--level",
+        "1",
+        "--json",
+        "--certificate",
+        &cert.to_string_lossy(),
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j = json_of(&out);
+    // Cirel'son 1980: cos²(π/8).
+    let tsirelson = (std::f64::consts::PI / 8.0).cos().powi(2);
+    for key in [
+        "quantum_upper",
+        "verified_upper",
+        "level",
+        "matrix_size",
+        "moments",
+        "status",
+        "seconds",
+    ] {
+        assert!(j.get(key).is_some(), "missing {key}");
+    }
+    assert!((j["quantum_upper"].as_f64().unwrap() - tsirelson).abs() < 1e-7);
+    let verified = j["verified_upper"].as_f64().unwrap();
+    assert!(verified >= tsirelson && verified < tsirelson + 1e-6);
+    assert_eq!(j["matrix_size"], 5);
+    // The certificate re-checks without the solver to the same bound.
+    let v = json_of(&bellgap(&[
+        "verify",
+        "games/chsh.yaml",
+        &cert.to_string_lossy(),
+        "--json",
+    ]));
+    assert_eq!(v["matches_claim"], true);
+    assert!((v["verified_upper"].as_f64().unwrap() - verified).abs() < 1e-12);
+    // A tampered certificate still proves only true bounds (it gets looser, never wrong).
+    let mut c: Value = serde_json::from_str(&std::fs::read_to_string(&cert).unwrap()).unwrap();
+    for z in c["dual"].as_array_mut().unwrap() {
+        *z = Value::from(z.as_f64().unwrap() * 0.8 + 0.01);
+    }
+    let tampered = dir.join("tampered.json");
+    std::fs::write(&tampered, c.to_string()).unwrap();
+    let v = json_of(&bellgap(&[
+        "verify",
+        "games/chsh.yaml",
+        &tampered.to_string_lossy(),
+        "--json",
+    ]));
+    assert!(v["verified_upper"].as_f64().unwrap() >= tsirelson);
+    assert_eq!(v["matches_claim"], false);
+    // A certificate for another game is refused.
+    assert_eq!(
+        bellgap(&["verify", "games/i3322.yaml", &cert.to_string_lossy()])
+            .status
+            .code(),
+        Some(2)
+    );
+}
+
+#[test]
+fn bounds_reports_quantum_gaps() {
+    let j = json_of(&bellgap(&[
+        "bounds",
+        "games/cglmp-3.yaml",
+        "--level",
+        "1+joint",
+        "--json",
+    ]));
+    // Acín–Durt–Gisin–Latorre 2002: 1 + √(11/3).
+    assert!((j["quantum_upper"].as_f64().unwrap() - (1.0 + (11.0f64 / 3.0).sqrt())).abs() < 1e-6);
+    let gaps = &j["gaps"];
+    assert!(gaps["quantum_upper_minus_classical"].as_f64().unwrap() > 0.9);
+    assert!(gaps["no_signalling_minus_quantum_upper"].as_f64().unwrap() > 1.0);
+}
+
+#[test]
+fn npa_level_errors_are_usage_errors() {
+    assert_eq!(
+        bellgap(&["npa", "games/chsh.yaml", "--level", "0"])
+            .status
+            .code(),
+        Some(2)
+    );
+    assert_eq!(
+        bellgap(&["npa", "games/chsh.yaml", "--level", "1 A C"])
+            .status
+            .code(),
+        Some(2)
+    );
+    // Three-body terms need products of three operators: level 1 cannot express them.
+    let out = bellgap(&["npa", "games/mermin.yaml", "--level", "1"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("1+joint"));
+}

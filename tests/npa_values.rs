@@ -17,9 +17,22 @@ fn npa(s: &Scenario, level: &str) -> bellgap::quantum::npa::NpaBound {
 /// The raw bound is close to the expected value, and the verified bound is an upper bound at
 /// most 1e-6 above the raw one.
 fn assert_bound(b: &bellgap::quantum::npa::NpaBound, want: f64, tol: f64, what: &str) {
-    assert!((b.quantum_upper - want).abs() < tol, "{what}: got {}, expected {want}", b.quantum_upper);
-    assert!(b.verified_upper >= b.quantum_upper - 1e-9, "{what}: verified {} below raw {}", b.verified_upper, b.quantum_upper);
-    assert!(b.verified_upper <= b.quantum_upper + 1e-6, "{what}: verified {} too loose", b.verified_upper);
+    assert!(
+        (b.quantum_upper - want).abs() < tol,
+        "{what}: got {}, expected {want}",
+        b.quantum_upper
+    );
+    assert!(
+        b.verified_upper >= b.quantum_upper - 1e-9,
+        "{what}: verified {} below raw {}",
+        b.verified_upper,
+        b.quantum_upper
+    );
+    assert!(
+        b.verified_upper <= b.quantum_upper + 1e-6,
+        "{what}: verified {} too loose",
+        b.verified_upper
+    );
 }
 
 #[test]
@@ -43,7 +56,12 @@ fn xor_games_are_exact_at_level_1() {
     }
     // Chained Bell: 2m cos(π/2m), Braunstein–Caves 1990 (Ann. Phys. 202, 22); Wehner 2006.
     let b = npa(&compile(&families::chained_bell(3).unwrap()), "1");
-    assert_bound(&b, 6.0 * (std::f64::consts::PI / 6.0).cos(), 1e-6, "chained m=3");
+    assert_bound(
+        &b,
+        6.0 * (std::f64::consts::PI / 6.0).cos(),
+        1e-6,
+        "chained m=3",
+    );
 }
 
 #[test]
@@ -65,7 +83,9 @@ fn i3322_decreases_with_the_level() {
     assert_bound(&l1, 0.375, 1e-6, "I3322 level 1");
     assert_bound(&joint, 0.251471, 2e-6, "I3322 1+joint");
     assert_bound(&l2, 0.2509397, 2e-6, "I3322 level 2");
-    assert!(l1.verified_upper >= joint.quantum_upper && joint.quantum_upper >= l2.quantum_upper - 1e-8);
+    assert!(
+        l1.verified_upper >= joint.quantum_upper && joint.quantum_upper >= l2.quantum_upper - 1e-8
+    );
 }
 
 #[test]
@@ -80,11 +100,21 @@ fn ghz_and_magic_square_reach_one() {
 
 #[test]
 fn npa_lies_between_classical_and_no_signalling() {
-    for spec in [families::chsh(), families::i3322(), families::cglmp(3).unwrap(), families::mermin()] {
+    for spec in [
+        families::chsh(),
+        families::i3322(),
+        families::cglmp(3).unwrap(),
+        families::mermin(),
+    ] {
         let s = compile(&spec);
         let c = search(&s, None).value;
         let ns = no_signalling_value(&s, false).unwrap().value;
         let b = npa(&s, "1+joint");
-        assert!(c <= b.quantum_upper + 1e-6 && b.quantum_upper <= ns + 1e-6, "{:?}: {c} {} {ns}", spec.name, b.quantum_upper);
+        assert!(
+            c <= b.quantum_upper + 1e-6 && b.quantum_upper <= ns + 1e-6,
+            "{:?}: {c} {} {ns}",
+            spec.name,
+            b.quantum_upper
+        );
     }
 }

@@ -176,3 +176,25 @@ proptest! {
         prop_assert!((a - b).abs() < 1e-6, "search {} vs MILP {}", a, b);
     }
 }
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 12, ..ProptestConfig::default() })]
+
+    #[test]
+    fn npa_sits_between_classical_and_no_signalling_and_shrinks_with_the_level(g in random_game(2)) {
+        use bellgap::quantum::npa::{npa_bound, Level};
+        let s = &g.scenario;
+        let c = search(s, None).value;
+        let ns = no_signalling_value(s, false).unwrap().value;
+        let l1 = npa_bound(s, &Level::Length(1), false).unwrap();
+        let joint = npa_bound(s, &Level::Joint, false).unwrap();
+        // Tolerance: the solver's (1e-6 covers "almost solved" runs).
+        prop_assert!(c <= joint.verified_upper + 1e-6, "classical {} > NPA {}", c, joint.verified_upper);
+        prop_assert!(joint.quantum_upper <= ns + 1e-6, "NPA {} > no-signalling {}", joint.quantum_upper, ns);
+        prop_assert!(joint.quantum_upper <= l1.quantum_upper + 1e-6, "1+joint {} > level 1 {}", joint.quantum_upper, l1.quantum_upper);
+        prop_assert!(joint.verified_upper >= joint.quantum_upper - 1e-9);
+        let r = s.relabelled(&g.players, &g.questions, &g.answers);
+        let jr = npa_bound(&r, &Level::Joint, false).unwrap();
+        prop_assert!((jr.quantum_upper - joint.quantum_upper).abs() < 1e-6, "relabelled {} vs {}", jr.quantum_upper, joint.quantum_upper);
+    }
+}
