@@ -118,3 +118,15 @@ fn npa_lies_between_classical_and_no_signalling() {
         );
     }
 }
+
+/// Slow with the current solver (about 3 minutes on the project machine): run with
+/// `cargo test --release -- --ignored`.
+#[test]
+#[ignore]
+fn i3322_level_3() {
+    // ≈ 0.250876 (Navascués–Pironio–Acín 2008; recomputed), above the best known quantum value
+    // 0.250875384514 (Pál–Vértesi 2010, PRA 82, 022116; digits from memory).
+    let b = npa(&compile(&families::i3322()), "3");
+    assert_bound(&b, 0.250876, 2e-6, "I3322 level 3");
+    assert!(b.verified_upper >= 0.250875384514);
+}

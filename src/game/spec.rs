@@ -73,13 +73,22 @@ impl GameSpec {
     /// Lists of numbers (tables, matrices, label lists) are written inline, one row per line
     /// at most, so generated files stay readable.
     pub fn to_yaml(&self) -> String {
-        let value = serde_yaml::to_value(self).expect("a game spec always serialises");
-        let mut out = String::new();
-        if let Value::Mapping(m) = &value {
-            emit_mapping(m, 0, false, &mut out);
-        }
-        out
+        readable_yaml(&serde_yaml::to_value(self).expect("a game spec always serialises"))
     }
+}
+
+/// YAML for people: mappings in block style, lists of numbers inline (one row per line for
+/// large tables), short mappings of plain scalars inline. Used for every file the tool writes.
+pub fn readable_yaml(value: &Value) -> String {
+    let mut out = String::new();
+    match value {
+        Value::Mapping(m) => emit_mapping(m, 0, false, &mut out),
+        other => {
+            out.push_str(&flow(other));
+            out.push('\n');
+        }
+    }
+    out
 }
 
 /// A scalar as serde_yaml would write it (quoted when needed), on one line.

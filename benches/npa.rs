@@ -1,0 +1,96 @@
+//! NPA bound speed and peak memory: I3322 at levels 2–4 and CGLMP d = 3..8 at level 1+joint,
+//! moment-matrix construction timed apart from the solve.
+//!
+//! `cargo bench --bench npa` runs each case in its own process (so peak memory is the case's
+//! own) and prints a Markdown table. Cases whose estimated solve time exceeds
+//! `BELLGAP_BENCH_MAX_SECONDS` (default 300) are not run; their estimate is printed instead.
+
+use std::process::Command;
+use std::time::Instant;
+
+use bellgap::game::{families, Game, GameSpec};
+use bellgap::quantum::npa::{estimate, npa_bound, relaxation, Level};
+
+fn cases() -> Vec<(String, GameSpec, &'static str)> {
+    let mut v = vec![
+        ("I3322".to_string(), families::i3322(), "2"),
+        ("I3322".to_string(), families::i3322(), "3"),
+        ("I3322".to_string(), families::i3322(), "4"),
+    ];
+    for d in 3..=8 {
+        v.push((
+            format!("CGLMP d={d}"),
+            families::cglmp(d).unwrap(),
+            "1+joint",
+        ));
+    }
+    v
+}
+
+/// Peak resident memory of this process, from /proc (Linux), in MiB.
+fn peak_mib() -> Option<f64> {
+    let status = std::fs::read_to_string("/proc/self/status").ok()?;
+    let line = status.lines().find(|l| l.starts_with("VmHWM:"))?;
+    let kib: f64 = line.split_whitespace().nth(1)?.parse().ok()?;
+    Some(kib / 1024.0)
+}
+
+fn run_case(index: usize) {
+    let (name, spec, level) = &cases()[index];
+    let s = Game::from_spec(spec, name).unwrap().scenario;
+    let level = Level::parse(level).unwrap();
+    let t = Instant::now();
+    let r = relaxation(&s, &level).unwrap();
+    let build = t.elapsed().as_secs_f64();
+    let b = npa_bound(&s, &level, true).unwrap();
+    println!(
+        "| {name} | {} | {}×{} | {} | {:.4} | {:.2} | {:.0} | {:.8} | {:.8} | {} ({} it.) |",
+        b.level,
+        r.matrix.size(),
+        r.matrix.size(),
+        b.moments,
+        build,
+        b.seconds - b.build_seconds,
+        peak_mib().unwrap_or(f64::NAN),
+        b.quantum_upper,
+        b.verified_upper,
+        b.status,
+        b.iterations
+    );
+}
+
+fn main() {
+    let args: Vec<String> = std::env::args().collect();
+    if let Some(pos) = args.iter().position(|a| a == "--case") {
+        run_case(args[pos + 1].parse().unwrap());
+        return;
+    }
+    let max: f64 = std::env::var("BELLGAP_BENCH_MAX_SECONDS")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(300.0);
+    println!("| case | level | matrix | moments | build s | solve s | peak MiB | raw bound | verified bound | status |");
+    println!("|---|---|---|---|---|---|---|---|---|---|");
+    let exe = std::env::current_exe().unwrap();
+    for (i, (name, spec, level)) in cases().iter().enumerate() {
+        let s = Game::from_spec(spec, name).unwrap().scenario;
+        let r = relaxation(&s, &Level::parse(level).unwrap()).unwrap();
+        let est = estimate(&r);
+        if est.seconds > max {
+            println!(
+                "| {name} | {level} | {}×{} | {} | | not run: estimated {} | est. {:.0} | | | |",
+                est.matrix_size,
+                est.matrix_size,
+                est.moments,
+                bellgap::classical::human_seconds(est.seconds),
+                est.memory_bytes / (1u64 << 20) as f64
+            );
+            continue;
+        }
+        let out = Command::new(&exe)
+            .args(["--case", &i.to_string()])
+            .output()
+            .unwrap();
+        print!("{}", String::from_utf8_lossy(&out.stdout));
+    }
+}
