@@ -11,9 +11,13 @@ use serde_json::{json, Value};
 
 use bellgap::classical::locality::{expression_as_game, locality_test, Correlations};
 use bellgap::classical::{self, Choice, ClassicalEstimate};
+use bellgap::game::spec::readable_yaml;
 use bellgap::game::{families, product, CompileOptions, Game, GameSpec};
 use bellgap::nosignal;
+use bellgap::quantum::analysis;
 use bellgap::quantum::npa::{self, Level};
+use bellgap::quantum::seesaw::{self, SeesawOptions};
+use bellgap::quantum::strategy::QuantumStrategy;
 use bellgap::report::{self, Report};
 use bellgap::{Error, Result};
 
@@ -62,6 +66,34 @@ pub enum Command {
         /// Write the dual certificate (JSON) here; `bellgap verify` re-checks it.
         #[arg(long, value_name = "FILE")]
         certificate: Option<PathBuf>,
+    },
+    /// Explicit quantum strategy by see-saw: a lower bound on the quantum value.
+    Seesaw {
+        #[command(flatten)]
+        args: GameArgs,
+        /// Local dimension of every player.
+        #[arg(long, conflicts_with = "dims")]
+        dim: Option<usize>,
+        /// Local dimension per player, comma separated (e.g. 2,3).
+        #[arg(long, value_delimiter = ',')]
+        dims: Option<Vec<usize>>,
+        /// Random restarts (run in parallel; the best is kept).
+        #[arg(long, default_value_t = 10)]
+        restarts: usize,
+        /// Seed of the random starts (reported, so runs are reproducible).
+        #[arg(long, default_value_t = 1)]
+        seed: u64,
+        /// Write the best strategy (state and measurements) to this file.
+        #[arg(long, value_name = "FILE")]
+        save: Option<PathBuf>,
+    },
+    /// Recompute a strategy file's value by the Born rule and check it; with entanglement,
+    /// noise and detection-efficiency thresholds.
+    Evaluate {
+        #[command(flatten)]
+        args: GameArgs,
+        /// Strategy file (as written by `bellgap seesaw --save`).
+        strategy: PathBuf,
     },
     /// Re-check an NPA dual certificate without any solver and print the bound it proves.
     Verify {
@@ -182,6 +214,8 @@ impl Cli {
             Command::Classical { args, .. }
             | Command::Bounds { args, .. }
             | Command::Npa { args, .. }
+            | Command::Seesaw { args, .. }
+            | Command::Evaluate { args, .. }
             | Command::Verify { args, .. } => args.json,
             Command::Local { json, .. } | Command::Family { json, .. } => *json,
         }
@@ -283,6 +317,75 @@ pub fn run(cli: &Cli) -> Result<Output> {
                 None => npa::default_level(&game.scenario)?,
             };
             r.npa = Some(npa::npa_bound(&game.scenario, &level, args.force)?);
+            let opts = SeesawOptions {
+                dims: seesaw::default_dims(&game.scenario),
+                restarts: 8,
+                seed: 1,
+                tolerance: 1e-10,
+                max_rounds: 500,
+            };
+            let found = seesaw::seesaw(&game.scenario, &opts, None)?;
+            r.strategy_analysis = Some(analyse(
+                &game,
+                &found.strategy,
+                r.classical.as_ref().map(|c| c.value),
+            ));
+            r.seesaw = Some(found);
+            Ok(game_output(&r))
+        }
+        Command::Seesaw {
+            args,
+            dim,
+            dims,
+            restarts,
+            seed,
+            save,
+        } => {
+            let game = load(args)?;
+            let dims = match (dim, dims) {
+                (Some(d), _) => vec![*d; game.scenario.players()],
+                (None, Some(ds)) => ds.clone(),
+                (None, None) => seesaw::default_dims(&game.scenario),
+            };
+            let opts = SeesawOptions {
+                dims,
+                restarts: *restarts,
+                seed: *seed,
+                tolerance: 1e-10,
+                max_rounds: 500,
+            };
+            let printer = restart_printer(args.quiet || args.json);
+            let found = seesaw::seesaw(
+                &game.scenario,
+                &opts,
+                printer
+                    .as_ref()
+                    .map(|p| p as &(dyn Fn(usize, usize) + Sync)),
+            )?;
+            if let Some(file) = save {
+                let text = readable_yaml(&found.strategy.to_yaml_value(&game.scenario));
+                std::fs::write(file, text).map_err(|source| Error::Io {
+                    path: file.to_string_lossy().to_string(),
+                    source,
+                })?;
+            }
+            let classical = classical::classical_value(&game.scenario, Choice::Auto, false, None)
+                .ok()
+                .map(|c| c.value);
+            let mut r = Report::new("seesaw", &game);
+            r.strategy_analysis = Some(analyse(&game, &found.strategy, classical));
+            r.seesaw = Some(found);
+            Ok(game_output(&r))
+        }
+        Command::Evaluate { args, strategy } => {
+            let game = load(args)?;
+            let st = QuantumStrategy::from_file(&strategy.to_string_lossy(), &game.scenario)?;
+            let classical = classical::classical_value(&game.scenario, Choice::Auto, false, None)
+                .ok()
+                .map(|c| c.value);
+            let mut r = Report::new("evaluate", &game);
+            r.evaluated = Some(st.value(&game.scenario));
+            r.strategy_analysis = Some(analyse(&game, &st, classical));
             Ok(game_output(&r))
         }
         Command::Npa {
@@ -366,6 +469,28 @@ pub fn run(cli: &Cli) -> Result<Output> {
             })
         }
     }
+}
+
+/// Entanglement of the state and, when the classical value is known, robustness thresholds.
+fn analyse(game: &Game, st: &QuantumStrategy, classical: Option<f64>) -> report::StrategyAnalysis {
+    report::StrategyAnalysis {
+        bipartitions: analysis::bipartitions(&game.scenario, st),
+        robustness: classical.map(|c| analysis::robustness(&game.scenario, st, c)),
+        classical,
+    }
+}
+
+/// Progress of see-saw restarts on stderr, only when a person is watching.
+fn restart_printer(quiet: bool) -> Option<impl Fn(usize, usize) + Sync> {
+    if quiet || !std::io::stderr().is_terminal() {
+        return None;
+    }
+    Some(move |done: usize, total: usize| {
+        eprint!("\rsee-saw: {done}/{total} restarts");
+        if done == total {
+            eprint!("\r{:40}\r", "");
+        }
+    })
 }
 
 fn print_early(warnings: &[String], quiet: bool) {

@@ -8,7 +8,50 @@ use crate::classical::locality::LocalityReport;
 use crate::classical::{ClassicalEstimate, ClassicalValue, DeterministicStrategy};
 use crate::game::Game;
 use crate::nosignal::NoSignallingValue;
+use crate::quantum::analysis::{Bipartition, Robustness};
 use crate::quantum::npa::{NpaBound, Verification};
+use crate::quantum::seesaw::SeesawResult;
+
+/// The quantum value counts as settled when the verified upper bound and the see-saw's lower
+/// bound are this close.
+pub const QUANTUM_SETTLED_TOLERANCE: f64 = 1e-6;
+
+/// Entanglement and robustness of a strategy.
+#[derive(Debug, Clone)]
+pub struct StrategyAnalysis {
+    pub bipartitions: Vec<Bipartition>,
+    pub robustness: Option<Robustness>,
+    pub classical: Option<f64>,
+}
+
+fn analysis_text(a: &StrategyAnalysis) -> String {
+    let mut out = String::from("\nstrategy state:\n");
+    for b in &a.bipartitions {
+        let schmidt: Vec<String> = b.schmidt.iter().map(|v| format!("{v:.6}")).collect();
+        out += &format!(
+            "  {} | rest: Schmidt [{}], entropy {:.6} bits{}\n",
+            b.side.join(" "),
+            schmidt.join(", "),
+            b.entropy_bits,
+            match (b.ppt, b.negativity) {
+                (Some(ppt), Some(n)) => format!(
+                    ", negativity {n:.6}, {}",
+                    if ppt { "PPT" } else { "not PPT" }
+                ),
+                _ => String::new(),
+            }
+        );
+    }
+    if let Some(r) = &a.robustness {
+        out += &format!(
+            "robustness (against the classical value {}):\n  critical visibility {}\n  critical detection efficiency {} (no-click reported as the first answer)\n",
+            a.classical.map(num).unwrap_or_default(),
+            r.critical_visibility.map(num).unwrap_or_else(|| "none (no advantage)".into()),
+            r.critical_detection_efficiency.map(num).unwrap_or_else(|| "none (no advantage)".into()),
+        );
+    }
+    out
+}
 use crate::scenario::{Scenario, Sizes};
 
 /// Everything computed for one game by `check`, `classical`, `nosignal` or `bounds`.
@@ -19,6 +62,10 @@ pub struct Report<'a> {
     pub classical: Option<ClassicalValue>,
     pub no_signalling: Option<NoSignallingValue>,
     pub npa: Option<NpaBound>,
+    pub seesaw: Option<SeesawResult>,
+    /// The Born-rule value of a given strategy (`evaluate`).
+    pub evaluated: Option<f64>,
+    pub strategy_analysis: Option<StrategyAnalysis>,
     /// Include sizes and estimates (the `check` command).
     pub sizes: bool,
 }
@@ -31,6 +78,9 @@ impl<'a> Report<'a> {
             classical: None,
             no_signalling: None,
             npa: None,
+            seesaw: None,
+            evaluated: None,
+            strategy_analysis: None,
             sizes: false,
         }
     }
@@ -95,7 +145,45 @@ impl<'a> Report<'a> {
             m.insert("seconds".into(), json!(b.seconds));
             m.insert("npa_primal".into(), json!(b.primal));
         }
+        if let Some(sw) = &self.seesaw {
+            m.insert("quantum_lower".into(), json!(sw.quantum_lower));
+            m.insert("dims".into(), json!(sw.dims));
+            m.insert("seed".into(), json!(sw.seed));
+            m.insert("restarts".into(), json!(sw.restarts));
+            m.insert(
+                "seesaw_details".into(),
+                json!({"rounds": sw.rounds, "seconds": sw.seconds}),
+            );
+            if self.command == "seesaw" {
+                m.insert("seconds".into(), json!(sw.seconds));
+            }
+        }
+        if let Some(v) = self.evaluated {
+            m.insert("value".into(), json!(v));
+        }
+        if let Some(a) = &self.strategy_analysis {
+            m.insert("entanglement".into(), json!(a.bipartitions));
+            m.insert("robustness".into(), json!(a.robustness));
+        }
+        if let (Some(sw), Some(b)) = (&self.seesaw, &self.npa) {
+            m.insert(
+                "quantum_settled".into(),
+                json!(b.verified_upper - sw.quantum_lower < QUANTUM_SETTLED_TOLERANCE),
+            );
+        }
         let mut gaps = Map::new();
+        if let (Some(c), Some(sw)) = (&self.classical, &self.seesaw) {
+            gaps.insert(
+                "quantum_lower_minus_classical".into(),
+                json!(sw.quantum_lower - c.value),
+            );
+        }
+        if let (Some(sw), Some(b)) = (&self.seesaw, &self.npa) {
+            gaps.insert(
+                "quantum_upper_minus_lower".into(),
+                json!(b.verified_upper - sw.quantum_lower),
+            );
+        }
         if let (Some(c), Some(ns)) = (&self.classical, &self.no_signalling) {
             gaps.insert(
                 "no_signalling_minus_classical".into(),
@@ -192,6 +280,37 @@ impl<'a> Report<'a> {
                 ),
             ));
         }
+        if let Some(sw) = &self.seesaw {
+            rows.push((
+                "quantum ≥ (see-saw)".into(),
+                format!(
+                    "{}  (dims {:?}, {} restarts, seed {}, {:.2} s)",
+                    num(sw.quantum_lower),
+                    sw.dims,
+                    sw.restarts,
+                    sw.seed,
+                    sw.seconds
+                ),
+            ));
+        }
+        if let Some(v) = self.evaluated {
+            rows.push(("value (Born rule)".into(), num(v)));
+        }
+        if let (Some(sw), Some(b)) = (&self.seesaw, &self.npa) {
+            let gap = b.verified_upper - sw.quantum_lower;
+            rows.push((
+                "quantum value".into(),
+                if gap < QUANTUM_SETTLED_TOLERANCE {
+                    format!(
+                        "settled: verified upper − lower = {} < {:e}",
+                        num(gap),
+                        QUANTUM_SETTLED_TOLERANCE
+                    )
+                } else {
+                    format!("open: verified upper − lower = {}", num(gap))
+                },
+            ));
+        }
         if let (Some(c), Some(b)) = (&self.classical, &self.npa) {
             rows.push((
                 "gap quantum − classical".into(),
@@ -208,6 +327,9 @@ impl<'a> Report<'a> {
             rows.push(("gap ns − classical".into(), num(ns.value - c.value)));
         }
         out += &table(&rows);
+        if let Some(a) = &self.strategy_analysis {
+            out += &analysis_text(a);
+        }
         if let Some(c) = &self.classical {
             out += "\noptimal deterministic strategy (answer to each question):\n";
             out += &strategy_text(s, &c.strategy);

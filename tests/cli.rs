@@ -342,3 +342,61 @@ fn npa_level_errors_are_usage_errors() {
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("1+joint"));
 }
+
+#[test]
+fn seesaw_saves_a_strategy_that_evaluates_to_its_value() {
+    let dir = std::env::temp_dir().join(format!("bellgap-cli-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let file = dir.join("chsh-strategy.yaml");
+    let out = bellgap(&[
+        "seesaw",
+        "games/chsh.yaml",
+        "--dim",
+        "2",
+        "--restarts",
+        "3",
+        "--seed",
+        "5",
+        "--save",
+        &file.to_string_lossy(),
+        "--json",
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j = json_of(&out);
+    for key in ["quantum_lower", "dims", "seed", "restarts", "seconds"] {
+        assert!(j.get(key).is_some(), "missing {key}");
+    }
+    assert_eq!(j["seed"], 5);
+    // Cirel'son 1980.
+    let lower = j["quantum_lower"].as_f64().unwrap();
+    assert!((lower - (std::f64::consts::PI / 8.0).cos().powi(2)).abs() < 1e-7);
+    let e = json_of(&bellgap(&[
+        "evaluate",
+        "games/chsh.yaml",
+        &file.to_string_lossy(),
+        "--json",
+    ]));
+    assert!((e["value"].as_f64().unwrap() - lower).abs() < 1e-12);
+    // Critical visibility 1/√2 (common practice; Acín–Gisin–Toner 2006).
+    assert!(
+        (e["robustness"]["critical_visibility"].as_f64().unwrap() - 0.5f64.sqrt()).abs() < 1e-6
+    );
+    // A strategy for the wrong game is a clear input error.
+    let out = bellgap(&["evaluate", "games/i3322.yaml", &file.to_string_lossy()]);
+    assert_eq!(out.status.code(), Some(2));
+}
+
+#[test]
+fn bounds_reports_whether_the_quantum_value_is_settled() {
+    // CHSH: the see-saw meets the verified NPA bound, so the quantum value is settled.
+    let j = json_of(&bellgap(&["bounds", "games/chsh.yaml", "--json"]));
+    assert_eq!(j["quantum_settled"], true);
+    assert!(j["gaps"]["quantum_upper_minus_lower"].as_f64().unwrap() < 1e-6);
+    // I3322 with qubits (0.25) stays below its level-2 bound (0.25094): open.
+    let j = json_of(&bellgap(&["bounds", "games/i3322.yaml", "--json"]));
+    assert_eq!(j["quantum_settled"], false);
+}

@@ -198,3 +198,22 @@ proptest! {
         prop_assert!((jr.quantum_upper - joint.quantum_upper).abs() < 1e-6, "relabelled {} vs {}", jr.quantum_upper, joint.quantum_upper);
     }
 }
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 12, ..ProptestConfig::default() })]
+
+    #[test]
+    fn seesaw_sits_between_classical_and_npa(g in random_game(2)) {
+        use bellgap::quantum::npa::{npa_bound, Level};
+        use bellgap::quantum::seesaw::{seesaw, SeesawOptions};
+        let s = &g.scenario;
+        let opts = SeesawOptions { dims: vec![2; s.players()], restarts: 3, seed: 11, tolerance: 1e-10, max_rounds: 200 };
+        let lower = seesaw(s, &opts, None).unwrap().quantum_lower;
+        let upper = npa_bound(s, &Level::Joint, false).unwrap().verified_upper;
+        prop_assert!(lower <= upper + 1e-6, "see-saw {} > NPA {}", lower, upper);
+        // Qubits can play any deterministic strategy, and the see-saw only climbs, but from
+        // random starts it may stop at a local optimum: it is only asserted not to be absurd.
+        let (lo, _) = s.value_range();
+        prop_assert!(lower >= lo - 1e-9);
+    }
+}

@@ -82,7 +82,7 @@ fn random_measurement(d: usize, answers: usize, rng: &mut Rng) -> Vec<CMatrix> {
     let mut povm = vec![CMatrix::zeros(d, d); answers];
     for j in 0..d {
         let col = q.column(j);
-        povm[j % answers] += &col * col.adjoint();
+        povm[j % answers] += col * col.adjoint();
     }
     povm
 }
@@ -211,7 +211,7 @@ fn best_povm(b: &[CMatrix]) -> Result<Vec<CMatrix>> {
         for k in 0..d {
             if eig.eigenvalues[k] > 0.0 {
                 let v = eig.eigenvectors.column(k);
-                m0 += &v * v.adjoint();
+                m0 += v * v.adjoint();
             }
         }
         let m1 = CMatrix::identity(d, d) - &m0;
@@ -337,7 +337,7 @@ pub fn clean_povm(povm: Vec<CMatrix>) -> Vec<CMatrix> {
                 let v = eig.eigenvalues[k].max(0.0);
                 if v > 0.0 {
                     let col = eig.eigenvectors.column(k);
-                    out += &col * col.adjoint() * Complex64::new(v, 0.0);
+                    out += col * col.adjoint() * Complex64::new(v, 0.0);
                 }
             }
             out
@@ -349,7 +349,7 @@ pub fn clean_povm(povm: Vec<CMatrix>) -> Vec<CMatrix> {
     for k in 0..d {
         let v = eig.eigenvalues[k].max(1e-300);
         let col = eig.eigenvectors.column(k);
-        inv_sqrt += &col * col.adjoint() * Complex64::new(1.0 / v.sqrt(), 0.0);
+        inv_sqrt += col * col.adjoint() * Complex64::new(1.0 / v.sqrt(), 0.0);
     }
     clipped.iter().map(|m| &inv_sqrt * m * &inv_sqrt).collect()
 }
@@ -412,7 +412,7 @@ pub fn seesaw(
             opts.dims.len()
         )));
     }
-    if opts.dims.iter().any(|&d| d == 0) || opts.restarts == 0 {
+    if opts.dims.contains(&0) || opts.restarts == 0 {
         return Err(Error::Usage(
             "dimensions and restarts must be at least 1".into(),
         ));
