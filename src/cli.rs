@@ -14,6 +14,10 @@ use bellgap::classical::{self, Choice, ClassicalEstimate};
 use bellgap::game::spec::readable_yaml;
 use bellgap::game::{families, product, CompileOptions, Game, GameSpec};
 use bellgap::nosignal;
+use bellgap::plot;
+use bellgap::protocol::finite::{self, Observation};
+use bellgap::protocol::randomness::{self, Target};
+use bellgap::protocol::{key, review};
 use bellgap::quantum::analysis;
 use bellgap::quantum::npa::{self, Level};
 use bellgap::quantum::seesaw::{self, SeesawOptions};
@@ -94,6 +98,90 @@ pub enum Command {
         args: GameArgs,
         /// Strategy file (as written by `bellgap seesaw --save`).
         strategy: PathBuf,
+    },
+    /// What an observed score over n rounds certifies: confidence bounds, margin over the
+    /// classical value, p-value of classical devices, rounds needed.
+    Margin {
+        #[command(flatten)]
+        args: GameArgs,
+        /// Number of rounds played.
+        #[arg(long)]
+        rounds: u64,
+        /// Rounds won (a game).
+        #[arg(long, conflicts_with = "score_sum")]
+        wins: Option<u64>,
+        /// Sum of per-round scores (a Bell expression); needs --score-range.
+        #[arg(long, requires = "score_range", allow_hyphen_values = true)]
+        score_sum: Option<f64>,
+        /// Smallest and largest possible per-round score, e.g. -4,4.
+        #[arg(long, value_delimiter = ',', num_args = 2, allow_hyphen_values = true)]
+        score_range: Option<Vec<f64>>,
+        /// Error probability of the confidence bounds.
+        #[arg(long, default_value_t = 1e-6)]
+        alpha: f64,
+        /// p-value to reach when computing the rounds needed.
+        #[arg(long, default_value_t = 1e-9)]
+        target_p_value: f64,
+        /// Expected mean score for the rounds needed (default: the observed mean).
+        #[arg(long, allow_hyphen_values = true)]
+        expected: Option<f64>,
+    },
+    /// Certified randomness: the adversary's guessing probability and the min-entropy per round
+    /// at a given score (NPA with the score as a constraint).
+    Randomness {
+        #[command(flatten)]
+        args: GameArgs,
+        /// The score (in the game's own units).
+        #[arg(long, allow_hyphen_values = true, required_unless_present = "sweep")]
+        score: Option<f64>,
+        /// Sweep the score: LOW:HIGH:POINTS.
+        #[arg(long)]
+        sweep: Option<String>,
+        /// Whose answer is guessed (default: the first player).
+        #[arg(long)]
+        player: Option<String>,
+        /// To which question (label; default: the first).
+        #[arg(long, allow_hyphen_values = true)]
+        question: Option<i64>,
+        /// Also guess this second player's answer (the pair of answers).
+        #[arg(long = "with")]
+        with_player: Option<String>,
+        /// The second player's question (label; default: the first).
+        #[arg(long, allow_hyphen_values = true)]
+        with_question: Option<i64>,
+        /// NPA level of the relaxation.
+        #[arg(long, default_value = "2")]
+        level: String,
+        /// Write the min-entropy curve of a sweep as an SVG plot.
+        #[arg(long, value_name = "FILE")]
+        svg: Option<PathBuf>,
+    },
+    /// Key figures for CHSH-based device-independent QKD (analytic bound).
+    Key {
+        /// CHSH correlator value S (2 to 2√2).
+        #[arg(long)]
+        chsh: f64,
+        /// Quantum bit error rate.
+        #[arg(long)]
+        qber: f64,
+        /// Print exactly one JSON object on stdout.
+        #[arg(long)]
+        json: bool,
+    },
+    /// A self-contained review report of a protocol run: bounds, margins, randomness, key
+    /// figures and the assumptions behind each.
+    Review {
+        /// Protocol file (YAML, see README).
+        protocol: PathBuf,
+        /// Markdown instead of HTML.
+        #[arg(long)]
+        markdown: bool,
+        /// Write the report here instead of stdout.
+        #[arg(long, short, value_name = "FILE")]
+        output: Option<PathBuf>,
+        /// Print exactly one JSON object on stdout instead of the report.
+        #[arg(long)]
+        json: bool,
     },
     /// Re-check an NPA dual certificate without any solver and print the bound it proves.
     Verify {
@@ -216,7 +304,10 @@ impl Cli {
             | Command::Npa { args, .. }
             | Command::Seesaw { args, .. }
             | Command::Evaluate { args, .. }
-            | Command::Verify { args, .. } => args.json,
+            | Command::Verify { args, .. }
+            | Command::Margin { args, .. }
+            | Command::Randomness { args, .. } => args.json,
+            Command::Key { json, .. } | Command::Review { json, .. } => *json,
             Command::Local { json, .. } | Command::Family { json, .. } => *json,
         }
     }
@@ -409,6 +500,171 @@ pub fn run(cli: &Cli) -> Result<Output> {
             r.npa = Some(bound);
             Ok(game_output(&r))
         }
+        Command::Margin {
+            args,
+            rounds,
+            wins,
+            score_sum,
+            score_range,
+            alpha,
+            target_p_value,
+            expected,
+        } => {
+            let game = load(args)?;
+            let obs = match (wins, score_sum, score_range) {
+                (Some(w), _, _) => {
+                    if w > rounds {
+                        return Err(Error::Usage(format!("{w} wins in {rounds} rounds")));
+                    }
+                    Observation {
+                        rounds: *rounds,
+                        score_sum: *w as f64,
+                        low: 0.0,
+                        high: 1.0,
+                        binary: true,
+                    }
+                }
+                (None, Some(sum), Some(range)) => Observation {
+                    rounds: *rounds,
+                    score_sum: *sum,
+                    low: range[0],
+                    high: range[1],
+                    binary: false,
+                },
+                _ => {
+                    return Err(Error::Usage(
+                        "give --wins, or --score-sum with --score-range".into(),
+                    ))
+                }
+            };
+            let classical = classical_for(&game, args, Choice::Auto)?.value;
+            let m = finite::margin(&obs, classical, *alpha, *target_p_value, *expected)?;
+            Ok(Output {
+                text: report::margin_text(&game, &m),
+                json: report::margin_json(&game, &m),
+                warnings: game.warnings.clone(),
+            })
+        }
+        Command::Randomness {
+            args,
+            score,
+            sweep,
+            player,
+            question,
+            with_player,
+            with_question,
+            level,
+            svg,
+        } => {
+            let game = load(args)?;
+            let s = &game.scenario;
+            let pick = |name: Option<&String>,
+                        q: Option<i64>,
+                        default_player: usize|
+             -> Result<(usize, usize)> {
+                let p = match name {
+                    Some(n) => s
+                        .parties
+                        .iter()
+                        .position(|p| &p.name == n)
+                        .ok_or_else(|| Error::Usage(format!("there is no player `{n}`")))?,
+                    None => default_player,
+                };
+                let x = match q {
+                    Some(l) => s.parties[p]
+                        .question_labels
+                        .iter()
+                        .position(|&k| k == l)
+                        .ok_or_else(|| {
+                            Error::Usage(format!("{} has no question {l}", s.parties[p].name))
+                        })?,
+                    None => 0,
+                };
+                Ok((p, x))
+            };
+            let mut parts = vec![pick(player.as_ref(), *question, 0)?];
+            if with_player.is_some() {
+                parts.push(pick(with_player.as_ref(), *with_question, 1)?);
+            }
+            let target = Target { parts };
+            let level = Level::parse(level)?;
+            let scores: Vec<f64> = match (score, sweep) {
+                (_, Some(spec)) => parse_sweep(spec)?,
+                (Some(v), None) => vec![*v],
+                (None, None) => unreachable!("clap requires one"),
+            };
+            let results = scores
+                .iter()
+                .map(|&v| randomness::guessing_probability(s, &target, v, &level))
+                .collect::<Result<Vec<_>>>()?;
+            if let Some(file) = svg {
+                let chart = plot::line_chart(
+                    &format!("Certified min-entropy, {}", game.name),
+                    "score",
+                    "min-entropy per round (bits)",
+                    &[plot::Series {
+                        name: "min-entropy".into(),
+                        points: results.iter().map(|r| (r.score, r.min_entropy)).collect(),
+                    }],
+                );
+                std::fs::write(file, chart).map_err(|source| Error::Io {
+                    path: file.to_string_lossy().to_string(),
+                    source,
+                })?;
+            }
+            Ok(Output {
+                text: report::randomness_text(&game, &target, &results),
+                json: report::randomness_json(&game, &target, &results),
+                warnings: game.warnings.clone(),
+            })
+        }
+        Command::Key {
+            chsh,
+            qber,
+            json: _,
+        } => {
+            if !(0.0..=0.5).contains(qber) {
+                return Err(Error::Usage(format!(
+                    "the QBER must lie in [0, 0.5], got {qber}"
+                )));
+            }
+            let k = key::key_rate(&key::ChshEntropyBound, *chsh, *qber);
+            let threshold = key::chsh_threshold_qber();
+            Ok(Output {
+                text: report::key_text(&k, threshold),
+                json: report::key_json(&k, threshold),
+                warnings: Vec::new(),
+            })
+        }
+        Command::Review {
+            protocol,
+            markdown,
+            output,
+            json,
+        } => {
+            let r = review::review(&protocol.to_string_lossy())?;
+            let doc = if *markdown {
+                r.to_markdown()
+            } else {
+                r.to_html()
+            };
+            let text = match output {
+                Some(file) => {
+                    std::fs::write(file, &doc).map_err(|source| Error::Io {
+                        path: file.to_string_lossy().to_string(),
+                        source,
+                    })?;
+                    format!("review written to {}\n", file.to_string_lossy())
+                }
+                None => doc,
+            };
+            let _ = json;
+            Ok(Output {
+                text,
+                json: r.to_json(),
+                warnings: r.game.warnings.clone(),
+            })
+        }
         Command::Verify { args, certificate } => {
             let game = load(args)?;
             let path = certificate.to_string_lossy().to_string();
@@ -469,6 +725,24 @@ pub fn run(cli: &Cli) -> Result<Output> {
             })
         }
     }
+}
+
+/// `LOW:HIGH:POINTS` → evenly spaced scores.
+fn parse_sweep(spec: &str) -> Result<Vec<f64>> {
+    let parts: Vec<&str> = spec.split(':').collect();
+    let bad = || Error::Usage(format!("--sweep expects LOW:HIGH:POINTS, got `{spec}`"));
+    if parts.len() != 3 {
+        return Err(bad());
+    }
+    let lo: f64 = parts[0].trim().parse().map_err(|_| bad())?;
+    let hi: f64 = parts[1].trim().parse().map_err(|_| bad())?;
+    let n: usize = parts[2].trim().parse().map_err(|_| bad())?;
+    if !(2..=1000).contains(&n) || hi <= lo {
+        return Err(bad());
+    }
+    Ok((0..n)
+        .map(|k| lo + (hi - lo) * k as f64 / (n - 1) as f64)
+        .collect())
 }
 
 /// Entanglement of the state and, when the classical value is known, robustness thresholds.

@@ -22,6 +22,8 @@ pub mod error;
 pub mod game;
 pub mod lp;
 pub mod nosignal;
+pub mod plot;
+pub mod protocol;
 pub mod quantum;
 pub mod report;
 pub mod scenario;

@@ -498,3 +498,170 @@ pub fn verification_text(game: &Game, certificate: &str, v: &Verification) -> St
     }
     out
 }
+
+/// `bellgap margin` report.
+pub fn margin_json(game: &Game, m: &crate::protocol::finite::Margin) -> Value {
+    let mut v =
+        json!({"command": "margin", "game": game.name, "caution": crate::protocol::CAUTION});
+    if let (Value::Object(o), Ok(Value::Object(extra))) = (&mut v, serde_json::to_value(m)) {
+        o.extend(extra);
+    }
+    v
+}
+
+pub fn margin_text(game: &Game, m: &crate::protocol::finite::Margin) -> String {
+    let mut rows = vec![
+        (
+            "game".to_string(),
+            format!("{} ({})", game.name, game.source),
+        ),
+        ("rounds".to_string(), m.rounds.to_string()),
+        ("observed mean".to_string(), num(m.observed_mean)),
+        (
+            format!("lower confidence (Hoeffding, α={:e})", m.alpha),
+            num(m.lower_confidence),
+        ),
+    ];
+    if let Some(e) = m.lower_confidence_exact {
+        rows.push((
+            format!("lower confidence (Clopper–Pearson, α={:e})", m.alpha),
+            num(e),
+        ));
+    }
+    rows.push(("classical value".into(), num(m.classical)));
+    rows.push(("margin".into(), num(m.margin)));
+    rows.push((
+        "p-value (classical devices)".into(),
+        format!("{}  ({})", p_value_text(m), m.p_value_bound),
+    ));
+    rows.push((
+        format!(
+            "rounds needed (p ≤ {:e} at mean {})",
+            m.target_p_value,
+            num(m.expected_mean)
+        ),
+        m.rounds_needed
+            .map(|n| n.to_string())
+            .unwrap_or_else(|| "never (no advantage)".into()),
+    ));
+    let mut out = table(&rows);
+    out += "\nassumptions:\n";
+    for a in &m.assumptions {
+        out += &format!("  - {a}\n");
+    }
+    out += &format!("\n{}\n", crate::protocol::CAUTION);
+    out
+}
+
+fn target_name(game: &Game, t: &crate::protocol::randomness::Target) -> String {
+    t.parts
+        .iter()
+        .map(|&(p, x)| {
+            format!(
+                "{} (question {})",
+                game.scenario.parties[p].name, game.scenario.parties[p].question_labels[x]
+            )
+        })
+        .collect::<Vec<_>>()
+        .join(" and ")
+}
+
+/// `bellgap randomness` report.
+pub fn randomness_json(
+    game: &Game,
+    t: &crate::protocol::randomness::Target,
+    rs: &[crate::protocol::randomness::Randomness],
+) -> Value {
+    let mut v = json!({
+        "command": "randomness",
+        "game": game.name,
+        "target": target_name(game, t),
+        "caution": crate::protocol::CAUTION,
+    });
+    if let [one] = rs {
+        v["score"] = json!(one.score);
+        v["guessing_probability"] = json!(one.guessing_probability);
+        v["min_entropy"] = json!(one.min_entropy);
+        v["level"] = json!(one.level);
+        v["status"] = json!(one.status);
+        v["seconds"] = json!(one.seconds);
+    } else {
+        v["sweep"] = json!(rs);
+    }
+    v
+}
+
+pub fn randomness_text(
+    game: &Game,
+    t: &crate::protocol::randomness::Target,
+    rs: &[crate::protocol::randomness::Randomness],
+) -> String {
+    let mut out = format!(
+        "game     {} ({})\nguessed  {}\n\n",
+        game.name,
+        game.source,
+        target_name(game, t)
+    );
+    out += &format!(
+        "{:>14}  {:>22}  {:>18}  {}\n",
+        "score", "guessing probability ≤", "min-entropy ≥ (bits)", "solver"
+    );
+    for r in rs {
+        out += &format!(
+            "{:>14}  {:>22}  {:>18}  {} (level {})\n",
+            num(r.score),
+            num(r.guessing_probability),
+            num(r.min_entropy),
+            r.status,
+            r.level
+        );
+    }
+    out += &format!(
+        "\nassumptions: quantum adversary, i.i.d. rounds, asymptotic per-round figure.\n{}\n",
+        crate::protocol::CAUTION
+    );
+    out
+}
+
+/// `bellgap key` report.
+pub fn key_json(k: &crate::protocol::key::KeyRate, threshold: f64) -> Value {
+    json!({
+        "command": "key",
+        "chsh": k.score,
+        "qber": k.qber,
+        "conditional_entropy": k.conditional_entropy,
+        "key_rate": k.key_rate,
+        "threshold_qber": threshold,
+        "bound": k.bound,
+        "caution": crate::protocol::CAUTION,
+    })
+}
+
+pub fn key_text(k: &crate::protocol::key::KeyRate, threshold: f64) -> String {
+    let mut out = table(&[
+        ("CHSH value".into(), num(k.score)),
+        ("QBER".into(), num(k.qber)),
+        (
+            "H(A|E) ≥".into(),
+            format!("{} bits", num(k.conditional_entropy)),
+        ),
+        (
+            "key rate ≥".into(),
+            format!("{} bits per round", num(k.key_rate)),
+        ),
+        ("threshold QBER (depolarising)".into(), num(threshold)),
+        ("bound".into(), k.bound.to_string()),
+    ]);
+    out += "\nassumptions: collective attacks, i.i.d. rounds, asymptotic limit, one-way error correction at the Shannon limit.\n";
+    out += &format!("{}\n", crate::protocol::CAUTION);
+    out
+}
+
+/// A p-value, written as a power of ten when it underflows.
+pub fn p_value_text(m: &crate::protocol::finite::Margin) -> String {
+    if m.p_value > 1e-300 {
+        format!("{:.3e}", m.p_value)
+    } else {
+        format!("10^{:.1}", m.p_value_log10)
+    }
+}

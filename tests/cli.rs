@@ -400,3 +400,121 @@ fn bounds_reports_whether_the_quantum_value_is_settled() {
     let j = json_of(&bellgap(&["bounds", "games/i3322.yaml", "--json"]));
     assert_eq!(j["quantum_settled"], false);
 }
+
+#[test]
+fn margin_json_keys_and_values() {
+    let j = json_of(&bellgap(&[
+        "margin",
+        "games/chsh.yaml",
+        "--wins",
+        "800",
+        "--rounds",
+        "1000",
+        "--alpha",
+        "1e-3",
+        "--target-p-value",
+        "1e-6",
+        "--expected",
+        "0.85",
+        "--json",
+    ]));
+    for key in [
+        "p_value",
+        "lower_confidence",
+        "margin",
+        "rounds_needed",
+        "caution",
+        "assumptions",
+    ] {
+        assert!(j.get(key).is_some(), "missing {key}");
+    }
+    // Hoeffding 1963: e^-5 and 691 rounds (hand-computed in protocol_values.rs).
+    assert!((j["p_value"].as_f64().unwrap() - (-5f64).exp()).abs() < 1e-15);
+    assert_eq!(j["rounds_needed"], 691);
+    assert!(
+        bellgap(&[
+            "margin",
+            "games/chsh.yaml",
+            "--wins",
+            "2000",
+            "--rounds",
+            "1000"
+        ])
+        .status
+        .code()
+            == Some(2)
+    );
+}
+
+#[test]
+fn randomness_json_keys_and_the_chsh_curve() {
+    let j = json_of(&bellgap(&[
+        "randomness",
+        "games/chsh-expression.yaml",
+        "--score",
+        "2.5",
+        "--json",
+    ]));
+    // Pironio et al. 2010: 1/2 + 1/2·√(2 − I²/4) = 0.8307189 at I = 2.5.
+    let p = j["guessing_probability"].as_f64().unwrap();
+    assert!((0.8307189 - 1e-6..0.8307189 + 1e-5).contains(&p), "{p}");
+    assert!((j["min_entropy"].as_f64().unwrap() + p.log2()).abs() < 1e-12);
+    let dir = std::env::temp_dir().join(format!("bellgap-cli-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let svg = dir.join("h.svg");
+    let j = json_of(&bellgap(&[
+        "randomness",
+        "games/chsh-expression.yaml",
+        "--sweep",
+        "2.2:2.8:3",
+        "--svg",
+        &svg.to_string_lossy(),
+        "--json",
+    ]));
+    assert_eq!(j["sweep"].as_array().unwrap().len(), 3);
+    assert!(std::fs::read_to_string(&svg).unwrap().starts_with("<svg"));
+}
+
+#[test]
+fn key_and_review_reports() {
+    let j = json_of(&bellgap(&["key", "--chsh", "2.5", "--qber", "0", "--json"]));
+    // Pironio et al. 2009: H(A|E) ≥ 0.456436 at S = 2.5; threshold QBER 0.071492.
+    assert!((j["conditional_entropy"].as_f64().unwrap() - 0.456436).abs() < 1e-6);
+    assert!((j["threshold_qber"].as_f64().unwrap() - 0.071492).abs() < 1e-6);
+    let dir = std::env::temp_dir().join(format!("bellgap-cli-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let html = dir.join("review.html");
+    let out = bellgap(&[
+        "review",
+        "examples/data/beacon-protocol.yaml",
+        "--output",
+        &html.to_string_lossy(),
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let doc = std::fs::read_to_string(&html).unwrap();
+    for needle in [
+        "<svg",
+        "not a security proof",
+        "Clopper",
+        "min-entropy",
+        "Azuma",
+    ] {
+        assert!(doc.contains(needle), "report lacks {needle}");
+    }
+    let j = json_of(&bellgap(&[
+        "review",
+        "examples/data/beacon-protocol.yaml",
+        "--json",
+    ]));
+    assert!(j["margin"]["margin"].as_f64().unwrap() > 0.08);
+    assert!(
+        j["randomness"]["at_lower_confidence"]["min_entropy"]
+            .as_f64()
+            .unwrap()
+            > 0.5
+    );
+}

@@ -1,0 +1,178 @@
+//! Minimal SVG line charts (no dependency): min-entropy against score, bound against level,
+//! value against visibility or efficiency. Text stays the default output; plots are written on
+//! request or embedded in review reports.
+
+use std::fmt::Write;
+
+pub struct Series {
+    pub name: String,
+    pub points: Vec<(f64, f64)>,
+}
+
+const COLOURS: [&str; 4] = ["#1f5fa8", "#c0392b", "#27864a", "#8e44ad"];
+
+fn ticks(lo: f64, hi: f64) -> Vec<f64> {
+    let span = (hi - lo).max(1e-12);
+    let raw = span / 5.0;
+    let mag = 10f64.powf(raw.log10().floor());
+    let step = [1.0, 2.0, 5.0, 10.0]
+        .iter()
+        .map(|m| m * mag)
+        .find(|s| span / s <= 6.0)
+        .unwrap_or(10.0 * mag);
+    let mut t = (lo / step).ceil() * step;
+    let mut out = Vec::new();
+    while t <= hi + 1e-9 * span {
+        out.push(t);
+        t += step;
+    }
+    out
+}
+
+/// A chart of one or more series, 640×400 pixels.
+pub fn line_chart(title: &str, x_label: &str, y_label: &str, series: &[Series]) -> String {
+    let (w, h, left, right, top, bottom) = (640.0, 400.0, 70.0, 20.0, 40.0, 50.0);
+    let all = series.iter().flat_map(|s| s.points.iter());
+    let (mut x0, mut x1, mut y0, mut y1) = (
+        f64::INFINITY,
+        f64::NEG_INFINITY,
+        f64::INFINITY,
+        f64::NEG_INFINITY,
+    );
+    for &(x, y) in all {
+        x0 = x0.min(x);
+        x1 = x1.max(x);
+        y0 = y0.min(y);
+        y1 = y1.max(y);
+    }
+    if !x0.is_finite() {
+        (x0, x1, y0, y1) = (0.0, 1.0, 0.0, 1.0);
+    }
+    if x1 - x0 < 1e-12 {
+        x1 = x0 + 1.0;
+    }
+    if y1 - y0 < 1e-12 {
+        y1 = y0 + 1.0;
+    }
+    let pad = 0.05 * (y1 - y0);
+    let (y0, y1) = (y0 - pad, y1 + pad);
+    let px = |x: f64| left + (x - x0) / (x1 - x0) * (w - left - right);
+    let py = |y: f64| h - bottom - (y - y0) / (y1 - y0) * (h - top - bottom);
+    let mut svg = String::new();
+    let _ = write!(
+        svg,
+        r#"<svg xmlns="http://www.w3.org/2000/svg" width="{w}" height="{h}" viewBox="0 0 {w} {h}" font-family="sans-serif" font-size="12">"#
+    );
+    let _ = write!(svg, r#"<rect width="{w}" height="{h}" fill="white"/>"#);
+    let _ = write!(
+        svg,
+        r#"<text x="{}" y="22" text-anchor="middle" font-size="15">{}</text>"#,
+        w / 2.0,
+        escape(title)
+    );
+    for t in ticks(x0, x1) {
+        let _ = write!(
+            svg,
+            r##"<line x1="{0:.1}" y1="{1}" x2="{0:.1}" y2="{2}" stroke="#ddd"/><text x="{0:.1}" y="{3}" text-anchor="middle">{4}</text>"##,
+            px(t),
+            top,
+            h - bottom,
+            h - bottom + 16.0,
+            short(t)
+        );
+    }
+    for t in ticks(y0, y1) {
+        let _ = write!(
+            svg,
+            r##"<line x1="{0}" y1="{1:.1}" x2="{2}" y2="{1:.1}" stroke="#ddd"/><text x="{3}" y="{4:.1}" text-anchor="end">{5}</text>"##,
+            left,
+            py(t),
+            w - right,
+            left - 6.0,
+            py(t) + 4.0,
+            short(t)
+        );
+    }
+    let _ = write!(
+        svg,
+        r##"<rect x="{left}" y="{top}" width="{}" height="{}" fill="none" stroke="#333"/>"##,
+        w - left - right,
+        h - top - bottom
+    );
+    let _ = write!(
+        svg,
+        r#"<text x="{}" y="{}" text-anchor="middle">{}</text>"#,
+        (left + w - right) / 2.0,
+        h - 12.0,
+        escape(x_label)
+    );
+    let _ = write!(
+        svg,
+        r#"<text transform="translate(16,{}) rotate(-90)" text-anchor="middle">{}</text>"#,
+        (top + h - bottom) / 2.0,
+        escape(y_label)
+    );
+    for (k, s) in series.iter().enumerate() {
+        let colour = COLOURS[k % COLOURS.len()];
+        let pts: Vec<String> = s
+            .points
+            .iter()
+            .map(|&(x, y)| format!("{:.2},{:.2}", px(x), py(y)))
+            .collect();
+        let _ = write!(
+            svg,
+            r#"<polyline fill="none" stroke="{colour}" stroke-width="2" points="{}"/>"#,
+            pts.join(" ")
+        );
+        for &(x, y) in &s.points {
+            let _ = write!(
+                svg,
+                r#"<circle cx="{:.2}" cy="{:.2}" r="2.5" fill="{colour}"/>"#,
+                px(x),
+                py(y)
+            );
+        }
+        if series.len() > 1 {
+            let ly = top + 16.0 + 16.0 * k as f64;
+            let _ = write!(
+                svg,
+                r#"<text x="{}" y="{ly}" fill="{colour}">{}</text>"#,
+                left + 10.0,
+                escape(&s.name)
+            );
+        }
+    }
+    svg.push_str("</svg>\n");
+    svg
+}
+
+fn short(v: f64) -> String {
+    let s = format!("{v:.4}");
+    s.trim_end_matches('0').trim_end_matches('.').to_string()
+}
+
+fn escape(s: &str) -> String {
+    s.replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;")
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn chart_contains_every_point() {
+        let svg = line_chart(
+            "t",
+            "x",
+            "y",
+            &[Series {
+                name: "a".into(),
+                points: vec![(0.0, 1.0), (1.0, 0.5), (2.0, 0.25)],
+            }],
+        );
+        assert!(svg.starts_with("<svg") && svg.trim_end().ends_with("</svg>"));
+        assert_eq!(svg.matches("<circle").count(), 3);
+    }
+}

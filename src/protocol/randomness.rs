@@ -1,0 +1,195 @@
+//! Certified randomness: the largest probability that an adversary holding quantum side
+//! information guesses one player's answer (or a pair of players' answers) to a chosen
+//! question, over every quantum behaviour with a given score.
+//!
+//! The adversary's strategy splits the behaviour into sub-behaviours p_e, one per guess e, each
+//! unnormalised and quantum; the guessing probability is `Σ_e p_e(answer = e)`. Relaxing each
+//! p_e to the NPA level gives a semidefinite programme with one moment matrix per guess, a
+//! shared normalisation `Σ_e λ_e = 1` and the score constraint `Σ_e value(p_e) = S`. Its verified
+//! bound (the dual certificate, as for NPA) bounds the guessing probability from above, so
+//! `−log₂` of it bounds the min-entropy per round from below.
+
+use std::collections::BTreeMap;
+
+use serde::Serialize;
+
+use crate::error::{Error, Result};
+use crate::quantum::npa::{relaxation, Entry, Level};
+use crate::quantum::words::{moment_key, Projector, Word};
+use crate::scenario::Scenario;
+use crate::sdp::{AffineEntry, MatrixBlock, SdpProblem};
+
+/// Whose answers the adversary guesses: one or two (player, question index) pairs.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct Target {
+    pub parts: Vec<(usize, usize)>,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct Randomness {
+    pub score: f64,
+    /// Verified upper bound on the guessing probability.
+    pub guessing_probability: f64,
+    /// Lower bound on the min-entropy per round, −log₂ of the above, in bits.
+    pub min_entropy: f64,
+    /// The solver's value (without the verification margin).
+    pub solver_value: f64,
+    pub level: String,
+    pub status: String,
+    pub seconds: f64,
+}
+
+/// `Π_i f_i` for the event "player i answers a_i to question x_i" in Collins–Gisin form: a
+/// combination of words (the empty word is the identity).
+fn event_terms(s: &Scenario, parts: &[(usize, usize, usize)]) -> Vec<(Word, f64)> {
+    let mut terms: Vec<(Word, f64)> = vec![(Vec::new(), 1.0)];
+    for &(player, question, answer) in parts {
+        let last = s.parties[player].answers() - 1;
+        let op = |a: usize| Projector {
+            player: player as u16,
+            setting: question as u32,
+            outcome: a as u32,
+        };
+        let factor: Vec<(Option<Projector>, f64)> = if answer < last {
+            vec![(Some(op(answer)), 1.0)]
+        } else {
+            std::iter::once((None, 1.0))
+                .chain((0..last).map(|a| (Some(op(a)), -1.0)))
+                .collect()
+        };
+        let mut next = Vec::new();
+        for (w, c) in &terms {
+            for (p, f) in &factor {
+                let mut w2 = w.clone();
+                w2.extend(p.iter().copied());
+                w2.sort_by_key(|p| p.player);
+                next.push((w2, c * f));
+            }
+        }
+        terms = next;
+    }
+    terms
+}
+
+/// The guessing probability at one score.
+pub fn guessing_probability(
+    s: &Scenario,
+    target: &Target,
+    score: f64,
+    level: &Level,
+) -> Result<Randomness> {
+    let start = std::time::Instant::now();
+    if target.parts.is_empty() || target.parts.len() > 2 {
+        return Err(Error::Usage(
+            "guess the answers of one or two players".into(),
+        ));
+    }
+    if target.parts.len() == 2 && target.parts[0].0 == target.parts[1].0 {
+        return Err(Error::Usage(
+            "the two guessed answers must belong to different players".into(),
+        ));
+    }
+    let r = relaxation(s, level)?;
+    let m = r.matrix.moments.len();
+    let index: BTreeMap<&Word, usize> = r
+        .matrix
+        .moments
+        .iter()
+        .enumerate()
+        .map(|(i, w)| (w, i))
+        .collect();
+    // Guesses: every combination of the targets' answers.
+    let radices: Vec<usize> = target
+        .parts
+        .iter()
+        .map(|&(p, _)| s.parties[p].answers())
+        .collect();
+    let guesses: usize = radices.iter().product();
+    let per = m + 1; // λ_e, then the moments
+    let var = |e: usize, k: usize| e * per + 1 + k;
+    let lambda = |e: usize| e * per;
+    let mut objective = vec![0.0; guesses * per];
+    let mut digits = vec![0; radices.len()];
+    for e in 0..guesses {
+        crate::scenario::digits(e, &radices, &mut digits);
+        let parts: Vec<(usize, usize, usize)> = target
+            .parts
+            .iter()
+            .zip(&digits)
+            .map(|(&(p, x), &a)| (p, x, a))
+            .collect();
+        for (w, c) in event_terms(s, &parts) {
+            if w.is_empty() {
+                objective[lambda(e)] += c;
+            } else {
+                let Some(&k) = index.get(&moment_key(w)) else {
+                    return Err(Error::Usage(format!(
+                        "level {} does not contain the moments of the guessed answers; use a higher level",
+                        level.name()
+                    )));
+                };
+                objective[var(e, k)] += c;
+            }
+        }
+    }
+    let normalisation = ((0..guesses).map(|e| (lambda(e), 1.0)).collect(), 1.0);
+    let mut value_terms = Vec::new();
+    for e in 0..guesses {
+        value_terms.push((lambda(e), r.problem.objective_constant));
+        for (k, &c) in r.problem.objective.iter().enumerate() {
+            if c != 0.0 {
+                value_terms.push((var(e, k), c));
+            }
+        }
+    }
+    let size = r.matrix.size();
+    let blocks = (0..guesses)
+        .map(|e| MatrixBlock {
+            size,
+            upper: r
+                .matrix
+                .entries
+                .iter()
+                .map(|entry| match entry {
+                    Entry::Zero => AffineEntry::default(),
+                    Entry::Identity => AffineEntry {
+                        constant: 0.0,
+                        terms: vec![(lambda(e), 1.0)],
+                    },
+                    Entry::Moment(k) => AffineEntry {
+                        constant: 0.0,
+                        terms: vec![(var(e, *k), 1.0)],
+                    },
+                })
+                .collect(),
+            // Each sub-behaviour is λ_e times a normalised one, λ_e ≤ 1.
+            trace_bound: size as f64,
+        })
+        .collect();
+    let problem = SdpProblem {
+        variables: guesses * per,
+        objective,
+        objective_constant: 0.0,
+        equalities: vec![normalisation, (value_terms, score)],
+        inequalities: Vec::new(),
+        blocks,
+        variable_bound: 1.0,
+    };
+    let sol = problem.solve("guessing probability SDP").map_err(|e| match e {
+        Error::Solver { message, .. } if message.contains("Infeasible") => Error::Usage(format!(
+            "no behaviour in the NPA level-{} set reaches the score {score}: it is above the quantum bound",
+            level.name()
+        )),
+        other => other,
+    })?;
+    let p = sol.certified.min(1.0);
+    Ok(Randomness {
+        score,
+        guessing_probability: p,
+        min_entropy: -p.log2(),
+        solver_value: sol.primal,
+        level: level.name(),
+        status: sol.status,
+        seconds: start.elapsed().as_secs_f64(),
+    })
+}
