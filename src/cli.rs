@@ -64,12 +64,16 @@ pub enum Command {
         #[command(flatten)]
         args: GameArgs,
         /// `1`, `2`, ... (all words up to that length), `1+joint` (level 1 plus products of one
-        /// operator per player), or patterns of player letters such as "1 A B AB AA".
+        /// operator per player), or patterns of player letters such as "1 A B AB AA". Several
+        /// levels separated by `;` are compared (e.g. "1;1+joint;2").
         #[arg(long, default_value = "1+joint")]
         level: String,
-        /// Write the dual certificate (JSON) here; `bellgap verify` re-checks it.
+        /// Write the dual certificate (JSON) of the last level here; `bellgap verify` re-checks it.
         #[arg(long, value_name = "FILE")]
         certificate: Option<PathBuf>,
+        /// Plot the verified bound against the level (SVG), when comparing levels.
+        #[arg(long, value_name = "FILE")]
+        svg: Option<PathBuf>,
     },
     /// Explicit quantum strategy by see-saw: a lower bound on the quantum value.
     Seesaw {
@@ -90,6 +94,9 @@ pub enum Command {
         /// Write the best strategy (state and measurements) to this file.
         #[arg(long, value_name = "FILE")]
         save: Option<PathBuf>,
+        /// Plot the value against visibility and detection efficiency (SVG).
+        #[arg(long, value_name = "FILE")]
+        svg: Option<PathBuf>,
     },
     /// Recompute a strategy file's value by the Born rule and check it; with entanglement,
     /// noise and detection-efficiency thresholds.
@@ -98,6 +105,9 @@ pub enum Command {
         args: GameArgs,
         /// Strategy file (as written by `bellgap seesaw --save`).
         strategy: PathBuf,
+        /// Plot the value against visibility and detection efficiency (SVG).
+        #[arg(long, value_name = "FILE")]
+        svg: Option<PathBuf>,
     },
     /// What an observed score over n rounds certifies: confidence bounds, margin over the
     /// classical value, p-value of classical devices, rounds needed.
@@ -431,6 +441,7 @@ pub fn run(cli: &Cli) -> Result<Output> {
             restarts,
             seed,
             save,
+            svg,
         } => {
             let game = load(args)?;
             let dims = match (dim, dims) {
@@ -463,17 +474,27 @@ pub fn run(cli: &Cli) -> Result<Output> {
             let classical = classical::classical_value(&game.scenario, Choice::Auto, false, None)
                 .ok()
                 .map(|c| c.value);
+            if let Some(file) = svg {
+                write_file(file, &robustness_chart(&game, &found.strategy, classical))?;
+            }
             let mut r = Report::new("seesaw", &game);
             r.strategy_analysis = Some(analyse(&game, &found.strategy, classical));
             r.seesaw = Some(found);
             Ok(game_output(&r))
         }
-        Command::Evaluate { args, strategy } => {
+        Command::Evaluate {
+            args,
+            strategy,
+            svg,
+        } => {
             let game = load(args)?;
             let st = QuantumStrategy::from_file(&strategy.to_string_lossy(), &game.scenario)?;
             let classical = classical::classical_value(&game.scenario, Choice::Auto, false, None)
                 .ok()
                 .map(|c| c.value);
+            if let Some(file) = svg {
+                write_file(file, &robustness_chart(&game, &st, classical))?;
+            }
             let mut r = Report::new("evaluate", &game);
             r.evaluated = Some(st.value(&game.scenario));
             r.strategy_analysis = Some(analyse(&game, &st, classical));
@@ -483,10 +504,46 @@ pub fn run(cli: &Cli) -> Result<Output> {
             args,
             level,
             certificate,
+            svg,
         } => {
             let game = load(args)?;
             let mut r = Report::new("npa", &game);
-            let bound = npa::npa_bound(&game.scenario, &Level::parse(level)?, args.force)?;
+            let levels = level
+                .split(';')
+                .filter(|l| !l.trim().is_empty())
+                .map(Level::parse)
+                .collect::<Result<Vec<_>>>()?;
+            let mut bounds = levels
+                .iter()
+                .map(|l| npa::npa_bound(&game.scenario, l, args.force))
+                .collect::<Result<Vec<_>>>()?;
+            if let Some(file) = svg {
+                let chart = plot::line_chart(
+                    &format!("NPA bound by level, {}", game.name),
+                    &format!(
+                        "level ({})",
+                        bounds
+                            .iter()
+                            .map(|b| b.level.clone())
+                            .collect::<Vec<_>>()
+                            .join(", ")
+                    ),
+                    "verified upper bound",
+                    &[plot::Series {
+                        name: "verified".into(),
+                        points: bounds
+                            .iter()
+                            .enumerate()
+                            .map(|(k, b)| ((k + 1) as f64, b.verified_upper))
+                            .collect(),
+                    }],
+                );
+                write_file(file, &chart)?;
+            }
+            let bound = bounds
+                .pop()
+                .ok_or_else(|| Error::Usage("no NPA level given".into()))?;
+            r.npa_levels = bounds;
             if let Some(file) = certificate {
                 let cert = npa::Certificate::new(&game.name, &bound)
                     .ok_or_else(|| Error::solver("NPA", "no dual solution to save"))?;
@@ -725,6 +782,45 @@ pub fn run(cli: &Cli) -> Result<Output> {
             })
         }
     }
+}
+
+fn write_file(file: &std::path::Path, text: &str) -> Result<()> {
+    std::fs::write(file, text).map_err(|source| Error::Io {
+        path: file.to_string_lossy().to_string(),
+        source,
+    })
+}
+
+/// Value of a strategy against visibility and detection efficiency, with the classical value.
+fn robustness_chart(game: &Game, st: &QuantumStrategy, classical: Option<f64>) -> String {
+    let s = &game.scenario;
+    let (value, noise) = (st.value(s), st.noise_value(s));
+    let grid: Vec<f64> = (0..=50).map(|k| k as f64 / 50.0).collect();
+    let mut series = vec![
+        plot::Series {
+            name: "white-noise visibility".into(),
+            points: grid
+                .iter()
+                .map(|&v| (v, v * value + (1.0 - v) * noise))
+                .collect(),
+        },
+        plot::Series {
+            name: "detection efficiency".into(),
+            points: grid.iter().map(|&e| (e, st.lossy(e).value(s))).collect(),
+        },
+    ];
+    if let Some(c) = classical {
+        series.push(plot::Series {
+            name: "classical value".into(),
+            points: vec![(0.0, c), (1.0, c)],
+        });
+    }
+    plot::line_chart(
+        &format!("Strategy value, {}", game.name),
+        "visibility / detection efficiency",
+        "value",
+        &series,
+    )
 }
 
 /// `LOW:HIGH:POINTS` → evenly spaced scores.

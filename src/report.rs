@@ -62,6 +62,8 @@ pub struct Report<'a> {
     pub classical: Option<ClassicalValue>,
     pub no_signalling: Option<NoSignallingValue>,
     pub npa: Option<NpaBound>,
+    /// Lower levels computed for comparison (`npa --level "1;2"`), in the order given.
+    pub npa_levels: Vec<NpaBound>,
     pub seesaw: Option<SeesawResult>,
     /// The Born-rule value of a given strategy (`evaluate`).
     pub evaluated: Option<f64>,
@@ -78,6 +80,7 @@ impl<'a> Report<'a> {
             classical: None,
             no_signalling: None,
             npa: None,
+            npa_levels: Vec::new(),
             seesaw: None,
             evaluated: None,
             strategy_analysis: None,
@@ -144,6 +147,11 @@ impl<'a> Report<'a> {
             m.insert("iterations".into(), json!(b.iterations));
             m.insert("seconds".into(), json!(b.seconds));
             m.insert("npa_primal".into(), json!(b.primal));
+            if !self.npa_levels.is_empty() {
+                let all: Vec<&NpaBound> =
+                    self.npa_levels.iter().chain(std::iter::once(b)).collect();
+                m.insert("levels".into(), json!(all));
+            }
         }
         if let Some(sw) = &self.seesaw {
             m.insert("quantum_lower".into(), json!(sw.quantum_lower));
@@ -262,6 +270,18 @@ impl<'a> Report<'a> {
                 v += &format!("  ({}, {}; certified ≤ {})", ns.method, ns.status, num(up));
             }
             rows.push(("no-signalling".into(), v));
+        }
+        for b in &self.npa_levels {
+            rows.push((
+                format!("quantum ≤ (NPA {})", b.level),
+                format!(
+                    "{}  (verified; {}×{} matrix, {:.2} s)",
+                    num(b.verified_upper),
+                    b.matrix_size,
+                    b.matrix_size,
+                    b.seconds
+                ),
+            ));
         }
         if let Some(b) = &self.npa {
             rows.push((

@@ -518,3 +518,38 @@ fn key_and_review_reports() {
             > 0.5
     );
 }
+
+#[test]
+fn npa_compares_levels_and_plots() {
+    let dir = std::env::temp_dir().join(format!("bellgap-cli-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let svg = dir.join("levels.svg");
+    let j = json_of(&bellgap(&[
+        "npa",
+        "games/i3322.yaml",
+        "--level",
+        "1;1+joint;2",
+        "--svg",
+        &svg.to_string_lossy(),
+        "--json",
+    ]));
+    let levels = j["levels"].as_array().unwrap();
+    assert_eq!(levels.len(), 3);
+    // Navascués–Pironio–Acín 2008: 0.375, 0.251471, 0.2509397, decreasing with the level.
+    let v: Vec<f64> = levels
+        .iter()
+        .map(|l| l["verified_upper"].as_f64().unwrap())
+        .collect();
+    assert!(
+        v[0] > v[1] && v[1] > v[2] && (v[2] - 0.2509397).abs() < 2e-6,
+        "{v:?}"
+    );
+    assert_eq!(j["level"], "2");
+    assert!(
+        std::fs::read_to_string(&svg)
+            .unwrap()
+            .matches("<circle")
+            .count()
+            == 3
+    );
+}
