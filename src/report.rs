@@ -600,6 +600,7 @@ pub fn randomness_json(
     });
     if let [one] = rs {
         v["score"] = json!(one.score);
+        v["score_used"] = json!(one.score_used);
         v["guessing_probability"] = json!(one.guessing_probability);
         v["min_entropy"] = json!(one.min_entropy);
         v["level"] = json!(one.level);
@@ -627,8 +628,13 @@ pub fn randomness_text(
         "score", "guessing probability ≤", "min-entropy ≥ (bits)", "solver"
     );
     for r in rs {
+        let used = if r.score_used < r.score {
+            format!(", solved at score {}", num(r.score_used))
+        } else {
+            String::new()
+        };
         out += &format!(
-            "{:>14}  {:>22}  {:>18}  {} (level {})\n",
+            "{:>14}  {:>22}  {:>18}  {} (level {}{used})\n",
             num(r.score),
             num(r.guessing_probability),
             num(r.min_entropy),

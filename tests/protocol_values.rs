@@ -48,12 +48,17 @@ fn chsh_guessing_probability_matches_the_analytic_curve() {
             && r.guessing_probability < pironio(2.82) + 1e-4
     );
     assert!(r.min_entropy > 0.85);
-    // At the very edge the SDP is ill-conditioned: the tool either reports a valid upper bound
-    // or says the solver failed, never a number below the truth.
-    match guessing_probability(&s, &target, 2.828, &Level::Length(2)) {
-        Ok(r) => assert!(r.guessing_probability >= pironio(2.828) - 1e-6),
-        Err(e) => assert!(e.to_string().contains("solver"), "{e}"),
-    }
+    // At Tsirelson's bound the answer is one random bit (P_guess = 1/2). There the SDP's feasible
+    // set is nearly a point: the tool may solve at a slightly lower score (reported), which
+    // keeps the bound valid and a little looser.
+    let r = guessing_probability(&s, &target, 2.8284, &Level::Length(2)).unwrap();
+    assert!(r.score_used <= 2.8284 && r.score_used > 2.828);
+    assert!(
+        r.guessing_probability >= pironio(2.8284) - 1e-6 && r.guessing_probability < 0.51,
+        "{}",
+        r.guessing_probability
+    );
+    assert!(r.min_entropy > 0.97);
     // Above the quantum bound there is no behaviour: a clear error, not a number.
     assert!(guessing_probability(&s, &target, 2.9, &Level::Length(2)).is_err());
 }

@@ -5,7 +5,8 @@
 //! The adversary's strategy splits the behaviour into sub-behaviours p_e, one per guess e, each
 //! unnormalised and quantum; the guessing probability is `Σ_e p_e(answer = e)`. Relaxing each
 //! p_e to the NPA level gives a semidefinite programme with one moment matrix per guess, a
-//! shared normalisation `Σ_e λ_e = 1` and the score constraint `Σ_e value(p_e) = S`. Its verified
+//! shared normalisation `Σ_e λ_e = 1` and the score constraint `Σ_e value(p_e) ≥ S` (any
+//! behaviour scoring at least the certified score is open to the adversary). Its verified
 //! bound (the dual certificate, as for NPA) bounds the guessing probability from above, so
 //! `−log₂` of it bounds the min-entropy per round from below.
 
@@ -28,6 +29,10 @@ pub struct Target {
 #[derive(Debug, Clone, Serialize)]
 pub struct Randomness {
     pub score: f64,
+    /// The score the SDP was solved at: `score`, or slightly below it when the solver failed on
+    /// the nearly flat feasible set at the edge of the quantum set. A lower score only enlarges
+    /// the adversary's options, so the bound stays valid (and gets a little looser).
+    pub score_used: f64,
     /// Verified upper bound on the guessing probability.
     pub guessing_probability: f64,
     /// Lower bound on the min-entropy per round, −log₂ of the above, in bits.
@@ -71,11 +76,42 @@ fn event_terms(s: &Scenario, parts: &[(usize, usize, usize)]) -> Vec<(Word, f64)
     terms
 }
 
-/// The guessing probability at one score.
+/// The guessing probability at one score. Near the quantum maximum the feasible set becomes
+/// nearly a point and the interior-point method can fail; then the score is lowered in small
+/// steps (a weaker constraint, so still a valid upper bound) and the score used is reported.
 pub fn guessing_probability(
     s: &Scenario,
     target: &Target,
     score: f64,
+    level: &Level,
+) -> Result<Randomness> {
+    // A score above every quantum behaviour's leaves nothing to certify: say so rather than
+    // bound the guessing probability over an empty set.
+    let npa = crate::quantum::npa::npa_bound(s, level, false)?;
+    if score > npa.verified_upper {
+        return Err(Error::Usage(format!(
+            "the score {score} is above the quantum bound {} (NPA level {}): no quantum behaviour reaches it",
+            npa.verified_upper,
+            level.name()
+        )));
+    }
+    let (lo, hi) = s.value_range();
+    let mut last = None;
+    for step in [0.0, 1e-6, 1e-5, 1e-4, 1e-3] {
+        match guessing_probability_at(s, target, score, score - step * (hi - lo), level) {
+            Ok(r) => return Ok(r),
+            Err(e @ Error::Solver { .. }) => last = Some(e),
+            Err(e) => return Err(e),
+        }
+    }
+    Err(last.expect("at least one attempt"))
+}
+
+fn guessing_probability_at(
+    s: &Scenario,
+    target: &Target,
+    score: f64,
+    score_used: f64,
     level: &Level,
 ) -> Result<Randomness> {
     let start = std::time::Instant::now();
@@ -133,12 +169,14 @@ pub fn guessing_probability(
         }
     }
     let normalisation = ((0..guesses).map(|e| (lambda(e), 1.0)).collect(), 1.0);
+    // Score at least S, written −Σ_e value(p_e) ≤ −S: an adversary may supply any behaviour
+    // that scores at least what was certified.
     let mut value_terms = Vec::new();
     for e in 0..guesses {
-        value_terms.push((lambda(e), r.problem.objective_constant));
+        value_terms.push((lambda(e), -r.problem.objective_constant));
         for (k, &c) in r.problem.objective.iter().enumerate() {
             if c != 0.0 {
-                value_terms.push((var(e, k), c));
+                value_terms.push((var(e, k), -c));
             }
         }
     }
@@ -170,8 +208,8 @@ pub fn guessing_probability(
         variables: guesses * per,
         objective,
         objective_constant: 0.0,
-        equalities: vec![normalisation, (value_terms, score)],
-        inequalities: Vec::new(),
+        equalities: vec![normalisation],
+        inequalities: vec![(value_terms, -score_used)],
         blocks,
         variable_bound: 1.0,
     };
@@ -185,6 +223,7 @@ pub fn guessing_probability(
     let p = sol.certified.min(1.0);
     Ok(Randomness {
         score,
+        score_used,
         guessing_probability: p,
         min_entropy: -p.log2(),
         solver_value: sol.primal,
