@@ -23,6 +23,7 @@ use bellgap::quantum::npa::{self, Level};
 use bellgap::quantum::seesaw::{self, SeesawOptions};
 use bellgap::quantum::strategy::QuantumStrategy;
 use bellgap::report::{self, Report};
+use bellgap::sdp::SdpSolver;
 use bellgap::{Error, Result};
 
 #[derive(Parser, Debug)]
@@ -58,6 +59,9 @@ pub enum Command {
         /// NPA level for the quantum upper bound (default: chosen from the size estimate).
         #[arg(long)]
         level: Option<String>,
+        /// SDP solver for the NPA bound.
+        #[arg(long, value_enum, default_value_t = SolverArg::Auto)]
+        solver: SolverArg,
     },
     /// Quantum upper bound from the NPA hierarchy, with a verified bound from the dual solution.
     Npa {
@@ -74,6 +78,10 @@ pub enum Command {
         /// Plot the verified bound against the level (SVG), when comparing levels.
         #[arg(long, value_name = "FILE")]
         svg: Option<PathBuf>,
+        /// SDP solver: the moment-matrix interior-point method (`ipm`), `clarabel`, or `auto`
+        /// (ipm, falling back to clarabel).
+        #[arg(long, value_enum, default_value_t = SolverArg::Auto)]
+        solver: SolverArg,
     },
     /// Explicit quantum strategy by see-saw: a lower bound on the quantum value.
     Seesaw {
@@ -243,6 +251,23 @@ pub struct GameArgs {
 }
 
 #[derive(ValueEnum, Debug, Clone, Copy)]
+pub enum SolverArg {
+    Auto,
+    Ipm,
+    Clarabel,
+}
+
+impl SolverArg {
+    fn resolve(self) -> SdpSolver {
+        match self {
+            SolverArg::Auto => SdpSolver::Auto,
+            SolverArg::Ipm => SdpSolver::MomentIpm,
+            SolverArg::Clarabel => SdpSolver::Clarabel,
+        }
+    }
+}
+
+#[derive(ValueEnum, Debug, Clone, Copy)]
 pub enum MethodArg {
     Auto,
     Search,
@@ -405,7 +430,11 @@ pub fn run(cli: &Cli) -> Result<Output> {
             r.no_signalling = Some(nosignal::no_signalling_value(&game.scenario, args.force)?);
             Ok(game_output(&r))
         }
-        Command::Bounds { args, level } => {
+        Command::Bounds {
+            args,
+            level,
+            solver,
+        } => {
             let game = load(args)?;
             let mut early = Vec::new();
             warn_long_search(&game.scenario, args.force, &mut early);
@@ -417,7 +446,12 @@ pub fn run(cli: &Cli) -> Result<Output> {
                 Some(l) => Level::parse(l)?,
                 None => npa::default_level(&game.scenario)?,
             };
-            r.npa = Some(npa::npa_bound(&game.scenario, &level, args.force)?);
+            r.npa = Some(npa::npa_bound_with(
+                &game.scenario,
+                &level,
+                args.force,
+                solver.resolve(),
+            )?);
             let opts = SeesawOptions {
                 dims: seesaw::default_dims(&game.scenario),
                 restarts: 8,
@@ -505,6 +539,7 @@ pub fn run(cli: &Cli) -> Result<Output> {
             level,
             certificate,
             svg,
+            solver,
         } => {
             let game = load(args)?;
             let mut r = Report::new("npa", &game);
@@ -515,7 +550,7 @@ pub fn run(cli: &Cli) -> Result<Output> {
                 .collect::<Result<Vec<_>>>()?;
             let mut bounds = levels
                 .iter()
-                .map(|l| npa::npa_bound(&game.scenario, l, args.force))
+                .map(|l| npa::npa_bound_with(&game.scenario, l, args.force, solver.resolve()))
                 .collect::<Result<Vec<_>>>()?;
             if let Some(file) = svg {
                 let chart = plot::line_chart(

@@ -20,6 +20,7 @@ pub mod classical;
 pub mod collins_gisin;
 pub mod error;
 pub mod game;
+pub mod ipm;
 pub mod lp;
 pub mod nosignal;
 pub mod plot;

@@ -147,6 +147,9 @@ impl<'a> Report<'a> {
             m.insert("iterations".into(), json!(b.iterations));
             m.insert("seconds".into(), json!(b.seconds));
             m.insert("npa_primal".into(), json!(b.primal));
+            m.insert("gap".into(), json!(b.gap));
+            m.insert("residual".into(), json!(b.residual));
+            m.insert("solver".into(), json!(b.solver));
             if !self.npa_levels.is_empty() {
                 let all: Vec<&NpaBound> =
                     self.npa_levels.iter().chain(std::iter::once(b)).collect();
@@ -287,13 +290,14 @@ impl<'a> Report<'a> {
             rows.push((
                 "quantum ≤ (NPA)".into(),
                 format!(
-                    "{}  (verified; raw {}, level {}, {}×{} matrix, {} moments, {}, {} iterations, {:.2} s)",
+                    "{}  (verified; raw {}, level {}, {}×{} matrix, {} moments, {} {}, {} iterations, {:.2} s)",
                     num(b.verified_upper),
                     num(b.quantum_upper),
                     b.level,
                     b.matrix_size,
                     b.matrix_size,
                     b.moments,
+                    b.solver,
                     b.status,
                     b.iterations,
                     b.seconds

@@ -24,6 +24,16 @@ use serde::Serialize;
 
 use crate::error::{Error, Result};
 
+/// Which SDP solver to use.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum SdpSolver {
+    /// The moment-matrix interior-point method, with clarabel as fallback.
+    #[default]
+    Auto,
+    Clarabel,
+    MomentIpm,
+}
+
 /// An entry of a matrix block: `constant + Σ coefficient · y[variable]`.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct AffineEntry {
@@ -78,6 +88,11 @@ pub struct SdpSolution {
     pub status: String,
     pub iterations: u32,
     pub seconds: f64,
+    /// Relative duality gap and largest relative residual at the returned point.
+    pub gap: f64,
+    pub residual: f64,
+    /// Which solver produced the point: `clarabel` or `moment-ipm`.
+    pub solver: String,
     #[serde(skip)]
     pub y: Vec<f64>,
     /// clarabel's dual vector, the certificate.
@@ -139,6 +154,18 @@ impl SdpProblem {
         }
     }
 
+    /// Solves with the chosen method ([`SdpSolver::Auto`]: the moment-matrix interior-point
+    /// method, falling back to clarabel if it fails).
+    pub fn solve_with(&self, solver: SdpSolver, stage: &str) -> Result<SdpSolution> {
+        match solver {
+            SdpSolver::Clarabel => self.solve(stage),
+            SdpSolver::MomentIpm => crate::ipm::solve(self, stage, Default::default()),
+            SdpSolver::Auto => {
+                crate::ipm::solve(self, stage, Default::default()).or_else(|_| self.solve(stage))
+            }
+        }
+    }
+
     /// Solves with clarabel. A run that ends in any state but solved or almost solved is an
     /// error: no number is reported as a bound unless it is one.
     pub fn solve(&self, stage: &str) -> Result<SdpSolution> {
@@ -195,6 +222,9 @@ impl SdpProblem {
             status: status.to_string(),
             iterations: solver.info.iterations,
             seconds: start.elapsed().as_secs_f64(),
+            gap: solver.info.gap_rel,
+            residual: solver.info.res_primal.max(solver.info.res_dual),
+            solver: "clarabel".into(),
             y,
             z,
         })

@@ -119,14 +119,32 @@ fn npa_lies_between_classical_and_no_signalling() {
     }
 }
 
-/// Slow with the current solver (about 3 minutes on the project machine): run with
-/// `cargo test --release -- --ignored`.
 #[test]
-#[ignore]
 fn i3322_level_3() {
     // ≈ 0.250876 (Navascués–Pironio–Acín 2008; recomputed), above the best known quantum value
     // 0.250875384514 (Pál–Vértesi 2010, PRA 82, 022116; digits from memory).
     let b = npa(&compile(&families::i3322()), "3");
     assert_bound(&b, 0.250876, 2e-6, "I3322 level 3");
     assert!(b.verified_upper >= 0.250875384514);
+}
+
+#[test]
+fn i3322_level_4_meets_the_best_known_strategy() {
+    // Level 4 (244×244, 4491 moments) is within 1e-8 of the best known quantum value
+    // 0.250875384514 (Pál–Vértesi 2010, PRA 82, 022116; digits from memory), which it must not
+    // undercut. About 25 s with the moment-matrix solver.
+    let b = npa(&compile(&families::i3322()), "4");
+    assert!(b.verified_upper >= 0.250875384514, "{}", b.verified_upper);
+    assert!(
+        (b.quantum_upper - 0.250875384514).abs() < 1e-8,
+        "{}",
+        b.quantum_upper
+    );
+}
+
+#[test]
+fn a_relaxation_that_would_not_fit_in_memory_is_refused_with_an_estimate() {
+    let err = npa_bound(&compile(&families::i3322()), &Level::Length(6), false).unwrap_err();
+    assert!(matches!(err, bellgap::Error::TooLarge { .. }), "{err}");
+    assert!(err.to_string().contains("GiB"), "{err}");
 }

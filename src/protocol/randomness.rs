@@ -213,7 +213,7 @@ fn guessing_probability_at(
         blocks,
         variable_bound: 1.0,
     };
-    let sol = problem.solve("guessing probability SDP").map_err(|e| match e {
+    let sol = problem.solve_with(crate::sdp::SdpSolver::Auto, "guessing probability SDP").map_err(|e| match e {
         Error::Solver { message, .. } if message.contains("Infeasible") => Error::Usage(format!(
             "no behaviour in the NPA level-{} set reaches the score {score}: it is above the quantum bound",
             level.name()

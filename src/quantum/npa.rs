@@ -23,7 +23,7 @@ use super::words::{moment_key, product, projectors_of, words_of_pattern, Project
 use crate::collins_gisin::CollinsGisin;
 use crate::error::{Error, Result};
 use crate::scenario::{digits, Scenario};
-use crate::sdp::{upper_index, AffineEntry, MatrixBlock, SdpProblem, SdpSolution};
+use crate::sdp::{upper_index, AffineEntry, MatrixBlock, SdpProblem, SdpSolution, SdpSolver};
 
 /// A level of the hierarchy: which words index the moment matrix.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -309,28 +309,57 @@ pub fn relaxation(s: &Scenario, level: &Level) -> Result<Relaxation> {
     })
 }
 
-/// Rough cost of solving with clarabel: its KKT system carries the PSD cone as a dense block of
-/// side n(n+1)/2, factorised at each of about 15 iterations.
+/// Rough cost of a solve. clarabel's KKT system carries the PSD cone as a dense block of side
+/// n(n+1)/2, factorised at each of about 15 iterations; the moment-matrix method factorises the
+/// m×m Schur complement (m moments) and assembles it in about 4n⁴ operations, about 30 times.
 #[derive(Debug, Clone, Serialize)]
 pub struct NpaEstimate {
     pub matrix_size: usize,
     pub moments: usize,
+    /// Estimated seconds and memory with the solver that would run.
     pub seconds: f64,
     pub memory_bytes: f64,
+    pub clarabel_seconds: f64,
+    pub clarabel_memory_bytes: f64,
+    pub ipm_seconds: f64,
+    pub ipm_memory_bytes: f64,
 }
 
 /// Flop rate of the dense block factorisation, measured on the project machine (I3322 level 3:
 /// 88×88, 15 iterations, 189 s).
 const FLOPS_PER_SECOND: f64 = 1.6e9;
 
+/// Measured rates of the moment-matrix method on the project machine (I3322 level 4: m = 4491,
+/// n = 244, 30 iterations in 25 s): dense Cholesky and Schur assembly.
+const IPM_CHOLESKY_FLOPS: f64 = 3e10;
+const IPM_ASSEMBLY_FLOPS: f64 = 1e10;
+
 pub fn estimate(r: &Relaxation) -> NpaEstimate {
+    estimate_for(r, SdpSolver::Auto)
+}
+
+pub fn estimate_for(r: &Relaxation, solver: SdpSolver) -> NpaEstimate {
     let n = r.matrix.size() as f64;
+    let m = r.matrix.moments.len() as f64;
     let d = n * (n + 1.0) / 2.0;
+    let clarabel_seconds = 15.0 * d * d * d / 3.0 / FLOPS_PER_SECOND;
+    let clarabel_memory_bytes = 8.0 * d * d * 2.0;
+    let ipm_seconds =
+        30.0 * (m * m * m / 3.0 / IPM_CHOLESKY_FLOPS + 4.0 * n.powi(4) / IPM_ASSEMBLY_FLOPS);
+    let ipm_memory_bytes = 8.0 * m * m * 3.0 + 8.0 * n * n * 12.0;
+    let (seconds, memory_bytes) = match solver {
+        SdpSolver::Clarabel => (clarabel_seconds, clarabel_memory_bytes),
+        _ => (ipm_seconds, ipm_memory_bytes),
+    };
     NpaEstimate {
         matrix_size: r.matrix.size(),
         moments: r.matrix.moments.len(),
-        seconds: 15.0 * d * d * d / 3.0 / FLOPS_PER_SECOND,
-        memory_bytes: 8.0 * d * d * 2.0,
+        seconds,
+        memory_bytes,
+        clarabel_seconds,
+        clarabel_memory_bytes,
+        ipm_seconds,
+        ipm_memory_bytes,
     }
 }
 
@@ -350,6 +379,11 @@ pub struct NpaBound {
     pub iterations: u32,
     pub seconds: f64,
     pub build_seconds: f64,
+    /// Relative duality gap and residual at the returned point.
+    pub gap: f64,
+    pub residual: f64,
+    /// `moment-ipm` or `clarabel`.
+    pub solver: String,
     #[serde(skip)]
     pub solution: Option<SdpSolution>,
 }
@@ -359,17 +393,27 @@ pub const SECONDS_LIMIT: f64 = 3600.0;
 /// Largest estimated memory accepted without `force`.
 pub const MEMORY_LIMIT: f64 = 16.0 * (1u64 << 30) as f64;
 
-/// Builds and solves the relaxation at `level`.
+/// Builds and solves the relaxation at `level` with the default solver.
 pub fn npa_bound(s: &Scenario, level: &Level, force: bool) -> Result<NpaBound> {
+    npa_bound_with(s, level, force, SdpSolver::Auto)
+}
+
+/// Builds and solves the relaxation at `level` with the given solver.
+pub fn npa_bound_with(
+    s: &Scenario,
+    level: &Level,
+    force: bool,
+    solver: SdpSolver,
+) -> Result<NpaBound> {
     let start = Instant::now();
     let r = relaxation(s, level)?;
     let build_seconds = start.elapsed().as_secs_f64();
-    let est = estimate(&r);
+    let est = estimate_for(&r, solver);
     if !force && (est.seconds > SECONDS_LIMIT || est.memory_bytes > MEMORY_LIMIT) {
         return Err(Error::TooLarge {
             what: format!("NPA level {}", level.name()),
             estimate: format!(
-                "moment matrix {}×{} with {} moments: about {} and {:.1} GiB with the current solver",
+                "moment matrix {}×{} with {} moments: about {} and {:.1} GiB with the chosen solver",
                 est.matrix_size,
                 est.matrix_size,
                 est.moments,
@@ -379,7 +423,9 @@ pub fn npa_bound(s: &Scenario, level: &Level, force: bool) -> Result<NpaBound> {
             hint: "choose a lower level, or pass --force".into(),
         });
     }
-    let sol = r.problem.solve(&format!("NPA level {}", level.name()))?;
+    let sol = r
+        .problem
+        .solve_with(solver, &format!("NPA level {}", level.name()))?;
     Ok(NpaBound {
         level: level.name(),
         quantum_upper: sol.dual,
@@ -391,6 +437,9 @@ pub fn npa_bound(s: &Scenario, level: &Level, force: bool) -> Result<NpaBound> {
         iterations: sol.iterations,
         seconds: start.elapsed().as_secs_f64(),
         build_seconds,
+        gap: sol.gap,
+        residual: sol.residual,
+        solver: sol.solver.clone(),
         solution: Some(sol),
     })
 }
