@@ -1,15 +1,24 @@
 //! NPA bound speed and peak memory: I3322 at levels 2–4 and CGLMP d = 3..8 at level 1+joint,
-//! moment-matrix construction timed apart from the solve.
+//! moment-matrix construction timed apart from the solve, both SDP solvers side by side.
 //!
-//! `cargo bench --bench npa` runs each case in its own process (so peak memory is the case's
-//! own) and prints a Markdown table. Cases whose estimated solve time exceeds
-//! `BELLGAP_BENCH_MAX_SECONDS` (default 300) are not run; their estimate is printed instead.
+//! `cargo bench --bench npa` runs each case and solver in its own process (so peak memory is that
+//! run's own) and prints a Markdown table. Runs whose estimated solve time exceeds
+//! `BELLGAP_BENCH_MAX_SECONDS` (default 300) are not made; their estimate is printed instead.
 
 use std::process::Command;
 use std::time::Instant;
 
 use bellgap::game::{families, Game, GameSpec};
-use bellgap::quantum::npa::{estimate, npa_bound, relaxation, Level};
+use bellgap::quantum::npa::{estimate_for, npa_bound_with, relaxation, Level};
+use bellgap::sdp::SdpSolver;
+
+fn solver(name: &str) -> SdpSolver {
+    if name == "clarabel" {
+        SdpSolver::Clarabel
+    } else {
+        SdpSolver::MomentIpm
+    }
+}
 
 fn cases() -> Vec<(String, GameSpec, &'static str)> {
     let mut v = vec![
@@ -35,16 +44,16 @@ fn peak_mib() -> Option<f64> {
     Some(kib / 1024.0)
 }
 
-fn run_case(index: usize) {
+fn run_case(index: usize, solver_name: &str) {
     let (name, spec, level) = &cases()[index];
     let s = Game::from_spec(spec, name).unwrap().scenario;
     let level = Level::parse(level).unwrap();
     let t = Instant::now();
     let r = relaxation(&s, &level).unwrap();
     let build = t.elapsed().as_secs_f64();
-    let b = npa_bound(&s, &level, true).unwrap();
+    let b = npa_bound_with(&s, &level, true, solver(solver_name)).unwrap();
     println!(
-        "| {name} | {} | {}×{} | {} | {:.4} | {:.2} | {:.0} | {:.8} | {:.8} | {} ({} it.) |",
+        "| {name} | {} | {solver_name} | {}×{} | {} | {:.4} | {:.2} | {:.0} | {:.9} | {:.9} | {} ({} it.) |",
         b.level,
         r.matrix.size(),
         r.matrix.size(),
@@ -62,35 +71,37 @@ fn run_case(index: usize) {
 fn main() {
     let args: Vec<String> = std::env::args().collect();
     if let Some(pos) = args.iter().position(|a| a == "--case") {
-        run_case(args[pos + 1].parse().unwrap());
+        run_case(args[pos + 1].parse().unwrap(), &args[pos + 2]);
         return;
     }
     let max: f64 = std::env::var("BELLGAP_BENCH_MAX_SECONDS")
         .ok()
         .and_then(|v| v.parse().ok())
         .unwrap_or(300.0);
-    println!("| case | level | matrix | moments | build s | solve s | peak MiB | raw bound | verified bound | status |");
-    println!("|---|---|---|---|---|---|---|---|---|---|");
+    println!("| case | level | solver | matrix | moments | build s | solve s | peak MiB | raw bound | verified bound | status |");
+    println!("|---|---|---|---|---|---|---|---|---|---|---|");
     let exe = std::env::current_exe().unwrap();
     for (i, (name, spec, level)) in cases().iter().enumerate() {
         let s = Game::from_spec(spec, name).unwrap().scenario;
         let r = relaxation(&s, &Level::parse(level).unwrap()).unwrap();
-        let est = estimate(&r);
-        if est.seconds > max {
-            println!(
-                "| {name} | {level} | {}×{} | {} | | not run: estimated {} | est. {:.0} | | | |",
-                est.matrix_size,
-                est.matrix_size,
-                est.moments,
-                bellgap::classical::human_seconds(est.seconds),
-                est.memory_bytes / (1u64 << 20) as f64
-            );
-            continue;
+        for solver_name in ["moment-ipm", "clarabel"] {
+            let est = estimate_for(&r, solver(solver_name));
+            if est.seconds > max {
+                println!(
+                    "| {name} | {level} | {solver_name} | {}×{} | {} | | not run: estimated {} | est. {:.0} | | | |",
+                    est.matrix_size,
+                    est.matrix_size,
+                    est.moments,
+                    bellgap::classical::human_seconds(est.seconds),
+                    est.memory_bytes / (1u64 << 20) as f64
+                );
+                continue;
+            }
+            let out = Command::new(&exe)
+                .args(["--case", &i.to_string(), solver_name])
+                .output()
+                .unwrap();
+            print!("{}", String::from_utf8_lossy(&out.stdout));
         }
-        let out = Command::new(&exe)
-            .args(["--case", &i.to_string()])
-            .output()
-            .unwrap();
-        print!("{}", String::from_utf8_lossy(&out.stdout));
     }
 }

@@ -381,6 +381,30 @@ fn max_step(a: &Mat<f64>, d: &Mat<f64>) -> f64 {
     }
 }
 
+/// `sym((target·I − K − X D) S⁻¹)`: the complementarity part of the HKM direction.
+fn centred(
+    x: &Mat<f64>,
+    d: &Mat<f64>,
+    target: f64,
+    k: Option<&Mat<f64>>,
+    sinv: &Mat<f64>,
+) -> Mat<f64> {
+    let n = x.nrows();
+    let mut t = mul(x, d);
+    for j in 0..n {
+        for i in 0..n {
+            t[(i, j)] = -t[(i, j)];
+        }
+        t[(j, j)] += target;
+    }
+    if let Some(k) = k {
+        t -= k;
+    }
+    let mut w = mul(&t, sinv);
+    symmetrise(&mut w);
+    w
+}
+
 /// The search direction for given centring target and second-order term.
 struct Direction {
     dy: Vec<f64>,
@@ -408,20 +432,13 @@ fn direction(
     // W = (σμ I − K − X Rd) S⁻¹ per block.
     let w: Vec<Mat<f64>> = (0..p.sizes.len())
         .map(|k| {
-            let n = p.sizes[k];
-            let mut t = mul(&x[k], &rd[k]);
-            for j in 0..n {
-                for i in 0..n {
-                    t[(i, j)] = -t[(i, j)];
-                }
-                t[(j, j)] += target;
-            }
-            if let Some((kk, _)) = second {
-                t -= &kk[k];
-            }
-            let mut w = mul(&t, &sinv[k]);
-            symmetrise(&mut w);
-            w
+            centred(
+                &x[k],
+                &rd[k],
+                target,
+                second.map(|(kk, _)| &kk[k]),
+                &sinv[k],
+            )
         })
         .collect();
     let wl: Vec<f64> = (0..xl.len())
@@ -457,20 +474,14 @@ fn direction(
     // ΔX = (σμ I − K − X ΔS) S⁻¹ − X, symmetrised.
     let dx: Vec<Mat<f64>> = (0..p.sizes.len())
         .map(|k| {
-            let n = p.sizes[k];
-            let mut t = mul(&x[k], &ds[k]);
-            for j in 0..n {
-                for i in 0..n {
-                    t[(i, j)] = -t[(i, j)];
-                }
-                t[(j, j)] += target;
-            }
-            if let Some((kk, _)) = second {
-                t -= &kk[k];
-            }
-            let mut d = mul(&t, &sinv[k]);
+            let mut d = centred(
+                &x[k],
+                &ds[k],
+                target,
+                second.map(|(kk, _)| &kk[k]),
+                &sinv[k],
+            );
             d -= &x[k];
-            symmetrise(&mut d);
             d
         })
         .collect();

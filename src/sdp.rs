@@ -27,7 +27,7 @@ use crate::error::{Error, Result};
 /// Which SDP solver to use.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub enum SdpSolver {
-    /// The moment-matrix interior-point method, with clarabel as fallback.
+    /// Chosen by size, with the other as fallback.
     #[default]
     Auto,
     Clarabel,
@@ -154,14 +154,34 @@ impl SdpProblem {
         }
     }
 
-    /// Solves with the chosen method ([`SdpSolver::Auto`]: the moment-matrix interior-point
-    /// method, falling back to clarabel if it fails).
+    /// Solves with the chosen method ([`SdpSolver::Auto`]: whichever the size estimate says is
+    /// cheaper, falling back to the other if it fails).
     pub fn solve_with(&self, solver: SdpSolver, stage: &str) -> Result<SdpSolution> {
         match solver {
             SdpSolver::Clarabel => self.solve(stage),
             SdpSolver::MomentIpm => crate::ipm::solve(self, stage, Default::default()),
             SdpSolver::Auto => {
-                crate::ipm::solve(self, stage, Default::default()).or_else(|_| self.solve(stage))
+                // Picked by size: clarabel factorises a dense block of side n(n+1)/2 per PSD
+                // block, the moment-matrix method an m×m Schur complement plus ~4n⁴ assembly.
+                let m = self.variables as f64;
+                let clarabel: f64 = self
+                    .blocks
+                    .iter()
+                    .map(|b| (b.size as f64 * (b.size as f64 + 1.0) / 2.0).powi(3))
+                    .sum();
+                let ipm = m.powi(3) / 3.0
+                    + self
+                        .blocks
+                        .iter()
+                        .map(|b| 4.0 * (b.size as f64).powi(4))
+                        .sum::<f64>();
+                if ipm <= clarabel {
+                    crate::ipm::solve(self, stage, Default::default())
+                        .or_else(|_| self.solve(stage))
+                } else {
+                    self.solve(stage)
+                        .or_else(|_| crate::ipm::solve(self, stage, Default::default()))
+                }
             }
         }
     }
