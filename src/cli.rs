@@ -442,16 +442,21 @@ pub fn run(cli: &Cli) -> Result<Output> {
             let mut r = Report::new("bounds", &game);
             r.classical = Some(classical_for(&game, args, Choice::Auto)?);
             r.no_signalling = Some(nosignal::no_signalling_value(&game.scenario, args.force)?);
+            // In `bounds` a quantum bound that cannot be obtained is reported as such, and the
+            // other bounds still are.
             let level = match level {
-                Some(l) => Level::parse(l)?,
-                None => npa::default_level(&game.scenario)?,
+                Some(l) => Some(Level::parse(l)?),
+                None => npa::default_level(&game.scenario).ok(),
             };
-            r.npa = Some(npa::npa_bound_with(
-                &game.scenario,
-                &level,
-                args.force,
-                solver.resolve(),
-            )?);
+            match level
+                .map(|l| npa::npa_bound_with(&game.scenario, &l, args.force, solver.resolve()))
+            {
+                Some(Ok(b)) => r.npa = Some(b),
+                Some(Err(e)) => r.failures.push(format!("NPA upper bound: {e}")),
+                None => r
+                    .failures
+                    .push("NPA upper bound: no standard level fits this game".into()),
+            }
             let opts = SeesawOptions {
                 dims: seesaw::default_dims(&game.scenario),
                 restarts: 8,
@@ -459,13 +464,17 @@ pub fn run(cli: &Cli) -> Result<Output> {
                 tolerance: 1e-10,
                 max_rounds: 500,
             };
-            let found = seesaw::seesaw(&game.scenario, &opts, None)?;
-            r.strategy_analysis = Some(analyse(
-                &game,
-                &found.strategy,
-                r.classical.as_ref().map(|c| c.value),
-            ));
-            r.seesaw = Some(found);
+            match seesaw::seesaw(&game.scenario, &opts, None) {
+                Ok(found) => {
+                    r.strategy_analysis = Some(analyse(
+                        &game,
+                        &found.strategy,
+                        r.classical.as_ref().map(|c| c.value),
+                    ));
+                    r.seesaw = Some(found);
+                }
+                Err(e) => r.failures.push(format!("see-saw lower bound: {e}")),
+            }
             Ok(game_output(&r))
         }
         Command::Seesaw {

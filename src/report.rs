@@ -68,6 +68,8 @@ pub struct Report<'a> {
     /// The Born-rule value of a given strategy (`evaluate`).
     pub evaluated: Option<f64>,
     pub strategy_analysis: Option<StrategyAnalysis>,
+    /// Bounds that could not be obtained, with the reason (reported, never replaced by a number).
+    pub failures: Vec<String>,
     /// Include sizes and estimates (the `check` command).
     pub sizes: bool,
 }
@@ -84,6 +86,7 @@ impl<'a> Report<'a> {
             seesaw: None,
             evaluated: None,
             strategy_analysis: None,
+            failures: Vec::new(),
             sizes: false,
         }
     }
@@ -217,6 +220,9 @@ impl<'a> Report<'a> {
             m.insert("gaps".into(), Value::Object(gaps));
         }
         m.insert("warnings".into(), json!(self.game.warnings));
+        if !self.failures.is_empty() {
+            m.insert("not_obtained".into(), json!(self.failures));
+        }
         Value::Object(m)
     }
 
@@ -351,6 +357,9 @@ impl<'a> Report<'a> {
             rows.push(("gap ns − classical".into(), num(ns.value - c.value)));
         }
         out += &table(&rows);
+        for f in &self.failures {
+            out += &format!("not obtained: {f}\n");
+        }
         if let Some(a) = &self.strategy_analysis {
             out += &analysis_text(a);
         }

@@ -388,6 +388,10 @@ pub struct NpaBound {
     pub solution: Option<SdpSolution>,
 }
 
+/// Largest moment matrix built without `force` (its side); larger ones are refused before
+/// anything is allocated.
+pub const MAX_WORDS: usize = 5000;
+
 /// Largest estimated solve time accepted without `force`.
 pub const SECONDS_LIMIT: f64 = 3600.0;
 /// Largest estimated memory accepted without `force`.
@@ -406,6 +410,19 @@ pub fn npa_bound_with(
     solver: SdpSolver,
 ) -> Result<NpaBound> {
     let start = Instant::now();
+    let words = generating_words(s, level)?.len();
+    if words > MAX_WORDS && !force {
+        let n = words as f64;
+        return Err(Error::TooLarge {
+            what: format!("NPA level {}", level.name()),
+            estimate: format!(
+                "a {words}×{words} moment matrix ({:.1e} entries) with up to {:.1e} moments",
+                n * n,
+                n * (n + 1.0) / 2.0
+            ),
+            hint: "choose a lower level, or pass --force".into(),
+        });
+    }
     let r = relaxation(s, level)?;
     let build_seconds = start.elapsed().as_secs_f64();
     let est = estimate_for(&r, solver);
@@ -455,6 +472,12 @@ pub fn default_level(s: &Scenario) -> Result<Level> {
     ];
     let mut chosen = None;
     for level in candidates {
+        // Count the generating words first: building a matrix that could never be solved
+        // would itself exhaust memory.
+        let words = generating_words(s, &level)?.len();
+        if words > MAX_WORDS {
+            break;
+        }
         let Ok(r) = relaxation(s, &level) else {
             continue;
         };

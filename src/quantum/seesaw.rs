@@ -379,7 +379,11 @@ fn run(s: &Scenario, opts: &SeesawOptions, rng: &mut Rng) -> Result<(QuantumStra
             let b = effective_operators(s, &st, player);
             let mut candidate = st.clone();
             for (x, bx) in b.iter().enumerate() {
-                candidate.measurements[player][x] = best_povm(bx)?;
+                // A measurement SDP that fails numerically leaves that measurement as it
+                // was: the step is then not optimal, but the value still cannot decrease.
+                if let Ok(povm) = best_povm(bx) {
+                    candidate.measurements[player][x] = povm;
+                }
             }
             let v = candidate.value(s);
             if v >= value - 1e-12 {
