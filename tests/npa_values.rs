@@ -148,3 +148,13 @@ fn a_relaxation_that_would_not_fit_in_memory_is_refused_with_an_estimate() {
     assert!(matches!(err, bellgap::Error::TooLarge { .. }), "{err}");
     assert!(err.to_string().contains("GiB"), "{err}");
 }
+
+#[test]
+fn a_moment_matrix_too_large_to_build_is_refused_before_allocation() {
+    // Magic square played twice: level 2 would need tens of thousands of generating words.
+    let ms = compile(&families::magic_square());
+    let twice = compile(&bellgap::game::product::parallel_repetition(&ms, "ms", 2).unwrap());
+    let err = npa_bound(&twice, &Level::Length(2), false).unwrap_err();
+    assert!(matches!(err, bellgap::Error::TooLarge { .. }), "{err}");
+    assert!(err.to_string().contains("moment matrix"), "{err}");
+}
