@@ -168,9 +168,7 @@ impl LinearProgram {
     /// Solves with clarabel's interior-point method (continuous variables only).
     pub fn solve_interior_point(&self, stage: &str) -> Result<LpSolution> {
         use clarabel::algebra::CscMatrix;
-        use clarabel::solver::{
-            DefaultSettingsBuilder, DefaultSolver, IPSolver, SolverStatus, SupportedConeT,
-        };
+        use clarabel::solver::SupportedConeT;
         if self.bounds.iter().any(|b| b.integer) {
             return Err(Error::solver(
                 stage,
@@ -222,26 +220,7 @@ impl LinearProgram {
             SupportedConeT::ZeroConeT(equalities),
             SupportedConeT::NonnegativeConeT(m - equalities),
         ];
-        let settings = DefaultSettingsBuilder::default()
-            .verbose(false)
-            .tol_gap_abs(1e-10)
-            .tol_gap_rel(1e-10)
-            .tol_feas(1e-10)
-            .build()
-            .map_err(|e| Error::solver(stage, format!("{e:?}")))?;
-        let mut solver = DefaultSolver::new(&p, &q, &a, &rhs, &cones, settings)
-            .map_err(|e| Error::solver(stage, format!("{e:?}")))?;
-        solver.solve();
-        let status = match solver.solution.status {
-            SolverStatus::Solved => "solved",
-            SolverStatus::AlmostSolved => "almost solved",
-            other => {
-                return Err(Error::solver(
-                    stage,
-                    format!("the interior-point method stopped with status {other:?}"),
-                ))
-            }
-        };
+        let (solver, status) = crate::sdp::run_clarabel(&p, &q, &a, &rhs, &cones, 1e-10, stage)?;
         let x = solver.solution.x.clone();
         let objective = x.iter().zip(&self.objective).map(|(x, c)| x * c).sum();
         let certified_bound = self

@@ -116,6 +116,24 @@ impl Scenario {
         &self.objective
     }
 
+    /// Calls `f(question digits, answer digits, w(q)·V(a|q))` for every non-zero entry of the
+    /// objective, questions outermost.
+    pub fn for_each_term(&self, mut f: impl FnMut(&[usize], &[usize], f64)) {
+        let qr = self.question_radices();
+        let ar = self.answer_radices();
+        let na = self.joint_answers();
+        let (mut qd, mut ad) = (vec![0; qr.len()], vec![0; qr.len()]);
+        for q in 0..self.joint_questions() {
+            digits(q, &qr, &mut qd);
+            for (a, &c) in self.objective[q * na..(q + 1) * na].iter().enumerate() {
+                if c != 0.0 {
+                    digits(a, &ar, &mut ad);
+                    f(&qd, &ad, c);
+                }
+            }
+        }
+    }
+
     /// The value of a behaviour given as `p(a|q)` in the same layout as [`Scenario::scores`].
     pub fn value_of_behaviour(&self, p: &[f64]) -> f64 {
         self.offset

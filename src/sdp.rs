@@ -201,31 +201,8 @@ impl SdpProblem {
         for &n in &asm.block_sizes {
             cones.push(SupportedConeT::PSDTriangleConeT(n));
         }
-        let settings = DefaultSettingsBuilder::default()
-            .verbose(false)
-            .max_iter(200)
-            .tol_gap_abs(1e-9)
-            .tol_gap_rel(1e-9)
-            .tol_feas(1e-9)
-            .build()
-            .map_err(|e| Error::solver(stage, format!("{e:?}")))?;
         let p = CscMatrix::zeros((self.variables, self.variables));
-        let mut solver = DefaultSolver::new(&p, &asm.q, &asm.a, &asm.b, &cones, settings)
-            .map_err(|e| Error::solver(stage, format!("{e:?}")))?;
-        solver.solve();
-        let status = match solver.solution.status {
-            SolverStatus::Solved => "solved",
-            SolverStatus::AlmostSolved => "almost solved",
-            other => {
-                return Err(Error::solver(
-                    stage,
-                    format!(
-                        "the SDP solver stopped with status {other:?} after {} iterations",
-                        solver.info.iterations
-                    ),
-                ))
-            }
-        };
+        let (solver, status) = run_clarabel(&p, &asm.q, &asm.a, &asm.b, &cones, 1e-9, stage)?;
         let y = solver.solution.x.clone();
         let z = solver.solution.z.clone();
         let primal = self.objective_constant
@@ -249,6 +226,44 @@ impl SdpProblem {
             z,
         })
     }
+}
+
+/// Runs clarabel with quiet settings and the given tolerances; a run that ends in any state but
+/// solved or almost solved is an error. Shared by the LP and SDP adapters.
+pub(crate) fn run_clarabel(
+    p: &CscMatrix<f64>,
+    q: &[f64],
+    a: &CscMatrix<f64>,
+    b: &[f64],
+    cones: &[SupportedConeT<f64>],
+    tolerance: f64,
+    stage: &str,
+) -> Result<(DefaultSolver<f64>, &'static str)> {
+    let settings = DefaultSettingsBuilder::default()
+        .verbose(false)
+        .max_iter(200)
+        .tol_gap_abs(tolerance)
+        .tol_gap_rel(tolerance)
+        .tol_feas(tolerance)
+        .build()
+        .map_err(|e| Error::solver(stage, format!("{e:?}")))?;
+    let mut solver = DefaultSolver::new(p, q, a, b, cones, settings)
+        .map_err(|e| Error::solver(stage, format!("{e:?}")))?;
+    solver.solve();
+    let status = match solver.solution.status {
+        SolverStatus::Solved => "solved",
+        SolverStatus::AlmostSolved => "almost solved",
+        other => {
+            return Err(Error::solver(
+                stage,
+                format!(
+                    "the solver stopped with status {other:?} after {} iterations",
+                    solver.info.iterations
+                ),
+            ))
+        }
+    };
+    Ok((solver, status))
 }
 
 impl Assembled {

@@ -22,7 +22,7 @@ use serde::{Deserialize, Serialize};
 use super::words::{moment_key, product, projectors_of, words_of_pattern, Projector, Word};
 use crate::collins_gisin::CollinsGisin;
 use crate::error::{Error, Result};
-use crate::scenario::{digits, Scenario};
+use crate::scenario::Scenario;
 use crate::sdp::{upper_index, AffineEntry, MatrixBlock, SdpProblem, SdpSolution, SdpSolver};
 
 /// A level of the hierarchy: which words index the moment matrix.
@@ -223,28 +223,16 @@ pub fn relaxation(s: &Scenario, level: &Level) -> Result<Relaxation> {
     let matrix = MomentMatrix::new(generating_words(s, level)?);
     let cg = CollinsGisin::new(s);
     let n = s.players();
-    let qr = s.question_radices();
-    let ar = s.answer_radices();
-    let na = s.joint_answers();
     // The game's value in Collins–Gisin coordinates.
     let mut cg_objective = vec![0.0; cg.variables];
     let mut constant = s.offset;
-    let (mut qd, mut ad) = (vec![0; n], vec![0; n]);
     let mut terms = Vec::new();
-    for q in 0..s.joint_questions() {
-        digits(q, &qr, &mut qd);
-        for a in 0..na {
-            let c = s.objective()[q * na + a];
-            if c == 0.0 {
-                continue;
-            }
-            digits(a, &ar, &mut ad);
-            constant += c * cg.expand(&qd, &ad, &mut terms);
-            for &(v, coef) in &terms {
-                cg_objective[v] += c * coef;
-            }
+    s.for_each_term(|qd, ad, c| {
+        constant += c * cg.expand(qd, ad, &mut terms);
+        for &(v, coef) in &terms {
+            cg_objective[v] += c * coef;
         }
-    }
+    });
     let mut index: BTreeMap<&Word, usize> = BTreeMap::new();
     for (i, m) in matrix.moments.iter().enumerate() {
         index.insert(m, i);

@@ -90,28 +90,15 @@ fn random_measurement(d: usize, answers: usize, rng: &mut Rng) -> Vec<CMatrix> {
 /// `Σ_q Σ_a c(q, a) ⊗_i M^i_{a_i|q_i}`: the operator whose expectation is the value (less the
 /// constant).
 pub fn bell_operator(s: &Scenario, st: &QuantumStrategy) -> CMatrix {
-    let n = s.players();
-    let qr = s.question_radices();
-    let ar = s.answer_radices();
-    let na = s.joint_answers();
     let dim = st.total_dim();
     let mut w = CMatrix::zeros(dim, dim);
-    let (mut qd, mut ad) = (vec![0; n], vec![0; n]);
-    for q in 0..s.joint_questions() {
-        digits(q, &qr, &mut qd);
-        for a in 0..na {
-            let c = s.objective()[q * na + a];
-            if c == 0.0 {
-                continue;
-            }
-            digits(a, &ar, &mut ad);
-            let mut k = st.measurements[0][qd[0]][ad[0]].clone();
-            for i in 1..n {
-                k = k.kronecker(&st.measurements[i][qd[i]][ad[i]]);
-            }
-            w += k * Complex64::new(c, 0.0);
+    s.for_each_term(|qd, ad, c| {
+        let mut k = st.measurements[0][qd[0]][ad[0]].clone();
+        for i in 1..s.players() {
+            k = k.kronecker(&st.measurements[i][qd[i]][ad[i]]);
         }
-    }
+        w += k * Complex64::new(c, 0.0);
+    });
     w
 }
 
