@@ -464,6 +464,9 @@ pub fn run(cli: &Cli) -> Result<Output> {
                 tolerance: 1e-10,
                 max_rounds: 500,
             };
+            if !args.quiet {
+                warn_slow_seesaw(&game.scenario, &opts.dims, opts.restarts);
+            }
             match seesaw::seesaw(&game.scenario, &opts, None) {
                 Ok(found) => {
                     r.strategy_analysis = Some(analyse(
@@ -499,6 +502,9 @@ pub fn run(cli: &Cli) -> Result<Output> {
                 tolerance: 1e-10,
                 max_rounds: 500,
             };
+            if !args.quiet {
+                warn_slow_seesaw(&game.scenario, &opts.dims, opts.restarts);
+            }
             let printer = restart_printer(args.quiet || args.json);
             let found = seesaw::seesaw(
                 &game.scenario,
@@ -865,6 +871,26 @@ fn robustness_chart(game: &Game, st: &QuantumStrategy, classical: Option<f64>) -
         "value",
         &series,
     )
+}
+
+/// A heads-up before a see-saw whose measurement steps are SDPs over many or large POVMs: a
+/// rule of thumb from the bench (CGLMP d=5, 25 POVM parameters per element: about 0.5 s per
+/// restart), not a measured estimate for this game.
+fn warn_slow_seesaw(s: &bellgap::Scenario, dims: &[usize], restarts: usize) {
+    let work: usize = s
+        .parties
+        .iter()
+        .zip(dims)
+        .filter(|(p, _)| p.answers() > 2)
+        .map(|(p, &d)| p.questions() * p.answers() * d * d)
+        .sum();
+    let seconds = work as f64 / 100.0 * 0.5 * restarts as f64 / 2.0;
+    if seconds > 30.0 {
+        eprintln!(
+            "warning: the see-saw solves a POVM SDP at each measurement step here; expect roughly {} (rule of thumb)",
+            classical::human_seconds(seconds)
+        );
+    }
 }
 
 /// `LOW:HIGH:POINTS` → evenly spaced scores.
