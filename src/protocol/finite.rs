@@ -78,39 +78,26 @@ pub fn ln_gamma(x: f64) -> f64 {
 /// Continued fraction of the incomplete beta function (modified Lentz).
 fn beta_fraction(a: f64, b: f64, x: f64) -> f64 {
     let tiny = 1e-300;
+    let guard = |v: f64| if v.abs() < tiny { tiny } else { v };
     let (qab, qap, qam) = (a + b, a + 1.0, a - 1.0);
     let mut c = 1.0;
-    let mut d = 1.0 - qab * x / qap;
-    if d.abs() < tiny {
-        d = tiny;
-    }
-    d = 1.0 / d;
+    let mut d = 1.0 / guard(1.0 - qab * x / qap);
     let mut h = d;
+    // One Lentz update with coefficient `aa`; returns the factor applied to h.
+    let step = |aa: f64, c: &mut f64, d: &mut f64| {
+        *d = 1.0 / guard(1.0 + aa * *d);
+        *c = guard(1.0 + aa / *c);
+        *d * *c
+    };
     for m in 1..10_000 {
         let m = m as f64;
         let m2 = 2.0 * m;
-        let aa = m * (b - m) * x / ((qam + m2) * (a + m2));
-        d = 1.0 + aa * d;
-        if d.abs() < tiny {
-            d = tiny;
-        }
-        c = 1.0 + aa / c;
-        if c.abs() < tiny {
-            c = tiny;
-        }
-        d = 1.0 / d;
-        h *= d * c;
-        let aa = -(a + m) * (qab + m) * x / ((a + m2) * (qap + m2));
-        d = 1.0 + aa * d;
-        if d.abs() < tiny {
-            d = tiny;
-        }
-        c = 1.0 + aa / c;
-        if c.abs() < tiny {
-            c = tiny;
-        }
-        d = 1.0 / d;
-        let del = d * c;
+        h *= step(m * (b - m) * x / ((qam + m2) * (a + m2)), &mut c, &mut d);
+        let del = step(
+            -(a + m) * (qab + m) * x / ((a + m2) * (qap + m2)),
+            &mut c,
+            &mut d,
+        );
         h *= del;
         if (del - 1.0).abs() < 1e-15 {
             break;

@@ -369,6 +369,31 @@ unsafe fn svd_into(
     true
 }
 
+/// What both SVD drivers do once their arguments are checked: answer a workspace query, or
+/// compute, setting `info = 1` when the iteration fails.
+unsafe fn svd_checked(
+    (m, n): (usize, usize),
+    a: *const f64,
+    lda: usize,
+    s: *mut f64,
+    u: Option<(*mut f64, usize)>,
+    vt: Option<(*mut f64, usize)>,
+    work: *mut f64,
+    lwork: c_int,
+    info: *mut c_int,
+) {
+    if lwork == -1 {
+        *work = svd_lwork(m, n) as f64;
+        return;
+    }
+    if m == 0 || n == 0 {
+        return;
+    }
+    if !svd_into(m, n, a, lda, s, u, vt) {
+        *info = 1;
+    }
+}
+
 /// Workspace size reported by the SVD queries (the reference's bound for the thin case).
 fn svd_lwork(m: usize, n: usize) -> usize {
     let (mn, mx) = (m.min(n), m.max(n));
@@ -414,27 +439,18 @@ pub unsafe extern "C" fn dgesdd_(
     if *info != 0 {
         return;
     }
-    let (mu, nu) = (mm as usize, nn as usize);
-    if *lwork == -1 {
-        *work = svd_lwork(mu, nu) as f64;
-        return;
-    }
-    if mu == 0 || nu == 0 {
-        return;
-    }
     let vectors = job != b'N';
-    let ok = svd_into(
-        mu,
-        nu,
+    svd_checked(
+        (mm as usize, nn as usize),
         a,
         *lda as usize,
         s,
         vectors.then(|| (u, *ldu as usize)),
         vectors.then(|| (vt, *ldvt as usize)),
+        work,
+        *lwork,
+        info,
     );
-    if !ok {
-        *info = 1;
-    }
 }
 
 /// SVD with separate choices for U (`jobu`) and Vᵀ (`jobvt`): 'N' or 'S' ('A' for square
@@ -478,26 +494,17 @@ pub unsafe extern "C" fn dgesvd_(
     if *info != 0 {
         return;
     }
-    let (mu, nu) = (mm as usize, nn as usize);
-    if *lwork == -1 {
-        *work = svd_lwork(mu, nu) as f64;
-        return;
-    }
-    if mu == 0 || nu == 0 {
-        return;
-    }
-    let ok = svd_into(
-        mu,
-        nu,
+    svd_checked(
+        (mm as usize, nn as usize),
         a,
         *lda as usize,
         s,
         (ju != b'N').then(|| (u, *ldu as usize)),
         (jv != b'N').then(|| (vt, *ldvt as usize)),
+        work,
+        *lwork,
+        info,
     );
-    if !ok {
-        *info = 1;
-    }
 }
 
 /// A column vector from a strided pointer (negative strides start at the end, as in BLAS).
