@@ -15,7 +15,7 @@ use bellgap::game::spec::readable_yaml;
 use bellgap::game::{families, product, CompileOptions, Game, GameSpec};
 use bellgap::nosignal;
 use bellgap::plot;
-use bellgap::protocol::finite::{self, Observation};
+use bellgap::protocol::finite;
 use bellgap::protocol::randomness::{self, Target};
 use bellgap::protocol::{key, review};
 use bellgap::quantum::analysis;
@@ -128,20 +128,21 @@ pub enum Command {
         /// Rounds won (a game).
         #[arg(long, conflicts_with = "score_sum")]
         wins: Option<u64>,
-        /// Sum of per-round scores (a Bell expression); needs --score-range.
-        #[arg(long, requires = "score_range", allow_hyphen_values = true)]
+        /// Sum of per-round scores (a Bell expression or a scored game).
+        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite)]
         score_sum: Option<f64>,
-        /// Smallest and largest possible per-round score, e.g. -4,4.
-        #[arg(long, value_delimiter = ',', num_args = 2, allow_hyphen_values = true)]
+        /// Smallest and largest possible per-round score, as `LO,HI` or `LO HI` (default: the
+        /// game's own range; a narrower one is refused, since the bounds would not hold).
+        #[arg(long, value_delimiter = ',', num_args = 1..=2, allow_hyphen_values = true, value_parser = parse_finite)]
         score_range: Option<Vec<f64>>,
         /// Error probability of the confidence bounds.
-        #[arg(long, default_value_t = 1e-6)]
+        #[arg(long, default_value_t = 1e-6, value_parser = parse_finite)]
         alpha: f64,
         /// p-value to reach when computing the rounds needed.
-        #[arg(long, default_value_t = 1e-9)]
+        #[arg(long, default_value_t = 1e-9, value_parser = parse_finite)]
         target_p_value: f64,
         /// Expected mean score for the rounds needed (default: the observed mean).
-        #[arg(long, allow_hyphen_values = true)]
+        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite)]
         expected: Option<f64>,
     },
     /// Certified randomness: the adversary's guessing probability and the min-entropy per round
@@ -150,7 +151,7 @@ pub enum Command {
         #[command(flatten)]
         args: GameArgs,
         /// The score (in the game's own units).
-        #[arg(long, allow_hyphen_values = true, required_unless_present = "sweep")]
+        #[arg(long, allow_hyphen_values = true, required_unless_present = "sweep", value_parser = parse_finite)]
         score: Option<f64>,
         /// Sweep the score: LOW:HIGH:POINTS.
         #[arg(long)]
@@ -176,15 +177,18 @@ pub enum Command {
     },
     /// Key figures for CHSH-based device-independent QKD (analytic bound).
     Key {
-        /// CHSH correlator value S (2 to 2√2).
-        #[arg(long)]
+        /// CHSH correlator value S (at most 2√2; the entropy bound is 0 at or below 2).
+        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite)]
         chsh: f64,
-        /// Quantum bit error rate.
-        #[arg(long)]
+        /// Quantum bit error rate, in [0, 0.5].
+        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite)]
         qber: f64,
         /// Print exactly one JSON object on stdout.
         #[arg(long)]
         json: bool,
+        /// No progress output on stderr (accepted for uniformity: `key` has none).
+        #[arg(long, short)]
+        quiet: bool,
     },
     /// A self-contained review report of a protocol run: bounds, margins, randomness, key
     /// figures and the assumptions behind each.
@@ -331,6 +335,37 @@ pub struct Output {
 }
 
 impl Cli {
+    /// Every file the command reads (outputs may not replace them).
+    pub fn inputs(&self) -> Vec<PathBuf> {
+        let mut v = Vec::new();
+        match &self.command {
+            Command::Check(a) | Command::Nosignal(a) => v.push(a.game.clone()),
+            Command::Classical { args, .. }
+            | Command::Bounds { args, .. }
+            | Command::Npa { args, .. }
+            | Command::Seesaw { args, .. }
+            | Command::Margin { args, .. }
+            | Command::Randomness { args, .. } => v.push(args.game.clone()),
+            Command::Evaluate { args, strategy, .. } => {
+                v.push(args.game.clone());
+                v.push(strategy.clone());
+            }
+            Command::Verify { args, certificate } => {
+                v.push(args.game.clone());
+                v.push(certificate.clone());
+            }
+            Command::Review { protocol, .. } => v.push(protocol.clone()),
+            Command::Local { correlations, .. } => v.push(correlations.clone()),
+            Command::Key { .. } => {}
+            Command::Family { family, .. } => {
+                if let FamilyCommand::Product { game, .. } = family {
+                    v.push(game.clone());
+                }
+            }
+        }
+        v
+    }
+
     pub fn wants_json(&self) -> bool {
         match &self.command {
             Command::Check(a) | Command::Nosignal(a) => a.json,
@@ -401,6 +436,7 @@ fn classical_for(
 }
 
 pub fn run(cli: &Cli) -> Result<Output> {
+    let inputs = cli.inputs();
     match &cli.command {
         Command::Check(args) => {
             let game = load(args)?;
@@ -421,7 +457,14 @@ pub fn run(cli: &Cli) -> Result<Output> {
             }
             print_early(&early, args.quiet);
             let mut r = Report::new("classical", &game);
-            r.classical = Some(classical_for(&game, args, choice)?);
+            let printer = progress_printer(args.quiet || args.json);
+            let progress = printer.as_ref().map(|p| p as classical::Progress);
+            r.classical = Some(classical::classical_value_or_incumbent(
+                &game.scenario,
+                choice,
+                args.force,
+                progress,
+            )?);
             Ok(game_output(&r))
         }
         Command::Nosignal(args) => {
@@ -478,6 +521,7 @@ pub fn run(cli: &Cli) -> Result<Output> {
                 }
                 Err(e) => r.failures.push(format!("see-saw lower bound: {e}")),
             }
+            r.reconcile_bounds();
             Ok(game_output(&r))
         }
         Command::Seesaw {
@@ -515,16 +559,17 @@ pub fn run(cli: &Cli) -> Result<Output> {
             )?;
             if let Some(file) = save {
                 let text = readable_yaml(&found.strategy.to_yaml_value(&game.scenario));
-                std::fs::write(file, text).map_err(|source| Error::Io {
-                    path: file.to_string_lossy().to_string(),
-                    source,
-                })?;
+                write_file(file, &text, &inputs)?;
             }
             let classical = classical::classical_value(&game.scenario, Choice::Auto, false, None)
                 .ok()
                 .map(|c| c.value);
             if let Some(file) = svg {
-                write_file(file, &robustness_chart(&game, &found.strategy, classical))?;
+                write_file(
+                    file,
+                    &robustness_chart(&game, &found.strategy, classical),
+                    &inputs,
+                )?;
             }
             let mut r = Report::new("seesaw", &game);
             r.strategy_analysis = Some(analyse(&game, &found.strategy, classical));
@@ -542,10 +587,12 @@ pub fn run(cli: &Cli) -> Result<Output> {
                 .ok()
                 .map(|c| c.value);
             if let Some(file) = svg {
-                write_file(file, &robustness_chart(&game, &st, classical))?;
+                write_file(file, &robustness_chart(&game, &st, classical), &inputs)?;
             }
             let mut r = Report::new("evaluate", &game);
-            r.evaluated = Some(st.value(&game.scenario));
+            // The value reported is that of the strategy made exactly valid (within the file
+            // check's tolerances), with the evaluation's error term.
+            r.evaluated = Some(st.certified_value(&game.scenario));
             r.strategy_analysis = Some(analyse(&game, &st, classical));
             Ok(game_output(&r))
         }
@@ -563,10 +610,28 @@ pub fn run(cli: &Cli) -> Result<Output> {
                 .filter(|l| !l.trim().is_empty())
                 .map(Level::parse)
                 .collect::<Result<Vec<_>>>()?;
-            let mut bounds = levels
-                .iter()
-                .map(|l| npa::npa_bound_with(&game.scenario, l, args.force, solver.resolve()))
-                .collect::<Result<Vec<_>>>()?;
+            if levels.is_empty() {
+                return Err(Error::Usage("no NPA level given".into()));
+            }
+            // Every level's size is checked before any is solved, so a refusal comes first and
+            // not after hours of work on the others.
+            for l in &levels {
+                npa::sized_relaxation(&game.scenario, l, args.force, solver.resolve())?;
+            }
+            // A level that fails (solver) after others finished keeps what finished.
+            let mut bounds = Vec::new();
+            for l in &levels {
+                match npa::npa_bound_with(&game.scenario, l, args.force, solver.resolve()) {
+                    Ok(b) => bounds.push(b),
+                    Err(e) if !bounds.is_empty() || levels.len() > 1 => {
+                        r.failures.push(format!("NPA level {}: {e}", l.name()))
+                    }
+                    Err(e) => return Err(e),
+                }
+            }
+            if bounds.is_empty() {
+                return Err(Error::solver("NPA", r.failures.join("; ")));
+            }
             if let Some(file) = svg {
                 let chart = plot::line_chart(
                     &format!("NPA bound by level, {}", game.name),
@@ -588,23 +653,21 @@ pub fn run(cli: &Cli) -> Result<Output> {
                             .collect(),
                     }],
                 );
-                write_file(file, &chart)?;
+                write_file(file, &chart, &inputs)?;
             }
             let bound = bounds
                 .pop()
                 .ok_or_else(|| Error::Usage("no NPA level given".into()))?;
             r.npa_levels = bounds;
             if let Some(file) = certificate {
-                let cert = npa::Certificate::new(&game.name, &bound)
+                let cert = npa::Certificate::new(&game.name, &game.scenario, &bound)
                     .ok_or_else(|| Error::solver("NPA", "no dual solution to save"))?;
                 let text = serde_json::to_string(&cert)
                     .map_err(|e| Error::solver("NPA", e.to_string()))?;
-                std::fs::write(file, text).map_err(|source| Error::Io {
-                    path: file.to_string_lossy().to_string(),
-                    source,
-                })?;
+                write_file(file, &text, &inputs)?;
             }
             r.npa = Some(bound);
+            r.note_best_level();
             Ok(game_output(&r))
         }
         Command::Margin {
@@ -618,32 +681,23 @@ pub fn run(cli: &Cli) -> Result<Output> {
             expected,
         } => {
             let game = load(args)?;
-            let obs = match (wins, score_sum, score_range) {
-                (Some(w), _, _) => {
-                    if w > rounds {
-                        return Err(Error::Usage(format!("{w} wins in {rounds} rounds")));
-                    }
-                    Observation {
-                        rounds: *rounds,
-                        score_sum: *w as f64,
-                        low: 0.0,
-                        high: 1.0,
-                        binary: true,
-                    }
+            if let Some(r) = score_range {
+                if r.len() != 2 {
+                    return Err(Error::Usage(format!(
+                        "--score-range takes two numbers, LO,HI; got {}",
+                        r.len()
+                    )));
                 }
-                (None, Some(sum), Some(range)) => Observation {
+            }
+            let obs = finite::observation(
+                &game.scenario,
+                &finite::ObservedRun {
                     rounds: *rounds,
-                    score_sum: *sum,
-                    low: range[0],
-                    high: range[1],
-                    binary: false,
+                    wins: *wins,
+                    score_sum: *score_sum,
+                    score_range: score_range.as_ref().map(|r| (r[0], r[1])),
                 },
-                _ => {
-                    return Err(Error::Usage(
-                        "give --wins, or --score-sum with --score-range".into(),
-                    ))
-                }
-            };
+            )?;
             let classical = classical_for(&game, args, Choice::Auto)?.value;
             let m = finite::margin(&obs, classical, *alpha, *target_p_value, *expected)?;
             Ok(Output {
@@ -714,10 +768,7 @@ pub fn run(cli: &Cli) -> Result<Output> {
                         points: results.iter().map(|r| (r.score, r.min_entropy)).collect(),
                     }],
                 );
-                std::fs::write(file, chart).map_err(|source| Error::Io {
-                    path: file.to_string_lossy().to_string(),
-                    source,
-                })?;
+                write_file(file, &chart, &inputs)?;
             }
             Ok(Output {
                 text: report::randomness_text(&game, &target, &results),
@@ -725,17 +776,8 @@ pub fn run(cli: &Cli) -> Result<Output> {
                 warnings: game.warnings.clone(),
             })
         }
-        Command::Key {
-            chsh,
-            qber,
-            json: _,
-        } => {
-            if !(0.0..=0.5).contains(qber) {
-                return Err(Error::Usage(format!(
-                    "the QBER must lie in [0, 0.5], got {qber}"
-                )));
-            }
-            let k = key::key_rate(&key::ChshEntropyBound, *chsh, *qber);
+        Command::Key { chsh, qber, .. } => {
+            let k = key::key_rate(&key::ChshEntropyBound, *chsh, *qber)?;
             let threshold = key::chsh_threshold_qber();
             Ok(Output {
                 text: report::key_text(&k, threshold),
@@ -750,6 +792,8 @@ pub fn run(cli: &Cli) -> Result<Output> {
             json,
         } => {
             let r = review::review(&protocol.to_string_lossy())?;
+            let mut inputs = inputs.clone();
+            inputs.push(PathBuf::from(&r.game.source));
             let doc = if *markdown {
                 r.to_markdown()
             } else {
@@ -757,10 +801,7 @@ pub fn run(cli: &Cli) -> Result<Output> {
             };
             let text = match output {
                 Some(file) => {
-                    std::fs::write(file, &doc).map_err(|source| Error::Io {
-                        path: file.to_string_lossy().to_string(),
-                        source,
-                    })?;
+                    write_file(file, &doc, &inputs)?;
                     format!("review written to {}\n", file.to_string_lossy())
                 }
                 None => doc,
@@ -775,10 +816,7 @@ pub fn run(cli: &Cli) -> Result<Output> {
         Command::Verify { args, certificate } => {
             let game = load(args)?;
             let path = certificate.to_string_lossy().to_string();
-            let text = std::fs::read_to_string(certificate).map_err(|source| Error::Io {
-                path: path.clone(),
-                source,
-            })?;
+            let text = bellgap::files::read_text(certificate)?;
             let cert: npa::Certificate = serde_json::from_str(&text).map_err(|e| Error::Input {
                 location: bellgap::error::Location {
                     file: path.clone(),
@@ -788,7 +826,7 @@ pub fn run(cli: &Cli) -> Result<Output> {
                 },
                 message: format!("not a certificate: {e}"),
             })?;
-            let v = npa::verify(&game.scenario, &cert)?;
+            let v = npa::verify(&game.scenario, &cert, args.force).map_err(|e| e.in_file(&path))?;
             Ok(Output {
                 text: report::verification_text(&game, &path, &v),
                 json: report::verification_json(&game, &path, &v),
@@ -807,10 +845,7 @@ pub fn run(cli: &Cli) -> Result<Output> {
             let mut saved = None;
             if let (Some(file), Some(sep)) = (save, &report.separating) {
                 let spec = expression_as_game(&c, sep);
-                std::fs::write(file, spec.to_yaml()).map_err(|source| Error::Io {
-                    path: file.to_string_lossy().to_string(),
-                    source,
-                })?;
+                write_file(file, &spec.to_yaml(), &inputs)?;
                 saved = Some(file.to_string_lossy().to_string());
             }
             let mut json = report::locality_json(&c.name, &report);
@@ -834,11 +869,10 @@ pub fn run(cli: &Cli) -> Result<Output> {
     }
 }
 
-fn write_file(file: &std::path::Path, text: &str) -> Result<()> {
-    std::fs::write(file, text).map_err(|source| Error::Io {
-        path: file.to_string_lossy().to_string(),
-        source,
-    })
+/// Writes an output atomically, never over one of the command's inputs.
+fn write_file(file: &std::path::Path, text: &str, inputs: &[PathBuf]) -> Result<()> {
+    let inputs: Vec<&std::path::Path> = inputs.iter().map(PathBuf::as_path).collect();
+    bellgap::files::write_atomic(file, text, &inputs)
 }
 
 /// Value of a strategy against visibility and detection efficiency, with the classical value.
@@ -890,6 +924,19 @@ fn warn_slow_seesaw(s: &bellgap::Scenario, dims: &[usize], restarts: usize) {
             "warning: the see-saw solves a POVM SDP at each measurement step here; expect roughly {} (rule of thumb)",
             classical::human_seconds(seconds)
         );
+    }
+}
+
+/// A command-line number that must be finite (NaN and ±inf are refused at the edge).
+fn parse_finite(text: &str) -> std::result::Result<f64, String> {
+    let v: f64 = text
+        .trim()
+        .parse()
+        .map_err(|_| format!("`{text}` is not a number"))?;
+    if v.is_finite() {
+        Ok(v)
+    } else {
+        Err(format!("`{text}` is not a finite number"))
     }
 }
 

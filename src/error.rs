@@ -54,9 +54,11 @@ pub enum Error {
     #[error("solver failure in {stage}: {message}")]
     Solver { stage: String, message: String },
 
-    #[error("cannot read {path}: {source}")]
+    /// A file could not be read or written (`op` says which).
+    #[error("cannot {op} {path}: {source}")]
     Io {
         path: String,
+        op: &'static str,
         #[source]
         source: std::io::Error,
     },
@@ -94,6 +96,22 @@ impl Error {
         Error::Solver {
             stage: stage.to_string(),
             message: message.into(),
+        }
+    }
+}
+
+impl Error {
+    /// Names `file` in an input error that does not name a file yet.
+    pub fn in_file(self, file: &str) -> Self {
+        match self {
+            Error::Input {
+                mut location,
+                message,
+            } if location.file.is_empty() => {
+                location.file = file.to_string();
+                Error::Input { location, message }
+            }
+            e => e,
         }
     }
 }

@@ -19,6 +19,7 @@
 pub mod classical;
 pub mod collins_gisin;
 pub mod error;
+pub mod files;
 pub mod game;
 pub mod ipm;
 pub mod lp;

@@ -8,7 +8,9 @@
 //! touches this file only.
 
 use good_lp::solvers::microlp::microlp;
-use good_lp::{variable, Expression, ProblemVariables, Solution, SolverModel, WithTimeLimit};
+use good_lp::{
+    variable, Expression, ProblemVariables, Solution, SolutionStatus, SolverModel, WithTimeLimit,
+};
 
 use crate::error::{Error, Result};
 
@@ -62,19 +64,29 @@ pub struct LinearProgram {
     /// the interior-point route turns its (slightly infeasible) dual solution into a bound on
     /// the optimum that floating-point error cannot invalidate.
     pub variable_box: Option<f64>,
+    /// Time limit of the simplex / branch and bound (default [`SIMPLEX_TIME_LIMIT_SECONDS`]).
+    pub time_limit_seconds: Option<f64>,
 }
 
 #[derive(Debug, Clone)]
 pub struct LpSolution {
     pub x: Vec<f64>,
     pub objective: f64,
-    /// `solved`, or `almost solved` when the interior-point method met only its relaxed
-    /// tolerances.
+    /// `solved`, `almost solved` when the interior-point method met only its relaxed
+    /// tolerances, or `stopped at the time limit` when the simplex/branch and bound ran out of
+    /// time with a feasible point that is not proven optimal (integer programmes only: a
+    /// continuous simplex that runs out of time is an error).
     pub status: &'static str,
     /// A bound on the optimum that holds despite solver and rounding error, derived from the
     /// dual solution (interior point with [`LinearProgram::variable_box`] set; see there).
     pub certified_bound: Option<f64>,
 }
+
+/// Status of a solution proven optimal.
+pub const LP_SOLVED: &str = "solved";
+/// Status of a feasible point returned when the time limit stopped the solver before it proved
+/// optimality.
+pub const LP_TIME_LIMIT: &str = "stopped at the time limit";
 
 /// Simplex runs longer than this are stopped and reported as a solver failure rather than hang.
 pub const SIMPLEX_TIME_LIMIT_SECONDS: f64 = 600.0;
@@ -137,9 +149,10 @@ impl LinearProgram {
         } else {
             problem_vars.minimise(objective)
         };
-        let mut model = unsolved
-            .using(microlp)
-            .with_time_limit(SIMPLEX_TIME_LIMIT_SECONDS);
+        let mut model = unsolved.using(microlp).with_time_limit(
+            self.time_limit_seconds
+                .unwrap_or(SIMPLEX_TIME_LIMIT_SECONDS),
+        );
         for row in &self.rows {
             let mut e = Expression::with_capacity(row.terms.len());
             for &(i, c) in &row.terms {
@@ -155,12 +168,28 @@ impl LinearProgram {
         let solution = model
             .solve()
             .map_err(|e| Error::solver(stage, e.to_string()))?;
+        // A run stopped by the time limit keeps a feasible point, but it is not an optimum: it
+        // must never be reported as one.
+        let status = match solution.status() {
+            SolutionStatus::Optimal => LP_SOLVED,
+            _ => LP_TIME_LIMIT,
+        };
+        if status != LP_SOLVED && !self.bounds.iter().any(|b| b.integer) {
+            return Err(Error::solver(
+                stage,
+                format!(
+                    "the simplex stopped at its time limit ({} s) before reaching an optimum",
+                    self.time_limit_seconds
+                        .unwrap_or(SIMPLEX_TIME_LIMIT_SECONDS)
+                ),
+            ));
+        }
         let x: Vec<f64> = vars.iter().map(|v| solution.value(*v)).collect();
         let objective = x.iter().zip(&self.objective).map(|(x, c)| x * c).sum();
         Ok(LpSolution {
             x,
             objective,
-            status: "solved",
+            status,
             certified_bound: None,
         })
     }

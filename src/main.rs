@@ -1,5 +1,6 @@
 //! The `bellgap` binary: parse the command line, run, print, and turn every error into one
 //! message and an exit code (0 success, 2 bad input or usage, 1 solver or internal failure).
+//! With `--json`, stdout carries exactly one JSON object in every case, errors included.
 
 mod cli;
 
@@ -10,9 +11,53 @@ use clap::Parser;
 use serde_json::json;
 
 fn main() -> ExitCode {
-    let cli = cli::Cli::parse();
+    // `--json` is looked for in the raw arguments too, so that an argument error (which clap
+    // reports before anything is parsed) still yields one JSON object.
+    let json_requested = std::env::args_os().any(|a| a == "--json");
+    let cli = match cli::Cli::try_parse() {
+        Ok(cli) => cli,
+        Err(e) => {
+            use clap::error::ErrorKind;
+            if matches!(e.kind(), ErrorKind::DisplayHelp | ErrorKind::DisplayVersion)
+                || !json_requested
+            {
+                e.exit();
+            }
+            let message = e.kind().to_string();
+            let detail = e.to_string();
+            eprint!("{detail}");
+            let obj = json!({"error": {
+                "kind": "usage",
+                "message": detail.lines().next().unwrap_or(&message).trim_start_matches("error: "),
+                "location": null,
+            }});
+            let _ = write_stdout(&format!("{obj}\n"));
+            return ExitCode::from(2);
+        }
+    };
     let json = cli.wants_json();
-    match cli::run(&cli) {
+    // A panic is a bug; it still ends in one message (and one JSON object) and exit code 1.
+    let outcome = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| cli::run(&cli)));
+    let result = match outcome {
+        Ok(r) => r,
+        Err(payload) => {
+            let what = payload
+                .downcast_ref::<String>()
+                .cloned()
+                .or_else(|| payload.downcast_ref::<&str>().map(|s| s.to_string()))
+                .unwrap_or_else(|| "unknown panic".into());
+            if json {
+                let obj = json!({"error": {
+                    "kind": "internal",
+                    "message": format!("internal error (a bug; please report it): {what}"),
+                    "location": null,
+                }});
+                let _ = write_stdout(&format!("{obj}\n"));
+            }
+            return ExitCode::from(1);
+        }
+    };
+    match result {
         Ok(out) => {
             for w in &out.warnings {
                 eprintln!("warning: {w}");

@@ -95,6 +95,9 @@ pub fn add_no_signalling_rows(s: &Scenario, lp: &mut LinearProgram, first: usize
     }
 }
 
+/// Most constraint nonzeros built without `force`.
+pub const NONZERO_LIMIT: f64 = 2e7;
+
 /// The no-signalling value by LP in Collins–Gisin coordinates. `force` skips the size refusal.
 pub fn no_signalling_value(s: &Scenario, force: bool) -> Result<NoSignallingValue> {
     let start = Instant::now();
@@ -104,6 +107,24 @@ pub fn no_signalling_value(s: &Scenario, force: bool) -> Result<NoSignallingValu
             what: "the no-signalling LP".into(),
             estimate: format!("{rows} positivity constraints"),
             hint: "pass --force to try anyway (the pure-Rust simplex may take very long)".into(),
+        });
+    }
+    // Each positivity row expands into up to Π (1 + k_i) Collins–Gisin terms over the players
+    // answering their last answer (k_i = answers − 1); over all rows that is Π q_i(2k_i + 1)
+    // nonzeros, which grows as 3^players even for tiny tables.
+    let nonzeros: f64 = s
+        .parties
+        .iter()
+        .map(|p| p.questions() as f64 * (2.0 * p.answers() as f64 - 1.0))
+        .product();
+    if nonzeros > NONZERO_LIMIT && !force {
+        return Err(Error::TooLarge {
+            what: "the no-signalling LP".into(),
+            estimate: format!(
+                "{rows} positivity constraints with about {nonzeros:.2e} nonzeros ({} players)",
+                s.players()
+            ),
+            hint: "pass --force to try anyway".into(),
         });
     }
     let cg = CollinsGisin::new(s);

@@ -5,7 +5,7 @@
 use serde_json::{json, Map, Value};
 
 use crate::classical::locality::LocalityReport;
-use crate::classical::{ClassicalEstimate, ClassicalValue, DeterministicStrategy};
+use crate::classical::{ClassicalEstimate, ClassicalStatus, ClassicalValue, DeterministicStrategy};
 use crate::game::Game;
 use crate::nosignal::NoSignallingValue;
 use crate::quantum::analysis::{Bipartition, Robustness};
@@ -66,12 +66,14 @@ pub struct Report<'a> {
     pub npa_levels: Vec<NpaBound>,
     pub seesaw: Option<SeesawResult>,
     /// The Born-rule value of a given strategy (`evaluate`).
-    pub evaluated: Option<f64>,
+    pub evaluated: Option<crate::quantum::strategy::CertifiedValue>,
     pub strategy_analysis: Option<StrategyAnalysis>,
     /// Bounds that could not be obtained, with the reason (reported, never replaced by a number).
     pub failures: Vec<String>,
     /// Include sizes and estimates (the `check` command).
     pub sizes: bool,
+    /// How reported bounds were reconciled with each other ([`Report::reconcile_bounds`]).
+    pub notes: Vec<String>,
 }
 
 impl<'a> Report<'a> {
@@ -88,6 +90,93 @@ impl<'a> Report<'a> {
             strategy_analysis: None,
             failures: Vec::new(),
             sizes: false,
+            notes: Vec::new(),
+        }
+    }
+
+    /// With several NPA levels: every level's bound is valid, so the best (smallest) verified
+    /// one is the quantum upper bound; noted when it is not the last level's (higher levels can
+    /// come out looser through the residual charge).
+    pub fn note_best_level(&mut self) {
+        let Some(last) = &self.npa else { return };
+        if let Some(best) = self
+            .npa_levels
+            .iter()
+            .filter(|b| b.verified_upper < last.verified_upper)
+            .min_by(|a, b| a.verified_upper.total_cmp(&b.verified_upper))
+        {
+            self.notes.push(format!(
+                "the best verified bound is level {}'s: quantum ≤ {} (level {} gives {})",
+                best.level,
+                num(best.verified_upper),
+                last.level,
+                num(last.verified_upper)
+            ));
+        }
+    }
+
+    /// The smallest verified NPA bound over the levels computed, with its level.
+    pub fn best_npa(&self) -> Option<&NpaBound> {
+        self.npa_levels
+            .iter()
+            .chain(self.npa.as_ref())
+            .min_by(|a, b| a.verified_upper.total_cmp(&b.verified_upper))
+    }
+
+    /// Makes the reported bounds obey `classical ≤ quantum lower ≤ quantum upper ≤
+    /// no-signalling`, using only facts that hold for the true values: the quantum value is at
+    /// least the (exact) classical value, so the quantum lower bound starts from the larger of
+    /// the two; the no-signalling value bounds the quantum value from above, so a verified NPA
+    /// bound above it (solver tolerance) is replaced by it; and the no-signalling value is at
+    /// least every lower bound, so a simplex value a rounding error below one is raised to it.
+    /// Each change is recorded in `notes`.
+    pub fn reconcile_bounds(&mut self) {
+        let classical = self
+            .classical
+            .as_ref()
+            .filter(|c| c.status == ClassicalStatus::Exact)
+            .map(|c| c.value);
+        if let (Some(c), Some(sw)) = (classical, self.seesaw.as_mut()) {
+            if sw.quantum_lower < c {
+                self.notes.push(format!(
+                    "the see-saw strategy scores {} (dims {:?}), below the classical value: the quantum lower bound is the classical value",
+                    num(sw.quantum_lower),
+                    sw.dims
+                ));
+                sw.seesaw_value = Some(sw.quantum_lower);
+                sw.quantum_lower = c;
+            }
+        }
+        let lower = self
+            .seesaw
+            .as_ref()
+            .map(|sw| sw.quantum_lower)
+            .into_iter()
+            .chain(classical)
+            .fold(f64::NEG_INFINITY, f64::max);
+        if let Some(ns) = self.no_signalling.as_mut() {
+            if ns.value < lower {
+                self.notes.push(format!(
+                    "the no-signalling LP gave {}, a rounding error below a lower bound: raised to {}",
+                    num(ns.value),
+                    num(lower)
+                ));
+                ns.value = lower;
+            }
+        }
+        let ns_upper = self
+            .no_signalling
+            .as_ref()
+            .map(|ns| ns.certified_upper.unwrap_or(ns.value).max(ns.value));
+        if let (Some(up), Some(b)) = (ns_upper, self.npa.as_mut()) {
+            if b.verified_upper > up {
+                self.notes.push(format!(
+                    "the verified NPA bound {} lies above the no-signalling value (solver tolerance): the quantum upper bound is the no-signalling value {}",
+                    num(b.verified_upper),
+                    num(up)
+                ));
+                b.verified_upper = up;
+            }
         }
     }
 
@@ -115,10 +204,17 @@ impl<'a> Report<'a> {
             m.insert("value_range".into(), json!(s.value_range()));
         }
         if let Some(c) = &self.classical {
-            m.insert("classical".into(), json!(c.value));
+            // A lower bound is never published under the value's key.
+            let key = match c.status {
+                ClassicalStatus::Exact => "classical",
+                ClassicalStatus::Incumbent => "classical_lower",
+            };
+            m.insert(key.into(), json!(c.value));
             m.insert(
                 "classical_details".into(),
                 json!({
+                    "status": c.status,
+                    "note": c.note,
                     "method": c.method,
                     "nodes": c.nodes,
                     "seconds": c.seconds,
@@ -157,6 +253,12 @@ impl<'a> Report<'a> {
                 let all: Vec<&NpaBound> =
                     self.npa_levels.iter().chain(std::iter::once(b)).collect();
                 m.insert("levels".into(), json!(all));
+                if let Some(best) = self.best_npa() {
+                    m.insert(
+                        "best_verified_upper".into(),
+                        json!({"level": best.level, "verified_upper": best.verified_upper}),
+                    );
+                }
             }
         }
         if let Some(sw) = &self.seesaw {
@@ -173,7 +275,9 @@ impl<'a> Report<'a> {
             }
         }
         if let Some(v) = self.evaluated {
-            m.insert("value".into(), json!(v));
+            m.insert("value".into(), json!(v.value));
+            m.insert("value_error".into(), json!(v.error));
+            m.insert("quantum_lower".into(), json!(v.lower));
         }
         if let Some(a) = &self.strategy_analysis {
             m.insert("entanglement".into(), json!(a.bipartitions));
@@ -220,6 +324,9 @@ impl<'a> Report<'a> {
             m.insert("gaps".into(), Value::Object(gaps));
         }
         m.insert("warnings".into(), json!(self.game.warnings));
+        if !self.notes.is_empty() {
+            m.insert("notes".into(), json!(self.notes));
+        }
         if !self.failures.is_empty() {
             m.insert("not_obtained".into(), json!(self.failures));
         }
@@ -271,7 +378,17 @@ impl<'a> Report<'a> {
             rows.push(("value range".into(), format!("[{}, {}]", num(lo), num(hi))));
         }
         if let Some(c) = &self.classical {
-            rows.push(("classical".into(), with_fraction(c.value)));
+            match c.status {
+                ClassicalStatus::Exact => rows.push(("classical".into(), with_fraction(c.value))),
+                ClassicalStatus::Incumbent => rows.push((
+                    "classical ≥".into(),
+                    format!(
+                        "{}  (a lower bound only, not the classical value: {})",
+                        num(c.value),
+                        c.note.as_deref().unwrap_or("not proven optimal")
+                    ),
+                )),
+            }
         }
         if let Some(ns) = &self.no_signalling {
             let mut v = with_fraction(ns.value);
@@ -324,7 +441,11 @@ impl<'a> Report<'a> {
             ));
         }
         if let Some(v) = self.evaluated {
-            rows.push(("value (Born rule)".into(), num(v)));
+            rows.push((
+                "value (Born rule)".into(),
+                format!("{}  (error ≤ {:.1e})", num(v.value), v.error),
+            ));
+            rows.push(("quantum ≥".into(), num(v.lower)));
         }
         if let (Some(sw), Some(b)) = (&self.seesaw, &self.npa) {
             let gap = b.verified_upper - sw.quantum_lower;
@@ -360,11 +481,21 @@ impl<'a> Report<'a> {
         for f in &self.failures {
             out += &format!("not obtained: {f}\n");
         }
+        for note in &self.notes {
+            out += &format!("note: {note}\n");
+        }
         if let Some(a) = &self.strategy_analysis {
             out += &analysis_text(a);
         }
         if let Some(c) = &self.classical {
-            out += "\noptimal deterministic strategy (answer to each question):\n";
+            out += match c.status {
+                ClassicalStatus::Exact => {
+                    "\noptimal deterministic strategy (answer to each question):\n"
+                }
+                ClassicalStatus::Incumbent => {
+                    "\nbest deterministic strategy found (answer to each question):\n"
+                }
+            };
             out += &strategy_text(s, &c.strategy);
             out += &format!("({:?}, {} nodes, {:.3} s)\n", c.method, c.nodes, c.seconds)
                 .to_lowercase();

@@ -218,6 +218,67 @@ impl Scenario {
     }
 }
 
+impl Scenario {
+    /// The range of one round's score when questions are drawn with probability `w(q)/W`
+    /// (`W = Σ w`) and the round scores `offset + W·V(a|q)`: the unbiased per-round estimator of
+    /// the value, whose mean is the value. For a game (`W = 1`) this is the range of `V`; for a
+    /// plain Bell expression over `Q` joint questions it is `offset + Q·[min V, max V]` (for
+    /// the CHSH expression, [−4, 4]). Questions of weight 0 are never asked and do not count.
+    pub fn per_round_score_range(&self) -> (f64, f64) {
+        let total: f64 = self.weights.iter().sum();
+        let na = self.joint_answers();
+        let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+        for (q, &w) in self.weights.iter().enumerate() {
+            if w > 0.0 {
+                for &v in &self.scores[q * na..(q + 1) * na] {
+                    lo = lo.min(v);
+                    hi = hi.max(v);
+                }
+            }
+        }
+        if lo > hi {
+            return (self.offset, self.offset);
+        }
+        (self.offset + total * lo, self.offset + total * hi)
+    }
+
+    /// A fingerprint of the flat table (sizes, weights, scores, offset, bit for bit): two 64-bit
+    /// FNV-1a hashes with different offsets, as 32 hex digits. Binds a certificate to the game
+    /// it was computed for; it detects a different or edited game, and is not a cryptographic
+    /// commitment.
+    pub fn fingerprint(&self) -> String {
+        let mut words: Vec<u64> = Vec::with_capacity(4 + self.weights.len() + self.scores.len());
+        words.push(self.players() as u64);
+        for p in &self.parties {
+            words.push(p.questions() as u64);
+            words.push(p.answers() as u64);
+        }
+        words.push(self.offset.to_bits());
+        words.extend(self.weights.iter().map(|w| w.to_bits()));
+        words.extend(self.scores.iter().map(|v| v.to_bits()));
+        let fnv = |basis: u64| {
+            let mut h = basis;
+            for w in &words {
+                for byte in w.to_le_bytes() {
+                    h ^= byte as u64;
+                    h = h.wrapping_mul(0x0000_0100_0000_01B3);
+                }
+            }
+            h
+        };
+        format!(
+            "{:016x}{:016x}",
+            fnv(0xcbf2_9ce4_8422_2325),
+            fnv(0x6c62_272e_07bb_0142)
+        )
+    }
+
+    /// Whether the question weights form a probability distribution (sum 1 within 1e-9).
+    pub fn weights_are_probabilities(&self) -> bool {
+        (self.weights.iter().sum::<f64>() - 1.0).abs() <= 1e-9
+    }
+}
+
 /// Sizes and cost estimates shown by `check` and used to refuse work that would not finish.
 #[derive(Debug, Clone, Serialize)]
 pub struct Sizes {

@@ -176,8 +176,28 @@ impl SdpProblem {
                         .map(|b| 4.0 * (b.size as f64).powi(4))
                         .sum::<f64>();
                 if ipm <= clarabel {
-                    crate::ipm::solve(self, stage, Default::default())
-                        .or_else(|_| self.solve(stage))
+                    // The fallback runs only if it fits: clarabel's dense KKT block needs
+                    // about 16·d² bytes and 5·d³ flops (d = Σ n(n+1)/2) at ~1.6 GFLOP/s.
+                    crate::ipm::solve(self, stage, Default::default()).or_else(|e| {
+                        let d: f64 = self
+                            .blocks
+                            .iter()
+                            .map(|b| b.size as f64 * (b.size as f64 + 1.0) / 2.0)
+                            .sum();
+                        let (bytes, seconds) = (16.0 * d * d, 5.0 * d * d * d / 1.6e9);
+                        if bytes > FALLBACK_MEMORY_LIMIT || seconds > FALLBACK_SECONDS_LIMIT {
+                            Err(Error::solver(
+                                stage,
+                                format!(
+                                    "{e}; the clarabel fallback was not tried (it would need about {:.1} GiB and {:.0} s)",
+                                    bytes / (1u64 << 30) as f64,
+                                    seconds
+                                ),
+                            ))
+                        } else {
+                            self.solve(stage)
+                        }
+                    })
                 } else {
                     self.solve(stage)
                         .or_else(|_| crate::ipm::solve(self, stage, Default::default()))
@@ -265,6 +285,10 @@ pub(crate) fn run_clarabel(
     };
     Ok((solver, status))
 }
+
+/// Largest memory and time a fallback solver may take without being asked for.
+const FALLBACK_MEMORY_LIMIT: f64 = 4.0 * (1u64 << 30) as f64;
+const FALLBACK_SECONDS_LIMIT: f64 = 600.0;
 
 impl Assembled {
     /// The certified upper bound on `c·y + c0` from a dual vector (any vector of the right

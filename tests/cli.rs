@@ -290,14 +290,23 @@ fn npa_json_keys_and_certificate_round_trip() {
     }
     let tampered = dir.join("tampered.json");
     std::fs::write(&tampered, c.to_string()).unwrap();
-    let v = json_of(&bellgap(&[
+    // It no longer proves the claim, so verification fails (exit 2) and says what it proves.
+    let out = bellgap(&[
         "verify",
         "games/chsh.yaml",
         &tampered.to_string_lossy(),
         "--json",
-    ]));
-    assert!(v["verified_upper"].as_f64().unwrap() >= tsirelson);
-    assert_eq!(v["matches_claim"], false);
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    let v = json_of(&out);
+    let message = v["error"]["message"].as_str().unwrap().to_string();
+    let proved: f64 = message
+        .split("proves only quantum ≤ ")
+        .nth(1)
+        .and_then(|t| t.split(',').next())
+        .and_then(|t| t.trim().parse().ok())
+        .unwrap_or_else(|| panic!("unexpected message: {message}"));
+    assert!(proved >= tsirelson, "{message}");
     // A certificate for another game is refused.
     assert_eq!(
         bellgap(&["verify", "games/i3322.yaml", &cert.to_string_lossy()])

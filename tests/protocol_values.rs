@@ -96,13 +96,14 @@ fn diqkd_chsh_key_rate_and_threshold() {
     assert!((ChshEntropyBound.entropy(2.5) - 0.456436).abs() < 1e-6);
     assert!((chsh_threshold_qber() - 0.071492).abs() < 1e-6);
     let q = 0.05;
-    let r = key_rate(&ChshEntropyBound, 2.0 * 2f64.sqrt() * (1.0 - 2.0 * q), q);
+    let r = key_rate(&ChshEntropyBound, 2.0 * 2f64.sqrt() * (1.0 - 2.0 * q), q).unwrap();
     assert!(r.key_rate > 0.0);
     let r = key_rate(
         &ChshEntropyBound,
         2.0 * 2f64.sqrt() * (1.0 - 2.0 * 0.08),
         0.08,
-    );
+    )
+    .unwrap();
     assert_eq!(r.key_rate, 0.0);
 }
 

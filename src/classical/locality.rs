@@ -65,10 +65,7 @@ pub struct Correlations {
 
 impl Correlations {
     pub fn from_file(path: &str) -> Result<Self> {
-        let text = std::fs::read_to_string(path).map_err(|source| Error::Io {
-            path: path.to_string(),
-            source,
-        })?;
+        let text = crate::files::read_text(path)?;
         Self::from_yaml(&text, path)
     }
 

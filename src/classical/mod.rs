@@ -39,12 +39,29 @@ pub enum Method {
     Milp,
 }
 
+/// Whether a classical figure is the classical value or only a lower bound on it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ClassicalStatus {
+    /// Proven optimal: the search finished, or the MILP proved optimality (and no strategy
+    /// found by hill climbing beats it).
+    Exact,
+    /// The best strategy found when the solver stopped early (time limit) or disagreed with an
+    /// independent check: a lower bound on the classical value, never the value.
+    Incumbent,
+}
+
 #[derive(Debug, Clone, Serialize)]
 pub struct ClassicalValue {
-    /// The value, recomputed from the table for the strategy below.
+    /// The value of the strategy below, recomputed from the table. The classical value itself
+    /// when `status` is `exact`, else only a lower bound on it.
     pub value: f64,
     pub strategy: DeterministicStrategy,
     pub method: Method,
+    pub status: ClassicalStatus,
+    /// Why the status is not exact.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub note: Option<String>,
     /// Search nodes visited (branch and bound only).
     pub nodes: u64,
     pub seconds: f64,
@@ -132,8 +149,32 @@ pub struct SearchEstimate {
 /// Reports finished parallel tasks: (done, total).
 pub type Progress<'a> = &'a (dyn Fn(usize, usize) + Sync);
 
-/// Computes the classical value with the chosen method. `force` skips the size refusal.
+/// Computes the classical value with the chosen method. `force` skips the size refusal. Only an
+/// exact value is returned: a MILP stopped at its time limit is an error (naming the best
+/// strategy it found), so no caller can mistake a lower bound for the value.
 pub fn classical_value(
+    s: &Scenario,
+    choice: Choice,
+    force: bool,
+    progress: Option<Progress>,
+) -> Result<ClassicalValue> {
+    let c = classical_value_or_incumbent(s, choice, force, progress)?;
+    match c.status {
+        ClassicalStatus::Exact => Ok(c),
+        ClassicalStatus::Incumbent => Err(Error::solver(
+            "classical value",
+            format!(
+                "{}; the best strategy found scores {} (a lower bound on the classical value only)",
+                c.note.as_deref().unwrap_or("not proven optimal"),
+                c.value
+            ),
+        )),
+    }
+}
+
+/// As [`classical_value`], but a MILP that stopped early returns its best strategy with status
+/// [`ClassicalStatus::Incumbent`] (for the `classical` command, which prints it as a lower bound).
+pub fn classical_value_or_incumbent(
     s: &Scenario,
     choice: Choice,
     force: bool,
@@ -607,6 +648,8 @@ pub fn search(s: &Scenario, progress: Option<Progress>) -> ClassicalValue {
         value: s.value_of_strategy(&strategy.answers),
         strategy,
         method: Method::Search,
+        status: ClassicalStatus::Exact,
+        note: None,
         nodes,
         seconds: start.elapsed().as_secs_f64(),
     }
@@ -664,6 +707,12 @@ pub fn best_response(s: &Scenario, answers: &[Vec<usize>], who: usize) -> Vec<us
 /// (one answer per question) and behaviour variables `w(a|q) ≤ s_i(q_i, a_i)` with
 /// `Σ_a w(a|q) = 1`, which forces `w` to the product of the indicators.
 pub fn milp(s: &Scenario) -> Result<ClassicalValue> {
+    milp_with_time_limit(s, crate::lp::SIMPLEX_TIME_LIMIT_SECONDS)
+}
+
+/// [`milp`] with its own time limit (seconds); a run stopped by it returns the best strategy
+/// found with status [`ClassicalStatus::Incumbent`].
+pub fn milp_with_time_limit(s: &Scenario, seconds: f64) -> Result<ClassicalValue> {
     let start = Instant::now();
     let n = s.players();
     let mut lp = LinearProgram::new(true);
@@ -713,6 +762,7 @@ pub fn milp(s: &Scenario) -> Result<ClassicalValue> {
         }
         lp.add_row(row, Relation::Eq, 1.0);
     }
+    lp.time_limit_seconds = Some(seconds);
     let sol = lp.solve("classical MILP")?;
     let answers: Vec<Vec<usize>> = indicator
         .iter()
@@ -731,7 +781,8 @@ pub fn milp(s: &Scenario) -> Result<ClassicalValue> {
         })
         .collect();
     let value = s.value_of_strategy(&answers);
-    if (value - (sol.objective + s.offset)).abs() > 1e-6 * (1.0 + value.abs()) {
+    let proven = sol.status == crate::lp::LP_SOLVED;
+    if proven && (value - (sol.objective + s.offset)).abs() > 1e-6 * (1.0 + value.abs()) {
         return Err(Error::solver(
             "classical MILP",
             format!(
@@ -740,10 +791,34 @@ pub fn milp(s: &Scenario) -> Result<ClassicalValue> {
             ),
         ));
     }
+    // An independent check: best-response hill climbing. A strategy it finds that beats the
+    // MILP's means the MILP's answer is not the optimum, whatever it claims.
+    let (climbed, climbed_answers) = hill_climb(s, 8, 0x5eed);
+    let scale = 1e-9 * (1.0 + value.abs());
+    let (value, answers, note) = if climbed > value + scale {
+        let note = if proven {
+            format!("the MILP claimed optimality at {value}, but hill climbing found a better strategy: solver failure")
+        } else {
+            format!("the MILP stopped at its time limit ({seconds} s) at {value}; hill climbing found a better strategy")
+        };
+        (climbed, climbed_answers, Some(note))
+    } else if !proven {
+        let note =
+            format!("the MILP stopped at its time limit ({seconds} s) before proving optimality");
+        (value, answers, Some(note))
+    } else {
+        (value, answers, None)
+    };
     Ok(ClassicalValue {
         value,
         strategy: DeterministicStrategy { answers },
         method: Method::Milp,
+        status: if note.is_none() {
+            ClassicalStatus::Exact
+        } else {
+            ClassicalStatus::Incumbent
+        },
+        note,
         nodes: 0,
         seconds: start.elapsed().as_secs_f64(),
     })

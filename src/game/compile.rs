@@ -114,6 +114,11 @@ impl Scope for GameScope<'_> {
     }
 }
 
+/// Most players a game may have.
+pub const MAX_PLAYERS: usize = 16;
+/// Longest player name (names appear in tables, reports and file names of outputs).
+pub const MAX_NAME_CHARS: usize = 64;
+
 pub fn compile(spec: &GameSpec, ctx: &Context, options: CompileOptions) -> Result<Compiled> {
     let mut warnings = Vec::new();
     if spec.players.len() < 2 {
@@ -121,6 +126,15 @@ pub fn compile(spec: &GameSpec, ctx: &Context, options: CompileOptions) -> Resul
             "players",
             format!(
                 "a game needs two or more players, found {}",
+                spec.players.len()
+            ),
+        ));
+    }
+    if spec.players.len() > MAX_PLAYERS {
+        return Err(ctx.error(
+            "players",
+            format!(
+                "{} players: at most {MAX_PLAYERS} are supported (the no-signalling and NPA constructions have 2^players marginal groups)",
                 spec.players.len()
             ),
         ));
@@ -268,6 +282,18 @@ fn parse_parties(spec: &GameSpec, ctx: &Context) -> Result<Vec<Party>> {
         let base = format!("players[{i}]");
         if p.name.trim().is_empty() {
             return Err(ctx.error(&format!("{base}.name"), "a player needs a name"));
+        }
+        if p.name.chars().count() > MAX_NAME_CHARS {
+            return Err(ctx.error(
+                &format!("{base}.name"),
+                format!("a player name may have at most {MAX_NAME_CHARS} characters"),
+            ));
+        }
+        if p.name.chars().any(char::is_control) {
+            return Err(ctx.error(
+                &format!("{base}.name"),
+                "a player name may not contain control characters (newlines, tabs, ...)",
+            ));
         }
         if !names.insert(p.name.clone()) {
             return Err(ctx.error(

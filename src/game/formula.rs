@@ -246,10 +246,15 @@ fn lex(src: &str) -> Result<Vec<(Token, usize)>, FormulaError> {
             }
             let text: String = chars[start..i].iter().filter(|c| **c != '_').collect();
             let token = if real {
-                Token::Real(text.parse().map_err(|_| FormulaError {
-                    pos: start,
-                    message: format!("malformed number `{text}`"),
-                })?)
+                Token::Real(
+                    text.parse::<f64>()
+                        .ok()
+                        .filter(|v| v.is_finite())
+                        .ok_or_else(|| FormulaError {
+                            pos: start,
+                            message: format!("`{text}` is not a finite number"),
+                        })?,
+                )
             } else {
                 Token::Int(text.parse().map_err(|_| FormulaError {
                     pos: start,
@@ -325,7 +330,15 @@ fn lex(src: &str) -> Result<Vec<(Token, usize)>, FormulaError> {
 struct Parser {
     tokens: Vec<(Token, usize)>,
     at: usize,
+    /// Current nesting of recursive rules (parentheses, `if`, unary `-`, `not`, calls, indices).
+    nesting: usize,
 }
+
+/// Deepest nesting the parser follows, and deepest tree it accepts (a long chain such as a
+/// flat sum of many terms makes a deep tree without nesting). Beyond these a formula is
+/// refused with a clear error instead of overflowing the stack.
+pub const MAX_NESTING: usize = 200;
+pub const MAX_TREE_DEPTH: usize = 2000;
 
 impl Parser {
     fn peek(&self) -> &Token {
@@ -362,7 +375,27 @@ impl Parser {
         }
     }
 
+    /// Runs a recursive rule one nesting level deeper, refusing beyond [`MAX_NESTING`].
+    fn nested(
+        &mut self,
+        rule: fn(&mut Self) -> Result<Expr, FormulaError>,
+    ) -> Result<Expr, FormulaError> {
+        if self.nesting >= MAX_NESTING {
+            return self.error(format!(
+                "the formula nests more than {MAX_NESTING} levels deep"
+            ));
+        }
+        self.nesting += 1;
+        let e = rule(self);
+        self.nesting -= 1;
+        e
+    }
+
     fn expr(&mut self) -> Result<Expr, FormulaError> {
+        self.nested(Self::expr_inner)
+    }
+
+    fn expr_inner(&mut self) -> Result<Expr, FormulaError> {
         if self.is_keyword("if") {
             self.bump();
             let cond = self.expr()?;
@@ -412,7 +445,7 @@ impl Parser {
     fn not(&mut self) -> Result<Expr, FormulaError> {
         if self.is_keyword("not") {
             self.bump();
-            return Ok(Expr::Not(Box::new(self.not()?)));
+            return Ok(Expr::Not(Box::new(self.nested(Self::not)?)));
         }
         self.compare()
     }
@@ -490,11 +523,11 @@ impl Parser {
     fn unary(&mut self) -> Result<Expr, FormulaError> {
         if self.is_op("-") {
             self.bump();
-            return Ok(Expr::Neg(Box::new(self.unary()?)));
+            return Ok(Expr::Neg(Box::new(self.nested(Self::unary)?)));
         }
         if self.is_op("+") {
             self.bump();
-            return self.unary();
+            return self.nested(Self::unary);
         }
         self.power()
     }
@@ -619,10 +652,46 @@ fn describe(t: &Token) -> String {
     }
 }
 
+/// Depth of a tree, computed without recursion (the tree may be too deep to recurse over).
+fn tree_depth(root: &Expr) -> usize {
+    let mut deepest = 0;
+    let mut stack = vec![(root, 1usize)];
+    while let Some((e, d)) = stack.pop() {
+        deepest = deepest.max(d);
+        match e {
+            Expr::Literal(_) | Expr::Slot(_) | Expr::Name { .. } => {}
+            Expr::Neg(x) | Expr::Not(x) => stack.push((x, d + 1)),
+            Expr::Binary { lhs, rhs, .. } => {
+                stack.push((lhs, d + 1));
+                stack.push((rhs, d + 1));
+            }
+            Expr::If {
+                cond,
+                then,
+                otherwise,
+            } => {
+                stack.push((cond, d + 1));
+                stack.push((then, d + 1));
+                stack.push((otherwise, d + 1));
+            }
+            Expr::Call { args, .. } => stack.extend(args.iter().map(|a| (a, d + 1))),
+            Expr::Index { table, index, .. } => {
+                stack.push((table, d + 1));
+                stack.push((index, d + 1));
+            }
+        }
+    }
+    deepest
+}
+
 /// Parses a formula into an unbound tree.
 pub fn parse(src: &str) -> Result<Expr, FormulaError> {
     let tokens = lex(src)?;
-    let mut p = Parser { tokens, at: 0 };
+    let mut p = Parser {
+        tokens,
+        at: 0,
+        nesting: 0,
+    };
     if matches!(p.peek(), Token::End) {
         return p.error("the formula is empty");
     }
@@ -632,6 +701,18 @@ pub fn parse(src: &str) -> Result<Expr, FormulaError> {
             "unexpected {} after a complete formula",
             describe(p.peek())
         ));
+    }
+    let depth = tree_depth(&e);
+    if depth > MAX_TREE_DEPTH {
+        // Dropping a tree this deep would itself recurse too far: it is leaked instead (once,
+        // on an error path, bounded by the input's size).
+        std::mem::forget(e);
+        return Err(FormulaError {
+            pos: 0,
+            message: format!(
+                "the formula is {depth} operations deep (limit {MAX_TREE_DEPTH}); split a long sum into constants or use a `bell` table"
+            ),
+        });
     }
     Ok(e)
 }
@@ -833,7 +914,7 @@ fn binary(op: BinaryOp, l: &Value, r: &Value) -> Result<Value, String> {
                 if b == 0 {
                     return Err("division by zero".into());
                 }
-                Value::Real(a as f64 / b as f64)
+                finite(a as f64 / b as f64)?
             }
             FloorDiv => {
                 if b == 0 {
@@ -841,7 +922,7 @@ fn binary(op: BinaryOp, l: &Value, r: &Value) -> Result<Value, String> {
                 }
                 let q = a.checked_div(b).ok_or_else(ovf)?;
                 Value::Int(if a % b != 0 && ((a < 0) != (b < 0)) {
-                    q - 1
+                    q.checked_sub(1).ok_or_else(ovf)?
                 } else {
                     q
                 })
@@ -857,7 +938,8 @@ fn binary(op: BinaryOp, l: &Value, r: &Value) -> Result<Value, String> {
                     let e = u32::try_from(b).map_err(|_| ovf())?;
                     Value::Int(a.checked_pow(e).ok_or_else(ovf)?)
                 } else {
-                    Value::Real((a as f64).powi(b as i32))
+                    // The full exponent (not truncated to 32 bits).
+                    finite((a as f64).powf(b as f64))?
                 }
             }
             Eq => Value::Bool(a == b),
@@ -872,28 +954,28 @@ fn binary(op: BinaryOp, l: &Value, r: &Value) -> Result<Value, String> {
     let a = l.as_f64()?;
     let b = r.as_f64()?;
     Ok(match op {
-        Add => Value::Real(a + b),
-        Sub => Value::Real(a - b),
-        Mul => Value::Real(a * b),
+        Add => finite(a + b)?,
+        Sub => finite(a - b)?,
+        Mul => finite(a * b)?,
         Div => {
             if b == 0.0 {
                 return Err("division by zero".into());
             }
-            Value::Real(a / b)
+            finite(a / b)?
         }
         FloorDiv => {
             if b == 0.0 {
                 return Err("division by zero".into());
             }
-            Value::Real((a / b).floor())
+            finite((a / b).floor())?
         }
         Mod => {
             if b == 0.0 {
                 return Err("modulo by zero".into());
             }
-            Value::Real(a - b * (a / b).floor())
+            finite(a - b * (a / b).floor())?
         }
-        Pow => Value::Real(a.powf(b)),
+        Pow => finite(a.powf(b))?,
         Eq => Value::Bool(a == b),
         Ne => Value::Bool(a != b),
         Lt => Value::Bool(a < b),
@@ -904,9 +986,20 @@ fn binary(op: BinaryOp, l: &Value, r: &Value) -> Result<Value, String> {
     })
 }
 
+/// A real result, refused unless finite: NaN would slip through every comparison later and an
+/// infinity would poison every sum.
+fn finite(x: f64) -> Result<Value, String> {
+    if x.is_finite() {
+        Ok(Value::Real(x))
+    } else {
+        Err(format!("the result is not a finite number ({x})"))
+    }
+}
+
 /// Modulo with the sign of the divisor (floor division convention).
 fn floor_mod(a: i64, b: i64) -> i64 {
-    let r = a % b;
+    // i64::MIN % -1 overflows in Rust; its true value is 0.
+    let r = a.checked_rem(b).unwrap_or(0);
     if r != 0 && ((r < 0) != (b < 0)) {
         r + b
     } else {
@@ -930,6 +1023,9 @@ fn call(func: Function, args: &[Value]) -> Result<Value, String> {
             let mut acc = args[0].as_f64()?;
             for v in &args[1..] {
                 let x = v.as_f64()?;
+                if x.is_nan() || acc.is_nan() {
+                    return Err("min/max of a value that is not a number".into());
+                }
                 acc = if func == Function::Min {
                     acc.min(x)
                 } else {
@@ -949,8 +1045,8 @@ fn call(func: Function, args: &[Value]) -> Result<Value, String> {
             }
             Ok(Value::Real(x.sqrt()))
         }
-        Function::Sin => Ok(Value::Real(args[0].as_f64()?.sin())),
-        Function::Cos => Ok(Value::Real(args[0].as_f64()?.cos())),
+        Function::Sin => finite(args[0].as_f64()?.sin()),
+        Function::Cos => finite(args[0].as_f64()?.cos()),
     }
 }
 

@@ -33,10 +33,7 @@ pub struct Game {
 impl Game {
     /// Reads, validates and compiles a game file.
     pub fn from_file(path: &str, options: CompileOptions) -> Result<Game> {
-        let text = std::fs::read_to_string(path).map_err(|source| Error::Io {
-            path: path.to_string(),
-            source,
-        })?;
+        let text = crate::files::read_text(path)?;
         Game::from_yaml(&text, path, options)
     }
 

@@ -9,6 +9,7 @@
 use serde::Serialize;
 
 use crate::error::{Error, Result};
+use crate::scenario::{Scenario, ScoreKind};
 
 /// Observed data: the number of rounds and the sum of per-round scores, each in [low, high]
 /// (for a game: wins, with scores in [0, 1]).
@@ -151,6 +152,91 @@ pub fn clopper_pearson_lower(n: u64, k: u64, alpha: f64) -> f64 {
     lo
 }
 
+/// What the user reported of a run, before it is checked against the game.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct ObservedRun {
+    pub rounds: u64,
+    /// Rounds won (a game with win/lose scores only).
+    pub wins: Option<u64>,
+    /// Sum of the per-round scores (a Bell expression or a scored game).
+    pub score_sum: Option<f64>,
+    /// The per-round score range the user vouches for; the game's own range when absent.
+    pub score_range: Option<(f64, f64)>,
+}
+
+/// Turns a reported run into an [`Observation`] after checking it against the game: wins only
+/// for a win/lose game whose question weights are probabilities; a score sum that is finite;
+/// a score range that is finite and contains the game's own per-round range
+/// ([`Scenario::per_round_score_range`]), since Hoeffding's and Azuma's bounds are false for
+/// scores outside the range they are given. A wider range is valid (only looser).
+pub fn observation(s: &Scenario, run: &ObservedRun) -> Result<Observation> {
+    if run.rounds == 0 {
+        return Err(Error::Usage("the number of rounds must be positive".into()));
+    }
+    let (game_lo, game_hi) = s.per_round_score_range();
+    match (run.wins, run.score_sum) {
+        (Some(w), None) => {
+            if s.kind != ScoreKind::Win || !s.weights_are_probabilities() {
+                return Err(Error::Usage(
+                    "wins apply to a game with a win predicate and a question distribution; for a Bell expression or a score give the score sum".into(),
+                ));
+            }
+            if w > run.rounds {
+                return Err(Error::Usage(format!("{w} wins in {} rounds", run.rounds)));
+            }
+            if run.score_range.is_some() {
+                return Err(Error::Usage(
+                    "a score range goes with a score sum, not with wins".into(),
+                ));
+            }
+            Ok(Observation {
+                rounds: run.rounds,
+                score_sum: w as f64,
+                low: 0.0,
+                high: 1.0,
+                binary: true,
+            })
+        }
+        (None, Some(sum)) => {
+            if !sum.is_finite() {
+                return Err(Error::Usage(format!(
+                    "the score sum must be a finite number, got {sum}"
+                )));
+            }
+            let (lo, hi) = run.score_range.unwrap_or((game_lo, game_hi));
+            if !lo.is_finite() || !hi.is_finite() {
+                return Err(Error::Usage(format!(
+                    "the score range must be finite, got [{lo}, {hi}]"
+                )));
+            }
+            let slack = 1e-9 * (1.0 + game_lo.abs().max(game_hi.abs()));
+            if lo > game_lo + slack || hi < game_hi - slack {
+                return Err(Error::Usage(format!(
+                    "the score range [{lo}, {hi}] does not contain the game's per-round score range [{game_lo}, {game_hi}]: the confidence bounds and p-value would not hold"
+                )));
+            }
+            if hi <= lo {
+                return Err(Error::Usage(format!(
+                    "the score range [{lo}, {hi}] is empty: every round scores {lo}, so nothing can be certified"
+                )));
+            }
+            Ok(Observation {
+                rounds: run.rounds,
+                score_sum: sum,
+                low: lo,
+                high: hi,
+                binary: false,
+            })
+        }
+        (Some(_), Some(_)) => Err(Error::Usage(
+            "give either wins or a score sum, not both".into(),
+        )),
+        (None, None) => Err(Error::Usage(
+            "give the wins (a game) or the score sum (a Bell expression)".into(),
+        )),
+    }
+}
+
 /// Margins, p-value and rounds needed for an observation against a classical value.
 pub fn margin(
     obs: &Observation,
@@ -161,6 +247,25 @@ pub fn margin(
 ) -> Result<Margin> {
     if obs.rounds == 0 {
         return Err(Error::Usage("the number of rounds must be positive".into()));
+    }
+    if !obs.score_sum.is_finite() || !obs.low.is_finite() || !obs.high.is_finite() {
+        return Err(Error::Usage(
+            "the score sum and range must be finite numbers".into(),
+        ));
+    }
+    if !classical.is_finite() || classical < obs.low || classical > obs.high {
+        return Err(Error::Usage(format!(
+            "the classical value {classical} lies outside the score range [{}, {}]",
+            obs.low, obs.high
+        )));
+    }
+    if let Some(e) = expected_mean {
+        if !e.is_finite() || e < obs.low || e > obs.high {
+            return Err(Error::Usage(format!(
+                "the expected mean score {e} lies outside the score range [{}, {}]",
+                obs.low, obs.high
+            )));
+        }
     }
     if obs.high.partial_cmp(&obs.low) != Some(std::cmp::Ordering::Greater) {
         return Err(Error::Usage(format!(
@@ -202,8 +307,12 @@ pub fn margin(
     let p_value_log10 = exponent / std::f64::consts::LN_10;
     let expected_mean = expected_mean.unwrap_or(mean);
     let gap = expected_mean - classical;
+    // Saturating conversion: a gap so small that the count exceeds u64 is reported as None
+    // ("not reachable") rather than as 2⁶⁴ − 1.
     let rounds_needed = (gap > 0.0)
-        .then(|| ((1.0 / target_p_value).ln() * width * width / (2.0 * gap * gap)).ceil() as u64);
+        .then(|| ((1.0 / target_p_value).ln() * width * width / (2.0 * gap * gap)).ceil())
+        .filter(|r| r.is_finite() && *r < u64::MAX as f64)
+        .map(|r| r as u64);
     Ok(Margin {
         rounds: obs.rounds,
         observed_mean: mean,

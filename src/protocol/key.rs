@@ -5,6 +5,8 @@
 
 use serde::Serialize;
 
+use crate::error::{Error, Result};
+
 /// Binary entropy in bits.
 pub fn binary_entropy(p: f64) -> f64 {
     if p <= 0.0 || p >= 1.0 {
@@ -17,6 +19,9 @@ pub fn binary_entropy(p: f64) -> f64 {
 /// A lower bound on H(A|E) per round, given the score in the bound's own convention.
 pub trait EntropyBound {
     fn name(&self) -> &'static str;
+    /// The scores the bound is defined for (finite, and no higher than any quantum device can
+    /// reach): anything outside is refused rather than extrapolated.
+    fn score_range(&self) -> (f64, f64);
     fn entropy(&self, score: f64) -> f64;
 }
 
@@ -28,6 +33,12 @@ pub struct ChshEntropyBound;
 impl EntropyBound for ChshEntropyBound {
     fn name(&self) -> &'static str {
         "CHSH analytic bound (Acín et al. 2007; Pironio et al. 2009)"
+    }
+    fn score_range(&self) -> (f64, f64) {
+        // |S| ≤ 2√2 for every quantum strategy (Tsirelson 1980); the tiny allowance absorbs
+        // the rounding of a value computed at the maximum.
+        let tsirelson = 2.0 * std::f64::consts::SQRT_2;
+        (-tsirelson * (1.0 + 1e-12), tsirelson * (1.0 + 1e-12))
     }
     fn entropy(&self, s: f64) -> f64 {
         if s <= 2.0 {
@@ -51,15 +62,30 @@ pub struct KeyRate {
     pub bound: &'static str,
 }
 
-pub fn key_rate(bound: &dyn EntropyBound, score: f64, qber: f64) -> KeyRate {
+/// Key figures at a score and QBER. Refuses a score outside the bound's range (a score above
+/// the quantum maximum would otherwise give a key rate no device can have) and a QBER that is
+/// not a probability in [0, 1/2].
+pub fn key_rate(bound: &dyn EntropyBound, score: f64, qber: f64) -> Result<KeyRate> {
+    let (lo, hi) = bound.score_range();
+    if !score.is_finite() || score < lo || score > hi {
+        return Err(Error::Usage(format!(
+            "the score {score} is outside [{lo:.10}, {hi:.10}], the range of quantum devices for the {}",
+            bound.name()
+        )));
+    }
+    if !(0.0..=0.5).contains(&qber) {
+        return Err(Error::Usage(format!(
+            "the QBER must be a number in [0, 0.5], got {qber}"
+        )));
+    }
     let h = bound.entropy(score);
-    KeyRate {
+    Ok(KeyRate {
         score,
         qber,
         conditional_entropy: h,
         key_rate: (h - binary_entropy(qber)).max(0.0),
         bound: bound.name(),
-    }
+    })
 }
 
 /// For depolarising noise, where S = 2√2(1 − 2Q): the QBER at which the CHSH key rate reaches
@@ -93,7 +119,19 @@ mod tests {
         assert!((chsh_threshold_qber() - 0.071492).abs() < 1e-6);
         assert!((ChshEntropyBound.entropy(2.0 * std::f64::consts::SQRT_2) - 1.0).abs() < 1e-12);
         assert_eq!(ChshEntropyBound.entropy(1.9), 0.0);
-        let r = key_rate(&ChshEntropyBound, 2.5, 0.02);
+        let r = key_rate(&ChshEntropyBound, 2.5, 0.02).unwrap();
         assert!((r.key_rate - (0.456436 - binary_entropy(0.02))).abs() < 1e-6);
+    }
+
+    #[test]
+    fn refuses_impossible_scores_and_error_rates() {
+        for s in [2.9, 4.0, f64::INFINITY, f64::NAN, f64::NEG_INFINITY, -3.0] {
+            assert!(key_rate(&ChshEntropyBound, s, 0.02).is_err(), "S = {s}");
+        }
+        for q in [-0.1, 0.6, f64::NAN, f64::INFINITY] {
+            assert!(key_rate(&ChshEntropyBound, 2.5, q).is_err(), "Q = {q}");
+        }
+        let top = key_rate(&ChshEntropyBound, 2.0 * std::f64::consts::SQRT_2, 0.0).unwrap();
+        assert!((top.key_rate - 1.0).abs() < 1e-12);
     }
 }

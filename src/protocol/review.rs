@@ -21,7 +21,7 @@ use std::path::Path;
 use serde::Deserialize;
 use serde_json::{json, Value};
 
-use super::finite::{margin, Margin, Observation};
+use super::finite::{margin, observation, Margin, ObservedRun};
 use super::key::{chsh_threshold_qber, key_rate, ChshEntropyBound, KeyRate};
 use super::randomness::{guessing_probability, Randomness, Target};
 use super::CAUTION;
@@ -111,10 +111,7 @@ fn chsh_correlator(game: &Game, score: f64) -> Option<f64> {
 }
 
 pub fn review(path: &str) -> Result<Review> {
-    let text = std::fs::read_to_string(path).map_err(|source| Error::Io {
-        path: path.to_string(),
-        source,
-    })?;
+    let text = crate::files::read_text(path)?;
     let p: ProtocolFile =
         serde_yaml::from_str(&text).map_err(|e| crate::game::yaml_error(e, path))?;
     let base = Path::new(path).parent().unwrap_or(Path::new("."));
@@ -128,32 +125,16 @@ pub fn review(path: &str) -> Result<Review> {
         },
         message: m,
     };
-    let obs =
-        match (p.wins, p.score_sum, p.score_range) {
-            (Some(w), None, None) => {
-                if w > p.rounds {
-                    return Err(bad(format!("{w} wins in {} rounds", p.rounds)));
-                }
-                Observation {
-                    rounds: p.rounds,
-                    score_sum: w as f64,
-                    low: 0.0,
-                    high: 1.0,
-                    binary: true,
-                }
-            }
-            (None, Some(sum), Some([lo, hi])) => Observation {
-                rounds: p.rounds,
-                score_sum: sum,
-                low: lo,
-                high: hi,
-                binary: false,
-            },
-            _ => return Err(bad(
-                "give either `wins` (a game) or `score_sum` with `score_range` (a Bell expression)"
-                    .into(),
-            )),
-        };
+    let obs = observation(
+        s,
+        &ObservedRun {
+            rounds: p.rounds,
+            wins: p.wins,
+            score_sum: p.score_sum,
+            score_range: p.score_range.map(|[lo, hi]| (lo, hi)),
+        },
+    )
+    .map_err(|e| bad(e.to_string()))?;
     let classical = classical_value(s, Choice::Auto, false, None)?.value;
     let no_signalling = no_signalling_value(s, false)?.value;
     let npa = npa_bound(s, &default_level(s)?, false)?;
@@ -208,7 +189,7 @@ pub fn review(path: &str) -> Result<Review> {
     let key = match (&p.key, chsh_correlator(&game, certified_score)) {
         (Some(k), Some(sv)) => Some((
             sv,
-            key_rate(&ChshEntropyBound, sv, k.qber),
+            key_rate(&ChshEntropyBound, sv, k.qber).map_err(|e| bad(format!("key: {e}")))?,
             chsh_threshold_qber(),
         )),
         (Some(_), None) => {

@@ -116,11 +116,57 @@ fn projectors(s: &Scenario) -> Vec<Vec<Projector>> {
         .collect()
 }
 
-/// Generating words of a level, identity first, deduplicated.
+/// Most generating words ever enumerated, even with `force`: a moment matrix of this side has
+/// 2.5·10⁹ entries, beyond any machine this tool runs on. Enumeration stops as soon as it is
+/// passed, so the refusal itself costs little memory.
+pub const WORD_CEILING: usize = 50_000;
+
+fn too_many_words(level: &Level, what: String) -> Error {
+    Error::TooLarge {
+        what: format!("NPA level {}", level.name()),
+        estimate: what,
+        hint: format!(
+            "choose a lower level (at most {WORD_CEILING} generating words can be built)"
+        ),
+    }
+}
+
+/// Generating words of a level, identity first, deduplicated. Refuses (before allocating
+/// more) a level with more than [`WORD_CEILING`] words.
 pub fn generating_words(s: &Scenario, level: &Level) -> Result<Vec<Word>> {
     let ops = projectors(s);
     let n = s.players();
     let mut set: BTreeSet<Word> = BTreeSet::new();
+    // Products over players or pattern letters are estimated before they are enumerated.
+    let ops_count: Vec<f64> = ops.iter().map(|o| o.len() as f64).collect();
+    match level {
+        Level::Joint => {
+            let joint: f64 = ops_count.iter().map(|c| 1.0 + c).product();
+            if joint > WORD_CEILING as f64 {
+                return Err(too_many_words(
+                    level,
+                    format!("about {joint:.2e} generating words ({n} players)"),
+                ));
+            }
+        }
+        Level::Patterns(patterns) => {
+            let work: f64 = patterns
+                .iter()
+                .map(|p| {
+                    p.iter()
+                        .map(|&i| ops_count.get(i).copied().unwrap_or(0.0))
+                        .product::<f64>()
+                })
+                .sum();
+            if work > WORD_CEILING as f64 * 20.0 {
+                return Err(too_many_words(
+                    level,
+                    format!("the patterns expand to about {work:.2e} products"),
+                ));
+            }
+        }
+        Level::Length(_) => {}
+    }
     match level {
         Level::Length(k) => {
             let all: Vec<Projector> = ops.iter().flatten().copied().collect();
@@ -133,9 +179,18 @@ pub fn generating_words(s: &Scenario, level: &Level) -> Result<Vec<Word>> {
                         if let Some(c) = super::words::canonical(w.iter().copied().chain([p])) {
                             if c.len() == len && !set.contains(&c) {
                                 next.insert(c);
+                                if set.len() + next.len() > WORD_CEILING {
+                                    return Err(too_many_words(
+                                        level,
+                                        format!("more than {WORD_CEILING} generating words (stopped counting at length {len})"),
+                                    ));
+                                }
                             }
                         }
                     }
+                }
+                if next.is_empty() {
+                    break;
                 }
                 set.extend(next.iter().cloned());
                 frontier = next.into_iter().collect();
@@ -146,9 +201,15 @@ pub fn generating_words(s: &Scenario, level: &Level) -> Result<Vec<Word>> {
             for p in ops.iter().flatten() {
                 set.insert(vec![*p]);
             }
-            for mask in 1usize..(1 << n) {
+            // Players without operators (one answer) add no words: the masks run over the
+            // others only (fewer than 60 of them, by the estimate above).
+            let active: Vec<usize> = (0..n).filter(|&i| !ops[i].is_empty()).collect();
+            for mask in 1usize..(1usize << active.len()) {
                 if mask.count_ones() >= 2 {
-                    let pattern: Vec<usize> = (0..n).filter(|i| mask >> i & 1 == 1).collect();
+                    let pattern: Vec<usize> = (0..active.len())
+                        .filter(|k| mask >> k & 1 == 1)
+                        .map(|k| active[k])
+                        .collect();
                     set.extend(words_of_pattern(&pattern, &ops));
                 }
             }
@@ -220,6 +281,25 @@ pub struct Relaxation {
 /// Builds the moment matrix and the SDP. Fails (as a usage error) when the level does not
 /// contain a moment the game's value needs.
 pub fn relaxation(s: &Scenario, level: &Level) -> Result<Relaxation> {
+    // Expanding the value into Collins–Gisin coordinates costs Π (1 + k_i) over the players at
+    // their last answer, per table entry: checked before it is done.
+    let answers_last: Vec<usize> = s.parties.iter().map(|p| p.answers() - 1).collect();
+    let mut expansion = 0.0;
+    s.for_each_term(|_, ad, _| {
+        expansion += ad
+            .iter()
+            .zip(&answers_last)
+            .filter(|(a, last)| a == last)
+            .map(|(_, &k)| 1.0 + k as f64)
+            .product::<f64>();
+    });
+    if expansion > crate::nosignal::NONZERO_LIMIT {
+        return Err(Error::TooLarge {
+            what: format!("NPA level {}", level.name()),
+            estimate: format!("the value expands into about {expansion:.2e} Collins–Gisin terms"),
+            hint: "this game is too large for the NPA relaxation".into(),
+        });
+    }
     let matrix = MomentMatrix::new(generating_words(s, level)?);
     let cg = CollinsGisin::new(s);
     let n = s.players();
@@ -390,14 +470,16 @@ pub fn npa_bound(s: &Scenario, level: &Level, force: bool) -> Result<NpaBound> {
     npa_bound_with(s, level, force, SdpSolver::Auto)
 }
 
-/// Builds and solves the relaxation at `level` with the given solver.
-pub fn npa_bound_with(
+/// Builds the relaxation at `level` after checking its size: the number of generating words
+/// before the matrix is built, then the time and memory estimate of `solver` (for `auto`, of
+/// both solvers it may use, since the fallback must fit too). Refuses with the estimate unless
+/// `force`.
+pub fn sized_relaxation(
     s: &Scenario,
     level: &Level,
     force: bool,
     solver: SdpSolver,
-) -> Result<NpaBound> {
-    let start = Instant::now();
+) -> Result<(Relaxation, NpaEstimate)> {
     let words = generating_words(s, level)?.len();
     if words > MAX_WORDS && !force {
         let n = words as f64;
@@ -412,7 +494,6 @@ pub fn npa_bound_with(
         });
     }
     let r = relaxation(s, level)?;
-    let build_seconds = start.elapsed().as_secs_f64();
     let est = estimate_for(&r, solver);
     if !force && (est.seconds > SECONDS_LIMIT || est.memory_bytes > MEMORY_LIMIT) {
         return Err(Error::TooLarge {
@@ -428,6 +509,19 @@ pub fn npa_bound_with(
             hint: "choose a lower level, or pass --force".into(),
         });
     }
+    Ok((r, est))
+}
+
+/// Builds and solves the relaxation at `level` with the given solver.
+pub fn npa_bound_with(
+    s: &Scenario,
+    level: &Level,
+    force: bool,
+    solver: SdpSolver,
+) -> Result<NpaBound> {
+    let start = Instant::now();
+    let (r, _) = sized_relaxation(s, level, force, solver)?;
+    let build_seconds = start.elapsed().as_secs_f64();
     let sol = r
         .problem
         .solve_with(solver, &format!("NPA level {}", level.name()))?;
@@ -486,6 +580,9 @@ pub fn default_level(s: &Scenario) -> Result<Level> {
 pub struct Certificate {
     pub format: String,
     pub game: String,
+    /// [`Scenario::fingerprint`] of the game's flat table.
+    #[serde(default)]
+    pub game_fingerprint: String,
     pub level: String,
     pub matrix_size: usize,
     pub moments: usize,
@@ -494,14 +591,15 @@ pub struct Certificate {
     pub dual: Vec<f64>,
 }
 
-pub const CERTIFICATE_FORMAT: &str = "bellgap NPA dual certificate, version 1";
+pub const CERTIFICATE_FORMAT: &str = "bellgap NPA dual certificate, version 2";
 
 impl Certificate {
-    pub fn new(game: &str, bound: &NpaBound) -> Option<Self> {
+    pub fn new(game: &str, s: &Scenario, bound: &NpaBound) -> Option<Self> {
         let sol = bound.solution.as_ref()?;
         Some(Certificate {
             format: CERTIFICATE_FORMAT.into(),
             game: game.into(),
+            game_fingerprint: s.fingerprint(),
             level: bound.level.clone(),
             matrix_size: bound.matrix_size,
             moments: bound.moments,
@@ -524,31 +622,89 @@ pub struct Verification {
 }
 
 /// Rebuilds the relaxation named in the certificate and recomputes the bound from its dual
-/// vector, without any solver.
-pub fn verify(s: &Scenario, cert: &Certificate) -> Result<Verification> {
+/// vector, without any solver. Everything in the certificate is untrusted: it must name this
+/// game (fingerprint of the flat table), a level whose size is checked before anything is
+/// built, and a finite dual vector of the right length; a recomputed bound above the claimed
+/// one is an error, not a success.
+pub fn verify(s: &Scenario, cert: &Certificate, force: bool) -> Result<Verification> {
+    let bad = |message: String| Error::Input {
+        location: crate::error::Location::default(),
+        message,
+    };
     if cert.format != CERTIFICATE_FORMAT {
-        return Err(Error::Usage(format!(
-            "not a certificate of this tool (format `{}`)",
+        return Err(bad(format!(
+            "not a certificate this version can check (format `{}`, expected `{CERTIFICATE_FORMAT}`): save it again with `npa --certificate`",
             cert.format
         )));
     }
+    if cert.game_fingerprint != s.fingerprint() {
+        return Err(bad(format!(
+            "the certificate was computed for another game (`{}`, fingerprint {}; this game's is {})",
+            cert.game,
+            cert.game_fingerprint,
+            s.fingerprint()
+        )));
+    }
+    if !cert.verified_upper.is_finite() {
+        return Err(bad(format!(
+            "the claimed bound {} is not a finite number",
+            cert.verified_upper
+        )));
+    }
     let level = Level::parse(&cert.level)?;
+    // Sizes first: a certificate may claim a level whose matrix would exhaust memory.
+    let words = generating_words(s, &level)?.len();
+    if words != cert.matrix_size {
+        return Err(bad(format!(
+            "the certificate is for a {0}×{0} moment matrix; this game at level {1} gives {2}×{2}",
+            cert.matrix_size, cert.level, words
+        )));
+    }
+    if words > MAX_WORDS && !force {
+        return Err(Error::TooLarge {
+            what: format!("checking a certificate at NPA level {}", cert.level),
+            estimate: format!("a {words}×{words} moment matrix"),
+            hint: "pass --force to check it anyway".into(),
+        });
+    }
     let r = relaxation(s, &level)?;
-    if r.matrix.size() != cert.matrix_size || r.matrix.moments.len() != cert.moments {
-        return Err(Error::Usage(format!(
-            "the certificate is for a {0}×{0} moment matrix with {1} moments; this game at level {2} gives {3}×{3} with {4}: wrong game?",
-            cert.matrix_size,
+    if r.matrix.moments.len() != cert.moments {
+        return Err(bad(format!(
+            "the certificate is for {} moments; this game at level {} gives {}",
             cert.moments,
             cert.level,
-            r.matrix.size(),
             r.matrix.moments.len()
         )));
     }
-    let bound = r.problem.assemble().certified_bound(&cert.dual)?;
+    let assembled = r.problem.assemble();
+    if cert.dual.len() != assembled.b.len() {
+        return Err(bad(format!(
+            "the dual vector has {} entries; the problem at level {} has {}",
+            cert.dual.len(),
+            cert.level,
+            assembled.b.len()
+        )));
+    }
+    if let Some(k) = cert.dual.iter().position(|v| !v.is_finite()) {
+        return Err(bad(format!("dual entry {k} is not a finite number")));
+    }
+    let bound = assembled.certified_bound(&cert.dual)?;
+    if !bound.is_finite() {
+        return Err(bad(
+            "the dual vector's entries are so large that the bound it proves is not finite".into(),
+        ));
+    }
+    let matches_claim = bound <= cert.verified_upper + 1e-12 * (1.0 + cert.verified_upper.abs());
+    if !matches_claim {
+        return Err(bad(format!(
+            "the certificate proves only quantum ≤ {bound}, not the claimed {}",
+            cert.verified_upper
+        )));
+    }
     Ok(Verification {
         level: cert.level.clone(),
         verified_upper: bound,
         claimed: cert.verified_upper,
-        matches_claim: bound <= cert.verified_upper + 1e-12 * (1.0 + cert.verified_upper.abs()),
+        matches_claim,
     })
 }

@@ -15,6 +15,7 @@ use num_complex::Complex64;
 use rayon::prelude::*;
 use serde::Serialize;
 
+pub use super::strategy::clean_povm;
 use super::strategy::{apply_on_axis, CMatrix, CVector, QuantumStrategy};
 use crate::error::{Error, Result};
 use crate::scenario::{digits, index_of, Scenario};
@@ -32,8 +33,15 @@ pub struct SeesawOptions {
 
 #[derive(Debug, Clone, Serialize)]
 pub struct SeesawResult {
-    /// Value of the best strategy, recomputed by the Born rule.
+    /// Value of the best strategy, recomputed by the Born rule and rounded down by its error
+    /// term ([`QuantumStrategy::certified_value`]).
     pub quantum_lower: f64,
+    /// The error term subtracted.
+    pub value_error: f64,
+    /// The see-saw strategy's own (rounded-down) value, when a report replaced `quantum_lower`
+    /// by a larger lower bound (the classical value).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub seesaw_value: Option<f64>,
     pub dims: Vec<usize>,
     pub seed: u64,
     pub restarts: usize,
@@ -310,37 +318,6 @@ fn povm_sdp(b: &[CMatrix]) -> Result<Vec<CMatrix>> {
     Ok(clean_povm(povm))
 }
 
-/// Makes a nearly valid POVM exactly valid: Hermitian parts, negative eigenvalues clipped, then
-/// `M_a ← S^{-1/2} M_a S^{-1/2}` with `S = Σ M_a`.
-pub fn clean_povm(povm: Vec<CMatrix>) -> Vec<CMatrix> {
-    let d = povm[0].nrows();
-    let clipped: Vec<CMatrix> = povm
-        .into_iter()
-        .map(|m| {
-            let h = (&m + m.adjoint()) * Complex64::new(0.5, 0.0);
-            let eig = h.symmetric_eigen();
-            let mut out = CMatrix::zeros(d, d);
-            for k in 0..d {
-                let v = eig.eigenvalues[k].max(0.0);
-                if v > 0.0 {
-                    let col = eig.eigenvectors.column(k);
-                    out += col * col.adjoint() * Complex64::new(v, 0.0);
-                }
-            }
-            out
-        })
-        .collect();
-    let sum = clipped.iter().fold(CMatrix::zeros(d, d), |acc, m| acc + m);
-    let eig = sum.symmetric_eigen();
-    let mut inv_sqrt = CMatrix::zeros(d, d);
-    for k in 0..d {
-        let v = eig.eigenvalues[k].max(1e-300);
-        let col = eig.eigenvectors.column(k);
-        inv_sqrt += col * col.adjoint() * Complex64::new(1.0 / v.sqrt(), 0.0);
-    }
-    clipped.iter().map(|m| &inv_sqrt * m * &inv_sqrt).collect()
-}
-
 /// One see-saw run from a random start.
 fn run(s: &Scenario, opts: &SeesawOptions, rng: &mut Rng) -> Result<(QuantumStrategy, usize)> {
     let mut st = QuantumStrategy {
@@ -439,9 +416,20 @@ pub fn seesaw(
             best = Some((v, st, rounds));
         }
     }
-    let (value, strategy, rounds) = best.expect("at least one restart");
+    let (_, strategy, rounds) = best.expect("at least one restart");
+    // The reported lower bound is the strategy's value rounded down by its error term, so that
+    // rounding can never lift it above the value of a valid strategy.
+    let certified = strategy.certified_value(s);
+    if !certified.lower.is_finite() {
+        return Err(Error::solver(
+            "see-saw",
+            "the strategy's value is not a finite number",
+        ));
+    }
     Ok(SeesawResult {
-        quantum_lower: value,
+        quantum_lower: certified.lower,
+        value_error: certified.error,
+        seesaw_value: None,
         dims: opts.dims.clone(),
         seed: opts.seed,
         restarts: opts.restarts,

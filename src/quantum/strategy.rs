@@ -20,7 +20,7 @@ use nalgebra::{DMatrix, DVector};
 use num_complex::Complex64;
 use serde_yaml::{Mapping, Value as Yaml};
 
-use crate::error::{Error, Result};
+use crate::error::Result;
 use crate::game::compile::Context;
 use crate::game::locate::SourceMap;
 use crate::scenario::{digits, Scenario};
@@ -31,6 +31,48 @@ pub type CVector = DVector<Complex64>;
 /// Tolerances for checking a strategy file.
 pub const NORM_TOLERANCE: f64 = 1e-6;
 pub const POVM_TOLERANCE: f64 = 1e-7;
+
+/// A strategy's value with the error term of its evaluation.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct CertifiedValue {
+    /// The value computed (compensated sum) for the strategy made valid.
+    pub value: f64,
+    /// A bound on |value − the exact value of that valid strategy|.
+    pub error: f64,
+    /// `value − error`: a lower bound on the quantum value that rounding cannot invalidate.
+    pub lower: f64,
+}
+
+/// Makes a nearly valid POVM exactly valid (up to rounding): Hermitian parts, negative
+/// eigenvalues clipped, then `M_a ← S^{-1/2} M_a S^{-1/2}` with `S = Σ M_a`.
+pub fn clean_povm(povm: Vec<CMatrix>) -> Vec<CMatrix> {
+    let d = povm[0].nrows();
+    let clipped: Vec<CMatrix> = povm
+        .into_iter()
+        .map(|m| {
+            let h = (&m + m.adjoint()) * Complex64::new(0.5, 0.0);
+            let eig = h.symmetric_eigen();
+            let mut out = CMatrix::zeros(d, d);
+            for k in 0..d {
+                let v = eig.eigenvalues[k].max(0.0);
+                if v > 0.0 {
+                    let col = eig.eigenvectors.column(k);
+                    out += col * col.adjoint() * Complex64::new(v, 0.0);
+                }
+            }
+            out
+        })
+        .collect();
+    let sum = clipped.iter().fold(CMatrix::zeros(d, d), |acc, m| acc + m);
+    let eig = sum.symmetric_eigen();
+    let mut inv_sqrt = CMatrix::zeros(d, d);
+    for k in 0..d {
+        let v = eig.eigenvalues[k].max(1e-300);
+        let col = eig.eigenvectors.column(k);
+        inv_sqrt += col * col.adjoint() * Complex64::new(1.0 / v.sqrt(), 0.0);
+    }
+    clipped.iter().map(|m| &inv_sqrt * m * &inv_sqrt).collect()
+}
 
 #[derive(Debug, Clone, PartialEq)]
 pub struct QuantumStrategy {
@@ -95,6 +137,111 @@ impl QuantumStrategy {
         s.value_of_behaviour(&self.behaviour(s))
     }
 
+    /// The same strategy made exactly valid (up to rounding): the state normalised, each
+    /// element replaced by its Hermitian part with negative eigenvalues clipped, and each
+    /// question's elements rescaled by `S^{-1/2} · S^{-1/2}` with `S = Σ_a M_a`. A strategy that
+    /// passed [`QuantumStrategy::check`] moves by at most the check's tolerances.
+    pub fn made_valid(&self) -> QuantumStrategy {
+        let norm = self.state.norm();
+        QuantumStrategy {
+            dims: self.dims.clone(),
+            state: &self.state / Complex64::new(norm, 0.0),
+            measurements: self
+                .measurements
+                .iter()
+                .map(|player| player.iter().map(|povm| clean_povm(povm.clone())).collect())
+                .collect(),
+        }
+    }
+
+    /// How far the strategy is from a valid one, as it stands in floating point: `state` is
+    /// `|‖ψ‖ − 1|`, and per player the largest over questions of `‖Σ_a M_a − I‖_F + Σ_a
+    /// (‖M_a − M_a†‖_F + max(0, −λ_min))`.
+    pub fn invalidity(&self) -> (f64, Vec<f64>) {
+        let state = (self.state.norm() - 1.0).abs();
+        let players = self
+            .measurements
+            .iter()
+            .zip(&self.dims)
+            .map(|(player, &d)| {
+                player
+                    .iter()
+                    .map(|povm| {
+                        let mut sum = CMatrix::zeros(d, d);
+                        let mut elementwise = 0.0;
+                        for m in povm {
+                            let h = (m + m.adjoint()) * Complex64::new(0.5, 0.0);
+                            let min = h
+                                .symmetric_eigenvalues()
+                                .iter()
+                                .cloned()
+                                .fold(f64::INFINITY, f64::min);
+                            elementwise += (m - m.adjoint()).norm() + (-min).max(0.0);
+                            sum += m;
+                        }
+                        (sum - CMatrix::identity(d, d)).norm() + elementwise
+                    })
+                    .fold(0.0, f64::max)
+            })
+            .collect();
+        (state, players)
+    }
+
+    /// The value with an explicit error term, for reporting a lower bound that rounding cannot
+    /// push above the value of a valid strategy. Evaluated on [`QuantumStrategy::made_valid`];
+    /// the error charges, per probability, the distance to a valid strategy (a state off by `η`
+    /// moves each `⟨ψ|M|ψ⟩` by at most `2η + η²`; an element off by `μ` in Frobenius norm moves it
+    /// by at most `μ` times the product of the others' norms, ≤ (1 + μ)) and the rounding of the
+    /// Born-rule evaluation (a few units in the last place per multiply-add along the
+    /// `n·d + D` products, a common-practice bound), each weighted by `Σ |w(q)V(a|q)|`; the sum
+    /// itself is compensated (Neumaier) with its own error charged.
+    pub fn certified_value(&self, s: &Scenario) -> CertifiedValue {
+        let valid = self.made_valid();
+        let p = valid.behaviour(s);
+        let (eta, mus) = valid.invalidity();
+        let unit = f64::EPSILON / 2.0;
+        let d_max = self.dims.iter().copied().max().unwrap_or(1) as f64;
+        let joint = self.total_dim() as f64;
+        let n = s.players() as f64;
+        let mu_total: f64 = mus.iter().sum();
+        let growth = mus.iter().fold(1.0, |acc, m| acc * (1.0 + m));
+        let per_probability = (2.0 * eta + eta * eta) * growth
+            + mu_total * growth
+            + 8.0 * unit * (n * d_max * d_max + joint + 8.0) * growth;
+        let (mut sum, mut compensation, mut magnitude, mut weight) = (0.0f64, 0.0f64, 0.0, 0.0);
+        let mut add = |t: f64| {
+            let next = sum + t;
+            compensation += if sum.abs() >= t.abs() {
+                (sum - next) + t
+            } else {
+                (t - next) + sum
+            };
+            sum = next;
+        };
+        add(s.offset);
+        for (c, pr) in s.objective().iter().zip(&p) {
+            if *c != 0.0 {
+                add(c * pr);
+                magnitude += (c * pr).abs();
+                weight += c.abs();
+            }
+        }
+        let value = sum + compensation;
+        let non_finite = !value.is_finite() || !per_probability.is_finite();
+        let error = if non_finite {
+            f64::INFINITY
+        } else {
+            weight * per_probability
+                + 4.0 * unit * (magnitude + s.offset.abs())
+                + unit * value.abs()
+        };
+        CertifiedValue {
+            value,
+            error,
+            lower: value - error,
+        }
+    }
+
     /// The value when every player's detector clicks with probability `eta` and a missing click
     /// is reported as the player's first answer.
     pub fn lossy(&self, eta: f64) -> QuantumStrategy {
@@ -136,8 +283,9 @@ impl QuantumStrategy {
 
     /// Checks normalisation and the POVM conditions; the message names player, question, answer.
     pub fn check(&self, s: &Scenario) -> std::result::Result<(), String> {
+        // Written as `!(… <= tol)` so that NaN fails every check.
         let norm = self.state.norm();
-        if (norm - 1.0).abs() > NORM_TOLERANCE {
+        if !((norm - 1.0).abs() <= NORM_TOLERANCE) {
             return Err(format!("the state has norm {norm}, not 1"));
         }
         for (i, player) in self.measurements.iter().enumerate() {
@@ -151,7 +299,7 @@ impl QuantumStrategy {
                         p.name, p.question_labels[x], p.answer_labels[a]
                     );
                     let herm = (m - m.adjoint()).norm();
-                    if herm > POVM_TOLERANCE {
+                    if !(herm <= POVM_TOLERANCE) {
                         return Err(format!(
                             "{at}: the element is not Hermitian (‖M − M†‖ = {herm:.2e})"
                         ));
@@ -162,7 +310,7 @@ impl QuantumStrategy {
                         .iter()
                         .cloned()
                         .fold(f64::INFINITY, f64::min);
-                    if min < -POVM_TOLERANCE {
+                    if !(min >= -POVM_TOLERANCE) {
                         return Err(format!(
                             "{at}: the element has a negative eigenvalue {min:.3e}"
                         ));
@@ -170,7 +318,7 @@ impl QuantumStrategy {
                     sum += m;
                 }
                 let dev = (sum - CMatrix::identity(d, d)).norm();
-                if dev > POVM_TOLERANCE {
+                if !(dev <= POVM_TOLERANCE) {
                     return Err(format!(
                         "{}, question {}: the elements sum to the identity only up to {dev:.2e}",
                         p.name, p.question_labels[x]
@@ -295,14 +443,19 @@ impl QuantumStrategy {
                 format!("the joint dimension {total} is above the limit of 16384"),
             ));
         }
+        // Non-finite entries are refused here: NaN passes every `> tolerance` check later.
         let complex = |v: &Yaml, field: &str| -> Result<Complex64> {
-            match v {
-                Yaml::Number(x) => Ok(Complex64::new(x.as_f64().unwrap_or(f64::NAN), 0.0)),
+            let z = match v {
+                Yaml::Number(x) => x.as_f64().map(|re| Complex64::new(re, 0.0)),
                 Yaml::Sequence(p) if p.len() == 2 => match (p[0].as_f64(), p[1].as_f64()) {
-                    (Some(re), Some(im)) => Ok(Complex64::new(re, im)),
-                    _ => Err(ctx.error(field, "expected [re, im] with two numbers")),
+                    (Some(re), Some(im)) => Some(Complex64::new(re, im)),
+                    _ => return Err(ctx.error(field, "expected [re, im] with two numbers")),
                 },
-                _ => Err(ctx.error(field, "expected a number or [re, im]")),
+                _ => return Err(ctx.error(field, "expected a number or [re, im]")),
+            };
+            match z {
+                Some(z) if z.re.is_finite() && z.im.is_finite() => Ok(z),
+                _ => Err(ctx.error(field, "expected a finite number")),
             }
         };
         let state = match map.get("state") {
@@ -417,10 +570,7 @@ impl QuantumStrategy {
     }
 
     pub fn from_file(path: &str, s: &Scenario) -> Result<QuantumStrategy> {
-        let text = std::fs::read_to_string(path).map_err(|source| Error::Io {
-            path: path.to_string(),
-            source,
-        })?;
+        let text = crate::files::read_text(path)?;
         Self::from_yaml(&text, path, s)
     }
 }

@@ -1,0 +1,145 @@
+//! Reading and writing the files the tool is given, with the limits every untrusted path needs:
+//! inputs must be regular files of bounded size (so `/dev/zero` or a FIFO cannot make a read run
+//! without end), and outputs are written atomically (a temporary file in the same directory,
+//! then a rename) and never over one of the command's own inputs.
+
+use std::io::{Read, Write};
+use std::path::{Path, PathBuf};
+
+use crate::error::{Error, Result};
+
+/// Largest input file read (64 MiB): far above any game, strategy, correlations, protocol or
+/// certificate file the tool can process.
+pub const MAX_INPUT_BYTES: u64 = 64 << 20;
+
+fn io(path: &Path, op: &'static str, source: std::io::Error) -> Error {
+    Error::Io {
+        path: path.to_string_lossy().into_owned(),
+        op,
+        source,
+    }
+}
+
+fn refused(path: &Path, message: String) -> Error {
+    Error::Input {
+        location: crate::error::Location {
+            file: path.to_string_lossy().into_owned(),
+            ..Default::default()
+        },
+        message,
+    }
+}
+
+/// Reads a UTF-8 text file of at most [`MAX_INPUT_BYTES`]. Errors never quote the content.
+pub fn read_text(path: impl AsRef<Path>) -> Result<String> {
+    let path = path.as_ref();
+    let meta = std::fs::metadata(path).map_err(|e| io(path, "read", e))?;
+    if !meta.is_file() {
+        return Err(refused(
+            path,
+            "not a regular file (devices, pipes and directories are not read)".into(),
+        ));
+    }
+    if meta.len() > MAX_INPUT_BYTES {
+        return Err(refused(
+            path,
+            format!(
+                "the file has {} bytes, above the limit of {MAX_INPUT_BYTES}",
+                meta.len()
+            ),
+        ));
+    }
+    let file = std::fs::File::open(path).map_err(|e| io(path, "read", e))?;
+    let mut bytes = Vec::new();
+    // The limit holds even if the file grows while it is read.
+    file.take(MAX_INPUT_BYTES + 1)
+        .read_to_end(&mut bytes)
+        .map_err(|e| io(path, "read", e))?;
+    if bytes.len() as u64 > MAX_INPUT_BYTES {
+        return Err(refused(
+            path,
+            format!("the file is larger than the limit of {MAX_INPUT_BYTES} bytes"),
+        ));
+    }
+    String::from_utf8(bytes).map_err(|e| {
+        refused(
+            path,
+            format!(
+                "not a UTF-8 text file (invalid byte at offset {})",
+                e.utf8_error().valid_up_to()
+            ),
+        )
+    })
+}
+
+/// Whether two paths name the same existing file (after resolving links).
+fn same_file(a: &Path, b: &Path) -> bool {
+    match (std::fs::canonicalize(a), std::fs::canonicalize(b)) {
+        (Ok(x), Ok(y)) => x == y,
+        _ => false,
+    }
+}
+
+/// Writes `text` to `path` atomically, refusing to replace any of `inputs` (the files the
+/// command read). The text goes to a temporary file beside `path`, is flushed, then renamed
+/// over it, so a reader never sees half a file and a failed write leaves the old one intact.
+pub fn write_atomic(path: impl AsRef<Path>, text: &str, inputs: &[&Path]) -> Result<()> {
+    let path = path.as_ref();
+    if let Some(input) = inputs.iter().find(|i| same_file(path, i)) {
+        return Err(Error::Usage(format!(
+            "refusing to write {}: it is an input of this command ({})",
+            path.to_string_lossy(),
+            input.to_string_lossy()
+        )));
+    }
+    if path.is_dir() {
+        return Err(Error::Usage(format!(
+            "cannot write {}: it is a directory",
+            path.to_string_lossy()
+        )));
+    }
+    let dir = match path.parent() {
+        Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
+        _ => PathBuf::from("."),
+    };
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "output".into());
+    let temp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
+    let result = (|| {
+        let mut f = std::fs::File::create(&temp)?;
+        f.write_all(text.as_bytes())?;
+        f.sync_all()?;
+        std::fs::rename(&temp, path)
+    })();
+    if let Err(e) = result {
+        let _ = std::fs::remove_file(&temp);
+        return Err(io(path, "write", e));
+    }
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn refuses_devices_and_inputs() {
+        assert!(matches!(read_text("/dev/zero"), Err(Error::Input { .. })));
+        let dir = std::env::temp_dir().join(format!("bellgap-files-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let input = dir.join("in.yaml");
+        std::fs::write(&input, "x: 1\n").unwrap();
+        let err = write_atomic(&input, "replaced", &[input.as_path()]).unwrap_err();
+        assert!(err.to_string().contains("refusing"), "{err}");
+        assert_eq!(read_text(&input).unwrap(), "x: 1\n");
+        let out = dir.join("out.txt");
+        write_atomic(&out, "hello", &[input.as_path()]).unwrap();
+        assert_eq!(read_text(&out).unwrap(), "hello");
+        let missing = dir.join("no/such/dir/x.svg");
+        let err = write_atomic(&missing, "x", &[]).unwrap_err();
+        assert!(err.to_string().starts_with("cannot write"), "{err}");
+        std::fs::remove_dir_all(&dir).unwrap();
+    }
+}
