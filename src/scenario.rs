@@ -95,6 +95,55 @@ impl Scenario {
         s
     }
 
+    /// Builds a scenario from untrusted tables: the lengths must match the parties, every
+    /// weight must be finite and non-negative, every score and the offset finite, and the
+    /// range of values finite too (scores of 1e308 can each be finite and still sum to
+    /// infinity). The message says what is wrong; the caller adds the location.
+    pub fn checked(
+        parties: Vec<Party>,
+        weights: Vec<f64>,
+        scores: Vec<f64>,
+        offset: f64,
+        kind: ScoreKind,
+    ) -> std::result::Result<Scenario, String> {
+        let nq: Option<usize> = parties
+            .iter()
+            .try_fold(1usize, |acc, p| acc.checked_mul(p.questions()));
+        let na: Option<usize> = parties
+            .iter()
+            .try_fold(1usize, |acc, p| acc.checked_mul(p.answers()));
+        let (Some(nq), Some(na)) = (nq, na) else {
+            return Err("the table's size overflows".into());
+        };
+        if weights.len() != nq || Some(scores.len()) != nq.checked_mul(na) {
+            return Err(format!(
+                "the tables have {} weights and {} scores; the players need {nq} and {}",
+                weights.len(),
+                scores.len(),
+                nq.saturating_mul(na)
+            ));
+        }
+        if let Some(w) = weights.iter().find(|w| !w.is_finite() || **w < 0.0) {
+            return Err(format!(
+                "a question weight is {w}: weights must be finite and non-negative"
+            ));
+        }
+        if let Some(v) = scores.iter().find(|v| !v.is_finite()) {
+            return Err(format!("a score is {v}: scores must be finite"));
+        }
+        if !offset.is_finite() {
+            return Err(format!("the constant term is {offset}: it must be finite"));
+        }
+        let s = Scenario::new(parties, weights, scores, offset, kind);
+        let (lo, hi) = s.value_range();
+        if !lo.is_finite() || !hi.is_finite() || s.objective.iter().any(|c| !c.is_finite()) {
+            return Err(format!(
+                "the values range over [{lo}, {hi}]: coefficients this large overflow double precision"
+            ));
+        }
+        Ok(s)
+    }
+
     pub fn players(&self) -> usize {
         self.parties.len()
     }

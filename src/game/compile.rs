@@ -208,7 +208,15 @@ pub fn compile(spec: &GameSpec, ctx: &Context, options: CompileOptions) -> Resul
         )
     };
 
-    let scenario = Scenario::new(parties, weights, scores, offset, kind);
+    let table_field = if spec.bell.is_some() {
+        "bell"
+    } else if spec.win.is_some() {
+        "win"
+    } else {
+        "score"
+    };
+    let scenario = Scenario::checked(parties, weights, scores, offset, kind)
+        .map_err(|m| ctx.error(table_field, m))?;
     if let Some(w) = constant_score_warning(&scenario) {
         warnings.push(w);
     }

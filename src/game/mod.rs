@@ -85,6 +85,7 @@ pub(crate) fn yaml_error(e: serde_yaml::Error, file: &str) -> Error {
     if let Some(cut) = message.find(" at line ") {
         message.truncate(cut);
     }
+    let message = redact_quoted(&message);
     let (field, message) = match message.split_once(": ") {
         Some((path, rest)) if !path.contains(' ') => (Some(path.to_string()), rest.to_string()),
         _ => (None, message),
@@ -98,6 +99,38 @@ pub(crate) fn yaml_error(e: serde_yaml::Error, file: &str) -> Error {
         },
         message,
     }
+}
+
+/// The parser quotes what it found (`invalid type: string "..."`): a long quotation is cut, so
+/// that pointing a command at a foreign file (say, a password file) never echoes its content,
+/// and control characters are shown escaped.
+fn redact_quoted(message: &str) -> String {
+    const KEEP: usize = 16;
+    let mut out = String::new();
+    let mut quoted = String::new();
+    let mut inside = false;
+    for c in message.chars() {
+        if c == '"' {
+            if inside {
+                if quoted.chars().count() > KEEP {
+                    out.push('…');
+                } else {
+                    out.push_str(&quoted.escape_default().to_string());
+                }
+                quoted.clear();
+            }
+            inside = !inside;
+            out.push('"');
+        } else if inside {
+            quoted.push(c);
+        } else {
+            out.push(c);
+        }
+    }
+    if inside && quoted.chars().count() <= KEEP {
+        out.push_str(&quoted.escape_default().to_string());
+    }
+    out.chars().take(400).collect()
 }
 
 fn default_name(source: &str) -> String {

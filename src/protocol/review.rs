@@ -378,17 +378,14 @@ impl Review {
     pub fn to_markdown(&self) -> String {
         let mut md = format!(
             "# Review: {}\n\nGame: {} ({})\n",
-            self.name, self.game.name, self.game.source
+            md_escape(&self.name),
+            md_escape(&self.game.name),
+            md_escape(&self.game.source)
         );
         for (title, rows) in self.tables() {
-            let _ = write!(md, "\n## {title}\n\n| | |\n|---|---|\n");
+            let _ = write!(md, "\n## {}\n\n| | |\n|---|---|\n", md_escape(&title));
             for (k, v) in rows {
-                let _ = writeln!(
-                    md,
-                    "| {} | {} |",
-                    k.replace('|', "\\|"),
-                    v.replace('|', "\\|")
-                );
+                let _ = writeln!(md, "| {} | {} |", md_escape(&k), md_escape(&v));
             }
         }
         if let Some(svg) = self.plot() {
@@ -400,7 +397,7 @@ impl Review {
         }
         md.push_str("\n## Assumptions and cautions\n\n");
         for a in self.assumptions() {
-            let _ = writeln!(md, "- {a}");
+            let _ = writeln!(md, "- {}", md_escape(&a));
         }
         md
     }
@@ -421,6 +418,30 @@ impl Review {
             "assumptions": self.assumptions(),
         })
     }
+}
+
+/// Text for a Markdown document, inert whatever it contains: HTML is escaped (Markdown
+/// renderers pass raw HTML through, so `<script>` would run), Markdown's own punctuation is
+/// backslash-escaped (no links, images, emphasis or table breaks), and line breaks and other
+/// control characters become spaces (no new headings or rows).
+pub fn md_escape(s: &str) -> String {
+    let mut out = String::with_capacity(s.len());
+    for c in s.chars() {
+        match c {
+            '&' => out.push_str("&amp;"),
+            '<' => out.push_str("&lt;"),
+            '>' => out.push_str("&gt;"),
+            '"' => out.push_str("&quot;"),
+            '\\' | '`' | '*' | '_' | '{' | '}' | '[' | ']' | '(' | ')' | '#' | '+' | '!' | '|'
+            | '~' => {
+                out.push('\\');
+                out.push(c);
+            }
+            c if c.is_control() => out.push(' '),
+            c => out.push(c),
+        }
+    }
+    out
 }
 
 fn esc(s: &str) -> String {
