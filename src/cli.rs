@@ -754,10 +754,25 @@ pub fn run(cli: &Cli) -> Result<Output> {
                 (Some(v), None) => vec![*v],
                 (None, None) => unreachable!("clap requires one"),
             };
-            let results = scores
-                .iter()
-                .map(|&v| randomness::guessing_probability(s, &target, v, &level))
-                .collect::<Result<Vec<_>>>()?;
+            // A point of a sweep that cannot be certified (e.g. above the quantum maximum) is
+            // reported and the sweep goes on; a single score that fails is an error.
+            let mut results = Vec::new();
+            let mut failures = Vec::new();
+            for &v in &scores {
+                match randomness::guessing_probability(s, &target, v, &level) {
+                    Ok(r) => results.push(r),
+                    Err(e) if scores.len() > 1 && !matches!(e, Error::TooLarge { .. }) => {
+                        failures.push(format!("score {v}: {e}"))
+                    }
+                    Err(e) => return Err(e),
+                }
+            }
+            if results.is_empty() {
+                return Err(Error::Usage(format!(
+                    "no score of the sweep could be certified: {}",
+                    failures.join("; ")
+                )));
+            }
             if let Some(file) = svg {
                 let chart = plot::line_chart(
                     &format!("Certified min-entropy, {}", game.name),
@@ -770,9 +785,17 @@ pub fn run(cli: &Cli) -> Result<Output> {
                 );
                 write_file(file, &chart, &inputs)?;
             }
+            let mut text = report::randomness_text(&game, &target, &results);
+            let mut json = report::randomness_json(&game, &target, &results);
+            if !failures.is_empty() {
+                for f in &failures {
+                    text += &format!("not obtained: {f}\n");
+                }
+                json["not_obtained"] = json!(failures);
+            }
             Ok(Output {
-                text: report::randomness_text(&game, &target, &results),
-                json: report::randomness_json(&game, &target, &results),
+                text,
+                json,
                 warnings: game.warnings.clone(),
             })
         }

@@ -16,9 +16,14 @@ use crate::scenario::{digits, index_of, Party, Scenario, ScoreKind};
 /// Probabilities must sum to one within this tolerance unless the file asks to normalise.
 pub const PROBABILITY_TOLERANCE: f64 = 1e-9;
 
-/// Largest table (joint questions × joint answers) built without `allow_large`: 2^26 entries
-/// take about 1 GiB with the objective copy.
-pub const DEFAULT_TABLE_LIMIT: usize = 1 << 26;
+/// Largest table (joint questions × joint answers) built without `allow_large`: 2^22 entries
+/// take 64 MiB with the objective copy and a few seconds of formula evaluation.
+pub const DEFAULT_TABLE_LIMIT: usize = 1 << 22;
+/// Largest table built even with `allow_large` (16 GiB of weights and scores).
+pub const HARD_TABLE_LIMIT: usize = 1 << 30;
+/// Seconds per table entry to evaluate a formula (measured: 64 M entries of a short formula in
+/// 57 s on the project machine; a rule of thumb for the estimate, not a promise).
+const SECONDS_PER_ENTRY: f64 = 1e-6;
 
 /// Largest label set of one player.
 pub const MAX_LABELS: usize = 1 << 20;
@@ -146,14 +151,21 @@ pub fn compile(spec: &GameSpec, ctx: &Context, options: CompileOptions) -> Resul
     let joint_q: f64 = parties.iter().map(|p| p.questions() as f64).product();
     let joint_a: f64 = parties.iter().map(|p| p.answers() as f64).product();
     let entries = joint_q * joint_a;
-    if entries > DEFAULT_TABLE_LIMIT as f64 && !options.allow_large {
+    if entries > HARD_TABLE_LIMIT as f64
+        || (entries > DEFAULT_TABLE_LIMIT as f64 && !options.allow_large)
+    {
         return Err(Error::TooLarge {
             what: "the game table".into(),
             estimate: format!(
-                "{joint_q:.0} joint questions × {joint_a:.0} joint answers = {entries:.3e} entries, about {:.1} GiB",
-                entries * 16.0 / (1u64 << 30) as f64
+                "{joint_q:.0} joint questions × {joint_a:.0} joint answers = {entries:.3e} entries, about {:.1} GiB and {} to build",
+                entries * 16.0 / (1u64 << 30) as f64,
+                crate::classical::human_seconds(entries * SECONDS_PER_ENTRY)
             ),
-            hint: "pass --allow-large to build it anyway".into(),
+            hint: if entries > HARD_TABLE_LIMIT as f64 {
+                format!("at most {HARD_TABLE_LIMIT} entries can be built")
+            } else {
+                "pass --allow-large to build it anyway".into()
+            },
         });
     }
 

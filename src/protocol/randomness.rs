@@ -95,10 +95,83 @@ pub fn guessing_probability(
             level.name()
         )));
     }
+    // The SDP's size is checked before it is built: one moment matrix per guess.
+    let guesses: usize = target
+        .parts
+        .iter()
+        .map(|&(p, _)| s.parties.get(p).map_or(1, |q| q.answers()))
+        .product();
+    let (base, est) =
+        crate::quantum::npa::sized_relaxation(s, level, false, crate::sdp::SdpSolver::Auto)?;
+    drop(base);
+    let g = guesses as f64;
+    let (seconds, bytes) = (est.seconds * g * g * g, est.memory_bytes * g * g);
+    if seconds > crate::quantum::npa::SECONDS_LIMIT || bytes > crate::quantum::npa::MEMORY_LIMIT {
+        return Err(Error::TooLarge {
+            what: format!("the guessing-probability SDP at level {}", level.name()),
+            estimate: format!(
+                "{guesses} moment matrices of side {}: about {} and {:.1} GiB",
+                est.matrix_size,
+                crate::classical::human_seconds(seconds),
+                bytes / (1u64 << 30) as f64
+            ),
+            hint: "choose a lower level".into(),
+        });
+    }
+    match guessing_probability_at(s, target, score, Mode::Constraint(score), level) {
+        Ok(r) => return Ok(r),
+        Err(Error::Solver { .. }) => {}
+        Err(e) => return Err(e),
+    }
+    // At the edge of the quantum set the constraint leaves a feasible set without interior and
+    // the interior-point method can fail. Weak duality gives a bound for every μ ≥ 0 without
+    // that constraint: P_guess(p) ≤ P_guess(p) + μ (value(p) − S) ≤ max over the relaxation.
+    // The best μ is found by a golden-section search on log μ; every μ tried gives a valid
+    // (verified) bound and the smallest is kept.
+    let mut best: Option<Randomness> = None;
+    let mut evaluate = |log_mu: f64| -> f64 {
+        match guessing_probability_at(s, target, score, Mode::Penalty(10f64.powf(log_mu)), level) {
+            Ok(r) => {
+                let p = r.guessing_probability;
+                if best.as_ref().is_none_or(|b| p < b.guessing_probability) {
+                    best = Some(r);
+                }
+                p
+            }
+            Err(_) => f64::INFINITY,
+        }
+    };
+    let (mut a, mut b) = (-2.0f64, 5.0f64);
+    let phi = (5f64.sqrt() - 1.0) / 2.0;
+    let (mut c, mut d) = (b - phi * (b - a), a + phi * (b - a));
+    let (mut fc, mut fd) = (evaluate(c), evaluate(d));
+    for _ in 0..30 {
+        if fc <= fd {
+            b = d;
+            d = c;
+            fd = fc;
+            c = b - phi * (b - a);
+            fc = evaluate(c);
+        } else {
+            a = c;
+            c = d;
+            fc = fd;
+            d = a + phi * (b - a);
+            fd = evaluate(d);
+        }
+        if (b - a).abs() < 0.01 {
+            break;
+        }
+    }
+    if let Some(r) = best {
+        return Ok(r);
+    }
+    // Last resort: a slightly lower score (a weaker constraint, so still a valid bound).
     let (lo, hi) = s.value_range();
     let mut last = None;
-    for step in [0.0, 1e-6, 1e-5, 1e-4, 1e-3] {
-        match guessing_probability_at(s, target, score, score - step * (hi - lo), level) {
+    for step in [1e-6, 1e-5, 1e-4, 1e-3] {
+        let used = score - step * (hi - lo);
+        match guessing_probability_at(s, target, score, Mode::Constraint(used), level) {
             Ok(r) => return Ok(r),
             Err(e @ Error::Solver { .. }) => last = Some(e),
             Err(e) => return Err(e),
@@ -107,13 +180,26 @@ pub fn guessing_probability(
     Err(last.expect("at least one attempt"))
 }
 
+/// How the score enters the SDP.
+#[derive(Debug, Clone, Copy)]
+enum Mode {
+    /// `value ≥ S` as a constraint, at this score.
+    Constraint(f64),
+    /// `+ μ (value − S)` in the objective (Lagrangian relaxation of the constraint).
+    Penalty(f64),
+}
+
 fn guessing_probability_at(
     s: &Scenario,
     target: &Target,
     score: f64,
-    score_used: f64,
+    mode: Mode,
     level: &Level,
 ) -> Result<Randomness> {
+    let score_used = match mode {
+        Mode::Constraint(v) => v,
+        Mode::Penalty(_) => score,
+    };
     let start = std::time::Instant::now();
     if target.parts.is_empty() || target.parts.len() > 2 {
         return Err(Error::Usage(
@@ -204,12 +290,22 @@ fn guessing_probability_at(
             trace_bound: size as f64,
         })
         .collect();
+    let (objective_constant, inequalities) = match mode {
+        Mode::Constraint(v) => (0.0, vec![(value_terms, -v)]),
+        Mode::Penalty(mu) => {
+            // value_terms hold −value; the objective gains μ·value − μ·S.
+            for &(k, c) in &value_terms {
+                objective[k] -= mu * c;
+            }
+            (-mu * score, Vec::new())
+        }
+    };
     let problem = SdpProblem {
         variables: guesses * per,
         objective,
-        objective_constant: 0.0,
+        objective_constant,
         equalities: vec![normalisation],
-        inequalities: vec![(value_terms, -score_used)],
+        inequalities,
         blocks,
         variable_bound: 1.0,
     };
@@ -228,7 +324,12 @@ fn guessing_probability_at(
         min_entropy: -p.log2(),
         solver_value: sol.primal,
         level: level.name(),
-        status: sol.status,
+        status: match mode {
+            Mode::Constraint(_) => sol.status,
+            Mode::Penalty(mu) => {
+                format!("{}, score as a Lagrangian term (μ = {mu:.3e})", sol.status)
+            }
+        },
         seconds: start.elapsed().as_secs_f64(),
     })
 }
