@@ -29,6 +29,7 @@ fn main() {
             seed: 1,
             tolerance: 1e-10,
             max_rounds: 500,
+            ..Default::default()
         };
         let timed = |threads: usize| {
             let pool = rayon::ThreadPoolBuilder::new()

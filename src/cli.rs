@@ -131,9 +131,9 @@ pub enum Command {
         /// Sum of per-round scores (a Bell expression or a scored game).
         #[arg(long, allow_hyphen_values = true, value_parser = parse_finite)]
         score_sum: Option<f64>,
-        /// Smallest and largest possible per-round score, as `LO,HI` or `LO HI` (default: the
+        /// Smallest and largest possible per-round score, as `LO,HI` (default: the
         /// game's own range; a narrower one is refused, since the bounds would not hold).
-        #[arg(long, value_delimiter = ',', num_args = 1..=2, allow_hyphen_values = true, value_parser = parse_finite)]
+        #[arg(long, value_delimiter = ',', num_args = 1, allow_hyphen_values = true, value_parser = parse_finite)]
         score_range: Option<Vec<f64>>,
         /// Error probability of the confidence bounds.
         #[arg(long, default_value_t = 1e-6, value_parser = parse_finite)]
@@ -502,13 +502,11 @@ pub fn run(cli: &Cli) -> Result<Output> {
             }
             let opts = SeesawOptions {
                 dims: seesaw::default_dims(&game.scenario),
-                restarts: 8,
-                seed: 1,
-                tolerance: 1e-10,
-                max_rounds: 500,
+                force: args.force,
+                ..Default::default()
             };
             if !args.quiet {
-                warn_slow_seesaw(&game.scenario, &opts.dims, opts.restarts);
+                warn_slow_seesaw(&game.scenario, &opts);
             }
             match seesaw::seesaw(&game.scenario, &opts, None) {
                 Ok(found) => {
@@ -543,11 +541,11 @@ pub fn run(cli: &Cli) -> Result<Output> {
                 dims,
                 restarts: *restarts,
                 seed: *seed,
-                tolerance: 1e-10,
-                max_rounds: 500,
+                force: args.force,
+                ..Default::default()
             };
             if !args.quiet {
-                warn_slow_seesaw(&game.scenario, &opts.dims, opts.restarts);
+                warn_slow_seesaw(&game.scenario, &opts);
             }
             let printer = restart_printer(args.quiet || args.json);
             let found = seesaw::seesaw(
@@ -930,21 +928,13 @@ fn robustness_chart(game: &Game, st: &QuantumStrategy, classical: Option<f64>) -
     )
 }
 
-/// A heads-up before a see-saw whose measurement steps are SDPs over many or large POVMs: a
-/// rule of thumb from the bench (CGLMP d=5, 25 POVM parameters per element: about 0.5 s per
-/// restart), not a measured estimate for this game.
-fn warn_slow_seesaw(s: &bellgap::Scenario, dims: &[usize], restarts: usize) {
-    let work: usize = s
-        .parties
-        .iter()
-        .zip(dims)
-        .filter(|(p, _)| p.answers() > 2)
-        .map(|(p, &d)| p.questions() * p.answers() * d * d)
-        .sum();
-    let seconds = work as f64 / 100.0 * 0.5 * restarts as f64 / 2.0;
+/// A heads-up before a see-saw estimated to take long (a rule of thumb, see
+/// [`seesaw::estimate_seconds`]); runs estimated above an hour are refused by the library.
+fn warn_slow_seesaw(s: &bellgap::Scenario, opts: &SeesawOptions) {
+    let seconds = seesaw::estimate_seconds(s, opts);
     if seconds > 30.0 {
         eprintln!(
-            "warning: the see-saw solves a POVM SDP at each measurement step here; expect roughly {} (rule of thumb)",
+            "warning: the see-saw may take roughly {} (rule of thumb)",
             classical::human_seconds(seconds)
         );
     }

@@ -458,7 +458,12 @@ impl<'a> Report<'a> {
                         QUANTUM_SETTLED_TOLERANCE
                     )
                 } else {
-                    format!("open: verified upper − lower = {}", num(gap))
+                    format!(
+                        "open: verified upper − lower = {} (the see-saw tried dims {:?} with {} restarts; larger dimensions, more restarts or a higher NPA level may close it)",
+                        num(gap),
+                        sw.dims,
+                        sw.restarts
+                    )
                 },
             ));
         }

@@ -207,7 +207,7 @@ proptest! {
         use bellgap::quantum::npa::{npa_bound, Level};
         use bellgap::quantum::seesaw::{seesaw, SeesawOptions};
         let s = &g.scenario;
-        let opts = SeesawOptions { dims: vec![2; s.players()], restarts: 3, seed: 11, tolerance: 1e-10, max_rounds: 200 };
+        let opts = SeesawOptions { dims: vec![2; s.players()], restarts: 3, seed: 11, tolerance: 1e-10, max_rounds: 200, ..Default::default() };
         let lower = seesaw(s, &opts, None).unwrap().quantum_lower;
         let upper = npa_bound(s, &Level::Joint, false).unwrap().verified_upper;
         prop_assert!(lower <= upper + 1e-6, "see-saw {} > NPA {}", lower, upper);

@@ -19,6 +19,7 @@ fn run(s: &Scenario, d: usize, restarts: usize) -> SeesawResult {
         seed: 7,
         tolerance: 1e-10,
         max_rounds: 300,
+        ..Default::default()
     };
     let r = seesaw(s, &opts, None).unwrap();
     // The reported value is the Born-rule value of a valid strategy.

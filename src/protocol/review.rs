@@ -31,7 +31,7 @@ use crate::game::{families, CompileOptions, Game};
 use crate::nosignal::no_signalling_value;
 use crate::plot::{line_chart, Series};
 use crate::quantum::npa::{default_level, npa_bound, Level, NpaBound};
-use crate::quantum::seesaw::{default_dims, seesaw, SeesawOptions, SeesawResult};
+use crate::quantum::seesaw::{seesaw, SeesawOptions, SeesawResult};
 use crate::report::num;
 
 #[derive(Debug, Clone, Deserialize)]
@@ -138,17 +138,7 @@ pub fn review(path: &str) -> Result<Review> {
     let classical = classical_value(s, Choice::Auto, false, None)?.value;
     let no_signalling = no_signalling_value(s, false)?.value;
     let npa = npa_bound(s, &default_level(s)?, false)?;
-    let seesaw = seesaw(
-        s,
-        &SeesawOptions {
-            dims: default_dims(s),
-            restarts: 8,
-            seed: 1,
-            tolerance: 1e-10,
-            max_rounds: 500,
-        },
-        None,
-    )?;
+    let seesaw = seesaw(s, &SeesawOptions::default(), None)?;
     let alpha = p.alpha.unwrap_or(1e-6);
     let target = p.target_p_value.unwrap_or(1e-9);
     let m = margin(&obs, classical, alpha, target, Some(seesaw.quantum_lower))?;

@@ -23,12 +23,58 @@ use crate::sdp::{upper_index, AffineEntry, MatrixBlock, SdpProblem};
 
 #[derive(Debug, Clone)]
 pub struct SeesawOptions {
+    /// Local dimension per player; empty means [`default_dims`].
     pub dims: Vec<usize>,
     pub restarts: usize,
     pub seed: u64,
     /// Stop a run when a round improves the value by less than this.
     pub tolerance: f64,
     pub max_rounds: usize,
+    /// Run even when the estimate says it would take more than an hour.
+    pub force: bool,
+}
+
+impl Default for SeesawOptions {
+    fn default() -> Self {
+        SeesawOptions {
+            dims: Vec::new(),
+            restarts: 8,
+            seed: 1,
+            tolerance: 1e-10,
+            max_rounds: 500,
+            force: false,
+        }
+    }
+}
+
+/// Estimated seconds before a see-saw is refused without `force`.
+pub const SECONDS_LIMIT: f64 = 3600.0;
+
+/// A rule-of-thumb estimate of a see-saw's wall-clock time (common practice, calibrated on the
+/// bench: `cargo bench --bench seesaw`): per round, the Bell operator (terms × D² with D the
+/// joint dimension), its top eigenvector (about 10·D³ flops) and, for players with more than two
+/// answers, a POVM SDP per question (CGLMP d=5: about 0.5 s per restart for 25 parameters per
+/// element); about 50 rounds per restart, restarts shared over the cores.
+pub fn estimate_seconds(s: &Scenario, opts: &SeesawOptions) -> f64 {
+    let dims = if opts.dims.is_empty() {
+        default_dims(s)
+    } else {
+        opts.dims.clone()
+    };
+    let joint: f64 = dims.iter().map(|&d| d as f64).product();
+    let terms = s.objective().iter().filter(|c| **c != 0.0).count() as f64;
+    let per_round =
+        (terms * joint * joint + 10.0 * joint.powi(3) * (1.0 + s.players() as f64)) / 1e9;
+    let povm: f64 = s
+        .parties
+        .iter()
+        .zip(&dims)
+        .filter(|(p, _)| p.answers() > 2)
+        .map(|(p, &d)| (p.questions() * p.answers() * d * d) as f64 / 100.0 * 0.5)
+        .sum();
+    let cores = rayon::current_num_threads().max(1) as f64;
+    let batches = (opts.restarts as f64 / cores).ceil();
+    batches * (50.0 * per_round + povm)
 }
 
 #[derive(Debug, Clone, Serialize)]
@@ -83,16 +129,34 @@ fn random_state(dim: usize, rng: &mut Rng) -> CVector {
     v / Complex64::new(n, 0.0)
 }
 
-/// A random projective measurement: the columns of a random unitary, dealt to the answers in turn.
+/// A random projective measurement: the columns of a random unitary, dealt to the answers in
+/// a random order (so that with fewer columns than answers, different restarts give weight to
+/// different answers: a fixed order could leave the only winning answers empty in every start).
 fn random_measurement(d: usize, answers: usize, rng: &mut Rng) -> Vec<CMatrix> {
     let g = CMatrix::from_fn(d, d, |_, _| rng.complex());
     let q = g.qr().q();
+    let mut order: Vec<usize> = (0..answers).collect();
+    for i in (1..answers).rev() {
+        order.swap(i, (rng.next() % (i as u64 + 1)) as usize);
+    }
     let mut povm = vec![CMatrix::zeros(d, d); answers];
     for j in 0..d {
         let col = q.column(j);
-        povm[j % answers] += col * col.adjoint();
+        povm[order[j % answers]] += col * col.adjoint();
     }
     povm
+}
+
+/// A random full-rank POVM: `M_a = S^{-1/2} G_a G_a† S^{-1/2}` with Gaussian `G_a` and
+/// `S = Σ G_a G_a†`. Every answer starts with weight, so none can trap the run at zero.
+fn random_povm(d: usize, answers: usize, rng: &mut Rng) -> Vec<CMatrix> {
+    let povm: Vec<CMatrix> = (0..answers)
+        .map(|_| {
+            let g = CMatrix::from_fn(d, d, |_, _| rng.complex());
+            &g * g.adjoint()
+        })
+        .collect();
+    clean_povm(povm)
 }
 
 /// `Σ_q Σ_a c(q, a) ⊗_i M^i_{a_i|q_i}`: the operator whose expectation is the value (less the
@@ -318,8 +382,19 @@ fn povm_sdp(b: &[CMatrix]) -> Result<Vec<CMatrix>> {
     Ok(clean_povm(povm))
 }
 
-/// One see-saw run from a random start.
-fn run(s: &Scenario, opts: &SeesawOptions, rng: &mut Rng) -> Result<(QuantumStrategy, usize)> {
+/// One see-saw run from a random start: projective measurements in even restarts, full-rank
+/// POVMs in odd ones (different kinds of starting points reach different local optima).
+fn run(
+    s: &Scenario,
+    opts: &SeesawOptions,
+    rng: &mut Rng,
+    restart: usize,
+) -> Result<(QuantumStrategy, usize)> {
+    let start = if restart % 2 == 0 {
+        random_measurement
+    } else {
+        random_povm
+    };
     let mut st = QuantumStrategy {
         dims: opts.dims.clone(),
         state: random_state(opts.dims.iter().product(), rng),
@@ -329,7 +404,7 @@ fn run(s: &Scenario, opts: &SeesawOptions, rng: &mut Rng) -> Result<(QuantumStra
             .enumerate()
             .map(|(i, p)| {
                 (0..p.questions())
-                    .map(|_| random_measurement(opts.dims[i], p.answers(), rng))
+                    .map(|_| start(opts.dims[i], p.answers(), rng))
                     .collect()
             })
             .collect(),
@@ -373,6 +448,16 @@ pub fn seesaw(
     progress: Option<&(dyn Fn(usize, usize) + Sync)>,
 ) -> Result<SeesawResult> {
     let start = Instant::now();
+    let chosen;
+    let opts = if opts.dims.is_empty() {
+        chosen = SeesawOptions {
+            dims: default_dims(s),
+            ..opts.clone()
+        };
+        &chosen
+    } else {
+        opts
+    };
     if opts.dims.len() != s.players() {
         return Err(Error::Usage(format!(
             "give one dimension per player ({}), got {}",
@@ -395,12 +480,25 @@ pub fn seesaw(
             hint: format!("use smaller local dimensions (joint at most {MAX_JOINT_DIMENSION})"),
         });
     }
+    let seconds = estimate_seconds(s, opts);
+    if seconds > SECONDS_LIMIT && !opts.force {
+        return Err(Error::TooLarge {
+            what: "the see-saw".into(),
+            estimate: format!(
+                "dims {:?}, {} restarts: roughly {} (rule of thumb)",
+                opts.dims,
+                opts.restarts,
+                crate::classical::human_seconds(seconds)
+            ),
+            hint: "use smaller dimensions or fewer restarts, or pass --force".into(),
+        });
+    }
     let done = AtomicUsize::new(0);
     let runs: Vec<Result<(QuantumStrategy, usize)>> = (0..opts.restarts)
         .into_par_iter()
         .map(|r| {
             let mut rng = Rng(opts.seed ^ (r as u64).wrapping_mul(0xA076_1D64_78BD_642F));
-            let out = run(s, opts, &mut rng);
+            let out = run(s, opts, &mut rng, r);
             let k = done.fetch_add(1, Ordering::Relaxed) + 1;
             if let Some(p) = progress {
                 p(k, opts.restarts);
@@ -439,8 +537,23 @@ pub fn seesaw(
     })
 }
 
-/// Local dimension used by `bounds` when none is given: enough for one projector per answer,
-/// at least a qubit, at most 4.
+/// Largest joint dimension [`default_dims`] chooses.
+pub const DEFAULT_JOINT_DIMENSION: usize = 64;
+
+/// Local dimensions chosen from the game when none are given: one dimension per answer (optimal
+/// strategies for d-answer games often need d dimensions, e.g. CGLMP), at least a qubit and at
+/// most 8, then the largest reduced until the joint dimension is at most
+/// [`DEFAULT_JOINT_DIMENSION`].
 pub fn default_dims(s: &Scenario) -> Vec<usize> {
-    s.parties.iter().map(|p| p.answers().clamp(2, 4)).collect()
+    let mut dims: Vec<usize> = s.parties.iter().map(|p| p.answers().clamp(2, 8)).collect();
+    while dims.iter().product::<usize>() > DEFAULT_JOINT_DIMENSION {
+        let Some(k) = (0..dims.len())
+            .filter(|&k| dims[k] > 2)
+            .max_by_key(|&k| dims[k])
+        else {
+            break;
+        };
+        dims[k] -= 1;
+    }
+    dims
 }

@@ -1,0 +1,556 @@
+//! Regression tests for bad, extreme and adversarial input: every case here once produced a
+//! false number, a crash or unbounded work. Each now gives an honest figure, or exit 2 with one
+//! clear error (and, with `--json`, exactly one JSON object on stdout).
+
+use std::path::PathBuf;
+use std::process::{Command, Output};
+
+use bellgap::classical::{classical_value, milp_with_time_limit, search, Choice, ClassicalStatus};
+use bellgap::game::{CompileOptions, Game};
+use serde_json::Value;
+
+fn bellgap(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_bellgap"))
+        .args(args)
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .output()
+        .expect("the binary runs")
+}
+
+fn json_of(out: &Output) -> Value {
+    let text = String::from_utf8_lossy(&out.stdout);
+    serde_json::from_str(&text).unwrap_or_else(|e| panic!("not one JSON object ({e}): {text}"))
+}
+
+fn dir() -> PathBuf {
+    let d = std::env::temp_dir().join(format!("bellgap-edges-{}", std::process::id()));
+    std::fs::create_dir_all(&d).unwrap();
+    d
+}
+
+fn file(name: &str, content: &str) -> String {
+    let p = dir().join(name);
+    std::fs::write(&p, content).unwrap();
+    p.to_string_lossy().into_owned()
+}
+
+/// Runs with `--json` and checks the error contract: exit 2, one JSON error object.
+fn refused(args: &[&str]) -> Value {
+    let mut all: Vec<&str> = args.to_vec();
+    all.push("--json");
+    let out = bellgap(&all);
+    assert_eq!(
+        out.status.code(),
+        Some(2),
+        "{args:?}: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j = json_of(&out);
+    assert!(j["error"]["message"].is_string(), "{j}");
+    j
+}
+
+fn two_player(q: usize, a: usize, body: &str) -> String {
+    format!(
+        "players:\n  - {{name: alice, question: x, answer: a, questions: {q}, answers: {a}}}\n  - {{name: bob, question: y, answer: b, questions: {q}, answers: {a}}}\n{body}\n"
+    )
+}
+
+fn compile(text: &str) -> Game {
+    Game::from_yaml(text, "test.yaml", CompileOptions::default()).unwrap()
+}
+
+// ---------------------------------------------------------------------------------------------
+// Numbers that lie
+
+#[test]
+fn a_milp_stopped_by_its_time_limit_is_never_called_exact() {
+    // The reproducer's scoring, at a size the search still finishes quickly.
+    let g = compile(&two_player(
+        8,
+        4,
+        "distribution: sum\nscore: \"sin(1.3*x*a + 2.1*y*b + 0.7*x*y + 1.9*a*b + 0.3*x*b*a)\"",
+    ));
+    let exact = search(&g.scenario, None);
+    match milp_with_time_limit(&g.scenario, 0.05) {
+        Ok(c) => {
+            assert!(c.value <= exact.value + 1e-9);
+            if c.status == ClassicalStatus::Exact {
+                assert!((c.value - exact.value).abs() < 1e-9);
+            } else {
+                assert!(c.note.is_some());
+            }
+        }
+        Err(e) => assert!(matches!(e, bellgap::Error::Solver { .. }), "{e}"),
+    }
+    // An exact MILP agrees with the search on a small game.
+    let small = compile(&two_player(
+        3,
+        2,
+        "distribution: sum\nscore: \"sin(1.3*x*a + 2.1*y*b + 0.7*x*y)\"",
+    ));
+    let m = milp_with_time_limit(&small.scenario, 60.0).unwrap();
+    assert_eq!(m.status, ClassicalStatus::Exact);
+    assert!((m.value - search(&small.scenario, None).value).abs() < 1e-9);
+    let auto = classical_value(&small.scenario, Choice::Auto, false, None).unwrap();
+    assert_eq!(auto.status, ClassicalStatus::Exact);
+}
+
+#[test]
+fn key_figures_refuse_impossible_scores_and_error_rates() {
+    for (s, q) in [
+        ("2.9", "0.02"),
+        ("inf", "0.02"),
+        ("NaN", "0.02"),
+        ("2.5", "-0.1"),
+        ("2.5", "NaN"),
+        ("2.5", "0.7"),
+    ] {
+        refused(&["key", "--chsh", s, "--qber", q]);
+    }
+    // `--quiet` is accepted, and the figures at a valid point are unchanged.
+    let j = json_of(&bellgap(&[
+        "key", "--chsh", "2.5", "--qber", "0.0", "--quiet", "--json",
+    ]));
+    // Pironio et al. 2009 (NJP 11, 045021): H(A|E) ≥ 0.456436 at S = 2.5.
+    assert!(
+        (j["conditional_entropy"].as_f64().unwrap() - 0.456436).abs() < 1e-6,
+        "{j}"
+    );
+    let chsh = format!("{}/games/chsh.yaml", env!("CARGO_MANIFEST_DIR"));
+    for q in ["-0.1", ".nan"] {
+        let protocol = file(
+            "qber.yaml",
+            &format!("game: {chsh}\nrounds: 10000\nwins: 8500\nkey: {{qber: {q}}}\n"),
+        );
+        refused(&["review", &protocol]);
+    }
+}
+
+#[test]
+fn margins_check_the_observation_against_the_game() {
+    let g = "games/chsh-expression.yaml";
+    // A range narrower than the game's own [−4, 4] makes Hoeffding's bound false.
+    refused(&[
+        "margin",
+        g,
+        "--rounds",
+        "1000",
+        "--score-sum",
+        "2500",
+        "--score-range",
+        "2.5,2.5000001",
+    ]);
+    refused(&["margin", g, "--rounds", "1000", "--score-sum", "NaN"]);
+    refused(&[
+        "margin",
+        g,
+        "--rounds",
+        "1000",
+        "--score-sum",
+        "2500",
+        "--score-range",
+        "-inf,inf",
+    ]);
+    // Wins only for a win/lose game.
+    refused(&["margin", g, "--rounds", "1000", "--wins", "800"]);
+    // The documented `LO,HI` form works, and so does the game's own range by default.
+    let a = json_of(&bellgap(&[
+        "margin",
+        g,
+        "--rounds",
+        "1000",
+        "--score-sum",
+        "2500",
+        "--score-range",
+        "-4,4",
+        "--json",
+    ]));
+    let b = json_of(&bellgap(&[
+        "margin",
+        g,
+        "--rounds",
+        "1000",
+        "--score-sum",
+        "2500",
+        "--json",
+    ]));
+    assert_eq!(a["lower_confidence"], b["lower_confidence"]);
+    // Hoeffding: 2.5 − 8·√(ln(10⁶)/2000).
+    let hoeffding = 2.5 - 8.0 * ((1e6f64).ln() / 2000.0).sqrt();
+    assert!((a["lower_confidence"].as_f64().unwrap() - hoeffding).abs() < 1e-9);
+}
+
+#[test]
+fn the_see_saw_lower_bound_is_rounded_down_by_its_error() {
+    let game = file(
+        "lie.yaml",
+        &two_player(
+            2,
+            2,
+            "score: \"(if x==0 and y==0 and a==1 and b==0 then 1 else 0) - (if x==1 and y==0 and a==1 and b==0 then 1e9 else 0)\"",
+        ),
+    );
+    let j = json_of(&bellgap(&["bounds", &game, "--json"]));
+    let ns = j["no_signalling"].as_f64().unwrap();
+    let lower = j["quantum_lower"].as_f64().unwrap();
+    let classical = j["classical"].as_f64().unwrap();
+    assert!((classical - 1.0).abs() < 1e-12 && (ns - 1.0).abs() < 1e-9);
+    assert!(lower <= ns, "quantum ≥ {lower} above no-signalling {ns}");
+    assert!(lower >= classical);
+    let s = bellgap(&["seesaw", &game, "--json", "--restarts", "2"]);
+    let sw = json_of(&s);
+    assert!(sw["quantum_lower"].as_f64().unwrap() <= 1.0);
+}
+
+const CHSH_STRATEGY: &str = "dims: [2, 2]
+state: [STATE]
+measurements:
+  alice:
+    - question: 0
+      elements: [[[1, 0], [0, 0]], [[0, 0], [0, 1]]]
+    - question: 1
+      elements: [[[0.5, 0.5], [0.5, 0.5]], [[0.5, -0.5], [-0.5, 0.5]]]
+  bob:
+    - question: 0
+      elements: [[[0.8535533905932737, 0.35355339059327373], [0.35355339059327373, 0.14644660940672624]], [[0.14644660940672627, -0.35355339059327373], [-0.35355339059327373, 0.8535533905932737]]]
+    - question: 1
+      elements: [[[0.8535533905932737, -0.35355339059327373], [-0.35355339059327373, 0.14644660940672624]], [[0.14644660940672627, 0.35355339059327373], [0.35355339059327373, 0.8535533905932737]]]
+";
+
+#[test]
+fn evaluate_reports_the_value_of_a_valid_strategy_only() {
+    let tsirelson = (std::f64::consts::PI / 8.0).cos().powi(2);
+    let h = std::f64::consts::FRAC_1_SQRT_2;
+    // Norm 1 + 0.99e-6: accepted within tolerance, but evaluated normalised.
+    let big = h * (1.0 + 0.99e-6);
+    let st = file(
+        "long.yaml",
+        &CHSH_STRATEGY.replace("STATE", &format!("{big}, 0, 0, {big}")),
+    );
+    let j = json_of(&bellgap(&["evaluate", "games/chsh.yaml", &st, "--json"]));
+    let v = j["value"].as_f64().unwrap();
+    let lower = j["quantum_lower"].as_f64().unwrap();
+    assert!(lower <= tsirelson, "{lower} above Tsirelson's bound");
+    assert!((v - tsirelson).abs() < 1e-9, "{v}");
+    // NaN anywhere is refused with the field named.
+    let nan = file(
+        "nan.yaml",
+        &CHSH_STRATEGY
+            .replace("STATE", &format!("{h}, 0, 0, {h}"))
+            .replace("[[[1, 0], [0, 0]]", "[[[.nan, 0], [0, 0]]"),
+    );
+    let j = refused(&["evaluate", "games/chsh.yaml", &nan]);
+    assert!(
+        j["error"]["message"].as_str().unwrap().contains("finite"),
+        "{j}"
+    );
+    let nan_state = file(
+        "nan-state.yaml",
+        &CHSH_STRATEGY.replace("STATE", &format!(".nan, 0, 0, {h}")),
+    );
+    let j = refused(&["evaluate", "games/chsh.yaml", &nan_state]);
+    assert_eq!(j["error"]["location"]["field"], "state[0]");
+}
+
+#[test]
+fn bounds_are_reported_in_order_on_games_where_they_meet() {
+    // Magic square, GHZ and Mermin: the verified NPA bound equals the no-signalling value up to
+    // the solver's tolerance; as reported it never exceeds it.
+    for g in [
+        "games/magic-square.yaml",
+        "games/ghz-3.yaml",
+        "games/mermin.yaml",
+    ] {
+        let j = json_of(&bellgap(&["bounds", g, "--json"]));
+        let c = j["classical"].as_f64().unwrap();
+        let lower = j["quantum_lower"].as_f64().unwrap();
+        let upper = j["verified_upper"].as_f64().unwrap();
+        let ns = j["no_signalling"].as_f64().unwrap();
+        assert!(
+            c <= lower && lower <= upper && upper <= ns,
+            "{g}: {c} {lower} {upper} {ns}"
+        );
+        assert!(
+            j["gaps"]["no_signalling_minus_quantum_upper"]
+                .as_f64()
+                .unwrap()
+                >= 0.0
+        );
+    }
+}
+
+#[test]
+fn several_npa_levels_report_the_best_verified_bound() {
+    let j = json_of(&bellgap(&[
+        "npa",
+        "games/i3322.yaml",
+        "--level",
+        "1;1+joint;2",
+        "--json",
+    ]));
+    let levels = j["levels"].as_array().unwrap();
+    assert_eq!(levels.len(), 3);
+    let best = levels
+        .iter()
+        .map(|l| l["verified_upper"].as_f64().unwrap())
+        .fold(f64::INFINITY, f64::min);
+    assert_eq!(
+        j["best_verified_upper"]["verified_upper"].as_f64().unwrap(),
+        best
+    );
+    // A level refused for size is refused before any level is solved.
+    let out = bellgap(&["npa", "games/i3322.yaml", "--level", "1;9", "--json"]);
+    assert_eq!(out.status.code(), Some(2));
+}
+
+#[test]
+fn certificates_are_bound_to_their_game_and_checked_strictly() {
+    let cert = dir().join("cert.json");
+    let c = cert.to_string_lossy().into_owned();
+    assert!(bellgap(&[
+        "npa",
+        "games/chsh.yaml",
+        "--level",
+        "1",
+        "--certificate",
+        &c
+    ])
+    .status
+    .success());
+    let ok = json_of(&bellgap(&["verify", "games/chsh.yaml", &c, "--json"]));
+    assert_eq!(ok["matches_claim"], true);
+    let original: Value = serde_json::from_str(&std::fs::read_to_string(&cert).unwrap()).unwrap();
+    // The same table written another way (the XOR form of CHSH) is the same game.
+    let same = json_of(&bellgap(&["verify", "games/xor-chsh.yaml", &c, "--json"]));
+    assert_eq!(same["matches_claim"], true);
+    // Another game with the same sizes (the CHSH expression) is refused by its fingerprint.
+    let j = refused(&["verify", "games/chsh-expression.yaml", &c]);
+    assert!(
+        j["error"]["message"]
+            .as_str()
+            .unwrap()
+            .contains("another game"),
+        "{j}"
+    );
+    let tamper = |name: &str, f: &dyn Fn(&mut Value)| {
+        let mut v = original.clone();
+        f(&mut v);
+        file(name, &v.to_string())
+    };
+    let short = tamper("short.json", &|v| {
+        v["dual"].as_array_mut().unwrap().pop();
+    });
+    refused(&["verify", "games/chsh.yaml", &short]);
+    let huge = tamper("huge.json", &|v| v["dual"][0] = Value::from(1e308));
+    refused(&["verify", "games/chsh.yaml", &huge]);
+    let claim = tamper("claim.json", &|v| v["verified_upper"] = Value::from(0.8));
+    let j = refused(&["verify", "games/chsh.yaml", &claim]);
+    assert!(j["error"]["message"]
+        .as_str()
+        .unwrap()
+        .contains("proves only"));
+    // A certificate claiming a level far too large is refused before anything is built.
+    let big = tamper("big.json", &|v| {
+        v["level"] = Value::from("9");
+        v["matrix_size"] = Value::from(100_000);
+    });
+    refused(&["verify", "games/magic-square.yaml", &big]);
+}
+
+// ---------------------------------------------------------------------------------------------
+// Crashes
+
+#[test]
+fn formulas_that_overflowed_or_recursed_too_deep_are_errors() {
+    let cases = [
+        "(-9223372036854775807 - 1) // (-1)".to_string(),
+        "9223372036854775807 + 1".to_string(),
+        "1e308 * 10 * a".to_string(),
+        "min(1e308 * 10, a)".to_string(),
+        "1e999".to_string(),
+        format!("{}a{}", "(".repeat(10_000), ")".repeat(10_000)),
+        format!("{}a", "-".repeat(100_000)),
+        format!("{}a", "not ".repeat(100_000)),
+        vec!["a"; 30_000].join(" + "),
+    ];
+    for f in &cases {
+        let text = two_player(2, 2, &format!("score: \"{f}\""));
+        let err = Game::from_yaml(&text, "t.yaml", CompileOptions::default())
+            .err()
+            .unwrap_or_else(|| panic!("accepted: {}", &f[..f.len().min(60)]));
+        assert!(
+            matches!(err, bellgap::Error::Input { .. }),
+            "{}",
+            &f[..f.len().min(60)]
+        );
+    }
+    // i64::MIN % −1 is 0 (Rust's `%` would overflow on it).
+    let g = compile(&two_player(
+        2,
+        2,
+        "score: \"((-9223372036854775807 - 1) % (-1)) + a\"",
+    ));
+    assert_eq!(g.scenario.scores[2], 1.0); // x = y = 0, a = 1, b = 0
+                                           // Negative exponents are not truncated to 32 bits: 2 ** −4294967295 underflows to 0.
+    let g = compile(&two_player(2, 2, "score: \"(2 ** (-4294967295)) * a\""));
+    assert!(g.scenario.scores.iter().all(|v| *v == 0.0));
+}
+
+#[test]
+fn non_finite_tables_and_oversized_shapes_are_refused() {
+    let inf = two_player(
+        2,
+        2,
+        "bell:\n  terms:\n    - {coefficient: 1e308, event: {alice: \"0|0\", bob: \"0|0\"}}\n    - {coefficient: 1e308, event: {alice: \"0|0\", bob: \"0|0\"}}",
+    );
+    let path = file("inf.yaml", &inf);
+    for cmd in ["check", "classical", "nosignal", "npa"] {
+        refused(&[cmd, &path]);
+    }
+    // 63 players with one question and one answer each.
+    let many: String = (0..63)
+        .map(|i| {
+            format!("  - {{name: p{i}, question: x{i}, answer: a{i}, questions: 1, answers: 1}}\n")
+        })
+        .collect();
+    let path = file("many.yaml", &format!("players:\n{many}win: \"true\"\n"));
+    for cmd in ["check", "nosignal", "npa", "bounds"] {
+        refused(&[cmd, &path]);
+    }
+    // A player name of 70,000 characters.
+    let long = format!(
+        "players:\n  - {{name: {}, question: x, answer: a, questions: 2, answers: 2}}\n  - {{name: bob, question: y, answer: b, questions: 2, answers: 2}}\nwin: \"a == b\"\n",
+        "n".repeat(70_000)
+    );
+    let path = file("long.yaml", &long);
+    refused(&["check", &path]);
+}
+
+// ---------------------------------------------------------------------------------------------
+// Unbounded work
+
+#[test]
+fn work_that_grows_with_the_number_of_players_is_estimated_first() {
+    // 16 players, one question and two answers: the Collins–Gisin expansion has 3^16 terms.
+    let players: String = (0..16)
+        .map(|i| {
+            format!("  - {{name: p{i}, question: x{i}, answer: a{i}, questions: 1, answers: 2}}\n")
+        })
+        .collect();
+    let sum: Vec<String> = (0..16).map(|i| format!("a{i}")).collect();
+    let path = file(
+        "parity16.yaml",
+        &format!(
+            "players:\n{players}win: \"({}) % 2 == 0\"\n",
+            sum.join(" + ")
+        ),
+    );
+    let j = refused(&["nosignal", &path]);
+    assert!(j["error"]["kind"] == "too_large", "{j}");
+    let j = refused(&["npa", &path, "--level", "1"]);
+    assert!(j["error"]["kind"] == "too_large", "{j}");
+    // Randomness at a level whose words cannot all be built.
+    let j = refused(&[
+        "randomness",
+        "games/chsh.yaml",
+        "--score",
+        "0.8",
+        "--level",
+        "40",
+    ]);
+    assert!(j["error"]["kind"] == "too_large", "{j}");
+    // A see-saw estimated at hours is refused with the estimate.
+    let j = refused(&[
+        "seesaw",
+        "games/chsh.yaml",
+        "--dims",
+        "64,64",
+        "--restarts",
+        "64",
+    ]);
+    assert!(j["error"]["kind"] == "too_large", "{j}");
+}
+
+// ---------------------------------------------------------------------------------------------
+// Files
+
+#[test]
+fn outputs_never_replace_inputs_and_foreign_files_are_not_echoed() {
+    let game = file(
+        "own.yaml",
+        &std::fs::read_to_string("games/chsh.yaml").unwrap(),
+    );
+    let before = std::fs::read_to_string(&game).unwrap();
+    refused(&["npa", &game, "--certificate", &game]);
+    refused(&["seesaw", &game, "--save", &game, "--restarts", "1"]);
+    assert_eq!(std::fs::read_to_string(&game).unwrap(), before);
+    // A write error says "cannot write".
+    let out = bellgap(&[
+        "npa",
+        &game,
+        "--level",
+        "1;2",
+        "--svg",
+        "/nonexistent/dir/x.svg",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("cannot write"));
+    // A protocol naming a foreign file: the error does not quote it.
+    let secret = file("secret.txt", "the-password-is-swordfish-and-more-text\n");
+    let protocol = file(
+        "foreign.yaml",
+        &format!("game: {secret}\nrounds: 10\nwins: 8\n"),
+    );
+    let out = bellgap(&["review", &protocol]);
+    assert_eq!(out.status.code(), Some(2));
+    let all = format!(
+        "{}{}",
+        String::from_utf8_lossy(&out.stdout),
+        String::from_utf8_lossy(&out.stderr)
+    );
+    assert!(!all.contains("swordfish"), "{all}");
+    // Devices are not read.
+    let protocol = file("zero.yaml", "game: /dev/zero\nrounds: 10\nwins: 8\n");
+    refused(&["review", &protocol]);
+}
+
+#[test]
+fn markdown_reports_escape_names() {
+    let evil = std::fs::read_to_string("games/chsh.yaml").unwrap().replace(
+        "name: chsh",
+        "name: \"<script>alert(1)</script> [x](javascript:y)\"",
+    );
+    let game = file("evil-game.yaml", &evil);
+    let protocol = file(
+        "evil.yaml",
+        &format!("name: \"<img src=x onerror=alert(1)>\"\ngame: {game}\nrounds: 1000\nwins: 850\n"),
+    );
+    let out = bellgap(&["review", &protocol, "--markdown"]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let md = String::from_utf8_lossy(&out.stdout);
+    assert!(!md.contains("<script>") && !md.contains("<img"), "{md}");
+    assert!(!md.contains("](javascript"), "{md}");
+}
+
+// ---------------------------------------------------------------------------------------------
+// Contract
+
+#[test]
+fn argument_errors_with_json_print_one_json_object() {
+    for args in [
+        vec!["npa", "games/chsh.yaml", "--level", "--json"],
+        vec!["margin", "games/chsh.yaml", "--rounds", "x", "--json"],
+        vec!["randomness", "games/chsh.yaml", "--score", "NaN", "--json"],
+        vec!["nosuchcommand", "--json"],
+    ] {
+        let out = bellgap(&args);
+        assert_eq!(out.status.code(), Some(2), "{args:?}");
+        let j = json_of(&out);
+        assert_eq!(j["error"]["kind"], "usage", "{args:?}");
+    }
+}
