@@ -631,16 +631,10 @@ pub fn run(cli: &Cli) -> Result<Output> {
                 return Err(Error::solver("NPA", r.failures.join("; ")));
             }
             if let Some(file) = svg {
-                let chart = plot::line_chart(
+                let chart = plot::category_chart(
                     &format!("NPA bound by level, {}", game.name),
-                    &format!(
-                        "level ({})",
-                        bounds
-                            .iter()
-                            .map(|b| b.level.clone())
-                            .collect::<Vec<_>>()
-                            .join(", ")
-                    ),
+                    "level",
+                    &bounds.iter().map(|b| b.level.clone()).collect::<Vec<_>>(),
                     "verified upper bound",
                     &[plot::Series {
                         name: "verified".into(),
@@ -812,7 +806,8 @@ pub fn run(cli: &Cli) -> Result<Output> {
             output,
             json,
         } => {
-            let r = review::review(&protocol.to_string_lossy())?;
+            let mut r = review::review(&protocol.to_string_lossy())?;
+            r.command_line = std::env::args().collect::<Vec<_>>().join(" ");
             let mut inputs = inputs.clone();
             inputs.push(PathBuf::from(&r.game.source));
             let doc = if *markdown {

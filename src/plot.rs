@@ -31,6 +31,28 @@ fn ticks(lo: f64, hi: f64) -> Vec<f64> {
 
 /// A chart of one or more series, 640×400 pixels.
 pub fn line_chart(title: &str, x_label: &str, y_label: &str, series: &[Series]) -> String {
+    chart(title, x_label, y_label, series, None)
+}
+
+/// A chart whose x axis is a list of categories (e.g. NPA levels): point k of each series is
+/// drawn at category k (x = k + 1), and the axis is labelled with the category names only.
+pub fn category_chart(
+    title: &str,
+    x_label: &str,
+    categories: &[String],
+    y_label: &str,
+    series: &[Series],
+) -> String {
+    chart(title, x_label, y_label, series, Some(categories))
+}
+
+fn chart(
+    title: &str,
+    x_label: &str,
+    y_label: &str,
+    series: &[Series],
+    categories: Option<&[String]>,
+) -> String {
     let (w, h, left, right, top, bottom) = (640.0, 400.0, 70.0, 20.0, 40.0, 50.0);
     let all = series.iter().flat_map(|s| s.points.iter());
     let (mut x0, mut x1, mut y0, mut y1) = (
@@ -45,8 +67,11 @@ pub fn line_chart(title: &str, x_label: &str, y_label: &str, series: &[Series]) 
         y0 = y0.min(y);
         y1 = y1.max(y);
     }
-    if !x0.is_finite() {
+    if !x0.is_finite() || !y0.is_finite() || !x1.is_finite() || !y1.is_finite() {
         (x0, x1, y0, y1) = (0.0, 1.0, 0.0, 1.0);
+    }
+    if let Some(c) = categories {
+        (x0, x1) = (0.5, c.len() as f64 + 0.5);
     }
     if x1 - x0 < 1e-12 {
         x1 = x0 + 1.0;
@@ -70,7 +95,15 @@ pub fn line_chart(title: &str, x_label: &str, y_label: &str, series: &[Series]) 
         w / 2.0,
         escape(title)
     );
-    for t in ticks(x0, x1) {
+    let x_ticks: Vec<(f64, String)> = match categories {
+        Some(c) => c
+            .iter()
+            .enumerate()
+            .map(|(k, name)| ((k + 1) as f64, escape(name)))
+            .collect(),
+        None => ticks(x0, x1).into_iter().map(|t| (t, short(t))).collect(),
+    };
+    for (t, label) in x_ticks {
         let _ = write!(
             svg,
             r##"<line x1="{0:.1}" y1="{1}" x2="{0:.1}" y2="{2}" stroke="#ddd"/><text x="{0:.1}" y="{3}" text-anchor="middle">{4}</text>"##,
@@ -78,7 +111,7 @@ pub fn line_chart(title: &str, x_label: &str, y_label: &str, series: &[Series]) 
             top,
             h - bottom,
             h - bottom + 16.0,
-            short(t)
+            label
         );
     }
     for t in ticks(y0, y1) {
@@ -148,13 +181,20 @@ pub fn line_chart(title: &str, x_label: &str, y_label: &str, series: &[Series]) 
 
 fn short(v: f64) -> String {
     let s = format!("{v:.4}");
-    s.trim_end_matches('0').trim_end_matches('.').to_string()
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    // A tick that rounds to zero from below is "0", not "-0".
+    if s == "-0" {
+        "0".into()
+    } else {
+        s.to_string()
+    }
 }
 
 fn escape(s: &str) -> String {
     s.replace('&', "&amp;")
         .replace('<', "&lt;")
         .replace('>', "&gt;")
+        .replace('"', "&quot;")
 }
 
 #[cfg(test)]

@@ -27,15 +27,16 @@ pub struct StrategyAnalysis {
 fn analysis_text(a: &StrategyAnalysis) -> String {
     let mut out = String::from("\nstrategy state:\n");
     for b in &a.bipartitions {
-        let schmidt: Vec<String> = b.schmidt.iter().map(|v| format!("{v:.6}")).collect();
+        let schmidt: Vec<String> = b.schmidt.iter().map(|v| fixed6(*v)).collect();
         out += &format!(
-            "  {} | rest: Schmidt [{}], entropy {:.6} bits{}\n",
+            "  {} | rest: Schmidt [{}], entropy {} bits{}\n",
             b.side.join(" "),
             schmidt.join(", "),
-            b.entropy_bits,
+            fixed6(b.entropy_bits),
             match (b.ppt, b.negativity) {
                 (Some(ppt), Some(n)) => format!(
-                    ", negativity {n:.6}, {}",
+                    ", negativity {}, {}",
+                    fixed6(n),
                     if ppt { "PPT" } else { "not PPT" }
                 ),
                 _ => String::new(),
@@ -369,9 +370,9 @@ impl<'a> Report<'a> {
             rows.push((
                 "strategies".into(),
                 format!(
-                    "{:.4e} deterministic; search enumerates {:.4e} (responder: {})",
-                    z.deterministic_strategies,
-                    e.enumerated_strategies,
+                    "{} deterministic; search enumerates {} (responder: {})",
+                    count_text(z.deterministic_strategies),
+                    count_text(e.enumerated_strategies),
                     s.parties[e.responder].name
                 ),
             ));
@@ -816,13 +817,10 @@ pub fn key_text(k: &crate::protocol::key::KeyRate, threshold: f64) -> String {
     let mut out = table(&[
         ("CHSH value".into(), num(k.score)),
         ("QBER".into(), num(k.qber)),
-        (
-            "H(A|E) ≥".into(),
-            format!("{} bits", num(k.conditional_entropy)),
-        ),
+        ("H(A|E) ≥".into(), bits_text(k.conditional_entropy)),
         (
             "key rate ≥".into(),
-            format!("{} bits per round", num(k.key_rate)),
+            format!("{} per round", bits_text(k.key_rate)),
         ),
         ("threshold QBER (depolarising)".into(), num(threshold)),
         ("bound".into(), k.bound.to_string()),
@@ -832,11 +830,63 @@ pub fn key_text(k: &crate::protocol::key::KeyRate, threshold: f64) -> String {
     out
 }
 
-/// A p-value, written as a power of ten when it underflows.
+/// A p-value, always in one format: plain for p ≥ 0.001, else `m×10^e` with four significant
+/// digits (from the logarithm, so it also covers p-values that underflow a double).
 pub fn p_value_text(m: &crate::protocol::finite::Margin) -> String {
-    if m.p_value > 1e-300 {
-        format!("{:.3e}", m.p_value)
+    if m.p_value >= 1e-3 {
+        return num_sig(m.p_value, 4);
+    }
+    let e = m.p_value_log10.floor();
+    let mantissa = 10f64.powf(m.p_value_log10 - e);
+    format!("{}×10^{}", num_sig(mantissa, 4), e as i64)
+}
+
+/// A number with `digits` significant digits, trailing zeros dropped.
+pub fn num_sig(x: f64, digits: usize) -> String {
+    if x == 0.0 || !x.is_finite() {
+        return num(x);
+    }
+    let magnitude = x.abs().log10().floor() as i64;
+    let decimals = (digits as i64 - 1 - magnitude).max(0) as usize;
+    let s = format!("{x:.decimals$}");
+    let s = if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
     } else {
-        format!("10^{:.1}", m.p_value_log10)
+        s
+    };
+    if s == "-0" {
+        "0".into()
+    } else {
+        s
+    }
+}
+
+/// A count that may be astronomically large: exact up to 10^15, then `m×10^e`.
+pub fn count_text(x: f64) -> String {
+    if x < 1e15 {
+        format!("{}", x.round() as u64)
+    } else {
+        let e = x.log10().floor();
+        format!("{}×10^{}", num_sig(x / 10f64.powf(e), 4), e as i64)
+    }
+}
+
+/// `1 bit`, `0.5 bits`.
+pub fn bits_text(x: f64) -> String {
+    let n = num(x);
+    if n == "1" {
+        "1 bit".into()
+    } else {
+        format!("{n} bits")
+    }
+}
+
+/// Fixed six decimals, with a negative zero shown as 0.
+fn fixed6(x: f64) -> String {
+    let s = format!("{x:.6}");
+    if s == "-0.000000" {
+        "0.000000".into()
+    } else {
+        s
     }
 }

@@ -120,10 +120,24 @@ fn well_formed() -> impl Strategy<Value = String> {
     ];
     leaf.prop_recursive(5, 40, 3, |inner| {
         prop_oneof![
-            (inner.clone(), inner.clone(), prop_oneof![
-                Just("+"), Just("-"), Just("*"), Just("/"), Just("//"), Just("%"), Just("**"),
-                Just("=="), Just("<"), Just("and"), Just("or"), Just("xor")
-            ])
+            (
+                inner.clone(),
+                inner.clone(),
+                prop_oneof![
+                    Just("+"),
+                    Just("-"),
+                    Just("*"),
+                    Just("/"),
+                    Just("//"),
+                    Just("%"),
+                    Just("**"),
+                    Just("=="),
+                    Just("<"),
+                    Just("and"),
+                    Just("or"),
+                    Just("xor")
+                ]
+            )
                 .prop_map(|(l, r, op)| format!("({l} {op} {r})")),
             inner.clone().prop_map(|e| format!("(-{e})")),
             inner.clone().prop_map(|e| format!("(not {e})")),
@@ -182,8 +196,13 @@ fn game_text() -> impl Strategy<Value = String> {
 /// Cuts, duplicates or garbles part of a text (structure-level mutations of a valid file).
 fn mutated(text: String) -> impl Strategy<Value = String> {
     let len = text.len();
-    (0..=len, 0..=len, 0usize..4, proptest::collection::vec(any::<u8>(), 0..6)).prop_map(
-        move |(i, j, kind, junk)| {
+    (
+        0..=len,
+        0..=len,
+        0usize..4,
+        proptest::collection::vec(any::<u8>(), 0..6),
+    )
+        .prop_map(move |(i, j, kind, junk)| {
             let (i, j) = (i.min(j), i.max(j));
             let safe = |k: usize| {
                 let mut k = k;
@@ -204,8 +223,7 @@ fn mutated(text: String) -> impl Strategy<Value = String> {
                 ),
                 _ => text.clone(),
             }
-        },
-    )
+        })
 }
 
 // ---------------------------------------------------------------------------------------------

@@ -328,9 +328,9 @@ pub fn margin(
         target_p_value,
         expected_mean,
         assumptions: vec![
-            "lower_confidence and lower_confidence_exact assume independent, identically distributed rounds",
-            "p_value holds for any classical strategy, including one that adapts to earlier rounds, if each round's questions are drawn afresh from the game's distribution",
-            "rounds_needed assumes the devices' mean score equals expected_mean and uses the same Azuma–Hoeffding bound",
+            "the lower confidence bounds (Hoeffding, Clopper–Pearson) assume independent, identically distributed rounds",
+            "the p-value holds for any classical strategy, including one that adapts to earlier rounds, if each round's questions are drawn afresh from the game's distribution",
+            "the rounds needed assume the devices' mean score equals the expected mean and use the same Azuma–Hoeffding bound",
         ],
     })
 }

@@ -85,6 +85,28 @@ pub struct Review {
     pub randomness: Option<(String, Randomness, Vec<Randomness>)>,
     /// CHSH correlator value at the lower confidence bound and the key figures there.
     pub key: Option<(f64, KeyRate, f64)>,
+    /// Tool version and the UTC date the report was made.
+    pub generated: String,
+    /// The command that made the report (set by the caller; empty when unknown).
+    pub command_line: String,
+}
+
+/// Today's UTC date as YYYY-MM-DD (civil-from-days, Hinnant's algorithm), without a date crate.
+fn utc_date() -> String {
+    let secs = std::time::SystemTime::now()
+        .duration_since(std::time::UNIX_EPOCH)
+        .map(|d| d.as_secs() as i64)
+        .unwrap_or(0);
+    let z = secs.div_euclid(86_400) + 719_468;
+    let era = z.div_euclid(146_097);
+    let doe = z - era * 146_097;
+    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
+    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
+    let mp = (5 * doy + 2) / 153;
+    let day = doy - (153 * mp + 2) / 5 + 1;
+    let month = if mp < 10 { mp + 3 } else { mp - 9 };
+    let year = yoe + era * 400 + i64::from(month <= 2);
+    format!("{year:04}-{month:02}-{day:02}")
 }
 
 /// The CHSH correlator value S for a score of this game, if the game is CHSH in one of its two
@@ -199,10 +221,50 @@ pub fn review(path: &str) -> Result<Review> {
         margin: m,
         randomness,
         key,
+        generated: format!(
+            "bellgap {} on {} (UTC)",
+            env!("CARGO_PKG_VERSION"),
+            utc_date()
+        ),
+        command_line: String::new(),
     })
 }
 
 impl Review {
+    /// The headline: whether the run certifies a score above every classical strategy.
+    pub fn verdict(&self) -> String {
+        let m = &self.margin;
+        let confidence = format!("{}", 1.0 - m.alpha);
+        if m.margin > 0.0 {
+            format!(
+                "Nonlocal at confidence {confidence}: the lower confidence bound {} exceeds the classical value {} by {} (i.i.d. rounds); classical devices, even adaptive ones, score this much with probability at most {}.",
+                num(m.lower_confidence),
+                num(m.classical),
+                num(m.margin),
+                crate::report::p_value_text(m)
+            )
+        } else {
+            format!(
+                "Not certified at confidence {confidence}: the lower confidence bound {} does not exceed the classical value {} (margin {}); classical devices score this much with probability up to {}.",
+                num(m.lower_confidence),
+                num(m.classical),
+                num(m.margin),
+                crate::report::p_value_text(m)
+            )
+        }
+    }
+
+    fn provenance(&self) -> String {
+        if self.command_line.is_empty() {
+            format!("Made by {}.", self.generated)
+        } else {
+            format!(
+                "Made by {} with the command: {}",
+                self.generated, self.command_line
+            )
+        }
+    }
+
     fn tables(&self) -> Vec<(String, Vec<(String, String)>)> {
         let m = &self.margin;
         let mut out = vec![(
@@ -232,8 +294,11 @@ impl Review {
                     "quantum − classical".into(),
                     format!(
                         "between {} and {}",
-                        num(self.seesaw.quantum_lower - self.classical),
-                        num(self.npa.verified_upper - self.classical)
+                        num((self.seesaw.quantum_lower - self.classical).max(0.0)),
+                        num(
+                            (self.npa.verified_upper.min(self.no_signalling) - self.classical)
+                                .max(0.0)
+                        )
                     ),
                 ),
             ],
@@ -275,11 +340,22 @@ impl Review {
                 "Certified randomness".into(),
                 vec![
                     ("guessed answer".into(), who.clone()),
-                    ("at score (lower confidence bound)".into(), num(r.score)),
+                    (
+                        "at score (lower confidence bound)".into(),
+                        if (r.score_used - r.score).abs() > 0.0 {
+                            format!(
+                                "{} (solved at {}, a weaker constraint)",
+                                num(r.score),
+                                num(r.score_used)
+                            )
+                        } else {
+                            num(r.score)
+                        },
+                    ),
                     ("guessing probability ≤".into(), num(r.guessing_probability)),
                     (
                         "min-entropy per round ≥".into(),
-                        format!("{} bits", num(r.min_entropy)),
+                        crate::report::bits_text(r.min_entropy),
                     ),
                     ("NPA level".into(), r.level.clone()),
                 ],
@@ -292,12 +368,16 @@ impl Review {
                     ("CHSH value at the lower confidence bound".into(), num(*sv)),
                     (
                         "H(A|E) ≥".into(),
-                        format!("{} bits ({})", num(k.conditional_entropy), k.bound),
+                        format!(
+                            "{} ({})",
+                            crate::report::bits_text(k.conditional_entropy),
+                            k.bound
+                        ),
                     ),
                     ("QBER".into(), num(k.qber)),
                     (
                         "asymptotic key rate ≥".into(),
-                        format!("{} bits per round", num(k.key_rate)),
+                        format!("{} per round", crate::report::bits_text(k.key_rate)),
                     ),
                     (
                         "threshold QBER (depolarising noise)".into(),
@@ -345,7 +425,7 @@ impl Review {
 
     pub fn to_html(&self) -> String {
         let mut h = String::new();
-        let _ = write!(h, "<!DOCTYPE html>\n<html><head><meta charset=\"utf-8\"><title>Review: {0}</title><style>body{{font-family:sans-serif;max-width:60em;margin:2em auto}}table{{border-collapse:collapse}}td{{border:1px solid #ccc;padding:.3em .6em}}</style></head><body>\n<h1>Review: {0}</h1>\n<p>Game: {1} ({2})</p>\n", esc(&self.name), esc(&self.game.name), esc(&self.game.source));
+        let _ = write!(h, "<!DOCTYPE html>\n<html><head><meta charset=\"utf-8\"><title>Review: {0}</title><style>body{{font-family:sans-serif;max-width:60em;margin:2em auto}}table{{border-collapse:collapse}}td{{border:1px solid #ccc;padding:.3em .6em}}</style></head><body>\n<h1>Review: {0}</h1>\n<p><strong>{3}</strong></p>\n<p>Game: {1} ({2})</p>\n<p>{4}</p>\n", esc(&self.name), esc(&self.game.name), esc(&self.game.source), esc(&self.verdict()), esc(&self.provenance()));
         for (title, rows) in self.tables() {
             let _ = write!(h, "<h2>{}</h2>\n<table>\n", esc(&title));
             for (k, v) in rows {
@@ -367,10 +447,12 @@ impl Review {
 
     pub fn to_markdown(&self) -> String {
         let mut md = format!(
-            "# Review: {}\n\nGame: {} ({})\n",
+            "# Review: {}\n\n**{}**\n\nGame: {} ({})\n\n{}\n",
             md_escape(&self.name),
+            md_escape(&self.verdict()),
             md_escape(&self.game.name),
-            md_escape(&self.game.source)
+            md_escape(&self.game.source),
+            md_escape(&self.provenance())
         );
         for (title, rows) in self.tables() {
             let _ = write!(md, "\n## {}\n\n| | |\n|---|---|\n", md_escape(&title));
@@ -396,6 +478,8 @@ impl Review {
         json!({
             "command": "review",
             "name": self.name,
+            "verdict": self.verdict(),
+            "generated": self.generated,
             "game": self.game.name,
             "classical": self.classical,
             "quantum_lower": self.seesaw.quantum_lower,

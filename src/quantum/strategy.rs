@@ -283,10 +283,16 @@ impl QuantumStrategy {
 
     /// Checks normalisation and the POVM conditions; the message names player, question, answer.
     pub fn check(&self, s: &Scenario) -> std::result::Result<(), String> {
+        self.check_located(s).map_err(|(_, m)| m)
+    }
+
+    /// As [`QuantumStrategy::check`], with the file field at fault (`state`, or
+    /// `measurements.<player>`).
+    fn check_located(&self, s: &Scenario) -> std::result::Result<(), (String, String)> {
         // Written as `!(… <= tol)` so that NaN fails every check.
         let norm = self.state.norm();
         if !((norm - 1.0).abs() <= NORM_TOLERANCE) {
-            return Err(format!("the state has norm {norm}, not 1"));
+            return Err(("state".into(), format!("the state has norm {norm}, not 1")));
         }
         for (i, player) in self.measurements.iter().enumerate() {
             let p = &s.parties[i];
@@ -300,8 +306,9 @@ impl QuantumStrategy {
                     );
                     let herm = (m - m.adjoint()).norm();
                     if !(herm <= POVM_TOLERANCE) {
-                        return Err(format!(
-                            "{at}: the element is not Hermitian (‖M − M†‖ = {herm:.2e})"
+                        return Err((
+                            format!("measurements.{}", p.name),
+                            format!("{at}: the element is not Hermitian (‖M − M†‖ = {herm:.2e})"),
                         ));
                     }
                     let hm = (m + m.adjoint()) * Complex64::new(0.5, 0.0);
@@ -311,17 +318,21 @@ impl QuantumStrategy {
                         .cloned()
                         .fold(f64::INFINITY, f64::min);
                     if !(min >= -POVM_TOLERANCE) {
-                        return Err(format!(
-                            "{at}: the element has a negative eigenvalue {min:.3e}"
+                        return Err((
+                            format!("measurements.{}", p.name),
+                            format!("{at}: the element has a negative eigenvalue {min:.3e}"),
                         ));
                     }
                     sum += m;
                 }
                 let dev = (sum - CMatrix::identity(d, d)).norm();
                 if !(dev <= POVM_TOLERANCE) {
-                    return Err(format!(
-                        "{}, question {}: the elements sum to the identity only up to {dev:.2e}",
-                        p.name, p.question_labels[x]
+                    return Err((
+                        format!("measurements.{}", p.name),
+                        format!(
+                            "{}, question {}: the elements sum to the identity only up to {dev:.2e}",
+                            p.name, p.question_labels[x]
+                        ),
                     ));
                 }
             }
@@ -565,7 +576,9 @@ impl QuantumStrategy {
             state,
             measurements,
         };
-        strategy.check(s).map_err(|m| ctx.error("", m))?;
+        strategy
+            .check_located(s)
+            .map_err(|(field, m)| ctx.error(&field, m))?;
         Ok(strategy)
     }
 
