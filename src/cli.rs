@@ -116,6 +116,10 @@ pub enum Command {
         /// Plot the value against visibility and detection efficiency (SVG).
         #[arg(long, value_name = "FILE")]
         svg: Option<PathBuf>,
+        /// Skip the classical value (and so the robustness figures, which are measured against
+        /// it); on a large game computing it can take long.
+        #[arg(long)]
+        no_classical: bool,
     },
     /// What an observed score over n rounds certifies: confidence bounds, margin over the
     /// classical value, p-value of classical devices, rounds needed.
@@ -578,12 +582,25 @@ pub fn run(cli: &Cli) -> Result<Output> {
             args,
             strategy,
             svg,
+            no_classical,
         } => {
             let game = load(args)?;
-            let st = QuantumStrategy::from_file(&strategy.to_string_lossy(), &game.scenario)?;
-            let classical = classical::classical_value(&game.scenario, Choice::Auto, false, None)
-                .ok()
-                .map(|c| c.value);
+            let st = QuantumStrategy::from_file(&strategy.to_string_lossy(), &game.scenario)?
+                .made_valid();
+            let mut early = Vec::new();
+            let classical = if *no_classical {
+                None
+            } else {
+                // Said before it starts: the robustness figures need the exact classical value.
+                if ClassicalEstimate::of(&game.scenario).search_work > 1e9 {
+                    early.push("computing the exact classical value for the robustness figures (pass --no-classical to skip)".to_string());
+                }
+                warn_long_search(&game.scenario, args.force, &mut early);
+                print_early(&early, args.quiet);
+                classical::classical_value(&game.scenario, Choice::Auto, args.force, None)
+                    .ok()
+                    .map(|c| c.value)
+            };
             if let Some(file) = svg {
                 write_file(file, &robustness_chart(&game, &st, classical), &inputs)?;
             }

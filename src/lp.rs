@@ -264,6 +264,78 @@ impl LinearProgram {
     }
 }
 
+impl LinearProgram {
+    /// The point of this programme's feasible set nearest to `target` in the weighted norm
+    /// `Σ_j w_j (x_j − t_j)²` (a convex QP; the objective of the programme is ignored), by
+    /// clarabel's interior-point method.
+    pub fn weighted_projection(
+        &self,
+        target: &[f64],
+        weights: &[f64],
+        stage: &str,
+    ) -> Result<Vec<f64>> {
+        use clarabel::algebra::CscMatrix;
+        use clarabel::solver::SupportedConeT;
+        let n = self.vars();
+        if target.len() != n || weights.len() != n {
+            return Err(Error::solver(
+                stage,
+                "target and weights need one entry per variable",
+            ));
+        }
+        let (mut rows, mut cols, mut vals, mut rhs) =
+            (Vec::new(), Vec::new(), Vec::new(), Vec::new());
+        let mut push = |terms: &[(usize, f64)], sign: f64, b: f64| {
+            let r = rhs.len();
+            for &(j, c) in terms {
+                rows.push(r);
+                cols.push(j);
+                vals.push(sign * c);
+            }
+            rhs.push(sign * b);
+        };
+        let equalities: Vec<&Row> = self
+            .rows
+            .iter()
+            .filter(|r| r.relation == Relation::Eq)
+            .collect();
+        for row in &equalities {
+            push(&row.terms, 1.0, row.rhs);
+        }
+        for row in &self.rows {
+            match row.relation {
+                Relation::Le => push(&row.terms, 1.0, row.rhs),
+                Relation::Ge => push(&row.terms, -1.0, row.rhs),
+                Relation::Eq => {}
+            }
+        }
+        for (j, b) in self.bounds.iter().enumerate() {
+            if b.lower.is_finite() {
+                push(&[(j, 1.0)], -1.0, b.lower);
+            }
+            if b.upper.is_finite() {
+                push(&[(j, 1.0)], 1.0, b.upper);
+            }
+        }
+        let m = rhs.len();
+        let a = CscMatrix::new_from_triplets(m, n, rows, cols, vals);
+        let p = CscMatrix::new_from_triplets(
+            n,
+            n,
+            (0..n).collect(),
+            (0..n).collect(),
+            weights.to_vec(),
+        );
+        let q: Vec<f64> = target.iter().zip(weights).map(|(t, w)| -t * w).collect();
+        let cones = [
+            SupportedConeT::ZeroConeT(equalities.len()),
+            SupportedConeT::NonnegativeConeT(m - equalities.len()),
+        ];
+        let (solver, _) = crate::sdp::run_clarabel(&p, &q, &a, &rhs, &cones, 1e-10, stage)?;
+        Ok(solver.solution.x.clone())
+    }
+}
+
 /// Weak duality with the error accounted for. For `min qᵀx` s.t. `Ax + s = b`, s ≥ 0 on the
 /// inequality rows and 0 on the equalities: any z with z ≥ 0 on the inequality rows gives
 /// `qᵀx = rᵀx − zᵀb + zᵀs ≥ rᵀx − zᵀb ≥ −zᵀb − ‖r‖₁·box` with residual `r = q + Aᵀz`. The

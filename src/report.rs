@@ -598,6 +598,7 @@ pub fn locality_json(name: &str, r: &LocalityReport) -> Value {
         "signalling": r.signalling,
         "deterministic_strategies": r.deterministic_strategies,
         "separating": r.separating,
+        "projection": r.projection,
         "seconds": r.seconds,
     })
 }
@@ -632,12 +633,35 @@ pub fn locality_text(name: &str, r: &LocalityReport, saved: Option<&str>) -> Str
             ),
         ));
     }
+    if let Some(p) = &r.projection {
+        rows.push((
+            "no-signalling projection".to_string(),
+            format!(
+                "{}: distance {}, largest change {}",
+                p.method,
+                num_sig(p.distance, 4),
+                num_sig(p.max_change, 4)
+            ),
+        ));
+        if let (Some(t), Some(pv)) = (p.chi_square, p.p_value) {
+            rows.push((
+                "signalling test".to_string(),
+                format!(
+                    "χ² = {} with {} degrees of freedom, p-value {} (asymptotic)",
+                    num_sig(t, 4),
+                    p.degrees_of_freedom,
+                    num_sig(pv, 4)
+                ),
+            ));
+        }
+    }
     let mut out = table(&rows);
-    if r.signalling > 1e-9 {
-        out += &format!(
-            "warning: these correlations signal (largest violation {}): no local or quantum model produces them, and no mixture with noise is local, so the visibility is 0. Frequencies from finitely many rounds usually signal a little; bring them to the no-signalling set before testing\n",
-            num(r.signalling)
-        );
+    if r.projection.is_some() {
+        out += "note: the correlations signal (frequencies from finitely many rounds usually do), so the test ran on their projection onto the no-signalling set; the visibility and the separating expression are those of the projection.";
+        if r.projection.as_ref().is_some_and(|p| p.p_value.is_none()) {
+            out += " Give `rounds` in the correlations file for a signalling p-value.";
+        }
+        out.push('\n');
     }
     out
 }

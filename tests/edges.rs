@@ -554,3 +554,86 @@ fn argument_errors_with_json_print_one_json_object() {
         assert_eq!(j["error"]["kind"], "usage", "{args:?}");
     }
 }
+
+// ---------------------------------------------------------------------------------------------
+// Field frictions
+
+#[test]
+fn measured_frequencies_are_tested_on_their_no_signalling_projection() {
+    // Noisy CHSH correlations (visibility about 0.71) with a 0.003 signalling deviation.
+    let text = "name: lab-run
+rounds: 100000
+players:
+  - {name: east, questions: 2, answers: 2}
+  - {name: west, questions: 2, answers: 2}
+behaviour:
+  - questions: [0, 0]
+    probabilities: [0.4287, 0.0713, 0.0733, 0.4267]
+  - questions: [0, 1]
+    probabilities: [0.4247, 0.0753, 0.0723, 0.4277]
+  - questions: [1, 0]
+    probabilities: [0.4277, 0.0723, 0.0733, 0.4267]
+  - questions: [1, 1]
+    probabilities: [0.0733, 0.4287, 0.4267, 0.0713]
+";
+    let path = file("lab.yaml", text);
+    let j = json_of(&bellgap(&["local", &path, "--json"]));
+    assert_eq!(j["local"], false);
+    let v = j["visibility"].as_f64().unwrap();
+    // E = 0.71·(1/√2)·... : the projection's critical visibility is near 1/(0.71·√2) ≈ 0.705.
+    assert!((v - 0.7054).abs() < 2e-3, "{v}");
+    let p = &j["projection"];
+    assert_eq!(p["degrees_of_freedom"], 4);
+    let pv = p["p_value"].as_f64().unwrap();
+    assert!(pv > 0.0 && pv < 1.0, "{pv}");
+    assert!(p["max_change"].as_f64().unwrap() < 0.003);
+    // Without rounds: least squares, no p-value.
+    let path = file("lab2.yaml", &text.replace("rounds: 100000\n", ""));
+    let j = json_of(&bellgap(&["local", &path, "--json"]));
+    assert_eq!(j["projection"]["method"], "least squares");
+    assert!(j["projection"].get("p_value").is_none());
+    // NaN probabilities are refused.
+    let path = file(
+        "lab3.yaml",
+        &text.replace("0.4287, 0.0713, 0.0733", ".nan, 0.0713, 0.0733"),
+    );
+    refused(&["local", &path]);
+}
+
+#[test]
+fn randomness_at_the_quantum_maximum_is_tight() {
+    // CHSH at S = 2√2: the guessing probability is 1/2 (Pironio et al. 2010, Nature 464, 1021:
+    // P_guess = 1/2 + 1/2·√(2 − S²/4)).
+    let j = json_of(&bellgap(&[
+        "randomness",
+        "games/chsh-expression.yaml",
+        "--score",
+        "2.8284271247",
+        "--json",
+    ]));
+    let p = j["results"][0]["guessing_probability"]
+        .as_f64()
+        .or_else(|| j["guessing_probability"].as_f64())
+        .unwrap_or_else(|| panic!("{j}"));
+    assert!((0.5 - 1e-9..0.5 + 1e-4).contains(&p), "{p}");
+    // A sweep reaching above the maximum reports the points it could certify.
+    let j = json_of(&bellgap(&[
+        "randomness",
+        "games/chsh-expression.yaml",
+        "--sweep",
+        "2.5:2.9:3",
+        "--json",
+    ]));
+    assert_eq!(j["not_obtained"].as_array().unwrap().len(), 1, "{j}");
+}
+
+#[test]
+fn the_see_saw_dimension_follows_the_game() {
+    // CGLMP with 5 outcomes needs dimension 5: `bounds` chooses it and settles the value
+    // (Acín, Durt, Gisin, Latorre 2002: I_5 ≈ 3.0157).
+    let out = bellgap(&["family", "cglmp", "--d", "5"]);
+    let game = file("cglmp5.yaml", &String::from_utf8_lossy(&out.stdout));
+    let j = json_of(&bellgap(&["bounds", &game, "--json"]));
+    assert_eq!(j["dims"], serde_json::json!([5, 5]));
+    assert_eq!(j["quantum_settled"], true, "{j}");
+}

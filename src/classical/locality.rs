@@ -37,6 +37,10 @@ struct CorrelationsFile {
     description: Option<String>,
     players: Vec<CorrelationPlayer>,
     behaviour: Vec<BehaviourRow>,
+    /// Rounds played per joint question, when the probabilities are measured frequencies (for
+    /// the signalling test).
+    #[serde(default)]
+    rounds: Option<u64>,
 }
 
 #[derive(Debug, Clone, Deserialize)]
@@ -52,6 +56,9 @@ struct CorrelationPlayer {
 struct BehaviourRow {
     questions: Vec<i64>,
     probabilities: Vec<Yaml>,
+    /// Rounds played with this joint question (overrides the file's `rounds`).
+    #[serde(default)]
+    rounds: Option<u64>,
 }
 
 /// Correlations `p(a|q)` for every joint question, in the scenario's layout.
@@ -61,6 +68,8 @@ pub struct Correlations {
     pub parties: Vec<Party>,
     /// `p[q * joint_answers + a]`.
     pub p: Vec<f64>,
+    /// Rounds behind each joint question's row, when the file gives them (measured data).
+    pub rounds: Option<Vec<u64>>,
 }
 
 impl Correlations {
@@ -113,6 +122,7 @@ impl Correlations {
         }
         let mut p = vec![f64::NAN; nq * na];
         let mut seen = vec![false; nq];
+        let mut rounds: Vec<Option<u64>> = vec![raw.rounds; nq];
         let mut d = vec![0; parties.len()];
         for (r, row) in raw.behaviour.iter().enumerate() {
             let rf = format!("behaviour[{r}]");
@@ -139,6 +149,15 @@ impl Correlations {
                 return Err(ctx.error(&rf, "this joint question is listed twice"));
             }
             seen[q] = true;
+            if row.rounds.is_some() {
+                rounds[q] = row.rounds;
+            }
+            if rounds[q] == Some(0) {
+                return Err(ctx.error(
+                    &format!("{rf}.rounds"),
+                    "the number of rounds must be positive",
+                ));
+            }
             if row.probabilities.len() != na {
                 return Err(ctx.error(
                     &format!("{rf}.probabilities"),
@@ -152,13 +171,16 @@ impl Correlations {
             for (a, v) in row.probabilities.iter().enumerate() {
                 let f = format!("{rf}.probabilities[{a}]");
                 let x = crate::game::compile::constant_number(v, &ctx, &f)?;
+                if !x.is_finite() {
+                    return Err(ctx.error(&f, format!("probability {x} is not a finite number")));
+                }
                 if x < -1e-12 {
                     return Err(ctx.error(&f, format!("probability {x} is negative")));
                 }
                 p[q * na + a] = x.max(0.0);
                 total += x;
             }
-            if (total - 1.0).abs() > ROW_TOLERANCE {
+            if !((total - 1.0).abs() <= ROW_TOLERANCE) {
                 return Err(ctx.error(
                     &format!("{rf}.probabilities"),
                     format!("probabilities sum to {total}, not 1"),
@@ -180,10 +202,21 @@ impl Correlations {
                 ),
             ));
         }
+        let rounds = if rounds.iter().all(Option::is_some) {
+            Some(rounds.into_iter().flatten().collect())
+        } else if rounds.iter().any(Option::is_some) {
+            return Err(ctx.error(
+                "rounds",
+                "rounds are given for some joint questions only: give them for all (or a file-wide `rounds`)",
+            ));
+        } else {
+            None
+        };
         Ok(Correlations {
             name: raw.name.unwrap_or_else(|| file.to_string()),
             parties,
             p,
+            rounds,
         })
     }
 
@@ -223,6 +256,9 @@ pub struct LocalityReport {
     /// Largest violation of the no-signalling conditions by the input.
     pub signalling: f64,
     pub deterministic_strategies: usize,
+    /// When the input signals: its projection onto the no-signalling set, on which the test ran.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub projection: Option<NoSignallingProjection>,
     /// Separating Bell expression `c(a|q)` (present when not local): local bound 0.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub separating: Option<SeparatingExpression>,
@@ -240,7 +276,118 @@ pub struct SeparatingExpression {
 }
 
 /// Runs the locality LP. `force` skips the refusal on very many deterministic strategies.
+/// Signalling below this (in the largest violated no-signalling condition) counts as rounding.
+pub const SIGNALLING_TOLERANCE: f64 = 1e-9;
+
+/// The nearest no-signalling behaviour to measured correlations, and how far they were from it.
+#[derive(Debug, Clone, Serialize)]
+pub struct NoSignallingProjection {
+    /// `least squares`, or `minimum Neyman chi-square` when rounds per question are known.
+    pub method: &'static str,
+    /// Euclidean distance between the input and the projection (over all p(a|q)).
+    pub distance: f64,
+    /// Largest change of one probability.
+    pub max_change: f64,
+    /// Neyman's χ² statistic `Σ_q n_q Σ_a (p̂ − p)² / p̂` at the projection (rounds known only).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub chi_square: Option<f64>,
+    /// Degrees of freedom: the number of independent no-signalling conditions.
+    pub degrees_of_freedom: usize,
+    /// Asymptotic p-value of "the devices do not signal" (χ² upper tail; rounds known only).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub p_value: Option<f64>,
+    /// The projected behaviour, `p[q * joint_answers + a]`.
+    #[serde(skip)]
+    pub behaviour: Vec<f64>,
+}
+
+/// Projects correlations onto the no-signalling set. With rounds per question the projection
+/// minimises Neyman's modified χ², `Σ_q n_q Σ_a (p̂ − p)²/p̂` (Neyman 1949, "Contribution to the
+/// theory of the χ² test", Proc. Berkeley Symp. 1, 239), a weighted least-squares problem whose
+/// minimum is asymptotically χ²-distributed with as many degrees of freedom as independent
+/// linear conditions under the hypothesis (here: no signalling); empty cells are given
+/// p̂ = 1/(2 n_q) in the weights (a common-practice continuity correction). Without rounds it
+/// is the plain least-squares projection, and no p-value is given.
+pub fn project_no_signalling(c: &Correlations) -> Result<NoSignallingProjection> {
+    let s = c.scenario_shape();
+    let na = s.joint_answers();
+    let mut lp = LinearProgram::new(true);
+    for _ in 0..c.p.len() {
+        lp.add_var(VarBounds::NONNEGATIVE, 0.0);
+    }
+    crate::nosignal::add_no_signalling_rows(&s, &mut lp, 0);
+    let weights: Vec<f64> = match &c.rounds {
+        Some(n) => {
+            c.p.iter()
+                .enumerate()
+                .map(|(k, &p)| {
+                    let nq = n[k / na] as f64;
+                    nq / p.max(0.5 / nq)
+                })
+                .collect()
+        }
+        None => vec![1.0; c.p.len()],
+    };
+    let projected = lp.weighted_projection(&c.p, &weights, "no-signalling projection")?;
+    let projected: Vec<f64> = projected.iter().map(|v| v.max(0.0)).collect();
+    let distance =
+        c.p.iter()
+            .zip(&projected)
+            .map(|(a, b)| (a - b) * (a - b))
+            .sum::<f64>()
+            .sqrt();
+    let max_change =
+        c.p.iter()
+            .zip(&projected)
+            .map(|(a, b)| (a - b).abs())
+            .fold(0.0, f64::max);
+    let free = s.joint_questions() * (na - 1);
+    let degrees_of_freedom =
+        free.saturating_sub(crate::collins_gisin::CollinsGisin::new(&s).variables);
+    let chi_square = c.rounds.as_ref().map(|_| {
+        c.p.iter()
+            .zip(&projected)
+            .zip(&weights)
+            .map(|((a, b), w)| w * (a - b) * (a - b))
+            .sum::<f64>()
+    });
+    let p_value = chi_square
+        .map(|t| crate::protocol::finite::chi_square_upper_tail(t, degrees_of_freedom as f64));
+    Ok(NoSignallingProjection {
+        method: if c.rounds.is_some() {
+            "minimum Neyman chi-square"
+        } else {
+            "least squares"
+        },
+        distance,
+        max_change,
+        chi_square,
+        degrees_of_freedom,
+        p_value,
+        behaviour: projected,
+    })
+}
+
+/// The locality test. Correlations that signal (measured frequencies always do a little) are
+/// first projected onto the no-signalling set ([`project_no_signalling`]) and the test runs on
+/// the projection; the report carries the distance and, with rounds, the signalling p-value.
 pub fn locality_test(c: &Correlations, force: bool) -> Result<LocalityReport> {
+    let signalling = c.signalling();
+    if signalling <= SIGNALLING_TOLERANCE {
+        return locality_test_as_given(c, force);
+    }
+    let projection = project_no_signalling(c)?;
+    let projected = Correlations {
+        p: projection.behaviour.clone(),
+        ..c.clone()
+    };
+    let mut report = locality_test_as_given(&projected, force)?;
+    report.signalling = signalling;
+    report.projection = Some(projection);
+    Ok(report)
+}
+
+fn locality_test_as_given(c: &Correlations, force: bool) -> Result<LocalityReport> {
     let start = Instant::now();
     let s = c.scenario_shape();
     let strategies: f64 = c
@@ -267,6 +414,7 @@ pub fn locality_test(c: &Correlations, force: bool) -> Result<LocalityReport> {
             visibility: f64::INFINITY,
             signalling,
             deterministic_strategies: strategies as usize,
+            projection: None,
             separating: None,
             seconds: start.elapsed().as_secs_f64(),
         });
@@ -350,6 +498,7 @@ pub fn locality_test(c: &Correlations, force: bool) -> Result<LocalityReport> {
         visibility,
         signalling,
         deterministic_strategies: n_strategies,
+        projection: None,
         separating,
         seconds: start.elapsed().as_secs_f64(),
     })

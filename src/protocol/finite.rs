@@ -124,6 +124,55 @@ pub fn incomplete_beta(a: f64, b: f64, x: f64) -> f64 {
     }
 }
 
+/// Upper tail of the χ² distribution, P(X ≥ x) for `dof` degrees of freedom: the regularised
+/// upper incomplete gamma Q(dof/2, x/2), by its series below a + 1 and Lentz's continued
+/// fraction above (the standard pair of expansions).
+pub fn chi_square_upper_tail(x: f64, dof: f64) -> f64 {
+    if x <= 0.0 || dof <= 0.0 {
+        return 1.0;
+    }
+    let (a, z) = (dof / 2.0, x / 2.0);
+    let log_front = a * z.ln() - z - ln_gamma(a);
+    if z < a + 1.0 {
+        // P(a, z) = e^{-z} z^a / Γ(a) Σ z^n / (a (a+1) ... (a+n)).
+        let (mut term, mut sum, mut ap) = (1.0 / a, 1.0 / a, a);
+        for _ in 0..10_000 {
+            ap += 1.0;
+            term *= z / ap;
+            sum += term;
+            if term.abs() < sum.abs() * 1e-16 {
+                break;
+            }
+        }
+        (1.0 - sum * log_front.exp()).clamp(0.0, 1.0)
+    } else {
+        let tiny = 1e-300;
+        let mut b = z + 1.0 - a;
+        let mut c = 1.0 / tiny;
+        let mut d = 1.0 / b;
+        let mut h = d;
+        for i in 1..10_000 {
+            let an = -(i as f64) * (i as f64 - a);
+            b += 2.0;
+            d = an * d + b;
+            if d.abs() < tiny {
+                d = tiny;
+            }
+            c = b + an / c;
+            if c.abs() < tiny {
+                c = tiny;
+            }
+            d = 1.0 / d;
+            let del = d * c;
+            h *= del;
+            if (del - 1.0).abs() < 1e-16 {
+                break;
+            }
+        }
+        (log_front.exp() * h).clamp(0.0, 1.0)
+    }
+}
+
 /// P(X ≥ k) for X ~ Binomial(n, p).
 pub fn binomial_upper_tail(n: u64, k: u64, p: f64) -> f64 {
     if k == 0 {
@@ -354,6 +403,12 @@ mod tests {
             })
             .sum();
         assert!((binomial_upper_tail(10, 8, 0.3) - direct).abs() < 1e-13);
+        // χ² upper tails: with 2 degrees of freedom P(X ≥ x) = e^{−x/2}; with 1, P(X ≥ 3.841459)
+        // = 0.05 (the familiar 95% point, from memory).
+        for x in [0.1, 1.0, 5.0, 30.0] {
+            assert!((chi_square_upper_tail(x, 2.0) - (-x / 2.0f64).exp()).abs() < 1e-12);
+        }
+        assert!((chi_square_upper_tail(3.841459, 1.0) - 0.05).abs() < 1e-6);
         // Clopper–Pearson: all n successes give α^(1/n).
         assert!((clopper_pearson_lower(20, 20, 0.05) - 0.05f64.powf(1.0 / 20.0)).abs() < 1e-10);
     }
