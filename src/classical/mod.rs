@@ -587,11 +587,68 @@ pub fn search(s: &Scenario, progress: Option<Progress>) -> ClassicalValue {
         .chunks(s.joint_answers())
         .map(|c| c.iter().fold(0.0f64, |m, v| m.max(v.abs())))
         .sum();
-    let tolerance = 1e-12 * (1.0 + scale);
+    // Pruning keeps every node within `tolerance` of the best known value, so the rounding of
+    // the incremental bounds (a few units in the last place per row summed, and the drift of
+    // repeated add/remove pairs) can never prune the optimum: relative 1e-9 is far above both
+    // for any search that finishes, and the terms' count is charged for very wide tables.
+    let unit = f64::EPSILON / 2.0;
+    let tolerance =
+        (1e-9 * (1.0 + scale)).max(8.0 * unit * s.joint_questions() as f64 * (1.0 + scale));
     // A good strategy from hill climbing prunes from the first node on. Ties with it are kept,
     // so the optimum (which is at least as good) is never pruned.
-    let (incumbent, _) = hill_climb(s, 4, 0x5eed);
-    let shared = SharedBest(AtomicU64::new((incumbent - s.offset).to_bits()));
+    let (incumbent, climbed) = hill_climb(s, 4, 0x5eed);
+    let results = search_tasks(s, &lay, incumbent - s.offset, tolerance, progress);
+    // Should rounding still have pruned every leaf, the search is repeated without the seed
+    // (then the first leaf is always reached).
+    let results = if results.iter().any(|r| r.1.is_some()) {
+        results
+    } else {
+        search_tasks(s, &lay, f64::NEG_INFINITY, tolerance, progress)
+    };
+    let top = results
+        .iter()
+        .map(|r| r.0)
+        .fold(f64::NEG_INFINITY, f64::max);
+    // The first task (in tree order) reaching the optimum gives the reported strategy.
+    let winner = results
+        .iter()
+        .find(|r| r.1.is_some() && r.0 >= top - tolerance)
+        .and_then(|r| r.1.clone());
+    let nodes = results.iter().map(|r| r.2).sum();
+    let Some(winner) = winner else {
+        // Unreachable after the unseeded rerun; never reported as exact all the same.
+        return ClassicalValue {
+            value: s.value_of_strategy(&climbed),
+            strategy: DeterministicStrategy { answers: climbed },
+            method: Method::Search,
+            status: ClassicalStatus::Incumbent,
+            note: Some("the search reached no complete strategy (internal error)".into()),
+            nodes,
+            seconds: start.elapsed().as_secs_f64(),
+        };
+    };
+    let strategy = complete_with_best_response(s, &lay, &winner);
+    ClassicalValue {
+        value: s.value_of_strategy(&strategy.answers),
+        strategy,
+        method: Method::Search,
+        status: ClassicalStatus::Exact,
+        note: None,
+        nodes,
+        seconds: start.elapsed().as_secs_f64(),
+    }
+}
+
+/// The parallel branch and bound from a seed value (the best known, or −∞).
+fn search_tasks(
+    _s: &Scenario,
+    lay: &Layout,
+    seed: f64,
+    tolerance: f64,
+    progress: Option<Progress>,
+) -> Vec<TaskResult> {
+    let lay = lay;
+    let shared = SharedBest(AtomicU64::new(seed.to_bits()));
 
     // Split the tree at a depth with enough subtrees to keep both cores busy.
     let mut split = 0;
@@ -605,10 +662,10 @@ pub fn search(s: &Scenario, progress: Option<Progress>) -> ClassicalValue {
         .map(|&(k, _)| lay.other_a[k])
         .collect();
     let done = AtomicUsize::new(0);
-    let results: Vec<TaskResult> = (0..tasks)
+    (0..tasks)
         .into_par_iter()
         .map(|t| {
-            let mut sr = Searcher::new(&lay, &shared, tolerance);
+            let mut sr = Searcher::new(lay, &shared, tolerance);
             let mut prefix = vec![0; split];
             digits(t, &radices, &mut prefix);
             let mut alive = true;
@@ -630,29 +687,7 @@ pub fn search(s: &Scenario, progress: Option<Progress>) -> ClassicalValue {
             }
             (sr.own_best, sr.best_assign, sr.nodes)
         })
-        .collect();
-
-    let top = results
-        .iter()
-        .map(|r| r.0)
-        .fold(f64::NEG_INFINITY, f64::max);
-    // The first task (in tree order) reaching the optimum gives the reported strategy.
-    let winner = results
-        .iter()
-        .find(|r| r.1.is_some() && r.0 >= top - tolerance)
-        .and_then(|r| r.1.clone())
-        .expect("some leaf is always reached: the optimum is never pruned");
-    let nodes = results.iter().map(|r| r.2).sum();
-    let strategy = complete_with_best_response(s, &lay, &winner);
-    ClassicalValue {
-        value: s.value_of_strategy(&strategy.answers),
-        strategy,
-        method: Method::Search,
-        status: ClassicalStatus::Exact,
-        note: None,
-        nodes,
-        seconds: start.elapsed().as_secs_f64(),
-    }
+        .collect()
 }
 
 /// Adds the responder's best response to the enumerated players' answers.

@@ -36,6 +36,7 @@ impl SourceMap {
             text,
             stack: Vec::new(),
             map: SourceMap::default(),
+            cursor: (0, 0),
         };
         let mut parser = Parser::new_from_str(text);
         if parser.load(&mut builder, false).is_err() {
@@ -74,9 +75,30 @@ struct Builder<'a> {
     text: &'a str,
     stack: Vec<Frame>,
     map: SourceMap,
+    /// (character index, byte offset) of the last marker converted: the parser's markers count
+    /// characters, slicing needs bytes, and markers arrive in document order.
+    cursor: (usize, usize),
 }
 
 impl Builder<'_> {
+    /// Byte offset of character `index` (clamped to the end of the text).
+    fn byte_offset(&mut self, index: usize) -> usize {
+        let (mut chars, mut bytes) = if index >= self.cursor.0 {
+            self.cursor
+        } else {
+            (0, 0)
+        };
+        for c in self.text[bytes..].chars() {
+            if chars == index {
+                break;
+            }
+            chars += 1;
+            bytes += c.len_utf8();
+        }
+        self.cursor = (chars, bytes);
+        bytes
+    }
+
     /// The path of the value that begins now, advancing the parent's cursor. Returns `None`
     /// when the event is a mapping key rather than a value.
     fn next_value_path(&mut self, key_text: Option<&str>) -> Option<String> {
@@ -115,14 +137,17 @@ impl MarkedEventReceiver for Builder<'_> {
         match ev {
             Event::Scalar(value, style, _, _) => {
                 if let Some(path) = self.next_value_path(Some(&value)) {
-                    let raw = &self.text[mark.index().min(self.text.len())..];
+                    let at = self.byte_offset(mark.index());
+                    let raw = &self.text[at..];
                     let first_line = raw.lines().next().unwrap_or("");
                     let text_column = match style {
                         TScalarStyle::Plain if first_line.starts_with(value.as_str()) => {
                             Some(mark.col() + 1)
                         }
                         TScalarStyle::SingleQuoted | TScalarStyle::DoubleQuoted
-                            if first_line[1..].starts_with(value.as_str()) =>
+                            if first_line
+                                .get(1..)
+                                .is_some_and(|rest| rest.starts_with(value.as_str())) =>
                         {
                             Some(mark.col() + 2)
                         }
