@@ -608,7 +608,13 @@ pub fn locality_text(name: &str, r: &LocalityReport, saved: Option<&str>) -> Str
         ("correlations".to_string(), name.to_string()),
         (
             "local model".to_string(),
-            if r.local { "yes" } else { "no" }.to_string(),
+            match &r.projection {
+                None => if r.local { "yes" } else { "no" }.to_string(),
+                Some(p) => format!(
+                    "no (the correlations signal); their no-signalling projection: {}",
+                    if p.local { "yes" } else { "no" }
+                ),
+            },
         ),
         (
             "critical visibility".to_string(),

@@ -250,6 +250,7 @@ impl Correlations {
 
 #[derive(Debug, Clone, Serialize)]
 pub struct LocalityReport {
+    /// Whether the correlations as given have a local model (never when they signal).
     pub local: bool,
     /// Critical white-noise visibility v* (≥ 1 iff local; above 1, P is inside the local set).
     pub visibility: f64,
@@ -296,6 +297,9 @@ pub struct NoSignallingProjection {
     /// Asymptotic p-value of "the devices do not signal" (χ² upper tail; rounds known only).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub p_value: Option<f64>,
+    /// Whether the projection has a local model (the report's visibility and separating
+    /// expression are the projection's).
+    pub local: bool,
     /// The projected behaviour, `p[q * joint_answers + a]`.
     #[serde(skip)]
     pub behaviour: Vec<f64>,
@@ -364,6 +368,7 @@ pub fn project_no_signalling(c: &Correlations) -> Result<NoSignallingProjection>
         chi_square,
         degrees_of_freedom,
         p_value,
+        local: false,
         behaviour: projected,
     })
 }
@@ -376,12 +381,15 @@ pub fn locality_test(c: &Correlations, force: bool) -> Result<LocalityReport> {
     if signalling <= SIGNALLING_TOLERANCE {
         return locality_test_as_given(c, force);
     }
-    let projection = project_no_signalling(c)?;
+    let mut projection = project_no_signalling(c)?;
     let projected = Correlations {
         p: projection.behaviour.clone(),
         ..c.clone()
     };
     let mut report = locality_test_as_given(&projected, force)?;
+    // Correlations that signal have no local model themselves, whatever their projection has.
+    projection.local = report.local;
+    report.local = false;
     report.signalling = signalling;
     report.projection = Some(projection);
     Ok(report)
