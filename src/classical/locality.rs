@@ -180,7 +180,7 @@ impl Correlations {
                 p[q * na + a] = x.max(0.0);
                 total += x;
             }
-            if !((total - 1.0).abs() <= ROW_TOLERANCE) {
+            if !crate::quantum::strategy::at_most((total - 1.0).abs(), ROW_TOLERANCE) {
                 return Err(ctx.error(
                     &format!("{rf}.probabilities"),
                     format!("probabilities sum to {total}, not 1"),

@@ -597,13 +597,13 @@ pub fn search(s: &Scenario, progress: Option<Progress>) -> ClassicalValue {
     // A good strategy from hill climbing prunes from the first node on. Ties with it are kept,
     // so the optimum (which is at least as good) is never pruned.
     let (incumbent, climbed) = hill_climb(s, 4, 0x5eed);
-    let results = search_tasks(s, &lay, incumbent - s.offset, tolerance, progress);
+    let results = search_tasks(&lay, incumbent - s.offset, tolerance, progress);
     // Should rounding still have pruned every leaf, the search is repeated without the seed
     // (then the first leaf is always reached).
     let results = if results.iter().any(|r| r.1.is_some()) {
         results
     } else {
-        search_tasks(s, &lay, f64::NEG_INFINITY, tolerance, progress)
+        search_tasks(&lay, f64::NEG_INFINITY, tolerance, progress)
     };
     let top = results
         .iter()
@@ -641,13 +641,11 @@ pub fn search(s: &Scenario, progress: Option<Progress>) -> ClassicalValue {
 
 /// The parallel branch and bound from a seed value (the best known, or −∞).
 fn search_tasks(
-    _s: &Scenario,
     lay: &Layout,
     seed: f64,
     tolerance: f64,
     progress: Option<Progress>,
 ) -> Vec<TaskResult> {
-    let lay = lay;
     let shared = SharedBest(AtomicU64::new(seed.to_bits()));
 
     // Split the tree at a depth with enough subtrees to keep both cores busy.

@@ -390,7 +390,7 @@ fn run(
     rng: &mut Rng,
     restart: usize,
 ) -> Result<(QuantumStrategy, usize)> {
-    let start = if restart % 2 == 0 {
+    let start = if restart.is_multiple_of(2) {
         random_measurement
     } else {
         random_povm

@@ -32,6 +32,14 @@ pub type CVector = DVector<Complex64>;
 pub const NORM_TOLERANCE: f64 = 1e-6;
 pub const POVM_TOLERANCE: f64 = 1e-7;
 
+/// `x ≤ limit`, false when x is NaN (unlike `!(x > limit)`).
+pub(crate) fn at_most(x: f64, limit: f64) -> bool {
+    matches!(
+        x.partial_cmp(&limit),
+        Some(std::cmp::Ordering::Less | std::cmp::Ordering::Equal)
+    )
+}
+
 /// A strategy's value with the error term of its evaluation.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct CertifiedValue {
@@ -289,9 +297,9 @@ impl QuantumStrategy {
     /// As [`QuantumStrategy::check`], with the file field at fault (`state`, or
     /// `measurements.<player>`).
     fn check_located(&self, s: &Scenario) -> std::result::Result<(), (String, String)> {
-        // Written as `!(… <= tol)` so that NaN fails every check.
+        // `at_most` is false for NaN, so a NaN fails every check.
         let norm = self.state.norm();
-        if !((norm - 1.0).abs() <= NORM_TOLERANCE) {
+        if !at_most((norm - 1.0).abs(), NORM_TOLERANCE) {
             return Err(("state".into(), format!("the state has norm {norm}, not 1")));
         }
         for (i, player) in self.measurements.iter().enumerate() {
@@ -305,7 +313,7 @@ impl QuantumStrategy {
                         p.name, p.question_labels[x], p.answer_labels[a]
                     );
                     let herm = (m - m.adjoint()).norm();
-                    if !(herm <= POVM_TOLERANCE) {
+                    if !at_most(herm, POVM_TOLERANCE) {
                         return Err((
                             format!("measurements.{}", p.name),
                             format!("{at}: the element is not Hermitian (‖M − M†‖ = {herm:.2e})"),
@@ -317,7 +325,7 @@ impl QuantumStrategy {
                         .iter()
                         .cloned()
                         .fold(f64::INFINITY, f64::min);
-                    if !(min >= -POVM_TOLERANCE) {
+                    if !at_most(-min, POVM_TOLERANCE) {
                         return Err((
                             format!("measurements.{}", p.name),
                             format!("{at}: the element has a negative eigenvalue {min:.3e}"),
@@ -326,7 +334,7 @@ impl QuantumStrategy {
                     sum += m;
                 }
                 let dev = (sum - CMatrix::identity(d, d)).norm();
-                if !(dev <= POVM_TOLERANCE) {
+                if !at_most(dev, POVM_TOLERANCE) {
                     return Err((
                         format!("measurements.{}", p.name),
                         format!(
