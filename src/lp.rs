@@ -205,43 +205,8 @@ impl LinearProgram {
             ));
         }
         let n = self.vars();
-        // clarabel's form: minimise qᵀx s.t. Ax + s = b, s in the cones; equalities first.
-        let (mut rows, mut cols, mut vals, mut rhs) =
-            (Vec::new(), Vec::new(), Vec::new(), Vec::new());
-        let mut push = |terms: &[(usize, f64)], sign: f64, b: f64| {
-            let r = rhs.len();
-            for &(j, c) in terms {
-                rows.push(r);
-                cols.push(j);
-                vals.push(sign * c);
-            }
-            rhs.push(sign * b);
-        };
-        for row in self.rows.iter().filter(|r| r.relation == Relation::Eq) {
-            push(&row.terms, 1.0, row.rhs);
-        }
-        let equalities = self
-            .rows
-            .iter()
-            .filter(|r| r.relation == Relation::Eq)
-            .count();
-        for row in &self.rows {
-            match row.relation {
-                Relation::Le => push(&row.terms, 1.0, row.rhs),
-                Relation::Ge => push(&row.terms, -1.0, row.rhs),
-                Relation::Eq => {}
-            }
-        }
-        for (j, b) in self.bounds.iter().enumerate() {
-            if b.lower.is_finite() {
-                push(&[(j, 1.0)], -1.0, b.lower);
-            }
-            if b.upper.is_finite() {
-                push(&[(j, 1.0)], 1.0, b.upper);
-            }
-        }
+        let (a, rhs, equalities) = self.conic_form();
         let m = rhs.len();
-        let a = CscMatrix::new_from_triplets(m, n, rows, cols, vals);
         let p = CscMatrix::zeros((n, n));
         let sign = if self.maximise { -1.0 } else { 1.0 };
         let q: Vec<f64> = self.objective.iter().map(|c| sign * c).collect();
@@ -265,6 +230,46 @@ impl LinearProgram {
 }
 
 impl LinearProgram {
+    /// The constraints in clarabel's form `Ax + s = b`, s in the cones: the equality rows first
+    /// (zero cone), then inequalities and finite variable bounds as `≤` rows (nonnegative
+    /// cone). Returns (A, b, number of equality rows).
+    fn conic_form(&self) -> (clarabel::algebra::CscMatrix<f64>, Vec<f64>, usize) {
+        let (mut rows, mut cols, mut vals, mut rhs) =
+            (Vec::new(), Vec::new(), Vec::new(), Vec::new());
+        let mut push = |terms: &[(usize, f64)], sign: f64, b: f64| {
+            let r = rhs.len();
+            for &(j, c) in terms {
+                rows.push(r);
+                cols.push(j);
+                vals.push(sign * c);
+            }
+            rhs.push(sign * b);
+        };
+        let mut equalities = 0;
+        for row in self.rows.iter().filter(|r| r.relation == Relation::Eq) {
+            push(&row.terms, 1.0, row.rhs);
+            equalities += 1;
+        }
+        for row in &self.rows {
+            match row.relation {
+                Relation::Le => push(&row.terms, 1.0, row.rhs),
+                Relation::Ge => push(&row.terms, -1.0, row.rhs),
+                Relation::Eq => {}
+            }
+        }
+        for (j, b) in self.bounds.iter().enumerate() {
+            if b.lower.is_finite() {
+                push(&[(j, 1.0)], -1.0, b.lower);
+            }
+            if b.upper.is_finite() {
+                push(&[(j, 1.0)], 1.0, b.upper);
+            }
+        }
+        let m = rhs.len();
+        let a = clarabel::algebra::CscMatrix::new_from_triplets(m, self.vars(), rows, cols, vals);
+        (a, rhs, equalities)
+    }
+
     /// The point of this programme's feasible set nearest to `target` in the weighted norm
     /// `Σ_j w_j (x_j − t_j)²` (a convex QP; the objective of the programme is ignored), by
     /// clarabel's interior-point method.
@@ -283,42 +288,8 @@ impl LinearProgram {
                 "target and weights need one entry per variable",
             ));
         }
-        let (mut rows, mut cols, mut vals, mut rhs) =
-            (Vec::new(), Vec::new(), Vec::new(), Vec::new());
-        let mut push = |terms: &[(usize, f64)], sign: f64, b: f64| {
-            let r = rhs.len();
-            for &(j, c) in terms {
-                rows.push(r);
-                cols.push(j);
-                vals.push(sign * c);
-            }
-            rhs.push(sign * b);
-        };
-        let equalities: Vec<&Row> = self
-            .rows
-            .iter()
-            .filter(|r| r.relation == Relation::Eq)
-            .collect();
-        for row in &equalities {
-            push(&row.terms, 1.0, row.rhs);
-        }
-        for row in &self.rows {
-            match row.relation {
-                Relation::Le => push(&row.terms, 1.0, row.rhs),
-                Relation::Ge => push(&row.terms, -1.0, row.rhs),
-                Relation::Eq => {}
-            }
-        }
-        for (j, b) in self.bounds.iter().enumerate() {
-            if b.lower.is_finite() {
-                push(&[(j, 1.0)], -1.0, b.lower);
-            }
-            if b.upper.is_finite() {
-                push(&[(j, 1.0)], 1.0, b.upper);
-            }
-        }
+        let (a, rhs, equalities) = self.conic_form();
         let m = rhs.len();
-        let a = CscMatrix::new_from_triplets(m, n, rows, cols, vals);
         let p = CscMatrix::new_from_triplets(
             n,
             n,
@@ -328,8 +299,8 @@ impl LinearProgram {
         );
         let q: Vec<f64> = target.iter().zip(weights).map(|(t, w)| -t * w).collect();
         let cones = [
-            SupportedConeT::ZeroConeT(equalities.len()),
-            SupportedConeT::NonnegativeConeT(m - equalities.len()),
+            SupportedConeT::ZeroConeT(equalities),
+            SupportedConeT::NonnegativeConeT(m - equalities),
         ];
         let (solver, _) = crate::sdp::run_clarabel(&p, &q, &a, &rhs, &cones, 1e-10, stage)?;
         Ok(solver.solution.x.clone())

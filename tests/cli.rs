@@ -2,22 +2,11 @@
 //! locality test.
 
 use std::path::PathBuf;
-use std::process::{Command, Output};
 
 use serde_json::Value;
 
-fn bellgap(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_bellgap"))
-        .args(args)
-        .current_dir(env!("CARGO_MANIFEST_DIR"))
-        .output()
-        .expect("the binary runs")
-}
-
-fn json_of(out: &Output) -> Value {
-    let text = String::from_utf8_lossy(&out.stdout);
-    serde_json::from_str(&text).unwrap_or_else(|e| panic!("not one JSON object ({e}): {text}"))
-}
+mod common;
+use common::{bellgap, json_of};
 
 fn temp_file(name: &str, content: &str) -> PathBuf {
     let dir = std::env::temp_dir().join(format!("bellgap-cli-{}", std::process::id()));
