@@ -487,7 +487,15 @@ pub fn run(cli: &Cli) -> Result<Output> {
             warn_long_search(&game.scenario, args.force, &mut early);
             print_early(&early, args.quiet);
             let mut r = Report::new("bounds", &game);
-            r.classical = Some(classical_for(&game, args, Choice::Auto)?);
+            // A classical value that cannot be obtained exactly (too large, or a MILP stopped
+            // at its time limit) is listed, and the other bounds are still reported.
+            match classical_for(&game, args, Choice::Auto) {
+                Ok(c) => r.classical = Some(c),
+                Err(e @ (Error::Solver { .. } | Error::TooLarge { .. })) => {
+                    r.failures.push(format!("classical value: {e}"))
+                }
+                Err(e) => return Err(e),
+            }
             r.no_signalling = Some(nosignal::no_signalling_value(&game.scenario, args.force)?);
             // In `bounds` a quantum bound that cannot be obtained is reported as such, and the
             // other bounds still are.
