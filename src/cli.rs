@@ -636,19 +636,24 @@ pub fn run(cli: &Cli) -> Result<Output> {
             if levels.is_empty() {
                 return Err(Error::Usage("no NPA level given".into()));
             }
-            // Every level's size is checked before any is solved, so a refusal comes first and
-            // not after hours of work on the others.
-            for l in &levels {
-                npa::sized_relaxation(&game.scenario, l, args.force, solver.resolve())?;
-            }
+            // Every level is built and size-checked before any is solved, so a refusal comes
+            // first and not after hours of work on the others.
+            let relaxations = levels
+                .iter()
+                .map(|l| {
+                    let start = Instant::now();
+                    npa::sized_relaxation(&game.scenario, l, args.force, solver.resolve())
+                        .map(|(r, _)| (r, start.elapsed().as_secs_f64()))
+                })
+                .collect::<Result<Vec<_>>>()?;
             // A level that fails (solver) after others finished keeps what finished.
             let mut bounds = Vec::new();
-            for l in &levels {
-                match npa::npa_bound_with(&game.scenario, l, args.force, solver.resolve()) {
+            for (relaxation, build_seconds) in &relaxations {
+                match npa::solve_relaxation(relaxation, solver.resolve(), *build_seconds) {
                     Ok(b) => bounds.push(b),
-                    Err(e) if !bounds.is_empty() || levels.len() > 1 => {
-                        r.failures.push(format!("NPA level {}: {e}", l.name()))
-                    }
+                    Err(e) if levels.len() > 1 => r
+                        .failures
+                        .push(format!("NPA level {}: {e}", relaxation.level.name())),
                     Err(e) => return Err(e),
                 }
             }

@@ -88,7 +88,8 @@ pub const LP_SOLVED: &str = "solved";
 /// optimality.
 pub const LP_TIME_LIMIT: &str = "stopped at the time limit";
 
-/// Simplex runs longer than this are stopped and reported as a solver failure rather than hang.
+/// Simplex runs longer than this are stopped rather than hang: a continuous LP then fails, an
+/// integer programme returns its incumbent with status [`LP_TIME_LIMIT`].
 pub const SIMPLEX_TIME_LIMIT_SECONDS: f64 = 600.0;
 
 impl LinearProgram {
@@ -227,9 +228,7 @@ impl LinearProgram {
             certified_bound,
         })
     }
-}
 
-impl LinearProgram {
     /// The constraints in clarabel's form `Ax + s = b`, s in the cones: the equality rows first
     /// (zero cone), then inequalities and finite variable bounds as `≤` rows (nonnegative
     /// cone). Returns (A, b, number of equality rows).

@@ -144,7 +144,6 @@ impl<'a> Report<'a> {
                     num(sw.quantum_lower),
                     sw.dims
                 ));
-                sw.seesaw_value = Some(sw.quantum_lower);
                 sw.quantum_lower = c;
             }
         }

@@ -49,6 +49,14 @@ pub struct Scenario {
     objective: Vec<f64>,
 }
 
+/// `x ≤ limit`, false when x is NaN (unlike `!(x > limit)`).
+pub fn at_most(x: f64, limit: f64) -> bool {
+    matches!(
+        x.partial_cmp(&limit),
+        Some(std::cmp::Ordering::Less | std::cmp::Ordering::Equal)
+    )
+}
+
 /// Mixed-radix helper: the digits of an index with radices `radices` (first most significant).
 pub fn digits(mut index: usize, radices: &[usize], out: &mut [usize]) {
     for k in (0..radices.len()).rev() {

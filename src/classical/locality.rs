@@ -21,7 +21,7 @@ use crate::game::compile::{parse_labels_for, Context};
 use crate::game::locate::SourceMap;
 use crate::game::spec::{GameSpec, PlayerSpec};
 use crate::lp::{LinearProgram, Relation, VarBounds};
-use crate::scenario::{digits, index_of, Party, Scenario, ScoreKind};
+use crate::scenario::{at_most, digits, index_of, Party, Scenario, ScoreKind};
 
 /// Rows must sum to one within this tolerance (typed probabilities carry rounding).
 pub const ROW_TOLERANCE: f64 = 1e-6;
@@ -180,7 +180,7 @@ impl Correlations {
                 p[q * na + a] = x.max(0.0);
                 total += x;
             }
-            if !crate::quantum::strategy::at_most((total - 1.0).abs(), ROW_TOLERANCE) {
+            if !at_most((total - 1.0).abs(), ROW_TOLERANCE) {
                 return Err(ctx.error(
                     &format!("{rf}.probabilities"),
                     format!("probabilities sum to {total}, not 1"),
@@ -276,7 +276,6 @@ pub struct SeparatingExpression {
     pub value: f64,
 }
 
-/// Runs the locality LP. `force` skips the refusal on very many deterministic strategies.
 /// Signalling below this (in the largest violated no-signalling condition) counts as rounding.
 pub const SIGNALLING_TOLERANCE: f64 = 1e-9;
 
@@ -379,7 +378,9 @@ pub fn project_no_signalling(c: &Correlations) -> Result<NoSignallingProjection>
 pub fn locality_test(c: &Correlations, force: bool) -> Result<LocalityReport> {
     let signalling = c.signalling();
     if signalling <= SIGNALLING_TOLERANCE {
-        return locality_test_as_given(c, force);
+        let mut report = locality_test_as_given(c, force)?;
+        report.signalling = signalling;
+        return Ok(report);
     }
     let mut projection = project_no_signalling(c)?;
     let projected = Correlations {
@@ -395,6 +396,8 @@ pub fn locality_test(c: &Correlations, force: bool) -> Result<LocalityReport> {
     Ok(report)
 }
 
+/// Runs the locality LP on correlations taken as given; the caller fills in `signalling`.
+/// `force` skips the refusal on very many deterministic strategies.
 fn locality_test_as_given(c: &Correlations, force: bool) -> Result<LocalityReport> {
     let start = Instant::now();
     let s = c.scenario_shape();
@@ -410,7 +413,6 @@ fn locality_test_as_given(c: &Correlations, force: bool) -> Result<LocalityRepor
             hint: "pass --force to try anyway".into(),
         });
     }
-    let signalling = c.signalling();
     let na = s.joint_answers();
     let nq = s.joint_questions();
     let uniform = 1.0 / na as f64;
@@ -420,7 +422,7 @@ fn locality_test_as_given(c: &Correlations, force: bool) -> Result<LocalityRepor
         return Ok(LocalityReport {
             local: true,
             visibility: f64::INFINITY,
-            signalling,
+            signalling: 0.0,
             deterministic_strategies: strategies as usize,
             projection: None,
             separating: None,
@@ -504,7 +506,7 @@ fn locality_test_as_given(c: &Correlations, force: bool) -> Result<LocalityRepor
     Ok(LocalityReport {
         local,
         visibility,
-        signalling,
+        signalling: 0.0,
         deterministic_strategies: n_strategies,
         projection: None,
         separating,

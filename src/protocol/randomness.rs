@@ -15,7 +15,7 @@ use std::collections::BTreeMap;
 use serde::Serialize;
 
 use crate::error::{Error, Result};
-use crate::quantum::npa::{relaxation, Entry, Level};
+use crate::quantum::npa::{Entry, Level, Relaxation};
 use crate::quantum::words::{moment_key, Projector, Word};
 use crate::scenario::Scenario;
 use crate::sdp::{AffineEntry, MatrixBlock, SdpProblem};
@@ -85,17 +85,8 @@ pub fn guessing_probability(
     score: f64,
     level: &Level,
 ) -> Result<Randomness> {
-    // A score above every quantum behaviour's leaves nothing to certify: say so rather than
-    // bound the guessing probability over an empty set.
-    let npa = crate::quantum::npa::npa_bound(s, level, false)?;
-    if score > npa.verified_upper {
-        return Err(Error::Usage(format!(
-            "the score {score} is above the quantum bound {} (NPA level {}): no quantum behaviour reaches it",
-            npa.verified_upper,
-            level.name()
-        )));
-    }
-    // The SDP's size is checked before it is built: one moment matrix per guess.
+    // The relaxation is built once, size-checked (one moment matrix per guess) before any SDP
+    // is solved, and shared by every solve below.
     let guesses: usize = target
         .parts
         .iter()
@@ -103,7 +94,6 @@ pub fn guessing_probability(
         .product();
     let (base, est) =
         crate::quantum::npa::sized_relaxation(s, level, false, crate::sdp::SdpSolver::Auto)?;
-    drop(base);
     let g = guesses as f64;
     let (seconds, bytes) = (est.seconds * g * g * g, est.memory_bytes * g * g);
     if seconds > crate::quantum::npa::SECONDS_LIMIT || bytes > crate::quantum::npa::MEMORY_LIMIT {
@@ -118,7 +108,17 @@ pub fn guessing_probability(
             hint: "choose a lower level".into(),
         });
     }
-    match guessing_probability_at(s, target, score, Mode::Constraint(score), level) {
+    // A score above every quantum behaviour's leaves nothing to certify: say so rather than
+    // bound the guessing probability over an empty set.
+    let npa = crate::quantum::npa::solve_relaxation(&base, crate::sdp::SdpSolver::Auto, 0.0)?;
+    if score > npa.verified_upper {
+        return Err(Error::Usage(format!(
+            "the score {score} is above the quantum bound {} (NPA level {}): no quantum behaviour reaches it",
+            npa.verified_upper,
+            level.name()
+        )));
+    }
+    match guessing_probability_at(s, target, score, Mode::Constraint(score), &base) {
         Ok(r) => return Ok(r),
         Err(Error::Solver { .. }) => {}
         Err(e) => return Err(e),
@@ -130,7 +130,7 @@ pub fn guessing_probability(
     // (verified) bound and the smallest is kept.
     let mut best: Option<Randomness> = None;
     let mut evaluate = |log_mu: f64| -> f64 {
-        match guessing_probability_at(s, target, score, Mode::Penalty(10f64.powf(log_mu)), level) {
+        match guessing_probability_at(s, target, score, Mode::Penalty(10f64.powf(log_mu)), &base) {
             Ok(r) => {
                 let p = r.guessing_probability;
                 if best.as_ref().is_none_or(|b| p < b.guessing_probability) {
@@ -171,7 +171,7 @@ pub fn guessing_probability(
     let mut last = None;
     for step in [1e-6, 1e-5, 1e-4, 1e-3] {
         let used = score - step * (hi - lo);
-        match guessing_probability_at(s, target, score, Mode::Constraint(used), level) {
+        match guessing_probability_at(s, target, score, Mode::Constraint(used), &base) {
             Ok(r) => return Ok(r),
             Err(e @ Error::Solver { .. }) => last = Some(e),
             Err(e) => return Err(e),
@@ -194,8 +194,9 @@ fn guessing_probability_at(
     target: &Target,
     score: f64,
     mode: Mode,
-    level: &Level,
+    r: &Relaxation,
 ) -> Result<Randomness> {
+    let level = &r.level;
     let score_used = match mode {
         Mode::Constraint(v) => v,
         Mode::Penalty(_) => score,
@@ -211,7 +212,6 @@ fn guessing_probability_at(
             "the two guessed answers must belong to different players".into(),
         ));
     }
-    let r = relaxation(s, level)?;
     let m = r.matrix.moments.len();
     let index: BTreeMap<&Word, usize> = r
         .matrix

@@ -521,12 +521,18 @@ pub fn npa_bound_with(
 ) -> Result<NpaBound> {
     let start = Instant::now();
     let (r, _) = sized_relaxation(s, level, force, solver)?;
-    let build_seconds = start.elapsed().as_secs_f64();
+    solve_relaxation(&r, solver, start.elapsed().as_secs_f64())
+}
+
+/// Solves a relaxation already built (and size-checked, see [`sized_relaxation`]);
+/// `build_seconds` is the time its building took, added to the reported time.
+pub fn solve_relaxation(r: &Relaxation, solver: SdpSolver, build_seconds: f64) -> Result<NpaBound> {
+    let start = Instant::now();
     let sol = r
         .problem
-        .solve_with(solver, &format!("NPA level {}", level.name()))?;
+        .solve_with(solver, &format!("NPA level {}", r.level.name()))?;
     Ok(NpaBound {
-        level: level.name(),
+        level: r.level.name(),
         quantum_upper: sol.dual,
         verified_upper: sol.certified,
         primal: sol.primal,
@@ -534,7 +540,7 @@ pub fn npa_bound_with(
         moments: r.matrix.moments.len(),
         status: sol.status.clone(),
         iterations: sol.iterations,
-        seconds: start.elapsed().as_secs_f64(),
+        seconds: build_seconds + start.elapsed().as_secs_f64(),
         build_seconds,
         gap: sol.gap,
         residual: sol.residual,

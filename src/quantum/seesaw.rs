@@ -84,10 +84,6 @@ pub struct SeesawResult {
     pub quantum_lower: f64,
     /// The error term subtracted.
     pub value_error: f64,
-    /// The see-saw strategy's own (rounded-down) value, when a report replaced `quantum_lower`
-    /// by a larger lower bound (the classical value).
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub seesaw_value: Option<f64>,
     pub dims: Vec<usize>,
     pub seed: u64,
     pub restarts: usize,
@@ -527,7 +523,6 @@ pub fn seesaw(
     Ok(SeesawResult {
         quantum_lower: certified.lower,
         value_error: certified.error,
-        seesaw_value: None,
         dims: opts.dims.clone(),
         seed: opts.seed,
         restarts: opts.restarts,

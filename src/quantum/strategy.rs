@@ -23,7 +23,7 @@ use serde_yaml::{Mapping, Value as Yaml};
 use crate::error::Result;
 use crate::game::compile::Context;
 use crate::game::locate::SourceMap;
-use crate::scenario::{digits, Scenario};
+use crate::scenario::{at_most, digits, Scenario};
 
 pub type CMatrix = DMatrix<Complex64>;
 pub type CVector = DVector<Complex64>;
@@ -31,14 +31,6 @@ pub type CVector = DVector<Complex64>;
 /// Tolerances for checking a strategy file.
 pub const NORM_TOLERANCE: f64 = 1e-6;
 pub const POVM_TOLERANCE: f64 = 1e-7;
-
-/// `x ≤ limit`, false when x is NaN (unlike `!(x > limit)`).
-pub(crate) fn at_most(x: f64, limit: f64) -> bool {
-    matches!(
-        x.partial_cmp(&limit),
-        Some(std::cmp::Ordering::Less | std::cmp::Ordering::Equal)
-    )
-}
 
 /// A strategy's value with the error term of its evaluation.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
