@@ -655,3 +655,52 @@ win: \"((a // 4 + a // 2 + a) % 2 == 0) and ((b // 4 + b // 2 + b) % 2 == 1) and
     let v = j["quantum_lower"].as_f64().unwrap();
     assert!(v > 1.0 - 1e-6 && v <= 1.0, "{v}");
 }
+
+#[test]
+fn rounds_in_correlations_files_are_checked() {
+    let base = "players:
+  - {name: east, questions: 1, answers: 2}
+  - {name: west, questions: 1, answers: 2}
+behaviour:
+  - questions: [0, 0]
+    probabilities: [0.5, 0, 0, 0.5]
+";
+    for (name, text) in [
+        ("zero.yaml", format!("rounds: 0\n{base}")),
+        ("negative.yaml", format!("rounds: -5\n{base}")),
+        ("huge.yaml", format!("rounds: 1e300\n{base}")),
+        ("text.yaml", format!("rounds: many\n{base}")),
+    ] {
+        let path = file(name, &text);
+        let j = refused(&["local", &path]);
+        assert_eq!(j["error"]["location"]["field"], "rounds", "{name}: {j}");
+    }
+    // Rounds for some joint questions only.
+    let partial = file(
+        "partial.yaml",
+        "players:
+  - {name: east, questions: 2, answers: 2}
+  - {name: west, questions: 1, answers: 2}
+behaviour:
+  - questions: [0, 0]
+    probabilities: [0.5, 0, 0, 0.5]
+    rounds: 10
+  - questions: [1, 0]
+    probabilities: [0.5, 0, 0, 0.5]
+",
+    );
+    refused(&["local", &partial]);
+    // A long unknown key (as in a foreign file) is not echoed.
+    let foreign = file(
+        "foreign-key.yaml",
+        &format!("{base}the-password-is-swordfish-and-more: 1\n"),
+    );
+    let j = refused(&["local", &foreign]);
+    assert!(
+        !j["error"]["message"]
+            .as_str()
+            .unwrap()
+            .contains("swordfish"),
+        "{j}"
+    );
+}

@@ -153,10 +153,13 @@ impl Correlations {
                 rounds[q] = row.rounds;
             }
             if rounds[q] == Some(0) {
-                return Err(ctx.error(
-                    &format!("{rf}.rounds"),
-                    "the number of rounds must be positive",
-                ));
+                // Point at the row's own `rounds`, or at the file-wide one it inherits.
+                let field = if row.rounds.is_some() {
+                    format!("{rf}.rounds")
+                } else {
+                    "rounds".to_string()
+                };
+                return Err(ctx.error(&field, "the number of rounds must be positive"));
             }
             if row.probabilities.len() != na {
                 return Err(ctx.error(

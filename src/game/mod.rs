@@ -101,34 +101,41 @@ pub(crate) fn yaml_error(e: serde_yaml::Error, file: &str) -> Error {
     }
 }
 
-/// The parser quotes what it found (`invalid type: string "..."`): a long quotation is cut, so
-/// that pointing a command at a foreign file (say, a password file) never echoes its content,
-/// and control characters are shown escaped.
+/// The parser quotes what it found (`invalid type: string "..."`, or a name or number in
+/// backticks): a long quotation is cut, so that pointing a command at a foreign file (say, a
+/// password file) never echoes its content, and control characters are shown escaped.
 fn redact_quoted(message: &str) -> String {
     const KEEP: usize = 16;
+    let shown = |quoted: &str| {
+        if quoted.chars().count() > KEEP {
+            "…".to_string()
+        } else {
+            quoted.escape_default().to_string()
+        }
+    };
     let mut out = String::new();
     let mut quoted = String::new();
-    let mut inside = false;
+    // The open quotation's delimiter: the parser quotes strings with `"` and names and numbers
+    // with backticks, and either may come from the file.
+    let mut open: Option<char> = None;
     for c in message.chars() {
-        if c == '"' {
-            if inside {
-                if quoted.chars().count() > KEEP {
-                    out.push('…');
-                } else {
-                    out.push_str(&quoted.escape_default().to_string());
-                }
+        match open {
+            Some(q) if c == q => {
+                out.push_str(&shown(&quoted));
+                out.push(c);
                 quoted.clear();
+                open = None;
             }
-            inside = !inside;
-            out.push('"');
-        } else if inside {
-            quoted.push(c);
-        } else {
-            out.push(c);
+            Some(_) => quoted.push(c),
+            None if c == '"' || c == '`' => {
+                out.push(c);
+                open = Some(c);
+            }
+            None => out.push(c),
         }
     }
-    if inside && quoted.chars().count() <= KEEP {
-        out.push_str(&quoted.escape_default().to_string());
+    if open.is_some() {
+        out.push_str(&shown(&quoted));
     }
     out.chars().take(400).collect()
 }
