@@ -6,10 +6,10 @@
 
 use std::time::Instant;
 
-use bellgap::classical::locality::{locality_test, Correlations};
-use bellgap::classical::search;
-use bellgap::game::{families, product, Game, GameSpec, PlayerSpec};
-use bellgap::nosignal::no_signalling_value;
+use bellgap::bounds::classical::locality::{locality_test, Correlations};
+use bellgap::bounds::classical::search;
+use bellgap::bounds::nosignal::no_signalling_value;
+use bellgap::formats::game::{families, product, Game, GameSpec, PlayerSpec};
 use bellgap::Scenario;
 use serde_yaml::{Mapping, Value};
 

@@ -8,9 +8,9 @@
 use std::process::Command;
 use std::time::Instant;
 
-use bellgap::game::{families, Game, GameSpec};
-use bellgap::quantum::npa::{estimate_for, npa_bound_with, relaxation, Level};
-use bellgap::sdp::SdpSolver;
+use bellgap::bounds::quantum::npa::{estimate_for, npa_bound_with, relaxation, Level};
+use bellgap::formats::game::{families, Game, GameSpec};
+use bellgap::optim::sdp::SdpSolver;
 
 fn solver(name: &str) -> SdpSolver {
     if name == "clarabel" {
@@ -92,7 +92,7 @@ fn main() {
                     est.matrix_size,
                     est.matrix_size,
                     est.moments,
-                    bellgap::classical::human_seconds(est.seconds),
+                    bellgap::bounds::classical::human_seconds(est.seconds),
                     est.memory_bytes / (1u64 << 20) as f64
                 );
                 continue;

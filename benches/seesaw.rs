@@ -5,8 +5,8 @@
 
 use std::time::Instant;
 
-use bellgap::game::{families, Game, GameSpec};
-use bellgap::quantum::seesaw::{seesaw, SeesawOptions};
+use bellgap::bounds::quantum::seesaw::{seesaw, SeesawOptions};
+use bellgap::formats::game::{families, Game, GameSpec};
 
 fn main() {
     let cases: Vec<(String, GameSpec, usize, usize)> = vec![

@@ -2,10 +2,10 @@
 //! optimal strategy and the no-signalling value, then test invented lab frequencies for a local
 //! model. Run with `cargo run --example bounds_from_library`.
 
-use bellgap::classical::locality::{locality_test, Correlations};
-use bellgap::classical::{classical_value, Choice};
-use bellgap::game::{CompileOptions, Game};
-use bellgap::nosignal::no_signalling_value;
+use bellgap::bounds::classical::locality::{locality_test, Correlations};
+use bellgap::bounds::classical::{classical_value, Choice};
+use bellgap::bounds::nosignal::no_signalling_value;
+use bellgap::formats::game::{CompileOptions, Game};
 
 fn main() -> Result<(), bellgap::Error> {
     let dir = env!("CARGO_MANIFEST_DIR");

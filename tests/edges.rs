@@ -4,8 +4,10 @@
 
 use std::path::PathBuf;
 
-use bellgap::classical::{classical_value, milp_with_time_limit, search, Choice, ClassicalStatus};
-use bellgap::game::{CompileOptions, Game};
+use bellgap::bounds::classical::{
+    classical_value, milp_with_time_limit, search, Choice, ClassicalStatus,
+};
+use bellgap::formats::game::{CompileOptions, Game};
 use serde_json::Value;
 
 mod common;

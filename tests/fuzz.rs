@@ -9,11 +9,11 @@
 use std::panic::{catch_unwind, AssertUnwindSafe};
 use std::process::Command;
 
-use bellgap::classical::locality::Correlations;
-use bellgap::game::formula;
-use bellgap::game::{CompileOptions, Game};
-use bellgap::quantum::npa::{verify, Certificate};
-use bellgap::quantum::strategy::QuantumStrategy;
+use bellgap::bounds::classical::locality::Correlations;
+use bellgap::bounds::quantum::npa::{verify, Certificate};
+use bellgap::formats::game::formula;
+use bellgap::formats::game::{CompileOptions, Game};
+use bellgap::model::strategy::QuantumStrategy;
 use proptest::prelude::*;
 use proptest::test_runner::Config;
 
@@ -337,8 +337,8 @@ proptest! {
             CompileOptions::default(),
         ).unwrap();
         let s = &chsh.scenario;
-        let level = bellgap::quantum::npa::Level::Length(1);
-        let bound = bellgap::quantum::npa::npa_bound(s, &level, false).unwrap();
+        let level = bellgap::bounds::quantum::npa::Level::Length(1);
+        let bound = bellgap::bounds::quantum::npa::npa_bound(s, &level, false).unwrap();
         let mut cert = Certificate::new("chsh", s, &bound).unwrap();
         for z in cert.dual.iter_mut() {
             *z = *z * scale + shift;

@@ -1,9 +1,9 @@
 //! The moment-matrix interior-point method against clarabel (the reference) on every check
 //! game, and its own accuracy.
 
-use bellgap::game::{families, Game, GameSpec};
-use bellgap::quantum::npa::{npa_bound_with, Level};
-use bellgap::sdp::SdpSolver;
+use bellgap::bounds::quantum::npa::{npa_bound_with, Level};
+use bellgap::formats::game::{families, Game, GameSpec};
+use bellgap::optim::sdp::SdpSolver;
 
 fn cases() -> Vec<(&'static str, GameSpec, &'static str)> {
     vec![

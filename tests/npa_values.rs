@@ -1,22 +1,22 @@
 //! NPA upper bounds against published quantum values; the source of each is named beside it.
 
-use bellgap::classical::search;
-use bellgap::game::{families, Game, GameSpec};
-use bellgap::nosignal::no_signalling_value;
-use bellgap::quantum::npa::{npa_bound, Level};
+use bellgap::bounds::classical::search;
+use bellgap::bounds::nosignal::no_signalling_value;
+use bellgap::bounds::quantum::npa::{npa_bound, Level};
+use bellgap::formats::game::{families, Game, GameSpec};
 use bellgap::Scenario;
 
 fn compile(spec: &GameSpec) -> Scenario {
     Game::from_spec(spec, "test").unwrap().scenario
 }
 
-fn npa(s: &Scenario, level: &str) -> bellgap::quantum::npa::NpaBound {
+fn npa(s: &Scenario, level: &str) -> bellgap::bounds::quantum::npa::NpaBound {
     npa_bound(s, &Level::parse(level).unwrap(), false).unwrap()
 }
 
 /// The raw bound is close to the expected value, and the verified bound is an upper bound at
 /// most 1e-6 above the raw one.
-fn assert_bound(b: &bellgap::quantum::npa::NpaBound, want: f64, tol: f64, what: &str) {
+fn assert_bound(b: &bellgap::bounds::quantum::npa::NpaBound, want: f64, tol: f64, what: &str) {
     assert!(
         (b.quantum_upper - want).abs() < tol,
         "{what}: got {}, expected {want}",
@@ -153,7 +153,8 @@ fn a_relaxation_that_would_not_fit_in_memory_is_refused_with_an_estimate() {
 fn a_moment_matrix_too_large_to_build_is_refused_before_allocation() {
     // Magic square played twice: level 2 would need tens of thousands of generating words.
     let ms = compile(&families::magic_square());
-    let twice = compile(&bellgap::game::product::parallel_repetition(&ms, "ms", 2).unwrap());
+    let twice =
+        compile(&bellgap::formats::game::product::parallel_repetition(&ms, "ms", 2).unwrap());
     let err = npa_bound(&twice, &Level::Length(2), false).unwrap_err();
     assert!(matches!(err, bellgap::Error::TooLarge { .. }), "{err}");
     let text = err.to_string();

@@ -2,10 +2,10 @@
 //! classical ≤ no-signalling ≤ the table's maximum, the reported strategy re-evaluates to the
 //! reported value, and renaming questions, answers or players changes nothing.
 
-use bellgap::classical::{milp, search};
-use bellgap::lp::{LinearProgram, VarBounds};
-use bellgap::nosignal::{add_no_signalling_rows, no_signalling_value};
-use bellgap::scenario::{Party, Scenario, ScoreKind};
+use bellgap::bounds::classical::{milp, search};
+use bellgap::bounds::nosignal::{add_no_signalling_rows, no_signalling_value};
+use bellgap::model::scenario::{Party, Scenario, ScoreKind};
+use bellgap::optim::lp::{LinearProgram, VarBounds};
 use proptest::prelude::*;
 
 const TOL: f64 = 1e-7;
@@ -90,7 +90,7 @@ fn brute_force(s: &Scenario) -> f64 {
     let mut best = f64::NEG_INFINITY;
     let mut digits = vec![0; radices.len()];
     for k in 0..total {
-        bellgap::scenario::digits(k, &radices, &mut digits);
+        bellgap::model::scenario::digits(k, &radices, &mut digits);
         let mut at = 0;
         let strategy: Vec<Vec<usize>> = s
             .parties
@@ -182,7 +182,7 @@ proptest! {
 
     #[test]
     fn npa_sits_between_classical_and_no_signalling_and_shrinks_with_the_level(g in random_game(2)) {
-        use bellgap::quantum::npa::{npa_bound, Level};
+        use bellgap::bounds::quantum::npa::{npa_bound, Level};
         let s = &g.scenario;
         let c = search(s, None).value;
         let ns = no_signalling_value(s, false).unwrap().value;
@@ -204,8 +204,8 @@ proptest! {
 
     #[test]
     fn seesaw_sits_between_classical_and_npa(g in random_game(2)) {
-        use bellgap::quantum::npa::{npa_bound, Level};
-        use bellgap::quantum::seesaw::{seesaw, SeesawOptions};
+        use bellgap::bounds::quantum::npa::{npa_bound, Level};
+        use bellgap::bounds::quantum::seesaw::{seesaw, SeesawOptions};
         let s = &g.scenario;
         let opts = SeesawOptions { dims: vec![2; s.players()], restarts: 3, seed: 11, tolerance: 1e-10, max_rounds: 200, ..Default::default() };
         let lower = seesaw(s, &opts, None).unwrap().quantum_lower;

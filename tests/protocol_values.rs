@@ -1,10 +1,10 @@
 //! Protocol figures against published formulas and hand computations; sources beside each.
 
-use bellgap::game::{families, Game, GameSpec};
+use bellgap::bounds::quantum::npa::Level;
+use bellgap::formats::game::{families, Game, GameSpec};
 use bellgap::protocol::finite::{margin, Observation};
 use bellgap::protocol::key::{chsh_threshold_qber, key_rate, ChshEntropyBound, EntropyBound};
 use bellgap::protocol::randomness::{guessing_probability, Target};
-use bellgap::quantum::npa::Level;
 use bellgap::Scenario;
 
 fn compile(spec: &GameSpec) -> Scenario {

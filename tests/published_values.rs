@@ -2,9 +2,9 @@
 //! The source of each value is named beside it; "from memory" marks values recalled rather than
 //! read, which are then also recomputed independently here.
 
-use bellgap::classical::{classical_value, search, Choice};
-use bellgap::game::{families, product, Game, GameSpec};
-use bellgap::nosignal::no_signalling_value;
+use bellgap::bounds::classical::{classical_value, search, Choice};
+use bellgap::bounds::nosignal::no_signalling_value;
+use bellgap::formats::game::{families, product, Game, GameSpec};
 use bellgap::Scenario;
 
 const TOL: f64 = 1e-9;

@@ -1,10 +1,10 @@
 //! See-saw lower bounds and strategy analysis against published values; the source of each
 //! value is named beside it.
 
-use bellgap::game::{families, Game, GameSpec};
-use bellgap::quantum::analysis::{bipartitions, robustness};
-use bellgap::quantum::seesaw::{seesaw, SeesawOptions, SeesawResult};
-use bellgap::quantum::strategy::{CMatrix, CVector, QuantumStrategy};
+use bellgap::bounds::quantum::analysis::{bipartitions, robustness};
+use bellgap::bounds::quantum::seesaw::{seesaw, SeesawOptions, SeesawResult};
+use bellgap::formats::game::{families, Game, GameSpec};
+use bellgap::model::strategy::{CMatrix, CVector, QuantumStrategy};
 use bellgap::Scenario;
 use num_complex::Complex64;
 
@@ -134,7 +134,7 @@ fn magic_square_wins_with_two_qubit_pairs() {
 fn saved_strategy_re_evaluates_to_the_reported_value() {
     let s = compile(&families::chsh());
     let r = run(&s, 2, 2);
-    let text = bellgap::game::spec::readable_yaml(&r.strategy.to_yaml_value(&s));
+    let text = bellgap::formats::game::spec::readable_yaml(&r.strategy.to_yaml_value(&s));
     let back = QuantumStrategy::from_yaml(&text, "saved.yaml", &s).unwrap();
     assert!((back.value(&s) - r.quantum_lower).abs() < 1e-12);
 }
@@ -142,7 +142,7 @@ fn saved_strategy_re_evaluates_to_the_reported_value() {
 #[test]
 fn invalid_strategies_are_rejected_with_locations() {
     let s = compile(&families::chsh());
-    let good = bellgap::game::spec::readable_yaml(&tsirelson_strategy().to_yaml_value(&s));
+    let good = bellgap::formats::game::spec::readable_yaml(&tsirelson_strategy().to_yaml_value(&s));
     // Not normalised.
     assert!(
         good.contains("state: [0.7071067811865476, 0, 0, 0.7071067811865476]"),

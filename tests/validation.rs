@@ -1,7 +1,7 @@
 //! Bad game files give errors that name the file, line, column and field; good ones with odd
 //! content give warnings.
 
-use bellgap::game::{CompileOptions, Game};
+use bellgap::formats::game::{CompileOptions, Game};
 use bellgap::Error;
 
 const PLAYERS: &str = "players:
@@ -271,6 +271,6 @@ score: \"a * b * (if x == 20 and y == 20 then -1 else 1)\"
 ";
     let g = load(text).unwrap();
     // Correlator form of CHSH with ±1 answers: local bound 2 (CHSH 1969).
-    let v = bellgap::classical::search(&g.scenario, None);
+    let v = bellgap::bounds::classical::search(&g.scenario, None);
     assert!((v.value - 2.0).abs() < 1e-12);
 }

@@ -9,7 +9,7 @@
 use serde::Serialize;
 
 use crate::error::{Error, Result};
-use crate::scenario::{Scenario, ScoreKind};
+use crate::model::scenario::{Scenario, ScoreKind};
 
 /// Observed data: the number of rounds and the sum of per-round scores, each in [low, high]
 /// (for a game: wins, with scores in [0, 1]).

@@ -14,11 +14,11 @@ use std::collections::BTreeMap;
 
 use serde::Serialize;
 
+use crate::bounds::quantum::npa::{Entry, Level, Relaxation};
+use crate::bounds::quantum::words::{moment_key, Projector, Word};
 use crate::error::{Error, Result};
-use crate::quantum::npa::{Entry, Level, Relaxation};
-use crate::quantum::words::{moment_key, Projector, Word};
-use crate::scenario::Scenario;
-use crate::sdp::{AffineEntry, MatrixBlock, SdpProblem};
+use crate::model::scenario::Scenario;
+use crate::optim::sdp::{AffineEntry, MatrixBlock, SdpProblem};
 
 /// Whose answers the adversary guesses: one or two (player, question index) pairs.
 #[derive(Debug, Clone, PartialEq, Eq, Serialize)]
@@ -92,17 +92,23 @@ pub fn guessing_probability(
         .iter()
         .map(|&(p, _)| s.parties.get(p).map_or(1, |q| q.answers()))
         .product();
-    let (base, est) =
-        crate::quantum::npa::sized_relaxation(s, level, false, crate::sdp::SdpSolver::Auto)?;
+    let (base, est) = crate::bounds::quantum::npa::sized_relaxation(
+        s,
+        level,
+        false,
+        crate::optim::sdp::SdpSolver::Auto,
+    )?;
     let g = guesses as f64;
     let (seconds, bytes) = (est.seconds * g * g * g, est.memory_bytes * g * g);
-    if seconds > crate::quantum::npa::SECONDS_LIMIT || bytes > crate::quantum::npa::MEMORY_LIMIT {
+    if seconds > crate::bounds::quantum::npa::SECONDS_LIMIT
+        || bytes > crate::bounds::quantum::npa::MEMORY_LIMIT
+    {
         return Err(Error::TooLarge {
             what: format!("the guessing-probability SDP at level {}", level.name()),
             estimate: format!(
                 "{guesses} moment matrices of side {}: about {} and {:.1} GiB",
                 est.matrix_size,
-                crate::classical::human_seconds(seconds),
+                crate::bounds::classical::human_seconds(seconds),
                 bytes / (1u64 << 30) as f64
             ),
             hint: "choose a lower level".into(),
@@ -110,7 +116,11 @@ pub fn guessing_probability(
     }
     // A score above every quantum behaviour's leaves nothing to certify: say so rather than
     // bound the guessing probability over an empty set.
-    let npa = crate::quantum::npa::solve_relaxation(&base, crate::sdp::SdpSolver::Auto, 0.0)?;
+    let npa = crate::bounds::quantum::npa::solve_relaxation(
+        &base,
+        crate::optim::sdp::SdpSolver::Auto,
+        0.0,
+    )?;
     if score > npa.verified_upper {
         return Err(Error::Usage(format!(
             "the score {score} is above the quantum bound {} (NPA level {}): no quantum behaviour reaches it",
@@ -233,7 +243,7 @@ fn guessing_probability_at(
     let mut objective = vec![0.0; guesses * per];
     let mut digits = vec![0; radices.len()];
     for e in 0..guesses {
-        crate::scenario::digits(e, &radices, &mut digits);
+        crate::model::scenario::digits(e, &radices, &mut digits);
         let parts: Vec<(usize, usize, usize)> = target
             .parts
             .iter()
@@ -309,7 +319,7 @@ fn guessing_probability_at(
         blocks,
         variable_bound: 1.0,
     };
-    let sol = problem.solve_with(crate::sdp::SdpSolver::Auto, "guessing probability SDP").map_err(|e| match e {
+    let sol = problem.solve_with(crate::optim::sdp::SdpSolver::Auto, "guessing probability SDP").map_err(|e| match e {
         Error::Solver { message, .. } if message.contains("Infeasible") => Error::Usage(format!(
             "no behaviour in the NPA level-{} set reaches the score {score}: it is above the quantum bound",
             level.name()

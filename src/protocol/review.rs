@@ -25,14 +25,14 @@ use super::finite::{margin, observation, Margin, ObservedRun};
 use super::key::{chsh_threshold_qber, key_rate, ChshEntropyBound, KeyRate};
 use super::randomness::{guessing_probability, Randomness, Target};
 use super::CAUTION;
-use crate::classical::{classical_value, Choice};
+use crate::bounds::classical::{classical_value, Choice};
+use crate::bounds::nosignal::no_signalling_value;
+use crate::bounds::quantum::npa::{default_level, npa_bound, Level, NpaBound};
+use crate::bounds::quantum::seesaw::{seesaw, SeesawOptions, SeesawResult};
 use crate::error::{Error, Result};
-use crate::game::{families, CompileOptions, Game};
-use crate::nosignal::no_signalling_value;
-use crate::plot::{line_chart, Series};
-use crate::quantum::npa::{default_level, npa_bound, Level, NpaBound};
-use crate::quantum::seesaw::{seesaw, SeesawOptions, SeesawResult};
-use crate::report::num;
+use crate::formats::game::{families, CompileOptions, Game};
+use crate::render::charts::{line_chart, Series};
+use crate::render::report::num;
 
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -133,9 +133,9 @@ fn chsh_correlator(game: &Game, score: f64) -> Option<f64> {
 }
 
 pub fn review(path: &str) -> Result<Review> {
-    let text = crate::files::read_text(path)?;
+    let text = crate::formats::files::read_text(path)?;
     let p: ProtocolFile =
-        serde_yaml::from_str(&text).map_err(|e| crate::game::yaml_error(e, path))?;
+        serde_yaml::from_str(&text).map_err(|e| crate::formats::game::yaml_error(e, path))?;
     let base = Path::new(path).parent().unwrap_or(Path::new("."));
     let game_path = base.join(&p.game);
     let game = Game::from_file(&game_path.to_string_lossy(), CompileOptions::default())?;
@@ -241,7 +241,7 @@ impl Review {
                 num(m.lower_confidence),
                 num(m.classical),
                 num(m.margin),
-                crate::report::p_value_text(m)
+                crate::render::report::p_value_text(m)
             )
         } else {
             format!(
@@ -249,7 +249,7 @@ impl Review {
                 num(m.lower_confidence),
                 num(m.classical),
                 num(m.margin),
-                crate::report::p_value_text(m)
+                crate::render::report::p_value_text(m)
             )
         }
     }
@@ -323,7 +323,7 @@ impl Review {
         stats.push(("margin over the classical value".into(), num(m.margin)));
         stats.push((
             format!("p-value of \"classical devices\" ({})", m.p_value_bound),
-            crate::report::p_value_text(m),
+            crate::render::report::p_value_text(m),
         ));
         stats.push((
             format!(
@@ -355,7 +355,7 @@ impl Review {
                     ("guessing probability ≤".into(), num(r.guessing_probability)),
                     (
                         "min-entropy per round ≥".into(),
-                        crate::report::bits_text(r.min_entropy),
+                        crate::render::report::bits_text(r.min_entropy),
                     ),
                     ("NPA level".into(), r.level.clone()),
                 ],
@@ -370,14 +370,14 @@ impl Review {
                         "H(A|E) ≥".into(),
                         format!(
                             "{} ({})",
-                            crate::report::bits_text(k.conditional_entropy),
+                            crate::render::report::bits_text(k.conditional_entropy),
                             k.bound
                         ),
                     ),
                     ("QBER".into(), num(k.qber)),
                     (
                         "asymptotic key rate ≥".into(),
-                        format!("{} per round", crate::report::bits_text(k.key_rate)),
+                        format!("{} per round", crate::render::report::bits_text(k.key_rate)),
                     ),
                     (
                         "threshold QBER (depolarising noise)".into(),

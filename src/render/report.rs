@@ -4,13 +4,15 @@
 
 use serde_json::{json, Map, Value};
 
-use crate::classical::locality::LocalityReport;
-use crate::classical::{ClassicalEstimate, ClassicalStatus, ClassicalValue, DeterministicStrategy};
-use crate::game::Game;
-use crate::nosignal::NoSignallingValue;
-use crate::quantum::analysis::{Bipartition, Robustness};
-use crate::quantum::npa::{NpaBound, Verification};
-use crate::quantum::seesaw::SeesawResult;
+use crate::bounds::classical::locality::LocalityReport;
+use crate::bounds::classical::{
+    ClassicalEstimate, ClassicalStatus, ClassicalValue, DeterministicStrategy,
+};
+use crate::bounds::nosignal::NoSignallingValue;
+use crate::bounds::quantum::analysis::{Bipartition, Robustness};
+use crate::bounds::quantum::npa::{NpaBound, Verification};
+use crate::bounds::quantum::seesaw::SeesawResult;
+use crate::formats::game::Game;
 
 /// The quantum value counts as settled when the verified upper bound and the see-saw's lower
 /// bound are this close.
@@ -53,7 +55,7 @@ fn analysis_text(a: &StrategyAnalysis) -> String {
     }
     out
 }
-use crate::scenario::{Scenario, Sizes};
+use crate::model::scenario::{Scenario, Sizes};
 
 /// Everything computed for one game by `check`, `classical`, `nosignal` or `bounds`.
 #[derive(Debug, Clone)]
@@ -67,7 +69,7 @@ pub struct Report<'a> {
     pub npa_levels: Vec<NpaBound>,
     pub seesaw: Option<SeesawResult>,
     /// The Born-rule value of a given strategy (`evaluate`).
-    pub evaluated: Option<crate::quantum::strategy::CertifiedValue>,
+    pub evaluated: Option<crate::model::strategy::CertifiedValue>,
     pub strategy_analysis: Option<StrategyAnalysis>,
     /// Bounds that could not be obtained, with the reason (reported, never replaced by a number).
     pub failures: Vec<String>,

@@ -17,11 +17,11 @@ use serde::{Deserialize, Serialize};
 use serde_yaml::{Mapping, Value as Yaml};
 
 use crate::error::{Error, Result};
-use crate::game::compile::{parse_labels_for, Context};
-use crate::game::locate::SourceMap;
-use crate::game::spec::{GameSpec, PlayerSpec};
-use crate::lp::{LinearProgram, Relation, VarBounds};
-use crate::scenario::{at_most, digits, index_of, Party, Scenario, ScoreKind};
+use crate::formats::game::compile::{parse_labels_for, Context};
+use crate::formats::game::located::SourceMap;
+use crate::formats::game::spec::{GameSpec, PlayerSpec};
+use crate::model::scenario::{at_most, digits, index_of, Party, Scenario, ScoreKind};
+use crate::optim::lp::{LinearProgram, Relation, VarBounds};
 
 /// Rows must sum to one within this tolerance (typed probabilities carry rounding).
 pub const ROW_TOLERANCE: f64 = 1e-6;
@@ -74,7 +74,7 @@ pub struct Correlations {
 
 impl Correlations {
     pub fn from_file(path: &str) -> Result<Self> {
-        let text = crate::files::read_text(path)?;
+        let text = crate::formats::files::read_text(path)?;
         Self::from_yaml(&text, path)
     }
 
@@ -83,7 +83,7 @@ impl Correlations {
     /// player most significant).
     pub fn from_yaml(text: &str, file: &str) -> Result<Self> {
         let raw: CorrelationsFile =
-            serde_yaml::from_str(text).map_err(|e| crate::game::yaml_error(e, file))?;
+            serde_yaml::from_str(text).map_err(|e| crate::formats::game::yaml_error(e, file))?;
         let ctx = Context {
             file: file.to_string(),
             map: SourceMap::new(text),
@@ -173,7 +173,7 @@ impl Correlations {
             let mut total = 0.0;
             for (a, v) in row.probabilities.iter().enumerate() {
                 let f = format!("{rf}.probabilities[{a}]");
-                let x = crate::game::compile::constant_number(v, &ctx, &f)?;
+                let x = crate::formats::game::compile::constant_number(v, &ctx, &f)?;
                 if !x.is_finite() {
                     return Err(ctx.error(&f, format!("probability {x} is not a finite number")));
                 }
@@ -243,7 +243,7 @@ impl Correlations {
         for _ in 0..self.p.len() {
             lp.add_var(VarBounds::NONNEGATIVE, 0.0);
         }
-        crate::nosignal::add_no_signalling_rows(&s, &mut lp, 0);
+        crate::bounds::nosignal::add_no_signalling_rows(&s, &mut lp, 0);
         lp.rows
             .iter()
             .map(|r| (r.terms.iter().map(|&(i, c)| c * self.p[i]).sum::<f64>() - r.rhs).abs())
@@ -321,7 +321,7 @@ pub fn project_no_signalling(c: &Correlations) -> Result<NoSignallingProjection>
     for _ in 0..c.p.len() {
         lp.add_var(VarBounds::NONNEGATIVE, 0.0);
     }
-    crate::nosignal::add_no_signalling_rows(&s, &mut lp, 0);
+    crate::bounds::nosignal::add_no_signalling_rows(&s, &mut lp, 0);
     let weights: Vec<f64> = match &c.rounds {
         Some(n) => {
             c.p.iter()
@@ -349,7 +349,7 @@ pub fn project_no_signalling(c: &Correlations) -> Result<NoSignallingProjection>
             .fold(0.0, f64::max);
     let free = s.joint_questions() * (na - 1);
     let degrees_of_freedom =
-        free.saturating_sub(crate::collins_gisin::CollinsGisin::new(&s).variables);
+        free.saturating_sub(crate::model::collins_gisin::CollinsGisin::new(&s).variables);
     let chi_square = c.rounds.as_ref().map(|_| {
         c.p.iter()
             .zip(&projected)

@@ -8,10 +8,10 @@ use std::rc::Rc;
 use serde_yaml::Value as Yaml;
 
 use super::formula::{self, ConstantScope, Expr, FormulaError, Scope, Value};
-use super::locate::SourceMap;
+use super::located::SourceMap;
 use super::spec::GameSpec;
 use crate::error::{Error, Location, Result};
-use crate::scenario::{digits, index_of, Party, Scenario, ScoreKind};
+use crate::model::scenario::{digits, index_of, Party, Scenario, ScoreKind};
 
 /// Probabilities must sum to one within this tolerance unless the file asks to normalise.
 pub const PROBABILITY_TOLERANCE: f64 = 1e-9;
@@ -159,7 +159,7 @@ pub fn compile(spec: &GameSpec, ctx: &Context, options: CompileOptions) -> Resul
             estimate: format!(
                 "{joint_q:.0} joint questions × {joint_a:.0} joint answers = {entries:.3e} entries, about {:.1} GiB and {} to build",
                 entries * 16.0 / (1u64 << 30) as f64,
-                crate::classical::human_seconds(entries * SECONDS_PER_ENTRY)
+                crate::bounds::classical::human_seconds(entries * SECONDS_PER_ENTRY)
             ),
             hint: if entries > HARD_TABLE_LIMIT as f64 {
                 format!("at most {HARD_TABLE_LIMIT} entries can be built")

@@ -8,7 +8,7 @@
 //! `1 − Σ_{a' < last} a'` when it is. In the NPA hierarchy the same variables are the moments
 //! of products of one projector per player in S.
 
-use crate::scenario::Scenario;
+use crate::model::scenario::Scenario;
 
 /// Collins–Gisin coordinates: one variable per marginal probability `p(a_S|q_S)` for every
 /// non-empty group S of players, with every player's last answer left out.
@@ -172,7 +172,7 @@ impl CollinsGisin {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::game::{families, Game};
+    use crate::formats::game::{families, Game};
 
     #[test]
     fn describe_inverts_index() {

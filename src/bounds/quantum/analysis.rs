@@ -5,8 +5,8 @@
 
 use serde::Serialize;
 
-use super::strategy::{CMatrix, QuantumStrategy};
-use crate::scenario::{digits, index_of, Scenario};
+use crate::model::scenario::{digits, index_of, Scenario};
+use crate::model::strategy::{CMatrix, QuantumStrategy};
 
 /// Largest joint dimension for which the partial transpose (a D×D matrix) is computed.
 pub const PPT_DIMENSION_LIMIT: usize = 1024;

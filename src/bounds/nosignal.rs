@@ -11,10 +11,10 @@ use std::time::Instant;
 
 use serde::Serialize;
 
-use crate::collins_gisin::CollinsGisin;
 use crate::error::{Error, Result};
-use crate::lp::{LinearProgram, Relation, VarBounds};
-use crate::scenario::{digits, index_of, Scenario};
+use crate::model::collins_gisin::CollinsGisin;
+use crate::model::scenario::{digits, index_of, Scenario};
+use crate::optim::lp::{LinearProgram, Relation, VarBounds};
 
 /// Largest LP (variables) solved without `force`.
 pub const VARIABLE_LIMIT: usize = 200_000;

@@ -215,7 +215,8 @@ impl LinearProgram {
             SupportedConeT::ZeroConeT(equalities),
             SupportedConeT::NonnegativeConeT(m - equalities),
         ];
-        let (solver, status) = crate::sdp::run_clarabel(&p, &q, &a, &rhs, &cones, 1e-10, stage)?;
+        let (solver, status) =
+            crate::optim::sdp::run_clarabel(&p, &q, &a, &rhs, &cones, 1e-10, stage)?;
         let x = solver.solution.x.clone();
         let objective = x.iter().zip(&self.objective).map(|(x, c)| x * c).sum();
         let certified_bound = self
@@ -301,7 +302,7 @@ impl LinearProgram {
             SupportedConeT::ZeroConeT(equalities),
             SupportedConeT::NonnegativeConeT(m - equalities),
         ];
-        let (solver, _) = crate::sdp::run_clarabel(&p, &q, &a, &rhs, &cones, 1e-10, stage)?;
+        let (solver, _) = crate::optim::sdp::run_clarabel(&p, &q, &a, &rhs, &cones, 1e-10, stage)?;
         Ok(solver.solution.x.clone())
     }
 }

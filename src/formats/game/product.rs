@@ -13,7 +13,7 @@ use serde_yaml::{Mapping, Value};
 
 use super::spec::{GameSpec, PlayerSpec};
 use crate::error::{Error, Result};
-use crate::scenario::{Scenario, ScoreKind};
+use crate::model::scenario::{Scenario, ScoreKind};
 
 /// Largest product table produced, in entries.
 const MAX_PRODUCT_ENTRIES: f64 = 1e7;
@@ -64,8 +64,8 @@ pub fn parallel_repetition(scenario: &Scenario, name: &str, rounds: usize) -> Re
     let total_weight: f64 = scenario.weights.iter().sum();
     // Fold a constant term into the scores so the product of scores is the product of values.
     let shift = scenario.offset / total_weight;
-    let q_index = |d: &[usize]| crate::scenario::index_of(&d[..n], &qr);
-    let a_index = |d: &[usize]| crate::scenario::index_of(&d[n..], &ar);
+    let q_index = |d: &[usize]| crate::model::scenario::index_of(&d[..n], &qr);
+    let a_index = |d: &[usize]| crate::model::scenario::index_of(&d[n..], &ar);
     let mut radices = qr.clone();
     radices.extend(&ar);
     let table = nested_table(&radices, &|d| {

@@ -15,11 +15,11 @@ use num_complex::Complex64;
 use rayon::prelude::*;
 use serde::Serialize;
 
-pub use super::strategy::clean_povm;
-use super::strategy::{apply_on_axis, CMatrix, CVector, QuantumStrategy};
 use crate::error::{Error, Result};
-use crate::scenario::{digits, index_of, Scenario};
-use crate::sdp::{upper_index, AffineEntry, MatrixBlock, SdpProblem};
+use crate::model::scenario::{digits, index_of, Scenario};
+pub use crate::model::strategy::clean_povm;
+use crate::model::strategy::{apply_on_axis, CMatrix, CVector, QuantumStrategy};
+use crate::optim::sdp::{upper_index, AffineEntry, MatrixBlock, SdpProblem};
 
 #[derive(Debug, Clone)]
 pub struct SeesawOptions {
@@ -484,7 +484,7 @@ pub fn seesaw(
                 "dims {:?}, {} restarts: roughly {} (rule of thumb)",
                 opts.dims,
                 opts.restarts,
-                crate::classical::human_seconds(seconds)
+                crate::bounds::classical::human_seconds(seconds)
             ),
             hint: "use smaller dimensions or fewer restarts, or pass --force".into(),
         });

@@ -9,7 +9,7 @@
 //! non-degenerate words whose operators belong to those players in that order. Larger
 //! generating sets give smaller or equal bounds.
 //!
-//! The bound reported as verified is [`crate::sdp::Assembled::certified_bound`] of the solver's
+//! The bound reported as verified is [`crate::optim::sdp::Assembled::certified_bound`] of the solver's
 //! dual vector: it holds for every quantum strategy even though the solver is a floating-point
 //! method, because moments of projector products have modulus at most 1 and the moment
 //! matrix of a normalised state has trace at most its size.
@@ -20,10 +20,12 @@ use std::time::Instant;
 use serde::{Deserialize, Serialize};
 
 use super::words::{moment_key, product, projectors_of, words_of_pattern, Projector, Word};
-use crate::collins_gisin::CollinsGisin;
 use crate::error::{Error, Result};
-use crate::scenario::Scenario;
-use crate::sdp::{upper_index, AffineEntry, MatrixBlock, SdpProblem, SdpSolution, SdpSolver};
+use crate::model::collins_gisin::CollinsGisin;
+use crate::model::scenario::Scenario;
+use crate::optim::sdp::{
+    upper_index, AffineEntry, MatrixBlock, SdpProblem, SdpSolution, SdpSolver,
+};
 
 /// A level of the hierarchy: which words index the moment matrix.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -293,7 +295,7 @@ pub fn relaxation(s: &Scenario, level: &Level) -> Result<Relaxation> {
             .map(|(_, &k)| 1.0 + k as f64)
             .product::<f64>();
     });
-    if expansion > crate::nosignal::NONZERO_LIMIT {
+    if expansion > crate::bounds::nosignal::NONZERO_LIMIT {
         return Err(Error::TooLarge {
             what: format!("NPA level {}", level.name()),
             estimate: format!("the value expands into about {expansion:.2e} Collins–Gisin terms"),
@@ -503,7 +505,7 @@ pub fn sized_relaxation(
                 est.matrix_size,
                 est.matrix_size,
                 est.moments,
-                crate::classical::human_seconds(est.seconds),
+                crate::bounds::classical::human_seconds(est.seconds),
                 est.memory_bytes / (1u64 << 30) as f64
             ),
             hint: "choose a lower level, or pass --force".into(),

@@ -7,7 +7,7 @@
 pub mod compile;
 pub mod families;
 pub mod formula;
-pub mod locate;
+pub mod located;
 pub mod product;
 pub mod spec;
 
@@ -15,9 +15,9 @@ pub use compile::CompileOptions;
 pub use spec::{GameSpec, PlayerSpec};
 
 use crate::error::{Error, Location, Result};
-use crate::scenario::Scenario;
+use crate::model::scenario::Scenario;
 use compile::Context;
-use locate::SourceMap;
+use located::SourceMap;
 
 /// A validated game: its name, the flat table, and warnings found while building it.
 #[derive(Debug, Clone)]
@@ -33,7 +33,7 @@ pub struct Game {
 impl Game {
     /// Reads, validates and compiles a game file.
     pub fn from_file(path: &str, options: CompileOptions) -> Result<Game> {
-        let text = crate::files::read_text(path)?;
+        let text = crate::formats::files::read_text(path)?;
         Game::from_yaml(&text, path, options)
     }
 

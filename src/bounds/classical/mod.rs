@@ -23,8 +23,8 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 use crate::error::{Error, Result};
-use crate::lp::{LinearProgram, Relation, VarBounds};
-use crate::scenario::{digits, index_of, Scenario};
+use crate::model::scenario::{digits, index_of, Scenario};
+use crate::optim::lp::{LinearProgram, Relation, VarBounds};
 
 /// A deterministic strategy: `answers[i][x]` is player i's answer index to question index x.
 #[derive(Debug, Clone, PartialEq, Eq, Serialize)]
@@ -740,7 +740,7 @@ pub fn best_response(s: &Scenario, answers: &[Vec<usize>], who: usize) -> Vec<us
 /// (one answer per question) and behaviour variables `w(a|q) ≤ s_i(q_i, a_i)` with
 /// `Σ_a w(a|q) = 1`, which forces `w` to the product of the indicators.
 pub fn milp(s: &Scenario) -> Result<ClassicalValue> {
-    milp_with_time_limit(s, crate::lp::SIMPLEX_TIME_LIMIT_SECONDS)
+    milp_with_time_limit(s, crate::optim::lp::SIMPLEX_TIME_LIMIT_SECONDS)
 }
 
 /// [`milp`] with its own time limit (seconds); a run stopped by it returns the best strategy
@@ -814,7 +814,7 @@ pub fn milp_with_time_limit(s: &Scenario, seconds: f64) -> Result<ClassicalValue
         })
         .collect();
     let value = s.value_of_strategy(&answers);
-    let proven = sol.status == crate::lp::LP_SOLVED;
+    let proven = sol.status == crate::optim::lp::LP_SOLVED;
     if proven && (value - (sol.objective + s.offset)).abs() > 1e-6 * (1.0 + value.abs()) {
         return Err(Error::solver(
             "classical MILP",

@@ -2,7 +2,7 @@
 //! complement (m = number of variables, i.e. distinct moments) instead of carrying the PSD cone
 //! as a dense n(n+1)/2 block as clarabel does.
 //!
-//! In the notation of [`crate::sdp`]: maximise `bᵀy + c0` subject to `Γ_k(y) = F0_k + Σ_i y_i F_ik ⪰ 0`
+//! In the notation of [`crate::optim::sdp`]: maximise `bᵀy + c0` subject to `Γ_k(y) = F0_k + Σ_i y_i F_ik ⪰ 0`
 //! for each block k and `G y ≤ g`. The conic dual is: minimise `Σ_k ⟨F0_k, X_k⟩ + gᵀx + c0` subject to
 //! `Σ_k ⟨F_ik, X_k⟩ − (Gᵀx)_i = −b_i`, `X ⪰ 0`, `x ≥ 0`. Equalities `E y = e` are eliminated first
 //! (y = y0 + N w), which keeps every `F` sparse for the problems we build.
@@ -23,7 +23,7 @@ use faer::{Accum, Mat, Side};
 use rayon::prelude::*;
 
 use crate::error::{Error, Result};
-use crate::sdp::{upper_index, SdpProblem, SdpSolution};
+use crate::optim::sdp::{upper_index, SdpProblem, SdpSolution};
 
 /// Relative gap and residuals at or below which a run counts as solved.
 pub const SOLVED: f64 = 1e-8;
@@ -584,7 +584,7 @@ fn schur(p: &Internal, x: &[Mat<f64>], sinv: &[Mat<f64>], xl: &[f64], sl: &[f64]
 }
 
 /// Solves the problem; the solution carries clarabel's dual layout so that
-/// [`crate::sdp::Assembled::certified_bound`] applies unchanged.
+/// [`crate::optim::sdp::Assembled::certified_bound`] applies unchanged.
 pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpSolution> {
     let start = Instant::now();
     let el = eliminate(problem)?;
@@ -904,7 +904,7 @@ fn project_onto_constraints(p: &Internal, x: &[Mat<f64>], xl: &[f64]) -> Option<
 /// Multipliers of the eliminated equalities: the least-squares solution of
 /// `Eᵀν = −(q + (the other rows)ᵀ z)`, so that the certificate's residual is as small as possible
 /// (whatever remains is charged by the certified bound).
-fn fill_equality_duals(problem: &SdpProblem, asm: &crate::sdp::Assembled, z: &mut [f64]) {
+fn fill_equality_duals(problem: &SdpProblem, asm: &crate::optim::sdp::Assembled, z: &mut [f64]) {
     let ne = problem.equalities.len();
     let n = asm.a.n;
     let mut target = asm.q.clone();

@@ -159,7 +159,9 @@ impl SdpProblem {
     pub fn solve_with(&self, solver: SdpSolver, stage: &str) -> Result<SdpSolution> {
         match solver {
             SdpSolver::Clarabel => self.solve(stage),
-            SdpSolver::MomentIpm => crate::ipm::solve(self, stage, Default::default()),
+            SdpSolver::MomentIpm => {
+                crate::optim::moment_ipm::solve(self, stage, Default::default())
+            }
             SdpSolver::Auto => {
                 // Picked by size: clarabel factorises a dense block of side n(n+1)/2 per PSD
                 // block, the moment-matrix method an m×m Schur complement plus ~4n⁴ assembly.
@@ -178,7 +180,7 @@ impl SdpProblem {
                 if ipm <= clarabel {
                     // The fallback runs only if it fits: clarabel's dense KKT block needs
                     // about 16·d² bytes and 5·d³ flops (d = Σ n(n+1)/2) at ~1.6 GFLOP/s.
-                    crate::ipm::solve(self, stage, Default::default()).or_else(|e| {
+                    crate::optim::moment_ipm::solve(self, stage, Default::default()).or_else(|e| {
                         let d: f64 = self
                             .blocks
                             .iter()
@@ -199,8 +201,9 @@ impl SdpProblem {
                         }
                     })
                 } else {
-                    self.solve(stage)
-                        .or_else(|_| crate::ipm::solve(self, stage, Default::default()))
+                    self.solve(stage).or_else(|_| {
+                        crate::optim::moment_ipm::solve(self, stage, Default::default())
+                    })
                 }
             }
         }

@@ -9,21 +9,21 @@ use std::time::Instant;
 use clap::{Args, Parser, Subcommand, ValueEnum};
 use serde_json::{json, Value};
 
-use bellgap::classical::locality::{expression_as_game, locality_test, Correlations};
-use bellgap::classical::{self, Choice, ClassicalEstimate};
-use bellgap::game::spec::readable_yaml;
-use bellgap::game::{families, product, CompileOptions, Game, GameSpec};
-use bellgap::nosignal;
-use bellgap::plot;
+use bellgap::bounds::classical::locality::{expression_as_game, locality_test, Correlations};
+use bellgap::bounds::classical::{self, Choice, ClassicalEstimate};
+use bellgap::bounds::nosignal;
+use bellgap::bounds::quantum::analysis;
+use bellgap::bounds::quantum::npa::{self, Level};
+use bellgap::bounds::quantum::seesaw::{self, SeesawOptions};
+use bellgap::formats::game::spec::readable_yaml;
+use bellgap::formats::game::{families, product, CompileOptions, Game, GameSpec};
+use bellgap::model::strategy::QuantumStrategy;
+use bellgap::optim::sdp::SdpSolver;
 use bellgap::protocol::finite;
 use bellgap::protocol::randomness::{self, Target};
 use bellgap::protocol::{key, review};
-use bellgap::quantum::analysis;
-use bellgap::quantum::npa::{self, Level};
-use bellgap::quantum::seesaw::{self, SeesawOptions};
-use bellgap::quantum::strategy::QuantumStrategy;
-use bellgap::report::{self, Report};
-use bellgap::sdp::SdpSolver;
+use bellgap::render::charts as plot;
+use bellgap::render::report::{self, Report};
 use bellgap::{Error, Result};
 
 #[derive(Parser, Debug)]
@@ -862,7 +862,7 @@ pub fn run(cli: &Cli) -> Result<Output> {
         Command::Verify { args, certificate } => {
             let game = load(args)?;
             let path = certificate.to_string_lossy().to_string();
-            let text = bellgap::files::read_text(certificate)?;
+            let text = bellgap::formats::files::read_text(certificate)?;
             let cert: npa::Certificate = serde_json::from_str(&text).map_err(|e| Error::Input {
                 location: bellgap::error::Location {
                     file: path.clone(),
@@ -918,7 +918,7 @@ pub fn run(cli: &Cli) -> Result<Output> {
 /// Writes an output atomically, never over one of the command's inputs.
 fn write_file(file: &std::path::Path, text: &str, inputs: &[PathBuf]) -> Result<()> {
     let inputs: Vec<&std::path::Path> = inputs.iter().map(PathBuf::as_path).collect();
-    bellgap::files::write_atomic(file, text, &inputs)
+    bellgap::formats::files::write_atomic(file, text, &inputs)
 }
 
 /// Value of a strategy against visibility and detection efficiency, with the classical value.

@@ -21,9 +21,9 @@ use num_complex::Complex64;
 use serde_yaml::{Mapping, Value as Yaml};
 
 use crate::error::Result;
-use crate::game::compile::Context;
-use crate::game::locate::SourceMap;
-use crate::scenario::{at_most, digits, Scenario};
+use crate::formats::game::compile::Context;
+use crate::formats::game::located::SourceMap;
+use crate::model::scenario::{at_most, digits, Scenario};
 
 pub type CMatrix = DMatrix<Complex64>;
 pub type CVector = DVector<Complex64>;
@@ -406,7 +406,7 @@ impl QuantumStrategy {
     /// Reads a strategy file for game `s`, with located errors.
     pub fn from_yaml(text: &str, file: &str, s: &Scenario) -> Result<QuantumStrategy> {
         let root: Yaml =
-            serde_yaml::from_str(text).map_err(|e| crate::game::yaml_error(e, file))?;
+            serde_yaml::from_str(text).map_err(|e| crate::formats::game::yaml_error(e, file))?;
         let ctx = Context {
             file: file.to_string(),
             map: SourceMap::new(text),
@@ -583,7 +583,7 @@ impl QuantumStrategy {
     }
 
     pub fn from_file(path: &str, s: &Scenario) -> Result<QuantumStrategy> {
-        let text = crate::files::read_text(path)?;
+        let text = crate::formats::files::read_text(path)?;
         Self::from_yaml(&text, path, s)
     }
 }

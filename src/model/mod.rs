@@ -1,0 +1,7 @@
+//! The model every bound reads: the flat table of a game ([`scenario`]), its Collins–Gisin
+//! coordinates ([`collins_gisin`]) and quantum strategies with their Born-rule value
+//! ([`strategy`]). Nothing here knows about files or solvers.
+
+pub mod collins_gisin;
+pub mod scenario;
+pub mod strategy;

@@ -1,0 +1,4 @@
+//! Rendering: text and JSON reports ([`report`]) and SVG charts ([`charts`]).
+
+pub mod charts;
+pub mod report;
