@@ -92,7 +92,7 @@ fn main() {
                     est.matrix_size,
                     est.matrix_size,
                     est.moments,
-                    bellgap::bounds::classical::human_seconds(est.seconds),
+                    bellgap::limits::human_seconds(est.seconds),
                     est.memory_bytes / (1u64 << 20) as f64
                 );
                 continue;

@@ -3,6 +3,26 @@
 
 use std::fmt;
 
+use crate::optim::SolveStatus;
+
+/// Whether a file was being read or written when an I/O error happened.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum IoOp {
+    /// Reading an input.
+    Read,
+    /// Writing an output.
+    Write,
+}
+
+impl fmt::Display for IoOp {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            IoOp::Read => "read",
+            IoOp::Write => "write",
+        })
+    }
+}
+
 /// Where in an input file something is wrong. Line and column are 1-based; either may be unknown
 /// when the problem is about the file as a whole.
 #[derive(Debug, Clone, Default, PartialEq, Eq, serde::Serialize)]
@@ -37,9 +57,14 @@ pub enum Error {
     #[error("{location}: {message}")]
     Input { location: Location, message: String },
 
-    /// A command-line request that cannot be honoured as given (e.g. unknown family parameter).
+    /// A command line that cannot be honoured as given (raised by the command-line layer only).
     #[error("{0}")]
     Usage(String),
+
+    /// A library call with an argument out of its domain (e.g. a family parameter, an NPA level
+    /// that does not parse, a confidence level outside (0, 1)).
+    #[error("{0}")]
+    InvalidArgument(String),
 
     /// The requested work would take too long or need too much memory. Carries the estimate so
     /// the user can decide whether to override.
@@ -52,13 +77,22 @@ pub enum Error {
 
     /// A numerical solver did not reach an answer we can report.
     #[error("solver failure in {stage}: {message}")]
-    Solver { stage: String, message: String },
+    Solver {
+        /// Which computation failed (e.g. `NPA`, `no-signalling LP`).
+        stage: String,
+        /// How the solver ended, when it said.
+        status: Option<SolveStatus>,
+        /// What went wrong, for people.
+        message: String,
+    },
 
     /// A file could not be read or written (`op` says which).
     #[error("cannot {op} {path}: {source}")]
     Io {
+        /// The file.
         path: String,
-        op: &'static str,
+        /// Reading or writing.
+        op: IoOp,
         #[source]
         source: std::io::Error,
     },
@@ -69,7 +103,11 @@ impl Error {
     /// line, 1 for failures on our side.
     pub fn exit_code(&self) -> i32 {
         match self {
-            Error::Input { .. } | Error::Usage(_) | Error::TooLarge { .. } | Error::Io { .. } => 2,
+            Error::Input { .. }
+            | Error::Usage(_)
+            | Error::InvalidArgument(_)
+            | Error::TooLarge { .. }
+            | Error::Io { .. } => 2,
             Error::Solver { .. } => 1,
         }
     }
@@ -78,7 +116,7 @@ impl Error {
     pub fn kind(&self) -> &'static str {
         match self {
             Error::Input { .. } => "input",
-            Error::Usage(_) => "usage",
+            Error::Usage(_) | Error::InvalidArgument(_) => "usage",
             Error::TooLarge { .. } => "too_large",
             Error::Solver { .. } => "solver",
             Error::Io { .. } => "io",
@@ -92,9 +130,20 @@ impl Error {
         }
     }
 
+    /// A solver failure without a status (the solver did not say how it ended).
     pub fn solver(stage: &str, message: impl Into<String>) -> Self {
         Error::Solver {
             stage: stage.to_string(),
+            status: None,
+            message: message.into(),
+        }
+    }
+
+    /// A solver failure with the status the solver ended in.
+    pub fn solver_stopped(stage: &str, status: SolveStatus, message: impl Into<String>) -> Self {
+        Error::Solver {
+            stage: stage.to_string(),
+            status: Some(status),
             message: message.into(),
         }
     }

@@ -19,10 +19,12 @@
 pub mod bounds;
 pub mod error;
 pub mod formats;
+pub mod limits;
 pub mod model;
 pub mod optim;
 pub mod protocol;
 pub mod render;
+pub mod stats;
 
 pub use error::{Error, Result};
 pub use formats::game::{CompileOptions, Game, GameSpec};

@@ -11,9 +11,11 @@ use std::time::Instant;
 
 use serde::Serialize;
 
+use crate::limits::Limits;
 use crate::error::{Error, Result};
 use crate::model::collins_gisin::CollinsGisin;
 use crate::model::scenario::{digits, index_of, Scenario};
+use crate::optim::SolveStatus;
 use crate::optim::lp::{LinearProgram, Relation, VarBounds};
 
 /// Largest LP (variables) solved without `force`.
@@ -31,7 +33,7 @@ pub struct NoSignallingValue {
     /// the dual solution (weak duality with the residual charged at its worst).
     pub certified_upper: Option<f64>,
     pub method: &'static str,
-    pub status: &'static str,
+    pub status: SolveStatus,
     /// An optimal behaviour, `p(a|q)` at `q * joint_answers + a`.
     #[serde(skip)]
     pub behaviour: Vec<f64>,
@@ -98,8 +100,10 @@ pub fn add_no_signalling_rows(s: &Scenario, lp: &mut LinearProgram, first: usize
 /// Most constraint nonzeros built without `force`.
 pub const NONZERO_LIMIT: f64 = 2e7;
 
-/// The no-signalling value by LP in Collins–Gisin coordinates. `force` skips the size refusal.
-pub fn no_signalling_value(s: &Scenario, force: bool) -> Result<NoSignallingValue> {
+/// The no-signalling value by LP in Collins–Gisin coordinates, refused above the size limits
+/// unless `limits.force`.
+pub fn no_signalling_value(s: &Scenario, limits: &Limits) -> Result<NoSignallingValue> {
+    let force = limits.force;
     let start = Instant::now();
     let rows = s.joint_questions() * s.joint_answers();
     if rows > VARIABLE_LIMIT && !force {

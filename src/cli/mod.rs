@@ -423,7 +423,7 @@ fn warn_long_search(s: &bellgap::Scenario, force: bool, warnings: &mut Vec<Strin
     if p.seconds > 30.0 && (force || p.seconds <= classical::SEARCH_SECONDS_LIMIT) {
         warnings.push(format!(
             "the classical search may take about {} (estimate from random probes: {:.1e} nodes)",
-            classical::human_seconds(p.seconds),
+            bellgap::limits::human_seconds(p.seconds),
             p.nodes
         ));
     }
@@ -960,7 +960,7 @@ fn warn_slow_seesaw(s: &bellgap::Scenario, opts: &SeesawOptions) {
     if seconds > 30.0 {
         eprintln!(
             "warning: the see-saw may take roughly {} (rule of thumb)",
-            classical::human_seconds(seconds)
+            bellgap::limits::human_seconds(seconds)
         );
     }
 }

@@ -6,13 +6,13 @@
 use std::io::{Read, Write};
 use std::path::{Path, PathBuf};
 
-use crate::error::{Error, Result};
+use crate::error::{Error, IoOp, Result};
 
 /// Largest input file read (64 MiB): far above any game, strategy, correlations, protocol or
 /// certificate file the tool can process.
 pub const MAX_INPUT_BYTES: u64 = 64 << 20;
 
-fn io(path: &Path, op: &'static str, source: std::io::Error) -> Error {
+fn io(path: &Path, op: IoOp, source: std::io::Error) -> Error {
     Error::Io {
         path: path.to_string_lossy().into_owned(),
         op,
@@ -33,7 +33,7 @@ fn refused(path: &Path, message: String) -> Error {
 /// Reads a UTF-8 text file of at most [`MAX_INPUT_BYTES`]. Errors never quote the content.
 pub fn read_text(path: impl AsRef<Path>) -> Result<String> {
     let path = path.as_ref();
-    let meta = std::fs::metadata(path).map_err(|e| io(path, "read", e))?;
+    let meta = std::fs::metadata(path).map_err(|e| io(path, IoOp::Read, e))?;
     if !meta.is_file() {
         return Err(refused(
             path,
@@ -49,12 +49,12 @@ pub fn read_text(path: impl AsRef<Path>) -> Result<String> {
             ),
         ));
     }
-    let file = std::fs::File::open(path).map_err(|e| io(path, "read", e))?;
+    let file = std::fs::File::open(path).map_err(|e| io(path, IoOp::Read, e))?;
     let mut bytes = Vec::new();
     // The limit holds even if the file grows while it is read.
     file.take(MAX_INPUT_BYTES + 1)
         .read_to_end(&mut bytes)
-        .map_err(|e| io(path, "read", e))?;
+        .map_err(|e| io(path, IoOp::Read, e))?;
     if bytes.len() as u64 > MAX_INPUT_BYTES {
         return Err(refused(
             path,
@@ -86,14 +86,14 @@ fn same_file(a: &Path, b: &Path) -> bool {
 pub fn write_atomic(path: impl AsRef<Path>, text: &str, inputs: &[&Path]) -> Result<()> {
     let path = path.as_ref();
     if let Some(input) = inputs.iter().find(|i| same_file(path, i)) {
-        return Err(Error::Usage(format!(
+        return Err(Error::InvalidArgument(format!(
             "refusing to write {}: it is an input of this command ({})",
             path.to_string_lossy(),
             input.to_string_lossy()
         )));
     }
     if path.is_dir() {
-        return Err(Error::Usage(format!(
+        return Err(Error::InvalidArgument(format!(
             "cannot write {}: it is a directory",
             path.to_string_lossy()
         )));
@@ -115,7 +115,7 @@ pub fn write_atomic(path: impl AsRef<Path>, text: &str, inputs: &[&Path]) -> Res
     })();
     if let Err(e) = result {
         let _ = std::fs::remove_file(&temp);
-        return Err(io(path, "write", e));
+        return Err(io(path, IoOp::Write, e));
     }
     Ok(())
 }

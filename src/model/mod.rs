@@ -3,5 +3,6 @@
 //! ([`strategy`]). Nothing here knows about files or solvers.
 
 pub mod collins_gisin;
+pub mod correlations;
 pub mod scenario;
 pub mod strategy;

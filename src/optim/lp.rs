@@ -12,6 +12,7 @@ use good_lp::{
     variable, Expression, ProblemVariables, Solution, SolutionStatus, SolverModel, WithTimeLimit,
 };
 
+use super::SolveStatus;
 use crate::error::{Error, Result};
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -76,20 +77,15 @@ pub struct LpSolution {
     /// tolerances, or `stopped at the time limit` when the simplex/branch and bound ran out of
     /// time with a feasible point that is not proven optimal (integer programmes only: a
     /// continuous simplex that runs out of time is an error).
-    pub status: &'static str,
+    pub status: SolveStatus,
     /// A bound on the optimum that holds despite solver and rounding error, derived from the
     /// dual solution (interior point with [`LinearProgram::variable_box`] set; see there).
     pub certified_bound: Option<f64>,
 }
 
-/// Status of a solution proven optimal.
-pub const LP_SOLVED: &str = "solved";
-/// Status of a feasible point returned when the time limit stopped the solver before it proved
-/// optimality.
-pub const LP_TIME_LIMIT: &str = "stopped at the time limit";
 
 /// Simplex runs longer than this are stopped rather than hang: a continuous LP then fails, an
-/// integer programme returns its incumbent with status [`LP_TIME_LIMIT`].
+/// integer programme returns its incumbent with status [`SolveStatus::TimeLimit`].
 pub const SIMPLEX_TIME_LIMIT_SECONDS: f64 = 600.0;
 
 impl LinearProgram {
@@ -172,12 +168,13 @@ impl LinearProgram {
         // A run stopped by the time limit keeps a feasible point, but it is not an optimum: it
         // must never be reported as one.
         let status = match solution.status() {
-            SolutionStatus::Optimal => LP_SOLVED,
-            _ => LP_TIME_LIMIT,
+            SolutionStatus::Optimal => SolveStatus::Solved,
+            _ => SolveStatus::TimeLimit,
         };
-        if status != LP_SOLVED && !self.bounds.iter().any(|b| b.integer) {
-            return Err(Error::solver(
+        if status != SolveStatus::Solved && !self.bounds.iter().any(|b| b.integer) {
+            return Err(Error::solver_stopped(
                 stage,
+                SolveStatus::TimeLimit,
                 format!(
                     "the simplex stopped at its time limit ({} s) before reaching an optimum",
                     self.time_limit_seconds
@@ -216,7 +213,7 @@ impl LinearProgram {
             SupportedConeT::NonnegativeConeT(m - equalities),
         ];
         let (solver, status) =
-            crate::optim::sdp::run_clarabel(&p, &q, &a, &rhs, &cones, 1e-10, stage)?;
+            super::clarabel::run_clarabel(&p, &q, &a, &rhs, &cones, 1e-10, stage)?;
         let x = solver.solution.x.clone();
         let objective = x.iter().zip(&self.objective).map(|(x, c)| x * c).sum();
         let certified_bound = self
@@ -302,7 +299,7 @@ impl LinearProgram {
             SupportedConeT::ZeroConeT(equalities),
             SupportedConeT::NonnegativeConeT(m - equalities),
         ];
-        let (solver, _) = crate::optim::sdp::run_clarabel(&p, &q, &a, &rhs, &cones, 1e-10, stage)?;
+        let (solver, _) = super::clarabel::run_clarabel(&p, &q, &a, &rhs, &cones, 1e-10, stage)?;
         Ok(solver.solution.x.clone())
     }
 }

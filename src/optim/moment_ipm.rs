@@ -23,15 +23,19 @@ use faer::{Accum, Mat, Side};
 use rayon::prelude::*;
 
 use crate::error::{Error, Result};
-use crate::optim::sdp::{upper_index, SdpProblem, SdpSolution};
+use super::backend::{Backend, SdpBackend};
+use super::sdp::{upper_index, Assembled, SdpProblem, SdpSolution};
+use super::SolveStatus;
 
 /// Relative gap and residuals at or below which a run counts as solved.
 pub const SOLVED: f64 = 1e-8;
 /// ... and as almost solved (reported as such).
 pub const ALMOST_SOLVED: f64 = 1e-6;
 
+/// Iteration limit and tolerance of the method.
 #[derive(Debug, Clone, Copy)]
 pub struct IpmOptions {
+    /// Iterations before the run stops (and its best iterate is judged).
     pub max_iterations: usize,
     /// Relative duality gap and relative residuals to reach.
     pub tolerance: f64,
@@ -584,7 +588,7 @@ fn schur(p: &Internal, x: &[Mat<f64>], sinv: &[Mat<f64>], xl: &[f64], sl: &[f64]
 }
 
 /// Solves the problem; the solution carries clarabel's dual layout so that
-/// [`crate::optim::sdp::Assembled::certified_bound`] applies unchanged.
+/// [`Assembled::certified_bound`] applies unchanged.
 pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpSolution> {
     let start = Instant::now();
     let el = eliminate(problem)?;
@@ -786,12 +790,13 @@ pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpS
     }
     let (accuracy, x, xl, y) = best;
     let status = if accuracy <= SOLVED {
-        "solved"
+        SolveStatus::Solved
     } else if accuracy <= ALMOST_SOLVED {
-        "almost solved"
+        SolveStatus::AlmostSolved
     } else {
-        return Err(Error::solver(
+        return Err(Error::solver_stopped(
             stage,
+            SolveStatus::Stalled,
             format!(
                 "the interior-point method stalled after {iterations} iterations at relative accuracy {accuracy:.1e}"
             ),
@@ -851,12 +856,12 @@ pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpS
         primal,
         dual,
         certified,
-        status: status.to_string(),
+        status,
         iterations: iterations as u32,
         seconds: start.elapsed().as_secs_f64(),
         gap: accuracy_gap,
         residual: accuracy_residual,
-        solver: "moment-ipm".into(),
+        solver: Backend::MomentIpm,
         y: yo,
         z,
     })
@@ -904,7 +909,7 @@ fn project_onto_constraints(p: &Internal, x: &[Mat<f64>], xl: &[f64]) -> Option<
 /// Multipliers of the eliminated equalities: the least-squares solution of
 /// `Eᵀν = −(q + (the other rows)ᵀ z)`, so that the certificate's residual is as small as possible
 /// (whatever remains is charged by the certified bound).
-fn fill_equality_duals(problem: &SdpProblem, asm: &crate::optim::sdp::Assembled, z: &mut [f64]) {
+fn fill_equality_duals(problem: &SdpProblem, asm: &Assembled, z: &mut [f64]) {
     let ne = problem.equalities.len();
     let n = asm.a.n;
     let mut target = asm.q.clone();
@@ -938,5 +943,18 @@ fn fill_equality_duals(problem: &SdpProblem, asm: &crate::optim::sdp::Assembled,
         for r in 0..ne {
             z[r] = rhs[(r, 0)];
         }
+    }
+}
+
+/// The moment-matrix method as an [`SdpBackend`], with default options.
+pub struct MomentIpmBackend;
+
+impl SdpBackend for MomentIpmBackend {
+    fn backend(&self) -> Backend {
+        Backend::MomentIpm
+    }
+
+    fn solve(&self, problem: &SdpProblem, stage: &str) -> Result<SdpSolution> {
+        solve(problem, stage, IpmOptions::default())
     }
 }

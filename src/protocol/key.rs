@@ -68,13 +68,13 @@ pub struct KeyRate {
 pub fn key_rate(bound: &dyn EntropyBound, score: f64, qber: f64) -> Result<KeyRate> {
     let (lo, hi) = bound.score_range();
     if !score.is_finite() || score < lo || score > hi {
-        return Err(Error::Usage(format!(
+        return Err(Error::InvalidArgument(format!(
             "the score {score} is outside [{lo:.10}, {hi:.10}], the range of quantum devices for the {}",
             bound.name()
         )));
     }
     if !(0.0..=0.5).contains(&qber) {
-        return Err(Error::Usage(format!(
+        return Err(Error::InvalidArgument(format!(
             "the QBER must be a number in [0, 0.5], got {qber}"
         )));
     }

@@ -14,11 +14,13 @@ use std::collections::BTreeMap;
 
 use serde::Serialize;
 
-use crate::bounds::quantum::npa::{Entry, Level, Relaxation};
+use crate::bounds::quantum::npa::{self, Entry, Level, Relaxation};
 use crate::bounds::quantum::words::{moment_key, Projector, Word};
 use crate::error::{Error, Result};
 use crate::model::scenario::Scenario;
+use crate::optim::backend::{self, Backend};
 use crate::optim::sdp::{AffineEntry, MatrixBlock, SdpProblem};
+use crate::optim::SolveStatus;
 
 /// Whose answers the adversary guesses: one or two (player, question index) pairs.
 #[derive(Debug, Clone, PartialEq, Eq, Serialize)]
@@ -39,8 +41,15 @@ pub struct Randomness {
     pub min_entropy: f64,
     /// The solver's value (without the verification margin).
     pub solver_value: f64,
-    pub level: String,
-    pub status: String,
+    /// The NPA level of the relaxation.
+    pub level: Level,
+    /// How the guessing-probability SDP ended.
+    pub status: SolveStatus,
+    /// When the score entered as a Lagrangian term μ·(value − score) instead of a constraint
+    /// (near the edge of the quantum set), the multiplier μ; the bound is valid either way.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub score_multiplier: Option<f64>,
+    /// Wall-clock time.
     pub seconds: f64,
 }
 
@@ -92,23 +101,18 @@ pub fn guessing_probability(
         .iter()
         .map(|&(p, _)| s.parties.get(p).map_or(1, |q| q.answers()))
         .product();
-    let (base, est) = crate::bounds::quantum::npa::sized_relaxation(
-        s,
-        level,
-        false,
-        crate::optim::sdp::SdpSolver::Auto,
-    )?;
+    let (base, est) = npa::sized_relaxation(s, &npa::NpaOptions::at(level.clone()))?;
     let g = guesses as f64;
     let (seconds, bytes) = (est.seconds * g * g * g, est.memory_bytes * g * g);
-    if seconds > crate::bounds::quantum::npa::SECONDS_LIMIT
-        || bytes > crate::bounds::quantum::npa::MEMORY_LIMIT
+    if seconds > npa::SECONDS_LIMIT
+        || bytes > npa::MEMORY_LIMIT
     {
         return Err(Error::TooLarge {
             what: format!("the guessing-probability SDP at level {}", level.name()),
             estimate: format!(
                 "{guesses} moment matrices of side {}: about {} and {:.1} GiB",
                 est.matrix_size,
-                crate::bounds::classical::human_seconds(seconds),
+                crate::limits::human_seconds(seconds),
                 bytes / (1u64 << 30) as f64
             ),
             hint: "choose a lower level".into(),
@@ -116,13 +120,9 @@ pub fn guessing_probability(
     }
     // A score above every quantum behaviour's leaves nothing to certify: say so rather than
     // bound the guessing probability over an empty set.
-    let npa = crate::bounds::quantum::npa::solve_relaxation(
-        &base,
-        crate::optim::sdp::SdpSolver::Auto,
-        0.0,
-    )?;
+    let npa = npa::solve_relaxation(&base, Backend::Auto, 0.0)?;
     if score > npa.verified_upper {
-        return Err(Error::Usage(format!(
+        return Err(Error::InvalidArgument(format!(
             "the score {score} is above the quantum bound {} (NPA level {}): no quantum behaviour reaches it",
             npa.verified_upper,
             level.name()
@@ -213,12 +213,12 @@ fn guessing_probability_at(
     };
     let start = std::time::Instant::now();
     if target.parts.is_empty() || target.parts.len() > 2 {
-        return Err(Error::Usage(
+        return Err(Error::InvalidArgument(
             "guess the answers of one or two players".into(),
         ));
     }
     if target.parts.len() == 2 && target.parts[0].0 == target.parts[1].0 {
-        return Err(Error::Usage(
+        return Err(Error::InvalidArgument(
             "the two guessed answers must belong to different players".into(),
         ));
     }
@@ -255,7 +255,7 @@ fn guessing_probability_at(
                 objective[lambda(e)] += c;
             } else {
                 let Some(&k) = index.get(&moment_key(w)) else {
-                    return Err(Error::Usage(format!(
+                    return Err(Error::InvalidArgument(format!(
                         "level {} does not contain the moments of the guessed answers; use a higher level",
                         level.name()
                     )));
@@ -319,8 +319,11 @@ fn guessing_probability_at(
         blocks,
         variable_bound: 1.0,
     };
-    let sol = problem.solve_with(crate::optim::sdp::SdpSolver::Auto, "guessing probability SDP").map_err(|e| match e {
-        Error::Solver { message, .. } if message.contains("Infeasible") => Error::Usage(format!(
+    let sol = backend::solve(&problem, Backend::Auto, "guessing probability SDP").map_err(|e| match e {
+        Error::Solver {
+            status: Some(SolveStatus::Infeasible),
+            ..
+        } => Error::InvalidArgument(format!(
             "no behaviour in the NPA level-{} set reaches the score {score}: it is above the quantum bound",
             level.name()
         )),
@@ -333,12 +336,11 @@ fn guessing_probability_at(
         guessing_probability: p,
         min_entropy: -p.log2(),
         solver_value: sol.primal,
-        level: level.name(),
-        status: match mode {
-            Mode::Constraint(_) => sol.status,
-            Mode::Penalty(mu) => {
-                format!("{}, score as a Lagrangian term (μ = {mu:.3e})", sol.status)
-            }
+        level: level.clone(),
+        status: sol.status,
+        score_multiplier: match mode {
+            Mode::Constraint(_) => None,
+            Mode::Penalty(mu) => Some(mu),
         },
         seconds: start.elapsed().as_secs_f64(),
     })

@@ -25,9 +25,9 @@ use super::finite::{margin, observation, Margin, ObservedRun};
 use super::key::{chsh_threshold_qber, key_rate, ChshEntropyBound, KeyRate};
 use super::randomness::{guessing_probability, Randomness, Target};
 use super::CAUTION;
-use crate::bounds::classical::{classical_value, Choice};
+use crate::bounds::classical::classical_value;
 use crate::bounds::nosignal::no_signalling_value;
-use crate::bounds::quantum::npa::{default_level, npa_bound, Level, NpaBound};
+use crate::bounds::quantum::npa::{default_level, npa_bound, Level, NpaBound, NpaOptions};
 use crate::bounds::quantum::seesaw::{seesaw, SeesawOptions, SeesawResult};
 use crate::error::{Error, Result};
 use crate::formats::game::{families, CompileOptions, Game};
@@ -135,7 +135,7 @@ fn chsh_correlator(game: &Game, score: f64) -> Option<f64> {
 pub fn review(path: &str) -> Result<Review> {
     let text = crate::formats::files::read_text(path)?;
     let p: ProtocolFile =
-        serde_yaml::from_str(&text).map_err(|e| crate::formats::game::yaml_error(e, path))?;
+        serde_yaml::from_str(&text).map_err(|e| crate::formats::located::yaml_error(e, path))?;
     let base = Path::new(path).parent().unwrap_or(Path::new("."));
     let game_path = base.join(&p.game);
     let game = Game::from_file(&game_path.to_string_lossy(), CompileOptions::default())?;
@@ -157,9 +157,9 @@ pub fn review(path: &str) -> Result<Review> {
         },
     )
     .map_err(|e| bad(e.to_string()))?;
-    let classical = classical_value(s, Choice::Auto, false, None)?.value;
-    let no_signalling = no_signalling_value(s, false)?.value;
-    let npa = npa_bound(s, &default_level(s)?, false)?;
+    let classical = classical_value(s, &Default::default(), None)?.value;
+    let no_signalling = no_signalling_value(s, &Default::default())?.value;
+    let npa = npa_bound(s, &NpaOptions::at(default_level(s)?))?;
     let seesaw = seesaw(s, &SeesawOptions::default(), None)?;
     let alpha = p.alpha.unwrap_or(1e-6);
     let target = p.target_p_value.unwrap_or(1e-9);
@@ -357,7 +357,7 @@ impl Review {
                         "min-entropy per round ≥".into(),
                         crate::render::report::bits_text(r.min_entropy),
                     ),
-                    ("NPA level".into(), r.level.clone()),
+                    ("NPA level".into(), r.level.name()),
                 ],
             ));
         }

@@ -690,7 +690,7 @@ pub fn verification_text(game: &Game, certificate: &str, v: &Verification) -> St
     let mut out = table(&[
         ("game".into(), format!("{} ({})", game.name, game.source)),
         ("certificate".into(), certificate.to_string()),
-        ("level".into(), v.level.clone()),
+        ("level".into(), v.level.name()),
         ("verified quantum ≤".into(), num(v.verified_upper)),
         ("claimed in file".into(), num(v.claimed)),
     ]);

@@ -22,6 +22,7 @@ use std::time::Instant;
 use rayon::prelude::*;
 use serde::Serialize;
 
+use crate::limits::{human_seconds, Limits};
 use crate::error::{Error, Result};
 use crate::model::scenario::{digits, index_of, Scenario};
 use crate::optim::lp::{LinearProgram, Relation, VarBounds};
@@ -149,16 +150,24 @@ pub struct SearchEstimate {
 /// Reports finished parallel tasks: (done, total).
 pub type Progress<'a> = &'a (dyn Fn(usize, usize) + Sync);
 
-/// Computes the classical value with the chosen method. `force` skips the size refusal. Only an
-/// exact value is returned: a MILP stopped at its time limit is an error (naming the best
+/// How the classical value is computed.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct ClassicalOptions {
+    /// Branch and bound, MILP, or chosen by size (default).
+    pub method: Choice,
+    /// Refuse searches estimated above [`SEARCH_SECONDS_LIMIT`] (or MILPs above
+    /// [`MILP_VARIABLE_LIMIT`]) unless forced.
+    pub limits: Limits,
+}
+
+/// Computes the classical value with the chosen method. Only an exact value is returned: a MILP stopped at its time limit is an error (naming the best
 /// strategy it found), so no caller can mistake a lower bound for the value.
 pub fn classical_value(
     s: &Scenario,
-    choice: Choice,
-    force: bool,
+    options: &ClassicalOptions,
     progress: Option<Progress>,
 ) -> Result<ClassicalValue> {
-    let c = classical_value_or_incumbent(s, choice, force, progress)?;
+    let c = classical_value_or_incumbent(s, options, progress)?;
     match c.status {
         ClassicalStatus::Exact => Ok(c),
         ClassicalStatus::Incumbent => Err(Error::solver(
@@ -176,10 +185,10 @@ pub fn classical_value(
 /// [`ClassicalStatus::Incumbent`] (for the `classical` command, which prints it as a lower bound).
 pub fn classical_value_or_incumbent(
     s: &Scenario,
-    choice: Choice,
-    force: bool,
+    options: &ClassicalOptions,
     progress: Option<Progress>,
 ) -> Result<ClassicalValue> {
+    let (choice, force) = (options.method, options.limits.force);
     let est = ClassicalEstimate::of(s);
     let probe = || estimate_search(s);
     match choice {
@@ -225,21 +234,6 @@ fn too_large_search(est: &ClassicalEstimate, p: &SearchEstimate) -> Error {
             est.milp_variables
         ),
         hint: "the estimate comes from random probes and can be off by orders of magnitude: pass --force to try anyway".into(),
-    }
-}
-
-/// "3.2 s", "4.1 min", "2.0 h", "3.5 days", "1.2e3 years".
-pub fn human_seconds(s: f64) -> String {
-    if s < 60.0 {
-        format!("{s:.1} s")
-    } else if s < 3600.0 {
-        format!("{:.1} min", s / 60.0)
-    } else if s < 86400.0 {
-        format!("{:.1} h", s / 3600.0)
-    } else if s < 86400.0 * 365.0 {
-        format!("{:.1} days", s / 86400.0)
-    } else {
-        format!("{:.1e} years", s / (86400.0 * 365.0))
     }
 }
 
@@ -814,7 +808,7 @@ pub fn milp_with_time_limit(s: &Scenario, seconds: f64) -> Result<ClassicalValue
         })
         .collect();
     let value = s.value_of_strategy(&answers);
-    let proven = sol.status == crate::optim::lp::LP_SOLVED;
+    let proven = sol.status == crate::optim::SolveStatus::Solved;
     if proven && (value - (sol.objective + s.offset)).abs() > 1e-6 * (1.0 + value.abs()) {
         return Err(Error::solver(
             "classical MILP",

@@ -160,3 +160,23 @@ fn critical_efficiency(s: &Scenario, st: &QuantumStrategy, classical: f64) -> Op
     }
     Some(hi)
 }
+
+/// Entanglement of a strategy's state and, when the classical value is known, its robustness.
+#[derive(Debug, Clone, Serialize)]
+pub struct StrategyAnalysis {
+    /// Each bipartition of the players.
+    pub bipartitions: Vec<Bipartition>,
+    /// Critical visibility and detection efficiency (None without a classical value).
+    pub robustness: Option<Robustness>,
+    /// The classical value the robustness figures are measured against.
+    pub classical: Option<f64>,
+}
+
+/// Entanglement of the state and, when the classical value is known, robustness thresholds.
+pub fn analyse(s: &Scenario, st: &QuantumStrategy, classical: Option<f64>) -> StrategyAnalysis {
+    StrategyAnalysis {
+        bipartitions: bipartitions(s, st),
+        robustness: classical.map(|c| robustness(s, st, c)),
+        classical,
+    }
+}

@@ -19,15 +19,18 @@ use std::time::Instant;
 
 use serde::{Deserialize, Serialize};
 
+use crate::formats::certificate::{Certificate, CERTIFICATE_FORMAT};
 use super::words::{moment_key, product, projectors_of, words_of_pattern, Projector, Word};
 use crate::error::{Error, Result};
 use crate::model::collins_gisin::CollinsGisin;
 use crate::model::scenario::Scenario;
-use crate::optim::sdp::{
-    upper_index, AffineEntry, MatrixBlock, SdpProblem, SdpSolution, SdpSolver,
-};
+use crate::limits::{human_seconds, Limits};
+use crate::optim::backend::{self, Backend};
+use crate::optim::sdp::{upper_index, AffineEntry, MatrixBlock, SdpProblem, SdpSolution};
+use crate::optim::SolveStatus;
 
-/// A level of the hierarchy: which words index the moment matrix.
+/// A level of the hierarchy: which words index the moment matrix. Written and serialised as its
+/// name ([`Level::name`]): `2`, `1+joint`, `1 A B AB`.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub enum Level {
     /// All words of length at most k.
@@ -44,7 +47,7 @@ impl Level {
         let t = text.trim();
         if let Ok(k) = t.parse::<usize>() {
             if k == 0 {
-                return Err(Error::Usage("the NPA level must be at least 1".into()));
+                return Err(Error::InvalidArgument("the NPA level must be at least 1".into()));
             }
             return Ok(Level::Length(k));
         }
@@ -60,7 +63,7 @@ impl Level {
             let mut p = Vec::new();
             for c in token.chars() {
                 if !c.is_ascii_uppercase() {
-                    return Err(Error::Usage(format!(
+                    return Err(Error::InvalidArgument(format!(
                         "level `{text}`: expected a number, `1+joint`, or patterns of player letters like `1 A B AB` (found `{token}`)"
                     )));
                 }
@@ -69,11 +72,12 @@ impl Level {
             patterns.push(p);
         }
         if patterns.is_empty() {
-            return Err(Error::Usage("the NPA level is empty".into()));
+            return Err(Error::InvalidArgument("the NPA level is empty".into()));
         }
         Ok(Level::Patterns(patterns))
     }
 
+    /// The level as users write it (and as [`Level::parse`] reads it back).
     pub fn name(&self) -> String {
         match self {
             Level::Length(k) => k.to_string(),
@@ -89,6 +93,56 @@ impl Level {
                 })
                 .collect::<Vec<_>>()
                 .join(" "),
+        }
+    }
+}
+
+impl std::fmt::Display for Level {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(&self.name())
+    }
+}
+
+impl Serialize for Level {
+    fn serialize<S: serde::Serializer>(&self, serializer: S) -> std::result::Result<S::Ok, S::Error> {
+        serializer.serialize_str(&self.name())
+    }
+}
+
+impl std::str::FromStr for Level {
+    type Err = Error;
+    fn from_str(text: &str) -> Result<Level> {
+        Level::parse(text)
+    }
+}
+
+/// What an NPA bound is computed with: the level, the SDP backend and the work limits.
+#[derive(Debug, Clone)]
+pub struct NpaOptions {
+    /// Level of the hierarchy (default `1+joint`).
+    pub level: Level,
+    /// SDP backend (default: chosen by size, with fallback).
+    pub backend: Backend,
+    /// Refuse work above the default limits unless forced.
+    pub limits: Limits,
+}
+
+impl Default for NpaOptions {
+    fn default() -> Self {
+        NpaOptions {
+            level: Level::Joint,
+            backend: Backend::Auto,
+            limits: Limits::default(),
+        }
+    }
+}
+
+impl NpaOptions {
+    /// The default options at `level`.
+    pub fn at(level: Level) -> Self {
+        NpaOptions {
+            level,
+            ..Default::default()
         }
     }
 }
@@ -220,7 +274,7 @@ pub fn generating_words(s: &Scenario, level: &Level) -> Result<Vec<Word>> {
             set.insert(Vec::new());
             for p in patterns {
                 if let Some(&bad) = p.iter().find(|&&i| i >= n) {
-                    return Err(Error::Usage(format!(
+                    return Err(Error::InvalidArgument(format!(
                         "level pattern names player {} but the game has {n}",
                         (b'A' + bad as u8) as char
                     )));
@@ -334,7 +388,7 @@ pub fn relaxation(s: &Scenario, level: &Level) -> Result<Relaxation> {
             })
             .collect();
         let Some(&id) = index.get(&moment_key(word)) else {
-            return Err(Error::Usage(format!(
+            return Err(Error::InvalidArgument(format!(
                 "level {} does not contain the products of one operator for each of {} players that this game's value needs; use `1+joint` or a higher level",
                 level.name(),
                 mask.count_ones()
@@ -404,11 +458,13 @@ const FLOPS_PER_SECOND: f64 = 1.6e9;
 const IPM_CHOLESKY_FLOPS: f64 = 3e10;
 const IPM_ASSEMBLY_FLOPS: f64 = 1e10;
 
+/// The estimate with the backend `auto` would run first.
 pub fn estimate(r: &Relaxation) -> NpaEstimate {
-    estimate_for(r, SdpSolver::Auto)
+    estimate_for(r, Backend::Auto)
 }
 
-pub fn estimate_for(r: &Relaxation, solver: SdpSolver) -> NpaEstimate {
+/// The estimate with the given backend.
+pub fn estimate_for(r: &Relaxation, solver: Backend) -> NpaEstimate {
     let n = r.matrix.size() as f64;
     let m = r.matrix.moments.len() as f64;
     let d = n * (n + 1.0) / 2.0;
@@ -418,7 +474,7 @@ pub fn estimate_for(r: &Relaxation, solver: SdpSolver) -> NpaEstimate {
         30.0 * (m * m * m / 3.0 / IPM_CHOLESKY_FLOPS + 4.0 * n.powi(4) / IPM_ASSEMBLY_FLOPS);
     let ipm_memory_bytes = 8.0 * m * m * 3.0 + 8.0 * n * n * 12.0;
     let (seconds, memory_bytes) = match solver {
-        SdpSolver::Clarabel => (clarabel_seconds, clarabel_memory_bytes),
+        Backend::Clarabel => (clarabel_seconds, clarabel_memory_bytes),
         _ => (ipm_seconds, ipm_memory_bytes),
     };
     NpaEstimate {
@@ -436,7 +492,8 @@ pub fn estimate_for(r: &Relaxation, solver: SdpSolver) -> NpaEstimate {
 /// The result of one NPA solve.
 #[derive(Debug, Clone, Serialize)]
 pub struct NpaBound {
-    pub level: String,
+    /// The level solved.
+    pub level: Level,
     /// The solver's dual objective: an upper bound up to solver tolerance.
     pub quantum_upper: f64,
     /// A bound every quantum strategy respects, whatever the solver's errors.
@@ -445,15 +502,19 @@ pub struct NpaBound {
     pub primal: f64,
     pub matrix_size: usize,
     pub moments: usize,
-    pub status: String,
+    /// How the solver ended (solved or almost solved).
+    pub status: SolveStatus,
+    /// Solver iterations.
     pub iterations: u32,
+    /// Wall-clock time, building included.
     pub seconds: f64,
+    /// Time spent building the relaxation.
     pub build_seconds: f64,
     /// Relative duality gap and residual at the returned point.
     pub gap: f64,
     pub residual: f64,
-    /// `moment-ipm` or `clarabel`.
-    pub solver: String,
+    /// The backend that produced the bound.
+    pub solver: Backend,
     #[serde(skip)]
     pub solution: Option<SdpSolution>,
 }
@@ -467,21 +528,13 @@ pub const SECONDS_LIMIT: f64 = 3600.0;
 /// Largest estimated memory accepted without `force`.
 pub const MEMORY_LIMIT: f64 = 16.0 * (1u64 << 30) as f64;
 
-/// Builds and solves the relaxation at `level` with the default solver.
-pub fn npa_bound(s: &Scenario, level: &Level, force: bool) -> Result<NpaBound> {
-    npa_bound_with(s, level, force, SdpSolver::Auto)
-}
 
 /// Builds the relaxation at `level` after checking its size: the number of generating words
 /// before the matrix is built, then the time and memory estimate of `solver` (for `auto`, of
 /// both solvers it may use, since the fallback must fit too). Refuses with the estimate unless
 /// `force`.
-pub fn sized_relaxation(
-    s: &Scenario,
-    level: &Level,
-    force: bool,
-    solver: SdpSolver,
-) -> Result<(Relaxation, NpaEstimate)> {
+pub fn sized_relaxation(s: &Scenario, options: &NpaOptions) -> Result<(Relaxation, NpaEstimate)> {
+    let (level, force, solver) = (&options.level, options.limits.force, options.backend);
     let words = generating_words(s, level)?.len();
     if words > MAX_WORDS && !force {
         let n = words as f64;
@@ -505,7 +558,7 @@ pub fn sized_relaxation(
                 est.matrix_size,
                 est.matrix_size,
                 est.moments,
-                crate::bounds::classical::human_seconds(est.seconds),
+                human_seconds(est.seconds),
                 est.memory_bytes / (1u64 << 30) as f64
             ),
             hint: "choose a lower level, or pass --force".into(),
@@ -514,39 +567,32 @@ pub fn sized_relaxation(
     Ok((r, est))
 }
 
-/// Builds and solves the relaxation at `level` with the given solver.
-pub fn npa_bound_with(
-    s: &Scenario,
-    level: &Level,
-    force: bool,
-    solver: SdpSolver,
-) -> Result<NpaBound> {
+/// Builds (after the size check of [`sized_relaxation`]) and solves the relaxation.
+pub fn npa_bound(s: &Scenario, options: &NpaOptions) -> Result<NpaBound> {
     let start = Instant::now();
-    let (r, _) = sized_relaxation(s, level, force, solver)?;
-    solve_relaxation(&r, solver, start.elapsed().as_secs_f64())
+    let (r, _) = sized_relaxation(s, options)?;
+    solve_relaxation(&r, options.backend, start.elapsed().as_secs_f64())
 }
 
 /// Solves a relaxation already built (and size-checked, see [`sized_relaxation`]);
 /// `build_seconds` is the time its building took, added to the reported time.
-pub fn solve_relaxation(r: &Relaxation, solver: SdpSolver, build_seconds: f64) -> Result<NpaBound> {
+pub fn solve_relaxation(r: &Relaxation, solver: Backend, build_seconds: f64) -> Result<NpaBound> {
     let start = Instant::now();
-    let sol = r
-        .problem
-        .solve_with(solver, &format!("NPA level {}", r.level.name()))?;
+    let sol = backend::solve(&r.problem, solver, &format!("NPA level {}", r.level.name()))?;
     Ok(NpaBound {
-        level: r.level.name(),
+        level: r.level.clone(),
         quantum_upper: sol.dual,
         verified_upper: sol.certified,
         primal: sol.primal,
         matrix_size: r.matrix.size(),
         moments: r.matrix.moments.len(),
-        status: sol.status.clone(),
+        status: sol.status,
         iterations: sol.iterations,
         seconds: build_seconds + start.elapsed().as_secs_f64(),
         build_seconds,
         gap: sol.gap,
         residual: sol.residual,
-        solver: sol.solver.clone(),
+        solver: sol.solver,
         solution: Some(sol),
     })
 }
@@ -580,47 +626,29 @@ pub fn default_level(s: &Scenario) -> Result<Level> {
     }
     chosen
         .map(|(l, _)| l)
-        .ok_or_else(|| Error::Usage("no standard NPA level contains this game's value".into()))
+        .ok_or_else(|| Error::InvalidArgument("no standard NPA level contains this game's value".into()))
 }
 
-/// A dual certificate: enough to re-check the verified bound without the solver.
-#[derive(Debug, Clone, Serialize, Deserialize)]
-pub struct Certificate {
-    pub format: String,
-    pub game: String,
-    /// [`Scenario::fingerprint`] of the game's flat table.
-    #[serde(default)]
-    pub game_fingerprint: String,
-    pub level: String,
-    pub matrix_size: usize,
-    pub moments: usize,
-    pub verified_upper: f64,
-    /// The dual vector in the order of [`SdpProblem::assemble`]'s rows.
-    pub dual: Vec<f64>,
-}
-
-pub const CERTIFICATE_FORMAT: &str = "bellgap NPA dual certificate, version 2";
-
-impl Certificate {
-    pub fn new(game: &str, s: &Scenario, bound: &NpaBound) -> Option<Self> {
-        let sol = bound.solution.as_ref()?;
-        Some(Certificate {
-            format: CERTIFICATE_FORMAT.into(),
-            game: game.into(),
-            game_fingerprint: s.fingerprint(),
-            level: bound.level.clone(),
-            matrix_size: bound.matrix_size,
-            moments: bound.moments,
-            verified_upper: bound.verified_upper,
-            dual: sol.z.clone(),
-        })
-    }
+/// The dual certificate of a bound (`None` when the bound carries no dual solution).
+pub fn certificate(game: &str, s: &Scenario, bound: &NpaBound) -> Option<Certificate> {
+    let sol = bound.solution.as_ref()?;
+    Some(Certificate {
+        format: CERTIFICATE_FORMAT.into(),
+        game: game.into(),
+        game_fingerprint: s.fingerprint(),
+        level: bound.level.name(),
+        matrix_size: bound.matrix_size,
+        moments: bound.moments,
+        verified_upper: bound.verified_upper,
+        dual: sol.z.clone(),
+    })
 }
 
 /// Result of re-checking a certificate.
 #[derive(Debug, Clone, Serialize)]
 pub struct Verification {
-    pub level: String,
+    /// The level the certificate is for.
+    pub level: Level,
     /// The bound recomputed from the certificate: this is the number that counts.
     pub verified_upper: f64,
     /// The bound written in the file.
@@ -634,7 +662,8 @@ pub struct Verification {
 /// game (fingerprint of the flat table), a level whose size is checked before anything is
 /// built, and a finite dual vector of the right length; a recomputed bound above the claimed
 /// one is an error, not a success.
-pub fn verify(s: &Scenario, cert: &Certificate, force: bool) -> Result<Verification> {
+pub fn verify(s: &Scenario, cert: &Certificate, limits: &Limits) -> Result<Verification> {
+    let force = limits.force;
     let bad = |message: String| Error::Input {
         location: crate::error::Location::default(),
         message,
@@ -710,7 +739,7 @@ pub fn verify(s: &Scenario, cert: &Certificate, force: bool) -> Result<Verificat
         )));
     }
     Ok(Verification {
-        level: cert.level.clone(),
+        level,
         verified_upper: bound,
         claimed: cert.verified_upper,
         matches_claim,

@@ -15,10 +15,12 @@ use num_complex::Complex64;
 use rayon::prelude::*;
 use serde::Serialize;
 
+use crate::limits::Limits;
 use crate::error::{Error, Result};
 use crate::model::scenario::{digits, index_of, Scenario};
 pub use crate::model::strategy::clean_povm;
 use crate::model::strategy::{apply_on_axis, CMatrix, CVector, QuantumStrategy};
+use crate::optim::backend::Backend;
 use crate::optim::sdp::{upper_index, AffineEntry, MatrixBlock, SdpProblem};
 
 #[derive(Debug, Clone)]
@@ -31,7 +33,7 @@ pub struct SeesawOptions {
     pub tolerance: f64,
     pub max_rounds: usize,
     /// Run even when the estimate says it would take more than an hour.
-    pub force: bool,
+    pub limits: Limits,
 }
 
 impl Default for SeesawOptions {
@@ -42,7 +44,7 @@ impl Default for SeesawOptions {
             seed: 1,
             tolerance: 1e-10,
             max_rounds: 500,
-            force: false,
+            limits: Limits::default(),
         }
     }
 }
@@ -361,7 +363,7 @@ fn povm_sdp(b: &[CMatrix]) -> Result<Vec<CMatrix>> {
         variable_bound: 1.0,
         ..Default::default()
     };
-    let sol = problem.solve("see-saw measurement step")?;
+    let sol = crate::optim::backend::solve(&problem, Backend::Clarabel, "see-saw measurement step")?;
     let mut povm = Vec::with_capacity(k);
     for a in 0..k {
         let mut m = CMatrix::zeros(d, d);
@@ -455,14 +457,14 @@ pub fn seesaw(
         opts
     };
     if opts.dims.len() != s.players() {
-        return Err(Error::Usage(format!(
+        return Err(Error::InvalidArgument(format!(
             "give one dimension per player ({}), got {}",
             s.players(),
             opts.dims.len()
         )));
     }
     if opts.dims.contains(&0) || opts.restarts == 0 {
-        return Err(Error::Usage(
+        return Err(Error::InvalidArgument(
             "dimensions and restarts must be at least 1".into(),
         ));
     }
@@ -477,14 +479,14 @@ pub fn seesaw(
         });
     }
     let seconds = estimate_seconds(s, opts);
-    if seconds > SECONDS_LIMIT && !opts.force {
+    if seconds > SECONDS_LIMIT && !opts.limits.force {
         return Err(Error::TooLarge {
             what: "the see-saw".into(),
             estimate: format!(
                 "dims {:?}, {} restarts: roughly {} (rule of thumb)",
                 opts.dims,
                 opts.restarts,
-                crate::bounds::classical::human_seconds(seconds)
+                crate::limits::human_seconds(seconds)
             ),
             hint: "use smaller dimensions or fewer restarts, or pass --force".into(),
         });

@@ -62,15 +62,15 @@ pub fn xor_game(signs: &[Vec<i64>]) -> Result<GameSpec> {
     let qa = signs.len();
     let qb = signs.first().map_or(0, Vec::len);
     if qa == 0 || qb == 0 || signs.iter().any(|r| r.len() != qb) {
-        return Err(Error::Usage(
+        return Err(Error::InvalidArgument(
             "the sign table must be a non-empty rectangle, rows separated by `;`, e.g. \"1,1;1,-1\"".into(),
         ));
     }
     if signs.iter().flatten().any(|s| ![-1, 0, 1].contains(s)) {
-        return Err(Error::Usage("sign table entries must be -1, 0 or 1".into()));
+        return Err(Error::InvalidArgument("sign table entries must be -1, 0 or 1".into()));
     }
     if signs.iter().flatten().all(|&s| s == 0) {
-        return Err(Error::Usage("the sign table has no non-zero entry".into()));
+        return Err(Error::InvalidArgument("the sign table has no non-zero entry".into()));
     }
     let mut constants = Mapping::new();
     constants.insert(Value::from("signs"), yaml_matrix(signs));
@@ -94,7 +94,7 @@ pub fn xor_game(signs: &[Vec<i64>]) -> Result<GameSpec> {
 /// each; win iff a = b when y = x and a ≠ b otherwise.
 pub fn odd_cycle(n: usize) -> Result<GameSpec> {
     if n < 3 || n.is_multiple_of(2) {
-        return Err(Error::Usage(format!(
+        return Err(Error::InvalidArgument(format!(
             "the odd cycle needs an odd n >= 3, got {n}"
         )));
     }
@@ -143,7 +143,7 @@ pub fn magic_square() -> GameSpec {
 /// the parity of the answers equals half the number of ones among the questions, mod 2.
 pub fn ghz(players: usize) -> Result<GameSpec> {
     if !(3..=12).contains(&players) {
-        return Err(Error::Usage(format!(
+        return Err(Error::InvalidArgument(format!(
             "the GHZ game is defined here for 3 to 12 players, got {players}"
         )));
     }
@@ -177,7 +177,7 @@ pub fn ghz(players: usize) -> Result<GameSpec> {
 /// Local bound 2, no-signalling bound 4.
 pub fn cglmp(d: usize) -> Result<GameSpec> {
     if !(2..=64).contains(&d) {
-        return Err(Error::Usage(format!(
+        return Err(Error::InvalidArgument(format!(
             "CGLMP is built here for 2 to 64 outcomes, got {d}"
         )));
     }
@@ -222,7 +222,7 @@ pub fn i3322() -> GameSpec {
 /// A_{m} ≡ −A_0 (0-based). Local bound 2m − 2.
 pub fn chained_bell(m: usize) -> Result<GameSpec> {
     if !(2..=256).contains(&m) {
-        return Err(Error::Usage(format!(
+        return Err(Error::InvalidArgument(format!(
             "the chained Bell expression needs 2 to 256 settings, got {m}"
         )));
     }
@@ -287,7 +287,7 @@ pub fn parse_sign_table(text: &str) -> Result<Vec<Vec<i64>>> {
             row.split(',')
                 .map(|v| {
                     v.trim().parse::<i64>().map_err(|_| {
-                        Error::Usage(format!("sign table entry `{}` is not an integer", v.trim()))
+                        Error::InvalidArgument(format!("sign table entry `{}` is not an integer", v.trim()))
                     })
                 })
                 .collect()

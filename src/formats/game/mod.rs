@@ -6,18 +6,15 @@
 
 pub mod compile;
 pub mod families;
-pub mod formula;
-pub mod located;
 pub mod product;
 pub mod spec;
 
 pub use compile::CompileOptions;
 pub use spec::{GameSpec, PlayerSpec};
 
-use crate::error::{Error, Location, Result};
+use crate::error::Result;
 use crate::model::scenario::Scenario;
-use compile::Context;
-use located::SourceMap;
+use crate::formats::located::{yaml_error, Context, SourceMap};
 
 /// A validated game: its name, the flat table, and warnings found while building it.
 #[derive(Debug, Clone)]
@@ -76,68 +73,6 @@ impl Game {
 /// Deserialises the schema, turning serde's message into a located error.
 pub fn parse_spec(text: &str, file: &str) -> Result<GameSpec> {
     serde_yaml::from_str::<GameSpec>(text).map_err(|e| yaml_error(e, file))
-}
-
-pub(crate) fn yaml_error(e: serde_yaml::Error, file: &str) -> Error {
-    let loc = e.location();
-    let mut message = e.to_string();
-    // serde_yaml appends " at line L column C"; we print the position ourselves.
-    if let Some(cut) = message.find(" at line ") {
-        message.truncate(cut);
-    }
-    let message = redact_quoted(&message);
-    let (field, message) = match message.split_once(": ") {
-        Some((path, rest)) if !path.contains(' ') => (Some(path.to_string()), rest.to_string()),
-        _ => (None, message),
-    };
-    Error::Input {
-        location: Location {
-            file: file.to_string(),
-            line: loc.as_ref().map(|l| l.line()),
-            column: loc.as_ref().map(|l| l.column()),
-            field,
-        },
-        message,
-    }
-}
-
-/// The parser quotes what it found (`invalid type: string "..."`, or a name or number in
-/// backticks): a long quotation is cut, so that pointing a command at a foreign file (say, a
-/// password file) never echoes its content, and control characters are shown escaped.
-fn redact_quoted(message: &str) -> String {
-    const KEEP: usize = 16;
-    let shown = |quoted: &str| {
-        if quoted.chars().count() > KEEP {
-            "…".to_string()
-        } else {
-            quoted.escape_default().to_string()
-        }
-    };
-    let mut out = String::new();
-    let mut quoted = String::new();
-    // The open quotation's delimiter: the parser quotes strings with `"` and names and numbers
-    // with backticks, and either may come from the file.
-    let mut open: Option<char> = None;
-    for c in message.chars() {
-        match open {
-            Some(q) if c == q => {
-                out.push_str(&shown(&quoted));
-                out.push(c);
-                quoted.clear();
-                open = None;
-            }
-            Some(_) => quoted.push(c),
-            None if c == '"' || c == '`' => {
-                out.push(c);
-                open = Some(c);
-            }
-            None => out.push(c),
-        }
-    }
-    if open.is_some() {
-        out.push_str(&shown(&quoted));
-    }
-    out.chars().take(400).collect()
 }
 
 fn default_name(source: &str) -> String {

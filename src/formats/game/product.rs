@@ -44,7 +44,7 @@ fn nested_table(radices: &[usize], f: &dyn Fn(&[usize]) -> f64) -> Value {
 /// The k-fold product of `scenario` (named `name`) as a game spec.
 pub fn parallel_repetition(scenario: &Scenario, name: &str, rounds: usize) -> Result<GameSpec> {
     if rounds == 0 {
-        return Err(Error::Usage(
+        return Err(Error::InvalidArgument(
             "the number of rounds must be at least 1".into(),
         ));
     }

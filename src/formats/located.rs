@@ -1,4 +1,4 @@
-//! Source positions of the fields of a YAML document.
+//! Source positions of the fields of a YAML document, and errors located with them.
 //!
 //! serde gives us typed values but no positions for them, so validation that happens after
 //! deserialisation (a formula with an unknown name, probabilities that do not sum to one) would
@@ -9,7 +9,11 @@
 use std::collections::HashMap;
 
 use yaml_rust2::parser::{Event, MarkedEventReceiver, Parser};
+use serde_yaml::Value as Yaml;
 use yaml_rust2::scanner::{Marker, TScalarStyle};
+
+use super::formula::FormulaError;
+use crate::error::{Error, Location};
 
 /// Position of a value in the source: 1-based line and column, and whether the value is a
 /// single-line quoted scalar (then its text starts one column later).
@@ -175,6 +179,123 @@ impl MarkedEventReceiver for Builder<'_> {
             _ => {}
         }
     }
+}
+
+/// Where a document came from, for error messages: the file name and a map from field paths to
+/// positions.
+pub struct Context {
+    pub file: String,
+    pub map: SourceMap,
+}
+
+impl Context {
+    pub fn error(&self, field: &str, message: impl Into<String>) -> Error {
+        let pos = self.map.find(field);
+        Error::Input {
+            location: Location {
+                file: self.file.clone(),
+                line: pos.map(|p| p.line),
+                column: pos.map(|p| p.column),
+                field: (!field.is_empty()).then(|| field.to_string()),
+            },
+            message: message.into(),
+        }
+    }
+
+    /// An error inside a formula string: the column is that of the offending character when the
+    /// formula sits on one line.
+    pub fn formula_error(&self, field: &str, e: &FormulaError, what: &str) -> Error {
+        let pos = self.map.find(field);
+        let column = pos.map(|p| match p.text_column {
+            Some(c) => c + e.pos,
+            None => p.column,
+        });
+        Error::Input {
+            location: Location {
+                file: self.file.clone(),
+                line: pos.map(|p| p.line),
+                column,
+                field: Some(field.to_string()),
+            },
+            message: format!("{what}: {}", e.message),
+        }
+    }
+}
+
+/// A short description of a YAML value for error messages (never its whole content).
+pub fn yaml_brief(v: &Yaml) -> String {
+    match v {
+        Yaml::Null => "nothing".into(),
+        Yaml::Bool(b) => format!("`{b}`"),
+        Yaml::Number(n) => format!("`{n}`"),
+        Yaml::String(s) => format!("\"{s}\""),
+        Yaml::Sequence(_) => "a list".into(),
+        Yaml::Mapping(_) => "a mapping".into(),
+        Yaml::Tagged(_) => "a tagged value".into(),
+    }
+}
+
+/// A serde_yaml error as a located input error (the parser's quotations of the file cut short).
+pub fn yaml_error(e: serde_yaml::Error, file: &str) -> Error {
+    let loc = e.location();
+    let mut message = e.to_string();
+    // serde_yaml appends " at line L column C"; we print the position ourselves.
+    if let Some(cut) = message.find(" at line ") {
+        message.truncate(cut);
+    }
+    let message = redact_quoted(&message);
+    let (field, message) = match message.split_once(": ") {
+        Some((path, rest)) if !path.contains(' ') => (Some(path.to_string()), rest.to_string()),
+        _ => (None, message),
+    };
+    Error::Input {
+        location: Location {
+            file: file.to_string(),
+            line: loc.as_ref().map(|l| l.line()),
+            column: loc.as_ref().map(|l| l.column()),
+            field,
+        },
+        message,
+    }
+}
+
+/// The parser quotes what it found (`invalid type: string "..."`, or a name or number in
+/// backticks): a long quotation is cut, so that pointing a command at a foreign file (say, a
+/// password file) never echoes its content, and control characters are shown escaped.
+fn redact_quoted(message: &str) -> String {
+    const KEEP: usize = 16;
+    let shown = |quoted: &str| {
+        if quoted.chars().count() > KEEP {
+            "…".to_string()
+        } else {
+            quoted.escape_default().to_string()
+        }
+    };
+    let mut out = String::new();
+    let mut quoted = String::new();
+    // The open quotation's delimiter: the parser quotes strings with `"` and names and numbers
+    // with backticks, and either may come from the file.
+    let mut open: Option<char> = None;
+    for c in message.chars() {
+        match open {
+            Some(q) if c == q => {
+                out.push_str(&shown(&quoted));
+                out.push(c);
+                quoted.clear();
+                open = None;
+            }
+            Some(_) => quoted.push(c),
+            None if c == '"' || c == '`' => {
+                out.push(c);
+                open = Some(c);
+            }
+            None => out.push(c),
+        }
+    }
+    if open.is_some() {
+        out.push_str(&shown(&quoted));
+    }
+    out.chars().take(400).collect()
 }
 
 #[cfg(test)]

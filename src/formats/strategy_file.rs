@@ -1,0 +1,274 @@
+//! The strategy file (YAML or JSON): what `seesaw --save` writes and `evaluate` reads. Every
+//! entry is checked (finite numbers, shapes against the game, normalised state, POVM conditions)
+//! with located errors.
+//!
+//! File schema (YAML or JSON):
+//!
+//! ```yaml
+//! dims: [2, 2]                       # local dimension of each player, in game order
+//! state: [[0.7071, 0], 0, 0, [0.7071, 0]]   # amplitudes, product basis, first player most significant
+//! measurements:
+//!   alice:                           # one entry per question, in the game's question order
+//!     - question: 0                  # the question label
+//!       elements:                    # one d×d matrix per answer, entries real or [re, im]
+//!         - [[1, 0], [0, 0]]
+//!         - [[0, 0], [0, 1]]
+//! ```
+
+use num_complex::Complex64;
+use serde_yaml::{Mapping, Value as Yaml};
+
+use super::files::read_text;
+use super::located::{yaml_error, Context, SourceMap};
+use crate::error::Result;
+use crate::model::scenario::Scenario;
+use crate::model::strategy::{CMatrix, CVector, QuantumStrategy};
+
+impl QuantumStrategy {
+    /// The strategy as a file (see the module notes).
+    pub fn to_yaml_value(&self, s: &Scenario) -> Yaml {
+        // Integral parts are written as integers, and dust below 1e-15 as 0, for readable files.
+        let clean = |v: f64| -> Yaml {
+            let v = if v.abs() < 1e-15 { 0.0 } else { v };
+            if v == v.round() && v.abs() < 1e15 {
+                Yaml::from(v as i64)
+            } else {
+                Yaml::from(v)
+            }
+        };
+        let c = |z: Complex64| -> Yaml {
+            if z.im.abs() < 1e-15 {
+                clean(z.re)
+            } else {
+                Yaml::Sequence(vec![clean(z.re), clean(z.im)])
+            }
+        };
+        let mut root = Mapping::new();
+        root.insert(
+            "dims".into(),
+            Yaml::Sequence(self.dims.iter().map(|&d| Yaml::from(d as u64)).collect()),
+        );
+        root.insert(
+            "state".into(),
+            Yaml::Sequence(self.state.iter().map(|&z| c(z)).collect()),
+        );
+        let mut ms = Mapping::new();
+        for (i, player) in self.measurements.iter().enumerate() {
+            let p = &s.parties[i];
+            let list = player
+                .iter()
+                .enumerate()
+                .map(|(x, povm)| {
+                    let mut e = Mapping::new();
+                    e.insert("question".into(), Yaml::from(p.question_labels[x]));
+                    e.insert(
+                        "elements".into(),
+                        Yaml::Sequence(
+                            povm.iter()
+                                .map(|m| {
+                                    Yaml::Sequence(
+                                        (0..m.nrows())
+                                            .map(|r| {
+                                                Yaml::Sequence(
+                                                    (0..m.ncols()).map(|k| c(m[(r, k)])).collect(),
+                                                )
+                                            })
+                                            .collect(),
+                                    )
+                                })
+                                .collect(),
+                        ),
+                    );
+                    Yaml::Mapping(e)
+                })
+                .collect();
+            ms.insert(Yaml::from(p.name.clone()), Yaml::Sequence(list));
+        }
+        root.insert("measurements".into(), Yaml::Mapping(ms));
+        Yaml::Mapping(root)
+    }
+
+    /// Reads a strategy file for game `s`, with located errors.
+    pub fn from_yaml(text: &str, file: &str, s: &Scenario) -> Result<QuantumStrategy> {
+        let root: Yaml =
+            serde_yaml::from_str(text).map_err(|e| yaml_error(e, file))?;
+        let ctx = Context {
+            file: file.to_string(),
+            map: SourceMap::new(text),
+        };
+        let Yaml::Mapping(map) = &root else {
+            return Err(ctx.error(
+                "",
+                "expected a mapping with `dims`, `state` and `measurements`",
+            ));
+        };
+        for k in map.keys() {
+            let key = k.as_str().unwrap_or("");
+            if !matches!(key, "dims" | "state" | "measurements" | "game" | "value") {
+                return Err(ctx.error(
+                    key,
+                    format!("unknown field `{key}` (expected `dims`, `state`, `measurements`)"),
+                ));
+            }
+        }
+        let n = s.players();
+        let dims: Vec<usize> = match map.get("dims") {
+            Some(Yaml::Sequence(v)) if v.len() == n => v
+                .iter()
+                .enumerate()
+                .map(|(i, d)| {
+                    d.as_u64()
+                        .filter(|&d| (1..=64).contains(&d))
+                        .map(|d| d as usize)
+                        .ok_or_else(|| {
+                            ctx.error(&format!("dims[{i}]"), "expected a dimension from 1 to 64")
+                        })
+                })
+                .collect::<Result<_>>()?,
+            _ => {
+                return Err(ctx.error(
+                    "dims",
+                    format!("expected a list of {n} dimensions, one per player"),
+                ))
+            }
+        };
+        let total: usize = dims.iter().product();
+        if total > 1 << 14 {
+            return Err(ctx.error(
+                "dims",
+                format!("the joint dimension {total} is above the limit of 16384"),
+            ));
+        }
+        // Non-finite entries are refused here: NaN passes every `> tolerance` check later.
+        let complex = |v: &Yaml, field: &str| -> Result<Complex64> {
+            let z = match v {
+                Yaml::Number(x) => x.as_f64().map(|re| Complex64::new(re, 0.0)),
+                Yaml::Sequence(p) if p.len() == 2 => match (p[0].as_f64(), p[1].as_f64()) {
+                    (Some(re), Some(im)) => Some(Complex64::new(re, im)),
+                    _ => return Err(ctx.error(field, "expected [re, im] with two numbers")),
+                },
+                _ => return Err(ctx.error(field, "expected a number or [re, im]")),
+            };
+            match z {
+                Some(z) if z.re.is_finite() && z.im.is_finite() => Ok(z),
+                _ => Err(ctx.error(field, "expected a finite number")),
+            }
+        };
+        let state = match map.get("state") {
+            Some(Yaml::Sequence(v)) if v.len() == total => CVector::from_vec(
+                v.iter()
+                    .enumerate()
+                    .map(|(k, z)| complex(z, &format!("state[{k}]")))
+                    .collect::<Result<Vec<_>>>()?,
+            ),
+            Some(Yaml::Sequence(v)) => {
+                return Err(ctx.error(
+                    "state",
+                    format!(
+                        "expected {total} amplitudes (the product of dims), found {}",
+                        v.len()
+                    ),
+                ))
+            }
+            _ => return Err(ctx.error("state", "expected a list of amplitudes")),
+        };
+        let Some(Yaml::Mapping(ms)) = map.get("measurements") else {
+            return Err(ctx.error(
+                "measurements",
+                "expected a mapping from player name to its measurements",
+            ));
+        };
+        let mut measurements = Vec::with_capacity(n);
+        for (i, p) in s.parties.iter().enumerate() {
+            let base = format!("measurements.{}", p.name);
+            let Some(Yaml::Sequence(list)) = ms.get(p.name.as_str()) else {
+                return Err(ctx.error(
+                    "measurements",
+                    format!("no measurements for player `{}`", p.name),
+                ));
+            };
+            let mut per_question: Vec<Option<Vec<CMatrix>>> = vec![None; p.questions()];
+            for (k, entry) in list.iter().enumerate() {
+                let ef = format!("{base}[{k}]");
+                let label = entry
+                    .get("question")
+                    .and_then(Yaml::as_i64)
+                    .ok_or_else(|| ctx.error(&ef, "expected `question: LABEL`"))?;
+                let x = p
+                    .question_labels
+                    .iter()
+                    .position(|&l| l == label)
+                    .ok_or_else(|| {
+                        ctx.error(
+                            &format!("{ef}.question"),
+                            format!("{} has no question {label}", p.name),
+                        )
+                    })?;
+                let Some(Yaml::Sequence(elements)) = entry.get("elements") else {
+                    return Err(ctx.error(&ef, "expected `elements`: one matrix per answer"));
+                };
+                if elements.len() != p.answers() {
+                    return Err(ctx.error(
+                        &format!("{ef}.elements"),
+                        format!(
+                            "{} has {} answers but {} elements are given",
+                            p.name,
+                            p.answers(),
+                            elements.len()
+                        ),
+                    ));
+                }
+                let d = dims[i];
+                let mut povm = Vec::with_capacity(elements.len());
+                for (a, m) in elements.iter().enumerate() {
+                    let mf = format!("{ef}.elements[{a}]");
+                    let rows = m
+                        .as_sequence()
+                        .filter(|r| r.len() == d)
+                        .ok_or_else(|| ctx.error(&mf, format!("expected a {d}×{d} matrix")))?;
+                    let mut mat = CMatrix::zeros(d, d);
+                    for (r, row) in rows.iter().enumerate() {
+                        let cols = row.as_sequence().filter(|c| c.len() == d).ok_or_else(|| {
+                            ctx.error(
+                                &format!("{mf}[{r}]"),
+                                format!("expected a row of {d} entries"),
+                            )
+                        })?;
+                        for (c, z) in cols.iter().enumerate() {
+                            mat[(r, c)] = complex(z, &format!("{mf}[{r}][{c}]"))?;
+                        }
+                    }
+                    povm.push(mat);
+                }
+                if per_question[x].is_some() {
+                    return Err(ctx.error(&ef, format!("question {label} is given twice")));
+                }
+                per_question[x] = Some(povm);
+            }
+            let mut povms = Vec::with_capacity(p.questions());
+            for (x, m) in per_question.into_iter().enumerate() {
+                povms.push(m.ok_or_else(|| {
+                    ctx.error(
+                        &base,
+                        format!("no measurement for question {}", p.question_labels[x]),
+                    )
+                })?);
+            }
+            measurements.push(povms);
+        }
+        let strategy = QuantumStrategy {
+            dims,
+            state,
+            measurements,
+        };
+        strategy
+            .check_located(s)
+            .map_err(|(field, m)| ctx.error(&field, m))?;
+        Ok(strategy)
+    }
+
+    pub fn from_file(path: &str, s: &Scenario) -> Result<QuantumStrategy> {
+        let text = read_text(path)?;
+        Self::from_yaml(&text, path, s)
+    }
+}

@@ -1,0 +1,578 @@
+//! One function per command's work, called alike by the command line, the examples and (later)
+//! the Python package: each takes a loaded input and an options struct, runs the bounds in order,
+//! and returns an output struct that the renderers ([`crate::render`]) turn into text, JSON or a
+//! document. The sequence of bounds is written once, in [`bounds`]; [`review`] builds on it.
+//!
+//! Long work reports through an [`Observer`]: warnings before it starts (estimates) and
+//! progress while it runs. The library prints nothing itself.
+
+mod figures;
+mod review;
+
+pub use figures::{
+    key, local, margin, randomness, verify, KeyReport, LocalReport, MarginOptions, MarginReport,
+    RandomnessOptions, RandomnessReport, TargetChoice, VerifyReport,
+};
+pub use review::{review, Review, ReviewKey, ReviewRandomness};
+
+use serde::Serialize;
+
+use crate::bounds::classical::{
+    self, classical_value, classical_value_or_incumbent, Choice, ClassicalEstimate,
+    ClassicalOptions, ClassicalStatus, ClassicalValue,
+};
+use crate::bounds::nosignal::{no_signalling_value, NoSignallingValue};
+use crate::bounds::quantum::analysis::{analyse, StrategyAnalysis};
+use crate::bounds::quantum::npa::{self, Level, NpaBound, NpaOptions};
+use crate::bounds::quantum::seesaw::{self, SeesawOptions, SeesawResult};
+use crate::error::{Error, Result};
+use crate::formats::game::Game;
+use crate::limits::{human_seconds, Limits};
+use crate::model::scenario::{Scenario, Sizes};
+use crate::model::strategy::{CertifiedValue, QuantumStrategy};
+use crate::optim::backend::Backend;
+
+/// The quantum value counts as settled when the verified upper bound and the see-saw's lower
+/// bound are this close.
+pub const QUANTUM_SETTLED_TOLERANCE: f64 = 1e-6;
+
+/// A stage of long work that reports progress.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Stage {
+    /// Subtrees of the classical branch and bound.
+    ClassicalSearch,
+    /// Restarts of the see-saw.
+    SeesawRestarts,
+}
+
+/// Receives what long work has to say while it runs. Every method has a silent default.
+pub trait Observer: Sync {
+    /// A heads-up before work estimated to take long.
+    fn warn(&self, _message: &str) {}
+    /// Whether [`Observer::progress`] is wanted (progress callbacks cost a little).
+    fn wants_progress(&self) -> bool {
+        false
+    }
+    /// `done` of `total` units of `stage` are finished.
+    fn progress(&self, _stage: Stage, _done: usize, _total: usize) {}
+}
+
+/// An observer that ignores everything.
+pub struct Silent;
+
+impl Observer for Silent {}
+
+/// Which command a [`GameReport`] answers; it decides which parts are filled in.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum CommandKind {
+    /// Sizes and estimates of a game.
+    Check,
+    /// The classical value.
+    Classical,
+    /// The no-signalling value.
+    Nosignal,
+    /// Every bound and the gaps.
+    Bounds,
+    /// NPA upper bounds at one or more levels.
+    Npa,
+    /// A see-saw strategy.
+    Seesaw,
+    /// A given strategy's value.
+    Evaluate,
+}
+
+/// Sizes of a game and the cost estimates of its classical value (the `check` command).
+#[derive(Debug, Clone, Serialize)]
+pub struct GameSizes {
+    /// Table and strategy counts.
+    pub sizes: Sizes,
+    /// Cost of the classical search and MILP.
+    pub classical: ClassicalEstimate,
+    /// Smallest and largest value any behaviour can have.
+    pub value_range: (f64, f64),
+}
+
+/// Everything computed for one game by `check`, `classical`, `nosignal`, `bounds`, `npa`,
+/// `seesaw` or `evaluate`: each bound that was obtained, the bounds that could not be (with the
+/// reason, never replaced by a number), and how reported bounds were reconciled.
+#[derive(Debug, Clone)]
+pub struct GameReport<'a> {
+    /// The command answered.
+    pub command: CommandKind,
+    /// The game.
+    pub game: &'a Game,
+    /// Sizes and estimates (`check`).
+    pub sizes: Option<GameSizes>,
+    /// The classical value (or, from `classical`, an incumbent).
+    pub classical: Option<ClassicalValue>,
+    /// The no-signalling value.
+    pub no_signalling: Option<NoSignallingValue>,
+    /// The NPA bound of the last (or only) level.
+    pub npa: Option<NpaBound>,
+    /// Lower levels computed for comparison (`npa --level "1;2"`), in the order given.
+    pub npa_levels: Vec<NpaBound>,
+    /// The see-saw result.
+    pub seesaw: Option<SeesawResult>,
+    /// The Born-rule value of a given strategy (`evaluate`).
+    pub evaluated: Option<CertifiedValue>,
+    /// Entanglement and robustness of the strategy found or given.
+    pub strategy_analysis: Option<StrategyAnalysis>,
+    /// Bounds that could not be obtained, with the reason.
+    pub not_obtained: Vec<String>,
+    /// How reported bounds were reconciled with each other ([`GameReport::reconcile_bounds`]).
+    pub notes: Vec<String>,
+}
+
+/// Differences between the bounds, each present when both of its bounds are.
+#[derive(Debug, Clone, Copy, Default, Serialize)]
+pub struct Gaps {
+    /// See-saw lower bound minus the classical value.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub quantum_lower_minus_classical: Option<f64>,
+    /// Verified NPA bound minus the see-saw lower bound.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub quantum_upper_minus_lower: Option<f64>,
+    /// No-signalling value minus the classical value.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub no_signalling_minus_classical: Option<f64>,
+    /// Verified NPA bound minus the classical value.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub quantum_upper_minus_classical: Option<f64>,
+    /// No-signalling value minus the verified NPA bound.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub no_signalling_minus_quantum_upper: Option<f64>,
+}
+
+impl Gaps {
+    /// Whether no gap is known.
+    pub fn is_empty(&self) -> bool {
+        self.quantum_lower_minus_classical.is_none()
+            && self.quantum_upper_minus_lower.is_none()
+            && self.no_signalling_minus_classical.is_none()
+            && self.quantum_upper_minus_classical.is_none()
+            && self.no_signalling_minus_quantum_upper.is_none()
+    }
+}
+
+impl<'a> GameReport<'a> {
+    /// An empty report for `command` on `game`.
+    pub fn new(command: CommandKind, game: &'a Game) -> Self {
+        GameReport {
+            command,
+            game,
+            sizes: None,
+            classical: None,
+            no_signalling: None,
+            npa: None,
+            npa_levels: Vec::new(),
+            seesaw: None,
+            evaluated: None,
+            strategy_analysis: None,
+            not_obtained: Vec::new(),
+            notes: Vec::new(),
+        }
+    }
+
+    /// The smallest verified NPA bound over the levels computed.
+    pub fn best_npa(&self) -> Option<&NpaBound> {
+        self.npa_levels
+            .iter()
+            .chain(self.npa.as_ref())
+            .min_by(|a, b| a.verified_upper.total_cmp(&b.verified_upper))
+    }
+
+    /// Whether the verified upper bound and the see-saw lower bound meet (None unless both
+    /// are known).
+    pub fn quantum_settled(&self) -> Option<bool> {
+        let (sw, b) = (self.seesaw.as_ref()?, self.npa.as_ref()?);
+        Some(b.verified_upper - sw.quantum_lower < QUANTUM_SETTLED_TOLERANCE)
+    }
+
+    /// The gaps between the bounds obtained.
+    pub fn gaps(&self) -> Gaps {
+        let classical = self.classical.as_ref().map(|c| c.value);
+        let lower = self.seesaw.as_ref().map(|s| s.quantum_lower);
+        let upper = self.npa.as_ref().map(|b| b.verified_upper);
+        let ns = self.no_signalling.as_ref().map(|n| n.value);
+        let minus = |a: Option<f64>, b: Option<f64>| Some(a? - b?);
+        Gaps {
+            quantum_lower_minus_classical: minus(lower, classical),
+            quantum_upper_minus_lower: minus(upper, lower),
+            no_signalling_minus_classical: minus(ns, classical),
+            quantum_upper_minus_classical: minus(upper, classical),
+            no_signalling_minus_quantum_upper: minus(ns, upper),
+        }
+    }
+
+    /// With several NPA levels: every level's bound is valid, so the best (smallest) verified
+    /// one is the quantum upper bound; noted when it is not the last level's (higher levels can
+    /// come out looser through the residual charge).
+    pub fn note_best_level(&mut self) {
+        let Some(last) = &self.npa else { return };
+        if let Some(best) = self
+            .npa_levels
+            .iter()
+            .filter(|b| b.verified_upper < last.verified_upper)
+            .min_by(|a, b| a.verified_upper.total_cmp(&b.verified_upper))
+        {
+            self.notes.push(format!(
+                "the best verified bound is level {}'s: quantum ≤ {} (level {} gives {})",
+                best.level,
+                crate::render::text::num(best.verified_upper),
+                last.level,
+                crate::render::text::num(last.verified_upper)
+            ));
+        }
+    }
+
+    /// Makes the reported bounds obey `classical ≤ quantum lower ≤ quantum upper ≤
+    /// no-signalling`, using only facts that hold for the true values: the quantum value is at
+    /// least the (exact) classical value, so the quantum lower bound starts from the larger of
+    /// the two; the no-signalling value bounds the quantum value from above, so a verified NPA
+    /// bound above it (solver tolerance) is replaced by it; and the no-signalling value is at
+    /// least every lower bound, so a simplex value a rounding error below one is raised to it.
+    /// Each change is recorded in `notes`.
+    pub fn reconcile_bounds(&mut self) {
+        use crate::render::text::num;
+        let classical = self
+            .classical
+            .as_ref()
+            .filter(|c| c.status == ClassicalStatus::Exact)
+            .map(|c| c.value);
+        if let (Some(c), Some(sw)) = (classical, self.seesaw.as_mut()) {
+            if sw.quantum_lower < c {
+                self.notes.push(format!(
+                    "the see-saw strategy scores {} (dims {:?}), below the classical value: the quantum lower bound is the classical value",
+                    num(sw.quantum_lower),
+                    sw.dims
+                ));
+                sw.quantum_lower = c;
+            }
+        }
+        let lower = self
+            .seesaw
+            .as_ref()
+            .map(|sw| sw.quantum_lower)
+            .into_iter()
+            .chain(classical)
+            .fold(f64::NEG_INFINITY, f64::max);
+        if let Some(ns) = self.no_signalling.as_mut() {
+            if ns.value < lower {
+                self.notes.push(format!(
+                    "the no-signalling LP gave {}, a rounding error below a lower bound: raised to {}",
+                    num(ns.value),
+                    num(lower)
+                ));
+                ns.value = lower;
+            }
+        }
+        let ns_upper = self
+            .no_signalling
+            .as_ref()
+            .map(|ns| ns.certified_upper.unwrap_or(ns.value).max(ns.value));
+        if let (Some(up), Some(b)) = (ns_upper, self.npa.as_mut()) {
+            if b.verified_upper > up {
+                self.notes.push(format!(
+                    "the verified NPA bound {} lies above the no-signalling value (solver tolerance): the quantum upper bound is the no-signalling value {}",
+                    num(b.verified_upper),
+                    num(up)
+                ));
+                b.verified_upper = up;
+            }
+        }
+    }
+}
+
+/// Options of [`bounds`].
+#[derive(Debug, Clone, Default)]
+pub struct BoundsOptions {
+    /// NPA level (None: [`npa::default_level`], the largest standard level that stays cheap).
+    pub npa_level: Option<Level>,
+    /// SDP backend of the NPA bound.
+    pub backend: Backend,
+    /// The see-saw (its `limits` are replaced by [`BoundsOptions::limits`]).
+    pub seesaw: SeesawOptions,
+    /// Work limits of every bound.
+    pub limits: Limits,
+}
+
+/// The `check` command: sizes and estimates, no solving.
+pub fn check(game: &Game) -> GameReport<'_> {
+    let s = &game.scenario;
+    let mut r = GameReport::new(CommandKind::Check, game);
+    r.sizes = Some(GameSizes {
+        sizes: Sizes::of(s),
+        classical: ClassicalEstimate::of(s),
+        value_range: s.value_range(),
+    });
+    r
+}
+
+/// A heads-up before a classical search estimated to take long (but not so long it is
+/// refused).
+fn warn_long_search(s: &Scenario, limits: &Limits, observer: &dyn Observer) {
+    if ClassicalEstimate::of(s).search_work < 1e9 {
+        return;
+    }
+    let p = classical::estimate_search(s);
+    if p.seconds > 30.0 && (limits.force || p.seconds <= classical::SEARCH_SECONDS_LIMIT) {
+        observer.warn(&format!(
+            "the classical search may take about {} (estimate from random probes: {:.1e} nodes)",
+            human_seconds(p.seconds),
+            p.nodes
+        ));
+    }
+}
+
+/// A heads-up before a see-saw estimated to take long (a rule of thumb, see
+/// [`seesaw::estimate_seconds`]); runs estimated above an hour are refused by the see-saw.
+fn warn_slow_seesaw(s: &Scenario, options: &SeesawOptions, observer: &dyn Observer) {
+    let seconds = seesaw::estimate_seconds(s, options);
+    if seconds > 30.0 {
+        observer.warn(&format!(
+            "the see-saw may take roughly {} (rule of thumb)",
+            human_seconds(seconds)
+        ));
+    }
+}
+
+/// The classical value with progress reported to `observer`.
+fn classical_observed(
+    s: &Scenario,
+    options: &ClassicalOptions,
+    observer: &dyn Observer,
+    accept_incumbent: bool,
+) -> Result<ClassicalValue> {
+    let report = |done: usize, total: usize| observer.progress(Stage::ClassicalSearch, done, total);
+    let progress: Option<classical::Progress> =
+        observer.wants_progress().then_some(&report as classical::Progress);
+    if accept_incumbent {
+        classical_value_or_incumbent(s, options, progress)
+    } else {
+        classical_value(s, options, progress)
+    }
+}
+
+/// The see-saw with progress reported to `observer`.
+fn seesaw_observed(
+    s: &Scenario,
+    options: &SeesawOptions,
+    observer: &dyn Observer,
+) -> Result<SeesawResult> {
+    let report = |done: usize, total: usize| observer.progress(Stage::SeesawRestarts, done, total);
+    let progress: Option<&(dyn Fn(usize, usize) + Sync)> =
+        observer.wants_progress().then_some(&report as &(dyn Fn(usize, usize) + Sync));
+    seesaw::seesaw(s, options, progress)
+}
+
+/// The `classical` command: the exact value, or an incumbent the solver could not prove
+/// optimal (reported as a lower bound).
+pub fn classical<'a>(
+    game: &'a Game,
+    options: &ClassicalOptions,
+    observer: &dyn Observer,
+) -> Result<GameReport<'a>> {
+    if options.method != Choice::Milp {
+        warn_long_search(&game.scenario, &options.limits, observer);
+    }
+    let mut r = GameReport::new(CommandKind::Classical, game);
+    r.classical = Some(classical_observed(
+        &game.scenario,
+        options,
+        observer,
+        true,
+    )?);
+    Ok(r)
+}
+
+/// The `nosignal` command.
+pub fn nosignal<'a>(game: &'a Game, limits: &Limits) -> Result<GameReport<'a>> {
+    let mut r = GameReport::new(CommandKind::Nosignal, game);
+    r.no_signalling = Some(no_signalling_value(&game.scenario, limits)?);
+    Ok(r)
+}
+
+/// Every bound, in order: the classical value, the no-signalling value, the NPA upper bound and
+/// the see-saw lower bound with its strategy's analysis; then the bounds are reconciled. A
+/// classical value, NPA bound or see-saw that cannot be obtained (too large, solver stopped) is
+/// listed under `not_obtained` and the others are still reported; bad input is an error.
+pub fn bounds<'a>(
+    game: &'a Game,
+    options: &BoundsOptions,
+    observer: &dyn Observer,
+) -> Result<GameReport<'a>> {
+    let s = &game.scenario;
+    warn_long_search(s, &options.limits, observer);
+    let mut r = GameReport::new(CommandKind::Bounds, game);
+    let classical_options = ClassicalOptions {
+        limits: options.limits,
+        ..Default::default()
+    };
+    match classical_observed(s, &classical_options, observer, false) {
+        Ok(c) => r.classical = Some(c),
+        Err(e @ (Error::Solver { .. } | Error::TooLarge { .. })) => {
+            r.not_obtained.push(format!("classical value: {e}"))
+        }
+        Err(e) => return Err(e),
+    }
+    r.no_signalling = Some(no_signalling_value(s, &options.limits)?);
+    let level = match &options.npa_level {
+        Some(l) => Some(l.clone()),
+        None => npa::default_level(s).ok(),
+    };
+    match level {
+        Some(level) => {
+            let npa_options = NpaOptions {
+                level,
+                backend: options.backend,
+                limits: options.limits,
+            };
+            match npa::npa_bound(s, &npa_options) {
+                Ok(b) => r.npa = Some(b),
+                Err(e) => r.not_obtained.push(format!("NPA upper bound: {e}")),
+            }
+        }
+        None => r
+            .not_obtained
+            .push("NPA upper bound: no standard level fits this game".into()),
+    }
+    let seesaw_options = SeesawOptions {
+        limits: options.limits,
+        ..options.seesaw.clone()
+    };
+    warn_slow_seesaw(s, &seesaw_options, observer);
+    match seesaw_observed(s, &seesaw_options, observer) {
+        Ok(found) => {
+            let classical = r.classical.as_ref().map(|c| c.value);
+            r.strategy_analysis = Some(analyse(s, &found.strategy, classical));
+            r.seesaw = Some(found);
+        }
+        Err(e) => r.not_obtained.push(format!("see-saw lower bound: {e}")),
+    }
+    r.reconcile_bounds();
+    Ok(r)
+}
+
+/// Options of [`npa_levels`].
+#[derive(Debug, Clone)]
+pub struct NpaLevelsOptions {
+    /// The levels, solved in this order; the last is the report's main bound.
+    pub levels: Vec<Level>,
+    /// SDP backend.
+    pub backend: Backend,
+    /// Work limits (every level is size-checked before any is solved).
+    pub limits: Limits,
+}
+
+impl Default for NpaLevelsOptions {
+    fn default() -> Self {
+        NpaLevelsOptions {
+            levels: vec![Level::Joint],
+            backend: Backend::Auto,
+            limits: Limits::default(),
+        }
+    }
+}
+
+/// The `npa` command: every level is built and size-checked before any is solved (so a refusal
+/// comes first, not after hours of work on the others); with several levels, a level whose
+/// solver fails is listed under `not_obtained` and the others are kept, and the best verified
+/// bound is noted.
+pub fn npa_levels<'a>(game: &'a Game, options: &NpaLevelsOptions) -> Result<GameReport<'a>> {
+    if options.levels.is_empty() {
+        return Err(Error::InvalidArgument("no NPA level given".into()));
+    }
+    let s = &game.scenario;
+    let mut r = GameReport::new(CommandKind::Npa, game);
+    let relaxations = options
+        .levels
+        .iter()
+        .map(|level| {
+            let start = std::time::Instant::now();
+            let at = NpaOptions {
+                level: level.clone(),
+                backend: options.backend,
+                limits: options.limits,
+            };
+            npa::sized_relaxation(s, &at).map(|(r, _)| (r, start.elapsed().as_secs_f64()))
+        })
+        .collect::<Result<Vec<_>>>()?;
+    let mut bounds = Vec::new();
+    for (relaxation, build_seconds) in &relaxations {
+        match npa::solve_relaxation(relaxation, options.backend, *build_seconds) {
+            Ok(b) => bounds.push(b),
+            Err(e) if options.levels.len() > 1 => r
+                .not_obtained
+                .push(format!("NPA level {}: {e}", relaxation.level)),
+            Err(e) => return Err(e),
+        }
+    }
+    let Some(last) = bounds.pop() else {
+        return Err(Error::solver("NPA", r.not_obtained.join("; ")));
+    };
+    r.npa_levels = bounds;
+    r.npa = Some(last);
+    r.note_best_level();
+    Ok(r)
+}
+
+/// The `seesaw` command: the strategy found, with its analysis against the classical value
+/// (computed when it is cheap; the analysis omits robustness otherwise).
+pub fn seesaw<'a>(
+    game: &'a Game,
+    options: &SeesawOptions,
+    observer: &dyn Observer,
+) -> Result<GameReport<'a>> {
+    let s = &game.scenario;
+    warn_slow_seesaw(s, options, observer);
+    let found = seesaw_observed(s, options, observer)?;
+    let classical = classical_value(s, &ClassicalOptions::default(), None)
+        .ok()
+        .map(|c| c.value);
+    let mut r = GameReport::new(CommandKind::Seesaw, game);
+    r.strategy_analysis = Some(analyse(s, &found.strategy, classical));
+    r.seesaw = Some(found);
+    Ok(r)
+}
+
+/// Options of [`evaluate`].
+#[derive(Debug, Clone, Copy, Default)]
+pub struct EvaluateOptions {
+    /// Skip the classical value (and so the robustness figures, which are measured against
+    /// it); on a large game computing it can take long.
+    pub skip_classical: bool,
+    /// Work limits of the classical value.
+    pub limits: Limits,
+}
+
+/// The `evaluate` command: a given strategy's Born-rule value (of the strategy made exactly
+/// valid within the file check's tolerances, with the evaluation's error term) and its analysis.
+pub fn evaluate<'a>(
+    game: &'a Game,
+    strategy: &QuantumStrategy,
+    options: &EvaluateOptions,
+    observer: &dyn Observer,
+) -> Result<GameReport<'a>> {
+    let s = &game.scenario;
+    let strategy = strategy.made_valid();
+    let classical = if options.skip_classical {
+        None
+    } else {
+        if ClassicalEstimate::of(s).search_work > 1e9 {
+            observer.warn("computing the exact classical value for the robustness figures (pass --no-classical to skip)");
+        }
+        warn_long_search(s, &options.limits, observer);
+        let classical_options = ClassicalOptions {
+            limits: options.limits,
+            ..Default::default()
+        };
+        classical_value(s, &classical_options, None)
+            .ok()
+            .map(|c| c.value)
+    };
+    let mut r = GameReport::new(CommandKind::Evaluate, game);
+    r.evaluated = Some(strategy.certified_value(s));
+    r.strategy_analysis = Some(analyse(s, &strategy, classical));
+    Ok(r)
+}
