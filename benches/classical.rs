@@ -104,7 +104,9 @@ fn main() {
         if s.joint_questions() * s.joint_answers() > 30_000 {
             continue;
         }
-        let (t, v) = time(*runs, || no_signalling_value(s, false).unwrap());
+        let (t, v) = time(*runs, || {
+            no_signalling_value(s, &bellgap::Limits::default()).unwrap()
+        });
         println!(
             "| {name} | no-signalling LP ({} variables) | {t:.4} | {:.6} |",
             v.variables, v.value
@@ -125,7 +127,9 @@ fn main() {
         );
         Correlations::from_yaml(&text, "tsirelson").unwrap()
     };
-    let (t, r) = time(20, || locality_test(&tsirelson, false).unwrap());
+    let (t, r) = time(20, || {
+        locality_test(&tsirelson, &bellgap::Limits::default()).unwrap()
+    });
     println!(
         "| optimal CHSH correlations | locality LP (16 strategies) | {t:.4} | visibility {:.6} |",
         r.visibility

@@ -8,15 +8,15 @@
 use std::process::Command;
 use std::time::Instant;
 
-use bellgap::bounds::quantum::npa::{estimate_for, npa_bound_with, relaxation, Level};
+use bellgap::bounds::quantum::npa::{estimate_for, relaxation, Level};
 use bellgap::formats::game::{families, Game, GameSpec};
-use bellgap::optim::sdp::SdpSolver;
+use bellgap::Backend;
 
-fn solver(name: &str) -> SdpSolver {
+fn solver(name: &str) -> Backend {
     if name == "clarabel" {
-        SdpSolver::Clarabel
+        Backend::Clarabel
     } else {
-        SdpSolver::MomentIpm
+        Backend::MomentIpm
     }
 }
 
@@ -51,7 +51,15 @@ fn run_case(index: usize, solver_name: &str) {
     let t = Instant::now();
     let r = relaxation(&s, &level).unwrap();
     let build = t.elapsed().as_secs_f64();
-    let b = npa_bound_with(&s, &level, true, solver(solver_name)).unwrap();
+    let b = bellgap::npa_bound(
+        &s,
+        &bellgap::NpaOptions {
+            level: level.clone(),
+            backend: solver(solver_name),
+            limits: bellgap::Limits { force: true },
+        },
+    )
+    .unwrap();
     println!(
         "| {name} | {} | {solver_name} | {}×{} | {} | {:.4} | {:.2} | {:.0} | {:.9} | {:.9} | {} ({} it.) |",
         b.level,

@@ -2,12 +2,19 @@
 //! rounds (see examples/data/beacon-protocol.yaml). Prints the Markdown report.
 //! Run with `cargo run --release --example beacon_review`.
 
+use bellgap::formats::protocol_file::ProtocolFile;
+use bellgap::pipeline::{self, Silent};
+use bellgap::render::document;
+use bellgap::Game;
+
 fn main() -> Result<(), bellgap::Error> {
     let path = format!(
         "{}/examples/data/beacon-protocol.yaml",
         env!("CARGO_MANIFEST_DIR")
     );
-    let review = bellgap::protocol::review::review(&path)?;
-    print!("{}", review.to_markdown());
+    let protocol = ProtocolFile::from_file(&path)?;
+    let game = Game::from_file(&protocol.game_path.to_string_lossy(), Default::default())?;
+    let review = pipeline::review(&protocol, &game, &Silent)?;
+    print!("{}", document::markdown(&review));
     Ok(())
 }

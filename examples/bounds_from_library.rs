@@ -2,10 +2,8 @@
 //! optimal strategy and the no-signalling value, then test invented lab frequencies for a local
 //! model. Run with `cargo run --example bounds_from_library`.
 
-use bellgap::bounds::classical::locality::{locality_test, Correlations};
-use bellgap::bounds::classical::{classical_value, Choice};
-use bellgap::bounds::nosignal::no_signalling_value;
-use bellgap::formats::game::{CompileOptions, Game};
+use bellgap::bounds::classical::locality::locality_test;
+use bellgap::{classical_value, no_signalling_value, CompileOptions, Correlations, Game, Limits};
 
 fn main() -> Result<(), bellgap::Error> {
     let dir = env!("CARGO_MANIFEST_DIR");
@@ -14,8 +12,8 @@ fn main() -> Result<(), bellgap::Error> {
         CompileOptions::default(),
     )?;
     let s = &game.scenario;
-    let classical = classical_value(s, Choice::Auto, false, None)?;
-    let ns = no_signalling_value(s, false)?;
+    let classical = classical_value(s, &Default::default(), None)?;
+    let ns = no_signalling_value(s, &Limits::default())?;
     println!(
         "{}: classical {:.6}, no-signalling {:.6}",
         game.name, classical.value, ns.value
@@ -28,7 +26,7 @@ fn main() -> Result<(), bellgap::Error> {
     }
 
     let lab = Correlations::from_file(&format!("{dir}/examples/data/lab-frequencies.yaml"))?;
-    let report = locality_test(&lab, false)?;
+    let report = locality_test(&lab, &Limits::default())?;
     println!(
         "{}: local model {}, critical visibility {:.4}",
         lab.name,

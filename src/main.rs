@@ -14,7 +14,7 @@ fn main() -> ExitCode {
     // `--json` is looked for in the raw arguments too, so that an argument error (which clap
     // reports before anything is parsed) still yields one JSON object.
     let json_requested = std::env::args_os().any(|a| a == "--json");
-    let cli = match cli::Cli::try_parse() {
+    let cli = match cli::args::Cli::try_parse() {
         Ok(cli) => cli,
         Err(e) => {
             use clap::error::ErrorKind;
@@ -26,7 +26,7 @@ fn main() -> ExitCode {
             let message = e.kind().to_string();
             let detail = e.to_string();
             eprint!("{detail}");
-            let obj = json!({"error": {
+            let obj = json!({"schema_version": bellgap::render::json::SCHEMA_VERSION, "error": {
                 "kind": "usage",
                 "message": detail.lines().next().unwrap_or(&message).trim_start_matches("error: "),
                 "location": null,
@@ -37,7 +37,9 @@ fn main() -> ExitCode {
     };
     let json = cli.wants_json();
     // A panic is a bug; it still ends in one message (and one JSON object) and exit code 1.
-    let outcome = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| cli::run(&cli)));
+    let outcome = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+        cli::request::Invocation::from_cli(&cli).and_then(|invocation| cli::run(&invocation))
+    }));
     let result = match outcome {
         Ok(r) => r,
         Err(payload) => {
@@ -47,7 +49,7 @@ fn main() -> ExitCode {
                 .or_else(|| payload.downcast_ref::<&str>().map(|s| s.to_string()))
                 .unwrap_or_else(|| "unknown panic".into());
             if json {
-                let obj = json!({"error": {
+                let obj = json!({"schema_version": bellgap::render::json::SCHEMA_VERSION, "error": {
                     "kind": "internal",
                     "message": format!("internal error (a bug; please report it): {what}"),
                     "location": null,
@@ -75,7 +77,7 @@ fn main() -> ExitCode {
         Err(e) => {
             eprintln!("error: {e}");
             if json {
-                let obj = json!({"error": {
+                let obj = json!({"schema_version": bellgap::render::json::SCHEMA_VERSION, "error": {
                     "kind": e.kind(),
                     "message": e.to_string(),
                     "location": e.location(),

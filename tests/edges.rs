@@ -83,7 +83,7 @@ fn a_milp_stopped_by_its_time_limit_is_never_called_exact() {
     let m = milp_with_time_limit(&small.scenario, 60.0).unwrap();
     assert_eq!(m.status, ClassicalStatus::Exact);
     assert!((m.value - search(&small.scenario, None).value).abs() < 1e-9);
-    let auto = classical_value(&small.scenario, Choice::Auto, false, None).unwrap();
+    let auto = classical_value(&small.scenario, &Default::default(), None).unwrap();
     assert_eq!(auto.status, ClassicalStatus::Exact);
 }
 

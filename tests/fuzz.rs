@@ -10,8 +10,8 @@ use std::panic::{catch_unwind, AssertUnwindSafe};
 use std::process::Command;
 
 use bellgap::bounds::classical::locality::Correlations;
-use bellgap::bounds::quantum::npa::{verify, Certificate};
-use bellgap::formats::game::formula;
+use bellgap::bounds::quantum::npa::{certificate, verify};
+use bellgap::formats::formula;
 use bellgap::formats::game::{CompileOptions, Game};
 use bellgap::model::strategy::QuantumStrategy;
 use proptest::prelude::*;
@@ -338,8 +338,8 @@ proptest! {
         ).unwrap();
         let s = &chsh.scenario;
         let level = bellgap::bounds::quantum::npa::Level::Length(1);
-        let bound = bellgap::bounds::quantum::npa::npa_bound(s, &level, false).unwrap();
-        let mut cert = Certificate::new("chsh", s, &bound).unwrap();
+        let bound = bellgap::bounds::quantum::npa::npa_bound(s, &bellgap::NpaOptions::at(level.clone())).unwrap();
+        let mut cert = certificate("chsh", s, &bound).unwrap();
         for z in cert.dual.iter_mut() {
             *z = *z * scale + shift;
         }
@@ -348,7 +348,7 @@ proptest! {
         if let Some(c) = claim {
             cert.verified_upper = c;
         }
-        let r = catch_unwind(AssertUnwindSafe(|| verify(s, &cert, false)));
+        let r = catch_unwind(AssertUnwindSafe(|| verify(s, &cert, &bellgap::Limits::default())));
         prop_assert!(r.is_ok());
         if let Ok(v) = r.unwrap() {
             prop_assert!(v.verified_upper >= (std::f64::consts::PI / 8.0).cos().powi(2) - 1e-12);

@@ -1,9 +1,9 @@
 //! The moment-matrix interior-point method against clarabel (the reference) on every check
 //! game, and its own accuracy.
 
-use bellgap::bounds::quantum::npa::{npa_bound_with, Level};
+use bellgap::bounds::quantum::npa::Level;
 use bellgap::formats::game::{families, Game, GameSpec};
-use bellgap::optim::sdp::SdpSolver;
+use bellgap::Backend;
 
 fn cases() -> Vec<(&'static str, GameSpec, &'static str)> {
     vec![
@@ -26,11 +26,28 @@ fn both_solvers_agree_on_the_check_games() {
     for (name, spec, level) in cases() {
         let s = Game::from_spec(&spec, name).unwrap().scenario;
         let level = Level::parse(level).unwrap();
-        let ipm = npa_bound_with(&s, &level, false, SdpSolver::MomentIpm).unwrap();
-        let reference = npa_bound_with(&s, &level, false, SdpSolver::Clarabel).unwrap();
-        assert_eq!(ipm.solver, "moment-ipm");
+        let ipm = bellgap::npa_bound(
+            &s,
+            &bellgap::NpaOptions {
+                level: level.clone(),
+                backend: Backend::MomentIpm,
+                ..Default::default()
+            },
+        )
+        .unwrap();
+        let reference = bellgap::npa_bound(
+            &s,
+            &bellgap::NpaOptions {
+                level: level.clone(),
+                backend: Backend::Clarabel,
+                ..Default::default()
+            },
+        )
+        .unwrap();
+        assert_eq!(ipm.solver, Backend::MomentIpm);
+        assert_eq!(ipm.solver.name(), "moment-ipm");
         // Accuracy of the new solver: relative gap and residuals below 1e-8.
-        assert_eq!(ipm.status, "solved", "{name}");
+        assert_eq!(ipm.status, bellgap::SolveStatus::Solved, "{name}");
         assert!(
             ipm.gap <= 1e-8 && ipm.residual <= 1e-8,
             "{name}: gap {} residual {}",
@@ -39,7 +56,7 @@ fn both_solvers_agree_on_the_check_games() {
         );
         // Where both converge fully the bounds agree within 1e-7; clarabel's "almost solved"
         // runs are accurate to about 1e-6.
-        let tol = if reference.status == "solved" {
+        let tol = if reference.status == bellgap::SolveStatus::Solved {
             1e-7
         } else {
             1e-6
@@ -53,7 +70,11 @@ fn both_solvers_agree_on_the_check_games() {
         // The verified bound applies to both and stays within 1e-6 of the raw one for fully
         // solved runs (1e-5 for clarabel's "almost solved" ones).
         for b in [&ipm, &reference] {
-            let slack = if b.status == "solved" { 1e-6 } else { 1e-5 };
+            let slack = if b.status == bellgap::SolveStatus::Solved {
+                1e-6
+            } else {
+                1e-5
+            };
             assert!(b.verified_upper >= b.quantum_upper - 1e-9, "{name}");
             assert!(
                 b.verified_upper <= b.quantum_upper + slack,

@@ -11,7 +11,11 @@ fn compile(spec: &GameSpec) -> Scenario {
 }
 
 fn npa(s: &Scenario, level: &str) -> bellgap::bounds::quantum::npa::NpaBound {
-    npa_bound(s, &Level::parse(level).unwrap(), false).unwrap()
+    npa_bound(
+        s,
+        &bellgap::NpaOptions::at(Level::parse(level).unwrap().clone()),
+    )
+    .unwrap()
 }
 
 /// The raw bound is close to the expected value, and the verified bound is an upper bound at
@@ -108,7 +112,9 @@ fn npa_lies_between_classical_and_no_signalling() {
     ] {
         let s = compile(&spec);
         let c = search(&s, None).value;
-        let ns = no_signalling_value(&s, false).unwrap().value;
+        let ns = no_signalling_value(&s, &bellgap::Limits::default())
+            .unwrap()
+            .value;
         let b = npa(&s, "1+joint");
         assert!(
             c <= b.quantum_upper + 1e-6 && b.quantum_upper <= ns + 1e-6,
@@ -144,7 +150,11 @@ fn i3322_level_4_meets_the_best_known_strategy() {
 
 #[test]
 fn a_relaxation_that_would_not_fit_in_memory_is_refused_with_an_estimate() {
-    let err = npa_bound(&compile(&families::i3322()), &Level::Length(6), false).unwrap_err();
+    let err = npa_bound(
+        &compile(&families::i3322()),
+        &bellgap::NpaOptions::at(Level::Length(6).clone()),
+    )
+    .unwrap_err();
     assert!(matches!(err, bellgap::Error::TooLarge { .. }), "{err}");
     assert!(err.to_string().contains("GiB"), "{err}");
 }
@@ -155,7 +165,7 @@ fn a_moment_matrix_too_large_to_build_is_refused_before_allocation() {
     let ms = compile(&families::magic_square());
     let twice =
         compile(&bellgap::formats::game::product::parallel_repetition(&ms, "ms", 2).unwrap());
-    let err = npa_bound(&twice, &Level::Length(2), false).unwrap_err();
+    let err = npa_bound(&twice, &bellgap::NpaOptions::at(Level::Length(2).clone())).unwrap_err();
     assert!(matches!(err, bellgap::Error::TooLarge { .. }), "{err}");
     let text = err.to_string();
     assert!(

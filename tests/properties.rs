@@ -115,7 +115,7 @@ proptest! {
         let c = search(s, None);
         prop_assert!((c.value - brute_force(s)).abs() < TOL, "search {} vs brute force {}", c.value, brute_force(s));
         prop_assert!((s.value_of_strategy(&c.strategy.answers) - c.value).abs() < TOL);
-        let ns = no_signalling_value(s, false).unwrap().value;
+        let ns = no_signalling_value(s, &bellgap::Limits::default()).unwrap().value;
         let (_, hi) = s.value_range();
         prop_assert!(c.value <= ns + TOL, "classical {} > no-signalling {}", c.value, ns);
         prop_assert!(ns <= hi + TOL, "no-signalling {} > table maximum {}", ns, hi);
@@ -127,8 +127,8 @@ proptest! {
         let r = s.relabelled(&g.players, &g.questions, &g.answers);
         let (c1, c2) = (search(s, None).value, search(&r, None).value);
         prop_assert!((c1 - c2).abs() < TOL, "classical {} vs relabelled {}", c1, c2);
-        let n1 = no_signalling_value(s, false).unwrap().value;
-        let n2 = no_signalling_value(&r, false).unwrap().value;
+        let n1 = no_signalling_value(s, &bellgap::Limits::default()).unwrap().value;
+        let n2 = no_signalling_value(&r, &bellgap::Limits::default()).unwrap().value;
         prop_assert!((n1 - n2).abs() < TOL, "no-signalling {} vs relabelled {}", n1, n2);
     }
 }
@@ -150,7 +150,7 @@ proptest! {
     #[test]
     fn no_signalling_formulations_agree(g in random_game(3)) {
         let s = &g.scenario;
-        let ns = no_signalling_value(s, false).unwrap();
+        let ns = no_signalling_value(s, &bellgap::Limits::default()).unwrap();
         let full = no_signalling_full(s);
         prop_assert!((ns.value - full).abs() < 1e-6, "Collins-Gisin {} vs full {}", ns.value, full);
         // The optimal behaviour is a behaviour, reaches the value, and does not signal.
@@ -185,16 +185,16 @@ proptest! {
         use bellgap::bounds::quantum::npa::{npa_bound, Level};
         let s = &g.scenario;
         let c = search(s, None).value;
-        let ns = no_signalling_value(s, false).unwrap().value;
-        let l1 = npa_bound(s, &Level::Length(1), false).unwrap();
-        let joint = npa_bound(s, &Level::Joint, false).unwrap();
+        let ns = no_signalling_value(s, &bellgap::Limits::default()).unwrap().value;
+        let l1 = npa_bound(s, &bellgap::NpaOptions::at(Level::Length(1).clone())).unwrap();
+        let joint = npa_bound(s, &bellgap::NpaOptions::at(Level::Joint.clone())).unwrap();
         // Tolerance: the solver's (1e-6 covers "almost solved" runs).
         prop_assert!(c <= joint.verified_upper + 1e-6, "classical {} > NPA {}", c, joint.verified_upper);
         prop_assert!(joint.quantum_upper <= ns + 1e-6, "NPA {} > no-signalling {}", joint.quantum_upper, ns);
         prop_assert!(joint.quantum_upper <= l1.quantum_upper + 1e-6, "1+joint {} > level 1 {}", joint.quantum_upper, l1.quantum_upper);
         prop_assert!(joint.verified_upper >= joint.quantum_upper - 1e-9);
         let r = s.relabelled(&g.players, &g.questions, &g.answers);
-        let jr = npa_bound(&r, &Level::Joint, false).unwrap();
+        let jr = npa_bound(&r, &bellgap::NpaOptions::at(Level::Joint.clone())).unwrap();
         prop_assert!((jr.quantum_upper - joint.quantum_upper).abs() < 1e-6, "relabelled {} vs {}", jr.quantum_upper, joint.quantum_upper);
     }
 }
@@ -209,7 +209,7 @@ proptest! {
         let s = &g.scenario;
         let opts = SeesawOptions { dims: vec![2; s.players()], restarts: 3, seed: 11, tolerance: 1e-10, max_rounds: 200, ..Default::default() };
         let lower = seesaw(s, &opts, None).unwrap().quantum_lower;
-        let upper = npa_bound(s, &Level::Joint, false).unwrap().verified_upper;
+        let upper = npa_bound(s, &bellgap::NpaOptions::at(Level::Joint.clone())).unwrap().verified_upper;
         prop_assert!(lower <= upper + 1e-6, "see-saw {} > NPA {}", lower, upper);
         // Qubits can play any deterministic strategy, and the see-saw only climbs, but from
         // random starts it may stop at a local optimum: it is only asserted not to be absurd.

@@ -2,7 +2,7 @@
 //! The source of each value is named beside it; "from memory" marks values recalled rather than
 //! read, which are then also recomputed independently here.
 
-use bellgap::bounds::classical::{classical_value, search, Choice};
+use bellgap::bounds::classical::{classical_value, search};
 use bellgap::bounds::nosignal::no_signalling_value;
 use bellgap::formats::game::{families, product, Game, GameSpec};
 use bellgap::Scenario;
@@ -14,14 +14,16 @@ fn compile(spec: &GameSpec) -> Scenario {
 }
 
 fn classical(s: &Scenario) -> f64 {
-    let v = classical_value(s, Choice::Auto, false, None).unwrap();
+    let v = classical_value(s, &Default::default(), None).unwrap();
     // The reported strategy re-evaluates to the reported value.
     assert!((s.value_of_strategy(&v.strategy.answers) - v.value).abs() < TOL);
     v.value
 }
 
 fn nosignal(s: &Scenario) -> f64 {
-    no_signalling_value(s, false).unwrap().value
+    no_signalling_value(s, &bellgap::Limits::default())
+        .unwrap()
+        .value
 }
 
 fn assert_close(got: f64, want: f64, what: &str) {
@@ -220,8 +222,8 @@ fn large_no_signalling_lps_take_the_interior_point_route_with_a_certified_bound(
         compile(&families::ghz(6).unwrap()),
         compile(&product::parallel_repetition(&chsh, "chsh", 3).unwrap()),
     ] {
-        let ns = no_signalling_value(&s, false).unwrap();
-        assert_eq!(ns.method, "interior point");
+        let ns = no_signalling_value(&s, &bellgap::Limits::default()).unwrap();
+        assert_eq!(ns.method.to_string(), "interior point");
         assert_close(ns.value, 1.0, "no-signalling value");
         let up = ns.certified_upper.expect("certified bound");
         assert!((1.0..1.0 + 1e-5).contains(&up), "certified {up}");

@@ -11,12 +11,12 @@ use std::time::Instant;
 
 use serde::Serialize;
 
-use crate::limits::Limits;
 use crate::error::{Error, Result};
+use crate::limits::Limits;
 use crate::model::collins_gisin::CollinsGisin;
 use crate::model::scenario::{digits, index_of, Scenario};
+use crate::optim::lp::{LinearProgram, LpMethod, Relation, VarBounds};
 use crate::optim::SolveStatus;
-use crate::optim::lp::{LinearProgram, Relation, VarBounds};
 
 /// Largest LP (variables) solved without `force`.
 pub const VARIABLE_LIMIT: usize = 200_000;
@@ -32,7 +32,8 @@ pub struct NoSignallingValue {
     /// Interior point only: an upper bound that holds despite solver and rounding error, from
     /// the dual solution (weak duality with the residual charged at its worst).
     pub certified_upper: Option<f64>,
-    pub method: &'static str,
+    /// Simplex or interior point.
+    pub method: LpMethod,
     pub status: SolveStatus,
     /// An optimal behaviour, `p(a|q)` at `q * joint_answers + a`.
     #[serde(skip)]
@@ -179,9 +180,9 @@ pub fn no_signalling_value(s: &Scenario, limits: &Limits) -> Result<NoSignalling
         value: constant_value + sol.objective,
         certified_upper: sol.certified_bound.map(|b| constant_value + b),
         method: if use_simplex {
-            "simplex"
+            LpMethod::Simplex
         } else {
-            "interior point"
+            LpMethod::InteriorPoint
         },
         status: sol.status,
         behaviour,

@@ -33,7 +33,6 @@ pub struct Certificate {
 /// The format string of the current certificate version.
 pub const CERTIFICATE_FORMAT: &str = "bellgap NPA dual certificate, version 2";
 
-
 impl Certificate {
     /// Reads a certificate file; a file that is not one is an input error with line and column.
     pub fn from_file(path: &Path) -> Result<Certificate> {

@@ -60,8 +60,7 @@ impl Correlations {
     /// one row per joint question listing `p(a|q)` over joint answers in mixed radix (first
     /// player most significant).
     pub fn from_yaml(text: &str, file: &str) -> Result<Self> {
-        let raw: CorrelationsFile =
-            serde_yaml::from_str(text).map_err(|e| yaml_error(e, file))?;
+        let raw: CorrelationsFile = serde_yaml::from_str(text).map_err(|e| yaml_error(e, file))?;
         let ctx = Context {
             file: file.to_string(),
             map: SourceMap::new(text),

@@ -75,7 +75,12 @@ pub fn number(
     }
 }
 
-pub fn real(value: &Yaml, ctx: &Context, field: &str, constants: &[(String, Value)]) -> Result<f64> {
+pub fn real(
+    value: &Yaml,
+    ctx: &Context,
+    field: &str,
+    constants: &[(String, Value)],
+) -> Result<f64> {
     let v = number(value, ctx, field, constants)?
         .as_f64()
         .map_err(|m| ctx.error(field, m))?;

@@ -8,8 +8,8 @@
 
 use std::collections::HashMap;
 
-use yaml_rust2::parser::{Event, MarkedEventReceiver, Parser};
 use serde_yaml::Value as Yaml;
+use yaml_rust2::parser::{Event, MarkedEventReceiver, Parser};
 use yaml_rust2::scanner::{Marker, TScalarStyle};
 
 use super::formula::FormulaError;

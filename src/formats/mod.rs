@@ -8,6 +8,6 @@ pub mod fields;
 pub mod files;
 pub mod formula;
 pub mod game;
-pub mod strategy_file;
 pub mod located;
 pub mod protocol_file;
+pub mod strategy_file;

@@ -90,8 +90,7 @@ impl QuantumStrategy {
 
     /// Reads a strategy file for game `s`, with located errors.
     pub fn from_yaml(text: &str, file: &str, s: &Scenario) -> Result<QuantumStrategy> {
-        let root: Yaml =
-            serde_yaml::from_str(text).map_err(|e| yaml_error(e, file))?;
+        let root: Yaml = serde_yaml::from_str(text).map_err(|e| yaml_error(e, file))?;
         let ctx = Context {
             file: file.to_string(),
             map: SourceMap::new(text),

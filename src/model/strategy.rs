@@ -323,5 +323,4 @@ impl QuantumStrategy {
         }
         Ok(())
     }
-
 }

@@ -179,8 +179,14 @@ mod tests {
 
     #[test]
     fn backend_names_are_the_json_names() {
-        assert_eq!(serde_json::to_string(&Backend::MomentIpm).unwrap(), "\"moment-ipm\"");
-        assert_eq!(serde_json::to_string(&Backend::Clarabel).unwrap(), "\"clarabel\"");
+        assert_eq!(
+            serde_json::to_string(&Backend::MomentIpm).unwrap(),
+            "\"moment-ipm\""
+        );
+        assert_eq!(
+            serde_json::to_string(&Backend::Clarabel).unwrap(),
+            "\"clarabel\""
+        );
         assert_eq!(Backend::Auto.to_string(), "auto");
     }
 }

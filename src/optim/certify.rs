@@ -77,10 +77,9 @@ impl Assembled {
     }
 }
 
-
 #[cfg(test)]
 mod tests {
-    use super::*;
+
     use crate::optim::sdp::{AffineEntry, MatrixBlock, SdpProblem};
 
     #[test]

@@ -14,46 +14,46 @@ use super::sdp::{SdpProblem, SdpSolution};
 use super::SolveStatus;
 use crate::error::{Error, Result};
 
-    /// Solves with clarabel. A run that ends in any state but solved or almost solved is an
-    /// error: no number is reported as a bound unless it is one.
+/// Solves with clarabel. A run that ends in any state but solved or almost solved is an
+/// error: no number is reported as a bound unless it is one.
 pub fn solve_sdp(problem: &SdpProblem, stage: &str) -> Result<SdpSolution> {
-        let start = Instant::now();
-        let asm = problem.assemble();
-        let mut cones = Vec::new();
-        if asm.equalities > 0 {
-            cones.push(SupportedConeT::ZeroConeT(asm.equalities));
-        }
-        if asm.inequalities > 0 {
-            cones.push(SupportedConeT::NonnegativeConeT(asm.inequalities));
-        }
-        for &n in &asm.block_sizes {
-            cones.push(SupportedConeT::PSDTriangleConeT(n));
-        }
-        let p = CscMatrix::zeros((problem.variables, problem.variables));
-        let (solver, status) = run_clarabel(&p, &asm.q, &asm.a, &asm.b, &cones, 1e-9, stage)?;
-        let y = solver.solution.x.clone();
-        let z = solver.solution.z.clone();
-        let primal = problem.objective_constant
-            + y.iter()
-                .zip(&problem.objective)
-                .map(|(y, c)| y * c)
-                .sum::<f64>();
-        let dual = problem.objective_constant + z.iter().zip(&asm.b).map(|(z, b)| z * b).sum::<f64>();
-        let certified = asm.certified_bound(&z)?;
-        Ok(SdpSolution {
-            primal,
-            dual,
-            certified,
-            status,
-            iterations: solver.info.iterations,
-            seconds: start.elapsed().as_secs_f64(),
-            gap: solver.info.gap_rel,
-            residual: solver.info.res_primal.max(solver.info.res_dual),
-            solver: Backend::Clarabel,
-            y,
-            z,
-        })
+    let start = Instant::now();
+    let asm = problem.assemble();
+    let mut cones = Vec::new();
+    if asm.equalities > 0 {
+        cones.push(SupportedConeT::ZeroConeT(asm.equalities));
     }
+    if asm.inequalities > 0 {
+        cones.push(SupportedConeT::NonnegativeConeT(asm.inequalities));
+    }
+    for &n in &asm.block_sizes {
+        cones.push(SupportedConeT::PSDTriangleConeT(n));
+    }
+    let p = CscMatrix::zeros((problem.variables, problem.variables));
+    let (solver, status) = run_clarabel(&p, &asm.q, &asm.a, &asm.b, &cones, 1e-9, stage)?;
+    let y = solver.solution.x.clone();
+    let z = solver.solution.z.clone();
+    let primal = problem.objective_constant
+        + y.iter()
+            .zip(&problem.objective)
+            .map(|(y, c)| y * c)
+            .sum::<f64>();
+    let dual = problem.objective_constant + z.iter().zip(&asm.b).map(|(z, b)| z * b).sum::<f64>();
+    let certified = asm.certified_bound(&z)?;
+    Ok(SdpSolution {
+        primal,
+        dual,
+        certified,
+        status,
+        iterations: solver.info.iterations,
+        seconds: start.elapsed().as_secs_f64(),
+        gap: solver.info.gap_rel,
+        residual: solver.info.res_primal.max(solver.info.res_dual),
+        solver: Backend::Clarabel,
+        y,
+        z,
+    })
+}
 
 /// Runs clarabel with quiet settings and the given tolerances; a run that ends in any state but
 /// solved or almost solved is an error. Shared by the LP and SDP adapters.
@@ -97,12 +97,11 @@ pub fn run_clarabel(
                     "the solver stopped with status {other:?} after {} iterations",
                     solver.info.iterations
                 ),
-            ))
+            ));
         }
     };
     Ok((solver, status))
 }
-
 
 /// clarabel as an [`super::backend::SdpBackend`].
 pub struct ClarabelBackend;

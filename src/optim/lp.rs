@@ -83,6 +83,25 @@ pub struct LpSolution {
     pub certified_bound: Option<f64>,
 }
 
+/// Which LP method produced a solution. Serialised as `simplex` or `interior point`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+pub enum LpMethod {
+    /// The simplex method (microlp): an exact vertex.
+    #[serde(rename = "simplex")]
+    Simplex,
+    /// clarabel's interior-point method, with a certified bound from its dual solution.
+    #[serde(rename = "interior point")]
+    InteriorPoint,
+}
+
+impl std::fmt::Display for LpMethod {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            LpMethod::Simplex => "simplex",
+            LpMethod::InteriorPoint => "interior point",
+        })
+    }
+}
 
 /// Simplex runs longer than this are stopped rather than hang: a continuous LP then fails, an
 /// integer programme returns its incumbent with status [`SolveStatus::TimeLimit`].

@@ -22,10 +22,10 @@ use faer::prelude::*;
 use faer::{Accum, Mat, Side};
 use rayon::prelude::*;
 
-use crate::error::{Error, Result};
 use super::backend::{Backend, SdpBackend};
 use super::sdp::{upper_index, Assembled, SdpProblem, SdpSolution};
 use super::SolveStatus;
+use crate::error::{Error, Result};
 
 /// Relative gap and residuals at or below which a run counts as solved.
 pub const SOLVED: f64 = 1e-8;

@@ -1,8 +1,6 @@
 //! The commands that read an observation, a certificate or correlations: `margin`,
 //! `randomness`, `key`, `verify` and `local`.
 
-use serde::Serialize;
-
 use super::{classical_observed, Observer};
 use crate::bounds::classical::locality::{locality_test, LocalityReport};
 use crate::bounds::classical::ClassicalOptions;
@@ -180,7 +178,12 @@ pub fn randomness<'a>(game: &'a Game, options: &RandomnessOptions) -> Result<Ran
     let target_name = target
         .parts
         .iter()
-        .map(|&(p, x)| format!("{} (question {})", s.parties[p].name, s.parties[p].question_labels[x]))
+        .map(|&(p, x)| {
+            format!(
+                "{} (question {})",
+                s.parties[p].name, s.parties[p].question_labels[x]
+            )
+        })
         .collect::<Vec<_>>()
         .join(" and ");
     Ok(RandomnessReport {
@@ -193,7 +196,7 @@ pub fn randomness<'a>(game: &'a Game, options: &RandomnessOptions) -> Result<Ran
 }
 
 /// CHSH key figures (the `key` command).
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone)]
 pub struct KeyReport {
     /// Entropy and key rate at the given S and QBER.
     pub rate: KeyRate,

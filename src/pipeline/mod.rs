@@ -219,9 +219,9 @@ impl<'a> GameReport<'a> {
             self.notes.push(format!(
                 "the best verified bound is level {}'s: quantum ≤ {} (level {} gives {})",
                 best.level,
-                crate::render::text::num(best.verified_upper),
+                crate::numbers::num(best.verified_upper),
                 last.level,
-                crate::render::text::num(last.verified_upper)
+                crate::numbers::num(last.verified_upper)
             ));
         }
     }
@@ -234,7 +234,7 @@ impl<'a> GameReport<'a> {
     /// least every lower bound, so a simplex value a rounding error below one is raised to it.
     /// Each change is recorded in `notes`.
     pub fn reconcile_bounds(&mut self) {
-        use crate::render::text::num;
+        use crate::numbers::num;
         let classical = self
             .classical
             .as_ref()
@@ -345,8 +345,9 @@ fn classical_observed(
     accept_incumbent: bool,
 ) -> Result<ClassicalValue> {
     let report = |done: usize, total: usize| observer.progress(Stage::ClassicalSearch, done, total);
-    let progress: Option<classical::Progress> =
-        observer.wants_progress().then_some(&report as classical::Progress);
+    let progress: Option<classical::Progress> = observer
+        .wants_progress()
+        .then_some(&report as classical::Progress);
     if accept_incumbent {
         classical_value_or_incumbent(s, options, progress)
     } else {
@@ -361,8 +362,9 @@ fn seesaw_observed(
     observer: &dyn Observer,
 ) -> Result<SeesawResult> {
     let report = |done: usize, total: usize| observer.progress(Stage::SeesawRestarts, done, total);
-    let progress: Option<&(dyn Fn(usize, usize) + Sync)> =
-        observer.wants_progress().then_some(&report as &(dyn Fn(usize, usize) + Sync));
+    let progress: Option<&(dyn Fn(usize, usize) + Sync)> = observer
+        .wants_progress()
+        .then_some(&report as &(dyn Fn(usize, usize) + Sync));
     seesaw::seesaw(s, options, progress)
 }
 
@@ -377,12 +379,7 @@ pub fn classical<'a>(
         warn_long_search(&game.scenario, &options.limits, observer);
     }
     let mut r = GameReport::new(CommandKind::Classical, game);
-    r.classical = Some(classical_observed(
-        &game.scenario,
-        options,
-        observer,
-        true,
-    )?);
+    r.classical = Some(classical_observed(&game.scenario, options, observer, true)?);
     Ok(r)
 }
 

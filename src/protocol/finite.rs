@@ -8,8 +8,8 @@
 
 use serde::Serialize;
 
-use crate::stats::clopper_pearson_lower;
 use crate::error::{Error, Result};
+use crate::stats::clopper_pearson_lower;
 
 use crate::model::scenario::{Scenario, ScoreKind};
 
@@ -72,7 +72,9 @@ pub struct ObservedRun {
 /// scores outside the range they are given. A wider range is valid (only looser).
 pub fn observation(s: &Scenario, run: &ObservedRun) -> Result<Observation> {
     if run.rounds == 0 {
-        return Err(Error::InvalidArgument("the number of rounds must be positive".into()));
+        return Err(Error::InvalidArgument(
+            "the number of rounds must be positive".into(),
+        ));
     }
     let (game_lo, game_hi) = s.per_round_score_range();
     match (run.wins, run.score_sum) {
@@ -83,7 +85,10 @@ pub fn observation(s: &Scenario, run: &ObservedRun) -> Result<Observation> {
                 ));
             }
             if w > run.rounds {
-                return Err(Error::InvalidArgument(format!("{w} wins in {} rounds", run.rounds)));
+                return Err(Error::InvalidArgument(format!(
+                    "{w} wins in {} rounds",
+                    run.rounds
+                )));
             }
             if run.score_range.is_some() {
                 return Err(Error::InvalidArgument(
@@ -147,7 +152,9 @@ pub fn margin(
     expected_mean: Option<f64>,
 ) -> Result<Margin> {
     if obs.rounds == 0 {
-        return Err(Error::InvalidArgument("the number of rounds must be positive".into()));
+        return Err(Error::InvalidArgument(
+            "the number of rounds must be positive".into(),
+        ));
     }
     if !obs.score_sum.is_finite() || !obs.low.is_finite() || !obs.high.is_finite() {
         return Err(Error::InvalidArgument(

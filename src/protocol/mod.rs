@@ -5,7 +5,6 @@
 pub mod finite;
 pub mod key;
 pub mod randomness;
-pub mod review;
 
 /// The caution printed with every cryptographic figure.
 pub const CAUTION: &str = "These figures rest on stated assumptions (the rounds' independence where said, asymptotic limits where said, quantum theory and the absence of side channels) and are not a security proof. Defer to peer-reviewed security proofs and to the certification practice that applies to your protocol.";

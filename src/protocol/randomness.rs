@@ -104,9 +104,7 @@ pub fn guessing_probability(
     let (base, est) = npa::sized_relaxation(s, &npa::NpaOptions::at(level.clone()))?;
     let g = guesses as f64;
     let (seconds, bytes) = (est.seconds * g * g * g, est.memory_bytes * g * g);
-    if seconds > npa::SECONDS_LIMIT
-        || bytes > npa::MEMORY_LIMIT
-    {
+    if seconds > npa::SECONDS_LIMIT || bytes > npa::MEMORY_LIMIT {
         return Err(Error::TooLarge {
             what: format!("the guessing-probability SDP at level {}", level.name()),
             estimate: format!(

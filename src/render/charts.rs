@@ -216,3 +216,80 @@ mod tests {
         assert_eq!(svg.matches("<circle").count(), 3);
     }
 }
+
+/// A strategy's value against white-noise visibility and detection efficiency, with the
+/// classical value when known.
+pub fn robustness(
+    game: &crate::formats::game::Game,
+    st: &crate::model::strategy::QuantumStrategy,
+    classical: Option<f64>,
+) -> String {
+    let s = &game.scenario;
+    let (value, noise) = (st.value(s), st.noise_value(s));
+    let grid: Vec<f64> = (0..=50).map(|k| k as f64 / 50.0).collect();
+    let mut series = vec![
+        Series {
+            name: "white-noise visibility".into(),
+            points: grid
+                .iter()
+                .map(|&v| (v, v * value + (1.0 - v) * noise))
+                .collect(),
+        },
+        Series {
+            name: "detection efficiency".into(),
+            points: grid.iter().map(|&e| (e, st.lossy(e).value(s))).collect(),
+        },
+    ];
+    if let Some(c) = classical {
+        series.push(Series {
+            name: "classical value".into(),
+            points: vec![(0.0, c), (1.0, c)],
+        });
+    }
+    line_chart(
+        &format!("Strategy value, {}", game.name),
+        "visibility / detection efficiency",
+        "value",
+        &series,
+    )
+}
+
+/// The verified NPA bound against the level, for a report comparing levels.
+pub fn npa_levels(report: &crate::pipeline::GameReport) -> String {
+    let bounds: Vec<&crate::bounds::quantum::npa::NpaBound> = report
+        .npa_levels
+        .iter()
+        .chain(report.npa.as_ref())
+        .collect();
+    category_chart(
+        &format!("NPA bound by level, {}", report.game.name),
+        "level",
+        &bounds.iter().map(|b| b.level.name()).collect::<Vec<_>>(),
+        "verified upper bound",
+        &[Series {
+            name: "verified".into(),
+            points: bounds
+                .iter()
+                .enumerate()
+                .map(|(k, b)| ((k + 1) as f64, b.verified_upper))
+                .collect(),
+        }],
+    )
+}
+
+/// Certified min-entropy against the score, for a randomness sweep.
+pub fn min_entropy(report: &crate::pipeline::RandomnessReport) -> String {
+    line_chart(
+        &format!("Certified min-entropy, {}", report.game.name),
+        "score",
+        "min-entropy per round (bits)",
+        &[Series {
+            name: "min-entropy".into(),
+            points: report
+                .results
+                .iter()
+                .map(|r| (r.score, r.min_entropy))
+                .collect(),
+        }],
+    )
+}

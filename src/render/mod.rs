@@ -1,4 +1,8 @@
-//! Rendering: text and JSON reports ([`report`]) and SVG charts ([`charts`]).
+//! Rendering the pipeline's reports: aligned text for people ([`text`]), one JSON object for
+//! programs ([`json`]), the review document in HTML or Markdown ([`document`]) and SVG charts
+//! ([`charts`]). Nothing here computes a bound.
 
 pub mod charts;
-pub mod report;
+pub mod document;
+pub mod json;
+pub mod text;

@@ -146,8 +146,8 @@ pub fn project_no_signalling(c: &Correlations) -> Result<NoSignallingProjection>
             .map(|((a, b), w)| w * (a - b) * (a - b))
             .sum::<f64>()
     });
-    let p_value = chi_square
-        .map(|t| crate::stats::chi_square_upper_tail(t, degrees_of_freedom as f64));
+    let p_value =
+        chi_square.map(|t| crate::stats::chi_square_upper_tail(t, degrees_of_freedom as f64));
     Ok(NoSignallingProjection {
         method: if c.rounds.is_some() {
             "minimum Neyman chi-square"

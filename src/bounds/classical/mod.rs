@@ -22,8 +22,8 @@ use std::time::Instant;
 use rayon::prelude::*;
 use serde::Serialize;
 
-use crate::limits::{human_seconds, Limits};
 use crate::error::{Error, Result};
+use crate::limits::{human_seconds, Limits};
 use crate::model::scenario::{digits, index_of, Scenario};
 use crate::optim::lp::{LinearProgram, Relation, VarBounds};
 

@@ -17,14 +17,14 @@
 use std::collections::{BTreeMap, BTreeSet};
 use std::time::Instant;
 
-use serde::{Deserialize, Serialize};
+use serde::Serialize;
 
-use crate::formats::certificate::{Certificate, CERTIFICATE_FORMAT};
 use super::words::{moment_key, product, projectors_of, words_of_pattern, Projector, Word};
 use crate::error::{Error, Result};
+use crate::formats::certificate::{Certificate, CERTIFICATE_FORMAT};
+use crate::limits::{human_seconds, Limits};
 use crate::model::collins_gisin::CollinsGisin;
 use crate::model::scenario::Scenario;
-use crate::limits::{human_seconds, Limits};
 use crate::optim::backend::{self, Backend};
 use crate::optim::sdp::{upper_index, AffineEntry, MatrixBlock, SdpProblem, SdpSolution};
 use crate::optim::SolveStatus;
@@ -47,7 +47,9 @@ impl Level {
         let t = text.trim();
         if let Ok(k) = t.parse::<usize>() {
             if k == 0 {
-                return Err(Error::InvalidArgument("the NPA level must be at least 1".into()));
+                return Err(Error::InvalidArgument(
+                    "the NPA level must be at least 1".into(),
+                ));
             }
             return Ok(Level::Length(k));
         }
@@ -104,7 +106,10 @@ impl std::fmt::Display for Level {
 }
 
 impl Serialize for Level {
-    fn serialize<S: serde::Serializer>(&self, serializer: S) -> std::result::Result<S::Ok, S::Error> {
+    fn serialize<S: serde::Serializer>(
+        &self,
+        serializer: S,
+    ) -> std::result::Result<S::Ok, S::Error> {
         serializer.serialize_str(&self.name())
     }
 }
@@ -528,7 +533,6 @@ pub const SECONDS_LIMIT: f64 = 3600.0;
 /// Largest estimated memory accepted without `force`.
 pub const MEMORY_LIMIT: f64 = 16.0 * (1u64 << 30) as f64;
 
-
 /// Builds the relaxation at `level` after checking its size: the number of generating words
 /// before the matrix is built, then the time and memory estimate of `solver` (for `auto`, of
 /// both solvers it may use, since the fallback must fit too). Refuses with the estimate unless
@@ -624,9 +628,9 @@ pub fn default_level(s: &Scenario) -> Result<Level> {
             break;
         }
     }
-    chosen
-        .map(|(l, _)| l)
-        .ok_or_else(|| Error::InvalidArgument("no standard NPA level contains this game's value".into()))
+    chosen.map(|(l, _)| l).ok_or_else(|| {
+        Error::InvalidArgument("no standard NPA level contains this game's value".into())
+    })
 }
 
 /// The dual certificate of a bound (`None` when the bound carries no dual solution).

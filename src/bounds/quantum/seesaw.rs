@@ -15,8 +15,8 @@ use num_complex::Complex64;
 use rayon::prelude::*;
 use serde::Serialize;
 
-use crate::limits::Limits;
 use crate::error::{Error, Result};
+use crate::limits::Limits;
 use crate::model::scenario::{digits, index_of, Scenario};
 pub use crate::model::strategy::clean_povm;
 use crate::model::strategy::{apply_on_axis, CMatrix, CVector, QuantumStrategy};
@@ -363,7 +363,8 @@ fn povm_sdp(b: &[CMatrix]) -> Result<Vec<CMatrix>> {
         variable_bound: 1.0,
         ..Default::default()
     };
-    let sol = crate::optim::backend::solve(&problem, Backend::Clarabel, "see-saw measurement step")?;
+    let sol =
+        crate::optim::backend::solve(&problem, Backend::Clarabel, "see-saw measurement step")?;
     let mut povm = Vec::with_capacity(k);
     for a in 0..k {
         let mut m = CMatrix::zeros(d, d);

@@ -67,10 +67,14 @@ pub fn xor_game(signs: &[Vec<i64>]) -> Result<GameSpec> {
         ));
     }
     if signs.iter().flatten().any(|s| ![-1, 0, 1].contains(s)) {
-        return Err(Error::InvalidArgument("sign table entries must be -1, 0 or 1".into()));
+        return Err(Error::InvalidArgument(
+            "sign table entries must be -1, 0 or 1".into(),
+        ));
     }
     if signs.iter().flatten().all(|&s| s == 0) {
-        return Err(Error::InvalidArgument("the sign table has no non-zero entry".into()));
+        return Err(Error::InvalidArgument(
+            "the sign table has no non-zero entry".into(),
+        ));
     }
     let mut constants = Mapping::new();
     constants.insert(Value::from("signs"), yaml_matrix(signs));
@@ -287,10 +291,71 @@ pub fn parse_sign_table(text: &str) -> Result<Vec<Vec<i64>>> {
             row.split(',')
                 .map(|v| {
                     v.trim().parse::<i64>().map_err(|_| {
-                        Error::InvalidArgument(format!("sign table entry `{}` is not an integer", v.trim()))
+                        Error::InvalidArgument(format!(
+                            "sign table entry `{}` is not an integer",
+                            v.trim()
+                        ))
                     })
                 })
                 .collect()
         })
         .collect()
+}
+
+/// A standard family member, by its parameters.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Family {
+    /// [`chsh`].
+    Chsh,
+    /// [`chsh_expression`].
+    ChshExpression,
+    /// [`xor_game`] from a sign table.
+    Xor {
+        /// Rows of signs −1, 0 or 1.
+        signs: Vec<Vec<i64>>,
+    },
+    /// [`odd_cycle`] on `n` vertices.
+    OddCycle {
+        /// Vertices.
+        n: usize,
+    },
+    /// [`magic_square`].
+    MagicSquare,
+    /// [`ghz`] with `players` players.
+    Ghz {
+        /// Players.
+        players: usize,
+    },
+    /// [`cglmp`] with `d` outcomes.
+    Cglmp {
+        /// Outcomes.
+        d: usize,
+    },
+    /// [`i3322`].
+    I3322,
+    /// [`chained_bell`] with `m` settings.
+    Chained {
+        /// Settings.
+        m: usize,
+    },
+    /// [`mermin`].
+    Mermin,
+}
+
+impl Family {
+    /// The game file of this member (parameters out of range are an error).
+    pub fn spec(&self) -> Result<GameSpec> {
+        Ok(match self {
+            Family::Chsh => chsh(),
+            Family::ChshExpression => chsh_expression(),
+            Family::Xor { signs } => xor_game(signs)?,
+            Family::OddCycle { n } => odd_cycle(*n)?,
+            Family::MagicSquare => magic_square(),
+            Family::Ghz { players } => ghz(*players)?,
+            Family::Cglmp { d } => cglmp(*d)?,
+            Family::I3322 => i3322(),
+            Family::Chained { m } => chained_bell(*m)?,
+            Family::Mermin => mermin(),
+        })
+    }
 }

@@ -13,8 +13,8 @@ pub use compile::CompileOptions;
 pub use spec::{GameSpec, PlayerSpec};
 
 use crate::error::Result;
-use crate::model::scenario::Scenario;
 use crate::formats::located::{yaml_error, Context, SourceMap};
+use crate::model::scenario::Scenario;
 
 /// A validated game: its name, the flat table, and warnings found while building it.
 #[derive(Debug, Clone)]

@@ -1,7 +1,6 @@
 //! Bell tables: coefficients of events, correlators, or a Collins–Gisin or correlator matrix,
 //! added up into the score table with an offset.
 
-
 use serde_yaml::Value as Yaml;
 
 use crate::error::Result;

@@ -1,7 +1,5 @@
 //! The `constants` section: named numbers, booleans and tables the formulas may use.
 
-
-
 use super::super::spec::GameSpec;
 use super::parties::check_identifier;
 use crate::error::Result;

@@ -33,7 +33,8 @@ pub const HARD_TABLE_LIMIT: usize = 1 << 30;
 /// 57 s on the project machine; a rule of thumb for the estimate, not a promise).
 const SECONDS_PER_ENTRY: f64 = 1e-6;
 
-#[derive(Debug, Clone, Copy, Default)]
+/// How a game is compiled.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
 pub struct CompileOptions {
     /// Build tables larger than [`DEFAULT_TABLE_LIMIT`].
     pub allow_large: bool,

@@ -3,10 +3,9 @@
 
 use std::collections::HashSet;
 
-
 use super::super::spec::GameSpec;
-use crate::error::Result;
 use super::MAX_NAME_CHARS;
+use crate::error::Result;
 use crate::formats::fields::parse_labels_for;
 use crate::formats::formula::Value;
 use crate::formats::located::Context;

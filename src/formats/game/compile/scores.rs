@@ -1,10 +1,8 @@
 //! The score table from a `win` predicate or a `score` formula, evaluated at every joint
 //! question and answer, and the warning for a score that never changes.
 
-
-
-use super::GameScope;
 use super::weights::describe_slots;
+use super::GameScope;
 use crate::error::Result;
 use crate::formats::formula::{self, Expr, Value};
 use crate::formats::located::Context;

@@ -1,13 +1,12 @@
 //! The question distribution: weights of the joint questions (from a table, a formula, or
 //! uniform), checked to be a probability distribution unless the file asks to normalise.
 
-
 use serde_yaml::Value as Yaml;
 
 use super::super::spec::GameSpec;
 use super::GameScope;
-use crate::error::Result;
 use super::PROBABILITY_TOLERANCE;
+use crate::error::Result;
 use crate::formats::fields::{label_index, real};
 use crate::formats::formula::{self};
 use crate::formats::located::{yaml_brief, Context};
@@ -265,7 +264,12 @@ fn describe_questions(parties: &[Party], scope: &GameScope, slots: &[i64]) -> St
 }
 
 /// "x=1, y=0, a=2, b=1", using the variable names (or player names when a variable is unnamed).
-pub(super) fn describe_slots(parties: &[Party], scope: &GameScope, slots: &[i64], count: usize) -> String {
+pub(super) fn describe_slots(
+    parties: &[Party],
+    scope: &GameScope,
+    slots: &[i64],
+    count: usize,
+) -> String {
     let n = parties.len();
     (0..count)
         .map(|s| {

@@ -1,0 +1,410 @@
+//! What the user can type: the commands and options (clap), with long help beside the options
+//! users get wrong. Nothing here interprets a value beyond its syntax; [`super::request`] turns
+//! what was typed into a typed request.
+
+use std::path::PathBuf;
+
+use clap::{Args, Parser, Subcommand, ValueEnum};
+
+const LEVEL_HELP: &str = "NPA level: which operator words index the moment matrix.
+
+`1`, `2`, `3`, ...: every word of at most that length. `1+joint`: level 1 plus the products of one operator per player (for two players the level usually written 1+AB); it is often nearly as tight as level 2 and much cheaper. A list of player letters such as `1 A B AB AAB` gives the words of those patterns (A is the first player).
+
+Several levels separated by `;` (e.g. \"1;1+joint;2\") are built and size-checked before any is solved, then solved in order; every level's verified bound is valid, and the smallest is reported as the best.
+
+The moment matrix grows quickly with the level (roughly (questions·(answers−1))^level words per player). Levels whose matrix would be too large are refused before anything is built, with the estimate; see --force.";
+
+const SOLVER_HELP: &str = "SDP solver of the NPA bound.
+
+`auto` (default) picks by the size of the work: the moment-matrix interior-point method (`ipm`) for large moment matrices, clarabel for small ones, and falls back to the other if the first fails (clarabel only when it fits in memory and time).
+
+`ipm`: our interior-point method on the moment matrix's Schur complement, usually 30–460 times faster than clarabel on NPA problems. `clarabel`: a general conic solver, accurate but slow and memory-hungry on large matrices.
+
+Whichever runs, the reported bound is verified from the dual solution with every floating-point error charged, so the choice changes speed, never the honesty of the number.";
+
+const FORCE_HELP: &str = "Run even when the estimate says the work would take very long or need much memory.
+
+Every command estimates its time and memory before starting (the classical search from random probes, the NPA moment matrix from its size, the see-saw from a rule of thumb) and refuses with the estimate when it is above the default limit, about an hour or 16 GiB. --force starts the work anyway.
+
+It does not lift the hard ceilings that protect the machine (e.g. 50,000 words for an NPA matrix, 2^30 table entries), and it never makes a number less honest: a solver stopped early is still reported as what it is.";
+
+const SCORE_HELP: &str = "The observed score, in the game's own units.
+
+For a game with a win predicate this is the winning probability (e.g. 0.85 for CHSH); for a Bell expression it is the expression's value (e.g. 2.7 for the CHSH expression in correlators, whose classical bound is 2).
+
+The adversary's guessing probability is bounded over every quantum behaviour reaching at least this score. A score above the NPA bound is refused (no quantum device reaches it); a score at or below the classical value certifies nothing (min-entropy 0).";
+
+#[derive(Parser, Debug)]
+#[command(
+    name = "bellgap",
+    version,
+    about = "Bounds for nonlocal games and Bell expressions: classical, no-signalling, and the gaps between them",
+    long_about = None
+)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+pub enum Command {
+    /// Validate a game file and print its sizes and cost estimates.
+    Check(GameArgs),
+    /// Exact classical value and an optimal deterministic strategy.
+    Classical {
+        #[command(flatten)]
+        args: GameArgs,
+        /// How to compute it: branch and bound, a MILP, or chosen by size.
+        #[arg(long, value_enum, default_value_t = MethodArg::Auto)]
+        method: MethodArg,
+    },
+    /// No-signalling value (linear programme).
+    Nosignal(GameArgs),
+    /// Every bound available, then the gaps between them.
+    Bounds {
+        #[command(flatten)]
+        args: GameArgs,
+        /// NPA level for the quantum upper bound (default: chosen from the size estimate).
+        #[arg(long, long_help = LEVEL_HELP)]
+        level: Option<String>,
+        /// SDP solver for the NPA bound.
+        #[arg(long, value_enum, default_value_t = SolverArg::Auto, long_help = SOLVER_HELP)]
+        solver: SolverArg,
+    },
+    /// Quantum upper bound from the NPA hierarchy, with a verified bound from the dual solution.
+    Npa {
+        #[command(flatten)]
+        args: GameArgs,
+        /// `1`, `2`, ... (all words up to that length), `1+joint` (level 1 plus products of one
+        /// operator per player), or patterns of player letters such as "1 A B AB AA". Several
+        /// levels separated by `;` are compared (e.g. "1;1+joint;2").
+        #[arg(long, default_value = "1+joint", long_help = LEVEL_HELP)]
+        level: String,
+        /// Write the dual certificate (JSON) of the last level here; `bellgap verify` re-checks it.
+        #[arg(long, value_name = "FILE")]
+        certificate: Option<PathBuf>,
+        /// Plot the verified bound against the level (SVG), when comparing levels.
+        #[arg(long, value_name = "FILE")]
+        svg: Option<PathBuf>,
+        /// SDP solver: the moment-matrix interior-point method (`ipm`), `clarabel`, or `auto`
+        /// (ipm, falling back to clarabel).
+        #[arg(long, value_enum, default_value_t = SolverArg::Auto, long_help = SOLVER_HELP)]
+        solver: SolverArg,
+    },
+    /// Explicit quantum strategy by see-saw: a lower bound on the quantum value.
+    Seesaw {
+        #[command(flatten)]
+        args: GameArgs,
+        /// Local dimension of every player.
+        #[arg(long, conflicts_with = "dims")]
+        dim: Option<usize>,
+        /// Local dimension per player, comma separated (e.g. 2,3).
+        #[arg(long, value_delimiter = ',')]
+        dims: Option<Vec<usize>>,
+        /// Random restarts (run in parallel; the best is kept).
+        #[arg(long, default_value_t = 10)]
+        restarts: usize,
+        /// Seed of the random starts (reported, so runs are reproducible).
+        #[arg(long, default_value_t = 1)]
+        seed: u64,
+        /// Write the best strategy (state and measurements) to this file.
+        #[arg(long, value_name = "FILE")]
+        save: Option<PathBuf>,
+        /// Plot the value against visibility and detection efficiency (SVG).
+        #[arg(long, value_name = "FILE")]
+        svg: Option<PathBuf>,
+    },
+    /// Recompute a strategy file's value by the Born rule and check it; with entanglement,
+    /// noise and detection-efficiency thresholds.
+    Evaluate {
+        #[command(flatten)]
+        args: GameArgs,
+        /// Strategy file (as written by `bellgap seesaw --save`).
+        strategy: PathBuf,
+        /// Plot the value against visibility and detection efficiency (SVG).
+        #[arg(long, value_name = "FILE")]
+        svg: Option<PathBuf>,
+        /// Skip the classical value (and so the robustness figures, which are measured against
+        /// it); on a large game computing it can take long.
+        #[arg(long)]
+        no_classical: bool,
+    },
+    /// What an observed score over n rounds certifies: confidence bounds, margin over the
+    /// classical value, p-value of classical devices, rounds needed.
+    Margin {
+        #[command(flatten)]
+        args: GameArgs,
+        /// Number of rounds played.
+        #[arg(long)]
+        rounds: u64,
+        /// Rounds won (a game).
+        #[arg(long, conflicts_with = "score_sum")]
+        wins: Option<u64>,
+        /// Sum of per-round scores (a Bell expression or a scored game).
+        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite)]
+        score_sum: Option<f64>,
+        /// Smallest and largest possible per-round score, as `LO,HI` (default: the
+        /// game's own range; a narrower one is refused, since the bounds would not hold).
+        #[arg(long, value_delimiter = ',', num_args = 1, allow_hyphen_values = true, value_parser = parse_finite)]
+        score_range: Option<Vec<f64>>,
+        /// Error probability of the confidence bounds.
+        #[arg(long, default_value_t = 1e-6, value_parser = parse_finite)]
+        alpha: f64,
+        /// p-value to reach when computing the rounds needed.
+        #[arg(long, default_value_t = 1e-9, value_parser = parse_finite)]
+        target_p_value: f64,
+        /// Expected mean score for the rounds needed (default: the observed mean).
+        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite)]
+        expected: Option<f64>,
+    },
+    /// Certified randomness: the adversary's guessing probability and the min-entropy per round
+    /// at a given score (NPA with the score as a constraint).
+    Randomness {
+        #[command(flatten)]
+        args: GameArgs,
+        /// The score (in the game's own units).
+        #[arg(long, allow_hyphen_values = true, required_unless_present = "sweep", value_parser = parse_finite, long_help = SCORE_HELP)]
+        score: Option<f64>,
+        /// Sweep the score: LOW:HIGH:POINTS.
+        #[arg(long)]
+        sweep: Option<String>,
+        /// Whose answer is guessed (default: the first player).
+        #[arg(long)]
+        player: Option<String>,
+        /// To which question (label; default: the first).
+        #[arg(long, allow_hyphen_values = true)]
+        question: Option<i64>,
+        /// Also guess this second player's answer (the pair of answers).
+        #[arg(long = "with")]
+        with_player: Option<String>,
+        /// The second player's question (label; default: the first).
+        #[arg(long, allow_hyphen_values = true)]
+        with_question: Option<i64>,
+        /// NPA level of the relaxation.
+        #[arg(long, default_value = "2", long_help = LEVEL_HELP)]
+        level: String,
+        /// Write the min-entropy curve of a sweep as an SVG plot.
+        #[arg(long, value_name = "FILE")]
+        svg: Option<PathBuf>,
+    },
+    /// Key figures for CHSH-based device-independent QKD (analytic bound).
+    Key {
+        /// CHSH correlator value S (at most 2√2; the entropy bound is 0 at or below 2).
+        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite)]
+        chsh: f64,
+        /// Quantum bit error rate, in [0, 0.5].
+        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite)]
+        qber: f64,
+        /// Print exactly one JSON object on stdout.
+        #[arg(long)]
+        json: bool,
+        /// No progress output on stderr (accepted for uniformity: `key` has none).
+        #[arg(long, short)]
+        quiet: bool,
+    },
+    /// A self-contained review report of a protocol run: bounds, margins, randomness, key
+    /// figures and the assumptions behind each.
+    Review {
+        /// Protocol file (YAML, see README).
+        protocol: PathBuf,
+        /// Markdown instead of HTML.
+        #[arg(long)]
+        markdown: bool,
+        /// Write the report here instead of stdout.
+        #[arg(long, short, value_name = "FILE")]
+        output: Option<PathBuf>,
+        /// Print exactly one JSON object on stdout instead of the report.
+        #[arg(long)]
+        json: bool,
+    },
+    /// Re-check an NPA dual certificate without any solver and print the bound it proves.
+    Verify {
+        #[command(flatten)]
+        args: GameArgs,
+        /// Certificate written by `bellgap npa --certificate`.
+        certificate: PathBuf,
+    },
+    /// Decide whether given correlations p(answers|questions) have a local model.
+    Local {
+        /// Correlations file (YAML or JSON, see README).
+        correlations: PathBuf,
+        /// Write the separating Bell expression (if any) as a game file here.
+        #[arg(long, value_name = "FILE")]
+        save: Option<PathBuf>,
+        /// Run even when the estimate says it would take very long.
+        #[arg(long, long_help = FORCE_HELP)]
+        force: bool,
+        /// Print exactly one JSON object on stdout.
+        #[arg(long)]
+        json: bool,
+    },
+    /// Print a standard game or Bell expression as a game file.
+    Family {
+        #[command(subcommand)]
+        family: FamilyCommand,
+        /// Print the game as JSON (also a valid game file) instead of YAML.
+        #[arg(long, global = true)]
+        json: bool,
+    },
+}
+
+#[derive(Args, Debug, Clone)]
+pub struct GameArgs {
+    /// Game file (YAML).
+    pub game: PathBuf,
+    /// Print exactly one JSON object on stdout.
+    #[arg(long)]
+    pub json: bool,
+    /// No progress output on stderr.
+    #[arg(long, short)]
+    pub quiet: bool,
+    /// Run even when the size estimate says it would take very long.
+    #[arg(long, long_help = FORCE_HELP)]
+    pub force: bool,
+    /// Build game tables larger than the default memory limit.
+    #[arg(long)]
+    pub allow_large: bool,
+}
+
+#[derive(ValueEnum, Debug, Clone, Copy)]
+pub enum SolverArg {
+    Auto,
+    Ipm,
+    Clarabel,
+}
+
+#[derive(ValueEnum, Debug, Clone, Copy)]
+pub enum MethodArg {
+    Auto,
+    Search,
+    Milp,
+}
+
+#[derive(Subcommand, Debug)]
+pub enum FamilyCommand {
+    /// CHSH game (win iff a xor b = x·y).
+    Chsh,
+    /// CHSH expression in correlators, E00 + E01 + E10 − E11.
+    ChshExpression,
+    /// XOR game from a sign table.
+    Xor {
+        /// Rows separated by `;`, entries -1, 0 or 1 separated by `,` (e.g. "1,1;1,-1").
+        #[arg(long, allow_hyphen_values = true)]
+        signs: String,
+    },
+    /// Odd cycle game on n vertices.
+    OddCycle {
+        #[arg(long, default_value_t = 3)]
+        n: usize,
+    },
+    /// Magic square game.
+    MagicSquare,
+    /// n-player GHZ parity game.
+    Ghz {
+        #[arg(long, default_value_t = 3)]
+        players: usize,
+    },
+    /// CGLMP expression with d outcomes.
+    Cglmp {
+        #[arg(long, default_value_t = 3)]
+        d: usize,
+    },
+    /// I3322 expression (Collins–Gisin form).
+    I3322,
+    /// Chained Bell expression with m settings.
+    Chained {
+        #[arg(long, default_value_t = 3)]
+        m: usize,
+    },
+    /// Mermin's three-player expression.
+    Mermin,
+    /// k-fold parallel repetition of any game file.
+    Product {
+        /// The game to repeat.
+        #[arg(long)]
+        game: PathBuf,
+        /// Number of rounds played in parallel.
+        #[arg(long, default_value_t = 2)]
+        rounds: usize,
+    },
+}
+
+impl Cli {
+    /// Every file the command reads (outputs may not replace them).
+    pub fn inputs(&self) -> Vec<PathBuf> {
+        let mut v = Vec::new();
+        match &self.command {
+            Command::Check(a) | Command::Nosignal(a) => v.push(a.game.clone()),
+            Command::Classical { args, .. }
+            | Command::Bounds { args, .. }
+            | Command::Npa { args, .. }
+            | Command::Seesaw { args, .. }
+            | Command::Margin { args, .. }
+            | Command::Randomness { args, .. } => v.push(args.game.clone()),
+            Command::Evaluate { args, strategy, .. } => {
+                v.push(args.game.clone());
+                v.push(strategy.clone());
+            }
+            Command::Verify { args, certificate } => {
+                v.push(args.game.clone());
+                v.push(certificate.clone());
+            }
+            Command::Review { protocol, .. } => v.push(protocol.clone()),
+            Command::Local { correlations, .. } => v.push(correlations.clone()),
+            Command::Key { .. } => {}
+            Command::Family { family, .. } => {
+                if let FamilyCommand::Product { game, .. } = family {
+                    v.push(game.clone());
+                }
+            }
+        }
+        v
+    }
+
+    /// Whether `--quiet` was given (commands without it are never quiet).
+    pub fn quiet(&self) -> bool {
+        match &self.command {
+            Command::Check(a) | Command::Nosignal(a) => a.quiet,
+            Command::Classical { args, .. }
+            | Command::Bounds { args, .. }
+            | Command::Npa { args, .. }
+            | Command::Seesaw { args, .. }
+            | Command::Evaluate { args, .. }
+            | Command::Verify { args, .. }
+            | Command::Margin { args, .. }
+            | Command::Randomness { args, .. } => args.quiet,
+            Command::Key { quiet, .. } => *quiet,
+            Command::Review { .. } | Command::Local { .. } | Command::Family { .. } => false,
+        }
+    }
+
+    /// Whether `--json` was given.
+    pub fn wants_json(&self) -> bool {
+        match &self.command {
+            Command::Check(a) | Command::Nosignal(a) => a.json,
+            Command::Classical { args, .. }
+            | Command::Bounds { args, .. }
+            | Command::Npa { args, .. }
+            | Command::Seesaw { args, .. }
+            | Command::Evaluate { args, .. }
+            | Command::Verify { args, .. }
+            | Command::Margin { args, .. }
+            | Command::Randomness { args, .. } => args.json,
+            Command::Key { json, .. } | Command::Review { json, .. } => *json,
+            Command::Local { json, .. } | Command::Family { json, .. } => *json,
+        }
+    }
+}
+
+/// A command-line number that must be finite (NaN and ±inf are refused at the edge).
+pub fn parse_finite(text: &str) -> std::result::Result<f64, String> {
+    let v: f64 = text
+        .trim()
+        .parse()
+        .map_err(|_| format!("`{text}` is not a number"))?;
+    if v.is_finite() {
+        Ok(v)
+    } else {
+        Err(format!("`{text}` is not a finite number"))
+    }
+}

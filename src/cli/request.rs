@@ -1,0 +1,723 @@
+//! The one place where what the user typed becomes a typed request: option strings are parsed
+//! (levels, sweeps, score ranges), defaults are applied, and every option lands in the library's
+//! options structs. Each conversion has a unit test below.
+
+use std::path::PathBuf;
+
+use bellgap::bounds::classical::{Choice, ClassicalOptions};
+use bellgap::bounds::quantum::npa::Level;
+use bellgap::bounds::quantum::seesaw::SeesawOptions;
+use bellgap::formats::game::families::{self, Family};
+use bellgap::formats::game::CompileOptions;
+use bellgap::limits::Limits;
+use bellgap::optim::backend::Backend;
+use bellgap::pipeline::{
+    BoundsOptions, EvaluateOptions, MarginOptions, NpaLevelsOptions, RandomnessOptions,
+    TargetChoice,
+};
+use bellgap::protocol::finite::ObservedRun;
+use bellgap::{Error, Result};
+
+use super::args::{Cli, Command, FamilyCommand, GameArgs, MethodArg, SolverArg};
+
+/// A game file and how to compile it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct GameInput {
+    /// The file.
+    pub path: PathBuf,
+    /// Table size limit.
+    pub compile: CompileOptions,
+}
+
+/// Local dimensions of the see-saw, as given.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum DimsChoice {
+    /// The default for the game's answer counts.
+    Default,
+    /// The same dimension for every player.
+    Each(usize),
+    /// One dimension per player.
+    List(Vec<usize>),
+}
+
+impl DimsChoice {
+    /// The dimensions for a game with `players` players (empty: the see-saw's default).
+    pub fn resolve(&self, players: usize) -> Vec<usize> {
+        match self {
+            DimsChoice::Default => Vec::new(),
+            DimsChoice::Each(d) => vec![*d; players],
+            DimsChoice::List(ds) => ds.clone(),
+        }
+    }
+}
+
+/// Which document `review` writes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum DocumentFormat {
+    /// One self-contained HTML page.
+    Html,
+    /// Markdown with the plot embedded.
+    Markdown,
+}
+
+/// Which family `family` prints.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum FamilyChoice {
+    /// A standard family member.
+    Standard(Family),
+    /// The parallel repetition of a game file.
+    Product {
+        /// The game repeated.
+        game: PathBuf,
+        /// Rounds played in parallel.
+        rounds: usize,
+    },
+}
+
+/// A command with every option converted.
+#[derive(Debug, Clone)]
+pub enum Request {
+    /// `check`.
+    Check { game: GameInput },
+    /// `classical`.
+    Classical {
+        game: GameInput,
+        options: ClassicalOptions,
+    },
+    /// `nosignal`.
+    Nosignal { game: GameInput, limits: Limits },
+    /// `bounds`.
+    Bounds {
+        game: GameInput,
+        options: BoundsOptions,
+    },
+    /// `npa`.
+    Npa {
+        game: GameInput,
+        options: NpaLevelsOptions,
+        certificate: Option<PathBuf>,
+        svg: Option<PathBuf>,
+    },
+    /// `seesaw`.
+    Seesaw {
+        game: GameInput,
+        dims: DimsChoice,
+        options: SeesawOptions,
+        save: Option<PathBuf>,
+        svg: Option<PathBuf>,
+    },
+    /// `evaluate`.
+    Evaluate {
+        game: GameInput,
+        strategy: PathBuf,
+        options: EvaluateOptions,
+        svg: Option<PathBuf>,
+    },
+    /// `margin`.
+    Margin {
+        game: GameInput,
+        run: ObservedRun,
+        options: MarginOptions,
+    },
+    /// `randomness`.
+    Randomness {
+        game: GameInput,
+        options: RandomnessOptions,
+        svg: Option<PathBuf>,
+    },
+    /// `key`.
+    Key { chsh: f64, qber: f64 },
+    /// `review`.
+    Review {
+        protocol: PathBuf,
+        format: DocumentFormat,
+        output: Option<PathBuf>,
+    },
+    /// `verify`.
+    Verify {
+        game: GameInput,
+        certificate: PathBuf,
+        limits: Limits,
+    },
+    /// `local`.
+    Local {
+        correlations: PathBuf,
+        save: Option<PathBuf>,
+        limits: Limits,
+    },
+    /// `family`.
+    Family { family: FamilyChoice },
+}
+
+/// A request with how its result is presented.
+#[derive(Debug, Clone)]
+pub struct Invocation {
+    /// What to do.
+    pub request: Request,
+    /// One JSON object on stdout instead of text.
+    pub json: bool,
+    /// No warnings or progress on stderr.
+    pub quiet: bool,
+    /// Every file the command reads (outputs may not replace them).
+    pub inputs: Vec<PathBuf>,
+}
+
+fn game_input(args: &GameArgs) -> GameInput {
+    GameInput {
+        path: args.game.clone(),
+        compile: CompileOptions {
+            allow_large: args.allow_large,
+        },
+    }
+}
+
+fn limits(force: bool) -> Limits {
+    Limits { force }
+}
+
+/// `--solver`.
+pub fn backend(solver: SolverArg) -> Backend {
+    match solver {
+        SolverArg::Auto => Backend::Auto,
+        SolverArg::Ipm => Backend::MomentIpm,
+        SolverArg::Clarabel => Backend::Clarabel,
+    }
+}
+
+/// `--method`.
+pub fn method(m: MethodArg) -> Choice {
+    match m {
+        MethodArg::Auto => Choice::Auto,
+        MethodArg::Search => Choice::Search,
+        MethodArg::Milp => Choice::Milp,
+    }
+}
+
+/// `npa --level "1;1+joint;2"`: levels separated by `;`.
+pub fn levels(text: &str) -> Result<Vec<Level>> {
+    let levels = text
+        .split(';')
+        .filter(|l| !l.trim().is_empty())
+        .map(Level::parse)
+        .collect::<Result<Vec<_>>>()?;
+    if levels.is_empty() {
+        return Err(Error::Usage("no NPA level given".into()));
+    }
+    Ok(levels)
+}
+
+/// `--sweep LOW:HIGH:POINTS` → evenly spaced scores (2 to 1000 points, LOW < HIGH, finite).
+pub fn sweep(spec: &str) -> Result<Vec<f64>> {
+    let parts: Vec<&str> = spec.split(':').collect();
+    let bad = || Error::Usage(format!("--sweep expects LOW:HIGH:POINTS, got `{spec}`"));
+    if parts.len() != 3 {
+        return Err(bad());
+    }
+    let lo: f64 = parts[0].trim().parse().map_err(|_| bad())?;
+    let hi: f64 = parts[1].trim().parse().map_err(|_| bad())?;
+    let n: usize = parts[2].trim().parse().map_err(|_| bad())?;
+    if !(2..=1000).contains(&n) || !lo.is_finite() || !hi.is_finite() || hi <= lo {
+        return Err(bad());
+    }
+    Ok((0..n)
+        .map(|k| lo + (hi - lo) * k as f64 / (n - 1) as f64)
+        .collect())
+}
+
+/// `--score-range LO,HI`.
+pub fn score_range(values: Option<&Vec<f64>>) -> Result<Option<(f64, f64)>> {
+    match values.map(|v| &v[..]) {
+        None => Ok(None),
+        Some([lo, hi]) => Ok(Some((*lo, *hi))),
+        Some(v) => Err(Error::Usage(format!(
+            "--score-range takes two numbers, LO,HI; got {}",
+            v.len()
+        ))),
+    }
+}
+
+/// `--dim` / `--dims`.
+pub fn dims(dim: Option<usize>, dims: Option<&Vec<usize>>) -> DimsChoice {
+    match (dim, dims) {
+        (Some(d), _) => DimsChoice::Each(d),
+        (None, Some(ds)) => DimsChoice::List(ds.clone()),
+        (None, None) => DimsChoice::Default,
+    }
+}
+
+/// `family ...`.
+pub fn family(f: &FamilyCommand) -> Result<FamilyChoice> {
+    Ok(FamilyChoice::Standard(match f {
+        FamilyCommand::Chsh => Family::Chsh,
+        FamilyCommand::ChshExpression => Family::ChshExpression,
+        FamilyCommand::Xor { signs } => Family::Xor {
+            signs: families::parse_sign_table(signs)?,
+        },
+        FamilyCommand::OddCycle { n } => Family::OddCycle { n: *n },
+        FamilyCommand::MagicSquare => Family::MagicSquare,
+        FamilyCommand::Ghz { players } => Family::Ghz { players: *players },
+        FamilyCommand::Cglmp { d } => Family::Cglmp { d: *d },
+        FamilyCommand::I3322 => Family::I3322,
+        FamilyCommand::Chained { m } => Family::Chained { m: *m },
+        FamilyCommand::Mermin => Family::Mermin,
+        FamilyCommand::Product { game, rounds } => {
+            return Ok(FamilyChoice::Product {
+                game: game.clone(),
+                rounds: *rounds,
+            })
+        }
+    }))
+}
+
+impl Invocation {
+    /// Converts what was typed into a request.
+    pub fn from_cli(cli: &Cli) -> Result<Invocation> {
+        let request = match &cli.command {
+            Command::Check(a) => Request::Check {
+                game: game_input(a),
+            },
+            Command::Classical { args, method: m } => Request::Classical {
+                game: game_input(args),
+                options: ClassicalOptions {
+                    method: method(*m),
+                    limits: limits(args.force),
+                },
+            },
+            Command::Nosignal(a) => Request::Nosignal {
+                game: game_input(a),
+                limits: limits(a.force),
+            },
+            Command::Bounds {
+                args,
+                level,
+                solver,
+            } => Request::Bounds {
+                game: game_input(args),
+                options: BoundsOptions {
+                    npa_level: level.as_deref().map(Level::parse).transpose()?,
+                    backend: backend(*solver),
+                    limits: limits(args.force),
+                    ..Default::default()
+                },
+            },
+            Command::Npa {
+                args,
+                level,
+                certificate,
+                svg,
+                solver,
+            } => Request::Npa {
+                game: game_input(args),
+                options: NpaLevelsOptions {
+                    levels: levels(level)?,
+                    backend: backend(*solver),
+                    limits: limits(args.force),
+                },
+                certificate: certificate.clone(),
+                svg: svg.clone(),
+            },
+            Command::Seesaw {
+                args,
+                dim,
+                dims: ds,
+                restarts,
+                seed,
+                save,
+                svg,
+            } => Request::Seesaw {
+                game: game_input(args),
+                dims: dims(*dim, ds.as_ref()),
+                options: SeesawOptions {
+                    restarts: *restarts,
+                    seed: *seed,
+                    limits: limits(args.force),
+                    ..Default::default()
+                },
+                save: save.clone(),
+                svg: svg.clone(),
+            },
+            Command::Evaluate {
+                args,
+                strategy,
+                svg,
+                no_classical,
+            } => Request::Evaluate {
+                game: game_input(args),
+                strategy: strategy.clone(),
+                options: EvaluateOptions {
+                    skip_classical: *no_classical,
+                    limits: limits(args.force),
+                },
+                svg: svg.clone(),
+            },
+            Command::Margin {
+                args,
+                rounds,
+                wins,
+                score_sum,
+                score_range: range,
+                alpha,
+                target_p_value,
+                expected,
+            } => Request::Margin {
+                game: game_input(args),
+                run: ObservedRun {
+                    rounds: *rounds,
+                    wins: *wins,
+                    score_sum: *score_sum,
+                    score_range: score_range(range.as_ref())?,
+                },
+                options: MarginOptions {
+                    alpha: *alpha,
+                    target_p_value: *target_p_value,
+                    expected: *expected,
+                    classical: ClassicalOptions {
+                        limits: limits(args.force),
+                        ..Default::default()
+                    },
+                },
+            },
+            Command::Randomness {
+                args,
+                score,
+                sweep: spec,
+                player,
+                question,
+                with_player,
+                with_question,
+                level,
+                svg,
+            } => Request::Randomness {
+                game: game_input(args),
+                options: RandomnessOptions {
+                    guessed: TargetChoice {
+                        player: player.clone(),
+                        question: *question,
+                    },
+                    with: with_player.as_ref().map(|p| TargetChoice {
+                        player: Some(p.clone()),
+                        question: *with_question,
+                    }),
+                    scores: match (score, spec) {
+                        (_, Some(spec)) => sweep(spec)?,
+                        (Some(v), None) => vec![*v],
+                        (None, None) => return Err(Error::Usage("give --score or --sweep".into())),
+                    },
+                    level: Level::parse(level)?,
+                },
+                svg: svg.clone(),
+            },
+            Command::Key { chsh, qber, .. } => Request::Key {
+                chsh: *chsh,
+                qber: *qber,
+            },
+            Command::Review {
+                protocol,
+                markdown,
+                output,
+                ..
+            } => Request::Review {
+                protocol: protocol.clone(),
+                format: if *markdown {
+                    DocumentFormat::Markdown
+                } else {
+                    DocumentFormat::Html
+                },
+                output: output.clone(),
+            },
+            Command::Verify { args, certificate } => Request::Verify {
+                game: game_input(args),
+                certificate: certificate.clone(),
+                limits: limits(args.force),
+            },
+            Command::Local {
+                correlations,
+                save,
+                force,
+                ..
+            } => Request::Local {
+                correlations: correlations.clone(),
+                save: save.clone(),
+                limits: limits(*force),
+            },
+            Command::Family { family: f, .. } => Request::Family { family: family(f)? },
+        };
+        Ok(Invocation {
+            request,
+            json: cli.wants_json(),
+            quiet: cli.quiet(),
+            inputs: cli.inputs(),
+        })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use clap::Parser;
+
+    fn request(args: &[&str]) -> Result<Request> {
+        let cli = Cli::try_parse_from(std::iter::once("bellgap").chain(args.iter().copied()))
+            .map_err(|e| Error::Usage(e.to_string()))?;
+        Invocation::from_cli(&cli).map(|i| i.request)
+    }
+
+    #[test]
+    fn npa_levels_split_on_semicolons_and_keep_their_order() {
+        let Request::Npa { options, .. } =
+            request(&["npa", "g.yaml", "--level", "1; 1+joint ;2;"]).unwrap()
+        else {
+            panic!("not an npa request")
+        };
+        assert_eq!(
+            options.levels,
+            vec![Level::Length(1), Level::Joint, Level::Length(2)]
+        );
+        assert_eq!(options.backend, Backend::Auto);
+        assert!(!options.limits.force);
+        assert!(matches!(
+            request(&["npa", "g.yaml", "--level", " ; "]),
+            Err(Error::Usage(_))
+        ));
+        assert!(matches!(
+            request(&["npa", "g.yaml", "--level", "1;x"]),
+            Err(Error::InvalidArgument(_))
+        ));
+    }
+
+    #[test]
+    fn npa_level_patterns_are_player_letters() {
+        let Request::Npa { options, .. } =
+            request(&["npa", "g.yaml", "--level", "1 A B AB"]).unwrap()
+        else {
+            panic!()
+        };
+        assert_eq!(
+            options.levels,
+            vec![Level::Patterns(vec![vec![], vec![0], vec![1], vec![0, 1]])]
+        );
+    }
+
+    #[test]
+    fn solver_names_map_to_backends() {
+        assert_eq!(backend(SolverArg::Ipm), Backend::MomentIpm);
+        assert_eq!(backend(SolverArg::Clarabel), Backend::Clarabel);
+        assert_eq!(backend(SolverArg::Auto), Backend::Auto);
+        let Request::Bounds { options, .. } =
+            request(&["bounds", "g.yaml", "--solver", "clarabel", "--level", "2"]).unwrap()
+        else {
+            panic!()
+        };
+        assert_eq!(options.backend, Backend::Clarabel);
+        assert_eq!(options.npa_level, Some(Level::Length(2)));
+        let Request::Bounds { options, .. } = request(&["bounds", "g.yaml"]).unwrap() else {
+            panic!()
+        };
+        assert_eq!(options.npa_level, None, "default level is chosen by size");
+    }
+
+    #[test]
+    fn force_and_allow_large_reach_the_options() {
+        let Request::Classical { game, options } = request(&[
+            "classical",
+            "g.yaml",
+            "--force",
+            "--allow-large",
+            "--method",
+            "milp",
+        ])
+        .unwrap() else {
+            panic!()
+        };
+        assert!(options.limits.force);
+        assert_eq!(options.method, Choice::Milp);
+        assert!(game.compile.allow_large);
+        let Request::Local { limits, .. } = request(&["local", "c.yaml", "--force"]).unwrap()
+        else {
+            panic!()
+        };
+        assert!(limits.force);
+        let Request::Nosignal { limits, .. } = request(&["nosignal", "g.yaml"]).unwrap() else {
+            panic!()
+        };
+        assert!(!limits.force);
+    }
+
+    #[test]
+    fn seesaw_dimensions_and_restarts() {
+        let Request::Seesaw {
+            dims: d, options, ..
+        } = request(&[
+            "seesaw",
+            "g.yaml",
+            "--dim",
+            "3",
+            "--restarts",
+            "4",
+            "--seed",
+            "9",
+        ])
+        .unwrap()
+        else {
+            panic!()
+        };
+        assert_eq!(d, DimsChoice::Each(3));
+        assert_eq!(d.resolve(3), vec![3, 3, 3]);
+        assert_eq!((options.restarts, options.seed), (4, 9));
+        let Request::Seesaw {
+            dims: d, options, ..
+        } = request(&["seesaw", "g.yaml", "--dims", "2,4"]).unwrap()
+        else {
+            panic!()
+        };
+        assert_eq!(d.resolve(2), vec![2, 4]);
+        assert_eq!(options.restarts, 10, "the command's default");
+        assert_eq!(dims(None, None).resolve(2), Vec::<usize>::new());
+        assert!(request(&["seesaw", "g.yaml", "--dim", "2", "--dims", "2,2"]).is_err());
+    }
+
+    #[test]
+    fn margin_run_and_score_range() {
+        let Request::Margin { run, options, .. } = request(&[
+            "margin",
+            "g.yaml",
+            "--rounds",
+            "100",
+            "--score-sum",
+            "-3.5",
+            "--score-range",
+            "-4,4",
+            "--alpha",
+            "1e-3",
+        ])
+        .unwrap() else {
+            panic!()
+        };
+        assert_eq!(run.rounds, 100);
+        assert_eq!(run.score_sum, Some(-3.5));
+        assert_eq!(run.score_range, Some((-4.0, 4.0)));
+        assert_eq!(options.alpha, 1e-3);
+        assert_eq!(options.target_p_value, 1e-9);
+        assert!(matches!(
+            request(&[
+                "margin",
+                "g.yaml",
+                "--rounds",
+                "1",
+                "--score-sum",
+                "1",
+                "--score-range",
+                "1,2,3"
+            ]),
+            Err(Error::Usage(_))
+        ));
+        assert!(
+            request(&["margin", "g.yaml", "--rounds", "1", "--wins", "1", "--alpha", "nan"])
+                .is_err()
+        );
+        assert!(request(&[
+            "margin",
+            "g.yaml",
+            "--rounds",
+            "1",
+            "--wins",
+            "1",
+            "--score-sum",
+            "1"
+        ])
+        .is_err());
+    }
+
+    #[test]
+    fn randomness_scores_targets_and_sweeps() {
+        let Request::Randomness { options, .. } = request(&[
+            "randomness",
+            "g.yaml",
+            "--sweep",
+            "0.75:0.85:3",
+            "--player",
+            "alice",
+            "--question",
+            "-1",
+            "--with",
+            "bob",
+        ])
+        .unwrap() else {
+            panic!()
+        };
+        assert_eq!(options.scores.len(), 3);
+        assert!((options.scores[1] - 0.8).abs() < 1e-15);
+        assert_eq!(options.guessed.player.as_deref(), Some("alice"));
+        assert_eq!(options.guessed.question, Some(-1));
+        assert_eq!(options.with.as_ref().unwrap().question, None);
+        assert_eq!(options.level, Level::Length(2));
+        let Request::Randomness { options, .. } = request(&[
+            "randomness",
+            "g.yaml",
+            "--score",
+            "0.8",
+            "--level",
+            "1+joint",
+        ])
+        .unwrap() else {
+            panic!()
+        };
+        assert_eq!(options.scores, vec![0.8]);
+        assert_eq!(options.level, Level::Joint);
+        assert!(options.with.is_none());
+        for bad in ["1:0:3", "0:1:1", "0:1", "nan:1:3", "0:inf:3", "0:1:1001"] {
+            assert!(matches!(sweep(bad), Err(Error::Usage(_))), "{bad}");
+        }
+    }
+
+    #[test]
+    fn review_format_and_family_parameters() {
+        let Request::Review { format, output, .. } =
+            request(&["review", "p.yaml", "--markdown", "-o", "r.md"]).unwrap()
+        else {
+            panic!()
+        };
+        assert_eq!(format, DocumentFormat::Markdown);
+        assert_eq!(output, Some(PathBuf::from("r.md")));
+        let Request::Family { family: f } =
+            request(&["family", "xor", "--signs", "1,1;1,-1"]).unwrap()
+        else {
+            panic!()
+        };
+        assert_eq!(
+            f,
+            FamilyChoice::Standard(Family::Xor {
+                signs: vec![vec![1, 1], vec![1, -1]]
+            })
+        );
+        let Request::Family { family: f } =
+            request(&["family", "product", "--game", "g.yaml", "--rounds", "3"]).unwrap()
+        else {
+            panic!()
+        };
+        assert_eq!(
+            f,
+            FamilyChoice::Product {
+                game: PathBuf::from("g.yaml"),
+                rounds: 3
+            }
+        );
+    }
+
+    #[test]
+    fn presentation_flags_and_inputs() {
+        let cli = Cli::try_parse_from(["bellgap", "evaluate", "g.yaml", "s.yaml", "--json", "-q"])
+            .unwrap();
+        let inv = Invocation::from_cli(&cli).unwrap();
+        assert!(inv.json && inv.quiet);
+        assert_eq!(
+            inv.inputs,
+            vec![PathBuf::from("g.yaml"), PathBuf::from("s.yaml")]
+        );
+        let cli =
+            Cli::try_parse_from(["bellgap", "key", "--chsh", "2.5", "--qber", "0.01"]).unwrap();
+        let inv = Invocation::from_cli(&cli).unwrap();
+        assert!(!inv.json && inv.inputs.is_empty());
+        assert!(matches!(inv.request, Request::Key { chsh, qber } if chsh == 2.5 && qber == 0.01));
+    }
+}

@@ -1,0 +1,89 @@
+//! How numbers are written for people: ten significant digits without trailing zeros, exact
+//! fractions where a value is one, counts too large for integers, bits. Used by every text
+//! renderer and by the notes the library writes.
+
+/// A value with ten significant digits.
+pub fn num(x: f64) -> String {
+    if x == 0.0 {
+        return "0".into();
+    }
+    if !x.is_finite() {
+        return format!("{x}");
+    }
+    let s = format!("{:.10}", x);
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    if s == "-0" {
+        "0".into()
+    } else {
+        s.to_string()
+    }
+}
+
+/// The value, plus `= p/q` when it is within 1e-12 of a fraction with a small denominator
+/// (exact values of games with rational probabilities are such fractions).
+pub fn with_fraction(x: f64) -> String {
+    match rational_hint(x) {
+        Some((p, q)) if q > 1 => format!("{}  (= {p}/{q})", num(x)),
+        _ => num(x),
+    }
+}
+
+pub fn rational_hint(x: f64) -> Option<(i64, i64)> {
+    if !x.is_finite() || x.abs() > 1e6 {
+        return None;
+    }
+    (1..=1000i64).find_map(|q| {
+        let p = (x * q as f64).round();
+        ((x - p / q as f64).abs() < 1e-12).then_some((p as i64, q))
+    })
+}
+
+/// A number with `digits` significant digits, trailing zeros dropped.
+pub fn num_sig(x: f64, digits: usize) -> String {
+    if x == 0.0 || !x.is_finite() {
+        return num(x);
+    }
+    let magnitude = x.abs().log10().floor() as i64;
+    let decimals = (digits as i64 - 1 - magnitude).max(0) as usize;
+    let s = format!("{x:.decimals$}");
+    let s = if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    };
+    if s == "-0" {
+        "0".into()
+    } else {
+        s
+    }
+}
+
+/// A count that may be astronomically large: exact up to 10^15, then `m×10^e`.
+pub fn count_text(x: f64) -> String {
+    if x < 1e15 {
+        format!("{}", x.round() as u64)
+    } else {
+        let e = x.log10().floor();
+        format!("{}×10^{}", num_sig(x / 10f64.powf(e), 4), e as i64)
+    }
+}
+
+/// `1 bit`, `0.5 bits`.
+pub fn bits_text(x: f64) -> String {
+    let n = num(x);
+    if n == "1" {
+        "1 bit".into()
+    } else {
+        format!("{n} bits")
+    }
+}
+
+/// Fixed six decimals, with a negative zero shown as 0.
+pub fn fixed6(x: f64) -> String {
+    let s = format!("{x:.6}");
+    if s == "-0.000000" {
+        "0.000000".into()
+    } else {
+        s
+    }
+}

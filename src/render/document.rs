@@ -1,0 +1,317 @@
+//! The review document: one self-contained report (HTML, or Markdown with the plot embedded)
+//! of a [`Review`], every bound, margin, randomness and key figure side by side with the
+//! assumptions behind each. Everything that comes from a file is escaped.
+
+use std::fmt::Write;
+
+use super::charts::{line_chart, Series};
+use super::text::p_value_text;
+use crate::numbers::{bits_text, num};
+use crate::pipeline::Review;
+
+/// The headline: whether the run certifies a score above every classical strategy.
+pub fn verdict(r: &Review) -> String {
+    let m = &r.margin;
+    let confidence = format!("{}", 1.0 - m.alpha);
+    if m.margin > 0.0 {
+        format!(
+            "Nonlocal at confidence {confidence}: the lower confidence bound {} exceeds the classical value {} by {} (i.i.d. rounds); classical devices, even adaptive ones, score this much with probability at most {}.",
+            num(m.lower_confidence),
+            num(m.classical),
+            num(m.margin),
+            p_value_text(m)
+        )
+    } else {
+        format!(
+            "Not certified at confidence {confidence}: the lower confidence bound {} does not exceed the classical value {} (margin {}); classical devices score this much with probability up to {}.",
+            num(m.lower_confidence),
+            num(m.classical),
+            num(m.margin),
+            p_value_text(m)
+        )
+    }
+}
+
+fn provenance(r: &Review) -> String {
+    if r.command_line.is_empty() {
+        format!("Made by {}.", r.generated)
+    } else {
+        format!(
+            "Made by {} with the command: {}",
+            r.generated, r.command_line
+        )
+    }
+}
+
+fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
+    let m = &r.margin;
+    let b = &r.bounds;
+    let mut bounds = vec![("classical value".to_string(), num(r.classical))];
+    if let Some(sw) = &b.seesaw {
+        bounds.push((
+            "quantum lower bound (see-saw)".into(),
+            format!(
+                "{} (dims {:?}, seed {})",
+                num(sw.quantum_lower),
+                sw.dims,
+                sw.seed
+            ),
+        ));
+    }
+    if let Some(n) = &b.npa {
+        bounds.push((
+            "quantum upper bound (NPA, verified)".into(),
+            format!(
+                "{} (level {}, {})",
+                num(n.verified_upper),
+                n.level,
+                n.status
+            ),
+        ));
+    }
+    if let Some(ns) = &b.no_signalling {
+        bounds.push(("no-signalling value".into(), num(ns.value)));
+    }
+    // The bounds were reconciled (classical ≤ lower ≤ upper ≤ no-signalling), so both ends of
+    // the gap are honest as they stand.
+    let lower = b.seesaw.as_ref().map_or(r.classical, |sw| sw.quantum_lower);
+    let upper = match (&b.npa, &b.no_signalling) {
+        (Some(n), Some(ns)) => Some(n.verified_upper.min(ns.value)),
+        (Some(n), None) => Some(n.verified_upper),
+        (None, Some(ns)) => Some(ns.value),
+        (None, None) => None,
+    };
+    if let Some(upper) = upper {
+        bounds.push((
+            "quantum − classical".into(),
+            format!(
+                "between {} and {}",
+                num(lower - r.classical),
+                num(upper - r.classical)
+            ),
+        ));
+    }
+    for f in &b.not_obtained {
+        bounds.push(("not obtained".into(), f.clone()));
+    }
+    for n in &b.notes {
+        bounds.push(("note".into(), n.clone()));
+    }
+    let mut out = vec![("Bounds".to_string(), bounds)];
+    let mut stats = vec![
+        ("rounds".into(), m.rounds.to_string()),
+        ("observed mean score".into(), num(m.observed_mean)),
+        (
+            format!("lower confidence bound (Hoeffding, α = {:e})", m.alpha),
+            num(m.lower_confidence),
+        ),
+    ];
+    if let Some(e) = m.lower_confidence_exact {
+        stats.push((
+            format!(
+                "lower confidence bound (Clopper–Pearson, α = {:e})",
+                m.alpha
+            ),
+            num(e),
+        ));
+    }
+    stats.push(("margin over the classical value".into(), num(m.margin)));
+    stats.push((
+        format!("p-value of \"classical devices\" ({})", m.p_value_bound),
+        p_value_text(m),
+    ));
+    stats.push((
+        format!(
+            "rounds needed for p ≤ {:e} at the see-saw score",
+            m.target_p_value
+        ),
+        m.rounds_needed
+            .map(|n| n.to_string())
+            .unwrap_or_else(|| "never (no advantage)".into()),
+    ));
+    out.push(("Finite statistics".into(), stats));
+    if let Some(rr) = &r.randomness {
+        let (who, r) = (&rr.target, &rr.at_lower_confidence);
+        out.push((
+            "Certified randomness".into(),
+            vec![
+                ("guessed answer".into(), who.clone()),
+                (
+                    "at score (lower confidence bound)".into(),
+                    if (r.score_used - r.score).abs() > 0.0 {
+                        format!(
+                            "{} (solved at {}, a weaker constraint)",
+                            num(r.score),
+                            num(r.score_used)
+                        )
+                    } else {
+                        num(r.score)
+                    },
+                ),
+                ("guessing probability ≤".into(), num(r.guessing_probability)),
+                ("min-entropy per round ≥".into(), bits_text(r.min_entropy)),
+                ("NPA level".into(), r.level.name()),
+            ],
+        ));
+    }
+    if let Some(rk) = &r.key {
+        let (sv, k, threshold) = (&rk.chsh_value, &rk.figures, &rk.threshold_qber);
+        out.push((
+            "Key figures (CHSH-based DIQKD)".into(),
+            vec![
+                ("CHSH value at the lower confidence bound".into(), num(*sv)),
+                (
+                    "H(A|E) ≥".into(),
+                    format!("{} ({})", bits_text(k.conditional_entropy), k.bound),
+                ),
+                ("QBER".into(), num(k.qber)),
+                (
+                    "asymptotic key rate ≥".into(),
+                    format!("{} per round", bits_text(k.key_rate)),
+                ),
+                (
+                    "threshold QBER (depolarising noise)".into(),
+                    num(*threshold),
+                ),
+            ],
+        ));
+    }
+    out
+}
+
+fn plot(r: &Review) -> Option<String> {
+    let rr = r.randomness.as_ref()?;
+    let (who, sweep) = (&rr.target, &rr.sweep);
+    if sweep.len() < 2 {
+        return None;
+    }
+    Some(line_chart(
+        &format!("Certified min-entropy of {who}"),
+        "score",
+        "min-entropy per round (bits)",
+        &[Series {
+            name: "min-entropy".into(),
+            points: sweep.iter().map(|r| (r.score, r.min_entropy)).collect(),
+        }],
+    ))
+}
+
+/// The review as one self-contained HTML page (every text escaped).
+pub fn html(r: &Review) -> String {
+    let mut h = String::new();
+    let _ = write!(h, "<!DOCTYPE html>\n<html><head><meta charset=\"utf-8\"><title>Review: {0}</title><style>body{{font-family:sans-serif;max-width:60em;margin:2em auto}}table{{border-collapse:collapse}}td{{border:1px solid #ccc;padding:.3em .6em}}</style></head><body>\n<h1>Review: {0}</h1>\n<p><strong>{3}</strong></p>\n<p>Game: {1} ({2})</p>\n<p>{4}</p>\n", esc(&r.name), esc(&r.bounds.game.name), esc(&r.bounds.game.source), esc(&verdict(r)), esc(&provenance(r)));
+    for (title, rows) in tables(r) {
+        let _ = write!(h, "<h2>{}</h2>\n<table>\n", esc(&title));
+        for (k, v) in rows {
+            let _ = writeln!(h, "<tr><td>{}</td><td>{}</td></tr>", esc(&k), esc(&v));
+        }
+        h.push_str("</table>\n");
+    }
+    if let Some(svg) = plot(r) {
+        h.push_str("<h2>Min-entropy against score</h2>\n");
+        h.push_str(&svg);
+    }
+    h.push_str("<h2>Assumptions and cautions</h2>\n<ul>\n");
+    for a in r.assumptions() {
+        let _ = writeln!(h, "<li>{}</li>", esc(&a));
+    }
+    h.push_str("</ul>\n</body></html>\n");
+    h
+}
+
+/// The review as Markdown with the plot embedded as a data URI (every text escaped).
+pub fn markdown(r: &Review) -> String {
+    let mut md = format!(
+        "# Review: {}\n\n**{}**\n\nGame: {} ({})\n\n{}\n",
+        md_escape(&r.name),
+        md_escape(&verdict(r)),
+        md_escape(&r.bounds.game.name),
+        md_escape(&r.bounds.game.source),
+        md_escape(&provenance(r))
+    );
+    for (title, rows) in tables(r) {
+        let _ = write!(md, "\n## {}\n\n| | |\n|---|---|\n", md_escape(&title));
+        for (k, v) in rows {
+            let _ = writeln!(md, "| {} | {} |", md_escape(&k), md_escape(&v));
+        }
+    }
+    if let Some(svg) = plot(r) {
+        let _ = write!(
+            md,
+            "\n## Min-entropy against score\n\n![min-entropy](data:image/svg+xml;base64,{})\n",
+            base64(svg.as_bytes())
+        );
+    }
+    md.push_str("\n## Assumptions and cautions\n\n");
+    for a in r.assumptions() {
+        let _ = writeln!(md, "- {}", md_escape(&a));
+    }
+    md
+}
+
+/// Text for a Markdown document, inert whatever it contains: HTML is escaped (Markdown
+/// renderers pass raw HTML through, so `<script>` would run), Markdown's own punctuation is
+/// backslash-escaped (no links, images, emphasis or table breaks), and line breaks and other
+/// control characters become spaces (no new headings or rows).
+pub fn md_escape(s: &str) -> String {
+    let mut out = String::with_capacity(s.len());
+    for c in s.chars() {
+        match c {
+            '&' => out.push_str("&amp;"),
+            '<' => out.push_str("&lt;"),
+            '>' => out.push_str("&gt;"),
+            '"' => out.push_str("&quot;"),
+            '\\' | '`' | '*' | '_' | '{' | '}' | '[' | ']' | '(' | ')' | '#' | '+' | '!' | '|'
+            | '~' => {
+                out.push('\\');
+                out.push(c);
+            }
+            c if c.is_control() => out.push(' '),
+            c => out.push(c),
+        }
+    }
+    out
+}
+
+fn esc(s: &str) -> String {
+    s.replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;")
+}
+
+fn base64(bytes: &[u8]) -> String {
+    const T: &[u8; 64] = b"ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/";
+    let mut out = String::with_capacity(bytes.len().div_ceil(3) * 4);
+    for chunk in bytes.chunks(3) {
+        let b = [
+            chunk[0],
+            *chunk.get(1).unwrap_or(&0),
+            *chunk.get(2).unwrap_or(&0),
+        ];
+        let n = (b[0] as u32) << 16 | (b[1] as u32) << 8 | b[2] as u32;
+        out.push(T[(n >> 18) as usize & 63] as char);
+        out.push(T[(n >> 12) as usize & 63] as char);
+        out.push(if chunk.len() > 1 {
+            T[(n >> 6) as usize & 63] as char
+        } else {
+            '='
+        });
+        out.push(if chunk.len() > 2 {
+            T[n as usize & 63] as char
+        } else {
+            '='
+        });
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    #[test]
+    fn base64_matches_the_standard_examples() {
+        // RFC 4648 test vectors.
+        assert_eq!(super::base64(b"foobar"), "Zm9vYmFy");
+        assert_eq!(super::base64(b"fooba"), "Zm9vYmE=");
+        assert_eq!(super::base64(b"foob"), "Zm9vYg==");
+    }
+}

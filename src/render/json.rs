@@ -1,0 +1,514 @@
+//! JSON output: exactly one object per command, each with `schema_version` and `command`. The
+//! keys are a contract (CHANGELOG.md lists them): within a schema version keys are only ever
+//! added, never renamed or removed. Each report is serialised through a derived view struct that
+//! reads the same report the text renderer reads.
+
+use serde::{Serialize, Serializer};
+use serde_json::Value;
+
+use crate::bounds::classical::locality::{NoSignallingProjection, SeparatingExpression};
+use crate::bounds::classical::{
+    ClassicalEstimate, ClassicalStatus, DeterministicStrategy, Method as ClassicalMethod,
+};
+use crate::bounds::quantum::analysis::{Bipartition, Robustness};
+use crate::bounds::quantum::npa::{Level, NpaBound};
+use crate::model::scenario::{Scenario, ScoreKind, Sizes};
+use crate::optim::backend::Backend;
+use crate::optim::lp::LpMethod;
+use crate::optim::SolveStatus;
+use crate::pipeline::{
+    CommandKind, GameReport, Gaps, KeyReport, LocalReport, MarginReport, RandomnessReport, Review,
+    VerifyReport,
+};
+use crate::protocol::finite::Margin;
+use crate::protocol::key::KeyRate;
+use crate::protocol::randomness::Randomness;
+use crate::protocol::CAUTION;
+
+/// Version of the JSON schema; raised when a key is renamed or removed.
+pub const SCHEMA_VERSION: u32 = 1;
+
+/// Any report as a JSON value.
+pub fn to_value<T: Serialize>(report: &T) -> Value {
+    serde_json::to_value(report).unwrap_or_else(|e| {
+        serde_json::json!({"schema_version": SCHEMA_VERSION, "error": {"kind": "internal", "message": e.to_string(), "location": null}})
+    })
+}
+
+#[derive(Serialize)]
+struct PlayerView<'a> {
+    name: &'a str,
+    questions: &'a [i64],
+    answers: &'a [i64],
+}
+
+#[derive(Serialize)]
+struct EstimatesView<'a> {
+    classical: &'a ClassicalEstimate,
+}
+
+#[derive(Serialize)]
+struct ClassicalDetailsView<'a> {
+    status: ClassicalStatus,
+    note: &'a Option<String>,
+    method: ClassicalMethod,
+    nodes: u64,
+    seconds: f64,
+    strategy: Value,
+}
+
+#[derive(Serialize)]
+struct NoSignallingDetailsView {
+    method: LpMethod,
+    status: SolveStatus,
+    certified_upper: Option<f64>,
+    variables: usize,
+    constraints: usize,
+    seconds: f64,
+}
+
+#[derive(Serialize)]
+struct BestLevelView<'a> {
+    level: &'a Level,
+    verified_upper: f64,
+}
+
+#[derive(Serialize)]
+struct NpaView<'a> {
+    quantum_upper: f64,
+    verified_upper: f64,
+    level: &'a Level,
+    matrix_size: usize,
+    moments: usize,
+    status: SolveStatus,
+    iterations: u32,
+    seconds: f64,
+    npa_primal: f64,
+    gap: f64,
+    residual: f64,
+    solver: Backend,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    levels: Option<Vec<&'a NpaBound>>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    best_verified_upper: Option<BestLevelView<'a>>,
+}
+
+#[derive(Serialize)]
+struct SeesawDetailsView {
+    rounds: usize,
+    seconds: f64,
+}
+
+#[derive(Serialize)]
+struct SeesawView<'a> {
+    quantum_lower: f64,
+    dims: &'a [usize],
+    seed: u64,
+    restarts: usize,
+    seesaw_details: SeesawDetailsView,
+    /// The see-saw command's own time (other commands report theirs elsewhere).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    seconds: Option<f64>,
+}
+
+#[derive(Serialize)]
+struct EvaluatedView {
+    value: f64,
+    value_error: f64,
+    quantum_lower: f64,
+}
+
+/// The JSON shape of a [`GameReport`].
+#[derive(Serialize)]
+struct GameReportView<'a> {
+    schema_version: u32,
+    command: CommandKind,
+    game: &'a str,
+    source: &'a str,
+    kind: ScoreKind,
+    players: Vec<PlayerView<'a>>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    sizes: Option<&'a Sizes>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    estimates: Option<EstimatesView<'a>>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    value_range: Option<(f64, f64)>,
+    /// The exact classical value; an incumbent goes under `classical_lower` only.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    classical: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    classical_lower: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    classical_details: Option<ClassicalDetailsView<'a>>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    no_signalling: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    no_signalling_details: Option<NoSignallingDetailsView>,
+    #[serde(flatten)]
+    npa: Option<NpaView<'a>>,
+    #[serde(flatten)]
+    seesaw: Option<SeesawView<'a>>,
+    #[serde(flatten)]
+    evaluated: Option<EvaluatedView>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    entanglement: Option<&'a [Bipartition]>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    robustness: Option<Option<&'a Robustness>>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    quantum_settled: Option<bool>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    gaps: Option<Gaps>,
+    warnings: &'a [String],
+    #[serde(skip_serializing_if = "<[String]>::is_empty")]
+    notes: &'a [String],
+    #[serde(skip_serializing_if = "<[String]>::is_empty")]
+    not_obtained: &'a [String],
+}
+
+/// `{player: {"questions": [...labels], "answers": [...labels]}}`.
+pub fn strategy_json(s: &Scenario, st: &DeterministicStrategy) -> Value {
+    let mut m = serde_json::Map::new();
+    for (p, ans) in s.parties.iter().zip(&st.answers) {
+        m.insert(
+            p.name.clone(),
+            serde_json::json!({
+                "questions": p.question_labels,
+                "answers": ans.iter().map(|&a| p.answer_labels[a]).collect::<Vec<_>>(),
+            }),
+        );
+    }
+    Value::Object(m)
+}
+
+impl<'a> GameReportView<'a> {
+    fn of(r: &'a GameReport<'a>) -> Self {
+        let s = &r.game.scenario;
+        let exact = |want: ClassicalStatus| {
+            r.classical
+                .as_ref()
+                .filter(|c| c.status == want)
+                .map(|c| c.value)
+        };
+        let gaps = r.gaps();
+        GameReportView {
+            schema_version: SCHEMA_VERSION,
+            command: r.command,
+            game: &r.game.name,
+            source: &r.game.source,
+            kind: s.kind,
+            players: s
+                .parties
+                .iter()
+                .map(|p| PlayerView {
+                    name: &p.name,
+                    questions: &p.question_labels,
+                    answers: &p.answer_labels,
+                })
+                .collect(),
+            sizes: r.sizes.as_ref().map(|z| &z.sizes),
+            estimates: r.sizes.as_ref().map(|z| EstimatesView {
+                classical: &z.classical,
+            }),
+            value_range: r.sizes.as_ref().map(|z| z.value_range),
+            classical: exact(ClassicalStatus::Exact),
+            classical_lower: exact(ClassicalStatus::Incumbent),
+            classical_details: r.classical.as_ref().map(|c| ClassicalDetailsView {
+                status: c.status,
+                note: &c.note,
+                method: c.method,
+                nodes: c.nodes,
+                seconds: c.seconds,
+                strategy: strategy_json(s, &c.strategy),
+            }),
+            no_signalling: r.no_signalling.as_ref().map(|ns| ns.value),
+            no_signalling_details: r.no_signalling.as_ref().map(|ns| NoSignallingDetailsView {
+                method: ns.method,
+                status: ns.status,
+                certified_upper: ns.certified_upper,
+                variables: ns.variables,
+                constraints: ns.constraints,
+                seconds: ns.seconds,
+            }),
+            npa: r.npa.as_ref().map(|b| {
+                let compared = !r.npa_levels.is_empty();
+                NpaView {
+                    quantum_upper: b.quantum_upper,
+                    verified_upper: b.verified_upper,
+                    level: &b.level,
+                    matrix_size: b.matrix_size,
+                    moments: b.moments,
+                    status: b.status,
+                    iterations: b.iterations,
+                    seconds: b.seconds,
+                    npa_primal: b.primal,
+                    gap: b.gap,
+                    residual: b.residual,
+                    solver: b.solver,
+                    levels: compared
+                        .then(|| r.npa_levels.iter().chain(std::iter::once(b)).collect()),
+                    best_verified_upper: r.best_npa().filter(|_| compared).map(|best| {
+                        BestLevelView {
+                            level: &best.level,
+                            verified_upper: best.verified_upper,
+                        }
+                    }),
+                }
+            }),
+            seesaw: r.seesaw.as_ref().map(|sw| SeesawView {
+                quantum_lower: sw.quantum_lower,
+                dims: &sw.dims,
+                seed: sw.seed,
+                restarts: sw.restarts,
+                seesaw_details: SeesawDetailsView {
+                    rounds: sw.rounds,
+                    seconds: sw.seconds,
+                },
+                seconds: (r.command == CommandKind::Seesaw).then_some(sw.seconds),
+            }),
+            evaluated: r.evaluated.map(|v| EvaluatedView {
+                value: v.value,
+                value_error: v.error,
+                quantum_lower: v.lower,
+            }),
+            entanglement: r.strategy_analysis.as_ref().map(|a| &a.bipartitions[..]),
+            robustness: r.strategy_analysis.as_ref().map(|a| a.robustness.as_ref()),
+            quantum_settled: r.quantum_settled(),
+            gaps: (!gaps.is_empty()).then_some(gaps),
+            warnings: &r.game.warnings,
+            notes: &r.notes,
+            not_obtained: &r.not_obtained,
+        }
+    }
+}
+
+impl Serialize for GameReport<'_> {
+    fn serialize<S: Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        GameReportView::of(self).serialize(serializer)
+    }
+}
+
+#[derive(Serialize)]
+struct MarginView<'a> {
+    schema_version: u32,
+    command: &'static str,
+    game: &'a str,
+    caution: &'static str,
+    #[serde(flatten)]
+    margin: &'a Margin,
+}
+
+impl Serialize for MarginReport<'_> {
+    fn serialize<S: Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        MarginView {
+            schema_version: SCHEMA_VERSION,
+            command: "margin",
+            game: &self.game.name,
+            caution: CAUTION,
+            margin: &self.margin,
+        }
+        .serialize(serializer)
+    }
+}
+
+#[derive(Serialize)]
+struct RandomnessOneView<'a> {
+    score: f64,
+    score_used: f64,
+    guessing_probability: f64,
+    min_entropy: f64,
+    level: &'a Level,
+    status: SolveStatus,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    score_multiplier: Option<f64>,
+    seconds: f64,
+}
+
+#[derive(Serialize)]
+struct RandomnessView<'a> {
+    schema_version: u32,
+    command: &'static str,
+    game: &'a str,
+    target: &'a str,
+    caution: &'static str,
+    #[serde(flatten)]
+    one: Option<RandomnessOneView<'a>>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    sweep: Option<&'a [Randomness]>,
+    #[serde(skip_serializing_if = "<[String]>::is_empty")]
+    not_obtained: &'a [String],
+}
+
+impl Serialize for RandomnessReport<'_> {
+    fn serialize<S: Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        let one = match &self.results[..] {
+            [r] => Some(RandomnessOneView {
+                score: r.score,
+                score_used: r.score_used,
+                guessing_probability: r.guessing_probability,
+                min_entropy: r.min_entropy,
+                level: &r.level,
+                status: r.status,
+                score_multiplier: r.score_multiplier,
+                seconds: r.seconds,
+            }),
+            _ => None,
+        };
+        RandomnessView {
+            schema_version: SCHEMA_VERSION,
+            command: "randomness",
+            game: &self.game.name,
+            target: &self.target_name,
+            caution: CAUTION,
+            sweep: one.is_none().then_some(&self.results[..]),
+            one,
+            not_obtained: &self.not_obtained,
+        }
+        .serialize(serializer)
+    }
+}
+
+#[derive(Serialize)]
+struct KeyView<'a> {
+    schema_version: u32,
+    command: &'static str,
+    chsh: f64,
+    qber: f64,
+    conditional_entropy: f64,
+    key_rate: f64,
+    threshold_qber: f64,
+    bound: &'a str,
+    caution: &'static str,
+}
+
+impl Serialize for KeyReport {
+    fn serialize<S: Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        let k: &KeyRate = &self.rate;
+        KeyView {
+            schema_version: SCHEMA_VERSION,
+            command: "key",
+            chsh: k.score,
+            qber: k.qber,
+            conditional_entropy: k.conditional_entropy,
+            key_rate: k.key_rate,
+            threshold_qber: self.threshold_qber,
+            bound: k.bound,
+            caution: CAUTION,
+        }
+        .serialize(serializer)
+    }
+}
+
+#[derive(Serialize)]
+struct VerifyView<'a> {
+    schema_version: u32,
+    command: &'static str,
+    game: &'a str,
+    certificate: &'a str,
+    level: &'a Level,
+    verified_upper: f64,
+    claimed: f64,
+    matches_claim: bool,
+}
+
+impl Serialize for VerifyReport<'_> {
+    fn serialize<S: Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        let v = &self.verification;
+        VerifyView {
+            schema_version: SCHEMA_VERSION,
+            command: "verify",
+            game: &self.game.name,
+            certificate: &self.certificate,
+            level: &v.level,
+            verified_upper: v.verified_upper,
+            claimed: v.claimed,
+            matches_claim: v.matches_claim,
+        }
+        .serialize(serializer)
+    }
+}
+
+/// The JSON shape of a [`LocalReport`], with where the separating expression was saved.
+#[derive(Serialize)]
+pub struct LocalView<'a> {
+    schema_version: u32,
+    command: &'static str,
+    correlations: &'a str,
+    local: bool,
+    /// Null when the input is pure noise (the visibility is unbounded).
+    visibility: Option<f64>,
+    signalling: f64,
+    deterministic_strategies: usize,
+    separating: Option<&'a SeparatingExpression>,
+    projection: Option<&'a NoSignallingProjection>,
+    seconds: f64,
+    saved: Option<&'a str>,
+}
+
+impl<'a> LocalView<'a> {
+    /// The view of `r`; `saved` is the file the separating expression was written to.
+    pub fn of(r: &'a LocalReport, saved: Option<&'a str>) -> Self {
+        let t = &r.test;
+        LocalView {
+            schema_version: SCHEMA_VERSION,
+            command: "local",
+            correlations: &r.name,
+            local: t.local,
+            visibility: t.visibility.is_finite().then_some(t.visibility),
+            signalling: t.signalling,
+            deterministic_strategies: t.deterministic_strategies,
+            separating: t.separating.as_ref(),
+            projection: t.projection.as_ref(),
+            seconds: t.seconds,
+            saved,
+        }
+    }
+}
+
+#[derive(Serialize)]
+struct ReviewView<'a> {
+    schema_version: u32,
+    command: &'static str,
+    name: &'a str,
+    verdict: String,
+    generated: &'a str,
+    game: &'a str,
+    classical: f64,
+    quantum_lower: Option<f64>,
+    quantum_upper: Option<f64>,
+    verified_upper: Option<f64>,
+    no_signalling: Option<f64>,
+    margin: &'a Margin,
+    randomness: Option<&'a crate::pipeline::ReviewRandomness>,
+    key: Option<&'a crate::pipeline::ReviewKey>,
+    assumptions: Vec<String>,
+    #[serde(skip_serializing_if = "<[String]>::is_empty")]
+    notes: &'a [String],
+    #[serde(skip_serializing_if = "<[String]>::is_empty")]
+    not_obtained: &'a [String],
+}
+
+impl Serialize for Review<'_> {
+    fn serialize<S: Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        let b = &self.bounds;
+        ReviewView {
+            schema_version: SCHEMA_VERSION,
+            command: "review",
+            name: &self.name,
+            verdict: super::document::verdict(self),
+            generated: &self.generated,
+            game: &b.game.name,
+            classical: self.classical,
+            quantum_lower: b.seesaw.as_ref().map(|s| s.quantum_lower),
+            quantum_upper: b.npa.as_ref().map(|n| n.quantum_upper),
+            verified_upper: b.npa.as_ref().map(|n| n.verified_upper),
+            no_signalling: b.no_signalling.as_ref().map(|n| n.value),
+            margin: &self.margin,
+            randomness: self.randomness.as_ref(),
+            key: self.key.as_ref(),
+            assumptions: self.assumptions(),
+            notes: &b.notes,
+            not_obtained: &b.not_obtained,
+        }
+        .serialize(serializer)
+    }
+}

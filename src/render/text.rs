@@ -1,0 +1,450 @@
+//! Text output: compact aligned tables for people, read from the same report structs the JSON
+//! renderer reads.
+
+use crate::bounds::classical::{ClassicalStatus, DeterministicStrategy};
+use crate::bounds::quantum::analysis::StrategyAnalysis;
+use crate::model::scenario::Scenario;
+use crate::numbers::{bits_text, count_text, fixed6, num, num_sig, with_fraction};
+use crate::pipeline::{
+    GameReport, KeyReport, LocalReport, MarginReport, RandomnessReport, VerifyReport,
+    QUANTUM_SETTLED_TOLERANCE,
+};
+use crate::protocol::finite::Margin;
+use crate::protocol::CAUTION;
+
+fn analysis_text(a: &StrategyAnalysis) -> String {
+    let mut out = String::from("\nstrategy state:\n");
+    for b in &a.bipartitions {
+        let schmidt: Vec<String> = b.schmidt.iter().map(|v| fixed6(*v)).collect();
+        out += &format!(
+            "  {} | rest: Schmidt [{}], entropy {} bits{}\n",
+            b.side.join(" "),
+            schmidt.join(", "),
+            fixed6(b.entropy_bits),
+            match (b.ppt, b.negativity) {
+                (Some(ppt), Some(n)) => format!(
+                    ", negativity {}, {}",
+                    fixed6(n),
+                    if ppt { "PPT" } else { "not PPT" }
+                ),
+                _ => String::new(),
+            }
+        );
+    }
+    if let Some(r) = &a.robustness {
+        out += &format!(
+            "robustness (against the classical value {}):\n  critical visibility {}\n  critical detection efficiency {} (no-click reported as the first answer)\n",
+            a.classical.map(num).unwrap_or_default(),
+            r.critical_visibility.map(num).unwrap_or_else(|| "none (no advantage)".into()),
+            r.critical_detection_efficiency.map(num).unwrap_or_else(|| "none (no advantage)".into()),
+        );
+    }
+    out
+}
+
+/// A game report as an aligned table for people.
+pub fn game_report(r: &GameReport) -> String {
+    let s = &r.game.scenario;
+    let mut out = String::new();
+    let mut rows: Vec<(String, String)> = vec![
+        (
+            "game".into(),
+            format!("{} ({})", r.game.name, r.game.source),
+        ),
+        (
+            "players".into(),
+            s.parties
+                .iter()
+                .map(|p| format!("{} {}×{}", p.name, p.questions(), p.answers()))
+                .collect::<Vec<_>>()
+                .join(", ")
+                + "  (questions × answers)",
+        ),
+    ];
+    if let Some(d) = &r.game.description {
+        rows.insert(1, ("about".into(), d.clone()));
+    }
+    if let Some(sizes) = &r.sizes {
+        let (z, e) = (&sizes.sizes, &sizes.classical);
+        let (lo, hi) = sizes.value_range;
+        rows.push(("kind".into(), format!("{:?}", s.kind).to_lowercase()));
+        rows.push((
+            "table".into(),
+            format!(
+                "{} joint questions × {} joint answers = {} entries",
+                z.joint_questions, z.joint_answers, z.table_entries
+            ),
+        ));
+        rows.push((
+            "strategies".into(),
+            format!(
+                "{} deterministic; search enumerates {} (responder: {})",
+                count_text(z.deterministic_strategies),
+                count_text(e.enumerated_strategies),
+                s.parties[e.responder].name
+            ),
+        ));
+        rows.push(("value range".into(), format!("[{}, {}]", num(lo), num(hi))));
+    }
+    if let Some(c) = &r.classical {
+        match c.status {
+            ClassicalStatus::Exact => rows.push(("classical".into(), with_fraction(c.value))),
+            ClassicalStatus::Incumbent => rows.push((
+                "classical ≥".into(),
+                format!(
+                    "{}  (a lower bound only, not the classical value: {})",
+                    num(c.value),
+                    c.note.as_deref().unwrap_or("not proven optimal")
+                ),
+            )),
+        }
+    }
+    if let Some(ns) = &r.no_signalling {
+        let mut v = with_fraction(ns.value);
+        if let Some(up) = ns.certified_upper {
+            v += &format!("  ({}, {}; certified ≤ {})", ns.method, ns.status, num(up));
+        }
+        rows.push(("no-signalling".into(), v));
+    }
+    for b in &r.npa_levels {
+        rows.push((
+            format!("quantum ≤ (NPA {})", b.level),
+            format!(
+                "{}  (verified; {}×{} matrix, {:.2} s)",
+                num(b.verified_upper),
+                b.matrix_size,
+                b.matrix_size,
+                b.seconds
+            ),
+        ));
+    }
+    if let Some(b) = &r.npa {
+        rows.push((
+            "quantum ≤ (NPA)".into(),
+            format!(
+                "{}  (verified; raw {}, level {}, {}×{} matrix, {} moments, {} {}, {} iterations, {:.2} s)",
+                num(b.verified_upper),
+                num(b.quantum_upper),
+                b.level,
+                b.matrix_size,
+                b.matrix_size,
+                b.moments,
+                b.solver,
+                b.status,
+                b.iterations,
+                b.seconds
+            ),
+        ));
+    }
+    if let Some(sw) = &r.seesaw {
+        rows.push((
+            "quantum ≥ (see-saw)".into(),
+            format!(
+                "{}  (dims {:?}, {} restarts, seed {}, {:.2} s)",
+                num(sw.quantum_lower),
+                sw.dims,
+                sw.restarts,
+                sw.seed,
+                sw.seconds
+            ),
+        ));
+    }
+    if let Some(v) = r.evaluated {
+        rows.push((
+            "value (Born rule)".into(),
+            format!("{}  (error ≤ {:.1e})", num(v.value), v.error),
+        ));
+        rows.push(("quantum ≥".into(), num(v.lower)));
+    }
+    if let (Some(sw), Some(b)) = (&r.seesaw, &r.npa) {
+        let gap = b.verified_upper - sw.quantum_lower;
+        rows.push((
+            "quantum value".into(),
+            if gap < QUANTUM_SETTLED_TOLERANCE {
+                format!(
+                    "settled: verified upper − lower = {} < {:e}",
+                    num(gap),
+                    QUANTUM_SETTLED_TOLERANCE
+                )
+            } else {
+                format!(
+                    "open: verified upper − lower = {} (the see-saw tried dims {:?} with {} restarts; larger dimensions, more restarts or a higher NPA level may close it)",
+                    num(gap),
+                    sw.dims,
+                    sw.restarts
+                )
+            },
+        ));
+    }
+    if let (Some(c), Some(b)) = (&r.classical, &r.npa) {
+        rows.push((
+            "gap quantum − classical".into(),
+            format!("≤ {}", num(b.verified_upper - c.value)),
+        ));
+    }
+    if let (Some(ns), Some(b)) = (&r.no_signalling, &r.npa) {
+        rows.push((
+            "gap ns − quantum".into(),
+            format!("≥ {}", num(ns.value - b.verified_upper)),
+        ));
+    }
+    if let (Some(c), Some(ns)) = (&r.classical, &r.no_signalling) {
+        rows.push(("gap ns − classical".into(), num(ns.value - c.value)));
+    }
+    out += &table(&rows);
+    for f in &r.not_obtained {
+        out += &format!("not obtained: {f}\n");
+    }
+    for note in &r.notes {
+        out += &format!("note: {note}\n");
+    }
+    if let Some(a) = &r.strategy_analysis {
+        out += &analysis_text(a);
+    }
+    if let Some(c) = &r.classical {
+        out += match c.status {
+            ClassicalStatus::Exact => {
+                "\noptimal deterministic strategy (answer to each question):\n"
+            }
+            ClassicalStatus::Incumbent => {
+                "\nbest deterministic strategy found (answer to each question):\n"
+            }
+        };
+        out += &strategy_text(s, &c.strategy);
+        out += &format!("({:?}, {} nodes, {:.3} s)\n", c.method, c.nodes, c.seconds).to_lowercase();
+    }
+    out
+}
+
+fn strategy_text(s: &Scenario, st: &DeterministicStrategy) -> String {
+    let width = s.parties.iter().map(|p| p.name.len()).max().unwrap_or(0);
+    let mut out = String::new();
+    for (p, ans) in s.parties.iter().zip(&st.answers) {
+        let cells: Vec<String> = p
+            .question_labels
+            .iter()
+            .zip(ans)
+            .map(|(q, &a)| format!("{q}→{}", p.answer_labels[a]))
+            .collect();
+        out += &format!("  {:width$}  {}\n", p.name, cells.join("  "));
+    }
+    out
+}
+
+/// Two aligned columns.
+pub fn table(rows: &[(String, String)]) -> String {
+    let width = rows
+        .iter()
+        .map(|(k, _)| k.chars().count())
+        .max()
+        .unwrap_or(0);
+    rows.iter()
+        .map(|(k, v)| format!("{k:<width$}  {v}\n"))
+        .collect()
+}
+
+/// A locality test; `saved` is where the separating expression was written.
+pub fn local(report: &LocalReport, saved: Option<&str>) -> String {
+    let (name, r) = (report.name.as_str(), &report.test);
+    let mut rows = vec![
+        ("correlations".to_string(), name.to_string()),
+        (
+            "local model".to_string(),
+            match &r.projection {
+                None => if r.local { "yes" } else { "no" }.to_string(),
+                Some(p) => format!(
+                    "no (the correlations signal); their no-signalling projection: {}",
+                    if p.local { "yes" } else { "no" }
+                ),
+            },
+        ),
+        (
+            "critical visibility".to_string(),
+            if r.visibility.is_finite() {
+                num(r.visibility)
+            } else {
+                "unbounded (pure noise)".into()
+            },
+        ),
+        ("signalling".to_string(), num(r.signalling)),
+    ];
+    if let Some(sep) = &r.separating {
+        rows.push((
+            "separating expression".to_string(),
+            format!(
+                "local bound {}, value on the input {}{}",
+                num(sep.local_bound),
+                num(sep.value),
+                saved
+                    .map(|f| format!(" (saved to {f})"))
+                    .unwrap_or_default()
+            ),
+        ));
+    }
+    if let Some(p) = &r.projection {
+        rows.push((
+            "no-signalling projection".to_string(),
+            format!(
+                "{}: distance {}, largest change {}",
+                p.method,
+                num_sig(p.distance, 4),
+                num_sig(p.max_change, 4)
+            ),
+        ));
+        if let (Some(t), Some(pv)) = (p.chi_square, p.p_value) {
+            rows.push((
+                "signalling test".to_string(),
+                format!(
+                    "χ² = {} with {} degrees of freedom, p-value {} (asymptotic)",
+                    num_sig(t, 4),
+                    p.degrees_of_freedom,
+                    num_sig(pv, 4)
+                ),
+            ));
+        }
+    }
+    let mut out = table(&rows);
+    if r.projection.is_some() {
+        out += "note: the correlations signal (frequencies from finitely many rounds usually do), so the test ran on their projection onto the no-signalling set; the visibility and the separating expression are those of the projection.";
+        if r.projection.as_ref().is_some_and(|p| p.p_value.is_none()) {
+            out += " Give `rounds` in the correlations file for a signalling p-value.";
+        }
+        out.push('\n');
+    }
+    out
+}
+
+/// A certificate re-checked.
+pub fn verify(report: &VerifyReport) -> String {
+    let (game, certificate, v) = (
+        report.game,
+        report.certificate.as_str(),
+        &report.verification,
+    );
+    let mut out = table(&[
+        ("game".into(), format!("{} ({})", game.name, game.source)),
+        ("certificate".into(), certificate.to_string()),
+        ("level".into(), v.level.name()),
+        ("verified quantum ≤".into(), num(v.verified_upper)),
+        ("claimed in file".into(), num(v.claimed)),
+    ]);
+    if !v.matches_claim {
+        out += "warning: the recomputed bound is larger than the one the file claims; the recomputed one holds\n";
+    }
+    out
+}
+
+/// What an observed run certifies.
+pub fn margin(report: &MarginReport) -> String {
+    let (game, m) = (report.game, &report.margin);
+    let mut rows = vec![
+        (
+            "game".to_string(),
+            format!("{} ({})", game.name, game.source),
+        ),
+        ("rounds".to_string(), m.rounds.to_string()),
+        ("observed mean".to_string(), num(m.observed_mean)),
+        (
+            format!("lower confidence (Hoeffding, α={:e})", m.alpha),
+            num(m.lower_confidence),
+        ),
+    ];
+    if let Some(e) = m.lower_confidence_exact {
+        rows.push((
+            format!("lower confidence (Clopper–Pearson, α={:e})", m.alpha),
+            num(e),
+        ));
+    }
+    rows.push(("classical value".into(), num(m.classical)));
+    rows.push(("margin".into(), num(m.margin)));
+    rows.push((
+        "p-value (classical devices)".into(),
+        format!("{}  ({})", p_value_text(m), m.p_value_bound),
+    ));
+    rows.push((
+        format!(
+            "rounds needed (p ≤ {:e} at mean {})",
+            m.target_p_value,
+            num(m.expected_mean)
+        ),
+        m.rounds_needed
+            .map(|n| n.to_string())
+            .unwrap_or_else(|| "never (no advantage)".into()),
+    ));
+    let mut out = table(&rows);
+    out += "\nassumptions:\n";
+    for a in &m.assumptions {
+        out += &format!("  - {a}\n");
+    }
+    out += &format!("\n{}\n", CAUTION);
+    out
+}
+
+/// Certified randomness at one or more scores.
+pub fn randomness(report: &RandomnessReport) -> String {
+    let (game, rs) = (report.game, &report.results);
+    let mut out = format!(
+        "game     {} ({})\nguessed  {}\n\n",
+        game.name, game.source, report.target_name
+    );
+    out += &format!(
+        "{:>14}  {:>22}  {:>18}  {}\n",
+        "score", "guessing probability ≤", "min-entropy ≥ (bits)", "solver"
+    );
+    for r in rs {
+        let used = if r.score_used < r.score {
+            format!(", solved at score {}", num(r.score_used))
+        } else {
+            String::new()
+        };
+        let status = match r.score_multiplier {
+            Some(mu) => format!("{}, score as a Lagrangian term (μ = {mu:.3e})", r.status),
+            None => r.status.to_string(),
+        };
+        out += &format!(
+            "{:>14}  {:>22}  {:>18}  {status} (level {}{used})\n",
+            num(r.score),
+            num(r.guessing_probability),
+            num(r.min_entropy),
+            r.level
+        );
+    }
+    for f in &report.not_obtained {
+        out += &format!("not obtained: {f}\n");
+    }
+    out += &format!(
+        "\nassumptions: quantum adversary, i.i.d. rounds, asymptotic per-round figure.\n{}\n",
+        CAUTION
+    );
+    out
+}
+
+/// CHSH key figures.
+pub fn key(report: &KeyReport) -> String {
+    let (k, threshold) = (&report.rate, report.threshold_qber);
+    let mut out = table(&[
+        ("CHSH value".into(), num(k.score)),
+        ("QBER".into(), num(k.qber)),
+        ("H(A|E) ≥".into(), bits_text(k.conditional_entropy)),
+        (
+            "key rate ≥".into(),
+            format!("{} per round", bits_text(k.key_rate)),
+        ),
+        ("threshold QBER (depolarising)".into(), num(threshold)),
+        ("bound".into(), k.bound.to_string()),
+    ]);
+    out += "\nassumptions: collective attacks, i.i.d. rounds, asymptotic limit, one-way error correction at the Shannon limit.\n";
+    out += &format!("{}\n", CAUTION);
+    out
+}
+
+/// A p-value, always in one format: plain for p ≥ 0.001, else `m×10^e` with four significant
+/// digits (from the logarithm, so it also covers p-values that underflow a double).
+pub fn p_value_text(m: &Margin) -> String {
+    if m.p_value >= 1e-3 {
+        return num_sig(m.p_value, 4);
+    }
+    let e = m.p_value_log10.floor();
+    let mantissa = 10f64.powf(m.p_value_log10 - e);
+    format!("{}×10^{}", num_sig(mantissa, 4), e as i64)
+}
