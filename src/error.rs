@@ -3,7 +3,7 @@
 
 use std::fmt;
 
-use crate::optim::SolveStatus;
+use serde::{Deserialize, Serialize};
 
 /// Whether a file was being read or written when an I/O error happened.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -166,3 +166,52 @@ impl Error {
 }
 
 pub type Result<T, E = Error> = std::result::Result<T, E>;
+
+/// How a solver run ended (re-exported as `optim::SolveStatus`). The first three come with a
+/// point; the rest are failures, carried by [`Error::Solver`]. Serialised as the strings the JSON output has always used.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+pub enum SolveStatus {
+    /// Optimal within the solver's full tolerances.
+    #[serde(rename = "solved")]
+    Solved,
+    /// Optimal within relaxed tolerances only (the verified bound still holds: it is computed
+    /// from the dual point with every residual charged).
+    #[serde(rename = "almost solved")]
+    AlmostSolved,
+    /// Stopped by its time limit with a feasible point not proven optimal (an incumbent).
+    #[serde(rename = "stopped at the time limit")]
+    TimeLimit,
+    /// Stopped by its iteration limit without an answer.
+    #[serde(rename = "iteration limit")]
+    IterationLimit,
+    /// Made no more progress before reaching its tolerances.
+    #[serde(rename = "stalled")]
+    Stalled,
+    /// The problem has no feasible point (as the solver judged it).
+    #[serde(rename = "infeasible")]
+    Infeasible,
+    /// Any other failure (numerical trouble, bad settings).
+    #[serde(rename = "failed")]
+    Failed,
+}
+
+impl SolveStatus {
+    /// The name used in JSON and text output.
+    pub fn name(self) -> &'static str {
+        match self {
+            SolveStatus::Solved => "solved",
+            SolveStatus::AlmostSolved => "almost solved",
+            SolveStatus::TimeLimit => "stopped at the time limit",
+            SolveStatus::IterationLimit => "iteration limit",
+            SolveStatus::Stalled => "stalled",
+            SolveStatus::Infeasible => "infeasible",
+            SolveStatus::Failed => "failed",
+        }
+    }
+}
+
+impl std::fmt::Display for SolveStatus {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.name())
+    }
+}

@@ -21,7 +21,7 @@ pub mod error;
 pub mod formats;
 pub mod limits;
 pub mod model;
-pub mod numbers;
+pub(crate) mod numbers;
 pub mod optim;
 pub mod pipeline;
 pub mod protocol;

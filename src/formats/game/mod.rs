@@ -4,12 +4,15 @@
 //!
 //! Most callers want [`Game::from_file`] or [`Game::from_spec`], then `game.scenario`.
 
-pub mod compile;
+pub(crate) mod compile;
 pub mod families;
 pub mod product;
 pub mod spec;
 
-pub use compile::CompileOptions;
+pub use compile::{
+    CompileOptions, DEFAULT_TABLE_LIMIT, HARD_TABLE_LIMIT, MAX_NAME_CHARS, MAX_PLAYERS,
+    PROBABILITY_TOLERANCE,
+};
 pub use spec::{GameSpec, PlayerSpec};
 
 use crate::error::Result;
