@@ -18,7 +18,7 @@ fn main() -> Result<(), bellgap::Error> {
         "{}: classical {:.6}, no-signalling {:.6}",
         game.name, classical.value, ns.value
     );
-    for (party, answers) in s.parties.iter().zip(&classical.strategy.answers) {
+    for (party, answers) in s.parties().iter().zip(&classical.strategy.answers) {
         println!(
             "  {} answers {:?} to questions {:?}",
             party.name, answers, party.question_labels

@@ -27,8 +27,11 @@ impl fmt::Display for IoOp {
 /// when the problem is about the file as a whole.
 #[derive(Debug, Clone, Default, PartialEq, Eq, serde::Serialize)]
 pub struct Location {
+    /// The file (empty when not yet known; see [`Error::in_file`]).
     pub file: String,
+    /// 1-based line.
     pub line: Option<usize>,
+    /// 1-based column.
     pub column: Option<usize>,
     /// The field path inside the document, e.g. `players[1].questions`.
     pub field: Option<String>,
@@ -50,12 +53,18 @@ impl fmt::Display for Location {
     }
 }
 
+/// Everything that can go wrong, by whose it is to fix.
 #[derive(Debug, thiserror::Error)]
 pub enum Error {
     /// The user's input is wrong: a file that does not parse, a field out of range, a formula that
     /// does not evaluate.
     #[error("{location}: {message}")]
-    Input { location: Location, message: String },
+    Input {
+        /// Where.
+        location: Location,
+        /// What is wrong.
+        message: String,
+    },
 
     /// A command line that cannot be honoured as given (raised by the command-line layer only).
     #[error("{0}")]
@@ -70,8 +79,11 @@ pub enum Error {
     /// the user can decide whether to override.
     #[error("{what} is too large: {estimate}; {hint}")]
     TooLarge {
+        /// What would be computed.
         what: String,
+        /// The estimate of its cost.
         estimate: String,
+        /// How to proceed (a smaller request, or the override).
         hint: String,
     },
 
@@ -93,6 +105,7 @@ pub enum Error {
         path: String,
         /// Reading or writing.
         op: IoOp,
+        /// The operating system's error.
         #[source]
         source: std::io::Error,
     },
@@ -123,6 +136,7 @@ impl Error {
         }
     }
 
+    /// Where in an input the problem is, for input errors.
     pub fn location(&self) -> Option<&Location> {
         match self {
             Error::Input { location, .. } => Some(location),
@@ -165,6 +179,7 @@ impl Error {
     }
 }
 
+/// The library's result type.
 pub type Result<T, E = Error> = std::result::Result<T, E>;
 
 /// How a solver run ended (re-exported as `optim::SolveStatus`). The first three come with a

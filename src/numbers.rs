@@ -28,6 +28,7 @@ pub fn with_fraction(x: f64) -> String {
     }
 }
 
+/// `(p, q)` when `x` is within 1e-12 of p/q with q ≤ 1000 (the smallest such q).
 pub fn rational_hint(x: f64) -> Option<(i64, i64)> {
     if !x.is_finite() || x.abs() > 1e6 {
         return None;

@@ -86,10 +86,13 @@ fn modules_use_only_their_own_layer_and_the_layers_before_it() {
         if top == "main" || top == "cli" {
             continue; // the binary sits on top of everything
         }
-        let own = layer_of(top).unwrap_or_else(|| panic!("{}: module `{top}` has no layer", file.display()));
+        let own = layer_of(top)
+            .unwrap_or_else(|| panic!("{}: module `{top}` has no layer", file.display()));
         for path in crate_paths(&std::fs::read_to_string(file).unwrap()) {
             let Some(used) = path.first() else { continue };
-            let Some(layer) = layer_of(used) else { continue }; // re-exports such as crate::Error
+            let Some(layer) = layer_of(used) else {
+                continue;
+            }; // re-exports such as crate::Error
             checked += 1;
             if layer > own {
                 violations.push(format!(
@@ -165,8 +168,16 @@ fn files_import_each_other_without_cycles() {
     for node in edges.keys() {
         if !state.contains_key(node) {
             let cycle = visit(node, &edges, &mut state, &mut Vec::new());
-            assert!(cycle.is_none(), "import cycle: {}", cycle.unwrap().join(" → "));
+            assert!(
+                cycle.is_none(),
+                "import cycle: {}",
+                cycle.unwrap().join(" → ")
+            );
         }
     }
-    assert!(edges.len() > 30, "the scan found only {} importing modules", edges.len());
+    assert!(
+        edges.len() > 30,
+        "the scan found only {} importing modules",
+        edges.len()
+    );
 }

@@ -4,9 +4,7 @@
 
 use std::path::PathBuf;
 
-use bellgap::bounds::classical::{
-    classical_value, milp_with_time_limit, search, Choice, ClassicalStatus,
-};
+use bellgap::bounds::classical::{classical_value, milp_with_time_limit, search, ClassicalStatus};
 use bellgap::formats::game::{CompileOptions, Game};
 use serde_json::Value;
 
@@ -382,10 +380,10 @@ fn formulas_that_overflowed_or_recursed_too_deep_are_errors() {
         2,
         "score: \"((-9223372036854775807 - 1) % (-1)) + a\"",
     ));
-    assert_eq!(g.scenario.scores[2], 1.0); // x = y = 0, a = 1, b = 0
-                                           // Negative exponents are not truncated to 32 bits: 2 ** −4294967295 underflows to 0.
+    assert_eq!(g.scenario.scores()[2], 1.0); // x = y = 0, a = 1, b = 0
+                                             // Negative exponents are not truncated to 32 bits: 2 ** −4294967295 underflows to 0.
     let g = compile(&two_player(2, 2, "score: \"(2 ** (-4294967295)) * a\""));
-    assert!(g.scenario.scores.iter().all(|v| *v == 0.0));
+    assert!(g.scenario.scores().iter().all(|v| *v == 0.0));
 }
 
 #[test]

@@ -257,8 +257,8 @@ proptest! {
         match r.unwrap() {
             Ok(g) => {
                 let s = &g.scenario;
-                prop_assert!(s.weights.iter().all(|w| w.is_finite() && *w >= 0.0));
-                prop_assert!(s.scores.iter().all(|v| v.is_finite()));
+                prop_assert!(s.weights().iter().all(|w| w.is_finite() && *w >= 0.0));
+                prop_assert!(s.scores().iter().all(|v| v.is_finite()));
                 let (lo, hi) = s.value_range();
                 prop_assert!(lo.is_finite() && hi.is_finite());
             }

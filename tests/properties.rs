@@ -70,7 +70,7 @@ fn random_game(max_players: usize) -> impl Strategy<Value = RandomGame> {
                     (scores.iter().map(|&v| v as f64).collect(), ScoreKind::Score)
                 };
                 RandomGame {
-                    scenario: Scenario::new(parties, weights, scores, 0.0, kind),
+                    scenario: Scenario::new(parties, weights, scores, 0.0, kind).unwrap(),
                     players,
                     questions,
                     answers,
@@ -82,7 +82,7 @@ fn random_game(max_players: usize) -> impl Strategy<Value = RandomGame> {
 /// Every joint deterministic strategy, evaluated directly.
 fn brute_force(s: &Scenario) -> f64 {
     let radices: Vec<usize> = s
-        .parties
+        .parties()
         .iter()
         .flat_map(|p| std::iter::repeat_n(p.answers(), p.questions()))
         .collect();
@@ -93,7 +93,7 @@ fn brute_force(s: &Scenario) -> f64 {
         bellgap::model::scenario::digits(k, &radices, &mut digits);
         let mut at = 0;
         let strategy: Vec<Vec<usize>> = s
-            .parties
+            .parties()
             .iter()
             .map(|p| {
                 let v = digits[at..at + p.questions()].to_vec();
@@ -141,7 +141,7 @@ fn no_signalling_full(s: &Scenario) -> f64 {
         lp.add_var(VarBounds::NONNEGATIVE, c);
     }
     add_no_signalling_rows(s, &mut lp, 0);
-    s.offset + lp.solve("full no-signalling LP").unwrap().objective
+    s.offset() + lp.solve("full no-signalling LP").unwrap().objective
 }
 
 proptest! {

@@ -136,7 +136,7 @@ fn chained_bell() {
 
 /// Brute force over every pair of deterministic strategies, independent of the search.
 fn brute_force_two_player(s: &Scenario) -> f64 {
-    let (pa, pb) = (&s.parties[0], &s.parties[1]);
+    let (pa, pb) = (&s.parties()[0], &s.parties()[1]);
     let count = |q: usize, a: usize| (a as u64).pow(q as u32);
     let decode = |mut k: u64, q: usize, a: usize| {
         (0..q)

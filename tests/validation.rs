@@ -168,8 +168,8 @@ fn probabilities_must_sum_to_one_unless_normalised() {
         "{PLAYERS}{table}  normalise: true\nwin: \"a == b\"\n"
     ))
     .unwrap();
-    assert!((g.scenario.weights[0] - 0.625).abs() < 1e-12);
-    assert!((g.scenario.weights[3] - 0.375).abs() < 1e-12);
+    assert!((g.scenario.weights()[0] - 0.625).abs() < 1e-12);
+    assert!((g.scenario.weights()[3] - 0.375).abs() < 1e-12);
 }
 
 #[test]
@@ -178,7 +178,7 @@ fn probabilities_may_be_expressions() {
         "{PLAYERS}distribution:\n  product:\n    alice: [\"1/3\", \"2/3\"]\n    bob: [0.5, 0.5]\nwin: \"a == b\"\n"
     );
     let g = load(&text).unwrap();
-    assert!((g.scenario.weights[2] - 1.0 / 3.0).abs() < 1e-12);
+    assert!((g.scenario.weights()[2] - 1.0 / 3.0).abs() < 1e-12);
 }
 
 #[test]

@@ -25,6 +25,7 @@ pub const VARIABLE_LIMIT: usize = 200_000;
 /// interior-point method, which measured 50 to 200 times faster on the large bench cases.
 pub const SIMPLEX_ROW_LIMIT: usize = 2048;
 
+/// The no-signalling value and how it was obtained.
 #[derive(Debug, Clone, Serialize)]
 pub struct NoSignallingValue {
     /// The optimum found (exact vertex for the simplex; within about 1e-8 for interior point).
@@ -34,12 +35,16 @@ pub struct NoSignallingValue {
     pub certified_upper: Option<f64>,
     /// Simplex or interior point.
     pub method: LpMethod,
+    /// The LP's status.
     pub status: SolveStatus,
     /// An optimal behaviour, `p(a|q)` at `q * joint_answers + a`.
     #[serde(skip)]
     pub behaviour: Vec<f64>,
+    /// LP variables (Collins–Gisin coordinates).
     pub variables: usize,
+    /// LP constraints.
     pub constraints: usize,
+    /// Wall-clock time.
     pub seconds: f64,
 }
 
@@ -118,7 +123,7 @@ pub fn no_signalling_value(s: &Scenario, limits: &Limits) -> Result<NoSignalling
     // answering their last answer (k_i = answers − 1); over all rows that is Π q_i(2k_i + 1)
     // nonzeros, which grows as 3^players even for tiny tables.
     let nonzeros: f64 = s
-        .parties
+        .parties()
         .iter()
         .map(|p| p.questions() as f64 * (2.0 * p.answers() as f64 - 1.0))
         .product();
@@ -143,7 +148,7 @@ pub fn no_signalling_value(s: &Scenario, limits: &Limits) -> Result<NoSignalling
     let na = s.joint_answers();
     let (mut qd, mut ad) = (vec![0; n], vec![0; n]);
     let mut terms = Vec::new();
-    let mut constant_value = s.offset;
+    let mut constant_value = s.offset();
     let mut expansions = Vec::with_capacity(rows);
     for q in 0..s.joint_questions() {
         digits(q, &qr, &mut qd);

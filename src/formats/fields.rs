@@ -75,6 +75,7 @@ pub fn number(
     }
 }
 
+/// A finite real number or constant expression, with the constants in scope.
 pub fn real(
     value: &Yaml,
     ctx: &Context,
@@ -95,10 +96,12 @@ pub fn constant_number(value: &Yaml, ctx: &Context, field: &str) -> Result<f64> 
     real(value, ctx, field, &[])
 }
 
+/// Index of a label.
 pub fn label_index(labels: &[i64], label: i64) -> Option<usize> {
     labels.iter().position(|&l| l == label)
 }
 
+/// A label set: a positive count `n` (labels 0..n) or a list of distinct integers.
 pub fn parse_labels_for(value: &Yaml, ctx: &Context, field: &str) -> Result<Vec<i64>> {
     match value {
         Yaml::Number(n) => {

@@ -34,13 +34,18 @@ use std::rc::Rc;
 /// A runtime value.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Value {
+    /// An integer.
     Int(i64),
+    /// A real number.
     Real(f64),
+    /// A truth value.
     Bool(bool),
+    /// A table (a list of values).
     List(Rc<Vec<Value>>),
 }
 
 impl Value {
+    /// The value as a real number (an error for tables and truth values).
     pub fn as_f64(&self) -> Result<f64, String> {
         match self {
             Value::Int(i) => Ok(*i as f64),
@@ -50,6 +55,7 @@ impl Value {
         }
     }
 
+    /// The value as a truth value (numbers: non-zero is true).
     pub fn truthy(&self) -> Result<bool, String> {
         match self {
             Value::Bool(b) => Ok(*b),
@@ -97,33 +103,57 @@ impl fmt::Display for Value {
     }
 }
 
+/// A binary operator.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum BinaryOp {
+    /// `+`
     Add,
+    /// `-`
     Sub,
+    /// `*`
     Mul,
+    /// `/` (real division)
     Div,
+    /// `//` (integer division, rounding down)
     FloorDiv,
+    /// `%` (remainder with the sign of the divisor)
     Mod,
+    /// `**`
     Pow,
+    /// `==`
     Eq,
+    /// `!=`
     Ne,
+    /// `<`
     Lt,
+    /// `<=`
     Le,
+    /// `>`
     Gt,
+    /// `>=`
     Ge,
+    /// `and`
     And,
+    /// `or`
     Or,
+    /// `xor`
     Xor,
 }
 
+/// A built-in function.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Function {
+    /// `min(a, b, ...)`
     Min,
+    /// `max(a, b, ...)`
     Max,
+    /// `abs(x)`
     Abs,
+    /// `sqrt(x)`
     Sqrt,
+    /// `sin(x)`
     Sin,
+    /// `cos(x)`
     Cos,
 }
 
@@ -144,35 +174,57 @@ impl Function {
 /// A parsed formula. `pos` fields are character offsets into the source, for error messages.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Expr {
+    /// A number, truth value or table written out.
     Literal(Value),
     /// A name not yet resolved (before [`Expr::bind`]).
     Name {
+        /// The name.
         name: String,
+        /// Where it starts.
         pos: usize,
     },
     /// A resolved player variable: index into the slot array given to [`Expr::eval`].
     Slot(usize),
+    /// `-x`
     Neg(Box<Expr>),
+    /// `not x`
     Not(Box<Expr>),
+    /// `lhs op rhs`
     Binary {
+        /// The operator.
         op: BinaryOp,
+        /// Left operand.
         lhs: Box<Expr>,
+        /// Right operand.
         rhs: Box<Expr>,
+        /// Where the operator is.
         pos: usize,
     },
+    /// `if cond then a else b`
     If {
+        /// The condition.
         cond: Box<Expr>,
+        /// Value when it holds.
         then: Box<Expr>,
+        /// Value otherwise.
         otherwise: Box<Expr>,
     },
+    /// A built-in function applied to arguments.
     Call {
+        /// The function.
         func: Function,
+        /// Its arguments.
         args: Vec<Expr>,
+        /// Where the call is.
         pos: usize,
     },
+    /// `table[index]`
     Index {
+        /// The table.
         table: Box<Expr>,
+        /// The index.
         index: Box<Expr>,
+        /// Where the index is.
         pos: usize,
     },
 }
@@ -180,7 +232,9 @@ pub enum Expr {
 /// An error with the character offset in the formula where it was detected.
 #[derive(Debug, Clone, PartialEq)]
 pub struct FormulaError {
+    /// Character offset in the formula.
     pub pos: usize,
+    /// What is wrong.
     pub message: String,
 }
 
@@ -338,6 +392,7 @@ struct Parser {
 /// flat sum of many terms makes a deep tree without nesting). Beyond these a formula is
 /// refused with a clear error instead of overflowing the stack.
 pub const MAX_NESTING: usize = 200;
+/// See [`MAX_NESTING`].
 pub const MAX_TREE_DEPTH: usize = 2000;
 
 impl Parser {
@@ -719,7 +774,9 @@ pub fn parse(src: &str) -> Result<Expr, FormulaError> {
 
 /// Names visible to a formula: player variables (bound to slots) and constants.
 pub trait Scope {
+    /// The slot of a player variable, if `name` is one.
     fn slot(&self, name: &str) -> Option<usize>;
+    /// The value of a constant, if `name` is one.
     fn constant(&self, name: &str) -> Option<Value>;
     /// All names, for the "unknown name" message.
     fn names(&self) -> Vec<String>;
@@ -1053,6 +1110,7 @@ fn call(func: Function, args: &[Value]) -> Result<Value, String> {
 /// A scope with no player variables and a fixed list of constants; used for constant
 /// expressions such as a probability written as `"1/3"`.
 pub struct ConstantScope<'a> {
+    /// `(name, value)` pairs.
     pub constants: &'a [(String, Value)],
 }
 

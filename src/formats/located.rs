@@ -19,7 +19,9 @@ use crate::error::{Error, Location};
 /// single-line quoted scalar (then its text starts one column later).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct Position {
+    /// 1-based line.
     pub line: usize,
+    /// 1-based column.
     pub column: usize,
     /// Column where the scalar's text begins, if the scalar is on one line and its characters
     /// map one-to-one to columns (plain or quoted without escapes).
@@ -184,11 +186,14 @@ impl MarkedEventReceiver for Builder<'_> {
 /// Where a document came from, for error messages: the file name and a map from field paths to
 /// positions.
 pub struct Context {
+    /// The file, as named in errors.
     pub file: String,
+    /// Field paths to positions.
     pub map: SourceMap,
 }
 
 impl Context {
+    /// An input error at `field` (a path such as `players[1].questions`).
     pub fn error(&self, field: &str, message: impl Into<String>) -> Error {
         let pos = self.map.find(field);
         Error::Input {

@@ -54,7 +54,7 @@ impl QuantumStrategy {
         );
         let mut ms = Mapping::new();
         for (i, player) in self.measurements.iter().enumerate() {
-            let p = &s.parties[i];
+            let p = &s.parties()[i];
             let list = player
                 .iter()
                 .enumerate()
@@ -178,7 +178,7 @@ impl QuantumStrategy {
             ));
         };
         let mut measurements = Vec::with_capacity(n);
-        for (i, p) in s.parties.iter().enumerate() {
+        for (i, p) in s.parties().iter().enumerate() {
             let base = format!("measurements.{}", p.name);
             let Some(Yaml::Sequence(list)) = ms.get(p.name.as_str()) else {
                 return Err(ctx.error(
@@ -266,6 +266,7 @@ impl QuantumStrategy {
         Ok(strategy)
     }
 
+    /// Reads and checks a strategy file for game `s`.
     pub fn from_file(path: &str, s: &Scenario) -> Result<QuantumStrategy> {
         let text = read_text(path)?;
         Self::from_yaml(&text, path, s)

@@ -18,10 +18,12 @@ pub struct CollinsGisin {
     kept: Vec<usize>,
     /// First variable of each group, by bit mask.
     offset: Vec<usize>,
+    /// Number of Collins–Gisin coordinates.
     pub variables: usize,
 }
 
 impl CollinsGisin {
+    /// The coordinates of `s`.
     pub fn new(s: &Scenario) -> Self {
         let n = s.players();
         let q: Vec<usize> = s.question_radices();

@@ -21,7 +21,7 @@ impl Correlations {
     pub fn scenario_shape(&self) -> Scenario {
         let nq: usize = self.parties.iter().map(Party::questions).product();
         let na: usize = self.parties.iter().map(Party::answers).product();
-        Scenario::new(
+        Scenario::from_parts(
             self.parties.clone(),
             vec![1.0; nq],
             vec![0.0; nq * na],

@@ -9,19 +9,26 @@
 
 use serde::Serialize;
 
+use crate::error::{Error, Result};
+
 /// One player's question and answer sets. Labels are what the game file calls them; solvers
 /// work with indices `0..len`.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Party {
+    /// The player's name.
     pub name: String,
+    /// Question labels, in index order.
     pub question_labels: Vec<i64>,
+    /// Answer labels, in index order.
     pub answer_labels: Vec<i64>,
 }
 
 impl Party {
+    /// Number of questions.
     pub fn questions(&self) -> usize {
         self.question_labels.len()
     }
+    /// Number of answers.
     pub fn answers(&self) -> usize {
         self.answer_labels.len()
     }
@@ -32,20 +39,26 @@ impl Party {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum ScoreKind {
+    /// Win/lose scores (0 or 1) weighted by a question distribution: a game.
     Win,
+    /// Real scores: a Bell expression or a scored game.
     Score,
 }
 
+/// The flat table every bound reads: players, question weights, the score of every joint question
+/// and answer, and a constant term.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Scenario {
-    pub parties: Vec<Party>,
+    parties: Vec<Party>,
     /// Weight of each joint question.
-    pub weights: Vec<f64>,
+    weights: Vec<f64>,
     /// `V(a|q)` at `q * joint_answers + a`.
-    pub scores: Vec<f64>,
+    scores: Vec<f64>,
     /// Constant term of a Bell expression.
-    pub offset: f64,
-    pub kind: ScoreKind,
+    offset: f64,
+    kind: ScoreKind,
+    /// `weights[q] · scores[q·A + a]`, computed once (the tables are private so it never goes
+    /// stale).
     objective: Vec<f64>,
 }
 
@@ -75,8 +88,20 @@ pub fn index_of(digits: &[usize], radices: &[usize]) -> usize {
 
 impl Scenario {
     /// Builds a scenario; `weights` has one entry per joint question, `scores` one per joint
-    /// question and answer.
+    /// question and answer (first player most significant). Every table is checked as for
+    /// untrusted input ([`Scenario::checked`]); a wrong one is an [`Error::InvalidArgument`].
     pub fn new(
+        parties: Vec<Party>,
+        weights: Vec<f64>,
+        scores: Vec<f64>,
+        offset: f64,
+        kind: ScoreKind,
+    ) -> Result<Self> {
+        Scenario::checked(parties, weights, scores, offset, kind).map_err(Error::InvalidArgument)
+    }
+
+    /// The scenario of tables whose lengths the caller has made right (no other check).
+    pub(crate) fn from_parts(
         parties: Vec<Party>,
         weights: Vec<f64>,
         scores: Vec<f64>,
@@ -91,8 +116,6 @@ impl Scenario {
             kind,
             objective: Vec::new(),
         };
-        assert_eq!(s.weights.len(), s.joint_questions());
-        assert_eq!(s.scores.len(), s.joint_questions() * s.joint_answers());
         let na = s.joint_answers();
         s.objective = s
             .scores
@@ -142,7 +165,7 @@ impl Scenario {
         if !offset.is_finite() {
             return Err(format!("the constant term is {offset}: it must be finite"));
         }
-        let s = Scenario::new(parties, weights, scores, offset, kind);
+        let s = Scenario::from_parts(parties, weights, scores, offset, kind);
         let (lo, hi) = s.value_range();
         if !lo.is_finite() || !hi.is_finite() || s.objective.iter().any(|c| !c.is_finite()) {
             return Err(format!(
@@ -152,18 +175,49 @@ impl Scenario {
         Ok(s)
     }
 
+    /// Number of players.
+    /// The players with their question and answer labels.
+    pub fn parties(&self) -> &[Party] {
+        &self.parties
+    }
+
+    /// Weight of each joint question.
+    pub fn weights(&self) -> &[f64] {
+        &self.weights
+    }
+
+    /// `V(a|q)` at `q * joint_answers + a`.
+    pub fn scores(&self) -> &[f64] {
+        &self.scores
+    }
+
+    /// Constant term (of a Bell expression; 0 for a game).
+    pub fn offset(&self) -> f64 {
+        self.offset
+    }
+
+    /// Win/lose or real scores.
+    pub fn kind(&self) -> ScoreKind {
+        self.kind
+    }
+
+    /// Number of players.
     pub fn players(&self) -> usize {
         self.parties.len()
     }
+    /// Questions per player (the radices of joint question indices).
     pub fn question_radices(&self) -> Vec<usize> {
         self.parties.iter().map(Party::questions).collect()
     }
+    /// Answers per player (the radices of joint answer indices).
     pub fn answer_radices(&self) -> Vec<usize> {
         self.parties.iter().map(Party::answers).collect()
     }
+    /// Number of joint questions.
     pub fn joint_questions(&self) -> usize {
         self.parties.iter().map(Party::questions).product()
     }
+    /// Number of joint answers.
     pub fn joint_answers(&self) -> usize {
         self.parties.iter().map(Party::answers).product()
     }
@@ -259,7 +313,7 @@ impl Scenario {
                 scores[q * na + a] = self.scores[oq * na + index_of(&oad, &old_ar)];
             }
         }
-        Scenario::new(parties, weights, scores, self.offset, self.kind)
+        Scenario::from_parts(parties, weights, scores, self.offset, self.kind)
     }
 
     /// Smallest and largest possible value over all behaviours (each question's best and worst
@@ -339,17 +393,24 @@ impl Scenario {
 /// Sizes and cost estimates shown by `check` and used to refuse work that would not finish.
 #[derive(Debug, Clone, Serialize)]
 pub struct Sizes {
+    /// Number of players.
     pub players: usize,
+    /// Questions per player.
     pub questions: Vec<usize>,
+    /// Answers per player.
     pub answers: Vec<usize>,
+    /// Joint questions.
     pub joint_questions: usize,
+    /// Joint answers.
     pub joint_answers: usize,
+    /// Entries of the score table.
     pub table_entries: usize,
     /// Number of deterministic strategies (as a float: it overflows integers quickly).
     pub deterministic_strategies: f64,
 }
 
 impl Sizes {
+    /// The sizes of `s`.
     pub fn of(s: &Scenario) -> Self {
         Sizes {
             players: s.players(),
@@ -410,9 +471,47 @@ mod tests {
             scores,
             0.0,
             ScoreKind::Win,
-        );
+        )
+        .unwrap();
         assert_eq!(s.value_of_strategy(&[vec![0, 0], vec![0, 0]]), 0.75);
         assert_eq!(s.value_of_strategy(&[vec![0, 1], vec![1, 1]]), 0.25);
         assert_eq!(s.value_range(), (0.0, 1.0));
+    }
+
+    #[test]
+    fn new_refuses_tables_that_do_not_fit_the_players() {
+        let parties = || vec![party("a", 2, 2), party("b", 2, 2)];
+        let wrong_length =
+            Scenario::new(parties(), vec![0.25; 3], vec![0.0; 16], 0.0, ScoreKind::Win);
+        assert!(matches!(wrong_length, Err(Error::InvalidArgument(m)) if m.contains("3 weights")));
+        let nan = Scenario::new(
+            parties(),
+            vec![0.25; 4],
+            vec![f64::NAN; 16],
+            0.0,
+            ScoreKind::Score,
+        );
+        assert!(matches!(nan, Err(Error::InvalidArgument(_))));
+        let negative = Scenario::new(
+            parties(),
+            vec![-0.25; 4],
+            vec![0.0; 16],
+            0.0,
+            ScoreKind::Win,
+        );
+        assert!(matches!(negative, Err(Error::InvalidArgument(_))));
+        let s = Scenario::new(
+            parties(),
+            vec![0.25; 4],
+            vec![1.0; 16],
+            0.5,
+            ScoreKind::Score,
+        )
+        .unwrap();
+        assert_eq!(s.objective(), &[0.25; 16][..]);
+        assert_eq!(
+            (s.offset(), s.kind(), s.players()),
+            (0.5, ScoreKind::Score, 2)
+        );
     }
 }

@@ -9,11 +9,14 @@ use num_complex::Complex64;
 
 use crate::model::scenario::{at_most, digits, Scenario};
 
+/// A complex matrix.
 pub type CMatrix = DMatrix<Complex64>;
+/// A complex vector.
 pub type CVector = DVector<Complex64>;
 
 /// Tolerances for checking a strategy file.
 pub const NORM_TOLERANCE: f64 = 1e-6;
+/// Tolerance of the POVM checks (Hermitian, positive, summing to the identity).
 pub const POVM_TOLERANCE: f64 = 1e-7;
 
 /// A strategy's value with the error term of its evaluation.
@@ -58,9 +61,12 @@ pub fn clean_povm(povm: Vec<CMatrix>) -> Vec<CMatrix> {
     clipped.iter().map(|m| &inv_sqrt * m * &inv_sqrt).collect()
 }
 
+/// A pure state shared by the players and a POVM per player and question.
 #[derive(Debug, Clone, PartialEq)]
 pub struct QuantumStrategy {
+    /// Local dimension of each player.
     pub dims: Vec<usize>,
+    /// Amplitudes in the product basis, first player most significant.
     pub state: CVector,
     /// `measurements[player][question][answer]`.
     pub measurements: Vec<Vec<Vec<CMatrix>>>,
@@ -90,6 +96,7 @@ pub fn apply_on_axis(psi: &CVector, dims: &[usize], axis: usize, m: &CMatrix) ->
 }
 
 impl QuantumStrategy {
+    /// The joint dimension.
     pub fn total_dim(&self) -> usize {
         self.dims.iter().product()
     }
@@ -202,7 +209,7 @@ impl QuantumStrategy {
             };
             sum = next;
         };
-        add(s.offset);
+        add(s.offset());
         for (c, pr) in s.objective().iter().zip(&p) {
             if *c != 0.0 {
                 add(c * pr);
@@ -216,7 +223,7 @@ impl QuantumStrategy {
             f64::INFINITY
         } else {
             weight * per_probability
-                + 4.0 * unit * (magnitude + s.offset.abs())
+                + 4.0 * unit * (magnitude + s.offset().abs())
                 + unit * value.abs()
         };
         CertifiedValue {
@@ -279,7 +286,7 @@ impl QuantumStrategy {
             return Err(("state".into(), format!("the state has norm {norm}, not 1")));
         }
         for (i, player) in self.measurements.iter().enumerate() {
-            let p = &s.parties[i];
+            let p = &s.parties()[i];
             let d = self.dims[i];
             for (x, povm) in player.iter().enumerate() {
                 let mut sum = CMatrix::zeros(d, d);

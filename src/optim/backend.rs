@@ -1,6 +1,6 @@
 //! The SDP backends behind one trait, and the automatic choice between them in one function
 //! ([`choose`]). Adding a backend means a variant of [`Backend`], an implementation of
-//! [`SdpBackend`] in its own file, and a line in [`backend_for`] and [`choose`].
+//! [`SdpBackend`] in its own file, and a line in `backend_for` and [`choose`].
 
 use serde::{Deserialize, Serialize};
 
@@ -19,7 +19,8 @@ pub enum Backend {
     Auto,
     /// clarabel, with the PSD cone as a dense triangle block.
     Clarabel,
-    /// The moment-matrix interior-point method ([`super::moment_ipm`]).
+    /// The moment-matrix interior-point method (HKM with Mehrotra steps on the m×m Schur
+    /// complement, m = number of moments).
     MomentIpm,
 }
 

@@ -15,38 +15,53 @@ use good_lp::{
 use super::SolveStatus;
 use crate::error::{Error, Result};
 
+/// How a row relates its left side to its right-hand side.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Relation {
+    /// At most.
     Le,
+    /// At least.
     Ge,
+    /// Equal.
     Eq,
 }
 
+/// A linear constraint `Σ c_j x_j (≤ | ≥ | =) rhs`.
 #[derive(Debug, Clone)]
 pub struct Row {
+    /// `(variable, coefficient)` pairs.
     pub terms: Vec<(usize, f64)>,
+    /// The relation.
     pub relation: Relation,
+    /// The right-hand side.
     pub rhs: f64,
 }
 
+/// A variable's bounds and integrality.
 #[derive(Debug, Clone, Copy)]
 pub struct VarBounds {
+    /// Lower bound (−∞ for none).
     pub lower: f64,
+    /// Upper bound (+∞ for none).
     pub upper: f64,
+    /// Whether the variable must be an integer (MILP).
     pub integer: bool,
 }
 
 impl VarBounds {
+    /// `x ≥ 0`.
     pub const NONNEGATIVE: VarBounds = VarBounds {
         lower: 0.0,
         upper: f64::INFINITY,
         integer: false,
     };
+    /// No bounds.
     pub const FREE: VarBounds = VarBounds {
         lower: f64::NEG_INFINITY,
         upper: f64::INFINITY,
         integer: false,
     };
+    /// `x ∈ {0, 1}`.
     pub const BINARY: VarBounds = VarBounds {
         lower: 0.0,
         upper: 1.0,
@@ -57,9 +72,13 @@ impl VarBounds {
 /// `maximise (or minimise) cᵀx subject to rows, bounds`.
 #[derive(Debug, Clone, Default)]
 pub struct LinearProgram {
+    /// Each variable's bounds.
     pub bounds: Vec<VarBounds>,
+    /// Objective coefficients `c`.
     pub objective: Vec<f64>,
+    /// Maximise (else minimise).
     pub maximise: bool,
+    /// The constraints.
     pub rows: Vec<Row>,
     /// A fact the caller vouches for: every feasible point has `|x_j| ≤ box` for all j. With it,
     /// the interior-point route turns its (slightly infeasible) dual solution into a bound on
@@ -69,9 +88,12 @@ pub struct LinearProgram {
     pub time_limit_seconds: Option<f64>,
 }
 
+/// An LP optimum (or, for a MILP stopped by its time limit, an incumbent).
 #[derive(Debug, Clone)]
 pub struct LpSolution {
+    /// The point.
     pub x: Vec<f64>,
+    /// Its objective value.
     pub objective: f64,
     /// `solved`, `almost solved` when the interior-point method met only its relaxed
     /// tolerances, or `stopped at the time limit` when the simplex/branch and bound ran out of
@@ -108,6 +130,7 @@ impl std::fmt::Display for LpMethod {
 pub const SIMPLEX_TIME_LIMIT_SECONDS: f64 = 600.0;
 
 impl LinearProgram {
+    /// An empty programme.
     pub fn new(maximise: bool) -> Self {
         LinearProgram {
             maximise,
@@ -122,6 +145,7 @@ impl LinearProgram {
         self.bounds.len() - 1
     }
 
+    /// Adds a constraint.
     pub fn add_row(&mut self, terms: Vec<(usize, f64)>, relation: Relation, rhs: f64) {
         self.rows.push(Row {
             terms,
@@ -130,6 +154,7 @@ impl LinearProgram {
         });
     }
 
+    /// Number of variables.
     pub fn vars(&self) -> usize {
         self.bounds.len()
     }

@@ -48,6 +48,7 @@ pub struct SdpProblem {
     pub variables: usize,
     /// `c` (maximised) and `c0`.
     pub objective: Vec<f64>,
+    /// `c0`.
     pub objective_constant: f64,
     /// Rows `(terms, e)` of `E y = e`.
     pub equalities: Vec<(Vec<(usize, f64)>, f64)>,
@@ -100,6 +101,7 @@ pub struct SdpSolution {
     pub seconds: f64,
     /// Relative duality gap and largest relative residual at the returned point.
     pub gap: f64,
+    /// Largest relative residual at the returned point.
     pub residual: f64,
     /// Which backend produced the point.
     pub solver: Backend,

@@ -83,14 +83,14 @@ impl TargetChoice {
     fn resolve(&self, s: &Scenario, default_player: usize) -> Result<(usize, usize)> {
         let p = match &self.player {
             Some(n) => s
-                .parties
+                .parties()
                 .iter()
                 .position(|p| &p.name == n)
                 .ok_or_else(|| Error::InvalidArgument(format!("there is no player `{n}`")))?,
             None => default_player,
         };
         let party = s
-            .parties
+            .parties()
             .get(p)
             .ok_or_else(|| Error::InvalidArgument(format!("there is no player number {p}")))?;
         let x = match self.question {
@@ -181,7 +181,8 @@ pub fn randomness<'a>(game: &'a Game, options: &RandomnessOptions) -> Result<Ran
         .map(|&(p, x)| {
             format!(
                 "{} (question {})",
-                s.parties[p].name, s.parties[p].question_labels[x]
+                s.parties()[p].name,
+                s.parties()[p].question_labels[x]
             )
         })
         .collect::<Vec<_>>()

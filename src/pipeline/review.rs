@@ -88,7 +88,7 @@ fn chsh_correlator(game: &Game, score: f64) -> Option<f64> {
                 .iter()
                 .zip(game.scenario.objective())
                 .all(|(x, y)| (x - y).abs() < 1e-12)
-            && (a.scenario.offset - game.scenario.offset).abs() < 1e-12
+            && (a.scenario.offset() - game.scenario.offset()).abs() < 1e-12
     };
     if same(&as_game) {
         Some(8.0 * score - 4.0)
@@ -147,11 +147,11 @@ pub fn review<'a>(
         None => None,
         Some(r) => {
             let player = s
-                .parties
+                .parties()
                 .iter()
                 .position(|q| q.name == r.player)
                 .ok_or_else(|| bad(format!("randomness: there is no player `{}`", r.player)))?;
-            let question = s.parties[player]
+            let question = s.parties()[player]
                 .question_labels
                 .iter()
                 .position(|&l| l == r.question)

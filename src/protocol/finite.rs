@@ -17,17 +17,24 @@ use crate::model::scenario::{Scenario, ScoreKind};
 /// (for a game: wins, with scores in [0, 1]).
 #[derive(Debug, Clone, Copy, Serialize)]
 pub struct Observation {
+    /// Rounds played.
     pub rounds: u64,
+    /// Sum of the per-round scores.
     pub score_sum: f64,
+    /// Smallest possible per-round score.
     pub low: f64,
+    /// Largest possible per-round score.
     pub high: f64,
     /// Whether scores are 0/1 (then the exact binomial bound applies).
     pub binary: bool,
 }
 
+/// What an observation certifies against the classical value.
 #[derive(Debug, Clone, Serialize)]
 pub struct Margin {
+    /// Rounds played.
     pub rounds: u64,
+    /// Observed mean score per round.
     pub observed_mean: f64,
     /// The error probability α of the confidence bounds (confidence 1 − α).
     pub alpha: f64,
@@ -35,6 +42,7 @@ pub struct Margin {
     pub lower_confidence: f64,
     /// Exact binomial (Clopper–Pearson) lower confidence bound, for win/lose scores.
     pub lower_confidence_exact: Option<f64>,
+    /// The classical value.
     pub classical: f64,
     /// `lower_confidence − classical`: positive when the data certify a score above every
     /// classical strategy at confidence 1 − α.
@@ -48,14 +56,18 @@ pub struct Margin {
     /// Rounds needed for `p_value ≤ target_p_value` if the devices score `expected_mean` on
     /// average (None when that is not above the classical value).
     pub rounds_needed: Option<u64>,
+    /// The p-value the rounds needed aim at.
     pub target_p_value: f64,
+    /// The mean score the rounds needed assume.
     pub expected_mean: f64,
+    /// The assumptions behind these figures, in words.
     pub assumptions: Vec<&'static str>,
 }
 
 /// What the user reported of a run, before it is checked against the game.
 #[derive(Debug, Clone, Copy, Default)]
 pub struct ObservedRun {
+    /// Rounds played.
     pub rounds: u64,
     /// Rounds won (a game with win/lose scores only).
     pub wins: Option<u64>,
@@ -79,7 +91,7 @@ pub fn observation(s: &Scenario, run: &ObservedRun) -> Result<Observation> {
     let (game_lo, game_hi) = s.per_round_score_range();
     match (run.wins, run.score_sum) {
         (Some(w), None) => {
-            if s.kind != ScoreKind::Win || !s.weights_are_probabilities() {
+            if s.kind() != ScoreKind::Win || !s.weights_are_probabilities() {
                 return Err(Error::InvalidArgument(
                     "wins apply to a game with a win predicate and a question distribution; for a Bell expression or a score give the score sum".into(),
                 ));

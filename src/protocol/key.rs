@@ -18,10 +18,12 @@ pub fn binary_entropy(p: f64) -> f64 {
 
 /// A lower bound on H(A|E) per round, given the score in the bound's own convention.
 pub trait EntropyBound {
+    /// Name and source of the bound.
     fn name(&self) -> &'static str;
     /// The scores the bound is defined for (finite, and no higher than any quantum device can
     /// reach): anything outside is refused rather than extrapolated.
     fn score_range(&self) -> (f64, f64);
+    /// The bound on H(A|E) in bits at `score` (0 where nothing is certified).
     fn entropy(&self, score: f64) -> f64;
 }
 
@@ -50,15 +52,19 @@ impl EntropyBound for ChshEntropyBound {
     }
 }
 
+/// Key figures at a score and error rate.
 #[derive(Debug, Clone, Serialize)]
 pub struct KeyRate {
+    /// The score (CHSH correlator value).
     pub score: f64,
+    /// The quantum bit error rate.
     pub qber: f64,
     /// Lower bound on H(A|E) per round.
     pub conditional_entropy: f64,
     /// Asymptotic key rate per round, H(A|E) − h(Q) (error correction at the Shannon limit),
     /// floored at 0.
     pub key_rate: f64,
+    /// Which entropy bound.
     pub bound: &'static str,
 }
 

@@ -1,6 +1,6 @@
 //! What bounds mean for a device-independent protocol: finite-statistics margins ([`finite`]),
-//! certified randomness ([`randomness`]), key figures ([`key`]) and the review report
-//! ([`review`]). Every figure comes with the assumptions it rests on; none is a security proof.
+//! certified randomness ([`randomness`]) and key figures ([`key`]); the review that puts them
+//! together is [`crate::pipeline::review`]. Every figure comes with the assumptions it rests on; none is a security proof.
 
 pub mod finite;
 pub mod key;

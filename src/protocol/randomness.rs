@@ -25,11 +25,14 @@ use crate::optim::SolveStatus;
 /// Whose answers the adversary guesses: one or two (player, question index) pairs.
 #[derive(Debug, Clone, PartialEq, Eq, Serialize)]
 pub struct Target {
+    /// (player, question index) of each guessed answer.
     pub parts: Vec<(usize, usize)>,
 }
 
+/// A bound on the guessing probability at one score.
 #[derive(Debug, Clone, Serialize)]
 pub struct Randomness {
+    /// The score asked for.
     pub score: f64,
     /// The score the SDP was solved at: `score`, or slightly below it when the solver failed on
     /// the nearly flat feasible set at the edge of the quantum set. A lower score only enlarges
@@ -58,7 +61,7 @@ pub struct Randomness {
 fn event_terms(s: &Scenario, parts: &[(usize, usize, usize)]) -> Vec<(Word, f64)> {
     let mut terms: Vec<(Word, f64)> = vec![(Vec::new(), 1.0)];
     for &(player, question, answer) in parts {
-        let last = s.parties[player].answers() - 1;
+        let last = s.parties()[player].answers() - 1;
         let op = |a: usize| Projector {
             player: player as u16,
             setting: question as u32,
@@ -99,7 +102,7 @@ pub fn guessing_probability(
     let guesses: usize = target
         .parts
         .iter()
-        .map(|&(p, _)| s.parties.get(p).map_or(1, |q| q.answers()))
+        .map(|&(p, _)| s.parties().get(p).map_or(1, |q| q.answers()))
         .product();
     let (base, est) = npa::sized_relaxation(s, &npa::NpaOptions::at(level.clone()))?;
     let g = guesses as f64;
@@ -232,7 +235,7 @@ fn guessing_probability_at(
     let radices: Vec<usize> = target
         .parts
         .iter()
-        .map(|&(p, _)| s.parties[p].answers())
+        .map(|&(p, _)| s.parties()[p].answers())
         .collect();
     let guesses: usize = radices.iter().product();
     let per = m + 1; // λ_e, then the moments

@@ -4,8 +4,11 @@
 
 use std::fmt::Write;
 
+/// One line of a chart.
 pub struct Series {
+    /// Legend text.
     pub name: String,
+    /// (x, y) points, in order.
     pub points: Vec<(f64, f64)>,
 }
 
@@ -197,26 +200,6 @@ fn escape(s: &str) -> String {
         .replace('"', "&quot;")
 }
 
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn chart_contains_every_point() {
-        let svg = line_chart(
-            "t",
-            "x",
-            "y",
-            &[Series {
-                name: "a".into(),
-                points: vec![(0.0, 1.0), (1.0, 0.5), (2.0, 0.25)],
-            }],
-        );
-        assert!(svg.starts_with("<svg") && svg.trim_end().ends_with("</svg>"));
-        assert_eq!(svg.matches("<circle").count(), 3);
-    }
-}
-
 /// A strategy's value against white-noise visibility and detection efficiency, with the
 /// classical value when known.
 pub fn robustness(
@@ -292,4 +275,24 @@ pub fn min_entropy(report: &crate::pipeline::RandomnessReport) -> String {
                 .collect(),
         }],
     )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn chart_contains_every_point() {
+        let svg = line_chart(
+            "t",
+            "x",
+            "y",
+            &[Series {
+                name: "a".into(),
+                points: vec![(0.0, 1.0), (1.0, 0.5), (2.0, 0.25)],
+            }],
+        );
+        assert!(svg.starts_with("<svg") && svg.trim_end().ends_with("</svg>"));
+        assert_eq!(svg.matches("<circle").count(), 3);
+    }
 }

@@ -168,7 +168,7 @@ struct GameReportView<'a> {
 /// `{player: {"questions": [...labels], "answers": [...labels]}}`.
 pub fn strategy_json(s: &Scenario, st: &DeterministicStrategy) -> Value {
     let mut m = serde_json::Map::new();
-    for (p, ans) in s.parties.iter().zip(&st.answers) {
+    for (p, ans) in s.parties().iter().zip(&st.answers) {
         m.insert(
             p.name.clone(),
             serde_json::json!({
@@ -195,9 +195,9 @@ impl<'a> GameReportView<'a> {
             command: r.command,
             game: &r.game.name,
             source: &r.game.source,
-            kind: s.kind,
+            kind: s.kind(),
             players: s
-                .parties
+                .parties()
                 .iter()
                 .map(|p| PlayerView {
                     name: &p.name,

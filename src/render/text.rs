@@ -53,7 +53,7 @@ pub fn game_report(r: &GameReport) -> String {
         ),
         (
             "players".into(),
-            s.parties
+            s.parties()
                 .iter()
                 .map(|p| format!("{} {}×{}", p.name, p.questions(), p.answers()))
                 .collect::<Vec<_>>()
@@ -67,7 +67,7 @@ pub fn game_report(r: &GameReport) -> String {
     if let Some(sizes) = &r.sizes {
         let (z, e) = (&sizes.sizes, &sizes.classical);
         let (lo, hi) = sizes.value_range;
-        rows.push(("kind".into(), format!("{:?}", s.kind).to_lowercase()));
+        rows.push(("kind".into(), format!("{:?}", s.kind()).to_lowercase()));
         rows.push((
             "table".into(),
             format!(
@@ -81,7 +81,7 @@ pub fn game_report(r: &GameReport) -> String {
                 "{} deterministic; search enumerates {} (responder: {})",
                 count_text(z.deterministic_strategies),
                 count_text(e.enumerated_strategies),
-                s.parties[e.responder].name
+                s.parties()[e.responder].name
             ),
         ));
         rows.push(("value range".into(), format!("[{}, {}]", num(lo), num(hi))));
@@ -217,9 +217,9 @@ pub fn game_report(r: &GameReport) -> String {
 }
 
 fn strategy_text(s: &Scenario, st: &DeterministicStrategy) -> String {
-    let width = s.parties.iter().map(|p| p.name.len()).max().unwrap_or(0);
+    let width = s.parties().iter().map(|p| p.name.len()).max().unwrap_or(0);
     let mut out = String::new();
-    for (p, ans) in s.parties.iter().zip(&st.answers) {
+    for (p, ans) in s.parties().iter().zip(&st.answers) {
         let cells: Vec<String> = p
             .question_labels
             .iter()

@@ -24,6 +24,7 @@ use crate::optim::lp::{LinearProgram, Relation, VarBounds};
 /// Largest number of deterministic strategies enumerated without `force`.
 pub const STRATEGY_LIMIT: f64 = 200_000.0;
 
+/// The outcome of a locality test.
 #[derive(Debug, Clone, Serialize)]
 pub struct LocalityReport {
     /// Whether the correlations as given have a local model (never when they signal).
@@ -32,6 +33,7 @@ pub struct LocalityReport {
     pub visibility: f64,
     /// Largest violation of the no-signalling conditions by the input.
     pub signalling: f64,
+    /// Deterministic strategies enumerated.
     pub deterministic_strategies: usize,
     /// When the input signals: its projection onto the no-signalling set, on which the test ran.
     #[serde(skip_serializing_if = "Option::is_none")]
@@ -39,6 +41,7 @@ pub struct LocalityReport {
     /// Separating Bell expression `c(a|q)` (present when not local): local bound 0.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub separating: Option<SeparatingExpression>,
+    /// Wall-clock time.
     pub seconds: f64,
 }
 
@@ -58,6 +61,7 @@ impl Correlations {
     }
 }
 
+/// A Bell expression that separates the correlations from the local set.
 #[derive(Debug, Clone, Serialize)]
 pub struct SeparatingExpression {
     /// `c[q * joint_answers + a]`.

@@ -30,13 +30,17 @@ use crate::optim::lp::{LinearProgram, Relation, VarBounds};
 /// A deterministic strategy: `answers[i][x]` is player i's answer index to question index x.
 #[derive(Debug, Clone, PartialEq, Eq, Serialize)]
 pub struct DeterministicStrategy {
+    /// `answers[i][x]`: player i's answer index to question index x.
     pub answers: Vec<Vec<usize>>,
 }
 
+/// Which method produced a classical value.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum Method {
+    /// Branch and bound over strategies.
     Search,
+    /// A mixed-integer linear programme.
     Milp,
 }
 
@@ -52,19 +56,24 @@ pub enum ClassicalStatus {
     Incumbent,
 }
 
+/// A classical value (or incumbent) with the strategy that attains it.
 #[derive(Debug, Clone, Serialize)]
 pub struct ClassicalValue {
     /// The value of the strategy below, recomputed from the table. The classical value itself
     /// when `status` is `exact`, else only a lower bound on it.
     pub value: f64,
+    /// An optimal (or the best found) deterministic strategy.
     pub strategy: DeterministicStrategy,
+    /// How it was computed.
     pub method: Method,
+    /// Exact, or an incumbent.
     pub status: ClassicalStatus,
     /// Why the status is not exact.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub note: Option<String>,
     /// Search nodes visited (branch and bound only).
     pub nodes: u64,
+    /// Wall-clock time.
     pub seconds: f64,
 }
 
@@ -74,7 +83,9 @@ pub enum Choice {
     /// Branch and bound when its worst case is affordable, else the MILP, else refuse.
     #[default]
     Auto,
+    /// Branch and bound.
     Search,
+    /// The MILP.
     Milp,
 }
 
@@ -97,13 +108,15 @@ pub struct ClassicalEstimate {
     pub enumerated_strategies: f64,
     /// Worst-case floating-point operations of the search.
     pub search_work: f64,
+    /// Variables of the MILP.
     pub milp_variables: f64,
 }
 
 impl ClassicalEstimate {
+    /// The estimates for `s`.
     pub fn of(s: &Scenario) -> Self {
         let log_strategies: Vec<f64> = s
-            .parties
+            .parties()
             .iter()
             .map(|p| p.questions() as f64 * (p.answers() as f64).ln())
             .collect();
@@ -119,14 +132,14 @@ impl ClassicalEstimate {
             .map(|i| log_strategies[i])
             .sum::<f64>()
             .exp();
-        let r = &s.parties[responder];
+        let r = &s.parties()[responder];
         let per_leaf = (r.questions() * r.answers()) as f64;
         ClassicalEstimate {
             responder,
             enumerated_strategies: enumerated,
             search_work: enumerated * per_leaf * 2.0,
             milp_variables: (s.joint_questions() * s.joint_answers()) as f64
-                + s.parties
+                + s.parties()
                     .iter()
                     .map(|p| (p.questions() * p.answers()) as f64)
                     .sum::<f64>(),
@@ -264,7 +277,7 @@ pub fn hill_climb(s: &Scenario, restarts: usize, seed: u64) -> (f64, Vec<Vec<usi
     let mut best = (f64::NEG_INFINITY, Vec::new());
     for _ in 0..restarts {
         let mut answers: Vec<Vec<usize>> = s
-            .parties
+            .parties()
             .iter()
             .map(|p| (0..p.questions()).map(|_| rng.below(p.answers())).collect())
             .collect();
@@ -292,7 +305,7 @@ pub fn estimate_search(s: &Scenario) -> SearchEstimate {
     let est = ClassicalEstimate::of(s);
     let lay = Layout::new(s, est.responder);
     let (incumbent, _) = hill_climb(s, 8, 0x5eed);
-    let shared = SharedBest(AtomicU64::new((incumbent - s.offset).to_bits()));
+    let shared = SharedBest(AtomicU64::new((incumbent - s.offset()).to_bits()));
     let mut sr = Searcher::new(&lay, &shared, 1e-12);
     let mut rng = Rng(0x0dd5_eed5);
     let start = Instant::now();
@@ -338,13 +351,13 @@ impl Layout {
     fn new(s: &Scenario, responder: usize) -> Self {
         let n = s.players();
         let others: Vec<usize> = (0..n).filter(|&i| i != responder).collect();
-        let other_q: Vec<usize> = others.iter().map(|&i| s.parties[i].questions()).collect();
-        let other_a: Vec<usize> = others.iter().map(|&i| s.parties[i].answers()).collect();
+        let other_q: Vec<usize> = others.iter().map(|&i| s.parties()[i].questions()).collect();
+        let other_a: Vec<usize> = others.iter().map(|&i| s.parties()[i].answers()).collect();
         let rows: usize = other_q.iter().product();
         let other_answers: usize = other_a.iter().product();
         let (y, b) = (
-            s.parties[responder].questions(),
-            s.parties[responder].answers(),
+            s.parties()[responder].questions(),
+            s.parties()[responder].answers(),
         );
         let qr = s.question_radices();
         let ar = s.answer_radices();
@@ -591,7 +604,7 @@ pub fn search(s: &Scenario, progress: Option<Progress>) -> ClassicalValue {
     // A good strategy from hill climbing prunes from the first node on. Ties with it are kept,
     // so the optimum (which is at least as good) is never pruned.
     let (incumbent, climbed) = hill_climb(s, 4, 0x5eed);
-    let results = search_tasks(&lay, incumbent - s.offset, tolerance, progress);
+    let results = search_tasks(&lay, incumbent - s.offset(), tolerance, progress);
     // Should rounding still have pruned every leaf, the search is repeated without the seed
     // (then the first leaf is always reached).
     let results = if results.iter().any(|r| r.1.is_some()) {
@@ -702,7 +715,7 @@ pub fn best_response(s: &Scenario, answers: &[Vec<usize>], who: usize) -> Vec<us
     let qr = s.question_radices();
     let ar = s.answer_radices();
     let na = s.joint_answers();
-    let p = &s.parties[who];
+    let p = &s.parties()[who];
     let mut gain = vec![0.0; p.questions() * p.answers()];
     let (mut qd, mut ad) = (vec![0; qr.len()], vec![0; qr.len()]);
     for q in 0..s.joint_questions() {
@@ -744,7 +757,7 @@ pub fn milp_with_time_limit(s: &Scenario, seconds: f64) -> Result<ClassicalValue
     let n = s.players();
     let mut lp = LinearProgram::new(true);
     let indicator: Vec<Vec<Vec<usize>>> = s
-        .parties
+        .parties()
         .iter()
         .map(|p| {
             (0..p.questions())
@@ -809,12 +822,12 @@ pub fn milp_with_time_limit(s: &Scenario, seconds: f64) -> Result<ClassicalValue
         .collect();
     let value = s.value_of_strategy(&answers);
     let proven = sol.status == crate::optim::SolveStatus::Solved;
-    if proven && (value - (sol.objective + s.offset)).abs() > 1e-6 * (1.0 + value.abs()) {
+    if proven && (value - (sol.objective + s.offset())).abs() > 1e-6 * (1.0 + value.abs()) {
         return Err(Error::solver(
             "classical MILP",
             format!(
                 "the rounded strategy scores {value} but the solver reported {}",
-                sol.objective + s.offset
+                sol.objective + s.offset()
             ),
         ));
     }

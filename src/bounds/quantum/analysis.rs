@@ -11,6 +11,7 @@ use crate::model::strategy::{CMatrix, QuantumStrategy};
 /// Largest joint dimension for which the partial transpose (a D×D matrix) is computed.
 pub const PPT_DIMENSION_LIMIT: usize = 1024;
 
+/// Entanglement across one bipartition of the players.
 #[derive(Debug, Clone, Serialize)]
 pub struct Bipartition {
     /// Player names on one side (the rest are on the other).
@@ -72,7 +73,7 @@ pub fn bipartitions(s: &Scenario, st: &QuantumStrategy) -> Vec<Bipartition> {
             Bipartition {
                 side: (0..n)
                     .filter(|i| side >> i & 1 == 1)
-                    .map(|i| s.parties[i].name.clone())
+                    .map(|i| s.parties()[i].name.clone())
                     .collect(),
                 schmidt,
                 entropy_bits: entropy_bits.max(0.0),
@@ -107,10 +108,12 @@ fn partial_transpose(st: &QuantumStrategy, side: usize) -> CMatrix {
     out
 }
 
+/// How much noise and loss a strategy tolerates before it no longer beats the classical value.
 #[derive(Debug, Clone, Serialize)]
 pub struct Robustness {
     /// Value of the state mixed with white noise at visibility v is `v·value + (1−v)·noise_value`.
     pub value: f64,
+    /// Value of white noise (every player answering uniformly at random).
     pub noise_value: f64,
     /// Smallest visibility at which the strategy still beats the classical value (None when it
     /// never does).
@@ -120,6 +123,7 @@ pub struct Robustness {
     pub critical_detection_efficiency: Option<f64>,
 }
 
+/// Critical visibility and detection efficiency of `st` against the classical value.
 pub fn robustness(s: &Scenario, st: &QuantumStrategy, classical: f64) -> Robustness {
     let value = st.value(s);
     let noise_value = st.noise_value(s);

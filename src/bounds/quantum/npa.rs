@@ -155,6 +155,7 @@ impl NpaOptions {
 /// The moment matrix of a level: its generating words, its distinct moments (the variables),
 /// and each upper-triangle entry.
 pub struct MomentMatrix {
+    /// Generating words, indexing rows and columns.
     pub words: Vec<Word>,
     /// Variable index → the moment's representative word.
     pub moments: Vec<Word>,
@@ -162,15 +163,19 @@ pub struct MomentMatrix {
     pub entries: Vec<Entry>,
 }
 
+/// An entry of the moment matrix.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Entry {
+    /// Zero (orthogonal projectors).
     Zero,
+    /// The identity (the normalisation).
     Identity,
+    /// A moment variable.
     Moment(usize),
 }
 
 fn projectors(s: &Scenario) -> Vec<Vec<Projector>> {
-    s.parties
+    s.parties()
         .iter()
         .enumerate()
         .map(|(i, p)| projectors_of(i, p.questions(), p.answers() - 1))
@@ -295,6 +300,7 @@ pub fn generating_words(s: &Scenario, level: &Level) -> Result<Vec<Word>> {
 }
 
 impl MomentMatrix {
+    /// The moment matrix indexed by `words`: its distinct moments and entries.
     pub fn new(words: Vec<Word>) -> Self {
         let n = words.len();
         let mut index: BTreeMap<Word, usize> = BTreeMap::new();
@@ -327,6 +333,7 @@ impl MomentMatrix {
         }
     }
 
+    /// Side of the matrix.
     pub fn size(&self) -> usize {
         self.words.len()
     }
@@ -334,8 +341,11 @@ impl MomentMatrix {
 
 /// The NPA relaxation of a game at a level, ready to solve or to check a certificate against.
 pub struct Relaxation {
+    /// The level.
     pub level: Level,
+    /// The moment matrix.
     pub matrix: MomentMatrix,
+    /// The SDP: maximise the value over moment matrices that are PSD.
     pub problem: SdpProblem,
 }
 
@@ -344,7 +354,7 @@ pub struct Relaxation {
 pub fn relaxation(s: &Scenario, level: &Level) -> Result<Relaxation> {
     // Expanding the value into Collins–Gisin coordinates costs Π (1 + k_i) over the players at
     // their last answer, per table entry: checked before it is done.
-    let answers_last: Vec<usize> = s.parties.iter().map(|p| p.answers() - 1).collect();
+    let answers_last: Vec<usize> = s.parties().iter().map(|p| p.answers() - 1).collect();
     let mut expansion = 0.0;
     s.for_each_term(|_, ad, _| {
         expansion += ad
@@ -366,7 +376,7 @@ pub fn relaxation(s: &Scenario, level: &Level) -> Result<Relaxation> {
     let n = s.players();
     // The game's value in Collins–Gisin coordinates.
     let mut cg_objective = vec![0.0; cg.variables];
-    let mut constant = s.offset;
+    let mut constant = s.offset();
     let mut terms = Vec::new();
     s.for_each_term(|qd, ad, c| {
         constant += c * cg.expand(qd, ad, &mut terms);
@@ -443,14 +453,21 @@ pub fn relaxation(s: &Scenario, level: &Level) -> Result<Relaxation> {
 /// m×m Schur complement (m moments) and assembles it in about 4n⁴ operations, about 30 times.
 #[derive(Debug, Clone, Serialize)]
 pub struct NpaEstimate {
+    /// Side of the moment matrix.
     pub matrix_size: usize,
+    /// Distinct moments (SDP variables).
     pub moments: usize,
     /// Estimated seconds and memory with the solver that would run.
     pub seconds: f64,
+    /// Estimated memory with the solver that would run.
     pub memory_bytes: f64,
+    /// clarabel's estimated time.
     pub clarabel_seconds: f64,
+    /// clarabel's estimated memory.
     pub clarabel_memory_bytes: f64,
+    /// The moment-matrix method's estimated time.
     pub ipm_seconds: f64,
+    /// The moment-matrix method's estimated memory.
     pub ipm_memory_bytes: f64,
 }
 
@@ -505,7 +522,9 @@ pub struct NpaBound {
     pub verified_upper: f64,
     /// The solver's primal objective (the relaxation's value from below).
     pub primal: f64,
+    /// Side of the moment matrix.
     pub matrix_size: usize,
+    /// Distinct moments.
     pub moments: usize,
     /// How the solver ended (solved or almost solved).
     pub status: SolveStatus,
@@ -517,9 +536,11 @@ pub struct NpaBound {
     pub build_seconds: f64,
     /// Relative duality gap and residual at the returned point.
     pub gap: f64,
+    /// Largest relative residual at the returned point.
     pub residual: f64,
     /// The backend that produced the bound.
     pub solver: Backend,
+    /// The solution, with the dual vector for a certificate.
     #[serde(skip)]
     pub solution: Option<SdpSolution>,
 }

@@ -23,14 +23,18 @@ use crate::model::strategy::{apply_on_axis, CMatrix, CVector, QuantumStrategy};
 use crate::optim::backend::Backend;
 use crate::optim::sdp::{upper_index, AffineEntry, MatrixBlock, SdpProblem};
 
+/// How the see-saw searches (see the defaults).
 #[derive(Debug, Clone)]
 pub struct SeesawOptions {
     /// Local dimension per player; empty means [`default_dims`].
     pub dims: Vec<usize>,
+    /// Random restarts, run in parallel; the best is kept.
     pub restarts: usize,
+    /// Seed of the random starts (reported: runs are reproducible).
     pub seed: u64,
     /// Stop a run when a round improves the value by less than this.
     pub tolerance: f64,
+    /// Most rounds of one run.
     pub max_rounds: usize,
     /// Run even when the estimate says it would take more than an hour.
     pub limits: Limits,
@@ -68,7 +72,7 @@ pub fn estimate_seconds(s: &Scenario, opts: &SeesawOptions) -> f64 {
     let per_round =
         (terms * joint * joint + 10.0 * joint.powi(3) * (1.0 + s.players() as f64)) / 1e9;
     let povm: f64 = s
-        .parties
+        .parties()
         .iter()
         .zip(&dims)
         .filter(|(p, _)| p.answers() > 2)
@@ -79,6 +83,7 @@ pub fn estimate_seconds(s: &Scenario, opts: &SeesawOptions) -> f64 {
     batches * (50.0 * per_round + povm)
 }
 
+/// The best strategy found and its certified value.
 #[derive(Debug, Clone, Serialize)]
 pub struct SeesawResult {
     /// Value of the best strategy, recomputed by the Born rule and rounded down by its error
@@ -86,12 +91,17 @@ pub struct SeesawResult {
     pub quantum_lower: f64,
     /// The error term subtracted.
     pub value_error: f64,
+    /// Local dimensions used.
     pub dims: Vec<usize>,
+    /// Seed of the random starts.
     pub seed: u64,
+    /// Restarts run.
     pub restarts: usize,
     /// Rounds the best run took.
     pub rounds: usize,
+    /// Wall-clock time.
     pub seconds: f64,
+    /// The strategy (state and measurements).
     #[serde(skip)]
     pub strategy: QuantumStrategy,
 }
@@ -186,14 +196,14 @@ fn optimise_state(s: &Scenario, st: &mut QuantumStrategy) -> f64 {
                 |acc, (i, &v)| if v > acc.1 { (i, v) } else { acc },
             );
     st.state = eig.eigenvectors.column(top).into_owned();
-    s.offset + value
+    s.offset() + value
 }
 
 /// `B_{a|x}` for `player`: the value is `Σ_{x,a} tr(M_{a|x} B_{a|x})` with everyone else fixed.
 fn effective_operators(s: &Scenario, st: &QuantumStrategy, player: usize) -> Vec<Vec<CMatrix>> {
     let n = s.players();
     let d = st.dims[player];
-    let p = &s.parties[player];
+    let p = &s.parties()[player];
     let qr = s.question_radices();
     let ar = s.answer_radices();
     let na = s.joint_answers();
@@ -206,7 +216,7 @@ fn effective_operators(s: &Scenario, st: &QuantumStrategy, player: usize) -> Vec
     let others: usize = other_ar.iter().product();
     let (mut qd, mut ad) = (vec![0; n], vec![0; n]);
     for q in 0..s.joint_questions() {
-        if s.weights[q] == 0.0 {
+        if s.weights()[q] == 0.0 {
             continue;
         }
         digits(q, &qr, &mut qd);
@@ -398,7 +408,7 @@ fn run(
         dims: opts.dims.clone(),
         state: random_state(opts.dims.iter().product(), rng),
         measurements: s
-            .parties
+            .parties()
             .iter()
             .enumerate()
             .map(|(i, p)| {
@@ -543,7 +553,11 @@ pub const DEFAULT_JOINT_DIMENSION: usize = 64;
 /// most 8, then the largest reduced until the joint dimension is at most
 /// [`DEFAULT_JOINT_DIMENSION`].
 pub fn default_dims(s: &Scenario) -> Vec<usize> {
-    let mut dims: Vec<usize> = s.parties.iter().map(|p| p.answers().clamp(2, 8)).collect();
+    let mut dims: Vec<usize> = s
+        .parties()
+        .iter()
+        .map(|p| p.answers().clamp(2, 8))
+        .collect();
     while dims.iter().product::<usize>() > DEFAULT_JOINT_DIMENSION {
         let Some(k) = (0..dims.len())
             .filter(|&k| dims[k] > 2)

@@ -12,8 +12,11 @@ use std::collections::BTreeSet;
 /// One projector: `player`'s measurement `setting` with outcome `outcome` (never the last).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
 pub struct Projector {
+    /// The player.
     pub player: u16,
+    /// The question index.
     pub setting: u32,
+    /// The answer index.
     pub outcome: u32,
 }
 

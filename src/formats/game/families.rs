@@ -57,7 +57,7 @@ pub fn chsh_expression() -> GameSpec {
 }
 
 /// An XOR game from a sign table: question pair (x, y) is asked with probability proportional to
-/// |s[x][y]| and won iff (−1)^(a⊕b) = sign s[x][y]. Entries must be −1, 0 or 1.
+/// |s\[x\]\[y\]| and won iff (−1)^(a⊕b) = sign s\[x\]\[y\]. Entries must be −1, 0 or 1.
 pub fn xor_game(signs: &[Vec<i64>]) -> Result<GameSpec> {
     let qa = signs.len();
     let qb = signs.first().map_or(0, Vec::len);
@@ -201,7 +201,7 @@ pub fn cglmp(d: usize) -> Result<GameSpec> {
 }
 
 /// I3322 in Collins–Gisin form: −p(A1) − 2p(B1) − p(B2) + Σ c_ij p(A_i B_j) with
-/// c = [[1,1,1],[1,1,−1],[1,−1,0]] (probabilities of the first answer). Local bound 0.
+/// c = \[\[1,1,1\],\[1,1,−1\],\[1,−1,0\]\] (probabilities of the first answer). Local bound 0.
 pub fn i3322() -> GameSpec {
     GameSpec {
         name: Some("i3322".into()),

@@ -1,5 +1,6 @@
-//! Games as users write them: the YAML schema ([`spec`]), the formula language ([`formula`]),
-//! validation and compilation to the flat table ([`compile`]), the standard families
+//! Games as users write them: the YAML schema ([`spec`]), the formula language
+//! ([`crate::formats::formula`]), validation and compilation to the flat table (`compile`, one
+//! file per step, reached through [`Game::from_file`] and [`Game::from_spec`]), the standard families
 //! ([`families`]) and products of games ([`product`]).
 //!
 //! Most callers want [`Game::from_file`] or [`Game::from_spec`], then `game.scenario`.
@@ -22,11 +23,15 @@ use crate::model::scenario::Scenario;
 /// A validated game: its name, the flat table, and warnings found while building it.
 #[derive(Debug, Clone)]
 pub struct Game {
+    /// Name of the game.
     pub name: String,
+    /// One line about it, when the file gives one.
     pub description: Option<String>,
     /// Where it came from (a file path, or `family:NAME`).
     pub source: String,
+    /// The flat table.
     pub scenario: Scenario,
+    /// Warnings found while building it (e.g. a score that never changes).
     pub warnings: Vec<String>,
 }
 

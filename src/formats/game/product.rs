@@ -61,17 +61,17 @@ pub fn parallel_repetition(scenario: &Scenario, name: &str, rounds: usize) -> Re
         });
     }
     let na = scenario.joint_answers();
-    let total_weight: f64 = scenario.weights.iter().sum();
+    let total_weight: f64 = scenario.weights().iter().sum();
     // Fold a constant term into the scores so the product of scores is the product of values.
-    let shift = scenario.offset / total_weight;
+    let shift = scenario.offset() / total_weight;
     let q_index = |d: &[usize]| crate::model::scenario::index_of(&d[..n], &qr);
     let a_index = |d: &[usize]| crate::model::scenario::index_of(&d[n..], &ar);
     let mut radices = qr.clone();
     radices.extend(&ar);
     let table = nested_table(&radices, &|d| {
-        scenario.scores[q_index(d) * na + a_index(d)] + shift
+        scenario.scores()[q_index(d) * na + a_index(d)] + shift
     });
-    let weight_table = nested_table(&qr, &|d| scenario.weights[q_index(d)]);
+    let weight_table = nested_table(&qr, &|d| scenario.weights()[q_index(d)]);
 
     let qvar = |i: usize| format!("q{i}");
     let avar = |i: usize| format!("a{i}");
@@ -97,7 +97,7 @@ pub fn parallel_repetition(scenario: &Scenario, name: &str, rounds: usize) -> Re
     };
 
     let players = scenario
-        .parties
+        .parties()
         .iter()
         .enumerate()
         .map(|(i, p)| {
@@ -112,7 +112,7 @@ pub fn parallel_repetition(scenario: &Scenario, name: &str, rounds: usize) -> Re
         .collect();
     let mut constants = Mapping::new();
     constants.insert(Value::from("round_score"), table);
-    let all_ones = scenario.weights.iter().all(|&w| w == 1.0);
+    let all_ones = scenario.weights().iter().all(|&w| w == 1.0);
     let distribution = if all_ones {
         Value::from("sum")
     } else {
@@ -128,7 +128,7 @@ pub fn parallel_repetition(scenario: &Scenario, name: &str, rounds: usize) -> Re
     let per_round: Vec<String> = (0..rounds)
         .map(|r| round_ref("round_score", r, true))
         .collect();
-    let (win, score) = match scenario.kind {
+    let (win, score) = match scenario.kind() {
         ScoreKind::Win => (Some(per_round.join(" and ")), None),
         ScoreKind::Score => (None, Some(per_round.join(" * "))),
     };

@@ -2,23 +2,29 @@
 //!
 //! Fields whose shape varies (a count or a list of labels; a named, tabulated, product or
 //! formula distribution; constants that are numbers, expressions or tables; Bell tables) are
-//! kept as YAML values here and interpreted in [`super::compile`], where each error can be
+//! kept as YAML values here and interpreted by the compiler (`formats/game/compile/`), where each error can be
 //! placed at its line and column.
 
 use serde::{Deserialize, Serialize};
 use serde_yaml::{Mapping, Value};
 
+/// A game file as written: players, optional constants and distribution, and one of `win`, `score`
+/// or `bell`. Formulas and tables stay YAML values here and are interpreted by the compiler, where
+/// each error can be located.
 #[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct GameSpec {
+    /// Name of the game (default: the file name).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub name: Option<String>,
+    /// One line about the game.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub description: Option<String>,
     /// Named numbers, expressions or (nested) tables usable in every formula, in file order: an
     /// expression may use the constants above it.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub constants: Option<Mapping>,
+    /// The players, in order.
     pub players: Vec<PlayerSpec>,
     /// `uniform`, `sum`, or a mapping with one of `table`, `product`, `proportional`.
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -34,9 +40,11 @@ pub struct GameSpec {
     pub bell: Option<Value>,
 }
 
+/// One player as written.
 #[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct PlayerSpec {
+    /// The player's name.
     pub name: String,
     /// Variable name formulas use for this player's question.
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -46,6 +54,7 @@ pub struct PlayerSpec {
     pub answer: Option<String>,
     /// A count n (labels 0..n-1) or a list of distinct integer labels.
     pub questions: Value,
+    /// A count or a list of answer labels.
     pub answers: Value,
 }
 

@@ -42,7 +42,9 @@ pub struct CompileOptions {
 
 /// The result of compiling: the table plus warnings worth showing the user.
 pub struct Compiled {
+    /// The flat table.
     pub scenario: Scenario,
+    /// Warnings worth showing.
     pub warnings: Vec<String>,
 }
 
@@ -84,6 +86,8 @@ pub const MAX_PLAYERS: usize = 16;
 /// Longest player name (names appear in tables, reports and file names of outputs).
 pub const MAX_NAME_CHARS: usize = 64;
 
+/// Compiles a spec: players and labels, constants, the size check, the question distribution and
+/// the score table, in that order.
 pub fn compile(spec: &GameSpec, ctx: &Context, options: CompileOptions) -> Result<Compiled> {
     let mut warnings = Vec::new();
     if spec.players.len() < 2 {

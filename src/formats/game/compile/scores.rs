@@ -89,14 +89,14 @@ pub(super) fn build_scores(
 pub(super) fn constant_score_warning(s: &Scenario) -> Option<String> {
     let na = s.joint_answers();
     let mut values = s
-        .weights
+        .weights()
         .iter()
         .enumerate()
         .filter(|(_, w)| **w != 0.0)
-        .flat_map(|(q, _)| s.scores[q * na..(q + 1) * na].iter());
+        .flat_map(|(q, _)| s.scores()[q * na..(q + 1) * na].iter());
     let first = *values.next()?;
     if values.all(|v| *v == first) {
-        let what = if s.kind == ScoreKind::Win {
+        let what = if s.kind() == ScoreKind::Win {
             format!(
                 "the win predicate is always {}",
                 if first == 1.0 { "true" } else { "false" }
