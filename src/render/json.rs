@@ -512,3 +512,99 @@ impl Serialize for Review<'_> {
         .serialize(serializer)
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::formats::game::{families, Game};
+    use crate::pipeline::{self, BoundsOptions, Silent};
+
+    fn keys(v: &Value) -> Vec<&str> {
+        v.as_object().unwrap().keys().map(String::as_str).collect()
+    }
+
+    #[test]
+    fn the_bounds_report_has_the_contracted_keys() {
+        let game = Game::from_spec(&families::chsh(), "chsh").unwrap();
+        let r = pipeline::bounds(&game, &BoundsOptions::default(), &Silent).unwrap();
+        let v = to_value(&r);
+        // serde_json's map is ordered by key, so this is the sorted list in CHANGELOG.md.
+        assert_eq!(
+            keys(&v),
+            vec![
+                "classical",
+                "classical_details",
+                "command",
+                "dims",
+                "entanglement",
+                "game",
+                "gaps",
+                "gap",
+                "iterations",
+                "kind",
+                "level",
+                "matrix_size",
+                "moments",
+                "no_signalling",
+                "no_signalling_details",
+                "npa_primal",
+                "players",
+                "quantum_lower",
+                "quantum_settled",
+                "quantum_upper",
+                "residual",
+                "restarts",
+                "robustness",
+                "schema_version",
+                "seconds",
+                "seed",
+                "seesaw_details",
+                "solver",
+                "source",
+                "status",
+                "verified_upper",
+                "warnings",
+            ]
+            .into_iter()
+            .collect::<std::collections::BTreeSet<_>>()
+            .into_iter()
+            .collect::<Vec<_>>()
+        );
+        assert_eq!(v["schema_version"], SCHEMA_VERSION);
+        assert_eq!(v["command"], "bounds");
+        assert_eq!(v["kind"], "win");
+        assert_eq!(v["classical_details"]["status"], "exact");
+        assert_eq!(v["no_signalling_details"]["method"], "simplex");
+        assert_eq!(v["status"], "solved");
+        assert!(v["solver"] == "moment-ipm" || v["solver"] == "clarabel");
+        assert_eq!(v["classical"], 0.75);
+        assert_eq!(v["quantum_settled"], true);
+    }
+
+    #[test]
+    fn an_incumbent_is_never_published_as_the_classical_value() {
+        let game = Game::from_spec(&families::chsh(), "chsh").unwrap();
+        let mut r = pipeline::classical(&game, &Default::default(), &Silent).unwrap();
+        r.classical.as_mut().unwrap().status = ClassicalStatus::Incumbent;
+        let v = to_value(&r);
+        assert!(v.get("classical").is_none());
+        assert_eq!(v["classical_lower"], 0.75);
+        assert_eq!(v["classical_details"]["status"], "incumbent");
+        let text = super::super::text::game_report(&r);
+        assert!(text.contains("classical ≥"), "{text}");
+        assert!(!text.contains("\nclassical  "), "{text}");
+    }
+
+    #[test]
+    fn key_and_verify_views_name_their_command() {
+        let k = crate::pipeline::key(2.5, 0.02).unwrap();
+        let v = to_value(&k);
+        assert_eq!(v["command"], "key");
+        assert_eq!(v["chsh"], 2.5);
+        assert_eq!(v["schema_version"], SCHEMA_VERSION);
+        assert!(v["caution"]
+            .as_str()
+            .unwrap()
+            .contains("not a security proof"));
+    }
+}

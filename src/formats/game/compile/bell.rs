@@ -362,3 +362,81 @@ impl BellTable<'_> {
         Ok(())
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::super::testing::{located, spec};
+    use super::*;
+
+    /// The table and offset of `bell` for players with the given question and answer counts.
+    fn bell(players: &[(usize, usize)], bell: &str) -> Result<(Vec<f64>, f64)> {
+        let mut text = String::from("players:\n");
+        for (i, (q, a)) in players.iter().enumerate() {
+            text += &format!("  - {{name: p{i}, questions: {q}, answers: {a}}}\n");
+        }
+        text += &format!("bell: {bell}\n");
+        let (s, ctx) = spec(&text);
+        let parties = super::super::parties::parse_parties(&s, &ctx).unwrap();
+        build_bell(s.bell.as_ref().unwrap(), &ctx, &parties, &[])
+    }
+
+    #[test]
+    fn correlator_terms_and_matrices_agree() {
+        let terms = bell(
+            &[(2, 2), (2, 2)],
+            "{constant: 0.5, terms: [{coefficient: 1, correlator: {p0: 0, p1: 0}}, {coefficient: -1, correlator: {p0: 1, p1: 1}}]}",
+        )
+        .unwrap();
+        let matrix = bell(
+            &[(2, 2), (2, 2)],
+            "{correlators: [[0.5, 0, 0], [0, 1, 0], [0, 0, -1]]}",
+        )
+        .unwrap();
+        assert_eq!(terms, matrix);
+        let (t, offset) = terms;
+        assert_eq!(offset, 0.5);
+        // Joint question (0, 0): +1 for equal answers, −1 otherwise; (1, 1) the opposite.
+        assert_eq!(&t[0..4], &[1.0, -1.0, -1.0, 1.0]);
+        assert_eq!(&t[12..16], &[-1.0, 1.0, 1.0, -1.0]);
+        assert_eq!(&t[4..12], &[0.0; 8]);
+    }
+
+    #[test]
+    fn collins_gisin_entries_are_first_answer_events() {
+        // One question each: c + pB·p(b=0) + pA·p(a=0) + pAB·p(a=0, b=0).
+        let (t, offset) = bell(&[(1, 2), (1, 2)], "{collins_gisin: [[0.25, 2], [3, 5]]}").unwrap();
+        assert_eq!(offset, 0.25);
+        assert_eq!(t, vec![3.0 + 2.0 + 5.0, 3.0, 2.0, 0.0]);
+    }
+
+    #[test]
+    fn marginal_events_spread_over_the_other_players_questions() {
+        let (t, _) = bell(
+            &[(1, 2), (2, 2)],
+            "{terms: [{coefficient: 1, event: {p0: '0|0'}}]}",
+        )
+        .unwrap();
+        // p(a=0 | x=0) counted once in total: half at each of bob's two questions.
+        assert_eq!(t, vec![0.5, 0.5, 0.0, 0.0, 0.5, 0.5, 0.0, 0.0]);
+    }
+
+    #[test]
+    fn shapes_and_answer_counts_are_checked_with_their_field() {
+        let e = bell(
+            &[(2, 3), (2, 2)],
+            "{terms: [{coefficient: 1, correlator: {p0: 0, p1: 0}}]}",
+        )
+        .unwrap_err();
+        assert!(located(&e).0.unwrap().starts_with("bell.terms[0]"), "{e}");
+        let e = bell(&[(2, 2), (2, 2)], "{correlators: [[0, 0], [0, 1]]}").unwrap_err();
+        assert!(
+            located(&e).0.unwrap().starts_with("bell.correlators"),
+            "{e}"
+        );
+        assert!(bell(
+            &[(2, 2), (2, 2)],
+            "{terms: [{coefficient: 1, event: {p9: '0|0'}}]}"
+        )
+        .is_err());
+    }
+}

@@ -29,3 +29,33 @@ pub(super) fn parse_constants(spec: &GameSpec, ctx: &Context) -> Result<Vec<(Str
     }
     Ok(constants)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::super::testing::{located, spec, two_by_two};
+    use super::*;
+
+    #[test]
+    fn constants_are_read_in_file_order_and_may_use_earlier_ones() {
+        let (s, ctx) = spec(&two_by_two(
+            "constants:\n  n: 5\n  half: n / 2\n  signs: [[1, 1], [1, -1]]\n  yes: true\nwin: 'true'\n",
+        ));
+        let c = parse_constants(&s, &ctx).unwrap();
+        let names: Vec<&str> = c.iter().map(|(n, _)| n.as_str()).collect();
+        assert_eq!(names, vec!["n", "half", "signs", "yes"]);
+        assert_eq!(c[0].1, Value::Int(5));
+        assert_eq!(c[1].1.as_f64().unwrap(), 2.5);
+        assert!(matches!(&c[2].1, Value::List(rows) if rows.len() == 2));
+        assert_eq!(c[3].1, Value::Bool(true));
+    }
+
+    #[test]
+    fn a_later_constant_is_not_in_scope_and_bad_names_are_located() {
+        let (s, ctx) = spec(&two_by_two("constants:\n  a: b + 1\n  b: 2\nwin: 'true'\n"));
+        let e = parse_constants(&s, &ctx).unwrap_err();
+        assert_eq!(located(&e), (Some("constants.a".into()), Some(5)), "{e}");
+        let (s, ctx) = spec(&two_by_two("constants:\n  pi: 3\nwin: 'true'\n"));
+        let e = parse_constants(&s, &ctx).unwrap_err();
+        assert_eq!(located(&e).0.as_deref(), Some("constants.pi"), "{e}");
+    }
+}

@@ -198,3 +198,47 @@ pub fn compile(spec: &GameSpec, ctx: &Context, options: CompileOptions) -> Resul
     }
     Ok(Compiled { scenario, warnings })
 }
+
+/// Helpers for the compile steps' unit tests: a spec and its located context from YAML text.
+#[cfg(test)]
+mod testing {
+    use super::*;
+    use crate::formats::located::SourceMap;
+    use crate::model::scenario::Party;
+
+    /// The spec and context of `text` (the file is called `t.yaml`).
+    pub(super) fn spec(text: &str) -> (GameSpec, Context) {
+        let spec = crate::formats::game::parse_spec(text, "t.yaml").unwrap();
+        let ctx = Context {
+            file: "t.yaml".into(),
+            map: SourceMap::new(text),
+        };
+        (spec, ctx)
+    }
+
+    /// Two players with two questions and two answers each, then `rest`.
+    pub(super) fn two_by_two(rest: &str) -> String {
+        format!(
+            "players:\n  - {{name: alice, question: x, answer: a, questions: 2, answers: 2}}\n  - {{name: bob, question: y, answer: b, questions: 2, answers: 2}}\n{rest}"
+        )
+    }
+
+    /// Players, constants and the formula scope of a spec, as [`compile`] builds them.
+    pub(super) fn parts(
+        spec: &GameSpec,
+        ctx: &Context,
+    ) -> (Vec<Party>, Vec<(String, Value)>, Vec<(String, usize)>) {
+        let parties = parse_parties(spec, ctx).unwrap();
+        let constants = parse_constants(spec, ctx).unwrap();
+        let variables = parse_variables(spec, ctx, &constants).unwrap();
+        (parties, constants, variables)
+    }
+
+    /// The located field and line of an input error.
+    pub(super) fn located(e: &Error) -> (Option<String>, Option<usize>) {
+        match e {
+            Error::Input { location, .. } => (location.field.clone(), location.line),
+            other => panic!("not an input error: {other}"),
+        }
+    }
+}

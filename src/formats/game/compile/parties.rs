@@ -99,3 +99,54 @@ pub(super) fn parse_variables(
     }
     Ok(variables)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::super::testing::{located, parts, spec, two_by_two};
+    use super::*;
+
+    #[test]
+    fn labels_come_from_counts_or_lists() {
+        let (s, ctx) = spec(
+            "players:\n  - {name: alice, questions: 3, answers: [1, -1]}\n  - {name: bob, questions: [10, 20], answers: 2}\nscore: '0'\n",
+        );
+        let parties = parse_parties(&s, &ctx).unwrap();
+        assert_eq!(parties[0].question_labels, vec![0, 1, 2]);
+        assert_eq!(parties[0].answer_labels, vec![1, -1]);
+        assert_eq!(parties[1].question_labels, vec![10, 20]);
+        assert_eq!(parties[1].answers(), 2);
+    }
+
+    #[test]
+    fn a_second_player_of_the_same_name_is_located() {
+        let (s, ctx) = spec(
+            "players:\n  - {name: alice, questions: 2, answers: 2}\n  - {name: alice, questions: 2, answers: 2}\nscore: '0'\n",
+        );
+        let e = parse_parties(&s, &ctx).unwrap_err();
+        assert_eq!(
+            located(&e),
+            (Some("players[1].name".into()), Some(3)),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn variables_take_question_slots_then_answer_slots() {
+        let (s, ctx) = spec(&two_by_two("win: 'true'\n"));
+        let (_, _, variables) = parts(&s, &ctx);
+        let mut v = variables.clone();
+        v.sort_by_key(|(_, slot)| *slot);
+        let names: Vec<(&str, usize)> = v.iter().map(|(n, k)| (n.as_str(), *k)).collect();
+        assert_eq!(names, vec![("x", 0), ("y", 1), ("a", 2), ("b", 3)]);
+    }
+
+    #[test]
+    fn reserved_and_malformed_names_are_refused() {
+        assert!(check_identifier("if", &spec("players: []\n").1, "f").is_err());
+        assert!(check_identifier("2x", &spec("players: []\n").1, "f").is_err());
+        assert!(check_identifier("x_2", &spec("players: []\n").1, "f").is_ok());
+        let (s, ctx) = spec(&two_by_two("win: 'true'\n").replace("question: x", "question: max"));
+        let e = parse_variables(&s, &ctx, &[]).unwrap_err();
+        assert_eq!(located(&e).0.as_deref(), Some("players[0].question"), "{e}");
+    }
+}

@@ -109,3 +109,71 @@ pub(super) fn constant_score_warning(s: &Scenario) -> Option<String> {
         None
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::super::testing::{located, parts, spec, two_by_two};
+    use super::*;
+
+    /// The score table of a two-player, two-question game with `field: formula`.
+    fn scores(field: &str, formula: &str, kind: ScoreKind) -> Result<Vec<f64>> {
+        let (s, ctx) = spec(&two_by_two(&format!("{field}: '{formula}'\n")));
+        let (parties, constants, variables) = parts(&s, &ctx);
+        let scope = GameScope {
+            variables,
+            constants: &constants,
+            visible_below: 2 * parties.len(),
+        };
+        build_scores(field, formula, &ctx, &parties, &scope, &[0.25; 4], kind)
+    }
+
+    #[test]
+    fn the_chsh_predicate_fills_the_table_question_major() {
+        let t = scores("win", "(a + b) % 2 == x * y", ScoreKind::Win).unwrap();
+        for (x, y, a, b) in (0..16).map(|k| (k >> 3 & 1, k >> 2 & 1, k >> 1 & 1, k & 1)) {
+            let want = ((a + b) % 2 == x * y) as u8 as f64;
+            assert_eq!(t[(x * 2 + y) * 4 + a * 2 + b], want, "x{x} y{y} a{a} b{b}");
+        }
+    }
+
+    #[test]
+    fn real_scores_and_located_formula_errors() {
+        let t = scores("score", "(-1)**(a + b) * (1 - 2 * x * y)", ScoreKind::Score).unwrap();
+        assert_eq!(&t[12..16], &[-1.0, 1.0, 1.0, -1.0]);
+        assert_eq!(&t[0..4], &[1.0, -1.0, -1.0, 1.0]);
+        let e = scores("win", "a + + b", ScoreKind::Win).unwrap_err();
+        assert_eq!(located(&e), (Some("win".into()), Some(4)), "{e}");
+        let e = scores("win", "a == z", ScoreKind::Win).unwrap_err();
+        assert!(e.to_string().contains('z'), "{e}");
+    }
+
+    #[test]
+    fn a_score_that_never_changes_is_warned_about() {
+        let parties = |n: &str| Party {
+            name: n.into(),
+            question_labels: vec![0, 1],
+            answer_labels: vec![0, 1],
+        };
+        let constant = Scenario::new(
+            vec![parties("a"), parties("b")],
+            vec![0.25; 4],
+            vec![1.0; 16],
+            0.0,
+            ScoreKind::Win,
+        )
+        .unwrap();
+        assert!(constant_score_warning(&constant)
+            .unwrap()
+            .contains("always true"));
+        let chsh = scores("win", "(a + b) % 2 == x * y", ScoreKind::Win).unwrap();
+        let s = Scenario::new(
+            vec![parties("a"), parties("b")],
+            vec![0.25; 4],
+            chsh,
+            0.0,
+            ScoreKind::Win,
+        )
+        .unwrap();
+        assert_eq!(constant_score_warning(&s), None);
+    }
+}

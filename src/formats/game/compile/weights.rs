@@ -290,3 +290,79 @@ pub(super) fn describe_slots(
         .collect::<Vec<_>>()
         .join(", ")
 }
+
+#[cfg(test)]
+mod tests {
+    use super::super::testing::{located, parts, spec, two_by_two};
+    use super::*;
+
+    /// The weights of a two-player, two-question game with this `distribution` (and kind).
+    fn weights(distribution: &str, kind: ScoreKind) -> Result<Vec<f64>> {
+        let body = if kind == ScoreKind::Win {
+            "win: 'true'"
+        } else {
+            "score: '1'"
+        };
+        let (s, ctx) = spec(&two_by_two(&format!("{distribution}{body}\n")));
+        let (parties, constants, variables) = parts(&s, &ctx);
+        let scope = GameScope {
+            variables,
+            constants: &constants,
+            visible_below: 2 * parties.len(),
+        };
+        build_weights(&s, &ctx, &parties, &scope, kind)
+    }
+
+    #[test]
+    fn defaults_are_uniform_for_games_and_a_plain_sum_for_scores() {
+        assert_eq!(weights("", ScoreKind::Win).unwrap(), vec![0.25; 4]);
+        assert_eq!(weights("", ScoreKind::Score).unwrap(), vec![1.0; 4]);
+        assert_eq!(
+            weights("distribution: sum\n", ScoreKind::Win).unwrap(),
+            vec![1.0; 4]
+        );
+    }
+
+    #[test]
+    fn tables_products_and_formulas() {
+        let table = weights(
+            "distribution: {table: [[0, 0, 0.5], [1, 1, '1/2']]}\n",
+            ScoreKind::Win,
+        );
+        assert_eq!(table.unwrap(), vec![0.5, 0.0, 0.0, 0.5]);
+        let product = weights(
+            "distribution: {product: {alice: [0.25, 0.75], bob: [0.5, 0.5]}}\n",
+            ScoreKind::Win,
+        );
+        assert_eq!(product.unwrap(), vec![0.125, 0.125, 0.375, 0.375]);
+        let formula = weights(
+            "distribution: {proportional: 'x + y + 1'}\n",
+            ScoreKind::Win,
+        );
+        assert_eq!(
+            formula.unwrap(),
+            vec![1.0 / 8.0, 2.0 / 8.0, 2.0 / 8.0, 3.0 / 8.0]
+        );
+    }
+
+    #[test]
+    fn probabilities_must_sum_to_one_unless_normalised() {
+        let e = weights(
+            "distribution: {table: [[0, 0, 1], [1, 1, 1]]}\n",
+            ScoreKind::Win,
+        )
+        .unwrap_err();
+        assert_eq!(
+            located(&e),
+            (Some("distribution.table".into()), Some(4)),
+            "{e}"
+        );
+        assert!(e.to_string().contains("sum to 2"), "{e}");
+        let rescaled = weights(
+            "distribution: {table: [[0, 0, 1], [1, 1, 1]], normalise: true}\n",
+            ScoreKind::Win,
+        );
+        assert_eq!(rescaled.unwrap(), vec![0.5, 0.0, 0.0, 0.5]);
+        assert!(weights("distribution: {table: [[0, 0, -1]]}\n", ScoreKind::Win).is_err());
+    }
+}
