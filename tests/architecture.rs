@@ -45,8 +45,9 @@ fn module_of(src: &Path, file: &Path) -> Vec<String> {
     parts
 }
 
-/// `crate::a::b::c` paths used outside comments and tests, as segment lists.
-fn crate_paths(text: &str) -> Vec<Vec<String>> {
+/// Paths into the crate used outside comments and tests, as segment lists from the crate root:
+/// `crate::a::b` as written, `super::b` resolved against `module` (the file's module path).
+fn crate_paths(text: &str, module: &[String]) -> Vec<Vec<String>> {
     let code = text.split("#[cfg(test)]").next().unwrap_or("");
     let mut out = Vec::new();
     for line in code.lines() {
@@ -54,20 +55,36 @@ fn crate_paths(text: &str) -> Vec<Vec<String>> {
         if line.starts_with("//") {
             continue;
         }
-        let mut rest = line;
-        while let Some(k) = rest.find("crate::") {
-            let after = &rest[k + "crate::".len()..];
-            let path: String = after
-                .chars()
-                .take_while(|c| c.is_alphanumeric() || *c == '_' || *c == ':')
-                .collect();
-            out.push(
-                path.split("::")
+        for (prefix, is_super) in [("crate::", false), ("super::", true)] {
+            let mut rest = line;
+            while let Some(k) = rest.find(prefix) {
+                // `super::super::x` is read once, from its first `super`.
+                let before = &rest[..k];
+                let after = &rest[k + prefix.len()..];
+                rest = after;
+                if is_super && before.ends_with("super::") {
+                    continue;
+                }
+                let path: String = after
+                    .chars()
+                    .take_while(|c| c.is_alphanumeric() || *c == '_' || *c == ':')
+                    .collect();
+                let mut segments: Vec<String> = path
+                    .split("::")
                     .filter(|s| !s.is_empty())
                     .map(str::to_string)
-                    .collect(),
-            );
-            rest = after;
+                    .collect();
+                if is_super {
+                    let mut base = module[..module.len().saturating_sub(1)].to_vec();
+                    while segments.first().is_some_and(|s| s == "super") {
+                        segments.remove(0);
+                        base.pop();
+                    }
+                    base.extend(segments);
+                    segments = base;
+                }
+                out.push(segments);
+            }
         }
     }
     out
@@ -88,7 +105,7 @@ fn modules_use_only_their_own_layer_and_the_layers_before_it() {
         }
         let own = layer_of(top)
             .unwrap_or_else(|| panic!("{}: module `{top}` has no layer", file.display()));
-        for path in crate_paths(&std::fs::read_to_string(file).unwrap()) {
+        for path in crate_paths(&std::fs::read_to_string(file).unwrap(), &module) {
             let Some(used) = path.first() else { continue };
             let Some(layer) = layer_of(used) else {
                 continue;
@@ -122,7 +139,7 @@ fn files_import_each_other_without_cycles() {
             continue;
         }
         let text = std::fs::read_to_string(file).unwrap();
-        for path in crate_paths(&text) {
+        for path in crate_paths(&text, &from) {
             // The longest prefix that names a file-module.
             if let Some(to) = (1..=path.len())
                 .rev()

@@ -1,55 +1,13 @@
-//! The SDP backends behind one trait, and the automatic choice between them in one function
-//! ([`choose`]). Adding a backend means a variant of [`Backend`], an implementation of
-//! [`SdpBackend`] in its own file, and a line in `backend_for` and [`choose`].
-
-use serde::{Deserialize, Serialize};
+//! The automatic choice between the SDP backends, in one function ([`choose`]), and the solve
+//! with fallback ([`solve`]). Adding a backend means a variant of [`Backend`] and an
+//! implementation of [`SdpBackend`] (both in [`super::sdp`]) in the backend's own file, and a
+//! line in `backend_for` and [`choose`] here.
 
 use super::clarabel::ClarabelBackend;
 use super::moment_ipm::MomentIpmBackend;
+pub use super::sdp::{Backend, SdpBackend};
 use super::sdp::{SdpProblem, SdpSolution};
 use crate::error::{Error, Result};
-
-/// Which SDP solver to use (or which one produced a solution). Serialised in kebab case:
-/// `auto`, `clarabel`, `moment-ipm`.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
-#[serde(rename_all = "kebab-case")]
-pub enum Backend {
-    /// Chosen by size ([`choose`]), with the other as fallback.
-    #[default]
-    Auto,
-    /// clarabel, with the PSD cone as a dense triangle block.
-    Clarabel,
-    /// The moment-matrix interior-point method (HKM with Mehrotra steps on the m×m Schur
-    /// complement, m = number of moments).
-    MomentIpm,
-}
-
-impl Backend {
-    /// The name used in JSON and text output.
-    pub fn name(self) -> &'static str {
-        match self {
-            Backend::Auto => "auto",
-            Backend::Clarabel => "clarabel",
-            Backend::MomentIpm => "moment-ipm",
-        }
-    }
-}
-
-impl std::fmt::Display for Backend {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(self.name())
-    }
-}
-
-/// A solver of [`SdpProblem`]s. A backend returns a solution only when it ended solved or almost
-/// solved, with its dual vector in [`SdpProblem::assemble`]'s layout and the verified bound
-/// computed from it ([`super::certify`]); any other end is an error.
-pub trait SdpBackend {
-    /// Which backend this is.
-    fn backend(&self) -> Backend;
-    /// Solves `problem`; `stage` names it in error messages.
-    fn solve(&self, problem: &SdpProblem, stage: &str) -> Result<SdpSolution>;
-}
 
 /// The implementation of a concrete backend (`Auto` is resolved by [`choose`] first).
 fn backend_for(backend: Backend) -> &'static dyn SdpBackend {

@@ -9,8 +9,7 @@ use clarabel::solver::{
     DefaultSettingsBuilder, DefaultSolver, IPSolver, SolverStatus, SupportedConeT,
 };
 
-use super::backend::Backend;
-use super::sdp::{SdpProblem, SdpSolution};
+use super::sdp::{Backend, SdpProblem, SdpSolution};
 use super::SolveStatus;
 use crate::error::{Error, Result};
 
@@ -103,10 +102,10 @@ pub fn run_clarabel(
     Ok((solver, status))
 }
 
-/// clarabel as an [`super::backend::SdpBackend`].
+/// clarabel as an [`super::sdp::SdpBackend`].
 pub struct ClarabelBackend;
 
-impl super::backend::SdpBackend for ClarabelBackend {
+impl super::sdp::SdpBackend for ClarabelBackend {
     fn backend(&self) -> Backend {
         Backend::Clarabel
     }

@@ -22,8 +22,7 @@ use faer::prelude::*;
 use faer::{Accum, Mat, Side};
 use rayon::prelude::*;
 
-use super::backend::{Backend, SdpBackend};
-use super::sdp::{upper_index, Assembled, SdpProblem, SdpSolution};
+use super::sdp::{upper_index, Assembled, Backend, SdpBackend, SdpProblem, SdpSolution};
 use super::SolveStatus;
 use crate::error::{Error, Result};
 

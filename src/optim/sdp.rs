@@ -15,10 +15,10 @@
 //! needs no solver, so a saved certificate can be re-checked independently.
 
 use clarabel::algebra::CscMatrix;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
-use super::backend::Backend;
 use super::SolveStatus;
+use crate::error::Result;
 
 /// An entry of a matrix block: `constant + Σ coefficient · y[variable]`.
 #[derive(Debug, Clone, Default, PartialEq)]
@@ -167,4 +167,46 @@ impl SdpProblem {
             objective_constant: self.objective_constant,
         }
     }
+}
+
+/// Which SDP solver to use (or which one produced a solution). Serialised in kebab case:
+/// `auto`, `clarabel`, `moment-ipm`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Backend {
+    /// Chosen by size ([`choose`]), with the other as fallback.
+    #[default]
+    Auto,
+    /// clarabel, with the PSD cone as a dense triangle block.
+    Clarabel,
+    /// The moment-matrix interior-point method (HKM with Mehrotra steps on the m×m Schur
+    /// complement, m = number of moments).
+    MomentIpm,
+}
+
+impl Backend {
+    /// The name used in JSON and text output.
+    pub fn name(self) -> &'static str {
+        match self {
+            Backend::Auto => "auto",
+            Backend::Clarabel => "clarabel",
+            Backend::MomentIpm => "moment-ipm",
+        }
+    }
+}
+
+impl std::fmt::Display for Backend {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
+/// A solver of [`SdpProblem`]s. A backend returns a solution only when it ended solved or almost
+/// solved, with its dual vector in [`SdpProblem::assemble`]'s layout and the verified bound
+/// computed from it ([`super::certify`]); any other end is an error.
+pub trait SdpBackend {
+    /// Which backend this is.
+    fn backend(&self) -> Backend;
+    /// Solves `problem`; `stage` names it in error messages.
+    fn solve(&self, problem: &SdpProblem, stage: &str) -> Result<SdpSolution>;
 }

@@ -223,11 +223,14 @@ mod testing {
         )
     }
 
+    /// Named constants, and formula variables with their slots.
+    type Named<T> = Vec<(String, T)>;
+
     /// Players, constants and the formula scope of a spec, as [`compile`] builds them.
     pub(super) fn parts(
         spec: &GameSpec,
         ctx: &Context,
-    ) -> (Vec<Party>, Vec<(String, Value)>, Vec<(String, usize)>) {
+    ) -> (Vec<Party>, Named<Value>, Named<usize>) {
         let parties = parse_parties(spec, ctx).unwrap();
         let constants = parse_constants(spec, ctx).unwrap();
         let variables = parse_variables(spec, ctx, &constants).unwrap();
