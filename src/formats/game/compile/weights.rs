@@ -117,7 +117,7 @@ fn table_weights(
     let mut weights = vec![0.0; nq];
     let Yaml::Sequence(rows) = value else {
         return Err(ctx.error(
-            &path,
+            path,
             "expected a list of rows [question of each player..., probability]",
         ));
     };
@@ -182,7 +182,7 @@ fn product_weights(
     let mut weights = vec![0.0; nq];
     let Yaml::Mapping(per_player) = value else {
         return Err(ctx.error(
-            &path,
+            path,
             "expected a mapping from player name to the list of its question probabilities",
         ));
     };
@@ -235,7 +235,7 @@ fn product_weights(
     for (i, m) in marginals.iter().enumerate() {
         if m.is_none() {
             return Err(ctx.error(
-                &path,
+                path,
                 format!("no probabilities for player `{}`", parties[i].name),
             ));
         }
@@ -281,7 +281,7 @@ fn proportional_weights(
         }
         let v = expr.eval(&slots).map_err(|e| {
             ctx.formula_error(
-                &path,
+                path,
                 &e,
                 &format!(
                     "in the distribution formula at {}",
@@ -292,7 +292,7 @@ fn proportional_weights(
         *w = v.as_f64().map_err(|m| ctx.error(path, m))?;
         if !(*w >= 0.0 && w.is_finite()) {
             return Err(ctx.error(
-                &path,
+                path,
                 format!(
                     "the weight at {} is {}, weights must be finite and non-negative",
                     describe_questions(parties, scope, &slots),
