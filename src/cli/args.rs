@@ -332,39 +332,29 @@ pub enum FamilyCommand {
 impl Cli {
     /// Every file the command reads (outputs may not replace them).
     pub fn inputs(&self) -> Vec<PathBuf> {
-        let mut v = Vec::new();
+        let mut v: Vec<PathBuf> = self
+            .game_args()
+            .map(|a| a.game.clone())
+            .into_iter()
+            .collect();
         match &self.command {
-            Command::Check(a) | Command::Nosignal(a) => v.push(a.game.clone()),
-            Command::Classical { args, .. }
-            | Command::Bounds { args, .. }
-            | Command::Npa { args, .. }
-            | Command::Seesaw { args, .. }
-            | Command::Margin { args, .. }
-            | Command::Randomness { args, .. } => v.push(args.game.clone()),
-            Command::Evaluate { args, strategy, .. } => {
-                v.push(args.game.clone());
-                v.push(strategy.clone());
-            }
-            Command::Verify { args, certificate } => {
-                v.push(args.game.clone());
-                v.push(certificate.clone());
-            }
+            Command::Evaluate { strategy, .. } => v.push(strategy.clone()),
+            Command::Verify { certificate, .. } => v.push(certificate.clone()),
             Command::Review { protocol, .. } => v.push(protocol.clone()),
             Command::Local { correlations, .. } => v.push(correlations.clone()),
-            Command::Key { .. } => {}
-            Command::Family { family, .. } => {
-                if let FamilyCommand::Product { game, .. } = family {
-                    v.push(game.clone());
-                }
-            }
+            Command::Family {
+                family: FamilyCommand::Product { game, .. },
+                ..
+            } => v.push(game.clone()),
+            _ => {}
         }
         v
     }
 
-    /// Whether `--quiet` was given (commands without it are never quiet).
-    pub fn quiet(&self) -> bool {
+    /// The options every game command shares, for the commands that read a game.
+    fn game_args(&self) -> Option<&GameArgs> {
         match &self.command {
-            Command::Check(a) | Command::Nosignal(a) => a.quiet,
+            Command::Check(a) | Command::Nosignal(a) => Some(a),
             Command::Classical { args, .. }
             | Command::Bounds { args, .. }
             | Command::Npa { args, .. }
@@ -372,26 +362,30 @@ impl Cli {
             | Command::Evaluate { args, .. }
             | Command::Verify { args, .. }
             | Command::Margin { args, .. }
-            | Command::Randomness { args, .. } => args.quiet,
-            Command::Key { quiet, .. } => *quiet,
-            Command::Review { .. } | Command::Local { .. } | Command::Family { .. } => false,
+            | Command::Randomness { args, .. } => Some(args),
+            Command::Key { .. }
+            | Command::Review { .. }
+            | Command::Local { .. }
+            | Command::Family { .. } => None,
+        }
+    }
+
+    /// Whether `--quiet` was given (commands without it are never quiet).
+    pub fn quiet(&self) -> bool {
+        match (&self.command, self.game_args()) {
+            (_, Some(a)) => a.quiet,
+            (Command::Key { quiet, .. }, None) => *quiet,
+            _ => false,
         }
     }
 
     /// Whether `--json` was given.
     pub fn wants_json(&self) -> bool {
-        match &self.command {
-            Command::Check(a) | Command::Nosignal(a) => a.json,
-            Command::Classical { args, .. }
-            | Command::Bounds { args, .. }
-            | Command::Npa { args, .. }
-            | Command::Seesaw { args, .. }
-            | Command::Evaluate { args, .. }
-            | Command::Verify { args, .. }
-            | Command::Margin { args, .. }
-            | Command::Randomness { args, .. } => args.json,
-            Command::Key { json, .. } | Command::Review { json, .. } => *json,
-            Command::Local { json, .. } | Command::Family { json, .. } => *json,
+        match (&self.command, self.game_args()) {
+            (_, Some(a)) => a.json,
+            (Command::Key { json, .. } | Command::Review { json, .. }, None) => *json,
+            (Command::Local { json, .. } | Command::Family { json, .. }, None) => *json,
+            _ => false,
         }
     }
 }

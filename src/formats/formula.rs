@@ -1114,15 +1114,20 @@ pub struct ConstantScope<'a> {
     pub constants: &'a [(String, Value)],
 }
 
+/// The value of constant `name` in a list of `(name, value)` pairs.
+pub fn constant_named(constants: &[(String, Value)], name: &str) -> Option<Value> {
+    constants
+        .iter()
+        .find(|(n, _)| n == name)
+        .map(|(_, v)| v.clone())
+}
+
 impl Scope for ConstantScope<'_> {
     fn slot(&self, _: &str) -> Option<usize> {
         None
     }
     fn constant(&self, name: &str) -> Option<Value> {
-        self.constants
-            .iter()
-            .find(|(n, _)| n == name)
-            .map(|(_, v)| v.clone())
+        constant_named(self.constants, name)
     }
     fn names(&self) -> Vec<String> {
         self.constants.iter().map(|(n, _)| n.clone()).collect()

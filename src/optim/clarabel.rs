@@ -32,12 +32,8 @@ pub fn solve_sdp(problem: &SdpProblem, stage: &str) -> Result<SdpSolution> {
     let (solver, status) = run_clarabel(&p, &asm.q, &asm.a, &asm.b, &cones, 1e-9, stage)?;
     let y = solver.solution.x.clone();
     let z = solver.solution.z.clone();
-    let primal = problem.objective_constant
-        + y.iter()
-            .zip(&problem.objective)
-            .map(|(y, c)| y * c)
-            .sum::<f64>();
-    let dual = problem.objective_constant + z.iter().zip(&asm.b).map(|(z, b)| z * b).sum::<f64>();
+    let primal = problem.primal_value(&y);
+    let dual = asm.dual_value(&z);
     let certified = asm.certified_bound(&z)?;
     Ok(SdpSolution {
         primal,

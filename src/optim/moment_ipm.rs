@@ -845,12 +845,8 @@ pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpS
             z = z2;
         }
     }
-    let primal = problem.objective_constant
-        + yo.iter()
-            .zip(&problem.objective)
-            .map(|(y, c)| y * c)
-            .sum::<f64>();
-    let dual = problem.objective_constant + z.iter().zip(&asm.b).map(|(z, b)| z * b).sum::<f64>();
+    let primal = problem.primal_value(&yo);
+    let dual = asm.dual_value(&z);
     Ok(SdpSolution {
         primal,
         dual,

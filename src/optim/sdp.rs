@@ -119,6 +119,15 @@ pub fn upper_index(row: usize, col: usize) -> usize {
 }
 
 impl SdpProblem {
+    /// `c·y + c0` at a primal point.
+    pub fn primal_value(&self, y: &[f64]) -> f64 {
+        self.objective_constant
+            + y.iter()
+                .zip(&self.objective)
+                .map(|(y, c)| y * c)
+                .sum::<f64>()
+    }
+
     /// The problem in conic form (the layout of every backend's dual vector).
     pub fn assemble(&self) -> Assembled {
         let (mut rows, mut cols, mut vals, mut b) =
@@ -209,4 +218,12 @@ pub trait SdpBackend {
     fn backend(&self) -> Backend;
     /// Solves `problem`; `stage` names it in error messages.
     fn solve(&self, problem: &SdpProblem, stage: &str) -> Result<SdpSolution>;
+}
+
+impl Assembled {
+    /// `bᵀz + c0` at a dual vector (the solver's dual objective; not a bound by itself, see
+    /// [`Assembled::certified_bound`]).
+    pub fn dual_value(&self, z: &[f64]) -> f64 {
+        self.objective_constant + z.iter().zip(&self.b).map(|(z, b)| z * b).sum::<f64>()
+    }
 }

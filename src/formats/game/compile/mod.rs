@@ -65,10 +65,7 @@ impl Scope for GameScope<'_> {
             .map(|(_, s)| *s)
     }
     fn constant(&self, name: &str) -> Option<Value> {
-        self.constants
-            .iter()
-            .find(|(n, _)| n == name)
-            .map(|(_, v)| v.clone())
+        crate::formats::formula::constant_named(self.constants, name)
     }
     fn names(&self) -> Vec<String> {
         self.variables

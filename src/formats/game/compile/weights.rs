@@ -104,6 +104,13 @@ pub(super) fn build_weights(
     Ok(weights)
 }
 
+/// The question radices and a zero weight per joint question.
+fn zero_weights(parties: &[Party]) -> (Vec<usize>, Vec<f64>) {
+    let qr: Vec<usize> = parties.iter().map(Party::questions).collect();
+    let nq: usize = qr.iter().product();
+    (qr, vec![0.0; nq])
+}
+
 /// `table: [[question of each player..., probability], ...]`; unlisted joint questions weigh 0.
 fn table_weights(
     value: &Yaml,
@@ -112,16 +119,14 @@ fn table_weights(
     scope: &GameScope,
     path: &str,
 ) -> Result<Vec<f64>> {
-    let qr: Vec<usize> = parties.iter().map(Party::questions).collect();
-    let nq: usize = qr.iter().product();
-    let mut weights = vec![0.0; nq];
+    let (qr, mut weights) = zero_weights(parties);
     let Yaml::Sequence(rows) = value else {
         return Err(ctx.error(
             path,
             "expected a list of rows [question of each player..., probability]",
         ));
     };
-    let mut seen = vec![false; nq];
+    let mut seen = vec![false; weights.len()];
     let mut digits_buf = vec![0; parties.len()];
     for (r, row) in rows.iter().enumerate() {
         let rf = format!("{path}[{r}]");
@@ -177,9 +182,7 @@ fn product_weights(
     path: &str,
     normalise: bool,
 ) -> Result<Vec<f64>> {
-    let qr: Vec<usize> = parties.iter().map(Party::questions).collect();
-    let nq: usize = qr.iter().product();
-    let mut weights = vec![0.0; nq];
+    let (qr, mut weights) = zero_weights(parties);
     let Yaml::Mapping(per_player) = value else {
         return Err(ctx.error(
             path,
@@ -258,9 +261,7 @@ fn proportional_weights(
     scope: &GameScope,
     path: &str,
 ) -> Result<Vec<f64>> {
-    let qr: Vec<usize> = parties.iter().map(Party::questions).collect();
-    let nq: usize = qr.iter().product();
-    let mut weights = vec![0.0; nq];
+    let (qr, mut weights) = zero_weights(parties);
     let Some(src) = value.as_str() else {
         return Err(ctx.error(path, "expected a formula over the question variables"));
     };
