@@ -79,7 +79,7 @@ pub const SIGNALLING_TOLERANCE: f64 = 1e-9;
 #[derive(Debug, Clone, Serialize)]
 pub struct NoSignallingProjection {
     /// `least squares`, or `minimum Neyman chi-square` when rounds per question are known.
-    pub method: &'static str,
+    pub method: ProjectionMethod,
     /// Euclidean distance between the input and the projection (over all p(a|q)).
     pub distance: f64,
     /// Largest change of one probability.
@@ -98,6 +98,27 @@ pub struct NoSignallingProjection {
     /// The projected behaviour, `p[q * joint_answers + a]`.
     #[serde(skip)]
     pub behaviour: Vec<f64>,
+}
+
+/// How correlations that signal are projected onto the no-signalling set. Serialised as
+/// `least squares` or `minimum Neyman chi-square`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub enum ProjectionMethod {
+    /// Euclidean distance over all p(a|q) (no rounds known).
+    #[serde(rename = "least squares")]
+    LeastSquares,
+    /// Neyman's modified χ², weighting each row by its rounds.
+    #[serde(rename = "minimum Neyman chi-square")]
+    NeymanChiSquare,
+}
+
+impl std::fmt::Display for ProjectionMethod {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            ProjectionMethod::LeastSquares => "least squares",
+            ProjectionMethod::NeymanChiSquare => "minimum Neyman chi-square",
+        })
+    }
 }
 
 /// Projects correlations onto the no-signalling set. With rounds per question the projection
@@ -154,9 +175,9 @@ pub fn project_no_signalling(c: &Correlations) -> Result<NoSignallingProjection>
         chi_square.map(|t| crate::stats::chi_square_upper_tail(t, degrees_of_freedom as f64));
     Ok(NoSignallingProjection {
         method: if c.rounds.is_some() {
-            "minimum Neyman chi-square"
+            ProjectionMethod::NeymanChiSquare
         } else {
-            "least squares"
+            ProjectionMethod::LeastSquares
         },
         distance,
         max_change,
