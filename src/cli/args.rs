@@ -24,7 +24,7 @@ Whichever runs, the reported bound is verified from the dual solution with every
 
 const FORCE_HELP: &str = "Run even when the estimate says the work would take very long or need much memory.
 
-Every command estimates its time and memory before starting (the classical search from random probes, the NPA moment matrix from its size, the see-saw from a rule of thumb) and refuses with the estimate when it is above the default limit, about an hour or 16 GiB. --force starts the work anyway.
+Every command estimates its time and memory before starting (the classical search from random probes, the NPA moment matrix from its size, the see-saw from a rule of thumb) and refuses with the estimate when it is above its default limit (about an hour or 16 GiB for the searches and SDPs, a number of nonzeros for the LPs). --force starts the work anyway.
 
 It does not lift the hard ceilings that protect the machine (e.g. 50,000 words for an NPA matrix, 2^30 table entries), and it never makes a number less honest: a solver stopped early is still reported as what it is.";
 
