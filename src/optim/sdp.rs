@@ -183,7 +183,7 @@ impl SdpProblem {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum Backend {
-    /// Chosen by size ([`choose`]), with the other as fallback.
+    /// Chosen by size ([`super::backend::choose`]), with the other as fallback.
     #[default]
     Auto,
     /// clarabel, with the PSD cone as a dense triangle block.
