@@ -6,3 +6,4 @@ pub mod collins_gisin;
 pub mod correlations;
 pub mod scenario;
 pub mod strategy;
+pub mod symmetry;

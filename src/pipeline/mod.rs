@@ -30,6 +30,7 @@ use crate::formats::game::Game;
 use crate::limits::{human_seconds, Limits};
 use crate::model::scenario::{Scenario, Sizes};
 use crate::model::strategy::{CertifiedValue, QuantumStrategy};
+use crate::model::symmetry::{symmetries, SymmetryGroup};
 use crate::optim::backend::Backend;
 
 /// The quantum value counts as settled when the verified upper bound and the see-saw's lower
@@ -91,6 +92,9 @@ pub struct GameSizes {
     pub classical: ClassicalEstimate,
     /// Smallest and largest value any behaviour can have.
     pub value_range: (f64, f64),
+    /// The relabellings of players, questions and answers that leave the weighted score table
+    /// unchanged (None when the table is too large to search).
+    pub symmetry: Option<SymmetryGroup>,
 }
 
 /// Everything computed for one game by `check`, `classical`, `nosignal`, `bounds`, `npa`,
@@ -305,6 +309,7 @@ pub fn check(game: &Game) -> GameReport<'_> {
         sizes: Sizes::of(s),
         classical: ClassicalEstimate::of(s),
         value_range: s.value_range(),
+        symmetry: symmetries(s),
     });
     r
 }

@@ -13,6 +13,7 @@ use crate::bounds::classical::{
 use crate::bounds::quantum::analysis::{Bipartition, Robustness};
 use crate::bounds::quantum::npa::{Level, NpaBound};
 use crate::model::scenario::{Scenario, ScoreKind, Sizes};
+use crate::model::symmetry::SymmetryGroup;
 use crate::optim::backend::Backend;
 use crate::optim::lp::LpMethod;
 use crate::optim::SolveStatus;
@@ -40,6 +41,59 @@ struct PlayerView<'a> {
     name: &'a str,
     questions: &'a [i64],
     answers: &'a [i64],
+}
+
+/// A symmetry in the game's own labels: the image of each player, of each question (per
+/// player), and of each answer (per player and question).
+#[derive(Serialize)]
+struct GeneratorView<'a> {
+    players: Vec<&'a str>,
+    questions: std::collections::BTreeMap<&'a str, Vec<i64>>,
+    answers: std::collections::BTreeMap<&'a str, Vec<Vec<i64>>>,
+}
+
+#[derive(Serialize)]
+struct SymmetryView<'a> {
+    order: u128,
+    complete: bool,
+    generators: Vec<GeneratorView<'a>>,
+}
+
+impl<'a> SymmetryView<'a> {
+    fn of(s: &'a Scenario, g: &SymmetryGroup) -> Self {
+        let p = s.parties();
+        SymmetryView {
+            order: g.order,
+            complete: g.complete,
+            generators: g
+                .generators
+                .iter()
+                .map(|r| GeneratorView {
+                    players: r.players.iter().map(|&j| p[j].name.as_str()).collect(),
+                    questions: (0..p.len())
+                        .map(|i| {
+                            let image = &p[r.players[i]];
+                            let labels = r.questions[i]
+                                .iter()
+                                .map(|&y| image.question_labels[y])
+                                .collect();
+                            (p[i].name.as_str(), labels)
+                        })
+                        .collect(),
+                    answers: (0..p.len())
+                        .map(|i| {
+                            let image = &p[r.players[i]];
+                            let labels = r.answers[i]
+                                .iter()
+                                .map(|t| t.iter().map(|&b| image.answer_labels[b]).collect())
+                                .collect();
+                            (p[i].name.as_str(), labels)
+                        })
+                        .collect(),
+                })
+                .collect(),
+        }
+    }
 }
 
 #[derive(Serialize)]
@@ -133,6 +187,9 @@ struct GameReportView<'a> {
     estimates: Option<EstimatesView<'a>>,
     #[serde(skip_serializing_if = "Option::is_none")]
     value_range: Option<(f64, f64)>,
+    /// With sizes: the symmetry group (null when the table is too large to search).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    symmetry: Option<Option<SymmetryView<'a>>>,
     /// The exact classical value; an incumbent goes under `classical_lower` only.
     #[serde(skip_serializing_if = "Option::is_none")]
     classical: Option<f64>,
@@ -210,6 +267,10 @@ impl<'a> GameReportView<'a> {
                 classical: &z.classical,
             }),
             value_range: r.sizes.as_ref().map(|z| z.value_range),
+            symmetry: r
+                .sizes
+                .as_ref()
+                .map(|z| z.symmetry.as_ref().map(|g| SymmetryView::of(s, g))),
             classical: exact(ClassicalStatus::Exact),
             classical_lower: exact(ClassicalStatus::Incumbent),
             classical_details: r.classical.as_ref().map(|c| ClassicalDetailsView {
@@ -593,6 +654,22 @@ mod tests {
         let text = super::super::text::game_report(&r);
         assert!(text.contains("classical ≥"), "{text}");
         assert!(!text.contains("\nclassical  "), "{text}");
+    }
+
+    #[test]
+    fn check_reports_the_symmetry_group_in_labels() {
+        let game = Game::from_spec(&families::chsh(), "chsh").unwrap();
+        let v = to_value(&pipeline::check(&game));
+        assert_eq!(v["symmetry"]["order"], 16);
+        assert_eq!(v["symmetry"]["complete"], true);
+        let generators = v["symmetry"]["generators"].as_array().unwrap();
+        assert!(!generators.is_empty());
+        for g in generators {
+            assert_eq!(g["players"].as_array().unwrap().len(), 2);
+            assert_eq!(g["answers"]["alice"].as_array().unwrap().len(), 2);
+        }
+        let text = super::super::text::game_report(&pipeline::check(&game));
+        assert!(text.contains("order 16"), "{text}");
     }
 
     #[test]

@@ -4,6 +4,7 @@
 use crate::bounds::classical::{ClassicalStatus, DeterministicStrategy};
 use crate::bounds::quantum::analysis::StrategyAnalysis;
 use crate::model::scenario::Scenario;
+use crate::model::symmetry::Relabelling;
 use crate::numbers::{bits_text, count_text, fixed6, num, num_sig, with_fraction};
 use crate::pipeline::{
     GameReport, KeyReport, LocalReport, MarginReport, RandomnessReport, VerifyReport,
@@ -85,6 +86,22 @@ pub fn game_report(r: &GameReport) -> String {
             ),
         ));
         rows.push(("value range".into(), format!("[{}, {}]", num(lo), num(hi))));
+        rows.push((
+            "symmetry".into(),
+            match &sizes.symmetry {
+                None => "not searched (the table is too large)".into(),
+                Some(g) if g.complete => format!(
+                    "order {} ({} generators; relabellings that leave the weighted table unchanged)",
+                    g.order,
+                    g.generators.len()
+                ),
+                Some(g) => format!(
+                    "order ≥ {} (the search stopped at its work limit; {} generators found)",
+                    g.order,
+                    g.generators.len()
+                ),
+            },
+        ));
     }
     if let Some(c) = &r.classical {
         match c.status {
@@ -192,6 +209,15 @@ pub fn game_report(r: &GameReport) -> String {
         rows.push(("gap ns − classical".into(), num(ns.value - c.value)));
     }
     out += &table(&rows);
+    if let Some(g) = r.sizes.as_ref().and_then(|z| z.symmetry.as_ref()) {
+        for (k, generator) in g.generators.iter().enumerate() {
+            out += &format!(
+                "  generator {}: {}\n",
+                k + 1,
+                relabelling_text(s, generator)
+            );
+        }
+    }
     for f in &r.not_obtained {
         out += &format!("not obtained: {f}\n");
     }
@@ -447,4 +473,50 @@ pub fn p_value_text(m: &Margin) -> String {
     let e = m.p_value_log10.floor();
     let mantissa = 10f64.powf(m.p_value_log10 - e);
     format!("{}×10^{}", num_sig(mantissa, 4), e as i64)
+}
+
+/// What a relabelling moves, in the game's labels: `players alice→bob bob→alice; alice
+/// questions 0→1 1→0; bob answers at question 1: 0→1 1→0` (identity parts left out).
+fn relabelling_text(s: &Scenario, r: &Relabelling) -> String {
+    let p = s.parties();
+    let mut parts = Vec::new();
+    if r.players.iter().enumerate().any(|(i, &j)| i != j) {
+        let moved: Vec<String> = (0..p.len())
+            .map(|i| format!("{}→{}", p[i].name, p[r.players[i]].name))
+            .collect();
+        parts.push(format!("players {}", moved.join(" ")));
+    }
+    for i in 0..p.len() {
+        let image = &p[r.players[i]];
+        if r.questions[i].iter().enumerate().any(|(x, &y)| x != y) || r.players[i] != i {
+            let moved: Vec<String> = (0..p[i].questions())
+                .map(|x| {
+                    format!(
+                        "{}→{}",
+                        p[i].question_labels[x], image.question_labels[r.questions[i][x]]
+                    )
+                })
+                .collect();
+            parts.push(format!("{} questions {}", p[i].name, moved.join(" ")));
+        }
+        for x in 0..p[i].questions() {
+            let t = &r.answers[i][x];
+            if t.iter().enumerate().any(|(a, &b)| a != b) {
+                let moved: Vec<String> = (0..t.len())
+                    .map(|a| format!("{}→{}", p[i].answer_labels[a], image.answer_labels[t[a]]))
+                    .collect();
+                parts.push(format!(
+                    "{} answers at question {}: {}",
+                    p[i].name,
+                    p[i].question_labels[x],
+                    moved.join(" ")
+                ));
+            }
+        }
+    }
+    if parts.is_empty() {
+        "identity".into()
+    } else {
+        parts.join("; ")
+    }
 }
