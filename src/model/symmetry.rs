@@ -22,9 +22,10 @@ use super::scenario::{digits, index_of, Scenario};
 
 /// Most non-zero table entries searched (the graph has one vertex per entry).
 pub const MAX_ENTRIES: usize = 1 << 18;
-/// Most work (refinements × vertices of the graph) the search may spend before it reports what
-/// it has found so far, with `complete: false`: about a second or two on the project machine.
-pub const MAX_WORK: usize = 200_000_000;
+/// Most work (vertex and edge visits of colour refinement) the search may spend before it
+/// reports what it has found so far, with `complete: false`: about a second on the project
+/// machine.
+pub const MAX_WORK: usize = 30_000_000;
 
 /// A relabelling of a game: player `i` becomes player `players[i]`, its question index `x`
 /// becomes `questions[i][x]` (of the new player) and its answer index `a` to question `x`
@@ -115,6 +116,8 @@ struct Graph {
     /// `event_offset[i][x]`: index of (i, x)'s first answer among the event vertices.
     question_offset: Vec<usize>,
     event_offset: Vec<Vec<usize>>,
+    /// Vertex and edge visits spent in refinement so far (checked against [`MAX_WORK`]).
+    work: std::cell::Cell<usize>,
 }
 
 impl Graph {
@@ -197,14 +200,23 @@ impl Graph {
             event_base,
             question_offset,
             event_offset,
+            work: std::cell::Cell::new(0),
         })
+    }
+
+    /// Whether the refinements so far have used up [`MAX_WORK`].
+    fn over_budget(&self) -> bool {
+        self.work.get() >= MAX_WORK
     }
 
     /// Colour refinement to the coarsest equitable partition finer than `colours`, with the new
     /// colours numbered by sorting (old colour, multiset of neighbour colours): an
     /// isomorphism-invariant numbering, so equivalent nodes of the search get equal partitions.
     fn refine(&self, mut colours: Vec<usize>) -> Vec<usize> {
+        let edges: usize = self.adjacency.iter().map(Vec::len).sum();
         loop {
+            self.work
+                .set(self.work.get().saturating_add(colours.len() + edges));
             let cells_before = count_cells(&colours);
             let mut signatures: Vec<(usize, Vec<usize>, usize)> = (0..colours.len())
                 .map(|v| {
@@ -313,7 +325,6 @@ struct Search<'a> {
     /// differs cannot lead to an equivalent leaf).
     profiles: Vec<Vec<usize>>,
     generators: Vec<Vec<usize>>,
-    refinements: usize,
     exhausted: bool,
 }
 
@@ -351,11 +362,10 @@ impl Search<'_> {
             .then_some(g);
         };
         for w in cell {
-            if self.refinements.saturating_mul(self.graph.colour.len()) >= MAX_WORK {
+            if self.graph.over_budget() {
                 self.exhausted = true;
                 return None;
             }
-            self.refinements += 1;
             let next = self.graph.individualise(&colours, w);
             if let Some(g) = self.equivalent_leaf(next, depth + 1) {
                 return Some(g);
@@ -389,6 +399,14 @@ pub fn symmetries(s: &Scenario) -> Option<SymmetryGroup> {
     let mut path = Vec::new();
     let mut partitions = vec![graph.refine(graph.colour.clone())];
     while let Some(cell) = target_cell(partitions.last().unwrap()) {
+        if graph.over_budget() {
+            // Not even a first leaf within the budget: only the identity is known.
+            return Some(SymmetryGroup {
+                order: 1,
+                complete: false,
+                generators: Vec::new(),
+            });
+        }
         let v = cell[0];
         path.push((v, cell));
         let next = graph.individualise(partitions.last().unwrap(), v);
@@ -400,7 +418,6 @@ pub fn symmetries(s: &Scenario) -> Option<SymmetryGroup> {
         first_leaf: partitions.last().unwrap().clone(),
         profiles: partitions.iter().map(|p| profile(p)).collect(),
         generators: Vec::new(),
-        refinements: path.len(),
         exhausted: false,
     };
     let mut order: u128 = 1;
@@ -413,11 +430,13 @@ pub fn symmetries(s: &Scenario) -> Option<SymmetryGroup> {
             if current.contains(&w) {
                 continue;
             }
-            search.refinements += 1;
             let next = graph.individualise(&partitions[depth], w);
             if let Some(g) = search.equivalent_leaf(next, depth + 1) {
                 search.generators.push(g);
                 current = orbit(*v, &search.generators);
+            }
+            if graph.over_budget() {
+                search.exhausted = true;
             }
             if search.exhausted {
                 break;

@@ -97,7 +97,11 @@ pub fn game_report(r: &GameReport) -> String {
                 ),
                 Some(g) => format!(
                     "order ≥ {} (the search stopped at its work limit; {} generators found)",
-                    g.order,
+                    if g.order == u128::MAX {
+                        "3.4×10^38".to_string()
+                    } else {
+                        g.order.to_string()
+                    },
                     g.generators.len()
                 ),
             },
