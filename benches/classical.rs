@@ -1,4 +1,5 @@
-//! Speed of the exact classical search, the no-signalling LP and the locality LP.
+//! Speed of the exact classical search, the no-signalling LP, the locality LP and the symmetry
+//! search.
 //!
 //! Run with `cargo bench --bench classical`; prints one table row per case (median of several
 //! runs). The numbers in BENCHMARKS.md come from this command. Speed is measured here, never in
@@ -134,4 +135,29 @@ fn main() {
         "| optimal CHSH correlations | locality LP (16 strategies) | {t:.4} | visibility {:.6} |",
         r.visibility
     );
+    let mut symmetric: Vec<(String, Scenario)> = cases
+        .iter()
+        .map(|(name, s, _)| (name.to_string(), s.clone()))
+        .collect();
+    for d in [12, 16] {
+        symmetric.push((
+            format!("CGLMP d={d}"),
+            compile(&families::cglmp(d).unwrap()),
+        ));
+    }
+    symmetric.push(("GHZ 4 players".into(), compile(&families::ghz(4).unwrap())));
+    for (name, s) in &symmetric {
+        let (t, g) = time(5, || bellgap::model::symmetry::symmetries(s));
+        match g {
+            Some(g) => println!(
+                "| {name} | symmetry search | {t:.4} | order {}{} ({} generators) |",
+                if g.complete { "" } else { "≥ " },
+                g.order,
+                g.generators.len()
+            ),
+            None => {
+                println!("| {name} | symmetry search | {t:.4} | not searched (table too large) |")
+            }
+        }
+    }
 }
