@@ -23,9 +23,9 @@ use super::scenario::{digits, index_of, Scenario};
 /// Most non-zero table entries searched (the graph has one vertex per entry).
 pub const MAX_ENTRIES: usize = 1 << 18;
 /// Most work (vertex and edge visits of colour refinement) the search may spend before it
-/// reports what it has found so far, with `complete: false`: about a second on the project
+/// reports what it has found so far, with `complete: false`: about half a second on the project
 /// machine.
-pub const MAX_WORK: usize = 30_000_000;
+pub const MAX_WORK: usize = 50_000_000;
 
 /// A relabelling of a game: player `i` becomes player `players[i]`, its question index `x`
 /// becomes `questions[i][x]` (of the new player) and its answer index `a` to question `x`
@@ -209,20 +209,23 @@ impl Graph {
         self.work.get() >= MAX_WORK
     }
 
-    /// Colour refinement to the coarsest equitable partition finer than `colours`, with the new
-    /// colours numbered by sorting (old colour, multiset of neighbour colours): an
-    /// isomorphism-invariant numbering, so equivalent nodes of the search get equal partitions.
+    /// Colour refinement: split cells by (old colour, multiset of neighbour colours) until the
+    /// number of cells stops growing. The multiset is summarised by a sum of per-colour hashes
+    /// (a collision can only leave a partition coarser, which costs search, never a wrong
+    /// symmetry: every candidate is checked). New colours are numbered by sorting the
+    /// signatures, an isomorphism-invariant numbering, so equivalent nodes of the search get
+    /// equal partitions.
     fn refine(&self, mut colours: Vec<usize>) -> Vec<usize> {
         let edges: usize = self.adjacency.iter().map(Vec::len).sum();
+        let mut cells = count_cells(&colours);
         loop {
             self.work
                 .set(self.work.get().saturating_add(colours.len() + edges));
-            let cells_before = count_cells(&colours);
-            let mut signatures: Vec<(usize, Vec<usize>, usize)> = (0..colours.len())
+            let mut signatures: Vec<(usize, u64, usize)> = (0..colours.len())
                 .map(|v| {
-                    let mut around: Vec<usize> =
-                        self.adjacency[v].iter().map(|&u| colours[u]).collect();
-                    around.sort_unstable();
+                    let around = self.adjacency[v]
+                        .iter()
+                        .fold(0u64, |h, &u| h.wrapping_add(mix(colours[u] as u64)));
                     (colours[v], around, v)
                 })
                 .collect();
@@ -231,17 +234,19 @@ impl Graph {
             let mut colour = 0;
             for k in 0..signatures.len() {
                 if k > 0
-                    && (signatures[k].0, &signatures[k].1)
-                        != (signatures[k - 1].0, &signatures[k - 1].1)
+                    && (signatures[k].0, signatures[k].1)
+                        != (signatures[k - 1].0, signatures[k - 1].1)
                 {
                     colour += 1;
                 }
                 next[signatures[k].2] = colour;
             }
             colours = next;
-            if count_cells(&colours) == cells_before {
+            let now = count_cells(&colours);
+            if now == cells {
                 return colours;
             }
+            cells = now;
         }
     }
 
@@ -302,6 +307,14 @@ impl Graph {
     }
 }
 
+/// A well-mixed 64-bit value of a colour (splitmix64's finaliser).
+fn mix(x: u64) -> u64 {
+    let mut z = x.wrapping_add(0x9E37_79B9_7F4A_7C15);
+    z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+    z ^ (z >> 31)
+}
+
 fn count_cells(colours: &[usize]) -> usize {
     colours.iter().copied().max().map_or(0, |m| m + 1)
 }
@@ -339,7 +352,16 @@ fn profile(colours: &[usize]) -> Vec<usize> {
 impl Search<'_> {
     /// A leaf below `colours` (at `depth`) equivalent to the first leaf, as the automorphism
     /// mapping the first leaf to it.
-    fn equivalent_leaf(&mut self, colours: Vec<usize>, depth: usize) -> Option<Vec<usize>> {
+    ///
+    /// `fixed` holds the vertices individualised on the way here. Children in one orbit of the
+    /// known automorphisms that fix `fixed` pointwise head isomorphic subtrees (one holds an
+    /// equivalent leaf iff the other does), so only the first of each orbit is explored.
+    fn equivalent_leaf(
+        &mut self,
+        colours: Vec<usize>,
+        depth: usize,
+        fixed: &mut Vec<usize>,
+    ) -> Option<Vec<usize>> {
         if self.profiles.get(depth) != Some(&profile(&colours)) {
             return None;
         }
@@ -361,14 +383,28 @@ impl Search<'_> {
                     .is_symmetry_of(self.scenario))
             .then_some(g);
         };
+        let stabiliser: Vec<Vec<usize>> = self
+            .generators
+            .iter()
+            .filter(|g| fixed.iter().all(|&p| g[p] == p))
+            .cloned()
+            .collect();
+        let mut tried: Vec<usize> = Vec::new();
         for w in cell {
             if self.graph.over_budget() {
                 self.exhausted = true;
                 return None;
             }
+            if !stabiliser.is_empty() && tried.iter().any(|&u| orbit(u, &stabiliser).contains(&w)) {
+                continue;
+            }
+            tried.push(w);
             let next = self.graph.individualise(&colours, w);
-            if let Some(g) = self.equivalent_leaf(next, depth + 1) {
-                return Some(g);
+            fixed.push(w);
+            let found = self.equivalent_leaf(next, depth + 1, fixed);
+            fixed.pop();
+            if found.is_some() {
+                return found;
             }
         }
         None
@@ -426,14 +462,27 @@ pub fn symmetries(s: &Scenario) -> Option<SymmetryGroup> {
     for depth in (0..path.len()).rev() {
         let (v, cell) = &path[depth];
         let mut current = orbit(*v, &search.generators);
+        // Images already shown to be unreachable: their orbits are too.
+        let mut failed: Vec<usize> = Vec::new();
+        let mut fixed: Vec<usize> = path[..depth].iter().map(|(u, _)| *u).collect();
         for &w in cell {
-            if current.contains(&w) {
+            if current.contains(&w)
+                || failed
+                    .iter()
+                    .any(|&u| orbit(u, &search.generators).contains(&w))
+            {
                 continue;
             }
             let next = graph.individualise(&partitions[depth], w);
-            if let Some(g) = search.equivalent_leaf(next, depth + 1) {
-                search.generators.push(g);
-                current = orbit(*v, &search.generators);
+            fixed.push(w);
+            let found = search.equivalent_leaf(next, depth + 1, &mut fixed);
+            fixed.pop();
+            match found {
+                Some(g) => {
+                    search.generators.push(g);
+                    current = orbit(*v, &search.generators);
+                }
+                None => failed.push(w),
             }
             if graph.over_budget() {
                 search.exhausted = true;
