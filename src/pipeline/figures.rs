@@ -3,7 +3,7 @@
 
 use super::{classical_observed, Observer};
 use crate::bounds::classical::locality::{locality_test, LocalityReport};
-use crate::bounds::classical::ClassicalOptions;
+use crate::bounds::classical::{classical_value, ClassicalOptions};
 use crate::bounds::quantum::npa::{self, Level, Verification};
 use crate::error::{Error, Result};
 use crate::formats::certificate::Certificate;
@@ -57,7 +57,13 @@ pub fn margin<'a>(
     observer: &dyn Observer,
 ) -> Result<MarginReport<'a>> {
     let obs = finite::observation(&game.scenario, run)?;
-    let classical = classical_observed(&game.scenario, &options.classical, observer, false)?.value;
+    let classical = classical_observed(
+        &game.scenario,
+        &options.classical,
+        observer,
+        classical_value,
+    )?
+    .value;
     let margin = finite::margin(
         &obs,
         classical,

@@ -342,22 +342,23 @@ fn warn_slow_seesaw(s: &Scenario, options: &SeesawOptions, observer: &dyn Observ
     }
 }
 
-/// The classical value with progress reported to `observer`.
+/// Which classical function a command calls: [`classical_value`] (exact only) or
+/// [`classical_value_or_incumbent`].
+type ClassicalFn =
+    fn(&Scenario, &ClassicalOptions, Option<classical::Progress>) -> Result<ClassicalValue>;
+
+/// `compute` with progress reported to `observer`.
 fn classical_observed(
     s: &Scenario,
     options: &ClassicalOptions,
     observer: &dyn Observer,
-    accept_incumbent: bool,
+    compute: ClassicalFn,
 ) -> Result<ClassicalValue> {
     let report = |done: usize, total: usize| observer.progress(Stage::ClassicalSearch, done, total);
     let progress: Option<classical::Progress> = observer
         .wants_progress()
         .then_some(&report as classical::Progress);
-    if accept_incumbent {
-        classical_value_or_incumbent(s, options, progress)
-    } else {
-        classical_value(s, options, progress)
-    }
+    compute(s, options, progress)
 }
 
 /// The see-saw with progress reported to `observer`.
@@ -384,7 +385,12 @@ pub fn classical<'a>(
         warn_long_search(&game.scenario, &options.limits, observer);
     }
     let mut r = GameReport::new(CommandKind::Classical, game);
-    r.classical = Some(classical_observed(&game.scenario, options, observer, true)?);
+    r.classical = Some(classical_observed(
+        &game.scenario,
+        options,
+        observer,
+        classical_value_or_incumbent,
+    )?);
     Ok(r)
 }
 
@@ -411,7 +417,7 @@ pub fn bounds<'a>(
         limits: options.limits,
         ..Default::default()
     };
-    match classical_observed(s, &classical_options, observer, false) {
+    match classical_observed(s, &classical_options, observer, classical_value) {
         Ok(c) => r.classical = Some(c),
         Err(e @ (Error::Solver { .. } | Error::TooLarge { .. })) => {
             r.not_obtained.push(format!("classical value: {e}"))
