@@ -14,6 +14,12 @@ Several levels separated by `;` (e.g. \"1;1+joint;2\") are built and size-checke
 
 The moment matrix grows quickly with the level (roughly (questions·(answers−1))^level words per player). Levels whose matrix would be too large are refused before anything is built, with the estimate; see --force.";
 
+const SYMMETRY_HELP: &str = "Reduce the NPA relaxation by the game's symmetries.
+
+`auto` (default): find the relabellings of players, questions and answers that leave the weighted score table unchanged (as `check` reports them), merge the moments that the group maps onto each other, and solve the smaller problem. The value is the same as without the reduction. The verified bound does not rely on it: the smaller problem's dual is averaged over the group and checked on the full problem, and a saved certificate is in the full problem's format. A game without symmetry, or a level whose words a symmetry does not preserve, is solved in full.
+
+`off`: always solve the full relaxation.";
+
 const SOLVER_HELP: &str = "SDP solver of the NPA bound.
 
 `auto` (default) picks by the size of the work: the moment-matrix interior-point method (`ipm`) for large moment matrices, clarabel for small ones, and falls back to the other if the first fails (clarabel only when it fits in memory and time).
@@ -70,6 +76,9 @@ pub enum Command {
         /// SDP solver for the NPA bound.
         #[arg(long, value_enum, default_value_t = SolverArg::Auto, long_help = SOLVER_HELP)]
         solver: SolverArg,
+        /// Reduce the NPA relaxation by the game's symmetries (`auto`) or solve it in full (`off`).
+        #[arg(long, value_enum, default_value_t = SymmetryArg::Auto, long_help = SYMMETRY_HELP)]
+        symmetry: SymmetryArg,
     },
     /// Quantum upper bound from the NPA hierarchy, with a verified bound from the dual solution.
     Npa {
@@ -90,6 +99,9 @@ pub enum Command {
         /// (ipm, falling back to clarabel).
         #[arg(long, value_enum, default_value_t = SolverArg::Auto, long_help = SOLVER_HELP)]
         solver: SolverArg,
+        /// Reduce the relaxation by the game's symmetries (`auto`) or solve it in full (`off`).
+        #[arg(long, value_enum, default_value_t = SymmetryArg::Auto, long_help = SYMMETRY_HELP)]
+        symmetry: SymmetryArg,
     },
     /// Explicit quantum strategy by see-saw: a lower bound on the quantum value.
     Seesaw {
@@ -271,6 +283,12 @@ pub enum SolverArg {
     Auto,
     Ipm,
     Clarabel,
+}
+
+#[derive(ValueEnum, Debug, Clone, Copy)]
+pub enum SymmetryArg {
+    Auto,
+    Off,
 }
 
 #[derive(ValueEnum, Debug, Clone, Copy)]

@@ -6,6 +6,7 @@ use std::path::PathBuf;
 
 use bellgap::bounds::classical::{Choice, ClassicalOptions};
 use bellgap::bounds::quantum::npa::Level;
+use bellgap::bounds::quantum::symmetric::SymmetryChoice;
 use bellgap::bounds::quantum::seesaw::SeesawOptions;
 use bellgap::formats::game::families::{self, Family};
 use bellgap::formats::game::CompileOptions;
@@ -18,7 +19,7 @@ use bellgap::pipeline::{
 use bellgap::protocol::finite::ObservedRun;
 use bellgap::{Error, Result};
 
-use super::args::{Cli, Command, FamilyCommand, GameArgs, MethodArg, SolverArg};
+use super::args::{Cli, Command, FamilyCommand, GameArgs, MethodArg, SolverArg, SymmetryArg};
 
 /// A game file and how to compile it.
 #[derive(Debug, Clone, PartialEq)]
@@ -184,6 +185,14 @@ pub fn backend(solver: SolverArg) -> Backend {
     }
 }
 
+/// `--symmetry`.
+pub fn symmetry(choice: SymmetryArg) -> SymmetryChoice {
+    match choice {
+        SymmetryArg::Auto => SymmetryChoice::Auto,
+        SymmetryArg::Off => SymmetryChoice::Off,
+    }
+}
+
 /// `--method`.
 pub fn method(m: MethodArg) -> Choice {
     match m {
@@ -291,11 +300,13 @@ impl Invocation {
                 args,
                 level,
                 solver,
+                symmetry: sym,
             } => Request::Bounds {
                 game: game_input(args),
                 options: BoundsOptions {
                     npa_level: level.as_deref().map(Level::parse).transpose()?,
                     backend: backend(*solver),
+                    symmetry: symmetry(*sym),
                     limits: limits(args.force),
                     ..Default::default()
                 },
@@ -306,11 +317,13 @@ impl Invocation {
                 certificate,
                 svg,
                 solver,
+                symmetry: sym,
             } => Request::Npa {
                 game: game_input(args),
                 options: NpaLevelsOptions {
                     levels: levels(level)?,
                     backend: backend(*solver),
+                    symmetry: symmetry(*sym),
                     limits: limits(args.force),
                 },
                 certificate: certificate.clone(),

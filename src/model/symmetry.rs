@@ -30,7 +30,7 @@ pub const MAX_WORK: usize = 50_000_000;
 /// A relabelling of a game: player `i` becomes player `players[i]`, its question index `x`
 /// becomes `questions[i][x]` (of the new player) and its answer index `a` to question `x`
 /// becomes `answers[i][x][a]`.
-#[derive(Debug, Clone, PartialEq, Eq)]
+#[derive(Debug, Clone, PartialEq, Eq, Hash)]
 pub struct Relabelling {
     /// Image of each player.
     pub players: Vec<usize>,
@@ -53,6 +53,36 @@ pub struct SymmetryGroup {
 }
 
 impl Relabelling {
+    /// The relabelling that changes nothing.
+    pub fn identity(s: &Scenario) -> Relabelling {
+        let parties = s.parties();
+        Relabelling {
+            players: (0..parties.len()).collect(),
+            questions: parties.iter().map(|p| (0..p.questions()).collect()).collect(),
+            answers: parties
+                .iter()
+                .map(|p| vec![(0..p.answers()).collect(); p.questions()])
+                .collect(),
+        }
+    }
+
+    /// `self` after `first`: the relabelling that applies `first`, then `self`.
+    pub fn after(&self, first: &Relabelling) -> Relabelling {
+        let n = first.players.len();
+        let mut out = first.clone();
+        for i in 0..n {
+            let j = first.players[i];
+            out.players[i] = self.players[j];
+            for (x, &x2) in first.questions[i].iter().enumerate() {
+                out.questions[i][x] = self.questions[j][x2];
+                for (a, &a2) in first.answers[i][x].iter().enumerate() {
+                    out.answers[i][x][a] = self.answers[j][x2][a2];
+                }
+            }
+        }
+        out
+    }
+
     /// The image of entry (joint question `q`, joint answer `a`).
     pub fn apply(&self, s: &Scenario, q: usize, a: usize) -> (usize, usize) {
         self.apply_with(&s.question_radices(), &s.answer_radices(), q, a)

@@ -25,6 +25,7 @@ use crate::bounds::nosignal::{no_signalling_value, NoSignallingValue};
 use crate::bounds::quantum::analysis::{analyse, StrategyAnalysis};
 use crate::bounds::quantum::npa::{self, Level, NpaBound, NpaOptions};
 use crate::bounds::quantum::seesaw::{self, SeesawOptions, SeesawResult};
+use crate::bounds::quantum::symmetric::SymmetryChoice;
 use crate::error::{Error, Result};
 use crate::formats::game::Game;
 use crate::limits::{human_seconds, Limits};
@@ -295,6 +296,8 @@ pub struct BoundsOptions {
     pub npa_level: Option<Level>,
     /// SDP backend of the NPA bound.
     pub backend: Backend,
+    /// Whether the NPA relaxation is reduced by the game's symmetries.
+    pub symmetry: SymmetryChoice,
     /// The see-saw (its `limits` are replaced by [`BoundsOptions::limits`]).
     pub seesaw: SeesawOptions,
     /// Work limits of every bound.
@@ -434,6 +437,7 @@ pub fn bounds<'a>(
             let npa_options = NpaOptions {
                 level,
                 backend: options.backend,
+                symmetry: options.symmetry,
                 limits: options.limits,
             };
             match npa::npa_bound(s, &npa_options) {
@@ -469,6 +473,8 @@ pub struct NpaLevelsOptions {
     pub levels: Vec<Level>,
     /// SDP backend.
     pub backend: Backend,
+    /// Whether each relaxation is reduced by the game's symmetries.
+    pub symmetry: SymmetryChoice,
     /// Work limits (every level is size-checked before any is solved).
     pub limits: Limits,
 }
@@ -478,6 +484,7 @@ impl Default for NpaLevelsOptions {
         NpaLevelsOptions {
             levels: vec![Level::Joint],
             backend: Backend::Auto,
+            symmetry: SymmetryChoice::Auto,
             limits: Limits::default(),
         }
     }
@@ -501,6 +508,7 @@ pub fn npa_levels<'a>(game: &'a Game, options: &NpaLevelsOptions) -> Result<Game
             let at = NpaOptions {
                 level: level.clone(),
                 backend: options.backend,
+                symmetry: options.symmetry,
                 limits: options.limits,
             };
             npa::sized_relaxation(s, &at).map(|(r, _)| (r, start.elapsed().as_secs_f64()))

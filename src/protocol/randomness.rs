@@ -104,7 +104,12 @@ pub fn guessing_probability(
         .iter()
         .map(|&(p, _)| s.parties().get(p).map_or(1, |q| q.answers()))
         .product();
-    let (base, est) = npa::sized_relaxation(s, &npa::NpaOptions::at(level.clone()))?;
+    // The guessing-probability SDPs are not symmetric under the game's group: solved in full.
+    let options = npa::NpaOptions {
+        symmetry: crate::bounds::quantum::symmetric::SymmetryChoice::Off,
+        ..npa::NpaOptions::at(level.clone())
+    };
+    let (base, est) = npa::sized_relaxation(s, &options)?;
     let g = guesses as f64;
     let (seconds, bytes) = (est.seconds * g * g * g, est.memory_bytes * g * g);
     if seconds > npa::SECONDS_LIMIT || bytes > npa::MEMORY_LIMIT {

@@ -12,6 +12,7 @@ use crate::bounds::classical::{
 };
 use crate::bounds::quantum::analysis::{Bipartition, Robustness};
 use crate::bounds::quantum::npa::{Level, NpaBound};
+use crate::bounds::quantum::symmetric::SymmetryUse;
 use crate::model::scenario::{Scenario, ScoreKind, Sizes};
 use crate::model::symmetry::SymmetryGroup;
 use crate::optim::backend::Backend;
@@ -141,6 +142,8 @@ struct NpaView<'a> {
     gap: f64,
     residual: f64,
     solver: Backend,
+    /// How the relaxation was reduced by the game's symmetries (null: solved in full).
+    npa_symmetry: Option<&'a SymmetryUse>,
     #[serde(skip_serializing_if = "Option::is_none")]
     levels: Option<Vec<&'a NpaBound>>,
     #[serde(skip_serializing_if = "Option::is_none")]
@@ -305,6 +308,7 @@ impl<'a> GameReportView<'a> {
                     gap: b.gap,
                     residual: b.residual,
                     solver: b.solver,
+                    npa_symmetry: b.symmetry.as_ref(),
                     levels: compared
                         .then(|| r.npa_levels.iter().chain(std::iter::once(b)).collect()),
                     best_verified_upper: r.best_npa().filter(|_| compared).map(|best| {
@@ -609,6 +613,7 @@ mod tests {
                 "no_signalling",
                 "no_signalling_details",
                 "npa_primal",
+                "npa_symmetry",
                 "players",
                 "quantum_lower",
                 "quantum_settled",

@@ -6,4 +6,5 @@
 pub mod analysis;
 pub mod npa;
 pub mod seesaw;
+pub mod symmetric;
 pub mod words;

@@ -19,6 +19,7 @@ use std::time::Instant;
 
 use serde::Serialize;
 
+use super::symmetric::{self, Reduction, SymmetryChoice, SymmetryUse};
 use super::words::{moment_key, product, projectors_of, words_of_pattern, Projector, Word};
 use crate::error::{Error, Result};
 use crate::formats::certificate::{Certificate, CERTIFICATE_FORMAT};
@@ -128,6 +129,8 @@ pub struct NpaOptions {
     pub level: Level,
     /// SDP backend (default: chosen by size, with fallback).
     pub backend: Backend,
+    /// Whether the relaxation is reduced by the game's symmetries (default: when it has some).
+    pub symmetry: SymmetryChoice,
     /// Refuse work above the default limits unless forced.
     pub limits: Limits,
 }
@@ -137,6 +140,7 @@ impl Default for NpaOptions {
         NpaOptions {
             level: Level::Joint,
             backend: Backend::Auto,
+            symmetry: SymmetryChoice::Auto,
             limits: Limits::default(),
         }
     }
@@ -347,6 +351,9 @@ pub struct Relaxation {
     pub matrix: MomentMatrix,
     /// The SDP: maximise the value over moment matrices that are PSD.
     pub problem: SdpProblem,
+    /// The problem reduced by the game's symmetries, when it is solved that way
+    /// ([`sized_relaxation`] with [`SymmetryChoice::Auto`]).
+    pub reduction: Option<Reduction>,
 }
 
 /// Builds the moment matrix and the SDP. Fails (as a usage error) when the level does not
@@ -445,6 +452,7 @@ pub fn relaxation(s: &Scenario, level: &Level) -> Result<Relaxation> {
         level: level.clone(),
         matrix,
         problem,
+        reduction: None,
     })
 }
 
@@ -455,7 +463,7 @@ pub fn relaxation(s: &Scenario, level: &Level) -> Result<Relaxation> {
 pub struct NpaEstimate {
     /// Side of the moment matrix.
     pub matrix_size: usize,
-    /// Distinct moments (SDP variables).
+    /// Variables of the SDP solved (distinct moments, or their orbits when reduced).
     pub moments: usize,
     /// Estimated seconds and memory with the solver that would run.
     pub seconds: f64,
@@ -488,12 +496,16 @@ pub fn estimate(r: &Relaxation) -> NpaEstimate {
 /// The estimate with the given backend.
 pub fn estimate_for(r: &Relaxation, solver: Backend) -> NpaEstimate {
     let n = r.matrix.size() as f64;
-    let m = r.matrix.moments.len() as f64;
     let d = n * (n + 1.0) / 2.0;
+    // A reduced problem has fewer variables, each spread over more matrix entries.
+    let (m, assembly) = match &r.reduction {
+        Some(red) => (red.summary.moments as f64, red.assembly_flops),
+        None => (r.matrix.moments.len() as f64, 4.0 * n.powi(4)),
+    };
     let clarabel_seconds = 15.0 * d * d * d / 3.0 / FLOPS_PER_SECOND;
     let clarabel_memory_bytes = 8.0 * d * d * 2.0;
     let ipm_seconds =
-        30.0 * (m * m * m / 3.0 / IPM_CHOLESKY_FLOPS + 4.0 * n.powi(4) / IPM_ASSEMBLY_FLOPS);
+        30.0 * (m * m * m / 3.0 / IPM_CHOLESKY_FLOPS + assembly / IPM_ASSEMBLY_FLOPS);
     let ipm_memory_bytes = 8.0 * m * m * 3.0 + 8.0 * n * n * 12.0;
     let (seconds, memory_bytes) = match solver {
         Backend::Clarabel => (clarabel_seconds, clarabel_memory_bytes),
@@ -501,7 +513,7 @@ pub fn estimate_for(r: &Relaxation, solver: Backend) -> NpaEstimate {
     };
     NpaEstimate {
         matrix_size: r.matrix.size(),
-        moments: r.matrix.moments.len(),
+        moments: m as usize,
         seconds,
         memory_bytes,
         clarabel_seconds,
@@ -540,6 +552,8 @@ pub struct NpaBound {
     pub residual: f64,
     /// The backend that produced the bound.
     pub solver: Backend,
+    /// How the relaxation was reduced by the game's symmetries (`None`: solved in full).
+    pub symmetry: Option<SymmetryUse>,
     /// The solution, with the dual vector for a certificate.
     #[serde(skip)]
     pub solution: Option<SdpSolution>,
@@ -573,7 +587,10 @@ pub fn sized_relaxation(s: &Scenario, options: &NpaOptions) -> Result<(Relaxatio
             hint: "choose a lower level, or pass --force".into(),
         });
     }
-    let r = relaxation(s, level)?;
+    let mut r = relaxation(s, level)?;
+    if options.symmetry == SymmetryChoice::Auto {
+        r.reduction = symmetric::reduce(s, &r.matrix.words, &r.matrix.moments, &r.problem);
+    }
     let est = estimate_for(&r, solver);
     if !force && (est.seconds > SECONDS_LIMIT || est.memory_bytes > MEMORY_LIMIT) {
         return Err(Error::TooLarge {
@@ -603,7 +620,11 @@ pub fn npa_bound(s: &Scenario, options: &NpaOptions) -> Result<NpaBound> {
 /// `build_seconds` is the time its building took, added to the reported time.
 pub fn solve_relaxation(r: &Relaxation, solver: Backend, build_seconds: f64) -> Result<NpaBound> {
     let start = Instant::now();
-    let sol = backend::solve(&r.problem, solver, &format!("NPA level {}", r.level.name()))?;
+    let stage = format!("NPA level {}", r.level.name());
+    let sol = match &r.reduction {
+        None => backend::solve(&r.problem, solver, &stage)?,
+        Some(red) => lift(r, red, backend::solve(&red.problem, solver, &stage)?)?,
+    };
     Ok(NpaBound {
         level: r.level.clone(),
         quantum_upper: sol.dual,
@@ -618,7 +639,26 @@ pub fn solve_relaxation(r: &Relaxation, solver: Backend, build_seconds: f64) -> 
         gap: sol.gap,
         residual: sol.residual,
         solver: sol.solver,
+        symmetry: r.reduction.as_ref().map(|red| red.summary.clone()),
         solution: Some(sol),
+    })
+}
+
+/// A reduced problem's solution as a solution of the full one: the moments copied from their
+/// orbits, the dual averaged over the group, and the verified bound recomputed from that dual
+/// on the full problem (see [`symmetric`]'s notes), so the reduction is not trusted.
+fn lift(r: &Relaxation, red: &Reduction, reduced: SdpSolution) -> Result<SdpSolution> {
+    let y = red.lift_primal(&reduced.y);
+    let z = red.lift_dual(r.matrix.size(), &reduced.z);
+    let assembled = r.problem.assemble();
+    let certified = assembled.certified_bound(&z)?;
+    Ok(SdpSolution {
+        primal: r.problem.primal_value(&y),
+        dual: assembled.dual_value(&z),
+        certified,
+        y,
+        z,
+        ..reduced
     })
 }
 

@@ -1,0 +1,449 @@
+//! Symmetry reduction of an NPA relaxation: moments merged into orbits of the game's symmetry
+//! group, with the dual of the smaller problem lifted back to a dual of the full one.
+//!
+//! Why it is exact. A symmetry g of the game ([`crate::model::symmetry`]) relabels projectors,
+//! so it acts on the operator algebra as a *-automorphism, and on moment vectors by
+//! `(g·y)(w) = y(g(w))`. When g maps the span of the generating words into itself
+//! (`g(u) = Σ ρ_uv v`), the moment matrix transforms by congruence, `Γ(g·y) = ρ Γ(y) ρᵀ`, so
+//! g·y is feasible with the same value, and averaging over the group gives an optimal point
+//! that is invariant (Gatermann & Parrilo 2004, J. Pure Appl. Algebra 192, 95–128). An
+//! invariant point has `y(w) = y(w')` whenever a group element maps the word w to w'. In the
+//! Collins–Gisin coordinates the moments use, a relabelling that moves a last answer sends a
+//! projector to `1 − Σ others`, an affine map; but it *permutes* full-projector words, and every
+//! Collins–Gisin word is one. So the classes below are the orbits of full-projector words, and
+//! two moments in one class get one variable. Points constant on classes form a subset of the
+//! feasible set that still contains the invariant optimum, hence the same value.
+//!
+//! The verified bound does not trust any of this: the smaller problem's dual matrix Z (same
+//! side as the full one) is averaged over the group, `Z̄ = |G|⁻¹ Σ ρ_gᵀ Z ρ_g`, which keeps it
+//! positive semidefinite and makes the full problem's dual residual vanish up to the solver's
+//! accuracy; the bound is then [`crate::optim::sdp::Assembled::certified_bound`] of Z̄ on the
+//! *full* problem, every residual charged, and the certificate is saved in the full format.
+
+use std::collections::{HashMap, HashSet, VecDeque};
+
+use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
+
+use super::words::{canonical, moment_key, Projector, Word};
+use crate::model::scenario::Scenario;
+use crate::model::symmetry::{symmetries, Relabelling};
+use crate::optim::sdp::{upper_index, AffineEntry, SdpProblem};
+
+/// Most group elements averaged over; a larger group is replaced by a subgroup that fits.
+pub const MAX_ELEMENTS: usize = 20_000;
+/// Most entries of the group's action on the generating words held for the averaging
+/// (elements × words × terms).
+pub const MAX_ACTION_TERMS: usize = 40_000_000;
+/// Most terms the image of one generating word may expand into.
+const MAX_EXPANSION: usize = 4096;
+
+/// Whether the NPA relaxation is reduced by the game's symmetries. Serialised in kebab case.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum SymmetryChoice {
+    /// Reduce when the game has symmetries that the level's generating words respect.
+    #[default]
+    Auto,
+    /// Solve the full relaxation.
+    Off,
+}
+
+impl SymmetryChoice {
+    /// The name used on the command line and in JSON.
+    pub fn name(self) -> &'static str {
+        match self {
+            SymmetryChoice::Auto => "auto",
+            SymmetryChoice::Off => "off",
+        }
+    }
+}
+
+/// How a relaxation was reduced.
+#[derive(Debug, Clone, Serialize)]
+pub struct SymmetryUse {
+    /// Order of the game's symmetry group as detected (a lower bound when
+    /// `detection_complete` is false).
+    pub detected_order: u128,
+    /// Whether the symmetry search finished.
+    pub detection_complete: bool,
+    /// Elements of the group the relaxation was averaged over (the whole detected group, or a
+    /// subgroup when the whole is too large to average or moves the level's words out of it).
+    pub order: usize,
+    /// Moments of the full relaxation.
+    pub full_moments: usize,
+    /// Variables of the reduced relaxation (orbits of moments).
+    pub moments: usize,
+}
+
+/// A reduced relaxation and what it takes to lift its solution back.
+pub struct Reduction {
+    /// What was reduced, for the report.
+    pub summary: SymmetryUse,
+    /// Moment of the full relaxation → variable of the reduced one.
+    pub classes: Vec<usize>,
+    /// The reduced problem (same matrix, merged variables).
+    pub problem: SdpProblem,
+    /// Per group element, per generating word u, the expansion `g(u) = Σ ρ_uv v` as `(v, ρ_uv)`.
+    actions: Vec<Vec<Vec<(u32, f64)>>>,
+    /// Estimated flops of one Schur-complement assembly of the reduced problem (its merged
+    /// variables have wider supports than single moments).
+    pub assembly_flops: f64,
+}
+
+/// The image of one projector (its outcome may be the last).
+fn image(g: &Relabelling, p: Projector) -> Projector {
+    let (i, x) = (p.player as usize, p.setting as usize);
+    Projector {
+        player: g.players[i] as u16,
+        setting: g.questions[i][x] as u32,
+        outcome: g.answers[i][x][p.outcome as usize] as u32,
+    }
+}
+
+/// The image of a word as a full-projector moment (canonical, identified with its adjoint).
+fn full_image(g: &Relabelling, w: &[Projector]) -> Word {
+    // An automorphism maps a non-zero canonical word to a non-zero word of the same length.
+    moment_key(canonical(w.iter().map(|&p| image(g, p))).unwrap_or_default())
+}
+
+/// `g(w)` in Collins–Gisin words: each projector sent to a last answer becomes `1 − Σ others`.
+/// `None` when the expansion is too large.
+fn expand(g: &Relabelling, w: &[Projector], last: &[u32]) -> Option<Vec<(Word, f64)>> {
+    let mut terms: Vec<(Vec<Projector>, f64)> = vec![(Vec::new(), 1.0)];
+    for &p in w {
+        let q = image(g, p);
+        let l = last[q.player as usize];
+        if q.outcome == l {
+            let mut next = Vec::with_capacity(terms.len() * (l as usize + 1));
+            for (t, c) in &terms {
+                next.push((t.clone(), *c));
+                for b in 0..l {
+                    let mut t2 = t.clone();
+                    t2.push(Projector { outcome: b, ..q });
+                    next.push((t2, -c));
+                }
+            }
+            terms = next;
+        } else {
+            for (t, _) in &mut terms {
+                t.push(q);
+            }
+        }
+        if terms.len() > MAX_EXPANSION {
+            return None;
+        }
+    }
+    let mut merged: HashMap<Word, f64> = HashMap::new();
+    for (t, c) in terms {
+        if let Some(word) = canonical(t) {
+            *merged.entry(word).or_insert(0.0) += c;
+        }
+    }
+    Some(merged.into_iter().filter(|(_, c)| *c != 0.0).collect())
+}
+
+/// The action of `g` on the generating words, or `None` when it leaves their span.
+fn action(
+    g: &Relabelling,
+    words: &[Word],
+    index: &HashMap<&Word, usize>,
+    last: &[u32],
+) -> Option<Vec<Vec<(u32, f64)>>> {
+    words
+        .iter()
+        .map(|u| {
+            expand(g, u, last)?
+                .into_iter()
+                .map(|(v, c)| index.get(&v).map(|&k| (k as u32, c)))
+                .collect()
+        })
+        .collect()
+}
+
+/// All products of `generators`, or `None` when there are more than `cap`.
+fn closure(s: &Scenario, generators: &[Relabelling], cap: usize) -> Option<Vec<Relabelling>> {
+    let identity = Relabelling::identity(s);
+    let mut seen: HashSet<Relabelling> = HashSet::from([identity.clone()]);
+    let mut elements = vec![identity];
+    let mut next = 0;
+    while next < elements.len() {
+        let e = elements[next].clone();
+        next += 1;
+        for g in generators {
+            let h = g.after(&e);
+            if seen.insert(h.clone()) {
+                if elements.len() >= cap {
+                    return None;
+                }
+                elements.push(h);
+            }
+        }
+    }
+    Some(elements)
+}
+
+/// Union–find root with path halving.
+fn root(parent: &mut [usize], mut x: usize) -> usize {
+    while parent[x] != x {
+        parent[x] = parent[parent[x]];
+        x = parent[x];
+    }
+    x
+}
+
+/// The reduction of the relaxation with generating `words`, `moments` (variable → word) and
+/// `problem`, or `None` when the game has no symmetry the level respects.
+pub fn reduce(
+    s: &Scenario,
+    words: &[Word],
+    moments: &[Word],
+    problem: &SdpProblem,
+) -> Option<Reduction> {
+    let group = symmetries(s)?;
+    if group.generators.is_empty() {
+        return None;
+    }
+    let last: Vec<u32> = s.parties().iter().map(|p| p.answers() as u32 - 1).collect();
+    let index: HashMap<&Word, usize> = words.iter().enumerate().map(|(k, w)| (w, k)).collect();
+    // Generators that keep the level's span, added while the group they generate stays small
+    // enough to average over.
+    let mut chosen: Vec<Relabelling> = Vec::new();
+    let mut elements = vec![Relabelling::identity(s)];
+    for g in &group.generators {
+        if action(g, words, &index, &last).is_none() {
+            continue;
+        }
+        chosen.push(g.clone());
+        match closure(s, &chosen, MAX_ELEMENTS) {
+            Some(all) => elements = all,
+            None => {
+                chosen.pop();
+            }
+        }
+    }
+    if elements.len() < 2 {
+        return None;
+    }
+    // Classes: orbits of full-projector words through the moments.
+    let mut id: HashMap<Word, usize> = HashMap::new();
+    let mut parent: Vec<usize> = Vec::new();
+    let mut queue: VecDeque<Word> = VecDeque::new();
+    for m in moments {
+        id.insert(m.clone(), parent.len());
+        parent.push(parent.len());
+        queue.push_back(m.clone());
+    }
+    while let Some(f) = queue.pop_front() {
+        let a = id[&f];
+        for g in &chosen {
+            let f2 = full_image(g, &f);
+            let b = match id.get(&f2) {
+                Some(&b) => b,
+                None => {
+                    let b = parent.len();
+                    id.insert(f2.clone(), b);
+                    parent.push(b);
+                    queue.push_back(f2);
+                    b
+                }
+            };
+            let (ra, rb) = (root(&mut parent, a), root(&mut parent, b));
+            if ra != rb {
+                parent[ra.max(rb)] = ra.min(rb);
+            }
+        }
+    }
+    let mut class_of_root: HashMap<usize, usize> = HashMap::new();
+    let classes: Vec<usize> = (0..moments.len())
+        .map(|k| {
+            let r = root(&mut parent, k);
+            let next = class_of_root.len();
+            *class_of_root.entry(r).or_insert(next)
+        })
+        .collect();
+    let reduced = class_of_root.len();
+    if reduced == moments.len() {
+        return None;
+    }
+    // The action of every element, for the dual averaging; too large a table means a smaller
+    // subgroup would have been needed, which is rare enough to simply not reduce.
+    let mut terms = 0usize;
+    let mut actions = Vec::with_capacity(elements.len());
+    for g in &elements {
+        let a = action(g, words, &index, &last)?;
+        terms += a.iter().map(Vec::len).sum::<usize>();
+        if terms > MAX_ACTION_TERMS {
+            return None;
+        }
+        actions.push(a);
+    }
+    let reduced_problem = merge(problem, &classes, reduced);
+    let assembly_flops = assembly_flops(&reduced_problem);
+    Some(Reduction {
+        summary: SymmetryUse {
+            detected_order: group.order,
+            detection_complete: group.complete,
+            order: elements.len(),
+            full_moments: moments.len(),
+            moments: reduced,
+        },
+        classes,
+        problem: reduced_problem,
+        actions,
+        assembly_flops,
+    })
+}
+
+/// The problem with variable `m` replaced by variable `classes[m]`.
+fn merge(problem: &SdpProblem, classes: &[usize], reduced: usize) -> SdpProblem {
+    let remap = |terms: &[(usize, f64)]| -> Vec<(usize, f64)> {
+        let mut out: Vec<(usize, f64)> = Vec::with_capacity(terms.len());
+        for &(v, c) in terms {
+            let k = classes[v];
+            match out.iter_mut().find(|(j, _)| *j == k) {
+                Some((_, d)) => *d += c,
+                None => out.push((k, c)),
+            }
+        }
+        out
+    };
+    let mut objective = vec![0.0; reduced];
+    for (v, &c) in problem.objective.iter().enumerate() {
+        objective[classes[v]] += c;
+    }
+    SdpProblem {
+        variables: reduced,
+        objective,
+        objective_constant: problem.objective_constant,
+        equalities: problem
+            .equalities
+            .iter()
+            .map(|(t, e)| (remap(t), *e))
+            .collect(),
+        inequalities: problem
+            .inequalities
+            .iter()
+            .map(|(t, e)| (remap(t), *e))
+            .collect(),
+        blocks: problem
+            .blocks
+            .iter()
+            .map(|b| crate::optim::sdp::MatrixBlock {
+                size: b.size,
+                upper: b
+                    .upper
+                    .iter()
+                    .map(|e| AffineEntry {
+                        constant: e.constant,
+                        terms: remap(&e.terms),
+                    })
+                    .collect(),
+                trace_bound: b.trace_bound,
+            })
+            .collect(),
+        variable_bound: problem.variable_bound,
+    }
+}
+
+/// Flops of one Schur-complement assembly by the moment-matrix method: per variable and block,
+/// a product of side n by the number of rows and columns its entries touch, times n, plus a
+/// pass over the block's entries.
+fn assembly_flops(problem: &SdpProblem) -> f64 {
+    let mut flops = 0.0;
+    for block in &problem.blocks {
+        let mut touched: Vec<HashSet<usize>> = vec![HashSet::new(); problem.variables];
+        for col in 0..block.size {
+            for row in 0..=col {
+                for &(v, _) in &block.upper[upper_index(row, col)].terms {
+                    touched[v].insert(row);
+                    touched[v].insert(col);
+                }
+            }
+        }
+        let n = block.size as f64;
+        let columns: f64 = touched.iter().map(|t| t.len() as f64).sum();
+        flops += 2.0 * n * n * columns + n * n * problem.variables as f64;
+    }
+    flops
+}
+
+impl Reduction {
+    /// The full moment vector of a reduced one.
+    pub fn lift_primal(&self, y: &[f64]) -> Vec<f64> {
+        self.classes.iter().map(|&c| y[c]).collect()
+    }
+
+    /// The reduced problem's dual vector (layout of [`SdpProblem::assemble`], which has the
+    /// same rows for both problems) averaged over the group: a dual vector of the full problem.
+    pub fn lift_dual(&self, size: usize, z: &[f64]) -> Vec<f64> {
+        let n = size;
+        let tri = n * (n + 1) / 2;
+        let offset = z.len() - tri;
+        let sqrt2 = std::f64::consts::SQRT_2;
+        // Z column-major.
+        let mut zm = vec![0.0; n * n];
+        for col in 0..n {
+            for row in 0..=col {
+                let v = z[offset + upper_index(row, col)];
+                let v = if row == col { v } else { v / sqrt2 };
+                zm[col * n + row] = v;
+                zm[row * n + col] = v;
+            }
+        }
+        // ρᵀ Z ρ for one element: W = Z ρ column by column, then (Wᵀ ρ) = (ρᵀ Z ρ)ᵀ.
+        let congruence = |rho: &Vec<Vec<(u32, f64)>>, acc: &mut Vec<f64>| {
+            let mut w = vec![0.0; n * n];
+            for (l, row) in rho.iter().enumerate() {
+                for &(j, c) in row {
+                    let (dst, src) = (j as usize * n, l * n);
+                    for r in 0..n {
+                        w[dst + r] += c * zm[src + r];
+                    }
+                }
+            }
+            let mut wt = vec![0.0; n * n];
+            for c in 0..n {
+                for r in 0..n {
+                    wt[r * n + c] = w[c * n + r];
+                }
+            }
+            for (l, row) in rho.iter().enumerate() {
+                for &(j, c) in row {
+                    let (dst, src) = (j as usize * n, l * n);
+                    for r in 0..n {
+                        acc[dst + r] += c * wt[src + r];
+                    }
+                }
+            }
+        };
+        let sum = self
+            .actions
+            .par_iter()
+            .fold(
+                || vec![0.0; n * n],
+                |mut acc, rho| {
+                    congruence(rho, &mut acc);
+                    acc
+                },
+            )
+            .reduce(
+                || vec![0.0; n * n],
+                |mut a, b| {
+                    for (x, y) in a.iter_mut().zip(b) {
+                        *x += y;
+                    }
+                    a
+                },
+            );
+        let scale = 1.0 / self.actions.len() as f64;
+        let mut out = z.to_vec();
+        for col in 0..n {
+            for row in 0..=col {
+                let v = 0.5 * (sum[col * n + row] + sum[row * n + col]) * scale;
+                out[offset + upper_index(row, col)] = if row == col { v } else { v * sqrt2 };
+            }
+        }
+        out
+    }
+}
