@@ -33,8 +33,10 @@ impl Assembled {
             *v = v.max(0.0);
         }
         let mut residual = self.q.clone();
-        let mut magnitude = 0.0;
+        let mut magnitude: f64 = self.q.iter().map(|q| q.abs()).sum();
+        let mut longest_column = 0;
         for (j, r) in residual.iter_mut().enumerate() {
+            longest_column = longest_column.max(self.a.colptr[j + 1] - self.a.colptr[j]);
             for k in self.a.colptr[j]..self.a.colptr[j + 1] {
                 let t = self.a.nzval[k] * z[self.a.rowval[k]];
                 *r += t;
@@ -71,8 +73,21 @@ impl Assembled {
             cone_charge += (-lambda_min).max(0.0) * trace;
             offset += n * (n + 1) / 2;
         }
-        let rounding =
-            1e-14 * (magnitude * self.variable_bound + zb_magnitude) * (self.a.m + self.a.n) as f64;
+        // Floating-point error of the sums above, by the standard bound for a sum of products
+        // of length k: |fl(Σ aᵢbᵢ) − Σ aᵢbᵢ| ≤ γ_k Σ|aᵢbᵢ|, γ_k = ku/(1 − ku), u = 2⁻⁵³ (Higham,
+        // Accuracy and Stability of Numerical Algorithms, 2nd ed. 2002, §3.1). Each residual
+        // is a sum of at most `longest_column + 1` products; the slack and bᵀz add one sum each;
+        // the final total adds four terms. Doubled, for margin.
+        let gamma = |k: usize| {
+            let ku = k as f64 * f64::EPSILON / 2.0;
+            ku / (1.0 - ku)
+        };
+        let rounding = 2.0
+            * (gamma(longest_column + 2) * magnitude * self.variable_bound
+                + gamma(residual.len() + 1) * slack
+                + gamma(z.len() + 1) * zb_magnitude
+                + gamma(5)
+                    * (self.objective_constant.abs() + zb.abs() + slack + cone_charge));
         Ok(self.objective_constant + zb + slack + cone_charge + rounding)
     }
 }
