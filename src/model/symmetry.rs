@@ -66,6 +66,21 @@ impl Relabelling {
         }
     }
 
+    /// The relabelling that undoes `self`.
+    pub fn inverse(&self) -> Relabelling {
+        let mut out = self.clone();
+        for (i, &j) in self.players.iter().enumerate() {
+            out.players[j] = i;
+            for (x, &x2) in self.questions[i].iter().enumerate() {
+                out.questions[j][x2] = x;
+                for (a, &a2) in self.answers[i][x].iter().enumerate() {
+                    out.answers[j][x2][a2] = a;
+                }
+            }
+        }
+        out
+    }
+
     /// `self` after `first`: the relabelling that applies `first`, then `self`.
     pub fn after(&self, first: &Relabelling) -> Relabelling {
         let n = first.players.len();

@@ -92,6 +92,38 @@ impl Assembled {
     }
 }
 
+impl Assembled {
+    /// `z` moved to satisfy `q + Aᵀz = 0` exactly (in exact arithmetic), when the columns of
+    /// `A` have pairwise disjoint supports (as a full NPA problem's do): `z − Σ_j (r_j/‖A_j‖²) A_j`
+    /// with `r = q + Aᵀz`. It trades the residual charge for a possible (small) cone charge;
+    /// callers keep whichever of the two vectors proves the smaller bound. `None` when the
+    /// supports overlap.
+    pub fn without_residual(&self, z: &[f64]) -> Option<Vec<f64>> {
+        let mut used = vec![false; self.a.m];
+        for &r in &self.a.rowval {
+            if std::mem::replace(&mut used[r], true) {
+                return None;
+            }
+        }
+        let mut out = z.to_vec();
+        for j in 0..self.a.n {
+            let range = self.a.colptr[j]..self.a.colptr[j + 1];
+            let mut residual = self.q[j];
+            let mut norm = 0.0;
+            for k in range.clone() {
+                residual += self.a.nzval[k] * z[self.a.rowval[k]];
+                norm += self.a.nzval[k] * self.a.nzval[k];
+            }
+            if norm > 0.0 {
+                for k in range {
+                    out[self.a.rowval[k]] -= residual / norm * self.a.nzval[k];
+                }
+            }
+        }
+        Some(out)
+    }
+}
+
 #[cfg(test)]
 mod tests {
 

@@ -70,6 +70,10 @@ struct Internal {
     by_block: Vec<Vec<(u32, u32, u32, f64)>>,
     /// Inequality rows G y ≤ g.
     g_rows: Vec<(Vec<(usize, f64)>, f64)>,
+    /// Per block, when the F_i fill it densely (as after a split into symmetry blocks): the
+    /// matrix of their coefficients, triangle slot × variable, for the Schur complement by one
+    /// matrix product.
+    dense: Vec<Option<Mat<f64>>>,
     /// Whether the F_i have pairwise disjoint supports, and their squared Frobenius norms.
     disjoint: bool,
     norms: Vec<f64>,
@@ -208,24 +212,59 @@ fn build(p: &SdpProblem, el: &Elimination) -> Internal {
             }
         }
     }
+    // Each column of N combines a few original variables (one, without equalities); a dense
+    // accumulator over the triangle slots keeps combining many cheap when it does.
+    let block_start: Vec<usize> = sizes
+        .iter()
+        .scan(0, |acc, &n| {
+            let start = *acc;
+            *acc += n * (n + 1) / 2;
+            Some(start)
+        })
+        .collect();
+    let slots = sizes.iter().map(|&n| n * (n + 1) / 2).sum::<usize>();
+    let mut accumulator = vec![0.0; if el.basis.iter().any(|c| c.len() > 1) { slots } else { 0 }];
     let columns: Vec<Vec<Entry>> = el
         .basis
         .iter()
         .map(|col| {
-            let mut merged: std::collections::BTreeMap<(u32, u32, u32), f64> = Default::default();
+            if let [(v, w)] = col[..] {
+                return orig[v]
+                    .iter()
+                    .map(|e| Entry {
+                        coef: w * e.coef,
+                        ..*e
+                    })
+                    .filter(|e| e.coef.abs() > 1e-15)
+                    .collect();
+            }
+            let mut touched: Vec<(u32, u32, u32)> = Vec::new();
             for &(v, w) in col {
                 for e in &orig[v] {
-                    *merged.entry((e.block, e.row, e.col)).or_insert(0.0) += w * e.coef;
+                    let slot = block_start[e.block as usize]
+                        + upper_index(e.row as usize, e.col as usize);
+                    if accumulator[slot] == 0.0 {
+                        touched.push((e.block, e.row, e.col));
+                    }
+                    accumulator[slot] += w * e.coef;
+                    if accumulator[slot] == 0.0 {
+                        // Keep it marked as touched (cancelled to exactly zero).
+                        accumulator[slot] = f64::MIN_POSITIVE;
+                    }
                 }
             }
-            merged
+            touched.sort_unstable();
+            touched
                 .into_iter()
-                .filter(|(_, c)| c.abs() > 1e-15)
-                .map(|((block, row, col), coef)| Entry {
-                    block,
-                    row,
-                    col,
-                    coef,
+                .filter_map(|(block, row, col)| {
+                    let slot = block_start[block as usize] + upper_index(row as usize, col as usize);
+                    let coef = std::mem::take(&mut accumulator[slot]);
+                    (coef.abs() > 1e-15).then_some(Entry {
+                        block,
+                        row,
+                        col,
+                        coef,
+                    })
                 })
                 .collect()
         })
@@ -283,9 +322,25 @@ fn build(p: &SdpProblem, el: &Elimination) -> Internal {
                 .sum()
         })
         .collect();
+    // A block is dense when its entries fill at least a quarter of slot × variable.
+    let dense = sizes
+        .iter()
+        .enumerate()
+        .map(|(k, &n)| {
+            let slots = n * (n + 1) / 2;
+            (by_block[k].len() * 4 >= slots * m && slots * m <= 50_000_000).then(|| {
+                let mut a = Mat::<f64>::zeros(slots, m);
+                for &(r, c, j, coef) in &by_block[k] {
+                    a[(upper_index(r as usize, c as usize), j as usize)] += coef;
+                }
+                a
+            })
+        })
+        .collect();
     Internal {
         m,
         b,
+        dense,
         sizes,
         f0,
         columns,
@@ -518,13 +573,17 @@ fn direction(
 
 /// Schur complement `M_ij = ⟨F_j, X F_i S⁻¹⟩ + Σ_r G_ri G_rj x_r / s_r`, rows in parallel.
 fn schur(p: &Internal, x: &[Mat<f64>], sinv: &[Mat<f64>], xl: &[f64], sl: &[f64]) -> Mat<f64> {
-    let rows: Vec<Vec<f64>> = (0..p.m)
+    let rows: Vec<(Vec<f64>, Vec<Vec<f64>>)> = (0..p.m)
         .into_par_iter()
         .map(|i| {
             let mut row = vec![0.0; p.m];
+            // For dense blocks: ⟨·, G⟩ per triangle slot, multiplied by the F_j all at once below.
+            let mut slot_values: Vec<Vec<f64>> = vec![Vec::new(); p.sizes.len()];
             let cols = &p.columns[i];
             for (k, &n) in p.sizes.iter().enumerate() {
-                let mine: Vec<&Entry> = cols.iter().filter(|e| e.block as usize == k).collect();
+                // A column's entries are sorted by block.
+                let mine = &cols[cols.partition_point(|e| (e.block as usize) < k)
+                    ..cols.partition_point(|e| (e.block as usize) <= k)];
                 if mine.is_empty() {
                     continue;
                 }
@@ -537,14 +596,15 @@ fn schur(p: &Internal, x: &[Mat<f64>], sinv: &[Mat<f64>], xl: &[f64], sl: &[f64]
                 touched.dedup();
                 let pos = |c: usize| touched.binary_search(&c).unwrap_or(0);
                 let mut xf = Mat::<f64>::zeros(n, touched.len());
-                for e in &mine {
+                for e in mine {
                     let (r, c) = (e.row as usize, e.col as usize);
+                    let (pc, pr) = (pos(c), pos(r));
                     for t in 0..n {
-                        xf[(t, pos(c))] += e.coef * x[k][(t, r)];
+                        xf[(t, pc)] += e.coef * x[k][(t, r)];
                     }
                     if r != c {
                         for t in 0..n {
-                            xf[(t, pos(r))] += e.coef * x[k][(t, c)];
+                            xf[(t, pr)] += e.coef * x[k][(t, c)];
                         }
                     }
                 }
@@ -556,6 +616,20 @@ fn schur(p: &Internal, x: &[Mat<f64>], sinv: &[Mat<f64>], xl: &[f64], sl: &[f64]
                 }
                 let mut g = Mat::<f64>::zeros(n, n);
                 matmul(&mut g, Accum::Replace, &xf, &srows, 1.0, Par::Seq);
+                if p.dense[k].is_some() {
+                    let mut v = vec![0.0; n * (n + 1) / 2];
+                    for col in 0..n {
+                        for r in 0..=col {
+                            v[upper_index(r, col)] = if r == col {
+                                g[(r, r)]
+                            } else {
+                                g[(r, col)] + g[(col, r)]
+                            };
+                        }
+                    }
+                    slot_values[k] = v;
+                    continue;
+                }
                 for &(r, c, j, coef) in &p.by_block[k] {
                     let (r, c) = (r as usize, c as usize);
                     row[j as usize] += if r == c {
@@ -565,14 +639,22 @@ fn schur(p: &Internal, x: &[Mat<f64>], sinv: &[Mat<f64>], xl: &[f64], sl: &[f64]
                     };
                 }
             }
-            row
+            (row, slot_values)
         })
         .collect();
     let mut m = Mat::<f64>::zeros(p.m, p.m);
-    for (i, row) in rows.into_iter().enumerate() {
-        for (j, v) in row.into_iter().enumerate() {
+    for (i, (row, _)) in rows.iter().enumerate() {
+        for (j, &v) in row.iter().enumerate() {
             m[(i, j)] = v;
         }
+    }
+    for (k, dense) in p.dense.iter().enumerate() {
+        let Some(a) = dense else { continue };
+        let slots = a.nrows();
+        let v = Mat::<f64>::from_fn(p.m, slots, |i, s| {
+            rows[i].1[k].get(s).copied().unwrap_or(0.0)
+        });
+        matmul(&mut m, Accum::Add, &v, a, 1.0, Par::rayon(0));
     }
     for (r, (terms, _)) in p.g_rows.iter().enumerate() {
         let d = xl[r] / sl[r];

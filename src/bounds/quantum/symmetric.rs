@@ -22,6 +22,7 @@
 
 use std::collections::{HashMap, HashSet, VecDeque};
 
+use nalgebra::DMatrix;
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
@@ -74,6 +75,9 @@ pub struct SymmetryUse {
     pub full_moments: usize,
     /// Variables of the reduced relaxation (orbits of moments).
     pub moments: usize,
+    /// Sides of the diagonal blocks the moment matrix splits into (one block, the full
+    /// side, when it is not split).
+    pub blocks: Vec<usize>,
 }
 
 /// A reduced relaxation and what it takes to lift its solution back.
@@ -86,6 +90,8 @@ pub struct Reduction {
     pub problem: SdpProblem,
     /// Per group element, per generating word u, the expansion `g(u) = Σ ρ_uv v` as `(v, ρ_uv)`.
     actions: Vec<Vec<Vec<(u32, f64)>>>,
+    /// With the matrix split: per block k, the n × n_k matrix U_k with block `U_kᵀ Γ U_k`.
+    bases: Option<Vec<DMatrix<f64>>>,
     /// Estimated flops of one Schur-complement assembly of the reduced problem (its merged
     /// variables have wider supports than single moments).
     pub assembly_flops: f64,
@@ -278,7 +284,22 @@ pub fn reduce(
         }
         actions.push(a);
     }
-    let reduced_problem = merge(problem, &classes, reduced);
+    let merged = merge(problem, &classes, reduced);
+    let n = words.len();
+    let split = (n <= MAX_SPLIT_SIDE
+        && problem.blocks.len() == 1
+        && problem.equalities.is_empty()
+        && problem.inequalities.is_empty())
+        .then(|| isotypic_bases(s, &elements, &chosen, &actions, n))
+        .flatten()
+        .and_then(|bases| {
+            let equalities = invariance(&chosen, moments, &classes, &last)?;
+            Some((block_problem(&merged, &bases, equalities), bases))
+        });
+    let (reduced_problem, bases) = match split {
+        Some((p, bases)) => (p, Some(bases)),
+        None => (merged, None),
+    };
     let assembly_flops = assembly_flops(&reduced_problem);
     Some(Reduction {
         summary: SymmetryUse {
@@ -287,12 +308,257 @@ pub fn reduce(
             order: elements.len(),
             full_moments: moments.len(),
             moments: reduced,
+            blocks: reduced_problem.blocks.iter().map(|b| b.size).collect(),
         },
         classes,
         problem: reduced_problem,
         actions,
+        bases,
         assembly_flops,
     })
+}
+
+/// Largest moment matrix split into blocks (the split takes a few dense n×n products and one
+/// symmetric eigendecomposition).
+pub const MAX_SPLIT_SIDE: usize = 3000;
+
+/// The invariance equations `y(w) = y(g(w))` for each generator and each moment (a basis of the
+/// moments' span, so these make the functional invariant), in class variables and without
+/// repeats (`None` if an image leaves the moments, which a symmetry that keeps the generating
+/// words' span cannot do). Points constant on classes need not be invariant when a relabelling
+/// moves a last answer (its action is then affine); the split into blocks is exact only on
+/// invariant points, so these equations come with it.
+#[allow(clippy::type_complexity)]
+fn invariance(
+    generators: &[Relabelling],
+    moments: &[Word],
+    classes: &[usize],
+    last: &[u32],
+) -> Option<Vec<(Vec<(usize, f64)>, f64)>> {
+    let index: HashMap<&Word, usize> = moments.iter().enumerate().map(|(k, w)| (w, k)).collect();
+    let mut rows = Vec::new();
+    let mut seen: HashSet<Vec<(usize, i64)>> = HashSet::new();
+    for g in generators {
+        for (k, &c) in classes.iter().enumerate() {
+            let mut terms: Vec<(usize, f64)> = vec![(c, 1.0)];
+            let mut constant = 0.0;
+            for (word, coef) in expand(g, &moments[k], last)? {
+                if word.is_empty() {
+                    constant += coef;
+                    continue;
+                }
+                let v = classes[*index.get(&moment_key(word))?];
+                match terms.iter_mut().find(|(j, _)| *j == v) {
+                    Some((_, d)) => *d -= coef,
+                    None => terms.push((v, -coef)),
+                }
+            }
+            terms.retain(|(_, d)| d.abs() > 1e-12);
+            terms.sort_by_key(|&(v, _)| v);
+            // Coefficients are small integers (sums of ±1): exact keys for the repeats.
+            let key: Vec<(usize, i64)> = terms
+                .iter()
+                .map(|&(v, d)| (v, (d * 1e6).round() as i64))
+                .chain([(usize::MAX, (constant * 1e6).round() as i64)])
+                .collect();
+            if (!terms.is_empty() || constant.abs() > 1e-12) && seen.insert(key) {
+                rows.push((terms, constant));
+            }
+        }
+    }
+    Some(rows)
+}
+
+/// Bases of the isotypic components of the group's action on the generating words, as
+/// matrices U_k (n × n_k) such that, for every invariant moment matrix Γ, Γ ⪰ 0 iff every
+/// `U_kᵀ Γ U_k ⪰ 0`. The action ρ is not orthogonal in Collins–Gisin words, so it is made so
+/// first: with `P = |G|⁻¹ Σ_g ρ_gᵀ ρ_g = LLᵀ`, `O_g = Lᵀ ρ_g L⁻ᵀ` is orthogonal and `Γ' = LᵀΓL`
+/// commutes with it. A random combination of class sums, symmetrised, is central, so it acts
+/// as one scalar on each real isotypic component: its eigenspaces are the components, which
+/// are orthogonal and which Γ' preserves (Serre, Linear Representations of Finite Groups,
+/// 1977, §2.6; the numerical use of a random central element follows Murota et al. 2010,
+/// Japan J. Ind. Appl. Math. 27, 125–160). The split is checked on the generators; `None`
+/// when it fails or yields a single block.
+fn isotypic_bases(
+    s: &Scenario,
+    elements: &[Relabelling],
+    generators: &[Relabelling],
+    actions: &[Vec<Vec<(u32, f64)>>],
+    n: usize,
+) -> Option<Vec<DMatrix<f64>>> {
+    let dense = |rho: &Vec<Vec<(u32, f64)>>, scale: f64, out: &mut DMatrix<f64>| {
+        for (u, row) in rho.iter().enumerate() {
+            for &(v, c) in row {
+                out[(u, v as usize)] += scale * c;
+            }
+        }
+    };
+    // Conjugacy classes, by conjugating with the generators.
+    let position: HashMap<&Relabelling, usize> =
+        elements.iter().enumerate().map(|(k, g)| (g, k)).collect();
+    let inverses: Vec<Relabelling> = generators.iter().map(Relabelling::inverse).collect();
+    let mut class = vec![usize::MAX; elements.len()];
+    let mut classes = 0;
+    for start in 0..elements.len() {
+        if class[start] != usize::MAX {
+            continue;
+        }
+        class[start] = classes;
+        let mut stack = vec![start];
+        while let Some(k) = stack.pop() {
+            for (g, gi) in generators.iter().zip(&inverses) {
+                let c = g.after(&elements[k]).after(gi);
+                let j = *position.get(&c)?;
+                if class[j] == usize::MAX {
+                    class[j] = classes;
+                    stack.push(j);
+                }
+            }
+        }
+        classes += 1;
+    }
+    let _ = s;
+    // Deterministic "random" weights per class (a fixed generator: results are reproducible).
+    let mut state = 0x9e37_79b9_7f4a_7c15u64;
+    let weights: Vec<f64> = (0..classes)
+        .map(|_| {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            1.0 + (state >> 11) as f64 / (1u64 << 53) as f64
+        })
+        .collect();
+    let mut p = DMatrix::<f64>::zeros(n, n);
+    let mut central = DMatrix::<f64>::zeros(n, n);
+    for (k, rho) in actions.iter().enumerate() {
+        for row in rho {
+            for &(i, a) in row {
+                for &(j, b) in row {
+                    p[(i as usize, j as usize)] += a * b;
+                }
+            }
+        }
+        dense(rho, weights[class[k]], &mut central);
+    }
+    // Scaled to the group's average, so that the blocks keep the moment matrix's scale.
+    p /= actions.len() as f64;
+    let l = p.cholesky()?.l();
+    // O-side central element: H = Lᵀ C L⁻ᵀ, i.e. Hᵀ = L⁻¹ (Lᵀ C)ᵀ.
+    let lt_c = l.transpose() * &central;
+    let ht = l.solve_lower_triangular(&lt_c.transpose())?;
+    let h = (&ht + ht.transpose()) * 0.5;
+    let eig = h.symmetric_eigen();
+    let mut order: Vec<usize> = (0..n).collect();
+    order.sort_by(|&a, &b| eig.eigenvalues[a].total_cmp(&eig.eigenvalues[b]));
+    let scale = eig.eigenvalues.iter().fold(1.0f64, |m, v| m.max(v.abs()));
+    let mut groups: Vec<Vec<usize>> = Vec::new();
+    for &k in &order {
+        match groups.last_mut() {
+            Some(g) if (eig.eigenvalues[k] - eig.eigenvalues[*g.last().unwrap()]).abs()
+                <= 1e-8 * scale =>
+            {
+                g.push(k)
+            }
+            _ => groups.push(vec![k]),
+        }
+    }
+    if groups.len() < 2 {
+        return None;
+    }
+    let q: Vec<DMatrix<f64>> = groups
+        .iter()
+        .map(|g| DMatrix::from_fn(n, g.len(), |r, c| eig.eigenvectors[(r, g[c])]))
+        .collect();
+    // Check: every generator's O maps each component into itself.
+    let linv_t = l.clone().try_inverse()?.transpose();
+    for (g, rho) in elements.iter().zip(actions) {
+        if !generators.contains(g) {
+            continue;
+        }
+        let mut r = DMatrix::<f64>::zeros(n, n);
+        dense(rho, 1.0, &mut r);
+        let o = l.transpose() * r * &linv_t;
+        for (a, qa) in q.iter().enumerate() {
+            let image = &o * qa;
+            for (b, qb) in q.iter().enumerate() {
+                if a != b && (qb.transpose() * &image).amax() > 1e-7 {
+                    return None;
+                }
+            }
+        }
+    }
+    Some(q.into_iter().map(|qk| &l * qk).collect())
+}
+
+/// The merged problem (one block) split into the blocks `U_kᵀ Γ U_k`, with the invariance
+/// equations.
+fn block_problem(
+    merged: &SdpProblem,
+    bases: &[DMatrix<f64>],
+    equalities: Vec<(Vec<(usize, f64)>, f64)>,
+) -> SdpProblem {
+    let block = &merged.blocks[0];
+    let n = block.size;
+    let m = merged.variables;
+    let blocks = bases
+        .par_iter()
+        .map(|u| {
+            let nk = u.ncols();
+            let tri = nk * (nk + 1) / 2;
+            // Coefficients: [entry of the block's triangle][variable + 1], the last the constant.
+            let mut coef = vec![0.0; tri * (m + 1)];
+            let mut add = |r: usize, c: usize, var: usize, v: f64| {
+                for b in 0..nk {
+                    let (urb, ucb) = (u[(r, b)], u[(c, b)]);
+                    for a in 0..=b {
+                        // (UᵀFU)_ab for F = v(e_r e_cᵀ + e_c e_rᵀ) (or v e_r e_rᵀ).
+                        let x = if r == c {
+                            v * u[(r, a)] * urb
+                        } else {
+                            v * (u[(r, a)] * ucb + u[(c, a)] * urb)
+                        };
+                        coef[upper_index(a, b) * (m + 1) + var] += x;
+                    }
+                }
+            };
+            for col in 0..n {
+                for row in 0..=col {
+                    let e = &block.upper[upper_index(row, col)];
+                    if e.constant != 0.0 {
+                        add(row, col, m, e.constant);
+                    }
+                    for &(v, c) in &e.terms {
+                        add(row, col, v, c);
+                    }
+                }
+            }
+            let largest = coef.iter().fold(0.0f64, |a, v| a.max(v.abs()));
+            let tiny = 1e-14 * largest;
+            let upper = coef
+                .chunks(m + 1)
+                .map(|row| AffineEntry {
+                    constant: if row[m].abs() > tiny { row[m] } else { 0.0 },
+                    terms: row[..m]
+                        .iter()
+                        .enumerate()
+                        .filter(|(_, c)| c.abs() > tiny)
+                        .map(|(v, &c)| (v, c))
+                        .collect(),
+                })
+                .collect();
+            crate::optim::sdp::MatrixBlock {
+                size: nk,
+                upper,
+                // tr(UᵀΓU) = ⟨Γ, UUᵀ⟩ ≤ ‖U‖²_F · λ_max(Γ) ≤ ‖U‖²_F · tr Γ.
+                trace_bound: u.norm_squared() * block.trace_bound,
+            }
+        })
+        .collect();
+    SdpProblem {
+        equalities,
+        blocks,
+        ..merged.clone()
+    }
 }
 
 /// The problem with variable `m` replaced by variable `classes[m]`.
@@ -378,19 +644,34 @@ impl Reduction {
     /// same rows for both problems) averaged over the group: a dual vector of the full problem.
     pub fn lift_dual(&self, size: usize, z: &[f64]) -> Vec<f64> {
         let n = size;
-        let tri = n * (n + 1) / 2;
-        let offset = z.len() - tri;
         let sqrt2 = std::f64::consts::SQRT_2;
-        // Z column-major.
-        let mut zm = vec![0.0; n * n];
-        for col in 0..n {
-            for row in 0..=col {
-                let v = z[offset + upper_index(row, col)];
-                let v = if row == col { v } else { v / sqrt2 };
-                zm[col * n + row] = v;
-                zm[row * n + col] = v;
+        let unpack = |z: &[f64], nk: usize| {
+            DMatrix::from_fn(nk, nk, |r, c| {
+                let v = z[upper_index(r.min(c), r.max(c))];
+                if r == c {
+                    v
+                } else {
+                    v / sqrt2
+                }
+            })
+        };
+        // The reduced dual's matrix part, as one n×n matrix Z = Σ_k U_k Z_k U_kᵀ.
+        let mut offset = self.problem.equalities.len() + self.problem.inequalities.len();
+        let full = match &self.bases {
+            None => unpack(&z[offset..], n),
+            Some(bases) => {
+                let mut full = DMatrix::<f64>::zeros(n, n);
+                for u in bases {
+                    let nk = u.ncols();
+                    let zk = unpack(&z[offset..], nk);
+                    full += u * zk * u.transpose();
+                    offset += nk * (nk + 1) / 2;
+                }
+                full
             }
-        }
+        };
+        // Column-major, as the averaging below reads it.
+        let zm: Vec<f64> = full.as_slice().to_vec();
         // ρᵀ Z ρ for one element: W = Z ρ column by column, then (Wᵀ ρ) = (ρᵀ Z ρ)ᵀ.
         let congruence = |rho: &Vec<Vec<(u32, f64)>>, acc: &mut Vec<f64>| {
             let mut w = vec![0.0; n * n];
@@ -436,12 +717,20 @@ impl Reduction {
                     a
                 },
             );
+        // The full problem's dual vector: its equality and inequality rows (the same as the
+        // reduced problem's before the split, none for NPA) carried over, then the matrix.
         let scale = 1.0 / self.actions.len() as f64;
-        let mut out = z.to_vec();
+        let head = match &self.bases {
+            None => z[..self.problem.equalities.len() + self.problem.inequalities.len()].to_vec(),
+            Some(_) => Vec::new(),
+        };
+        let mut out = head;
+        let start = out.len();
+        out.resize(start + n * (n + 1) / 2, 0.0);
         for col in 0..n {
             for row in 0..=col {
                 let v = 0.5 * (sum[col * n + row] + sum[row * n + col]) * scale;
-                out[offset + upper_index(row, col)] = if row == col { v } else { v * sqrt2 };
+                out[start + upper_index(row, col)] = if row == col { v } else { v * sqrt2 };
             }
         }
         out
