@@ -1,5 +1,7 @@
-//! NPA bound speed and peak memory: I3322 at levels 2–4 and CGLMP d = 3..8 at level 1+joint,
-//! moment-matrix construction timed apart from the solve, both SDP solvers side by side.
+//! NPA bound speed and peak memory: I3322 at levels 2–5, CGLMP d = 3..12 at level 1+joint, GHZ
+//! games at level 2, magic square and CHSH x2 at 1+joint; moment-matrix construction timed apart
+//! from the solve; both SDP solvers side by side, and the moment-matrix method with the
+//! game's symmetries (`symmetry auto`).
 //!
 //! `cargo bench --bench npa` runs each case and solver in its own process (so peak memory is that
 //! run's own) and prints a Markdown table. Runs whose estimated solve time exceeds
@@ -8,15 +10,28 @@
 use std::process::Command;
 use std::time::Instant;
 
-use bellgap::bounds::quantum::npa::{estimate_for, relaxation, Level};
-use bellgap::formats::game::{families, Game, GameSpec};
-use bellgap::Backend;
+use bellgap::bounds::quantum::npa::{relaxation, sized_relaxation, Level};
+use bellgap::bounds::quantum::symmetric::SymmetryChoice;
+use bellgap::formats::game::{families, product, Game, GameSpec};
+use bellgap::{Backend, NpaOptions};
 
-fn solver(name: &str) -> Backend {
-    if name == "clarabel" {
-        Backend::Clarabel
-    } else {
-        Backend::MomentIpm
+/// The runs of each case: solver and symmetry choice.
+const RUNS: [&str; 3] = ["moment-ipm, symmetry", "moment-ipm", "clarabel"];
+
+fn options(run: &str, level: Level) -> NpaOptions {
+    NpaOptions {
+        level,
+        backend: if run == "clarabel" {
+            Backend::Clarabel
+        } else {
+            Backend::MomentIpm
+        },
+        symmetry: if run.ends_with("symmetry") {
+            SymmetryChoice::Auto
+        } else {
+            SymmetryChoice::Off
+        },
+        limits: bellgap::Limits { force: true },
     }
 }
 
@@ -25,14 +40,33 @@ fn cases() -> Vec<(String, GameSpec, &'static str)> {
         ("I3322".to_string(), families::i3322(), "2"),
         ("I3322".to_string(), families::i3322(), "3"),
         ("I3322".to_string(), families::i3322(), "4"),
+        ("I3322".to_string(), families::i3322(), "5"),
     ];
-    for d in 3..=8 {
+    for d in [3, 4, 5, 6, 7, 8, 10, 12] {
         v.push((
             format!("CGLMP d={d}"),
             families::cglmp(d).unwrap(),
             "1+joint",
         ));
     }
+    for n in [3, 4] {
+        v.push((format!("GHZ {n} players"), families::ghz(n).unwrap(), "2"));
+    }
+    v.push((
+        "magic square".to_string(),
+        families::magic_square(),
+        "1+joint",
+    ));
+    v.push((
+        "CHSH x2".to_string(),
+        product::parallel_repetition(
+            &Game::from_spec(&families::chsh(), "chsh").unwrap().scenario,
+            "chsh-x2",
+            2,
+        )
+        .unwrap(),
+        "1+joint",
+    ));
     v
 }
 
@@ -44,28 +78,30 @@ fn peak_mib() -> Option<f64> {
     Some(kib / 1024.0)
 }
 
-fn run_case(index: usize, solver_name: &str) {
+fn run_case(index: usize, run: &str) {
     let (name, spec, level) = &cases()[index];
     let s = Game::from_spec(spec, name).unwrap().scenario;
     let level = Level::parse(level).unwrap();
     let t = Instant::now();
     let r = relaxation(&s, &level).unwrap();
     let build = t.elapsed().as_secs_f64();
-    let b = bellgap::npa_bound(
-        &s,
-        &bellgap::NpaOptions {
-            level: level.clone(),
-            backend: solver(solver_name),
-            limits: bellgap::Limits { force: true },
-        },
-    )
-    .unwrap();
+    let b = bellgap::npa_bound(&s, &options(run, level)).unwrap();
+    let variables = match &b.symmetry {
+        Some(u) => format!(
+            "{} → {} (group {}, {} blocks, largest {})",
+            b.moments,
+            u.moments,
+            u.order,
+            u.blocks.len(),
+            u.blocks.iter().max().unwrap_or(&0)
+        ),
+        None => b.moments.to_string(),
+    };
     println!(
-        "| {name} | {} | {solver_name} | {}×{} | {} | {:.4} | {:.2} | {:.0} | {:.9} | {:.9} | {} ({} it.) |",
+        "| {name} | {} | {run} | {}×{} | {variables} | {:.4} | {:.2} | {:.0} | {:.9} | {:.9} | {} ({} it.) |",
         b.level,
         r.matrix.size(),
         r.matrix.size(),
-        b.moments,
         build,
         b.seconds - b.build_seconds,
         peak_mib().unwrap_or(f64::NAN),
@@ -91,12 +127,14 @@ fn main() {
     let exe = std::env::current_exe().unwrap();
     for (i, (name, spec, level)) in cases().iter().enumerate() {
         let s = Game::from_spec(spec, name).unwrap().scenario;
-        let r = relaxation(&s, &Level::parse(level).unwrap()).unwrap();
-        for solver_name in ["moment-ipm", "clarabel"] {
-            let est = estimate_for(&r, solver(solver_name));
+        for run in RUNS {
+            let Ok((_, est)) = sized_relaxation(&s, &options(run, Level::parse(level).unwrap()))
+            else {
+                continue;
+            };
             if est.seconds > max {
                 println!(
-                    "| {name} | {level} | {solver_name} | {}×{} | {} | | not run: estimated {} | est. {:.0} | | | |",
+                    "| {name} | {level} | {run} | {}×{} | {} | | not run: estimated {} | est. {:.0} | | | |",
                     est.matrix_size,
                     est.matrix_size,
                     est.moments,
@@ -106,7 +144,7 @@ fn main() {
                 continue;
             }
             let out = Command::new(&exe)
-                .args(["--case", &i.to_string(), solver_name])
+                .args(["--case", &i.to_string(), run])
                 .output()
                 .unwrap();
             print!("{}", String::from_utf8_lossy(&out.stdout));

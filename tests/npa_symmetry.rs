@@ -34,7 +34,10 @@ fn agree(game: &Game, level: &str) -> NpaBound {
         .symmetry
         .as_ref()
         .unwrap_or_else(|| panic!("{what}: no reduction"));
-    assert!(used.order >= 2 && used.moments < used.full_moments, "{what}");
+    assert!(
+        used.order >= 2 && used.moments < used.full_moments,
+        "{what}"
+    );
     assert_eq!(used.full_moments, full.moments, "{what}");
     for (a, b, name) in [
         (reduced.quantum_upper, full.quantum_upper, "raw"),

@@ -6,8 +6,8 @@ use std::path::PathBuf;
 
 use bellgap::bounds::classical::{Choice, ClassicalOptions};
 use bellgap::bounds::quantum::npa::Level;
-use bellgap::bounds::quantum::symmetric::SymmetryChoice;
 use bellgap::bounds::quantum::seesaw::SeesawOptions;
+use bellgap::bounds::quantum::symmetric::SymmetryChoice;
 use bellgap::formats::game::families::{self, Family};
 use bellgap::formats::game::CompileOptions;
 use bellgap::limits::Limits;

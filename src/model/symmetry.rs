@@ -58,7 +58,10 @@ impl Relabelling {
         let parties = s.parties();
         Relabelling {
             players: (0..parties.len()).collect(),
-            questions: parties.iter().map(|p| (0..p.questions()).collect()).collect(),
+            questions: parties
+                .iter()
+                .map(|p| (0..p.questions()).collect())
+                .collect(),
             answers: parties
                 .iter()
                 .map(|p| vec![(0..p.answers()).collect(); p.questions()])

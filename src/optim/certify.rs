@@ -86,8 +86,7 @@ impl Assembled {
             * (gamma(longest_column + 2) * magnitude * self.variable_bound
                 + gamma(residual.len() + 1) * slack
                 + gamma(z.len() + 1) * zb_magnitude
-                + gamma(5)
-                    * (self.objective_constant.abs() + zb.abs() + slack + cone_charge));
+                + gamma(5) * (self.objective_constant.abs() + zb.abs() + slack + cone_charge));
         Ok(self.objective_constant + zb + slack + cone_charge + rounding)
     }
 }

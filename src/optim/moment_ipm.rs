@@ -223,7 +223,14 @@ fn build(p: &SdpProblem, el: &Elimination) -> Internal {
         })
         .collect();
     let slots = sizes.iter().map(|&n| n * (n + 1) / 2).sum::<usize>();
-    let mut accumulator = vec![0.0; if el.basis.iter().any(|c| c.len() > 1) { slots } else { 0 }];
+    let mut accumulator = vec![
+        0.0;
+        if el.basis.iter().any(|c| c.len() > 1) {
+            slots
+        } else {
+            0
+        }
+    ];
     let columns: Vec<Vec<Entry>> = el
         .basis
         .iter()
@@ -241,8 +248,8 @@ fn build(p: &SdpProblem, el: &Elimination) -> Internal {
             let mut touched: Vec<(u32, u32, u32)> = Vec::new();
             for &(v, w) in col {
                 for e in &orig[v] {
-                    let slot = block_start[e.block as usize]
-                        + upper_index(e.row as usize, e.col as usize);
+                    let slot =
+                        block_start[e.block as usize] + upper_index(e.row as usize, e.col as usize);
                     if accumulator[slot] == 0.0 {
                         touched.push((e.block, e.row, e.col));
                     }
@@ -257,7 +264,8 @@ fn build(p: &SdpProblem, el: &Elimination) -> Internal {
             touched
                 .into_iter()
                 .filter_map(|(block, row, col)| {
-                    let slot = block_start[block as usize] + upper_index(row as usize, col as usize);
+                    let slot =
+                        block_start[block as usize] + upper_index(row as usize, col as usize);
                     let coef = std::mem::take(&mut accumulator[slot]);
                     (coef.abs() > 1e-15).then_some(Entry {
                         block,

@@ -504,8 +504,7 @@ pub fn estimate_for(r: &Relaxation, solver: Backend) -> NpaEstimate {
     };
     let clarabel_seconds = 15.0 * d * d * d / 3.0 / FLOPS_PER_SECOND;
     let clarabel_memory_bytes = 8.0 * d * d * 2.0;
-    let ipm_seconds =
-        30.0 * (m * m * m / 3.0 / IPM_CHOLESKY_FLOPS + assembly / IPM_ASSEMBLY_FLOPS);
+    let ipm_seconds = 30.0 * (m * m * m / 3.0 / IPM_CHOLESKY_FLOPS + assembly / IPM_ASSEMBLY_FLOPS);
     let ipm_memory_bytes = 8.0 * m * m * 3.0 + 8.0 * n * n * 12.0;
     let (seconds, memory_bytes) = match solver {
         Backend::Clarabel => (clarabel_seconds, clarabel_memory_bytes),

@@ -290,12 +290,12 @@ pub fn reduce(
         && problem.blocks.len() == 1
         && problem.equalities.is_empty()
         && problem.inequalities.is_empty())
-        .then(|| isotypic_bases(s, &elements, &chosen, &actions, n))
-        .flatten()
-        .and_then(|bases| {
-            let equalities = invariance(&chosen, moments, &classes, &last)?;
-            Some((block_problem(&merged, &bases, equalities), bases))
-        });
+    .then(|| isotypic_bases(s, &elements, &chosen, &actions, n))
+    .flatten()
+    .and_then(|bases| {
+        let equalities = invariance(&chosen, moments, &classes, &last)?;
+        Some((block_problem(&merged, &bases, equalities), bases))
+    });
     let (reduced_problem, bases) = match split {
         Some((p, bases)) => (p, Some(bases)),
         None => (merged, None),
@@ -454,8 +454,9 @@ fn isotypic_bases(
     let mut groups: Vec<Vec<usize>> = Vec::new();
     for &k in &order {
         match groups.last_mut() {
-            Some(g) if (eig.eigenvalues[k] - eig.eigenvalues[*g.last().unwrap()]).abs()
-                <= 1e-8 * scale =>
+            Some(g)
+                if (eig.eigenvalues[k] - eig.eigenvalues[*g.last().unwrap()]).abs()
+                    <= 1e-8 * scale =>
             {
                 g.push(k)
             }
