@@ -156,6 +156,20 @@ pub fn game_report(r: &GameReport) -> String {
                 b.seconds
             ),
         ));
+        if let Some(u) = &b.symmetry {
+            rows.push((
+                "  symmetry".into(),
+                format!(
+                    "{} relabellings: {} moments merged into {}, matrix split into {} blocks (largest {}×{}); bound checked on the full matrix",
+                    u.order,
+                    u.full_moments,
+                    u.moments,
+                    u.blocks.len(),
+                    u.blocks.iter().max().unwrap_or(&0),
+                    u.blocks.iter().max().unwrap_or(&0)
+                ),
+            ));
+        }
     }
     if let Some(sw) = &r.seesaw {
         rows.push((

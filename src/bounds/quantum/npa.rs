@@ -622,7 +622,17 @@ pub fn solve_relaxation(r: &Relaxation, solver: Backend, build_seconds: f64) -> 
     let stage = format!("NPA level {}", r.level.name());
     let sol = match &r.reduction {
         None => backend::solve(&r.problem, solver, &stage)?,
-        Some(red) => lift(r, red, backend::solve(&red.problem, solver, &stage)?)?,
+        // The reduced problem's blocks are small and dense, where the work estimate of
+        // `backend::choose` favours clarabel although it often stops at "almost solved"; the
+        // moment-matrix method goes first for `auto`, with the usual choice as the fallback.
+        Some(red) => {
+            let solved = match solver {
+                Backend::Auto => backend::solve(&red.problem, Backend::MomentIpm, &stage)
+                    .or_else(|_| backend::solve(&red.problem, Backend::Auto, &stage)),
+                _ => backend::solve(&red.problem, solver, &stage),
+            };
+            lift(r, red, solved?)?
+        }
     };
     Ok(NpaBound {
         level: r.level.clone(),

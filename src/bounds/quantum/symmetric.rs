@@ -35,7 +35,7 @@ use crate::optim::sdp::{upper_index, AffineEntry, SdpProblem};
 pub const MAX_ELEMENTS: usize = 20_000;
 /// Most entries of the group's action on the generating words held for the averaging
 /// (elements × words × terms).
-pub const MAX_ACTION_TERMS: usize = 40_000_000;
+pub const MAX_ACTION_TERMS: usize = 10_000_000;
 /// Most terms the image of one generating word may expand into.
 const MAX_EXPANSION: usize = 4096;
 
@@ -293,8 +293,11 @@ pub fn reduce(
     .then(|| isotypic_bases(s, &elements, &chosen, &actions, n))
     .flatten()
     .and_then(|bases| {
-        let equalities = invariance(&chosen, moments, &classes, &last)?;
-        Some((block_problem(&merged, &bases, equalities), bases))
+        let (equalities, extra) = invariance(&chosen, moments, &classes, reduced, &last)?;
+        let mut widened = merged.clone();
+        widened.variables += extra;
+        widened.objective.resize(widened.variables, 0.0);
+        Some((block_problem(&widened, &bases, equalities), bases))
     });
     let (reduced_problem, bases) = match split {
         Some((p, bases)) => (p, Some(bases)),
@@ -320,53 +323,132 @@ pub fn reduce(
 
 /// Largest moment matrix split into blocks (the split takes a few dense n×n products and one
 /// symmetric eigendecomposition).
-pub const MAX_SPLIT_SIDE: usize = 3000;
+pub const MAX_SPLIT_SIDE: usize = 2000;
 
-/// The invariance equations `y(w) = y(g(w))` for each generator and each moment (a basis of the
-/// moments' span, so these make the functional invariant), in class variables and without
-/// repeats (`None` if an image leaves the moments, which a symmetry that keeps the generating
-/// words' span cannot do). Points constant on classes need not be invariant when a relabelling
-/// moves a last answer (its action is then affine); the split into blocks is exact only on
-/// invariant points, so these equations come with it.
+/// Most full-projector words the invariance equations may visit, per moment.
+const MAX_WORDS_PER_MOMENT: usize = 64;
+
+/// The invariance equations, in the variables of the reduced problem: `classes` for the moments
+/// (one per orbit of full-projector words), plus one new variable per orbit of full words that
+/// holds no moment; returns the rows and the new variable count.
+///
+/// A functional is invariant iff it is constant on orbits of full-projector words and respects
+/// completeness, `Σ_b f[i := b] = f with letter i removed`, at every letter of every full word
+/// (the only linear relation among full words besides the reductions canonical forms apply).
+/// One relation per orbit and letter suffices, as the group maps relations to relations. So
+/// the equations are sparse (answers + 2 terms), where expanding `g(w)` in Collins–Gisin words
+/// would take up to answers^length terms. Points constant on classes alone need not be
+/// invariant when a relabelling moves a last answer; the split into blocks is exact only on
+/// invariant points, so these equations come with it. `None` when the words would exceed
+/// [`MAX_WORDS_PER_MOMENT`] per moment.
 #[allow(clippy::type_complexity)]
 fn invariance(
     generators: &[Relabelling],
     moments: &[Word],
     classes: &[usize],
+    reduced: usize,
     last: &[u32],
-) -> Option<Vec<(Vec<(usize, f64)>, f64)>> {
-    let index: HashMap<&Word, usize> = moments.iter().enumerate().map(|(k, w)| (w, k)).collect();
-    let mut rows = Vec::new();
-    let mut seen: HashSet<Vec<(usize, i64)>> = HashSet::new();
-    for g in generators {
-        for (k, &c) in classes.iter().enumerate() {
-            let mut terms: Vec<(usize, f64)> = vec![(c, 1.0)];
-            let mut constant = 0.0;
-            for (word, coef) in expand(g, &moments[k], last)? {
-                if word.is_empty() {
-                    constant += coef;
-                    continue;
-                }
-                let v = classes[*index.get(&moment_key(word))?];
-                match terms.iter_mut().find(|(j, _)| *j == v) {
-                    Some((_, d)) => *d -= coef,
-                    None => terms.push((v, -coef)),
-                }
+) -> Option<(Vec<(Vec<(usize, f64)>, f64)>, usize)> {
+    let cap = MAX_WORDS_PER_MOMENT * moments.len().max(1000);
+    let mut id: HashMap<Word, usize> = HashMap::new();
+    let mut nodes: Vec<Word> = Vec::new();
+    let mut parent: Vec<usize> = Vec::new();
+    // The completions of each node: (the words f[i := b] for every b, f without letter i).
+    let mut relations: Vec<Vec<(Vec<usize>, Option<usize>)>> = Vec::new();
+    let node = |w: Word,
+                id: &mut HashMap<Word, usize>,
+                nodes: &mut Vec<Word>,
+                parent: &mut Vec<usize>|
+     -> usize {
+        *id.entry(w.clone()).or_insert_with(|| {
+            nodes.push(w);
+            parent.push(parent.len());
+            parent.len() - 1
+        })
+    };
+    for m in moments {
+        node(m.clone(), &mut id, &mut nodes, &mut parent);
+    }
+    let mut next = 0;
+    while next < nodes.len() {
+        if nodes.len() > cap {
+            return None;
+        }
+        let f = nodes[next].clone();
+        for g in generators {
+            let b = node(full_image(g, &f), &mut id, &mut nodes, &mut parent);
+            let (ra, rb) = (root(&mut parent, next), root(&mut parent, b));
+            if ra != rb {
+                parent[ra.max(rb)] = ra.min(rb);
             }
-            terms.retain(|(_, d)| d.abs() > 1e-12);
-            terms.sort_by_key(|&(v, _)| v);
-            // Coefficients are small integers (sums of ±1): exact keys for the repeats.
-            let key: Vec<(usize, i64)> = terms
-                .iter()
-                .map(|&(v, d)| (v, (d * 1e6).round() as i64))
-                .chain([(usize::MAX, (constant * 1e6).round() as i64)])
+        }
+        let mut mine = Vec::with_capacity(f.len());
+        for i in 0..f.len() {
+            let answers = last[f[i].player as usize] + 1;
+            let filled: Vec<usize> = (0..answers)
+                .filter_map(|b| {
+                    let mut w = f.clone();
+                    w[i].outcome = b;
+                    // Replacing an outcome keeps the word canonical and non-zero.
+                    canonical(w).map(|w| node(moment_key(w), &mut id, &mut nodes, &mut parent))
+                })
                 .collect();
-            if (!terms.is_empty() || constant.abs() > 1e-12) && seen.insert(key) {
+            let mut rest = f.clone();
+            rest.remove(i);
+            let removed =
+                canonical(rest).map(|w| node(moment_key(w), &mut id, &mut nodes, &mut parent));
+            mine.push((filled, removed));
+        }
+        relations.push(mine);
+        next += 1;
+    }
+    // Variables: the moments' classes, then a new one per other orbit; the identity is 1.
+    let identity = id.get(&Vec::new()).copied();
+    let mut variable: HashMap<usize, usize> = HashMap::new();
+    for (k, &c) in classes.iter().enumerate() {
+        let r = root(&mut parent, k);
+        variable.insert(r, c);
+    }
+    let mut extra = 0;
+    let mut term = |k: usize, parent: &mut Vec<usize>| -> Option<usize> {
+        if Some(k) == identity {
+            return None;
+        }
+        let r = root(parent, k);
+        Some(*variable.entry(r).or_insert_with(|| {
+            extra += 1;
+            reduced + extra - 1
+        }))
+    };
+    let mut rows = Vec::new();
+    let mut done: HashSet<usize> = HashSet::new();
+    for (k, mine) in relations.iter().enumerate() {
+        if !done.insert(root(&mut parent, k)) {
+            continue;
+        }
+        for (filled, removed) in mine {
+            let mut terms: Vec<(usize, f64)> = Vec::new();
+            let mut constant = 0.0;
+            let mut add = |t: Option<usize>, c: f64| match t {
+                None => constant -= c,
+                Some(v) => match terms.iter_mut().find(|(j, _)| *j == v) {
+                    Some((_, d)) => *d += c,
+                    None => terms.push((v, c)),
+                },
+            };
+            for &w in filled {
+                add(term(w, &mut parent), 1.0);
+            }
+            if let Some(w) = removed {
+                add(term(*w, &mut parent), -1.0);
+            }
+            terms.retain(|(_, d)| *d != 0.0);
+            if !terms.is_empty() || constant != 0.0 {
                 rows.push((terms, constant));
             }
         }
     }
-    Some(rows)
+    Some((rows, extra))
 }
 
 /// Bases of the isotypic components of the group's action on the generating words, as
@@ -735,5 +817,49 @@ impl Reduction {
             }
         }
         out
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::formats::game::{families, Game};
+
+    fn chsh() -> Scenario {
+        Game::from_spec(&families::chsh(), "chsh").unwrap().scenario
+    }
+
+    #[test]
+    fn relabellings_compose_and_invert() {
+        let s = chsh();
+        let group = symmetries(&s).unwrap();
+        let id = Relabelling::identity(&s);
+        for g in &group.generators {
+            assert_eq!(g.after(&g.inverse()), id);
+            assert_eq!(g.inverse().after(g), id);
+            assert!(g.after(g).is_symmetry_of(&s));
+        }
+        // The generators close to the whole group, of the order the search reports.
+        let all = closure(&s, &group.generators, 100).unwrap();
+        assert_eq!(all.len() as u128, group.order);
+        assert_eq!(all.len(), 16);
+        assert!(closure(&s, &group.generators, 10).is_none());
+    }
+
+    #[test]
+    fn a_projector_sent_to_the_last_answer_expands_to_one_minus_the_others() {
+        let s = chsh();
+        // Flip Alice's answers to question 0: P(0|0) becomes P(1|0) = 1 − P(0|0).
+        let mut g = Relabelling::identity(&s);
+        g.answers[0][0] = vec![1, 0];
+        let p = Projector {
+            player: 0,
+            setting: 0,
+            outcome: 0,
+        };
+        let mut terms = expand(&g, &[p], &[1, 1]).unwrap();
+        terms.sort_by(|a, b| a.0.cmp(&b.0));
+        assert_eq!(terms, vec![(vec![], 1.0), (vec![p], -1.0)]);
+        assert_eq!(full_image(&g, &[p]), vec![Projector { outcome: 1, ..p }]);
     }
 }
