@@ -223,14 +223,12 @@ fn build(p: &SdpProblem, el: &Elimination) -> Internal {
         })
         .collect();
     let slots = sizes.iter().map(|&n| n * (n + 1) / 2).sum::<usize>();
-    let mut accumulator = vec![
-        0.0;
-        if el.basis.iter().any(|c| c.len() > 1) {
-            slots
-        } else {
-            0
-        }
-    ];
+    let used = if el.basis.iter().any(|c| c.len() > 1) {
+        slots
+    } else {
+        0
+    };
+    let (mut accumulator, mut marked) = (vec![0.0; used], vec![false; used]);
     let columns: Vec<Vec<Entry>> = el
         .basis
         .iter()
@@ -250,14 +248,10 @@ fn build(p: &SdpProblem, el: &Elimination) -> Internal {
                 for e in &orig[v] {
                     let slot =
                         block_start[e.block as usize] + upper_index(e.row as usize, e.col as usize);
-                    if accumulator[slot] == 0.0 {
+                    if !std::mem::replace(&mut marked[slot], true) {
                         touched.push((e.block, e.row, e.col));
                     }
                     accumulator[slot] += w * e.coef;
-                    if accumulator[slot] == 0.0 {
-                        // Keep it marked as touched (cancelled to exactly zero).
-                        accumulator[slot] = f64::MIN_POSITIVE;
-                    }
                 }
             }
             touched.sort_unstable();
@@ -266,6 +260,7 @@ fn build(p: &SdpProblem, el: &Elimination) -> Internal {
                 .filter_map(|(block, row, col)| {
                     let slot =
                         block_start[block as usize] + upper_index(row as usize, col as usize);
+                    marked[slot] = false;
                     let coef = std::mem::take(&mut accumulator[slot]);
                     (coef.abs() > 1e-15).then_some(Entry {
                         block,

@@ -290,7 +290,7 @@ pub fn reduce(
         && problem.blocks.len() == 1
         && problem.equalities.is_empty()
         && problem.inequalities.is_empty())
-    .then(|| isotypic_bases(s, &elements, &chosen, &actions, n))
+    .then(|| isotypic_bases(&elements, &chosen, &actions, n))
     .flatten()
     .and_then(|bases| {
         let (equalities, extra) = invariance(&chosen, moments, &classes, reduced, &last)?;
@@ -462,7 +462,6 @@ fn invariance(
 /// Japan J. Ind. Appl. Math. 27, 125–160). The split is checked on the generators; `None`
 /// when it fails or yields a single block.
 fn isotypic_bases(
-    s: &Scenario,
     elements: &[Relabelling],
     generators: &[Relabelling],
     actions: &[Vec<Vec<(u32, f64)>>],
@@ -499,7 +498,6 @@ fn isotypic_bases(
         }
         classes += 1;
     }
-    let _ = s;
     // Deterministic "random" weights per class (a fixed generator: results are reproducible).
     let mut state = 0x9e37_79b9_7f4a_7c15u64;
     let weights: Vec<f64> = (0..classes)
