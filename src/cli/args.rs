@@ -22,11 +22,15 @@ const SYMMETRY_HELP: &str = "Reduce the NPA relaxation by the game's symmetries.
 
 const SOLVER_HELP: &str = "SDP solver of the NPA bound.
 
-`auto` (default) picks by the size of the work: the moment-matrix interior-point method (`ipm`) for large moment matrices, clarabel for small ones, and falls back to the other if the first fails (clarabel only when it fits in memory and time).
+`auto` (default) picks by the size of the work: the moment-matrix interior-point method (`ipm`) for large moment matrices, clarabel for small ones, and falls back to the other if the first fails (clarabel only when it fits in memory and time); the first-order method when the interior-point method would need more than 4 GiB, or over two minutes and four times the first-order estimate.
 
-`ipm`: our interior-point method on the moment matrix's Schur complement, usually 30–460 times faster than clarabel on NPA problems. `clarabel`: a general conic solver, accurate but slow and memory-hungry on large matrices.
+`ipm`: our interior-point method on the moment matrix's Schur complement, usually 30–460 times faster than clarabel on NPA problems, but its memory grows as the square of the number of moments. `clarabel`: a general conic solver, accurate but slow and memory-hungry on large matrices. `first-order`: an accelerated ADMM on the moment matrix (one eigendecomposition per iteration, memory proportional to the matrix), for relaxations the others cannot hold; it converges fast on well-posed problems and slowly on degenerate ones, shows its progress, and stops at --budget if given.
 
 Whichever runs, the reported bound is verified from the dual solution with every floating-point error charged, so the choice changes speed, never the honesty of the number.";
+
+const BUDGET_HELP: &str = "Time limit, in seconds, for the first-order solver (`--solver first-order`, or `auto` when it picks that solver; the other solvers ignore it).
+
+When the limit is reached the run stops and reports the verified bound of the point it has: still a rigorous upper bound on the quantum value, with every residual charged, but looser than a converged run's. The output marks it as stopped at the time limit and never as solved.";
 
 const FORCE_HELP: &str = "Run even when the estimate says the work would take very long or need much memory.
 
@@ -79,6 +83,10 @@ pub enum Command {
         /// Reduce the NPA relaxation by the game's symmetries (`auto`) or solve it in full (`off`).
         #[arg(long, value_enum, default_value_t = SymmetryArg::Auto, long_help = SYMMETRY_HELP)]
         symmetry: SymmetryArg,
+        /// Stop the first-order solver after this many seconds and report the verified bound it
+        /// has reached (marked as stopped at the time limit).
+        #[arg(long, value_name = "SECONDS", long_help = BUDGET_HELP)]
+        budget: Option<f64>,
     },
     /// Quantum upper bound from the NPA hierarchy, with a verified bound from the dual solution.
     Npa {
@@ -102,6 +110,10 @@ pub enum Command {
         /// Reduce the relaxation by the game's symmetries (`auto`) or solve it in full (`off`).
         #[arg(long, value_enum, default_value_t = SymmetryArg::Auto, long_help = SYMMETRY_HELP)]
         symmetry: SymmetryArg,
+        /// Stop the first-order solver after this many seconds and report the verified bound it
+        /// has reached (marked as stopped at the time limit).
+        #[arg(long, value_name = "SECONDS", long_help = BUDGET_HELP)]
+        budget: Option<f64>,
     },
     /// Explicit quantum strategy by see-saw: a lower bound on the quantum value.
     Seesaw {
@@ -283,6 +295,7 @@ pub enum SolverArg {
     Auto,
     Ipm,
     Clarabel,
+    FirstOrder,
 }
 
 #[derive(ValueEnum, Debug, Clone, Copy)]

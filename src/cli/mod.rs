@@ -18,8 +18,10 @@ use bellgap::formats::files::write_atomic;
 use bellgap::formats::game::spec::readable_yaml;
 use bellgap::formats::game::{product, Game};
 use bellgap::formats::protocol_file::ProtocolFile;
+use bellgap::limits::human_seconds;
 use bellgap::model::correlations::Correlations;
 use bellgap::model::strategy::QuantumStrategy;
+use bellgap::optim::first_order::IterationReport;
 use bellgap::pipeline::{self, Observer, Stage};
 use bellgap::render::{charts, document, json, text};
 use bellgap::{Error, Result};
@@ -79,6 +81,16 @@ impl Observer for Stderr {
             eprint!("\r{:40}\r", "");
         }
     }
+
+    fn solver_progress(&self, stage: &str, report: &IterationReport) {
+        eprint!(
+            "\r{stage}: iteration {}, bound so far {:.9}, residual {:.1e}, {}   ",
+            report.iteration,
+            report.verified,
+            report.residual,
+            human_seconds(report.seconds)
+        );
+    }
 }
 
 fn load(input: &GameInput) -> Result<Game> {
@@ -131,7 +143,7 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             svg,
         } => {
             let game = load(game)?;
-            let r = pipeline::npa_levels(&game, options)?;
+            let r = pipeline::npa_levels(&game, options, &observer)?;
             if let Some(file) = svg {
                 write(file, &charts::npa_levels(&r), inputs)?;
             }

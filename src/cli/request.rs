@@ -12,6 +12,7 @@ use bellgap::formats::game::families::{self, Family};
 use bellgap::formats::game::CompileOptions;
 use bellgap::limits::Limits;
 use bellgap::optim::backend::Backend;
+use bellgap::optim::first_order::FirstOrderOptions;
 use bellgap::pipeline::{
     BoundsOptions, EvaluateOptions, MarginOptions, NpaLevelsOptions, RandomnessOptions,
     TargetChoice,
@@ -176,12 +177,27 @@ fn limits(force: bool) -> Limits {
     Limits { force }
 }
 
+/// The first-order method's options from `--budget` (a finite, positive number of seconds).
+pub fn first_order(budget: Option<f64>) -> Result<FirstOrderOptions> {
+    let mut options = FirstOrderOptions::default();
+    if let Some(seconds) = budget {
+        if !(seconds.is_finite() && seconds > 0.0) {
+            return Err(Error::InvalidArgument(format!(
+                "--budget must be a positive number of seconds (found {seconds})"
+            )));
+        }
+        options.max_seconds = seconds;
+    }
+    Ok(options)
+}
+
 /// `--solver`.
 pub fn backend(solver: SolverArg) -> Backend {
     match solver {
         SolverArg::Auto => Backend::Auto,
         SolverArg::Ipm => Backend::MomentIpm,
         SolverArg::Clarabel => Backend::Clarabel,
+        SolverArg::FirstOrder => Backend::FirstOrder,
     }
 }
 
@@ -301,12 +317,14 @@ impl Invocation {
                 level,
                 solver,
                 symmetry: sym,
+                budget,
             } => Request::Bounds {
                 game: game_input(args),
                 options: BoundsOptions {
                     npa_level: level.as_deref().map(Level::parse).transpose()?,
                     backend: backend(*solver),
                     symmetry: symmetry(*sym),
+                    first_order: first_order(*budget)?,
                     limits: limits(args.force),
                     ..Default::default()
                 },
@@ -318,12 +336,14 @@ impl Invocation {
                 svg,
                 solver,
                 symmetry: sym,
+                budget,
             } => Request::Npa {
                 game: game_input(args),
                 options: NpaLevelsOptions {
                     levels: levels(level)?,
                     backend: backend(*solver),
                     symmetry: symmetry(*sym),
+                    first_order: first_order(*budget)?,
                     limits: limits(args.force),
                 },
                 certificate: certificate.clone(),

@@ -4,6 +4,7 @@
 //! line in `backend_for` and [`choose`] here.
 
 use super::clarabel::ClarabelBackend;
+use super::first_order::FirstOrderBackend;
 use super::moment_ipm::MomentIpmBackend;
 pub use super::sdp::{Backend, SdpBackend};
 use super::sdp::{SdpProblem, SdpSolution};
@@ -13,6 +14,7 @@ use crate::error::{Error, Result};
 fn backend_for(backend: Backend) -> &'static dyn SdpBackend {
     match backend {
         Backend::Clarabel => &ClarabelBackend,
+        Backend::FirstOrder => &FirstOrderBackend,
         Backend::MomentIpm | Backend::Auto => &MomentIpmBackend,
     }
 }

@@ -6,6 +6,7 @@
 pub mod backend;
 pub mod certify;
 pub(crate) mod clarabel;
+pub mod first_order;
 pub mod lp;
 pub(crate) mod moment_ipm;
 pub mod sdp;

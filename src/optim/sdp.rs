@@ -179,7 +179,7 @@ impl SdpProblem {
 }
 
 /// Which SDP solver to use (or which one produced a solution). Serialised in kebab case:
-/// `auto`, `clarabel`, `moment-ipm`.
+/// `auto`, `clarabel`, `moment-ipm`, `first-order`.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum Backend {
@@ -191,6 +191,9 @@ pub enum Backend {
     /// The moment-matrix interior-point method (HKM with Mehrotra steps on the m×m Schur
     /// complement, m = number of moments).
     MomentIpm,
+    /// The first-order method (ADMM on the dual, one eigendecomposition per block and
+    /// iteration; nothing of size m²), for what the interior-point method cannot hold.
+    FirstOrder,
 }
 
 impl Backend {
@@ -200,6 +203,7 @@ impl Backend {
             Backend::Auto => "auto",
             Backend::Clarabel => "clarabel",
             Backend::MomentIpm => "moment-ipm",
+            Backend::FirstOrder => "first-order",
         }
     }
 }

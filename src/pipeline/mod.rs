@@ -33,6 +33,7 @@ use crate::model::scenario::{Scenario, Sizes};
 use crate::model::strategy::{CertifiedValue, QuantumStrategy};
 use crate::model::symmetry::{symmetries, SymmetryGroup};
 use crate::optim::backend::Backend;
+use crate::optim::first_order::{FirstOrderOptions, IterationReport};
 
 /// The quantum value counts as settled when the verified upper bound and the see-saw's lower
 /// bound are this close.
@@ -57,6 +58,9 @@ pub trait Observer: Sync {
     }
     /// `done` of `total` units of `stage` are finished.
     fn progress(&self, _stage: Stage, _done: usize, _total: usize) {}
+    /// An iterative solver's progress on `stage` (e.g. "NPA level 5"): iterations so far and
+    /// the verified bound of its current point.
+    fn solver_progress(&self, _stage: &str, _report: &IterationReport) {}
 }
 
 /// An observer that ignores everything.
@@ -298,6 +302,8 @@ pub struct BoundsOptions {
     pub backend: Backend,
     /// Whether the NPA relaxation is reduced by the game's symmetries.
     pub symmetry: SymmetryChoice,
+    /// Tolerance and limits of the first-order method, when it runs.
+    pub first_order: FirstOrderOptions,
     /// The see-saw (its `limits` are replaced by [`BoundsOptions::limits`]).
     pub seesaw: SeesawOptions,
     /// Work limits of every bound.
@@ -331,6 +337,48 @@ fn warn_long_search(s: &Scenario, limits: &Limits, observer: &dyn Observer) {
             p.nodes
         ));
     }
+}
+
+/// Estimated seconds above which an NPA solve is announced with its estimate.
+const LONG_NPA_SECONDS: f64 = 30.0;
+
+/// Solves a built relaxation with its estimate announced first when long, and the first-order
+/// method's progress (iterations, bound so far) passed to `observer`.
+fn npa_observed(
+    relaxation: &npa::Relaxation,
+    options: &NpaOptions,
+    build_seconds: f64,
+    observer: &dyn Observer,
+) -> Result<NpaBound> {
+    let est = npa::estimate_for(relaxation, options.backend);
+    let stage = format!("NPA level {}", relaxation.level);
+    if est.seconds > LONG_NPA_SECONDS {
+        let planned = if est.solver == Backend::FirstOrder {
+            format!(
+                " (planned for {:.0} iterations; it reports progress and may stop sooner or later)",
+                npa::FIRST_ORDER_PLANNED_ITERATIONS
+            )
+        } else {
+            String::new()
+        };
+        observer.warn(&format!(
+            "{stage} ({}×{} matrix, {} moments) may take about {} and {:.1} GiB with the {} solver{planned}",
+            est.matrix_size,
+            est.matrix_size,
+            est.moments,
+            human_seconds(est.seconds),
+            est.memory_bytes / (1u64 << 30) as f64,
+            est.solver
+        ));
+    }
+    let report = |r: &IterationReport| observer.solver_progress(&stage, r);
+    let control = npa::SolveControl {
+        progress: observer
+            .wants_progress()
+            .then_some(&report as &(dyn Fn(&IterationReport) + Sync)),
+        warm_start: None,
+    };
+    npa::solve_relaxation(relaxation, options, &control, build_seconds)
 }
 
 /// A heads-up before a see-saw estimated to take long (a rule of thumb, see
@@ -438,9 +486,15 @@ pub fn bounds<'a>(
                 level,
                 backend: options.backend,
                 symmetry: options.symmetry,
+                first_order: options.first_order,
                 limits: options.limits,
             };
-            match npa::npa_bound(s, &npa_options) {
+            let start = std::time::Instant::now();
+            let solved = npa::sized_relaxation(s, &npa_options).and_then(|(relaxation, _)| {
+                let build_seconds = start.elapsed().as_secs_f64();
+                npa_observed(&relaxation, &npa_options, build_seconds, observer)
+            });
+            match solved {
                 Ok(b) => r.npa = Some(b),
                 Err(e) => r.not_obtained.push(format!("NPA upper bound: {e}")),
             }
@@ -475,6 +529,8 @@ pub struct NpaLevelsOptions {
     pub backend: Backend,
     /// Whether each relaxation is reduced by the game's symmetries.
     pub symmetry: SymmetryChoice,
+    /// Tolerance and limits of the first-order method, when it runs.
+    pub first_order: FirstOrderOptions,
     /// Work limits (every level is size-checked before any is solved).
     pub limits: Limits,
 }
@@ -485,6 +541,7 @@ impl Default for NpaLevelsOptions {
             levels: vec![Level::Joint],
             backend: Backend::Auto,
             symmetry: SymmetryChoice::Auto,
+            first_order: FirstOrderOptions::default(),
             limits: Limits::default(),
         }
     }
@@ -494,7 +551,11 @@ impl Default for NpaLevelsOptions {
 /// comes first, not after hours of work on the others); with several levels, a level whose
 /// solver fails is listed under `not_obtained` and the others are kept, and the best verified
 /// bound is noted.
-pub fn npa_levels<'a>(game: &'a Game, options: &NpaLevelsOptions) -> Result<GameReport<'a>> {
+pub fn npa_levels<'a>(
+    game: &'a Game,
+    options: &NpaLevelsOptions,
+    observer: &dyn Observer,
+) -> Result<GameReport<'a>> {
     if options.levels.is_empty() {
         return Err(Error::InvalidArgument("no NPA level given".into()));
     }
@@ -509,14 +570,15 @@ pub fn npa_levels<'a>(game: &'a Game, options: &NpaLevelsOptions) -> Result<Game
                 level: level.clone(),
                 backend: options.backend,
                 symmetry: options.symmetry,
+                first_order: options.first_order,
                 limits: options.limits,
             };
-            npa::sized_relaxation(s, &at).map(|(r, _)| (r, start.elapsed().as_secs_f64()))
+            npa::sized_relaxation(s, &at).map(|(r, _)| (r, at, start.elapsed().as_secs_f64()))
         })
         .collect::<Result<Vec<_>>>()?;
     let mut bounds = Vec::new();
-    for (relaxation, build_seconds) in &relaxations {
-        match npa::solve_relaxation(relaxation, options.backend, *build_seconds) {
+    for (relaxation, at, build_seconds) in &relaxations {
+        match npa_observed(relaxation, at, *build_seconds, observer) {
             Ok(b) => bounds.push(b),
             Err(e) if options.levels.len() > 1 => r
                 .not_obtained

@@ -126,7 +126,12 @@ pub fn guessing_probability(
     }
     // A score above every quantum behaviour's leaves nothing to certify: say so rather than
     // bound the guessing probability over an empty set.
-    let npa = npa::solve_relaxation(&base, Backend::Auto, 0.0)?;
+    let npa = npa::solve_relaxation(
+        &base,
+        &npa::NpaOptions::default(),
+        &npa::SolveControl::default(),
+        0.0,
+    )?;
     if score > npa.verified_upper {
         return Err(Error::InvalidArgument(format!(
             "the score {score} is above the quantum bound {} (NPA level {}): no quantum behaviour reaches it",

@@ -140,12 +140,24 @@ pub fn game_report(r: &GameReport) -> String {
         ));
     }
     if let Some(b) = &r.npa {
+        // A converged run's raw value is its dual objective; a run stopped early has only its
+        // last primal value, which is no bound.
+        let raw = if b.converged() {
+            format!("raw {}", num(b.quantum_upper))
+        } else {
+            format!("stopped early, last primal value {}", num(b.primal))
+        };
+        let raw_value = if b.converged() {
+            b.quantum_upper
+        } else {
+            b.primal
+        };
         rows.push((
             "quantum ≤ (NPA)".into(),
             format!(
-                "{}  (verified; raw {}, level {}, {}×{} matrix, {} moments, {} {}, {} iterations, {:.2} s)",
+                "{}  (verified; {raw}, verified − raw {:.1e}; level {}, {}×{} matrix, {} moments, {} {}, {} iterations, {:.2} s)",
                 num(b.verified_upper),
-                num(b.quantum_upper),
+                b.verified_upper - raw_value,
                 b.level,
                 b.matrix_size,
                 b.matrix_size,

@@ -27,6 +27,7 @@ use crate::limits::{human_seconds, Limits};
 use crate::model::collins_gisin::CollinsGisin;
 use crate::model::scenario::Scenario;
 use crate::optim::backend::{self, Backend};
+use crate::optim::first_order::{self, FirstOrderOptions, IterationProgress, WarmStart};
 use crate::optim::sdp::{upper_index, AffineEntry, MatrixBlock, SdpProblem, SdpSolution};
 use crate::optim::SolveStatus;
 
@@ -131,6 +132,8 @@ pub struct NpaOptions {
     pub backend: Backend,
     /// Whether the relaxation is reduced by the game's symmetries (default: when it has some).
     pub symmetry: SymmetryChoice,
+    /// Tolerance and limits of the first-order method, when it runs.
+    pub first_order: FirstOrderOptions,
     /// Refuse work above the default limits unless forced.
     pub limits: Limits,
 }
@@ -141,9 +144,21 @@ impl Default for NpaOptions {
             level: Level::Joint,
             backend: Backend::Auto,
             symmetry: SymmetryChoice::Auto,
+            first_order: FirstOrderOptions::default(),
             limits: Limits::default(),
         }
     }
+}
+
+/// What a solve is handed beyond its options: a receiver for the first-order method's progress
+/// (iterations and the bound so far) and a starting point.
+#[derive(Default, Clone, Copy)]
+pub struct SolveControl<'a> {
+    /// Receives the first-order method's progress every few seconds.
+    pub progress: Option<IterationProgress<'a>>,
+    /// A previous solution of the same relaxation (for instance a run stopped at its time
+    /// limit) for the first-order method to start from.
+    pub warm_start: Option<&'a SdpSolution>,
 }
 
 impl NpaOptions {
@@ -477,6 +492,14 @@ pub struct NpaEstimate {
     pub ipm_seconds: f64,
     /// The moment-matrix method's estimated memory.
     pub ipm_memory_bytes: f64,
+    /// The first-order method's estimated time for [`FIRST_ORDER_PLANNED_ITERATIONS`].
+    pub first_order_seconds: f64,
+    /// The first-order method's estimated memory (nothing of size m²).
+    pub first_order_memory_bytes: f64,
+    /// The solver the estimate is for (`auto` resolved by [`automatic_backend`], except that
+    /// `auto` without the first-order method stays `auto`: the interior-point method or
+    /// clarabel, chosen when the problem is assembled).
+    pub solver: Backend,
 }
 
 /// Flop rate of the dense block factorisation, measured on the project machine (I3322 level 3:
@@ -487,6 +510,51 @@ const FLOPS_PER_SECOND: f64 = 1.6e9;
 /// n = 244, 30 iterations in 25 s): dense Cholesky and Schur assembly.
 const IPM_CHOLESKY_FLOPS: f64 = 3e10;
 const IPM_ASSEMBLY_FLOPS: f64 = 1e10;
+
+/// Measured seconds per iteration of the first-order method on the project machine: about
+/// `1e-10·n³` per block of side n (eigendecomposition and products) plus `5e-7` per row of the
+/// assembled problem (vectors, acceleration). I3322 level 4 (n = 244, 29,890 rows): 17 ms;
+/// level 5 (n = 628, 197,506 rows): 125 ms; a random 4×4 game at `1+joint` (n = 169): 7 ms.
+const FIRST_ORDER_SECONDS_PER_CUBE: f64 = 1e-10;
+const FIRST_ORDER_SECONDS_PER_ROW: f64 = 5e-7;
+
+/// Iterations the time estimate of the first-order method plans for. It is a planning figure,
+/// not a promise: well-posed problems reach 1e-9 in about 800–1,200 (a random 4×4 game at
+/// `1+joint`: 833; CGLMP d=4: 1,137), degenerate ones converge more slowly and stop at their
+/// limit with a looser verified bound.
+pub const FIRST_ORDER_PLANNED_ITERATIONS: f64 = 2000.0;
+
+/// Above this estimated memory the interior-point method is not chosen by `auto`.
+pub const IPM_MEMORY_CEILING: f64 = 4.0 * (1u64 << 30) as f64;
+/// `auto` takes the first-order method when the interior-point method's estimate is above
+/// this many seconds and this many times the first-order method's.
+const FIRST_ORDER_SECONDS_THRESHOLD: f64 = 120.0;
+const FIRST_ORDER_ADVANTAGE: f64 = 4.0;
+
+/// What `auto` runs for a relaxation, from the estimates: the first-order method when the
+/// interior-point method would not fit in [`IPM_MEMORY_CEILING`], or would take over two
+/// minutes and four times longer; otherwise `auto` stays (the interior-point method or
+/// clarabel, by [`backend::choose`], with fallback). Reduced problems keep the
+/// interior-point method unless it does not fit: their blocks are small.
+pub fn automatic_backend(r: &Relaxation) -> Backend {
+    estimate_for(r, Backend::Auto).solver
+}
+
+fn automatic_backend_from(
+    ipm_seconds: f64,
+    ipm_memory_bytes: f64,
+    first_order_seconds: f64,
+    reduced: bool,
+) -> Backend {
+    let too_big = ipm_memory_bytes > IPM_MEMORY_CEILING;
+    let too_slow = ipm_seconds > FIRST_ORDER_SECONDS_THRESHOLD
+        && ipm_seconds > FIRST_ORDER_ADVANTAGE * first_order_seconds;
+    if too_big || (too_slow && !reduced) {
+        Backend::FirstOrder
+    } else {
+        Backend::Auto
+    }
+}
 
 /// The estimate with the backend `auto` would run first.
 pub fn estimate(r: &Relaxation) -> NpaEstimate {
@@ -506,8 +574,34 @@ pub fn estimate_for(r: &Relaxation, solver: Backend) -> NpaEstimate {
     let clarabel_memory_bytes = 8.0 * d * d * 2.0;
     let ipm_seconds = 30.0 * (m * m * m / 3.0 / IPM_CHOLESKY_FLOPS + assembly / IPM_ASSEMBLY_FLOPS);
     let ipm_memory_bytes = 8.0 * m * m * 3.0 + 8.0 * n * n * 12.0;
+    let problem = match &r.reduction {
+        Some(red) => &red.problem,
+        None => &r.problem,
+    };
+    let sides = problem.blocks.iter().map(|b| b.size as f64);
+    let rows: f64 = problem.equalities.len() as f64
+        + problem.inequalities.len() as f64
+        + sides.clone().map(|n| n * (n + 1.0) / 2.0).sum::<f64>();
+    let first_order_seconds = FIRST_ORDER_PLANNED_ITERATIONS
+        * (FIRST_ORDER_SECONDS_PER_CUBE * sides.clone().map(|n| n.powi(3)).sum::<f64>()
+            + FIRST_ORDER_SECONDS_PER_ROW * rows);
+    // The accelerated state and its history (2·rows each, twice the memory), a dozen work
+    // vectors of the rows, the sparse constraint matrix, and per block a few dense matrices.
+    let first_order_memory_bytes = 8.0
+        * (rows * (4.0 * first_order::ANDERSON_MEMORY as f64 + 16.0)
+            + 6.0 * sides.map(|n| n * n).sum::<f64>());
+    let solver = match solver {
+        Backend::Auto => automatic_backend_from(
+            ipm_seconds,
+            ipm_memory_bytes,
+            first_order_seconds,
+            r.reduction.is_some(),
+        ),
+        other => other,
+    };
     let (seconds, memory_bytes) = match solver {
         Backend::Clarabel => (clarabel_seconds, clarabel_memory_bytes),
+        Backend::FirstOrder => (first_order_seconds, first_order_memory_bytes),
         _ => (ipm_seconds, ipm_memory_bytes),
     };
     NpaEstimate {
@@ -519,6 +613,9 @@ pub fn estimate_for(r: &Relaxation, solver: Backend) -> NpaEstimate {
         clarabel_memory_bytes,
         ipm_seconds,
         ipm_memory_bytes,
+        first_order_seconds,
+        first_order_memory_bytes,
+        solver,
     }
 }
 
@@ -556,6 +653,14 @@ pub struct NpaBound {
     /// The solution, with the dual vector for a certificate.
     #[serde(skip)]
     pub solution: Option<SdpSolution>,
+}
+
+impl NpaBound {
+    /// Whether the solver reached its tolerances (solved or almost solved), as opposed to
+    /// stopping at an iteration or time limit with only its verified bound to show.
+    pub fn converged(&self) -> bool {
+        matches!(self.status, SolveStatus::Solved | SolveStatus::AlmostSolved)
+    }
 }
 
 /// Largest moment matrix built without `force` (its side); larger ones are refused before
@@ -610,33 +715,80 @@ pub fn sized_relaxation(s: &Scenario, options: &NpaOptions) -> Result<(Relaxatio
 
 /// Builds (after the size check of [`sized_relaxation`]) and solves the relaxation.
 pub fn npa_bound(s: &Scenario, options: &NpaOptions) -> Result<NpaBound> {
-    let start = Instant::now();
-    let (r, _) = sized_relaxation(s, options)?;
-    solve_relaxation(&r, options.backend, start.elapsed().as_secs_f64())
+    npa_bound_with(s, options, &SolveControl::default())
 }
 
-/// Solves a relaxation already built (and size-checked, see [`sized_relaxation`]);
-/// `build_seconds` is the time its building took, added to the reported time.
-pub fn solve_relaxation(r: &Relaxation, solver: Backend, build_seconds: f64) -> Result<NpaBound> {
+/// [`npa_bound`] with progress reports and a starting point ([`SolveControl`]).
+pub fn npa_bound_with(
+    s: &Scenario,
+    options: &NpaOptions,
+    control: &SolveControl,
+) -> Result<NpaBound> {
+    let start = Instant::now();
+    let (r, _) = sized_relaxation(s, options)?;
+    solve_relaxation(&r, options, control, start.elapsed().as_secs_f64())
+}
+
+/// Solves a relaxation already built (and size-checked, see [`sized_relaxation`]) with the
+/// backend and first-order settings of `options`; `build_seconds` is the time its building
+/// took, added to the reported time.
+pub fn solve_relaxation(
+    r: &Relaxation,
+    options: &NpaOptions,
+    control: &SolveControl,
+    build_seconds: f64,
+) -> Result<NpaBound> {
     let start = Instant::now();
     let stage = format!("NPA level {}", r.level.name());
-    let sol = match &r.reduction {
-        None => backend::solve(&r.problem, solver, &stage)?,
+    let solver = match options.backend {
+        Backend::Auto => automatic_backend(r),
+        other => other,
+    };
+    let problem = match &r.reduction {
+        Some(red) => &red.problem,
+        None => &r.problem,
+    };
+    let sol = match solver {
+        Backend::FirstOrder => {
+            let rows = problem.equalities.len()
+                + problem.inequalities.len()
+                + problem
+                    .blocks
+                    .iter()
+                    .map(|b| b.size * (b.size + 1) / 2)
+                    .sum::<usize>();
+            // A start from another problem (another level, or the full problem when this one
+            // is reduced) is ignored.
+            let warm = control.warm_start.and_then(|w| {
+                (w.y.len() == problem.variables && w.z.len() == rows)
+                    .then_some(WarmStart { y: &w.y, z: &w.z })
+            });
+            first_order::solve(
+                problem,
+                &stage,
+                &options.first_order,
+                warm,
+                control.progress,
+            )?
+        }
         // The reduced problem's blocks are small and dense, where the work estimate of
         // `backend::choose` favours clarabel although it often stops at "almost solved"; the
         // moment-matrix method goes first for `auto`, with the usual choice as the fallback.
-        Some(red) => {
-            let solved = match solver {
-                Backend::Auto => backend::solve(&red.problem, Backend::MomentIpm, &stage)
-                    .or_else(|_| backend::solve(&red.problem, Backend::Auto, &stage)),
-                _ => backend::solve(&red.problem, solver, &stage),
-            };
-            lift(r, red, solved?)?
+        Backend::Auto if r.reduction.is_some() => {
+            backend::solve(problem, Backend::MomentIpm, &stage)
+                .or_else(|_| backend::solve(problem, Backend::Auto, &stage))?
         }
+        other => backend::solve(problem, other, &stage)?,
     };
+    let sol = match &r.reduction {
+        Some(red) => lift(r, red, sol)?,
+        None => sol,
+    };
+    let converged = matches!(sol.status, SolveStatus::Solved | SolveStatus::AlmostSolved);
     Ok(NpaBound {
         level: r.level.clone(),
-        quantum_upper: sol.dual,
+        // A run stopped early has no dual value worth the name: only the verified bound.
+        quantum_upper: if converged { sol.dual } else { sol.certified },
         verified_upper: sol.certified,
         primal: sol.primal,
         matrix_size: r.matrix.size(),
