@@ -10,7 +10,7 @@
 use std::process::Command;
 use std::time::Instant;
 
-use bellgap::bounds::quantum::npa::{relaxation, sized_relaxation, Level};
+use bellgap::bounds::quantum::npa::{relaxation, sized_relaxation, Entry, Level};
 use bellgap::bounds::quantum::symmetric::SymmetryChoice;
 use bellgap::formats::game::{families, product, Game, GameSpec};
 use bellgap::optim::first_order::FirstOrderOptions;
@@ -161,8 +161,46 @@ fn run_case(index: usize, run: &str) {
     );
 }
 
+/// Writes every case for the peer script (`benches/peer/run.sh`): the game file, and the
+/// moment matrix's structure as JSON (`upper`: per upper-triangle entry, column by column, the
+/// moment index, −1 for zero or −2 for the identity; `objective` per moment; `constant`).
+fn export(dir: &str) {
+    std::fs::create_dir_all(dir).unwrap();
+    for (i, (name, spec, level)) in cases().iter().enumerate() {
+        let game = Game::from_spec(spec, name).unwrap();
+        let level = Level::parse(level).unwrap();
+        let r = relaxation(&game.scenario, &level).unwrap();
+        let upper: Vec<i64> = r
+            .matrix
+            .entries
+            .iter()
+            .map(|e| match e {
+                Entry::Zero => -1,
+                Entry::Identity => -2,
+                Entry::Moment(m) => *m as i64,
+            })
+            .collect();
+        let json = serde_json::json!({
+            "name": name,
+            "level": level.name(),
+            "size": r.matrix.size(),
+            "moments": r.matrix.moments.len(),
+            "upper": upper,
+            "objective": r.problem.objective,
+            "constant": r.problem.objective_constant,
+        });
+        std::fs::write(format!("{dir}/case-{i:02}.json"), json.to_string()).unwrap();
+        let yaml = serde_yaml::to_string(spec).unwrap();
+        std::fs::write(format!("{dir}/case-{i:02}.yaml"), yaml).unwrap();
+    }
+}
+
 fn main() {
     let args: Vec<String> = std::env::args().collect();
+    if let Some(pos) = args.iter().position(|a| a == "--export") {
+        export(&args[pos + 1]);
+        return;
+    }
     if let Some(pos) = args.iter().position(|a| a == "--case") {
         run_case(args[pos + 1].parse().unwrap(), &args[pos + 2]);
         return;

@@ -150,13 +150,29 @@ fn i3322_level_4_meets_the_best_known_strategy() {
 
 #[test]
 fn a_relaxation_that_would_not_fit_in_memory_is_refused_with_an_estimate() {
+    // I3322 level 6 (1540×1540): the interior-point method's Schur complement would not fit.
     let err = npa_bound(
         &compile(&families::i3322()),
-        &bellgap::NpaOptions::at(Level::Length(6).clone()),
+        &bellgap::NpaOptions {
+            backend: bellgap::Backend::MomentIpm,
+            ..bellgap::NpaOptions::at(Level::Length(6))
+        },
     )
     .unwrap_err();
     assert!(matches!(err, bellgap::Error::TooLarge { .. }), "{err}");
     assert!(err.to_string().contains("GiB"), "{err}");
+    // `auto` would take the first-order method there, whose estimate (about half an hour for
+    // its planned iterations) is within the limits: it is not refused, and says so in advance.
+    let r =
+        bellgap::bounds::quantum::npa::relaxation(&compile(&families::i3322()), &Level::Length(6))
+            .unwrap();
+    let est = bellgap::bounds::quantum::npa::estimate_for(&r, bellgap::Backend::Auto);
+    assert_eq!(est.solver, bellgap::Backend::FirstOrder);
+    assert!(
+        est.seconds > 600.0 && est.seconds < 3600.0,
+        "{}",
+        est.seconds
+    );
 }
 
 #[test]

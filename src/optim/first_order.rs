@@ -34,6 +34,11 @@ use super::sdp::{Assembled, Backend, SdpProblem, SdpSolution};
 use super::SolveStatus;
 use crate::error::{Error, Result};
 
+/// Default iteration limit: five times the iterations the time estimate plans for (see
+/// `npa::FIRST_ORDER_PLANNED_ITERATIONS`), so a run never takes more than five times its
+/// announced estimate.
+pub const MAX_ITERATIONS: u32 = 10_000;
+
 /// Tolerances and limits of the method.
 #[derive(Debug, Clone, Copy)]
 pub struct FirstOrderOptions {
@@ -51,7 +56,7 @@ impl Default for FirstOrderOptions {
     fn default() -> Self {
         FirstOrderOptions {
             tolerance: 1e-9,
-            max_iterations: 100_000,
+            max_iterations: MAX_ITERATIONS,
             max_seconds: f64::INFINITY,
             report_every_seconds: 2.0,
         }

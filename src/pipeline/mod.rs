@@ -354,9 +354,16 @@ fn npa_observed(
     let stage = format!("NPA level {}", relaxation.level);
     if est.seconds > LONG_NPA_SECONDS {
         let planned = if est.solver == Backend::FirstOrder {
+            let limit = options.first_order.max_iterations as f64;
             format!(
-                " (planned for {:.0} iterations; it reports progress and may stop sooner or later)",
-                npa::FIRST_ORDER_PLANNED_ITERATIONS
+                " (for {:.0} iterations; at most {} at its {limit:.0}-iteration limit{}; progress below)",
+                npa::FIRST_ORDER_PLANNED_ITERATIONS,
+                human_seconds(est.seconds * limit / npa::FIRST_ORDER_PLANNED_ITERATIONS),
+                if options.first_order.max_seconds.is_finite() {
+                    format!(" or after the {} budget", human_seconds(options.first_order.max_seconds))
+                } else {
+                    String::new()
+                }
             )
         } else {
             String::new()
