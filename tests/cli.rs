@@ -551,3 +551,51 @@ fn npa_compares_levels_and_plots() {
             == 3
     );
 }
+
+#[test]
+fn first_order_solver_and_its_budget() {
+    // Converged: the CHSH game at level 2, Tsirelson's cos²(π/8) (Tsirelson 1980).
+    let out = bellgap(&[
+        "npa",
+        "games/chsh.yaml",
+        "--level",
+        "2",
+        "--symmetry",
+        "off",
+        "--solver",
+        "first-order",
+        "--json",
+    ]);
+    assert!(out.status.success());
+    let j = json_of(&out);
+    assert_eq!(j["solver"], "first-order");
+    assert_eq!(j["status"], "solved");
+    let tsirelson = (std::f64::consts::PI / 8.0).cos().powi(2);
+    let verified = j["verified_upper"].as_f64().unwrap();
+    assert!(verified >= tsirelson && verified < tsirelson + 1e-7, "{verified}");
+    // Stopped by its budget: still a verified bound, never called solved.
+    let out = bellgap(&[
+        "npa",
+        "games/i3322.yaml",
+        "--level",
+        "3",
+        "--solver",
+        "first-order",
+        "--budget",
+        "0.05",
+    ]);
+    assert!(out.status.success());
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(text.contains("stopped at the time limit"), "{text}");
+    assert!(text.contains("stopped early, last primal value"), "{text}");
+    assert!(!text.contains("first-order solved"), "{text}");
+    // A budget must be a positive, finite number of seconds.
+    for bad in ["-1", "0", "nan", "inf"] {
+        let out = bellgap(&["npa", "games/chsh.yaml", "--budget", bad]);
+        assert_eq!(out.status.code(), Some(2), "{bad}");
+        assert!(
+            String::from_utf8_lossy(&out.stderr).contains("--budget"),
+            "{bad}"
+        );
+    }
+}

@@ -22,7 +22,7 @@ const SYMMETRY_HELP: &str = "Reduce the NPA relaxation by the game's symmetries.
 
 const SOLVER_HELP: &str = "SDP solver of the NPA bound.
 
-`auto` (default) picks by the size of the work: the moment-matrix interior-point method (`ipm`) for large moment matrices, clarabel for small ones, and falls back to the other if the first fails (clarabel only when it fits in memory and time); the first-order method when the interior-point method would need more than 4 GiB, or over two minutes and four times the first-order estimate.
+`auto` (default) picks by the size of the work: the moment-matrix interior-point method (`ipm`) for large moment matrices, clarabel for small ones, and falls back to the other if the first fails (clarabel only when it fits in memory and time); the first-order method when the interior-point method would need more than 4 GiB, or over two minutes and eight times the first-order estimate.
 
 `ipm`: our interior-point method on the moment matrix's Schur complement, usually 30–460 times faster than clarabel on NPA problems, but its memory grows as the square of the number of moments. `clarabel`: a general conic solver, accurate but slow and memory-hungry on large matrices. `first-order`: an accelerated ADMM on the moment matrix (one eigendecomposition per iteration, memory proportional to the matrix), for relaxations the others cannot hold; it converges fast on well-posed problems and slowly on degenerate ones, shows its progress, and stops at --budget if given.
 

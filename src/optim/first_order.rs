@@ -15,6 +15,11 @@
 //! z ← (S − V) / μ       (= Π_K(−V)/μ, so z stays in K: every iterate is a dual point)
 //! ```
 //!
+//! The map `(z, S) ↦ (z', S')` is a fixed-point iteration, accelerated by type-II Anderson
+//! acceleration with a safeguard (see [`Anderson`]): on well-posed problems it cuts the
+//! iterations several-fold; on degenerate ones (I3322, whose NPA optimum is far from strictly
+//! complementary) convergence stays slow, and a run is best given a budget.
+//!
 //! For a full NPA matrix every entry carries one moment, so the columns of `A` have disjoint
 //! supports and `AᵀA` is diagonal; otherwise the `y` step is solved by conjugate gradients with a
 //! Jacobi preconditioner, warm-started at the previous `y`. Either way the method stores `A`, the

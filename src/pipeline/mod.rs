@@ -356,11 +356,11 @@ fn npa_observed(
         let planned = if est.solver == Backend::FirstOrder {
             let limit = options.first_order.max_iterations as f64;
             format!(
-                " (for {:.0} iterations; at most {} at its {limit:.0}-iteration limit{}; progress below)",
+                " (planned {:.0} iterations; at most {} at its {limit:.0}-iteration limit{}; progress below)",
                 npa::FIRST_ORDER_PLANNED_ITERATIONS,
                 human_seconds(est.seconds * limit / npa::FIRST_ORDER_PLANNED_ITERATIONS),
                 if options.first_order.max_seconds.is_finite() {
-                    format!(" or after the {} budget", human_seconds(options.first_order.max_seconds))
+                    format!("; budget {}", human_seconds(options.first_order.max_seconds))
                 } else {
                     String::new()
                 }
