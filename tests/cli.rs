@@ -572,7 +572,10 @@ fn first_order_solver_and_its_budget() {
     assert_eq!(j["status"], "solved");
     let tsirelson = (std::f64::consts::PI / 8.0).cos().powi(2);
     let verified = j["verified_upper"].as_f64().unwrap();
-    assert!(verified >= tsirelson && verified < tsirelson + 1e-7, "{verified}");
+    assert!(
+        verified >= tsirelson && verified < tsirelson + 1e-7,
+        "{verified}"
+    );
     // Stopped by its budget: still a verified bound, never called solved.
     let out = bellgap(&[
         "npa",
@@ -591,7 +594,7 @@ fn first_order_solver_and_its_budget() {
     assert!(!text.contains("first-order solved"), "{text}");
     // A budget must be a positive, finite number of seconds.
     for bad in ["-1", "0", "nan", "inf"] {
-        let out = bellgap(&["npa", "games/chsh.yaml", "--budget", bad]);
+        let out = bellgap(&["npa", "games/chsh.yaml", &format!("--budget={bad}")]);
         assert_eq!(out.status.code(), Some(2), "{bad}");
         assert!(
             String::from_utf8_lossy(&out.stderr).contains("--budget"),

@@ -138,7 +138,7 @@ fn i3322_level_3() {
 fn i3322_level_4_meets_the_best_known_strategy() {
     // Level 4 (244×244, 4491 moments) is within 1e-8 of the best known quantum value
     // 0.250875384514 (Pál–Vértesi 2010, PRA 82, 022116; digits from memory), which it must not
-    // undercut. About 25 s with the moment-matrix solver.
+    // undercut. About 70 s with the moment-matrix solver.
     let b = npa(&compile(&families::i3322()), "4");
     assert!(b.verified_upper >= 0.250875384514, "{}", b.verified_upper);
     assert!(
