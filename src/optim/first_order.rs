@@ -16,7 +16,7 @@
 //! ```
 //!
 //! The map `(z, S) ↦ (z', S')` is a fixed-point iteration, accelerated by type-II Anderson
-//! acceleration with a safeguard (see [`Anderson`]): on well-posed problems it cuts the
+//! acceleration with a safeguard (`Anderson` below): on well-posed problems it cuts the
 //! iterations several-fold; on degenerate ones (I3322, whose NPA optimum is far from strictly
 //! complementary) convergence stays slow, and a run is best given a budget.
 //!
