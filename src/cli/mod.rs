@@ -44,6 +44,8 @@ struct Stderr {
     quiet: bool,
     progress: bool,
     last: Mutex<Instant>,
+    /// Whether a solver progress line is on the terminal, to be cleared when it finishes.
+    solver_line: std::sync::atomic::AtomicBool,
 }
 
 impl Stderr {
@@ -52,6 +54,7 @@ impl Stderr {
             quiet: invocation.quiet,
             progress: !invocation.quiet && !invocation.json && std::io::stderr().is_terminal(),
             last: Mutex::new(Instant::now()),
+            solver_line: std::sync::atomic::AtomicBool::new(false),
         }
     }
 }
@@ -83,6 +86,8 @@ impl Observer for Stderr {
     }
 
     fn solver_progress(&self, stage: &str, report: &IterationReport) {
+        self.solver_line
+            .store(true, std::sync::atomic::Ordering::Relaxed);
         eprint!(
             "\r{stage}: iteration {}, bound so far {:.9}, residual {:.1e}, {}   ",
             report.iteration,
@@ -90,6 +95,15 @@ impl Observer for Stderr {
             report.residual,
             human_seconds(report.seconds)
         );
+    }
+
+    fn solver_done(&self, _stage: &str) {
+        if self
+            .solver_line
+            .swap(false, std::sync::atomic::Ordering::Relaxed)
+        {
+            eprint!("\r{:100}\r", "");
+        }
     }
 }
 

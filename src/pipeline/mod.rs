@@ -61,6 +61,8 @@ pub trait Observer: Sync {
     /// An iterative solver's progress on `stage` (e.g. "NPA level 5"): iterations so far and
     /// the verified bound of its current point.
     fn solver_progress(&self, _stage: &str, _report: &IterationReport) {}
+    /// The iterative solver on `stage` has finished (a progress line may be cleared).
+    fn solver_done(&self, _stage: &str) {}
 }
 
 /// An observer that ignores everything.
@@ -385,7 +387,9 @@ fn npa_observed(
             .then_some(&report as &(dyn Fn(&IterationReport) + Sync)),
         warm_start: None,
     };
-    npa::solve_relaxation(relaxation, options, &control, build_seconds)
+    let solved = npa::solve_relaxation(relaxation, options, &control, build_seconds);
+    observer.solver_done(&stage);
+    solved
 }
 
 /// A heads-up before a see-saw estimated to take long (a rule of thumb, see
