@@ -211,6 +211,12 @@ pub enum SolveStatus {
 }
 
 impl SolveStatus {
+    /// Whether the solver reached its tolerances (solved or almost solved), as opposed to
+    /// stopping at a limit or failing.
+    pub fn converged(self) -> bool {
+        matches!(self, SolveStatus::Solved | SolveStatus::AlmostSolved)
+    }
+
     /// The name used in JSON and text output.
     pub fn name(self) -> &'static str {
         match self {

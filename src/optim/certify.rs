@@ -98,11 +98,8 @@ impl Assembled {
     /// callers keep whichever of the two vectors proves the smaller bound. `None` when the
     /// supports overlap.
     pub fn without_residual(&self, z: &[f64]) -> Option<Vec<f64>> {
-        let mut used = vec![false; self.a.m];
-        for &r in &self.a.rowval {
-            if std::mem::replace(&mut used[r], true) {
-                return None;
-            }
+        if !self.columns_disjoint() {
+            return None;
         }
         let mut out = z.to_vec();
         for j in 0..self.a.n {
@@ -120,6 +117,32 @@ impl Assembled {
             }
         }
         Some(out)
+    }
+}
+
+impl Assembled {
+    /// Whether the columns of `A` have pairwise disjoint supports (every row holds at most one
+    /// variable), as a full NPA problem's do.
+    pub fn columns_disjoint(&self) -> bool {
+        let mut used = vec![false; self.a.m];
+        self.a
+            .rowval
+            .iter()
+            .all(|&r| !std::mem::replace(&mut used[r], true))
+    }
+
+    /// The smaller of the verified bounds of `z` and of `z` moved onto the residual-free
+    /// subspace ([`Assembled::without_residual`], when the columns are disjoint), with the
+    /// vector that proves it.
+    pub fn best_certified_bound(&self, z: &[f64]) -> Result<(f64, Vec<f64>)> {
+        let mut best = (self.certified_bound(z)?, z.to_vec());
+        if let Some(moved) = self.without_residual(z) {
+            let bound = self.certified_bound(&moved)?;
+            if bound < best.0 {
+                best = (bound, moved);
+            }
+        }
+        Ok(best)
     }
 }
 

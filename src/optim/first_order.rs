@@ -177,13 +177,7 @@ impl Normal {
                     .sum()
             })
             .collect();
-        let mut used = vec![false; asm.a.m];
-        let disjoint = asm
-            .a
-            .rowval
-            .iter()
-            .all(|&r| !std::mem::replace(&mut used[r], true));
-        if disjoint {
+        if asm.columns_disjoint() {
             Normal::Diagonal(diagonal)
         } else {
             Normal::Iterative(diagonal)
@@ -345,37 +339,24 @@ fn spectral_part(values: &[f64], vectors: &Mat<f64>, chosen: &[usize], par: Par)
     part
 }
 
-/// Writes the PSD part of `v` to `plus` and `minus = plus − v` (the PSD part of −v) from its
-/// eigendecomposition; the smaller of the two spectral parts is multiplied out and the other
-/// follows by difference.
-fn split_from_eigen(
-    v: &[f64],
-    values: &[f64],
-    vectors: &Mat<f64>,
-    par: Par,
-    plus: &mut [f64],
-    minus: &mut [f64],
-) {
-    let positive: Vec<usize> = (0..values.len()).filter(|&i| values[i] > 0.0).collect();
-    let negative: Vec<usize> = (0..values.len()).filter(|&i| values[i] < 0.0).collect();
+/// Splits a symmetric `v` (scaled upper triangle) into its PSD part, written to `plus`, and
+/// `minus = plus − v` (the PSD part of −v), by one eigendecomposition; the smaller of the two
+/// spectral parts is multiplied out and the other follows by difference.
+fn split_psd(v: &[f64], n: usize, par: Par, plus: &mut [f64], minus: &mut [f64]) -> Result<()> {
+    let (values, vectors) = eigen(v, n, par)?;
+    let positive: Vec<usize> = (0..n).filter(|&i| values[i] > 0.0).collect();
+    let negative: Vec<usize> = (0..n).filter(|&i| values[i] < 0.0).collect();
     if positive.len() <= negative.len() {
-        pack(&spectral_part(values, vectors, &positive, par), plus);
+        pack(&spectral_part(&values, &vectors, &positive, par), plus);
         for k in 0..v.len() {
             minus[k] = plus[k] - v[k];
         }
     } else {
-        pack(&spectral_part(values, vectors, &negative, par), minus);
+        pack(&spectral_part(&values, &vectors, &negative, par), minus);
         for k in 0..v.len() {
             plus[k] = v[k] + minus[k];
         }
     }
-}
-
-/// Splits a symmetric `v` (scaled upper triangle) into its PSD part, written to `plus`, and
-/// `minus = plus − v` (the PSD part of −v), by one eigendecomposition.
-fn split_psd(v: &[f64], n: usize, par: Par, plus: &mut [f64], minus: &mut [f64]) -> Result<()> {
-    let (values, vectors) = eigen(v, n, par)?;
-    split_from_eigen(v, &values, &vectors, par, plus, minus);
     Ok(())
 }
 
@@ -423,19 +404,6 @@ fn split_cone(layout: &Layout, v: &[f64], plus: &mut [f64], minus: &mut [f64]) -
         })
         .collect::<Result<Vec<()>>>()?;
     Ok(())
-}
-
-/// The verified bound of `z`, also tried moved onto the residual-free subspace when the
-/// columns are disjoint; returns the better bound and its vector.
-fn verified(asm: &Assembled, z: &[f64]) -> Result<(f64, Vec<f64>)> {
-    let mut best = (asm.certified_bound(z)?, z.to_vec());
-    if let Some(moved) = asm.without_residual(z) {
-        let bound = asm.certified_bound(&moved)?;
-        if bound < best.0 {
-            best = (bound, moved);
-        }
-    }
-    Ok(best)
 }
 
 /// Anderson acceleration's memory (past iterates kept).
@@ -595,16 +563,20 @@ impl Anderson {
             return plain;
         }
         // γ = argmin ‖f − ΔF γ‖ by the normal equations, lightly regularised.
-        let mut gram = self.gram.clone();
-        let rhs: Vec<f64> = self.df.iter().map(|d| dot(d, f)).collect();
-        let trace: f64 = (0..k).map(|i| gram[i][i]).sum();
+        let rhs = nalgebra::DVector::from_iterator(k, self.df.iter().map(|d| dot(d, f)));
+        let mut gram = nalgebra::DMatrix::from_fn(k, k, |i, j| self.gram[i][j]);
+        let trace = gram.trace();
         if trace.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater) || !trace.is_finite() {
             return plain;
         }
-        for (i, row) in gram.iter_mut().enumerate() {
-            row[i] += 1e-10 * trace;
+        for i in 0..k {
+            gram[(i, i)] += 1e-10 * trace;
         }
-        let Some(gamma) = solve_small(gram, rhs) else {
+        let Some(gamma) = gram
+            .lu()
+            .solve(&rhs)
+            .filter(|g| g.iter().all(|v| v.is_finite()))
+        else {
             return plain;
         };
         let mut out = plain;
@@ -615,33 +587,6 @@ impl Anderson {
         }
         out
     }
-}
-
-/// Gaussian elimination with partial pivoting on a small dense system.
-fn solve_small(mut a: Vec<Vec<f64>>, mut b: Vec<f64>) -> Option<Vec<f64>> {
-    let k = b.len();
-    for c in 0..k {
-        let p = (c..k).max_by(|&i, &j| a[i][c].abs().total_cmp(&a[j][c].abs()))?;
-        if a[p][c].abs() < 1e-300 {
-            return None;
-        }
-        a.swap(c, p);
-        b.swap(c, p);
-        for r in c + 1..k {
-            let factor = a[r][c] / a[c][c];
-            let pivot_row = a[c].clone();
-            for (x, p) in a[r][c..].iter_mut().zip(&pivot_row[c..]) {
-                *x -= factor * p;
-            }
-            b[r] -= factor * b[c];
-        }
-    }
-    let mut x = vec![0.0; k];
-    for r in (0..k).rev() {
-        let s: f64 = (r + 1..k).map(|c| a[r][c] * x[c]).sum();
-        x[r] = (b[r] - s) / a[r][r];
-    }
-    x.iter().all(|v| v.is_finite()).then_some(x)
 }
 
 /// Solves `problem` by the first-order method (see the module notes). `warm_start` starts from a
@@ -728,7 +673,7 @@ pub fn solve(
         }
         if let Some(report) = progress {
             if last_report.elapsed().as_secs_f64() >= options.report_every_seconds {
-                let (bound, _) = verified(&asm, &z_in_cone)?;
+                let (bound, _) = asm.best_certified_bound(&z_in_cone)?;
                 report(&IterationReport {
                     iteration,
                     primal: last.primal,
@@ -771,7 +716,7 @@ pub fn solve(
         fallback = Some((tx.clone(), f_norm));
         x = next;
     }
-    let (certified, z) = verified(&asm, &z_in_cone)?;
+    let (certified, z) = asm.best_certified_bound(&z_in_cone)?;
     let primal = problem.primal_value(&admm.y);
     Ok(SdpSolution {
         primal,

@@ -128,6 +128,18 @@ impl SdpProblem {
                 .sum::<f64>()
     }
 
+    /// Rows of the conic form ([`SdpProblem::assemble`]): equalities, inequalities and each
+    /// block's upper triangle; the length of every dual vector.
+    pub fn conic_rows(&self) -> usize {
+        self.equalities.len()
+            + self.inequalities.len()
+            + self
+                .blocks
+                .iter()
+                .map(|b| b.size * (b.size + 1) / 2)
+                .sum::<usize>()
+    }
+
     /// The problem in conic form (the layout of every backend's dual vector).
     pub fn assemble(&self) -> Assembled {
         let (mut rows, mut cols, mut vals, mut b) =

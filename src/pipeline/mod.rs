@@ -348,11 +348,11 @@ const LONG_NPA_SECONDS: f64 = 30.0;
 /// method's progress (iterations, bound so far) passed to `observer`.
 fn npa_observed(
     relaxation: &npa::Relaxation,
+    est: &npa::NpaEstimate,
     options: &NpaOptions,
     build_seconds: f64,
     observer: &dyn Observer,
 ) -> Result<NpaBound> {
-    let est = npa::estimate_for(relaxation, options.backend);
     let stage = format!("NPA level {}", relaxation.level);
     if est.seconds > LONG_NPA_SECONDS {
         let planned = if est.solver == Backend::FirstOrder {
@@ -501,9 +501,9 @@ pub fn bounds<'a>(
                 limits: options.limits,
             };
             let start = std::time::Instant::now();
-            let solved = npa::sized_relaxation(s, &npa_options).and_then(|(relaxation, _)| {
+            let solved = npa::sized_relaxation(s, &npa_options).and_then(|(relaxation, est)| {
                 let build_seconds = start.elapsed().as_secs_f64();
-                npa_observed(&relaxation, &npa_options, build_seconds, observer)
+                npa_observed(&relaxation, &est, &npa_options, build_seconds, observer)
             });
             match solved {
                 Ok(b) => r.npa = Some(b),
@@ -584,12 +584,13 @@ pub fn npa_levels<'a>(
                 first_order: options.first_order,
                 limits: options.limits,
             };
-            npa::sized_relaxation(s, &at).map(|(r, _)| (r, at, start.elapsed().as_secs_f64()))
+            npa::sized_relaxation(s, &at)
+                .map(|(r, est)| (r, est, at, start.elapsed().as_secs_f64()))
         })
         .collect::<Result<Vec<_>>>()?;
     let mut bounds = Vec::new();
-    for (relaxation, at, build_seconds) in &relaxations {
-        match npa_observed(relaxation, at, *build_seconds, observer) {
+    for (relaxation, est, at, build_seconds) in &relaxations {
+        match npa_observed(relaxation, est, at, *build_seconds, observer) {
             Ok(b) => bounds.push(b),
             Err(e) if options.levels.len() > 1 => r
                 .not_obtained

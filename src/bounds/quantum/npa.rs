@@ -579,9 +579,7 @@ pub fn estimate_for(r: &Relaxation, solver: Backend) -> NpaEstimate {
         None => &r.problem,
     };
     let sides = problem.blocks.iter().map(|b| b.size as f64);
-    let rows: f64 = problem.equalities.len() as f64
-        + problem.inequalities.len() as f64
-        + sides.clone().map(|n| n * (n + 1.0) / 2.0).sum::<f64>();
+    let rows = problem.conic_rows() as f64;
     let first_order_seconds = FIRST_ORDER_PLANNED_ITERATIONS
         * (FIRST_ORDER_SECONDS_PER_CUBE * sides.clone().map(|n| n.powi(3)).sum::<f64>()
             + FIRST_ORDER_SECONDS_PER_ROW * rows);
@@ -659,7 +657,7 @@ impl NpaBound {
     /// Whether the solver reached its tolerances (solved or almost solved), as opposed to
     /// stopping at an iteration or time limit with only its verified bound to show.
     pub fn converged(&self) -> bool {
-        matches!(self.status, SolveStatus::Solved | SolveStatus::AlmostSolved)
+        self.status.converged()
     }
 }
 
@@ -750,13 +748,7 @@ pub fn solve_relaxation(
     };
     let sol = match solver {
         Backend::FirstOrder => {
-            let rows = problem.equalities.len()
-                + problem.inequalities.len()
-                + problem
-                    .blocks
-                    .iter()
-                    .map(|b| b.size * (b.size + 1) / 2)
-                    .sum::<usize>();
+            let rows = problem.conic_rows();
             // A start from another problem (another level, or the full problem when this one
             // is reduced) is ignored.
             let warm = control.warm_start.and_then(|w| {
@@ -784,7 +776,7 @@ pub fn solve_relaxation(
         Some(red) => lift(r, red, sol)?,
         None => sol,
     };
-    let converged = matches!(sol.status, SolveStatus::Solved | SolveStatus::AlmostSolved);
+    let converged = sol.status.converged();
     Ok(NpaBound {
         level: r.level.clone(),
         // A run stopped early has no dual value worth the name: only the verified bound.
@@ -812,17 +804,9 @@ fn lift(r: &Relaxation, red: &Reduction, reduced: SdpSolution) -> Result<SdpSolu
     let y = red.lift_primal(&reduced.y);
     let z = red.lift_dual(r.matrix.size(), &reduced.z);
     let assembled = r.problem.assemble();
-    let mut certified = assembled.certified_bound(&z)?;
     // The averaged dual's residual is at the solver's accuracy but summed over every moment of
     // the full problem; the same dual moved onto the residual-free subspace often proves more.
-    let mut z = z;
-    if let Some(moved) = assembled.without_residual(&z) {
-        let bound = assembled.certified_bound(&moved)?;
-        if bound < certified {
-            certified = bound;
-            z = moved;
-        }
-    }
+    let (certified, z) = assembled.best_certified_bound(&z)?;
     Ok(SdpSolution {
         primal: r.problem.primal_value(&y),
         dual: assembled.dual_value(&z),
