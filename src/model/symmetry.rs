@@ -575,6 +575,97 @@ pub fn symmetries(s: &Scenario) -> Option<SymmetryGroup> {
     })
 }
 
+/// Largest table (entries) and most Collins–Gisin coordinates for which the value is put in
+/// its canonical form modulo no-signalling ([`no_signalling_canonical`]).
+pub const MAX_CANONICAL_ENTRIES: usize = 1 << 16;
+/// See [`MAX_CANONICAL_ENTRIES`].
+pub const MAX_CANONICAL_COORDINATES: usize = 2000;
+
+/// The game's value as a function on no-signalling behaviours, as a table that relabellings
+/// permute: two tables give the same value on every no-signalling behaviour (up to a
+/// constant) exactly when their canonical tables are equal.
+///
+/// The span V of the no-signalling behaviours is invariant under every relabelling, so the
+/// orthogonal projection onto V commutes with them; V is the image of the Collins–Gisin
+/// parametrisation `M` (a basis, so `MᵀM` is positive definite), and the projection of the
+/// weighted table `f` is `M (MᵀM)⁻¹ Mᵀ f`. The all-ones table lies in V and is invariant, so
+/// the projection's mean is removed too (a constant on every behaviour). Entries are rounded to
+/// 2⁻³⁶ of the largest so that rounding error cannot split equal values (a missed or spurious
+/// symmetry only changes how the NPA problem is reduced; its bound is checked in full).
+/// `None` when the table is too large or the value is constant.
+pub fn no_signalling_canonical(s: &Scenario) -> Option<Scenario> {
+    use super::collins_gisin::CollinsGisin;
+    let (nq, na) = (s.joint_questions(), s.joint_answers());
+    let cg = CollinsGisin::new(s);
+    let d = cg.variables + 1;
+    if nq.saturating_mul(na) > MAX_CANONICAL_ENTRIES || d > MAX_CANONICAL_COORDINATES {
+        return None;
+    }
+    let (qr, ar) = (s.question_radices(), s.answer_radices());
+    let (mut qd, mut ad) = (vec![0; qr.len()], vec![0; ar.len()]);
+    let mut terms = Vec::new();
+    // Rows of M: coordinate 0 is the constant.
+    let mut rows: Vec<Vec<(usize, f64)>> = Vec::with_capacity(nq * na);
+    for q in 0..nq {
+        digits(q, &qr, &mut qd);
+        for a in 0..na {
+            digits(a, &ar, &mut ad);
+            let constant = cg.expand(&qd, &ad, &mut terms);
+            let mut row = Vec::with_capacity(terms.len() + 1);
+            if constant != 0.0 {
+                row.push((0, constant));
+            }
+            row.extend(terms.iter().map(|&(v, c)| (v + 1, c)));
+            rows.push(row);
+        }
+    }
+    let f = s.objective();
+    let mut gram = nalgebra::DMatrix::<f64>::zeros(d, d);
+    let mut rhs = nalgebra::DVector::<f64>::zeros(d);
+    for (row, &fk) in rows.iter().zip(f) {
+        for &(i, ci) in row {
+            rhs[i] += ci * fk;
+            for &(j, cj) in row {
+                gram[(i, j)] += ci * cj;
+            }
+        }
+    }
+    let c = gram.cholesky()?.solve(&rhs);
+    let mut projected: Vec<f64> = rows
+        .iter()
+        .map(|row| row.iter().map(|&(i, ci)| ci * c[i]).sum())
+        .collect();
+    let mean = projected.iter().sum::<f64>() / projected.len() as f64;
+    projected.iter_mut().for_each(|v| *v -= mean);
+    let scale = projected.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+    if !(scale.is_finite() && scale > 0.0) {
+        return None;
+    }
+    let grid = (1u64 << 36) as f64;
+    let table: Vec<f64> = projected
+        .iter()
+        .map(|v| (v / scale * grid).round())
+        .collect();
+    Some(Scenario::from_parts(
+        s.parties().to_vec(),
+        vec![1.0; nq],
+        table,
+        0.0,
+        s.kind(),
+    ))
+}
+
+/// The relabellings that leave the game's value unchanged on every no-signalling behaviour:
+/// the symmetries of [`no_signalling_canonical`]'s table. They include the table's own
+/// ([`symmetries`]) and can be more, when the table writes a marginal one way and its image
+/// another (I3322 in Collins–Gisin form: swapping the players and every answer). These are the
+/// symmetries an NPA relaxation may be averaged over, since its value depends on the game only
+/// through the Collins–Gisin form. `None` as for [`symmetries`], or when the table is too large
+/// to put in canonical form.
+pub fn symmetries_modulo_no_signalling(s: &Scenario) -> Option<SymmetryGroup> {
+    symmetries(&no_signalling_canonical(s)?)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -28,7 +28,7 @@ use serde::{Deserialize, Serialize};
 
 use super::words::{canonical, moment_key, Projector, Word};
 use crate::model::scenario::Scenario;
-use crate::model::symmetry::{symmetries, Relabelling};
+use crate::model::symmetry::{symmetries, symmetries_modulo_no_signalling, Relabelling};
 use crate::optim::sdp::{upper_index, AffineEntry, SdpProblem};
 
 /// Most group elements averaged over; a larger group is replaced by a subgroup that fits.
@@ -206,7 +206,11 @@ pub fn reduce(
     moments: &[Word],
     problem: &SdpProblem,
 ) -> Option<Reduction> {
-    let group = symmetries(s)?;
+    // The symmetries of the value on no-signalling behaviours (which the Collins–Gisin
+    // objective sees), or the table's own when the table is too large for the canonical form.
+    let group = symmetries_modulo_no_signalling(s)
+        .filter(|g| !g.generators.is_empty())
+        .or_else(|| symmetries(s))?;
     if group.generators.is_empty() {
         return None;
     }
