@@ -82,11 +82,25 @@ fn every_symmetric_bundled_game_gives_the_same_bound_reduced() {
 
 #[test]
 fn a_game_without_symmetry_is_solved_in_full() {
-    // I3322 in the bundled form has only the identity (checked by brute force in the
-    // symmetry tests).
-    let game = load("games/i3322.yaml");
+    // Scores with no pattern: no relabelling keeps them, even modulo no-signalling.
+    let yaml = "name: lopsided\nplayers:\n  - {name: alice, question: x, answer: a, questions: 2, answers: 2}\n  - {name: bob, question: y, answer: b, questions: 2, answers: 2}\nbell:\n  terms:\n    - {coefficient: 0.9, event: {alice: \"0|0\", bob: \"0|0\"}}\n    - {coefficient: 0.3, event: {alice: \"0|0\", bob: \"1|1\"}}\n    - {coefficient: 0.7, event: {alice: \"1|1\", bob: \"0|0\"}}\n    - {coefficient: -0.2, event: {alice: \"1|1\", bob: \"1|1\"}}\n    - {coefficient: 0.45, event: {alice: \"0|1\"}}\n";
+    let game = Game::from_yaml(yaml, "lopsided", CompileOptions::default()).unwrap();
     let b = solve(&game.scenario, "2", SymmetryChoice::Auto);
     assert!(b.symmetry.is_none());
+}
+
+#[test]
+fn i3322_is_reduced_by_its_symmetries_modulo_no_signalling() {
+    // In Collins–Gisin form the table of I3322 has no symmetry, but its value on no-signalling
+    // behaviours is kept by swapping the players and flipping every answer, and by a
+    // relabelling of questions: 8 relabellings, which act on correlator words by signed
+    // permutations (see `bounds::quantum::flips`).
+    let game = load("games/i3322.yaml");
+    for level in ["2", "3"] {
+        let used = agree(&game, level).symmetry.unwrap();
+        assert_eq!(used.order, 8, "level {level}");
+        assert!(used.blocks.len() >= 2, "level {level}");
+    }
 }
 
 #[test]

@@ -4,6 +4,7 @@
 //! (entanglement) and how robust they are (noise, detection efficiency).
 
 pub mod analysis;
+mod flips;
 pub mod npa;
 pub mod seesaw;
 pub mod symmetric;

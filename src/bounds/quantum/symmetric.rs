@@ -26,6 +26,7 @@ use nalgebra::DMatrix;
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
+use super::flips::{self, CorrelatorLift, Letters};
 use super::words::{canonical, moment_key, Projector, Word};
 use crate::model::scenario::Scenario;
 use crate::model::symmetry::{symmetries, symmetries_modulo_no_signalling, Relabelling};
@@ -84,8 +85,8 @@ pub struct SymmetryUse {
 pub struct Reduction {
     /// What was reduced, for the report.
     pub summary: SymmetryUse,
-    /// Moment of the full relaxation → variable of the reduced one.
-    pub classes: Vec<usize>,
+    /// How the full moments are read from the reduced variables.
+    primal: PrimalLift,
     /// The reduced problem (same matrix, merged variables).
     pub problem: SdpProblem,
     /// Per group element, per generating word u, the expansion `g(u) = Σ ρ_uv v` as `(v, ρ_uv)`.
@@ -95,6 +96,14 @@ pub struct Reduction {
     /// Estimated flops of one Schur-complement assembly of the reduced problem (its merged
     /// variables have wider supports than single moments).
     pub assembly_flops: f64,
+}
+
+/// How a reduced solution's moments give the full problem's.
+enum PrimalLift {
+    /// Moment of the full relaxation → variable of the reduced one.
+    Classes(Vec<usize>),
+    /// Through the moment matrix in correlator words ([`flips`]).
+    Correlators(CorrelatorLift),
 }
 
 /// The image of one projector (its outcome may be the last).
@@ -235,6 +244,15 @@ pub fn reduce(
     if elements.len() < 2 {
         return None;
     }
+    let letters = Letters {
+        binary: s.parties().iter().map(|p| p.answers() == 2).collect(),
+        last: last.clone(),
+    };
+    if letters.applies(&chosen) {
+        return reduce_by_correlators(
+            &group, &letters, &elements, &chosen, words, moments, problem,
+        );
+    }
     // Classes: orbits of full-projector words through the moments.
     let mut id: HashMap<Word, usize> = HashMap::new();
     let mut parent: Vec<usize> = Vec::new();
@@ -317,11 +335,62 @@ pub fn reduce(
             moments: reduced,
             blocks: reduced_problem.blocks.iter().map(|b| b.size).collect(),
         },
-        classes,
+        primal: PrimalLift::Classes(classes),
         problem: reduced_problem,
         actions,
         bases,
         assembly_flops,
+    })
+}
+
+/// [`reduce`] through [`flips`], when the group flips two-answer measurements.
+fn reduce_by_correlators(
+    group: &crate::model::symmetry::SymmetryGroup,
+    letters: &Letters,
+    elements: &[Relabelling],
+    chosen: &[Relabelling],
+    words: &[Word],
+    moments: &[Word],
+    problem: &SdpProblem,
+) -> Option<Reduction> {
+    let index: HashMap<&Word, usize> = words.iter().enumerate().map(|(k, w)| (w, k)).collect();
+    let n = words.len();
+    let weights = (n <= MAX_SPLIT_SIDE)
+        .then(|| central_weights(elements, chosen))
+        .flatten();
+    let (reduced_problem, bases, lift, reduced) = flips::reduce(
+        letters,
+        elements,
+        chosen,
+        weights.as_deref(),
+        words,
+        problem,
+    )?;
+    // The Collins–Gisin action of every element, for the dual averaging.
+    let mut terms = 0usize;
+    let mut actions = Vec::with_capacity(elements.len());
+    for g in elements {
+        let a = action(g, words, &index, &letters.last)?;
+        terms += a.iter().map(Vec::len).sum::<usize>();
+        if terms > MAX_ACTION_TERMS {
+            return None;
+        }
+        actions.push(a);
+    }
+    Some(Reduction {
+        summary: SymmetryUse {
+            detected_order: group.order,
+            detection_complete: group.complete,
+            order: elements.len(),
+            full_moments: moments.len(),
+            moments: reduced,
+            blocks: reduced_problem.blocks.iter().map(|b| b.size).collect(),
+        },
+        assembly_flops: assembly_flops(&reduced_problem),
+        primal: PrimalLift::Correlators(lift),
+        problem: reduced_problem,
+        actions,
+        bases: Some(bases),
     })
 }
 
@@ -455,29 +524,14 @@ fn invariance(
     Some((rows, extra))
 }
 
-/// Bases of the isotypic components of the group's action on the generating words, as
-/// matrices U_k (n × n_k) such that, for every invariant moment matrix Γ, Γ ⪰ 0 iff every
-/// `U_kᵀ Γ U_k ⪰ 0`. The action ρ is not orthogonal in Collins–Gisin words, so it is made so
-/// first: with `P = |G|⁻¹ Σ_g ρ_gᵀ ρ_g = LLᵀ`, `O_g = Lᵀ ρ_g L⁻ᵀ` is orthogonal and `Γ' = LᵀΓL`
-/// commutes with it. A random combination of class sums, symmetrised, is central, so it acts
-/// as one scalar on each real isotypic component: its eigenspaces are the components, which
-/// are orthogonal and which Γ' preserves (Serre, Linear Representations of Finite Groups,
-/// 1977, §2.6; the numerical use of a random central element follows Murota et al. 2010,
-/// Japan J. Ind. Appl. Math. 27, 125–160). The split is checked on the generators; `None`
-/// when it fails or yields a single block.
-fn isotypic_bases(
+/// A weight per group element, equal on each conjugacy class and random otherwise (from a
+/// fixed generator, so results are reproducible): `Σ_g weight_g ρ(g)` is then central, and acts
+/// as one scalar on each isotypic component, different components getting different scalars
+/// with probability one. `None` when a conjugate falls outside `elements`.
+pub(super) fn central_weights(
     elements: &[Relabelling],
     generators: &[Relabelling],
-    actions: &[Vec<Vec<(u32, f64)>>],
-    n: usize,
-) -> Option<Vec<DMatrix<f64>>> {
-    let dense = |rho: &Vec<Vec<(u32, f64)>>, scale: f64, out: &mut DMatrix<f64>| {
-        for (u, row) in rho.iter().enumerate() {
-            for &(v, c) in row {
-                out[(u, v as usize)] += scale * c;
-            }
-        }
-    };
+) -> Option<Vec<f64>> {
     // Conjugacy classes, by conjugating with the generators.
     let position: HashMap<&Relabelling, usize> =
         elements.iter().enumerate().map(|(k, g)| (g, k)).collect();
@@ -512,6 +566,33 @@ fn isotypic_bases(
             1.0 + (state >> 11) as f64 / (1u64 << 53) as f64
         })
         .collect();
+    Some(class.iter().map(|&c| weights[c]).collect())
+}
+
+/// Bases of the isotypic components of the group's action on the generating words, as
+/// matrices U_k (n × n_k) such that, for every invariant moment matrix Γ, Γ ⪰ 0 iff every
+/// `U_kᵀ Γ U_k ⪰ 0`. The action ρ is not orthogonal in Collins–Gisin words, so it is made so
+/// first: with `P = |G|⁻¹ Σ_g ρ_gᵀ ρ_g = LLᵀ`, `O_g = Lᵀ ρ_g L⁻ᵀ` is orthogonal and `Γ' = LᵀΓL`
+/// commutes with it. A random combination of class sums, symmetrised, is central, so it acts
+/// as one scalar on each real isotypic component: its eigenspaces are the components, which
+/// are orthogonal and which Γ' preserves (Serre, Linear Representations of Finite Groups,
+/// 1977, §2.6; the numerical use of a random central element follows Murota et al. 2010,
+/// Japan J. Ind. Appl. Math. 27, 125–160). The split is checked on the generators; `None`
+/// when it fails or yields a single block.
+fn isotypic_bases(
+    elements: &[Relabelling],
+    generators: &[Relabelling],
+    actions: &[Vec<Vec<(u32, f64)>>],
+    n: usize,
+) -> Option<Vec<DMatrix<f64>>> {
+    let dense = |rho: &Vec<Vec<(u32, f64)>>, scale: f64, out: &mut DMatrix<f64>| {
+        for (u, row) in rho.iter().enumerate() {
+            for &(v, c) in row {
+                out[(u, v as usize)] += scale * c;
+            }
+        }
+    };
+    let weights = central_weights(elements, generators)?;
     let mut p = DMatrix::<f64>::zeros(n, n);
     let mut central = DMatrix::<f64>::zeros(n, n);
     for (k, rho) in actions.iter().enumerate() {
@@ -522,7 +603,7 @@ fn isotypic_bases(
                 }
             }
         }
-        dense(rho, weights[class[k]], &mut central);
+        dense(rho, weights[k], &mut central);
     }
     // Scaled to the group's average, so that the blocks keep the moment matrix's scale.
     p /= actions.len() as f64;
@@ -722,7 +803,10 @@ fn assembly_flops(problem: &SdpProblem) -> f64 {
 impl Reduction {
     /// The full moment vector of a reduced one.
     pub fn lift_primal(&self, y: &[f64]) -> Vec<f64> {
-        self.classes.iter().map(|&c| y[c]).collect()
+        match &self.primal {
+            PrimalLift::Classes(classes) => classes.iter().map(|&c| y[c]).collect(),
+            PrimalLift::Correlators(lift) => lift.lift(y),
+        }
     }
 
     /// The reduced problem's dual vector (layout of [`SdpProblem::assemble`], which has the
