@@ -633,7 +633,11 @@ fn schur(p: &Internal, x: &[Mat<f64>], sinv: &[Mat<f64>], xl: &[f64], sl: &[f64]
                     slot_values[k] = v;
                     continue;
                 }
-                for &(r, c, j, coef) in &p.by_block[k] {
+                // M is symmetric: the sparse part fills j ≥ i only (entries are sorted by j),
+                // and is mirrored below.
+                let entries = &p.by_block[k];
+                let from = entries.partition_point(|e| (e.2 as usize) < i);
+                for &(r, c, j, coef) in &entries[from..] {
                     let (r, c) = (r as usize, c as usize);
                     row[j as usize] += if r == c {
                         coef * g[(r, r)]
@@ -647,8 +651,9 @@ fn schur(p: &Internal, x: &[Mat<f64>], sinv: &[Mat<f64>], xl: &[f64], sl: &[f64]
         .collect();
     let mut m = Mat::<f64>::zeros(p.m, p.m);
     for (i, (row, _)) in rows.iter().enumerate() {
-        for (j, &v) in row.iter().enumerate() {
+        for (j, &v) in row.iter().enumerate().skip(i) {
             m[(i, j)] = v;
+            m[(j, i)] = v;
         }
     }
     for (k, dense) in p.dense.iter().enumerate() {

@@ -405,8 +405,11 @@ pub(super) fn reduce(
     Some((reduced_problem, bases, lift, reduced))
 }
 
+/// Columns of a basis, each as `(word, coefficient)` pairs.
+type SparseColumns = Vec<Vec<(usize, f64)>>;
+
 /// `Qᵀ Γ_c Q` for sparse columns `q`, as a block.
-fn sparse_block(gamma: &[AffineEntry], q: &[Vec<(usize, f64)>], trace_bound: f64) -> MatrixBlock {
+fn sparse_block(gamma: &[AffineEntry], q: &SparseColumns, trace_bound: f64) -> MatrixBlock {
     let nk = q.len();
     let mut upper = Vec::with_capacity(nk * (nk + 1) / 2);
     let mut acc: HashMap<usize, f64> = HashMap::new();
@@ -456,7 +459,7 @@ fn isotypic_columns(
     generators: &[Vec<(usize, f64)>],
     weights: &[f64],
     n: usize,
-) -> Option<Vec<Vec<Vec<(usize, f64)>>>> {
+) -> Option<Vec<SparseColumns>> {
     // Orbits of words.
     let mut orbit_of = vec![usize::MAX; n];
     let mut orbits: Vec<Vec<usize>> = Vec::new();
