@@ -681,6 +681,53 @@ mod tests {
         found
     }
 
+    /// The image of a deterministic strategy (`answers[player][question]`) under `g`.
+    fn relabelled_strategy(g: &Relabelling, answers: &[Vec<usize>]) -> Vec<Vec<usize>> {
+        let mut out = answers.to_vec();
+        for (i, per_question) in answers.iter().enumerate() {
+            for (x, &a) in per_question.iter().enumerate() {
+                out[g.players[i]][g.questions[i][x]] = g.answers[i][x][a];
+            }
+        }
+        out
+    }
+
+    #[test]
+    fn i3322_has_eight_symmetries_modulo_no_signalling_that_keep_every_deterministic_value() {
+        // The deterministic behaviours span the no-signalling affine space, so a relabelling
+        // keeps the value on every no-signalling behaviour iff it keeps it on each of them.
+        let g = Game::from_spec(&families::i3322(), "t").unwrap();
+        let s = &g.scenario;
+        assert_eq!(symmetries(s).unwrap().order, 1);
+        let group = symmetries_modulo_no_signalling(s).unwrap();
+        assert!(group.complete);
+        assert_eq!(group.order, 8);
+        for r in &group.generators {
+            assert!(!r.is_symmetry_of(s));
+            for k in 0..64usize {
+                let answers: Vec<Vec<usize>> = (0..2)
+                    .map(|i| (0..3).map(|x| (k >> (3 * i + x)) & 1).collect())
+                    .collect();
+                let (v, w) = (
+                    s.value_of_strategy(&answers),
+                    s.value_of_strategy(&relabelled_strategy(r, &answers)),
+                );
+                assert!((v - w).abs() < 1e-12, "{v} {w}");
+            }
+        }
+        // The table's own symmetries are among them.
+        for spec in [
+            families::chsh(),
+            families::cglmp(3).unwrap(),
+            families::mermin(),
+        ] {
+            let g = Game::from_spec(&spec, "t").unwrap();
+            let table = symmetries(&g.scenario).unwrap().order;
+            let modulo = symmetries_modulo_no_signalling(&g.scenario).unwrap().order;
+            assert!(modulo >= table && modulo % table == 0, "{table} {modulo}");
+        }
+    }
+
     /// Every permutation of 0..n.
     fn permutations(n: usize) -> Vec<Vec<usize>> {
         if n == 0 {

@@ -31,7 +31,7 @@ use crate::formats::game::Game;
 use crate::limits::{human_seconds, Limits};
 use crate::model::scenario::{Scenario, Sizes};
 use crate::model::strategy::{CertifiedValue, QuantumStrategy};
-use crate::model::symmetry::{symmetries, SymmetryGroup};
+use crate::model::symmetry::{symmetries, symmetries_modulo_no_signalling, SymmetryGroup};
 use crate::optim::backend::Backend;
 use crate::optim::first_order::{FirstOrderOptions, IterationReport};
 
@@ -102,6 +102,10 @@ pub struct GameSizes {
     /// The relabellings of players, questions and answers that leave the weighted score table
     /// unchanged (None when the table is too large to search).
     pub symmetry: Option<SymmetryGroup>,
+    /// The relabellings that leave the value unchanged on every no-signalling behaviour (a
+    /// supergroup of `symmetry`; what the NPA reduction uses). None when the table is too large
+    /// to put in canonical form.
+    pub symmetry_modulo_no_signalling: Option<SymmetryGroup>,
 }
 
 /// Everything computed for one game by `check`, `classical`, `nosignal`, `bounds`, `npa`,
@@ -321,6 +325,7 @@ pub fn check(game: &Game) -> GameReport<'_> {
         classical: ClassicalEstimate::of(s),
         value_range: s.value_range(),
         symmetry: symmetries(s),
+        symmetry_modulo_no_signalling: symmetries_modulo_no_signalling(s),
     });
     r
 }

@@ -193,6 +193,9 @@ struct GameReportView<'a> {
     /// With sizes: the symmetry group (null when the table is too large to search).
     #[serde(skip_serializing_if = "Option::is_none")]
     symmetry: Option<Option<SymmetryView<'a>>>,
+    /// With sizes: the relabellings that keep the value on no-signalling behaviours.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    symmetry_modulo_no_signalling: Option<Option<SymmetryView<'a>>>,
     /// The exact classical value; an incumbent goes under `classical_lower` only.
     #[serde(skip_serializing_if = "Option::is_none")]
     classical: Option<f64>,
@@ -274,6 +277,11 @@ impl<'a> GameReportView<'a> {
                 .sizes
                 .as_ref()
                 .map(|z| z.symmetry.as_ref().map(|g| SymmetryView::of(s, g))),
+            symmetry_modulo_no_signalling: r.sizes.as_ref().map(|z| {
+                z.symmetry_modulo_no_signalling
+                    .as_ref()
+                    .map(|g| SymmetryView::of(s, g))
+            }),
             classical: exact(ClassicalStatus::Exact),
             classical_lower: exact(ClassicalStatus::Incumbent),
             classical_details: r.classical.as_ref().map(|c| ClassicalDetailsView {

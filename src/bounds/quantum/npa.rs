@@ -692,6 +692,15 @@ pub fn sized_relaxation(s: &Scenario, options: &NpaOptions) -> Result<(Relaxatio
     let mut r = relaxation(s, level)?;
     if options.symmetry == SymmetryChoice::Auto {
         r.reduction = symmetric::reduce(s, &r.matrix.words, &r.matrix.moments, &r.problem);
+        // A reduction that the estimate says costs more than the full problem (few symmetries,
+        // wide merged variables) is not used.
+        if let Some(red) = r.reduction.take() {
+            let full = estimate_for(&r, solver).seconds;
+            r.reduction = Some(red);
+            if estimate_for(&r, solver).seconds > full {
+                r.reduction = None;
+            }
+        }
     }
     let est = estimate_for(&r, solver);
     if !force && (est.seconds > SECONDS_LIMIT || est.memory_bytes > MEMORY_LIMIT) {
