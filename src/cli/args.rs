@@ -16,7 +16,7 @@ The moment matrix grows quickly with the level (roughly (questions·(answers−1
 
 const SYMMETRY_HELP: &str = "Reduce the NPA relaxation by the game's symmetries.
 
-`auto` (default): find the relabellings of players, questions and answers that leave the weighted score table unchanged (as `check` reports them), merge the moments that the group maps onto each other, and solve the smaller problem. The value is the same as without the reduction. The verified bound does not rely on it: the smaller problem's dual is averaged over the group and checked on the full problem, and a saved certificate is in the full problem's format. A game without symmetry, or a level whose words a symmetry does not preserve, is solved in full.
+`auto` (default): find the relabellings of players, questions and answers that leave the game's value unchanged on every no-signalling behaviour (as `check` reports them: the table's own symmetries and, for example, flips of answers that the table writes differently but that give the same value), merge the moments that the group maps onto each other, and solve the smaller problem. The value is the same as without the reduction. The verified bound does not rely on it: the smaller problem's dual is averaged over the group and checked on the full problem, and a saved certificate is in the full problem's format. A game without symmetry, a level whose words a symmetry does not preserve, or a reduction estimated to cost more than the full problem, is solved in full.
 
 `off`: always solve the full relaxation.";
 
