@@ -158,6 +158,50 @@ fn expand(g: &Relabelling, w: &[Projector], last: &[u32]) -> Option<Vec<(Word, f
     Some(merged.into_iter().filter(|(_, c)| *c != 0.0).collect())
 }
 
+/// A group element's action on the generating words: per word u, `g(u) = Σ ρ_uv v` as `(v, ρ_uv)`.
+type Action = Vec<Vec<(u32, f64)>>;
+
+/// The action of every element ([`action`]), or `None` when one leaves the span or the whole
+/// table would exceed [`MAX_ACTION_TERMS`] (a smaller subgroup would have been needed, which is
+/// rare enough to simply not reduce).
+fn element_actions(
+    elements: &[Relabelling],
+    words: &[Word],
+    index: &HashMap<&Word, usize>,
+    last: &[u32],
+) -> Option<Vec<Action>> {
+    let mut terms = 0usize;
+    let mut actions = Vec::with_capacity(elements.len());
+    for g in elements {
+        let a = action(g, words, index, last)?;
+        terms += a.iter().map(Vec::len).sum::<usize>();
+        if terms > MAX_ACTION_TERMS {
+            return None;
+        }
+        actions.push(a);
+    }
+    Some(actions)
+}
+
+impl SymmetryUse {
+    fn of(
+        group: &crate::model::symmetry::SymmetryGroup,
+        order: usize,
+        full_moments: usize,
+        moments: usize,
+        reduced: &SdpProblem,
+    ) -> SymmetryUse {
+        SymmetryUse {
+            detected_order: group.order,
+            detection_complete: group.complete,
+            order,
+            full_moments,
+            moments,
+            blocks: reduced.blocks.iter().map(|b| b.size).collect(),
+        }
+    }
+}
+
 /// The action of `g` on the generating words, or `None` when it leaves their span.
 fn action(
     g: &Relabelling,
@@ -296,16 +340,7 @@ pub fn reduce(
     }
     // The action of every element, for the dual averaging; too large a table means a smaller
     // subgroup would have been needed, which is rare enough to simply not reduce.
-    let mut terms = 0usize;
-    let mut actions = Vec::with_capacity(elements.len());
-    for g in &elements {
-        let a = action(g, words, &index, &last)?;
-        terms += a.iter().map(Vec::len).sum::<usize>();
-        if terms > MAX_ACTION_TERMS {
-            return None;
-        }
-        actions.push(a);
-    }
+    let actions = element_actions(&elements, words, &index, &last)?;
     let merged = merge(problem, &classes, reduced);
     let n = words.len();
     let split = (n <= MAX_SPLIT_SIDE
@@ -327,14 +362,13 @@ pub fn reduce(
     };
     let assembly_flops = assembly_flops(&reduced_problem);
     Some(Reduction {
-        summary: SymmetryUse {
-            detected_order: group.order,
-            detection_complete: group.complete,
-            order: elements.len(),
-            full_moments: moments.len(),
-            moments: reduced,
-            blocks: reduced_problem.blocks.iter().map(|b| b.size).collect(),
-        },
+        summary: SymmetryUse::of(
+            &group,
+            elements.len(),
+            moments.len(),
+            reduced,
+            &reduced_problem,
+        ),
         primal: PrimalLift::Classes(classes),
         problem: reduced_problem,
         actions,
@@ -367,25 +401,15 @@ fn reduce_by_correlators(
         problem,
     )?;
     // The Collins–Gisin action of every element, for the dual averaging.
-    let mut terms = 0usize;
-    let mut actions = Vec::with_capacity(elements.len());
-    for g in elements {
-        let a = action(g, words, &index, &letters.last)?;
-        terms += a.iter().map(Vec::len).sum::<usize>();
-        if terms > MAX_ACTION_TERMS {
-            return None;
-        }
-        actions.push(a);
-    }
+    let actions = element_actions(elements, words, &index, &letters.last)?;
     Some(Reduction {
-        summary: SymmetryUse {
-            detected_order: group.order,
-            detection_complete: group.complete,
-            order: elements.len(),
-            full_moments: moments.len(),
-            moments: reduced,
-            blocks: reduced_problem.blocks.iter().map(|b| b.size).collect(),
-        },
+        summary: SymmetryUse::of(
+            group,
+            elements.len(),
+            moments.len(),
+            reduced,
+            &reduced_problem,
+        ),
         assembly_flops: assembly_flops(&reduced_problem),
         primal: PrimalLift::Correlators(lift),
         problem: reduced_problem,
