@@ -87,6 +87,11 @@ impl Assembled {
                 + gamma(residual.len() + 1) * slack
                 + gamma(z.len() + 1) * zb_magnitude
                 + gamma(5) * (self.objective_constant.abs() + zb.abs() + slack + cone_charge));
+        if std::env::var_os("BELLGAP_CERT_TRACE").is_some() {
+            eprintln!(
+                "cert zb {zb:.12} slack {slack:.3e} cone {cone_charge:.3e} rounding {rounding:.3e}"
+            );
+        }
         Ok(self.objective_constant + zb + slack + cone_charge + rounding)
     }
 }
