@@ -602,3 +602,23 @@ fn first_order_solver_and_its_budget() {
         );
     }
 }
+
+#[test]
+fn check_reports_the_symmetries_modulo_no_signalling() {
+    // I3322 in Collins–Gisin form: no symmetry of the table, 8 of its value on no-signalling
+    // behaviours (each checked on every deterministic strategy in `model::symmetry`'s tests).
+    let j = json_of(&bellgap(&["check", "games/i3322.yaml", "--json"]));
+    assert_eq!(j["symmetry"]["order"], 1);
+    assert_eq!(j["symmetry_modulo_no_signalling"]["order"], 8);
+    assert_eq!(j["symmetry_modulo_no_signalling"]["complete"], true);
+    let generators = j["symmetry_modulo_no_signalling"]["generators"]
+        .as_array()
+        .unwrap();
+    assert!(!generators.is_empty());
+    let text = String::from_utf8_lossy(&bellgap(&["check", "games/i3322.yaml"]).stdout).to_string();
+    assert!(text.contains("order 8 modulo no-signalling"), "{text}");
+    assert!(text.contains("generator 1 modulo no-signalling"), "{text}");
+    // When the group is no larger than the table's own, the text adds nothing.
+    let text = String::from_utf8_lossy(&bellgap(&["check", "games/chsh.yaml"]).stdout).to_string();
+    assert!(!text.contains("modulo no-signalling"), "{text}");
+}

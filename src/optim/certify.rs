@@ -123,9 +123,7 @@ impl Assembled {
         }
         Some(out)
     }
-}
 
-impl Assembled {
     /// Whether the columns of `A` have pairwise disjoint supports (every row holds at most one
     /// variable), as a full NPA problem's do.
     pub fn columns_disjoint(&self) -> bool {

@@ -108,6 +108,16 @@ pub struct GameSizes {
     pub symmetry_modulo_no_signalling: Option<SymmetryGroup>,
 }
 
+impl GameSizes {
+    /// The group modulo no-signalling when it is larger than the table's own (what a report
+    /// adds to the table's group; `None` when it says nothing more).
+    pub fn wider_symmetry(&self) -> Option<&SymmetryGroup> {
+        self.symmetry_modulo_no_signalling
+            .as_ref()
+            .filter(|g| self.symmetry.as_ref().is_none_or(|t| t.order != g.order))
+    }
+}
+
 /// Everything computed for one game by `check`, `classical`, `nosignal`, `bounds`, `npa`,
 /// `seesaw` or `evaluate`: each bound that was obtained, the bounds that could not be (with the
 /// reason, never replaced by a number), and how reported bounds were reconciled.

@@ -106,18 +106,15 @@ pub fn game_report(r: &GameReport) -> String {
                 ),
             },
         ));
-        // Only when it says more than the table's own group.
-        if let Some(g) = &sizes.symmetry_modulo_no_signalling {
-            if sizes.symmetry.as_ref().is_none_or(|t| t.order != g.order) {
-                rows.push((
-                    "  no-signalling".into(),
-                    format!(
-                        "order {}{} modulo no-signalling (relabellings that keep the value on every no-signalling behaviour; the NPA reduction uses these)",
-                        if g.complete { "" } else { "≥ " },
-                        g.order
-                    ),
-                ));
-            }
+        if let Some(g) = sizes.wider_symmetry() {
+            rows.push((
+                "  no-signalling".into(),
+                format!(
+                    "order {}{} modulo no-signalling (relabellings that keep the value on every no-signalling behaviour; the NPA reduction uses these)",
+                    if g.complete { "" } else { "≥ " },
+                    g.order
+                ),
+            ));
         }
     }
     if let Some(c) = &r.classical {
@@ -261,17 +258,13 @@ pub fn game_report(r: &GameReport) -> String {
             );
         }
     }
-    if let Some(z) = &r.sizes {
-        if let Some(g) = &z.symmetry_modulo_no_signalling {
-            if z.symmetry.as_ref().is_none_or(|t| t.order != g.order) {
-                for (k, generator) in g.generators.iter().enumerate() {
-                    out += &format!(
-                        "  generator {} modulo no-signalling: {}\n",
-                        k + 1,
-                        relabelling_text(s, generator)
-                    );
-                }
-            }
+    if let Some(g) = r.sizes.as_ref().and_then(|z| z.wider_symmetry()) {
+        for (k, generator) in g.generators.iter().enumerate() {
+            out += &format!(
+                "  generator {} modulo no-signalling: {}\n",
+                k + 1,
+                relabelling_text(s, generator)
+            );
         }
     }
     for f in &r.not_obtained {

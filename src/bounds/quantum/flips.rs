@@ -28,7 +28,7 @@ use std::collections::HashMap;
 
 use nalgebra::DMatrix;
 
-use super::words::{adjoint, canonical, moment_key, Projector, Word};
+use super::words::{adjoint, canonical, canonical_with, moment_key, Projector, Word};
 use crate::model::symmetry::Relabelling;
 use crate::optim::sdp::{upper_index, AffineEntry, MatrixBlock, SdpProblem};
 
@@ -70,25 +70,7 @@ impl Letters {
     /// Canonical form of a product of correlator letters (two-answer players, `A² = 1`) and
     /// projectors (the others); `None` when zero.
     fn canonical(&self, ops: impl IntoIterator<Item = Projector>) -> Option<Word> {
-        let mut ops: Vec<Projector> = ops.into_iter().collect();
-        ops.sort_by_key(|p| p.player);
-        let mut out: Word = Vec::with_capacity(ops.len());
-        for p in ops {
-            if let Some(top) = out.last() {
-                if top.player == p.player && top.setting == p.setting {
-                    if self.binary[p.player as usize] {
-                        out.pop();
-                        continue;
-                    }
-                    if top.outcome == p.outcome {
-                        continue;
-                    }
-                    return None;
-                }
-            }
-            out.push(p);
-        }
-        Some(out)
+        canonical_with(ops, &self.binary)
     }
 
     /// `g(w)` for a correlator word, as `(word, sign)`; `None` when a projector is sent to a
@@ -207,16 +189,19 @@ impl CorrelatorLift {
 
 /// The reduced problem in correlator words (split into isotypic blocks when the action has
 /// more than one type), the bases `U_k` that carry its blocks' dual back to the Collins–Gisin
-/// side, and the primal lift. `None` when a word or moment leaves the level under the action
-/// (the caller then keeps the Collins–Gisin construction), or the problem is not one block.
+/// side, and the primal lift; `index` maps each generating word to its position. `None` when a
+/// word or moment leaves the level under the action, or the problem is not one block (the
+/// relaxation is then solved in full: the Collins–Gisin construction would need the equations
+/// this one avoids).
 pub(super) fn reduce(
     letters: &Letters,
     elements: &[Relabelling],
     generators: &[Relabelling],
     weights: Option<&[f64]>,
     words: &[Word],
+    index: &HashMap<&Word, usize>,
     problem: &SdpProblem,
-) -> Option<(SdpProblem, Vec<DMatrix<f64>>, CorrelatorLift, usize)> {
+) -> Option<(SdpProblem, Vec<DMatrix<f64>>, CorrelatorLift)> {
     if problem.blocks.len() != 1
         || !problem.equalities.is_empty()
         || !problem.inequalities.is_empty()
@@ -224,7 +209,6 @@ pub(super) fn reduce(
         return None;
     }
     let n = words.len();
-    let index: HashMap<&Word, usize> = words.iter().enumerate().map(|(k, w)| (w, k)).collect();
     let lookup = |terms: Vec<(Word, f64)>| -> Option<Vec<(usize, f64)>> {
         terms
             .into_iter()
@@ -402,7 +386,7 @@ pub(super) fn reduce(
         // Correlator moments are expectations of contractions.
         variable_bound: problem.variable_bound.max(1.0),
     };
-    Some((reduced_problem, bases, lift, reduced))
+    Some((reduced_problem, bases, lift))
 }
 
 /// Columns of a basis, each as `(word, coefficient)` pairs.

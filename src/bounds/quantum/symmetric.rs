@@ -19,6 +19,12 @@
 //! positive semidefinite and makes the full problem's dual residual vanish up to the solver's
 //! accuracy; the bound is then [`crate::optim::sdp::Assembled::certified_bound`] of Z̄ on the
 //! *full* problem, every residual charged, and the certificate is saved in the full format.
+//!
+//! The group is the one that keeps the value on no-signalling behaviours
+//! ([`crate::model::symmetry::symmetries_modulo_no_signalling`]). When it flips the answers of
+//! two-answer measurements the classes below would need many equations; the private `flips`
+//! module builds the reduction in correlator words instead, where the same group permutes
+//! words up to sign.
 
 use std::collections::{HashMap, HashSet, VecDeque};
 
@@ -87,7 +93,8 @@ pub struct Reduction {
     pub summary: SymmetryUse,
     /// How the full moments are read from the reduced variables.
     primal: PrimalLift,
-    /// The reduced problem (same matrix, merged variables).
+    /// The reduced problem (merged variables; split into blocks, and in correlator words when
+    /// the group flips two-answer measurements).
     pub problem: SdpProblem,
     /// Per group element, per generating word u, the expansion `g(u) = Σ ρ_uv v` as `(v, ρ_uv)`.
     actions: Vec<Vec<Vec<(u32, f64)>>>,
@@ -260,7 +267,8 @@ pub fn reduce(
     problem: &SdpProblem,
 ) -> Option<Reduction> {
     // The symmetries of the value on no-signalling behaviours (which the Collins–Gisin
-    // objective sees), or the table's own when the table is too large for the canonical form.
+    // objective sees), or the table's own when the table is too large for the canonical form or
+    // its rounding hid them (the canonical group contains the table's in exact arithmetic).
     let group = symmetries_modulo_no_signalling(s)
         .filter(|g| !g.generators.is_empty())
         .or_else(|| symmetries(s))?;
@@ -293,9 +301,35 @@ pub fn reduce(
         last: last.clone(),
     };
     if letters.applies(&chosen) {
-        return reduce_by_correlators(
-            &group, &letters, &elements, &chosen, words, moments, problem,
-        );
+        // Through correlator words, where the group permutes words up to sign ([`flips`]).
+        let weights = (words.len() <= MAX_SPLIT_SIDE)
+            .then(|| central_weights(&elements, &chosen))
+            .flatten();
+        let (reduced_problem, bases, lift) = flips::reduce(
+            &letters,
+            &elements,
+            &chosen,
+            weights.as_deref(),
+            words,
+            &index,
+            problem,
+        )?;
+        // The Collins–Gisin action of every element, for the dual averaging.
+        let actions = element_actions(&elements, words, &index, &last)?;
+        return Some(Reduction {
+            summary: SymmetryUse::of(
+                &group,
+                elements.len(),
+                moments.len(),
+                reduced_problem.variables,
+                &reduced_problem,
+            ),
+            assembly_flops: assembly_flops(&reduced_problem),
+            primal: PrimalLift::Correlators(lift),
+            problem: reduced_problem,
+            actions,
+            bases: Some(bases),
+        });
     }
     // Classes: orbits of full-projector words through the moments.
     let mut id: HashMap<Word, usize> = HashMap::new();
@@ -374,47 +408,6 @@ pub fn reduce(
         actions,
         bases,
         assembly_flops,
-    })
-}
-
-/// [`reduce`] through [`flips`], when the group flips two-answer measurements.
-fn reduce_by_correlators(
-    group: &crate::model::symmetry::SymmetryGroup,
-    letters: &Letters,
-    elements: &[Relabelling],
-    chosen: &[Relabelling],
-    words: &[Word],
-    moments: &[Word],
-    problem: &SdpProblem,
-) -> Option<Reduction> {
-    let index: HashMap<&Word, usize> = words.iter().enumerate().map(|(k, w)| (w, k)).collect();
-    let n = words.len();
-    let weights = (n <= MAX_SPLIT_SIDE)
-        .then(|| central_weights(elements, chosen))
-        .flatten();
-    let (reduced_problem, bases, lift, reduced) = flips::reduce(
-        letters,
-        elements,
-        chosen,
-        weights.as_deref(),
-        words,
-        problem,
-    )?;
-    // The Collins–Gisin action of every element, for the dual averaging.
-    let actions = element_actions(elements, words, &index, &letters.last)?;
-    Some(Reduction {
-        summary: SymmetryUse::of(
-            group,
-            elements.len(),
-            moments.len(),
-            reduced,
-            &reduced_problem,
-        ),
-        assembly_flops: assembly_flops(&reduced_problem),
-        primal: PrimalLift::Correlators(lift),
-        problem: reduced_problem,
-        actions,
-        bases: Some(bases),
     })
 }
 

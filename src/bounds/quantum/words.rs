@@ -25,6 +25,16 @@ pub type Word = Vec<Projector>;
 
 /// Canonical form of a product, or `None` when it is zero.
 pub fn canonical(ops: impl IntoIterator<Item = Projector>) -> Option<Word> {
+    canonical_with(ops, &[])
+}
+
+/// [`canonical`] where the letters of the players flagged in `involutions` are ±1-valued
+/// observables (`A² = 1`, so equal neighbours cancel and may expose new neighbours) rather than
+/// projectors; unflagged players (and every player beyond the slice) keep the projector rules.
+pub fn canonical_with(
+    ops: impl IntoIterator<Item = Projector>,
+    involutions: &[bool],
+) -> Option<Word> {
     let mut ops: Vec<Projector> = ops.into_iter().collect();
     // Different players commute: a stable sort keeps each player's own order.
     ops.sort_by_key(|p| p.player);
@@ -32,6 +42,10 @@ pub fn canonical(ops: impl IntoIterator<Item = Projector>) -> Option<Word> {
     for p in ops {
         if let Some(last) = out.last() {
             if last.player == p.player && last.setting == p.setting {
+                if involutions.get(p.player as usize).copied().unwrap_or(false) {
+                    out.pop(); // A A = 1
+                    continue;
+                }
                 if last.outcome == p.outcome {
                     continue; // idempotent
                 }
