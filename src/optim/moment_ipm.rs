@@ -77,6 +77,9 @@ struct Internal {
     /// Whether the F_i have pairwise disjoint supports, and their squared Frobenius norms.
     disjoint: bool,
     norms: Vec<f64>,
+    /// When they overlap (and there are no inequality rows): the Cholesky factor of their Gram
+    /// matrix `⟨F_i, F_j⟩`, for projecting onto the constraints.
+    gram: Option<faer::linalg::solvers::Llt<f64>>,
 }
 
 /// `y = y0 + N w`: the equality constraints solved for some variables.
@@ -340,7 +343,7 @@ fn build(p: &SdpProblem, el: &Elimination) -> Internal {
             })
         })
         .collect();
-    Internal {
+    let mut p = Internal {
         m,
         b,
         dense,
@@ -351,7 +354,16 @@ fn build(p: &SdpProblem, el: &Elimination) -> Internal {
         g_rows,
         disjoint,
         norms,
+        gram: None,
+    };
+    if !p.disjoint && p.g_rows.is_empty() && p.m <= MAX_GRAM_SIDE {
+        // The Schur complement at X = S = I is the Gram matrix.
+        let identity: Vec<Mat<f64>> = p.sizes.iter().map(|&n| Mat::identity(n, n)).collect();
+        p.gram = schur(&p, &identity, &identity, &[], &[])
+            .llt(Side::Lower)
+            .ok();
     }
+    p
 }
 
 /// ⟨F_i, W⟩ restricted to block k's entries of variable i.
@@ -563,6 +575,17 @@ fn direction(
             }
             let miss = p.b[i] + inner(cols, x) + inner(cols, &dx);
             add_f(cols, -miss / p.norms[i], &mut dx);
+        }
+    } else if let (true, Some(gram)) = (correct, &p.gram) {
+        // The same with overlapping supports: the orthogonal projection through the Gram matrix.
+        let mut miss = Mat::<f64>::from_fn(p.m, 1, |i, _| {
+            p.b[i] + inner(&p.columns[i], x) + inner(&p.columns[i], &dx)
+        });
+        gram.solve_in_place(&mut miss);
+        if (0..p.m).all(|i| miss[(i, 0)].is_finite()) {
+            for (i, cols) in p.columns.iter().enumerate() {
+                add_f(cols, -miss[(i, 0)], &mut dx);
+            }
         }
     }
     Direction {
@@ -960,82 +983,116 @@ pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpS
     })
 }
 
-/// `X − Σ_i (rp_i/‖F_i‖²) F_i`, which satisfies the primal equalities exactly when the F_i have
-/// pairwise disjoint supports (as NPA moment matrices do); None otherwise.
+/// X moved onto the affine constraints `⟨F_i, X⟩ = −b_i (+ inequality terms)` by the smallest
+/// change in Frobenius norm, `X − Σ_i α_i F_i` with `Gα = r` for the Gram matrix
+/// `G_ij = ⟨F_i, F_j⟩` and the residuals r. When the F_i have pairwise disjoint supports (a full
+/// NPA moment matrix) G is diagonal; otherwise (merged or split problems, whose F_i overlap) G
+/// is factored once and the solve refined once. The interior-point iterate's residual grows as
+/// it converges, and over a reduced problem's wide F_i it would otherwise be charged at full
+/// size. `None` when G is too large to hold or not positive definite.
 fn project_onto_constraints(p: &Internal, x: &[Mat<f64>], xl: &[f64]) -> Option<Vec<Mat<f64>>> {
-    let mut seen = std::collections::HashSet::new();
-    for col in &p.columns {
-        for e in col {
-            if !seen.insert((e.block, e.row, e.col)) {
+    let residuals = |x: &[Mat<f64>]| -> Vec<f64> {
+        (0..p.m)
+            .map(|i| {
+                let mut rp = p.b[i] + inner(&p.columns[i], x);
+                for (r, (terms, _)) in p.g_rows.iter().enumerate() {
+                    for &(j, c) in terms {
+                        if j == i {
+                            rp -= c * xl[r];
+                        }
+                    }
+                }
+                rp
+            })
+            .collect()
+    };
+    let mut out = x.to_vec();
+    if p.disjoint {
+        let rp = residuals(&out);
+        for (i, cols) in p.columns.iter().enumerate() {
+            if p.norms[i] > 0.0 {
+                add_f(cols, -rp[i] / p.norms[i], &mut out);
+            }
+        }
+        return Some(out);
+    }
+    let llt = p.gram.as_ref()?;
+    for _pass in 0..2 {
+        let rp = residuals(&out);
+        let mut alpha = Mat::<f64>::from_fn(p.m, 1, |i, _| rp[i]);
+        llt.solve_in_place(&mut alpha);
+        for (i, cols) in p.columns.iter().enumerate() {
+            let a = alpha[(i, 0)];
+            if !a.is_finite() {
                 return None;
             }
+            add_f(cols, -a, &mut out);
         }
-    }
-    let mut out = x.to_vec();
-    for (i, cols) in p.columns.iter().enumerate() {
-        let norm2: f64 = cols
-            .iter()
-            .map(|e| {
-                if e.row == e.col {
-                    e.coef * e.coef
-                } else {
-                    2.0 * e.coef * e.coef
-                }
-            })
-            .sum();
-        if norm2 == 0.0 {
-            continue;
-        }
-        let mut rp = p.b[i] + inner(cols, x);
-        for (r, (terms, _)) in p.g_rows.iter().enumerate() {
-            for &(j, c) in terms {
-                if j == i {
-                    rp -= c * xl[r];
-                }
-            }
-        }
-        add_f(cols, -rp / norm2, &mut out);
     }
     Some(out)
 }
 
-/// Multipliers of the eliminated equalities: the least-squares solution of
+/// Most variables for which the Gram matrix of a projection onto the constraints is formed
+/// (side² · 8 bytes, and a Cholesky factorisation of that side).
+const MAX_GRAM_SIDE: usize = 6000;
+
+/// Multipliers of the eliminated equalities: a least-squares solution of
 /// `Eᵀν = −(q + (the other rows)ᵀ z)`, so that the certificate's residual is as small as possible
-/// (whatever remains is charged by the certified bound).
+/// (whatever remains is charged by the certified bound). The equalities may be redundant (the
+/// invariance equations of a reduction are), so the normal equations would be singular: this
+/// takes a QR factorisation of Eᵀ with column pivoting, keeps its numerically independent
+/// columns (Golub & Van Loan, Matrix Computations, 4th ed. 2013, §5.4.1), and refines once.
 fn fill_equality_duals(problem: &SdpProblem, asm: &Assembled, z: &mut [f64]) {
     let ne = problem.equalities.len();
     let n = asm.a.n;
     let mut target = asm.q.clone();
+    // Eᵀ, E being the first ne rows of A.
+    let mut et = Mat::<f64>::zeros(n, ne);
     for (j, t) in target.iter_mut().enumerate() {
         for k in asm.a.colptr[j]..asm.a.colptr[j + 1] {
             let r = asm.a.rowval[k];
             if r >= ne {
                 *t += asm.a.nzval[k] * z[r];
+            } else {
+                et[(j, r)] = asm.a.nzval[k];
             }
         }
         *t = -*t;
     }
-    // Normal equations (E Eᵀ) ν = E target, E being the first ne rows of A.
-    let mut e = Mat::<f64>::zeros(ne, n);
-    for j in 0..n {
-        for k in asm.a.colptr[j]..asm.a.colptr[j + 1] {
-            let r = asm.a.rowval[k];
-            if r < ne {
-                e[(r, j)] = asm.a.nzval[k];
+    let qr = et.col_piv_qr();
+    let r = qr.thin_R();
+    let q = qr.compute_thin_Q();
+    let (forward, _) = qr.P().arrays();
+    let size = r.nrows().min(r.ncols());
+    let largest = if size > 0 { r[(0, 0)].abs() } else { 0.0 };
+    let rank = (0..size)
+        .take_while(|&i| r[(i, i)].abs() > 1e-12 * largest * (n.max(ne) as f64))
+        .count();
+    let mut nu = vec![0.0; ne];
+    for _pass in 0..2 {
+        // What is left of the target, then the correction from the independent columns.
+        let mut left = target.clone();
+        for (j, l) in left.iter_mut().enumerate() {
+            for (i, v) in nu.iter().enumerate() {
+                *l -= et[(j, i)] * v;
             }
         }
-    }
-    let mut eet = Mat::<f64>::zeros(ne, ne);
-    matmul(&mut eet, Accum::Replace, &e, e.transpose(), 1.0, Par::Seq);
-    let mut rhs = Mat::<f64>::zeros(ne, 1);
-    for r in 0..ne {
-        rhs[(r, 0)] = (0..n).map(|j| e[(r, j)] * target[j]).sum();
-    }
-    if let Ok(llt) = eet.llt(Side::Lower) {
-        llt.solve_in_place(&mut rhs);
-        for r in 0..ne {
-            z[r] = rhs[(r, 0)];
+        let mut x: Vec<f64> = (0..rank)
+            .map(|i| (0..n).map(|j| q[(j, i)] * left[j]).sum())
+            .collect();
+        for i in (0..rank).rev() {
+            let mut v = x[i];
+            for k in i + 1..rank {
+                v -= r[(i, k)] * x[k];
+            }
+            x[i] = v / r[(i, i)];
         }
+        for (i, v) in x.iter().enumerate() {
+            nu[forward[i]] += v;
+        }
+    }
+    if nu.iter().all(|v| v.is_finite()) {
+        z[..ne].copy_from_slice(&nu);
     }
 }
 
