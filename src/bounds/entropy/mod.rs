@@ -1,0 +1,9 @@
+//! Lower bounds on conditional von Neumann entropies such as H(A|X=x*, E), device-independently,
+//! by the Gauss–Radau hierarchy of Brown, Fawzi & Fawzi (Quantum 8, 1445 (2024);
+//! arXiv:2106.13692). The relative entropy behind H(A|E) is written as an integral over
+//! t ∈ [0, 1]; a Gauss–Radau rule with its last node fixed at t = 1 turns it into a finite sum
+//! whose terms are non-commutative polynomial optimisations, each bounded by an NPA-type
+//! relaxation. This module holds the quadrature; the relaxations build on
+//! [`crate::bounds::quantum`].
+
+pub mod quadrature;
