@@ -151,14 +151,23 @@ fn apply(asm: &Assembled, x: &[f64], out: &mut [f64]) {
 
 /// `out = Aᵀ v` (one entry per variable).
 fn apply_transpose(asm: &Assembled, v: &[f64], out: &mut [f64]) {
-    out.par_iter_mut().enumerate().for_each(|(j, o)| {
-        let mut s = 0.0;
-        for k in asm.a.colptr[j]..asm.a.colptr[j + 1] {
-            s += asm.a.nzval[k] * v[asm.a.rowval[k]];
-        }
-        *o = s;
-    });
+    let column = |j: usize| -> f64 {
+        (asm.a.colptr[j]..asm.a.colptr[j + 1])
+            .map(|k| asm.a.nzval[k] * v[asm.a.rowval[k]])
+            .sum()
+    };
+    // Below this many nonzeros waking the second core costs more than the product.
+    if asm.a.nzval.len() < PARALLEL_PRODUCT_NONZEROS {
+        out.iter_mut().enumerate().for_each(|(j, o)| *o = column(j));
+    } else {
+        out.par_iter_mut()
+            .enumerate()
+            .for_each(|(j, o)| *o = column(j));
+    }
 }
+
+/// Nonzeros of A from which `Aᵀv` is computed on both cores.
+const PARALLEL_PRODUCT_NONZEROS: usize = 1 << 18;
 
 fn norm(v: &[f64]) -> f64 {
     v.iter().map(|x| x * x).sum::<f64>().sqrt()
