@@ -113,8 +113,75 @@ pub fn chsh_threshold_qber() -> f64 {
     0.5 * (lo + hi)
 }
 
+/// The error-correction term of the Devetak–Winter rate, H(A|B) in bits, from the joint
+/// distribution `p[a][b]` of the key pair's answers (rows Alice's answers, columns Bob's): one-way
+/// error correction at the Shannon limit leaks H(A|B) bits per round (Devetak & Winter 2005,
+/// Proc. R. Soc. A 461, 207). The table must be rectangular, finite, non-negative and sum to 1
+/// within 1e-9; anything else is refused.
+pub fn error_correction_entropy(p: &[Vec<f64>]) -> Result<f64> {
+    let bad = |why: String| {
+        Err(Error::InvalidArgument(format!(
+            "the key pair's joint distribution {why}"
+        )))
+    };
+    let columns = p.first().map_or(0, |r| r.len());
+    if p.is_empty() || columns == 0 {
+        return bad("is empty".into());
+    }
+    if p.iter().any(|r| r.len() != columns) {
+        return bad("has rows of different lengths".into());
+    }
+    if let Some(v) = p.iter().flatten().find(|v| !v.is_finite() || **v < 0.0) {
+        return bad(format!("has the entry {v}, not a probability"));
+    }
+    let total: f64 = p.iter().flatten().sum();
+    if (total - 1.0).abs() > 1e-9 {
+        return bad(format!("sums to {total}, not 1"));
+    }
+    // H(A|B) = H(A, B) − H(B).
+    let plogp = |x: f64| if x > 0.0 { -x * x.log2() } else { 0.0 };
+    let joint: f64 = p.iter().flatten().map(|&x| plogp(x)).sum();
+    let marginal: f64 = (0..columns)
+        .map(|b| plogp(p.iter().map(|r| r[b]).sum()))
+        .sum();
+    Ok((joint - marginal).max(0.0))
+}
+
 #[cfg(test)]
 mod tests {
+
+    #[test]
+    fn the_error_correction_term_is_the_conditional_shannon_entropy() {
+        // Perfectly correlated answers leak nothing; independent uniform ones leak log2 d.
+        let d = 3;
+        let correlated: Vec<Vec<f64>> = (0..d)
+            .map(|a| {
+                (0..d)
+                    .map(|b| if a == b { 1.0 / 3.0 } else { 0.0 })
+                    .collect()
+            })
+            .collect();
+        assert!(error_correction_entropy(&correlated).unwrap().abs() < 1e-15);
+        let independent = vec![vec![1.0 / 9.0; 3]; 3];
+        assert!((error_correction_entropy(&independent).unwrap() - 3f64.log2()).abs() < 1e-14);
+        // A binary pair with error rate Q: h(Q), the term `key_rate` subtracts.
+        let q = 0.07;
+        let binary = vec![
+            vec![(1.0 - q) / 2.0, q / 2.0],
+            vec![q / 2.0, (1.0 - q) / 2.0],
+        ];
+        assert!((error_correction_entropy(&binary).unwrap() - binary_entropy(q)).abs() < 1e-14);
+        // Untrusted tables are refused.
+        for bad in [
+            vec![],
+            vec![vec![0.5, 0.5], vec![0.0]],
+            vec![vec![0.5, f64::NAN], vec![0.0, 0.5]],
+            vec![vec![1.2, -0.2], vec![0.0, 0.0]],
+            vec![vec![0.5, 0.4], vec![0.0, 0.0]],
+        ] {
+            assert!(error_correction_entropy(&bad).is_err(), "{bad:?}");
+        }
+    }
     use super::*;
 
     #[test]
