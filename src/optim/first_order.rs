@@ -431,6 +431,14 @@ const PARALLEL_EIGEN_SIDE: usize = 1200;
 /// 20 takes nearly all of the gain at two thirds of 30's memory.
 pub const ANDERSON_MEMORY: usize = 20;
 
+/// How far an accelerated point's fixed-point residual may rise above the smallest one since
+/// the acceleration last started before it is rejected. A strictly monotone test (1.0)
+/// rejected one accelerated step in five on the random 4×4 game at `1+joint` and took 659
+/// iterations; 1.2 takes 422 there and 14,158 over the nine check relaxations against 14,430
+/// (1.5: 14,167; 2: 14,217). The envelope only shrinks between restarts, so accepted residuals
+/// stay bounded, in the spirit of the non-monotone safeguard of Zhang, O'Donoghue & Boyd (2020).
+const SAFEGUARD_GROWTH: f64 = 1.2;
+
 /// Iterations between two adjustments of the penalty μ.
 const PENALTY_PERIOD: u32 = 50;
 
@@ -661,6 +669,7 @@ pub fn solve(
     // The latest z in K (the dual point every bound is computed from).
     let mut z_in_cone = vec![0.0; rows];
     let mut rejected = 0u32;
+    let mut envelope = f64::INFINITY;
     while iteration < options.max_iterations {
         if start.elapsed().as_secs_f64() > options.max_seconds {
             status = SolveStatus::TimeLimit;
@@ -707,12 +716,16 @@ pub fn solve(
                 last_report = Instant::now();
             }
         }
-        // Safeguard: an extrapolated point whose residual grew gives way to the plain step.
+        // Safeguard: an extrapolated point whose residual exceeds the envelope (a little above
+        // the smallest residual since the acceleration last started) gives way to the plain
+        // step.
         if let Some((plain, plain_norm)) = fallback.take() {
-            if f_norm > plain_norm {
+            envelope = envelope.min(plain_norm);
+            if f_norm > SAFEGUARD_GROWTH * envelope {
                 rejected += 1;
                 x = plain;
                 anderson.clear();
+                envelope = f64::INFINITY;
                 continue;
             }
         }
@@ -730,6 +743,7 @@ pub fn solve(
             if new_mu != mu {
                 mu = new_mu;
                 anderson.clear();
+                envelope = f64::INFINITY;
                 x.copy_from_slice(&tx);
                 continue;
             }
