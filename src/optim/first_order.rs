@@ -426,7 +426,7 @@ fn split_cone(layout: &Layout, v: &[f64], plus: &mut [f64], minus: &mut [f64]) -
 const PARALLEL_EIGEN_SIDE: usize = 1200;
 
 /// Anderson acceleration's memory (past iterates kept). Measured over nine check relaxations
-/// (2026-12-02): 19,413 iterations in all with memory 5, 17,213 with 10, 14,430 with 20,
+/// (2026-12-02, with the monotone safeguard): 19,413 iterations in all with memory 5, 17,213 with 10, 14,430 with 20,
 /// 14,118 with 30, 14,353 with 40. Each stored pair costs two vectors of the state's length, so
 /// 20 takes nearly all of the gain at two thirds of 30's memory.
 pub const ANDERSON_MEMORY: usize = 20;
