@@ -32,20 +32,39 @@ impl Assembled {
         for v in &mut z[self.equalities..self.equalities + self.inequalities] {
             *v = v.max(0.0);
         }
+        if self.variable_bounds.len() != self.q.len()
+            || self
+                .variable_bounds
+                .iter()
+                .any(|b| !b.is_finite() || *b < 0.0)
+        {
+            return Err(Error::solver(
+                "certificate check",
+                "the problem's variable bounds are missing or not finite",
+            ));
+        }
+        // Each residual is charged at its variable's bound; the magnitudes (for the rounding
+        // term) are weighted the same way.
         let mut residual = self.q.clone();
-        let mut magnitude: f64 = self.q.iter().map(|q| q.abs()).sum();
+        let mut magnitude = 0.0;
         let mut longest_column = 0;
         for (j, r) in residual.iter_mut().enumerate() {
             longest_column = longest_column.max(self.a.colptr[j + 1] - self.a.colptr[j]);
+            let mut column_magnitude = self.q[j].abs();
             for k in self.a.colptr[j]..self.a.colptr[j + 1] {
                 let t = self.a.nzval[k] * z[self.a.rowval[k]];
                 *r += t;
-                magnitude += t.abs();
+                column_magnitude += t.abs();
             }
+            magnitude += column_magnitude * self.variable_bounds[j];
         }
         let zb: f64 = z.iter().zip(&self.b).map(|(z, b)| z * b).sum();
         let zb_magnitude: f64 = z.iter().zip(&self.b).map(|(z, b)| (z * b).abs()).sum();
-        let slack: f64 = residual.iter().map(|r| r.abs()).sum::<f64>() * self.variable_bound;
+        let slack: f64 = residual
+            .iter()
+            .zip(&self.variable_bounds)
+            .map(|(r, b)| r.abs() * b)
+            .sum();
         // Each PSD block: ⟨Z, Γ⟩ ≥ λ_min(Z)·tr Γ when λ_min(Z) < 0.
         let mut cone_charge = 0.0;
         let mut offset = self.equalities + self.inequalities;
@@ -83,7 +102,7 @@ impl Assembled {
             ku / (1.0 - ku)
         };
         let rounding = 2.0
-            * (gamma(longest_column + 2) * magnitude * self.variable_bound
+            * (gamma(longest_column + 2) * magnitude
                 + gamma(residual.len() + 1) * slack
                 + gamma(z.len() + 1) * zb_magnitude
                 + gamma(5) * (self.objective_constant.abs() + zb.abs() + slack + cone_charge));
@@ -184,5 +203,37 @@ mod tests {
         let asm = p.assemble();
         let bad: Vec<f64> = s.z.iter().map(|v| v * 0.9).collect();
         assert!(asm.certified_bound(&bad).unwrap() >= 1.0);
+    }
+
+    #[test]
+    fn per_variable_bounds_charge_the_residual_where_moments_exceed_one() {
+        // maximise y subject to [[4, y], [y, 1]] ⪰ 0: optimum 2, so |y| ≤ 1 would be false and
+        // the residual of an inexact dual must be charged at |y| ≤ 2.
+        let entry = |constant: f64, terms: Vec<(usize, f64)>| AffineEntry { constant, terms };
+        let mut p = SdpProblem {
+            variables: 1,
+            objective: vec![1.0],
+            blocks: vec![MatrixBlock {
+                size: 2,
+                upper: vec![
+                    entry(4.0, vec![]),
+                    entry(0.0, vec![(0, 1.0)]),
+                    entry(1.0, vec![]),
+                ],
+                trace_bound: 5.0,
+            }],
+            variable_bound: 1.0,
+            variable_bounds: vec![2.0],
+            ..Default::default()
+        };
+        let s = crate::optim::clarabel::solve_sdp(&p, "test").unwrap();
+        assert!((s.primal - 2.0).abs() < 1e-7, "{}", s.primal);
+        let bad: Vec<f64> = s.z.iter().map(|v| v * 0.9).collect();
+        let charged = p.assemble().certified_bound(&bad).unwrap();
+        assert!(charged >= 2.0, "{charged}");
+        // The scalar bound of one, wrong for this problem, would under-charge the same vector.
+        p.variable_bounds.clear();
+        let under = p.assemble().certified_bound(&bad).unwrap();
+        assert!(under < 2.0 - 0.05, "{under}");
     }
 }

@@ -58,6 +58,10 @@ pub struct SdpProblem {
     pub blocks: Vec<MatrixBlock>,
     /// A bound on `|y_m|` over every point the certified bound must cover.
     pub variable_bound: f64,
+    /// Per-variable bounds on `|y_m|`, replacing [`SdpProblem::variable_bound`] when not empty
+    /// (then one per variable): for relaxations whose moments are not all bounded by one, such
+    /// as those with operators of norm above one.
+    pub variable_bounds: Vec<f64>,
 }
 
 /// The problem in conic form (minimise `qᵀy` with `A y + s = b`, `s` in the zero, non-negative
@@ -77,8 +81,9 @@ pub struct Assembled {
     pub block_sizes: Vec<usize>,
     /// [`MatrixBlock::trace_bound`] of each block.
     pub trace_bounds: Vec<f64>,
-    /// [`SdpProblem::variable_bound`].
-    pub variable_bound: f64,
+    /// The bound on `|y_m|` of each variable ([`SdpProblem::variable_bounds`], or
+    /// [`SdpProblem::variable_bound`] for every variable).
+    pub variable_bounds: Vec<f64>,
     /// `c0`.
     pub objective_constant: f64,
 }
@@ -184,7 +189,11 @@ impl SdpProblem {
             inequalities: self.inequalities.len(),
             block_sizes: self.blocks.iter().map(|b| b.size).collect(),
             trace_bounds: self.blocks.iter().map(|b| b.trace_bound).collect(),
-            variable_bound: self.variable_bound,
+            variable_bounds: if self.variable_bounds.len() == self.variables {
+                self.variable_bounds.clone()
+            } else {
+                vec![self.variable_bound; self.variables]
+            },
             objective_constant: self.objective_constant,
         }
     }

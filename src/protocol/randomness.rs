@@ -329,6 +329,7 @@ fn guessing_probability_at(
         inequalities,
         blocks,
         variable_bound: 1.0,
+        variable_bounds: Vec::new(),
     };
     let sol = backend::solve(&problem, Backend::Auto, "guessing probability SDP").map_err(|e| match e {
         Error::Solver {

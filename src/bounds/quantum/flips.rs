@@ -385,6 +385,8 @@ pub(super) fn reduce(
         blocks,
         // Correlator moments are expectations of contractions.
         variable_bound: problem.variable_bound.max(1.0),
+        // Per-variable bounds are never reduced (`symmetric::reduce` declines them).
+        variable_bounds: Vec::new(),
     };
     Some((reduced_problem, bases, lift))
 }

@@ -269,6 +269,11 @@ pub fn reduce(
     // The symmetries of the value on no-signalling behaviours (which the Collins–Gisin
     // objective sees), or the table's own when the table is too large for the canonical form or
     // its rounding hid them (the canonical group contains the table's in exact arithmetic).
+    // Merged variables would need their bounds merged too; no relaxation with per-variable
+    // bounds is reduced.
+    if !problem.variable_bounds.is_empty() {
+        return None;
+    }
     let group = symmetries_modulo_no_signalling(s)
         .filter(|g| !g.generators.is_empty())
         .or_else(|| symmetries(s))?;
@@ -792,6 +797,7 @@ fn merge(problem: &SdpProblem, classes: &[usize], reduced: usize) -> SdpProblem 
             })
             .collect(),
         variable_bound: problem.variable_bound,
+        variable_bounds: Vec::new(),
     }
 }
 
