@@ -173,25 +173,31 @@ mod tests {
 
     use crate::optim::sdp::{AffineEntry, MatrixBlock, SdpProblem};
 
-    #[test]
-    fn two_by_two_psd_bound() {
-        // maximise y subject to [[1, y], [y, 1]] ⪰ 0: optimum 1.
+    /// maximise y subject to [[corner, y], [y, 1]] ⪰ 0 (optimum √corner), with every moment
+    /// bounded by one.
+    fn two_by_two(corner: f64) -> SdpProblem {
         let entry = |constant: f64, terms: Vec<(usize, f64)>| AffineEntry { constant, terms };
-        let p = SdpProblem {
+        SdpProblem {
             variables: 1,
             objective: vec![1.0],
             blocks: vec![MatrixBlock {
                 size: 2,
                 upper: vec![
-                    entry(1.0, vec![]),
+                    entry(corner, vec![]),
                     entry(0.0, vec![(0, 1.0)]),
                     entry(1.0, vec![]),
                 ],
-                trace_bound: 2.0,
+                trace_bound: corner + 1.0,
             }],
             variable_bound: 1.0,
             ..Default::default()
-        };
+        }
+    }
+
+    #[test]
+    fn two_by_two_psd_bound() {
+        // maximise y subject to [[1, y], [y, 1]] ⪰ 0: optimum 1.
+        let p = two_by_two(1.0);
         let s = crate::optim::clarabel::solve_sdp(&p, "test").unwrap();
         assert!((s.primal - 1.0).abs() < 1e-7, "{}", s.primal);
         assert!(
@@ -209,22 +215,9 @@ mod tests {
     fn per_variable_bounds_charge_the_residual_where_moments_exceed_one() {
         // maximise y subject to [[4, y], [y, 1]] ⪰ 0: optimum 2, so |y| ≤ 1 would be false and
         // the residual of an inexact dual must be charged at |y| ≤ 2.
-        let entry = |constant: f64, terms: Vec<(usize, f64)>| AffineEntry { constant, terms };
         let mut p = SdpProblem {
-            variables: 1,
-            objective: vec![1.0],
-            blocks: vec![MatrixBlock {
-                size: 2,
-                upper: vec![
-                    entry(4.0, vec![]),
-                    entry(0.0, vec![(0, 1.0)]),
-                    entry(1.0, vec![]),
-                ],
-                trace_bound: 5.0,
-            }],
-            variable_bound: 1.0,
             variable_bounds: vec![2.0],
-            ..Default::default()
+            ..two_by_two(4.0)
         };
         let s = crate::optim::clarabel::solve_sdp(&p, "test").unwrap();
         assert!((s.primal - 2.0).abs() < 1e-7, "{}", s.primal);
