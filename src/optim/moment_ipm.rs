@@ -565,26 +565,15 @@ fn direction(
         })
         .collect();
     let mut dx = dx;
-    if correct && p.disjoint && p.g_rows.is_empty() {
+    if correct && p.g_rows.is_empty() {
         // In exact arithmetic ⟨F_i, X + ΔX⟩ = −b_i; near a degenerate optimum the large,
-        // cancelling terms of ΔX lose that to rounding. With disjoint supports the correction is
-        // a diagonal projection.
-        for (i, cols) in p.columns.iter().enumerate() {
-            if p.norms[i] == 0.0 {
-                continue;
-            }
-            let miss = p.b[i] + inner(cols, x) + inner(cols, &dx);
-            add_f(cols, -miss / p.norms[i], &mut dx);
-        }
-    } else if let (true, Some(gram)) = (correct, &p.gram) {
-        // The same with overlapping supports: the orthogonal projection through the Gram matrix.
-        let mut miss = Mat::<f64>::from_fn(p.m, 1, |i, _| {
-            p.b[i] + inner(&p.columns[i], x) + inner(&p.columns[i], &dx)
-        });
-        gram.solve_in_place(&mut miss);
-        if (0..p.m).all(|i| miss[(i, 0)].is_finite()) {
-            for (i, cols) in p.columns.iter().enumerate() {
-                add_f(cols, -miss[(i, 0)], &mut dx);
+        // cancelling terms of ΔX lose that to rounding, so ΔX is projected back.
+        let miss: Vec<f64> = (0..p.m)
+            .map(|i| p.b[i] + inner(&p.columns[i], x) + inner(&p.columns[i], &dx))
+            .collect();
+        if let Some(alpha) = constraint_multipliers(p, miss) {
+            for (cols, a) in p.columns.iter().zip(alpha) {
+                add_f(cols, -a, &mut dx);
             }
         }
     }
@@ -1007,29 +996,32 @@ fn project_onto_constraints(p: &Internal, x: &[Mat<f64>], xl: &[f64]) -> Option<
             .collect()
     };
     let mut out = x.to_vec();
-    if p.disjoint {
-        let rp = residuals(&out);
-        for (i, cols) in p.columns.iter().enumerate() {
-            if p.norms[i] > 0.0 {
-                add_f(cols, -rp[i] / p.norms[i], &mut out);
-            }
-        }
-        return Some(out);
-    }
-    let llt = p.gram.as_ref()?;
-    for _pass in 0..2 {
-        let rp = residuals(&out);
-        let mut alpha = Mat::<f64>::from_fn(p.m, 1, |i, _| rp[i]);
-        llt.solve_in_place(&mut alpha);
-        for (i, cols) in p.columns.iter().enumerate() {
-            let a = alpha[(i, 0)];
-            if !a.is_finite() {
-                return None;
-            }
+    // Twice: the second pass refines the Gram solve (exact at once when G is diagonal).
+    for _pass in 0..if p.disjoint { 1 } else { 2 } {
+        let alpha = constraint_multipliers(p, residuals(&out))?;
+        for (cols, a) in p.columns.iter().zip(alpha) {
             add_f(cols, -a, &mut out);
         }
     }
     Some(out)
+}
+
+/// The α with `Gα = r` for the Gram matrix `G_ij = ⟨F_i, F_j⟩` (so that subtracting
+/// `Σ_i α_i F_i` removes the residuals r by the smallest change): a division when the F_i are
+/// disjoint, the stored Cholesky factor otherwise; `None` without one or when α is not finite.
+fn constraint_multipliers(p: &Internal, residuals: Vec<f64>) -> Option<Vec<f64>> {
+    let alpha: Vec<f64> = if p.disjoint {
+        residuals
+            .iter()
+            .zip(&p.norms)
+            .map(|(r, n)| if *n > 0.0 { r / n } else { 0.0 })
+            .collect()
+    } else {
+        let mut a = Mat::<f64>::from_fn(p.m, 1, |i, _| residuals[i]);
+        p.gram.as_ref()?.solve_in_place(&mut a);
+        (0..p.m).map(|i| a[(i, 0)]).collect()
+    };
+    alpha.iter().all(|v| v.is_finite()).then_some(alpha)
 }
 
 /// Most variables for which the Gram matrix of a projection onto the constraints is formed
