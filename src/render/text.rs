@@ -181,15 +181,17 @@ pub fn game_report(r: &GameReport) -> String {
         if let Some(u) = &b.symmetry {
             rows.push((
                 "  symmetry".into(),
-                format!(
-                    "{} relabellings: {} moments merged into {}, matrix split into {} blocks (largest {}×{}); bound checked on the full matrix",
-                    u.order,
-                    u.full_moments,
-                    u.moments,
-                    u.blocks.len(),
-                    u.blocks.iter().max().unwrap_or(&0),
-                    u.blocks.iter().max().unwrap_or(&0)
-                ),
+                {
+                    let largest = u.blocks.iter().max().unwrap_or(&0);
+                    let split = match u.blocks.len() {
+                        0 | 1 => "matrix not split into blocks".to_string(),
+                        k => format!("matrix split into {k} blocks (largest {largest}×{largest})"),
+                    };
+                    format!(
+                        "{} relabellings: {} moments merged into {}, {split}; bound checked on the full matrix",
+                        u.order, u.full_moments, u.moments,
+                    )
+                },
             ));
         }
     }

@@ -390,6 +390,12 @@ pub fn reduce(
     .flatten()
     .and_then(|bases| {
         let (equalities, extra) = invariance(&chosen, moments, &classes, reduced, &last)?;
+        // The solvers eliminate these equations densely (rows × variables × rank); when the
+        // orbits outside the moments are many, that work dwarfs the merged problem's solve.
+        let (rows, variables) = (equalities.len() as f64, (reduced + extra) as f64);
+        if rows * variables * rows.min(variables) > MAX_INVARIANCE_ELIMINATION_FLOPS {
+            return None;
+        }
         let mut widened = merged.clone();
         widened.variables += extra;
         widened.objective.resize(widened.variables, 0.0);
@@ -419,6 +425,13 @@ pub fn reduce(
 /// Largest moment matrix split into blocks (the split takes a few dense n×n products and one
 /// symmetric eigendecomposition).
 pub const MAX_SPLIT_SIDE: usize = 2000;
+
+/// Most work (flops) the dense elimination of the invariance equations may take before the
+/// split is declined and the merged problem solved instead: about a second on the check machine.
+/// A small game at level 3 (2×2 against 2×3 answers) once produced 17,554 equations in 3,195
+/// variables, half a minute of elimination and two and a half minutes in all, where its merged
+/// problem (235 variables) solves in a fraction of a second.
+const MAX_INVARIANCE_ELIMINATION_FLOPS: f64 = 2e9;
 
 /// Most full-projector words the invariance equations may visit, per moment.
 const MAX_WORDS_PER_MOMENT: usize = 64;
