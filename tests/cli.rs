@@ -474,6 +474,65 @@ fn randomness_json_keys_and_the_chsh_curve() {
 }
 
 #[test]
+fn entropy_of_the_tsirelson_box_and_its_key_rate() {
+    // The optimal CHSH behaviour certifies one full bit of H(A|X=0,E) (Acín et al. 2007, PRL 98,
+    // 230501), and no bound may exceed it; Bob's answers to his first question differ from Alice's with probability
+    // Q = (1 − 1/√2)/2, so the Devetak–Winter rate is 1 − h(Q) ≈ 0.3991.
+    let (hi, lo) = ("(1 + 1/sqrt(2))/4", "(1 - 1/sqrt(2))/4");
+    let path = two_bit_correlations(
+        "tsirelson-key.yaml",
+        [
+            [hi, lo, lo, hi],
+            [hi, lo, lo, hi],
+            [hi, lo, lo, hi],
+            [lo, hi, hi, lo],
+        ],
+    );
+    let out = bellgap(&[
+        "entropy",
+        "games/chsh-expression.yaml",
+        "--behaviour",
+        &path.to_string_lossy(),
+        "--key-with",
+        "bob",
+        "--adversary-words",
+        "with-projectors",
+        "--nodes",
+        "4",
+        "--json",
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j = json_of(&out);
+    assert_eq!(j["command"], "entropy");
+    let r = &j["results"][0];
+    let h = r["entropy"]["bits"].as_f64().unwrap();
+    // Four nodes under-estimate even a perfectly secret bit (the rule's own error): 0.9549
+    // measured.
+    assert!((0.95..=1.0).contains(&h), "{h}");
+    let q: f64 = (1.0 - 1.0 / 2f64.sqrt()) / 2.0;
+    let hq = -q * q.log2() - (1.0 - q) * (1.0 - q).log2();
+    assert!((r["key"]["error_correction"].as_f64().unwrap() - hq).abs() < 1e-9);
+    assert!((r["key"]["key_rate"].as_f64().unwrap() - (h - hq)).abs() < 1e-12);
+    assert_eq!(r["entropy"]["nodes"], 4);
+    assert!(j["assumptions"].as_array().unwrap().len() >= 4);
+    // A score and a key pair cannot go together (the pair's statistics come from a behaviour).
+    let out = bellgap(&[
+        "entropy",
+        "games/chsh-expression.yaml",
+        "--score",
+        "2.5",
+        "--key-with",
+        "bob",
+        "--json",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+}
+
+#[test]
 fn key_and_review_reports() {
     let j = json_of(&bellgap(&["key", "--chsh", "2.5", "--qber", "0", "--json"]));
     // Pironio et al. 2009: H(A|E) ≥ 0.456436 at S = 2.5; threshold QBER 0.071492.

@@ -449,6 +449,15 @@ fn work_that_grows_with_the_number_of_players_is_estimated_first() {
         "40",
     ]);
     assert!(j["error"]["kind"] == "too_large", "{j}");
+    let j = refused(&[
+        "entropy",
+        "games/chsh.yaml",
+        "--score",
+        "0.8",
+        "--level",
+        "40",
+    ]);
+    assert!(j["error"]["kind"] == "too_large", "{j}");
     // A see-saw estimated at hours is refused with the estimate.
     let j = refused(&[
         "seesaw",
@@ -535,6 +544,16 @@ fn argument_errors_with_json_print_one_json_object() {
         vec!["npa", "games/chsh.yaml", "--level", "--json"],
         vec!["margin", "games/chsh.yaml", "--rounds", "x", "--json"],
         vec!["randomness", "games/chsh.yaml", "--score", "NaN", "--json"],
+        vec!["entropy", "games/chsh.yaml", "--score", "inf", "--json"],
+        vec![
+            "entropy",
+            "games/chsh.yaml",
+            "--nodes",
+            "-3",
+            "--score",
+            "0.8",
+            "--json",
+        ],
         vec!["nosuchcommand", "--json"],
     ] {
         let out = bellgap(&args);

@@ -211,6 +211,62 @@ pub enum Command {
         #[arg(long, value_name = "FILE")]
         svg: Option<PathBuf>,
     },
+    /// A verified lower bound on the conditional von Neumann entropy of a player's answer given
+    /// a quantum adversary, H(A|X=x*, E), at a score or for an observed behaviour (Gauss–Radau
+    /// hierarchy of NPA relaxations); with the Devetak–Winter key rate when asked.
+    Entropy {
+        #[command(flatten)]
+        args: GameArgs,
+        /// The score (in the game's own units): the bound holds for every quantum behaviour
+        /// scoring at least this.
+        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite, conflicts_with_all = ["sweep", "behaviour"], long_help = SCORE_HELP)]
+        score: Option<f64>,
+        /// Sweep the score: LOW:HIGH:POINTS.
+        #[arg(long, conflicts_with = "behaviour")]
+        sweep: Option<String>,
+        /// Condition on the devices' full behaviour instead: a correlations file with the
+        /// game's players (it must be no-signalling).
+        #[arg(long, value_name = "FILE")]
+        behaviour: Option<PathBuf>,
+        /// Whose answer (default: the first player).
+        #[arg(long)]
+        player: Option<String>,
+        /// To which question (label; default: the first).
+        #[arg(long, allow_hyphen_values = true)]
+        question: Option<i64>,
+        /// Also this second player's answer (the entropy of the pair).
+        #[arg(long = "with")]
+        with_player: Option<String>,
+        /// The second player's question (label; default: the first).
+        #[arg(long, allow_hyphen_values = true)]
+        with_question: Option<i64>,
+        /// Gauss–Radau nodes (2 to 64); one relaxation is solved per node but the last.
+        #[arg(long, default_value_t = 8)]
+        nodes: usize,
+        /// The players' NPA level of each relaxation.
+        #[arg(long, default_value = "1+joint", long_help = LEVEL_HELP)]
+        level: String,
+        /// Which of the adversary's words join the players' words.
+        #[arg(long, value_enum, default_value = "with-player-words")]
+        adversary_words: AdversaryWordsArg,
+        /// Real symmetric or complex Hermitian moment matrices (the same bound; complex is a
+        /// check and costs more).
+        #[arg(long, value_enum, default_value = "real")]
+        moments: MomentsArg,
+        /// SDP solver of the relaxations (first-order is not offered: each node's bound needs
+        /// an accurate dual).
+        #[arg(long, value_enum, default_value = "auto")]
+        solver: EntropySolverArg,
+        /// Key rate: the player whose answers the key is reconciled with (needs --behaviour).
+        #[arg(long, conflicts_with = "error_rate")]
+        key_with: Option<String>,
+        /// Key rate: that player's question (label; default: the first).
+        #[arg(long, allow_hyphen_values = true, requires = "key_with")]
+        key_question: Option<i64>,
+        /// Key rate: the probability that the key answers differ (H(A|B) by Fano's bound).
+        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite)]
+        error_rate: Option<f64>,
+    },
     /// Key figures for CHSH-based device-independent QKD (analytic bound).
     Key {
         /// CHSH correlator value S (at most 2√2; the entropy bound is 0 at or below 2).
@@ -299,6 +355,27 @@ pub enum SolverArg {
 }
 
 #[derive(ValueEnum, Debug, Clone, Copy)]
+pub enum AdversaryWordsArg {
+    Letters,
+    WithProjectors,
+    WithPlayerWords,
+    WithPairs,
+}
+
+#[derive(ValueEnum, Debug, Clone, Copy)]
+pub enum EntropySolverArg {
+    Auto,
+    Ipm,
+    Clarabel,
+}
+
+#[derive(ValueEnum, Debug, Clone, Copy)]
+pub enum MomentsArg {
+    Real,
+    Complex,
+}
+
+#[derive(ValueEnum, Debug, Clone, Copy)]
 pub enum SymmetryArg {
     Auto,
     Off,
@@ -373,6 +450,9 @@ impl Cli {
             Command::Verify { certificate, .. } => v.push(certificate.clone()),
             Command::Review { protocol, .. } => v.push(protocol.clone()),
             Command::Local { correlations, .. } => v.push(correlations.clone()),
+            Command::Entropy {
+                behaviour: Some(b), ..
+            } => v.push(b.clone()),
             Command::Family {
                 family: FamilyCommand::Product { game, .. },
                 ..
@@ -393,7 +473,8 @@ impl Cli {
             | Command::Evaluate { args, .. }
             | Command::Verify { args, .. }
             | Command::Margin { args, .. }
-            | Command::Randomness { args, .. } => Some(args),
+            | Command::Randomness { args, .. }
+            | Command::Entropy { args, .. } => Some(args),
             Command::Key { .. }
             | Command::Review { .. }
             | Command::Local { .. }

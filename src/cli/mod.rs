@@ -22,7 +22,7 @@ use bellgap::limits::human_seconds;
 use bellgap::model::correlations::Correlations;
 use bellgap::model::strategy::QuantumStrategy;
 use bellgap::optim::first_order::IterationReport;
-use bellgap::pipeline::{self, Observer, Stage};
+use bellgap::pipeline::{self, EntropyGiven, Observer, Stage};
 use bellgap::render::{charts, document, json, text};
 use bellgap::{Error, Result};
 
@@ -234,6 +234,20 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
                 write(file, &charts::min_entropy(&r), inputs)?;
             }
             Ok(output(text::randomness(&r), &r, &game.warnings))
+        }
+        Request::Entropy {
+            game,
+            behaviour,
+            options,
+        } => {
+            let game = load(game)?;
+            let mut options = options.clone();
+            if let Some(file) = behaviour {
+                let c = Correlations::from_file(&file.to_string_lossy())?;
+                options.given = EntropyGiven::Behaviour(c);
+            }
+            let r = pipeline::entropy(&game, &options)?;
+            Ok(output(text::entropy(&r), &r, &game.warnings))
         }
         Request::Key { chsh, qber } => {
             let r = pipeline::key(*chsh, *qber)?;

@@ -5,6 +5,7 @@
 use std::path::PathBuf;
 
 use bellgap::bounds::classical::{Choice, ClassicalOptions};
+use bellgap::bounds::entropy::{AdversaryWords, EntropyOptions, MomentField};
 use bellgap::bounds::quantum::npa::Level;
 use bellgap::bounds::quantum::seesaw::SeesawOptions;
 use bellgap::bounds::quantum::symmetric::SymmetryChoice;
@@ -14,13 +15,16 @@ use bellgap::limits::Limits;
 use bellgap::optim::backend::Backend;
 use bellgap::optim::first_order::FirstOrderOptions;
 use bellgap::pipeline::{
-    BoundsOptions, EvaluateOptions, MarginOptions, NpaLevelsOptions, RandomnessOptions,
-    TargetChoice,
+    BoundsOptions, EntropyCommandOptions, EntropyGiven, ErrorCorrection, EvaluateOptions,
+    MarginOptions, NpaLevelsOptions, RandomnessOptions, TargetChoice,
 };
 use bellgap::protocol::finite::ObservedRun;
 use bellgap::{Error, Result};
 
-use super::args::{Cli, Command, FamilyCommand, GameArgs, MethodArg, SolverArg, SymmetryArg};
+use super::args::{
+    AdversaryWordsArg, Cli, Command, EntropySolverArg, FamilyCommand, GameArgs, MethodArg,
+    MomentsArg, SolverArg, SymmetryArg,
+};
 
 /// A game file and how to compile it.
 #[derive(Debug, Clone, PartialEq)]
@@ -126,6 +130,12 @@ pub enum Request {
         game: GameInput,
         options: RandomnessOptions,
         svg: Option<PathBuf>,
+    },
+    /// `entropy`; the behaviour file, when given, is read by the runner.
+    Entropy {
+        game: GameInput,
+        behaviour: Option<PathBuf>,
+        options: EntropyCommandOptions,
     },
     /// `key`.
     Key { chsh: f64, qber: f64 },
@@ -440,6 +450,73 @@ impl Invocation {
                 },
                 svg: svg.clone(),
             },
+            Command::Entropy {
+                args,
+                score,
+                sweep: spec,
+                behaviour,
+                player,
+                question,
+                with_player,
+                with_question,
+                nodes,
+                level,
+                adversary_words,
+                moments,
+                solver,
+                key_with,
+                key_question,
+                error_rate,
+            } => Request::Entropy {
+                game: game_input(args),
+                behaviour: behaviour.clone(),
+                options: EntropyCommandOptions {
+                    target: TargetChoice {
+                        player: player.clone(),
+                        question: *question,
+                    },
+                    with: with_player.as_ref().map(|p| TargetChoice {
+                        player: Some(p.clone()),
+                        question: *with_question,
+                    }),
+                    // A behaviour replaces the scores once the runner has read it.
+                    given: EntropyGiven::Scores(match (score, spec, behaviour) {
+                        (_, _, Some(_)) => Vec::new(),
+                        (_, Some(spec), None) => sweep(spec)?,
+                        (Some(v), None, None) => vec![*v],
+                        (None, None, None) => {
+                            return Err(Error::Usage("give --score, --sweep or --behaviour".into()))
+                        }
+                    }),
+                    key: match (key_with, error_rate) {
+                        (Some(p), _) => Some(ErrorCorrection::KeyPair(TargetChoice {
+                            player: Some(p.clone()),
+                            question: *key_question,
+                        })),
+                        (None, Some(q)) => Some(ErrorCorrection::ErrorRate(*q)),
+                        (None, None) => None,
+                    },
+                    hierarchy: EntropyOptions {
+                        nodes: *nodes,
+                        level: Level::parse(level)?,
+                        adversary: match adversary_words {
+                            AdversaryWordsArg::Letters => AdversaryWords::Letters,
+                            AdversaryWordsArg::WithProjectors => AdversaryWords::WithProjectors,
+                            AdversaryWordsArg::WithPlayerWords => AdversaryWords::WithPlayerWords,
+                            AdversaryWordsArg::WithPairs => AdversaryWords::WithPairs,
+                        },
+                        field: match moments {
+                            MomentsArg::Real => MomentField::Real,
+                            MomentsArg::Complex => MomentField::Complex,
+                        },
+                        backend: match solver {
+                            EntropySolverArg::Auto => Backend::Auto,
+                            EntropySolverArg::Ipm => Backend::MomentIpm,
+                            EntropySolverArg::Clarabel => Backend::Clarabel,
+                        },
+                    },
+                },
+            },
             Command::Key { chsh, qber, .. } => Request::Key {
                 chsh: *chsh,
                 qber: *qber,
@@ -659,6 +736,65 @@ mod tests {
             "1"
         ])
         .is_err());
+    }
+
+    #[test]
+    fn entropy_scores_behaviour_and_key_options() {
+        let Request::Entropy {
+            options, behaviour, ..
+        } = request(&[
+            "entropy",
+            "g.yaml",
+            "--score",
+            "2.5",
+            "--nodes",
+            "6",
+            "--moments",
+            "complex",
+            "--adversary-words",
+            "letters",
+            "--error-rate",
+            "0.02",
+        ])
+        .unwrap()
+        else {
+            panic!()
+        };
+        assert!(behaviour.is_none());
+        assert!(matches!(&options.given, EntropyGiven::Scores(v) if v == &vec![2.5]));
+        assert_eq!(options.hierarchy.nodes, 6);
+        assert_eq!(options.hierarchy.field, MomentField::Complex);
+        assert_eq!(options.hierarchy.adversary, AdversaryWords::Letters);
+        assert_eq!(options.hierarchy.level, Level::Joint);
+        assert!(matches!(options.key, Some(ErrorCorrection::ErrorRate(q)) if q == 0.02));
+        let Request::Entropy {
+            options, behaviour, ..
+        } = request(&[
+            "entropy",
+            "g.yaml",
+            "--behaviour",
+            "p.yaml",
+            "--key-with",
+            "bob",
+            "--key-question",
+            "1",
+            "--player",
+            "alice",
+        ])
+        .unwrap()
+        else {
+            panic!()
+        };
+        assert_eq!(behaviour, Some(PathBuf::from("p.yaml")));
+        assert!(
+            matches!(&options.key, Some(ErrorCorrection::KeyPair(c)) if c.player.as_deref() == Some("bob") && c.question == Some(1))
+        );
+        assert_eq!(options.hierarchy.field, MomentField::Real);
+        assert!(matches!(
+            request(&["entropy", "g.yaml"]),
+            Err(Error::Usage(_))
+        ));
+        assert!(request(&["entropy", "g.yaml", "--score", "2", "--behaviour", "p.yaml"]).is_err());
     }
 
     #[test]

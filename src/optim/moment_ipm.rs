@@ -565,12 +565,18 @@ fn direction(
         })
         .collect();
     let mut dx = dx;
-    if correct && p.g_rows.is_empty() {
-        // In exact arithmetic ⟨F_i, X + ΔX⟩ = −b_i; near a degenerate optimum the large,
-        // cancelling terms of ΔX lose that to rounding, so ΔX is projected back.
-        let miss: Vec<f64> = (0..p.m)
+    if correct {
+        // In exact arithmetic ⟨F_i, X + ΔX⟩ − Σ_r G_ri (x_r + Δx_r) = −b_i; near a degenerate
+        // optimum the large, cancelling terms of ΔX lose that to rounding, so ΔX is projected
+        // back (the inequality multipliers' step is kept as it is).
+        let mut miss: Vec<f64> = (0..p.m)
             .map(|i| p.b[i] + inner(&p.columns[i], x) + inner(&p.columns[i], &dx))
             .collect();
+        for (r, (terms, _)) in p.g_rows.iter().enumerate() {
+            for &(i, c) in terms {
+                miss[i] -= c * (xl[r] + dxl[r]);
+            }
+        }
         if let Some(alpha) = constraint_multipliers(p, miss) {
             for (cols, a) in p.columns.iter().zip(alpha) {
                 add_f(cols, -a, &mut dx);

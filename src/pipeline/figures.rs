@@ -1,9 +1,12 @@
 //! The commands that read an observation, a certificate or correlations: `margin`,
-//! `randomness`, `key`, `verify` and `local`.
+//! `randomness`, `entropy`, `key`, `verify` and `local`.
 
 use super::{classical_observed, Observer};
 use crate::bounds::classical::locality::{locality_test, LocalityReport};
 use crate::bounds::classical::{classical_value, ClassicalOptions};
+use crate::bounds::entropy::{
+    conditional_entropy, ConditionalEntropy, EntropyConstraint, EntropyOptions,
+};
 use crate::bounds::quantum::npa::{self, Level, Verification};
 use crate::error::{Error, Result};
 use crate::formats::certificate::Certificate;
@@ -12,8 +15,12 @@ use crate::limits::Limits;
 use crate::model::correlations::Correlations;
 use crate::model::scenario::Scenario;
 use crate::protocol::finite::{self, Margin, ObservedRun};
-use crate::protocol::key::{chsh_threshold_qber, key_rate, ChshEntropyBound, KeyRate};
+use crate::protocol::key::{
+    binary_entropy, chsh_threshold_qber, error_correction_entropy, key_rate, ChshEntropyBound,
+    KeyRate,
+};
 use crate::protocol::randomness::{guessing_probability, Randomness, Target};
+use serde::Serialize;
 
 /// Options of [`margin`].
 #[derive(Debug, Clone, Copy)]
@@ -262,4 +269,269 @@ pub fn local(correlations: &Correlations, limits: &Limits) -> Result<LocalReport
         name: correlations.name.clone(),
         test: locality_test(correlations, limits)?,
     })
+}
+
+/// What an entropy bound is conditioned on: scores, or one observed behaviour.
+#[derive(Debug, Clone)]
+pub enum EntropyGiven {
+    /// The game's value is at least each of these (one bound per score).
+    Scores(Vec<f64>),
+    /// The devices' full behaviour (a correlations file with the game's players).
+    Behaviour(Correlations),
+}
+
+/// The error-correction term of the key rate: from the behaviour's key pair, or an error rate.
+#[derive(Debug, Clone)]
+pub enum ErrorCorrection {
+    /// Bob's player and question whose answers Alice's key is reconciled with; the joint
+    /// distribution comes from the behaviour.
+    KeyPair(TargetChoice),
+    /// The probability that the key pair's answers differ; H(A|B) is bounded by Fano's
+    /// inequality, h(Q) + Q log₂(|A| − 1).
+    ErrorRate(f64),
+}
+
+/// Options of [`entropy`].
+#[derive(Debug, Clone)]
+pub struct EntropyCommandOptions {
+    /// Whose answer's entropy (default: the first player's answer to its first question).
+    pub target: TargetChoice,
+    /// A second player's answer, for the entropy of the pair.
+    pub with: Option<TargetChoice>,
+    /// The constraint.
+    pub given: EntropyGiven,
+    /// The key rate's error-correction term, when a key rate is asked for.
+    pub key: Option<ErrorCorrection>,
+    /// The hierarchy's options.
+    pub hierarchy: EntropyOptions,
+}
+
+/// The asymptotic Devetak–Winter key rate at one bound.
+#[derive(Debug, Clone, Serialize)]
+pub struct DevetakWinter {
+    /// The lower bound on H(A|X=x*, E) used, in bits.
+    pub conditional_entropy: f64,
+    /// The error-correction term H(A|B, X=x*, Y=y*) (or its Fano bound), in bits.
+    pub error_correction: f64,
+    /// Where that term came from.
+    pub error_correction_from: String,
+    /// The key rate per round, H(A|X=x*, E) − H(A|B, …), floored at 0.
+    pub key_rate: f64,
+}
+
+/// One bound of the `entropy` command.
+#[derive(Debug, Clone, Serialize)]
+pub struct EntropyResult {
+    /// The score the bound assumes (absent for a behaviour).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub score: Option<f64>,
+    /// The bound.
+    pub entropy: ConditionalEntropy,
+    /// The key rate, when asked for.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub key: Option<DevetakWinter>,
+}
+
+/// Bounds on a conditional von Neumann entropy (the `entropy` command).
+#[derive(Debug, Clone)]
+pub struct EntropyReport<'a> {
+    /// The game.
+    pub game: &'a Game,
+    /// Whose answers.
+    pub target: Target,
+    /// The answers in words, e.g. `alice (question 0)`.
+    pub target_name: String,
+    /// What the bounds are conditioned on, in words.
+    pub given: String,
+    /// One result per score, or one for the behaviour.
+    pub results: Vec<EntropyResult>,
+    /// Scores of a sweep that could not be bounded, with the reason.
+    pub not_obtained: Vec<String>,
+    /// The assumptions behind every figure.
+    pub assumptions: Vec<String>,
+}
+
+/// The assumptions the entropy and key figures rest on.
+pub fn entropy_assumptions(key: bool) -> Vec<String> {
+    let mut a = vec![
+        "adversary: quantum side information E on the devices' source (collective attacks: i.i.d. rounds, each with the same strategy)".to_string(),
+        "asymptotic: a per-round figure for infinitely many rounds; the finite-size statement is separate".to_string(),
+        "the devices' behaviour is quantum, with the players' measurements commuting (no communication during a round), and nothing else is assumed about them".to_string(),
+    ];
+    if key {
+        a.push("key rate: Devetak–Winter rate with one-way error correction at the Shannon limit (Devetak & Winter 2005, Proc. R. Soc. A 461, 207)".to_string());
+    }
+    a.push("not a security proof: defer to the peer-reviewed proof of the protocol and the certification practice that applies".to_string());
+    a
+}
+
+/// The `entropy` command: a verified lower bound on H(A|X=x*, E) at each score, or for the
+/// behaviour, and optionally the Devetak–Winter key rate.
+pub fn entropy<'a>(game: &'a Game, options: &EntropyCommandOptions) -> Result<EntropyReport<'a>> {
+    let s = &game.scenario;
+    let mut parts = vec![options.target.resolve(s, 0)?];
+    if let Some(with) = &options.with {
+        parts.push(with.resolve(s, 1)?);
+    }
+    let target = Target { parts };
+    target.check(s)?;
+    if options.key.is_some() && target.parts.len() != 1 {
+        return Err(Error::InvalidArgument(
+            "a key rate is for one player's key answers: leave out the second player".into(),
+        ));
+    }
+    let (constraints, given): (Vec<(Option<f64>, EntropyConstraint)>, String) = match &options.given
+    {
+        EntropyGiven::Scores(scores) => {
+            if scores.is_empty() {
+                return Err(Error::InvalidArgument("no score given".into()));
+            }
+            (
+                scores
+                    .iter()
+                    .map(|&v| (Some(v), EntropyConstraint::Score(v)))
+                    .collect(),
+                "score at least".into(),
+            )
+        }
+        EntropyGiven::Behaviour(c) => {
+            check_same_players(s, c)?;
+            (
+                vec![(None, EntropyConstraint::Behaviour(c.p.clone()))],
+                format!("the behaviour `{}`", c.name),
+            )
+        }
+    };
+    let error_correction = match &options.key {
+        None => None,
+        Some(ErrorCorrection::ErrorRate(q)) => {
+            if !(0.0..=1.0).contains(q) {
+                return Err(Error::InvalidArgument(format!(
+                    "the error rate must be a probability, got {q}"
+                )));
+            }
+            let d = s.parties()[target.parts[0].0].answers() as f64;
+            let fano = binary_entropy(*q) + q * (d - 1.0).log2();
+            Some((
+                fano,
+                format!("Fano's bound at error rate {q}: h(Q) + Q·log₂({d} − 1)"),
+            ))
+        }
+        Some(ErrorCorrection::KeyPair(choice)) => {
+            let EntropyGiven::Behaviour(c) = &options.given else {
+                return Err(Error::InvalidArgument(
+                    "the key pair's error-correction term needs the behaviour; with a score, give the error rate instead".into(),
+                ));
+            };
+            let (pa, xa) = target.parts[0];
+            let (pb, yb) = choice.resolve(s, 1)?;
+            if pb == pa {
+                return Err(Error::InvalidArgument(
+                    "the key pair needs a second player".into(),
+                ));
+            }
+            let table = key_pair_table(s, &c.p, (pa, xa), (pb, yb));
+            let h = error_correction_entropy(&table)?;
+            Some((
+                h,
+                format!(
+                    "H(A|B) of the behaviour's answers of {} (question {}) and {} (question {})",
+                    s.parties()[pa].name,
+                    s.parties()[pa].question_labels[xa],
+                    s.parties()[pb].name,
+                    s.parties()[pb].question_labels[yb]
+                ),
+            ))
+        }
+    };
+    let mut results = Vec::new();
+    let mut not_obtained = Vec::new();
+    let sweep = constraints.len() > 1;
+    for (score, constraint) in constraints {
+        match conditional_entropy(s, &target, &constraint, &options.hierarchy) {
+            Ok(entropy) => {
+                let key = error_correction.as_ref().map(|(h, from)| DevetakWinter {
+                    conditional_entropy: entropy.bits,
+                    error_correction: *h,
+                    error_correction_from: from.clone(),
+                    key_rate: (entropy.bits - h).max(0.0),
+                });
+                results.push(EntropyResult {
+                    score,
+                    entropy,
+                    key,
+                });
+            }
+            Err(e) if sweep && !matches!(e, Error::TooLarge { .. }) => {
+                not_obtained.push(format!("score {}: {e}", score.unwrap_or(f64::NAN)))
+            }
+            Err(e) => return Err(e),
+        }
+    }
+    if results.is_empty() {
+        return Err(Error::InvalidArgument(format!(
+            "no score of the sweep could be bounded: {}",
+            not_obtained.join("; ")
+        )));
+    }
+    Ok(EntropyReport {
+        game,
+        target_name: target_name(s, &target),
+        target,
+        given,
+        results,
+        not_obtained,
+        assumptions: entropy_assumptions(options.key.is_some()),
+    })
+}
+
+/// The answers of a target in words, e.g. `alice (question 0) and bob (question 1)`.
+fn target_name(s: &Scenario, target: &Target) -> String {
+    target
+        .parts
+        .iter()
+        .map(|&(p, x)| {
+            format!(
+                "{} (question {})",
+                s.parties()[p].name,
+                s.parties()[p].question_labels[x]
+            )
+        })
+        .collect::<Vec<_>>()
+        .join(" and ")
+}
+
+/// Refuses correlations whose players differ from the game's (names, question and answer counts).
+fn check_same_players(s: &Scenario, c: &Correlations) -> Result<()> {
+    let same = c.parties.len() == s.players()
+        && c.parties.iter().zip(s.parties()).all(|(a, b)| {
+            a.name == b.name && a.questions() == b.questions() && a.answers() == b.answers()
+        });
+    if same {
+        Ok(())
+    } else {
+        Err(Error::InvalidArgument(format!(
+            "the behaviour `{}` does not have the game's players (names, question and answer counts, in order)",
+            c.name
+        )))
+    }
+}
+
+/// p(a, b | x*, y*) of two players, the others' answers summed out at their first question.
+fn key_pair_table(s: &Scenario, p: &[f64], a: (usize, usize), b: (usize, usize)) -> Vec<Vec<f64>> {
+    let parties = s.parties();
+    let qr: Vec<usize> = parties.iter().map(|q| q.questions()).collect();
+    let ar: Vec<usize> = parties.iter().map(|q| q.answers()).collect();
+    let na: usize = ar.iter().product();
+    let mut qd = vec![0; parties.len()];
+    qd[a.0] = a.1;
+    qd[b.0] = b.1;
+    let qi = crate::model::scenario::index_of(&qd, &qr);
+    let mut table = vec![vec![0.0; ar[b.0]]; ar[a.0]];
+    let mut ad = vec![0; parties.len()];
+    for ai in 0..na {
+        crate::model::scenario::digits(ai, &ar, &mut ad);
+        table[ad[a.0]][ad[b.0]] += p[qi * na + ai];
+    }
+    table
 }

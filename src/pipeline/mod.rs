@@ -10,8 +10,10 @@ mod figures;
 mod review;
 
 pub use figures::{
-    key, local, margin, randomness, verify, KeyReport, LocalReport, MarginOptions, MarginReport,
-    RandomnessOptions, RandomnessReport, TargetChoice, VerifyReport,
+    entropy, entropy_assumptions, key, local, margin, randomness, verify, DevetakWinter,
+    EntropyCommandOptions, EntropyGiven, EntropyReport, EntropyResult, ErrorCorrection, KeyReport,
+    LocalReport, MarginOptions, MarginReport, RandomnessOptions, RandomnessReport, TargetChoice,
+    VerifyReport,
 };
 pub use review::{review, Review, ReviewKey, ReviewRandomness};
 

@@ -14,20 +14,15 @@ use std::collections::BTreeMap;
 
 use serde::Serialize;
 
+use crate::bounds::entropy::event_terms;
+pub use crate::bounds::entropy::Target;
 use crate::bounds::quantum::npa::{self, Entry, Level, Relaxation};
-use crate::bounds::quantum::words::{moment_key, Projector, Word};
+use crate::bounds::quantum::words::{moment_key, Word};
 use crate::error::{Error, Result};
 use crate::model::scenario::Scenario;
 use crate::optim::backend::{self, Backend};
 use crate::optim::sdp::{AffineEntry, MatrixBlock, SdpProblem};
 use crate::optim::SolveStatus;
-
-/// Whose answers the adversary guesses: one or two (player, question index) pairs.
-#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
-pub struct Target {
-    /// (player, question index) of each guessed answer.
-    pub parts: Vec<(usize, usize)>,
-}
 
 /// A bound on the guessing probability at one score.
 #[derive(Debug, Clone, Serialize)]
@@ -54,38 +49,6 @@ pub struct Randomness {
     pub score_multiplier: Option<f64>,
     /// Wall-clock time.
     pub seconds: f64,
-}
-
-/// `Π_i f_i` for the event "player i answers a_i to question x_i" in Collins–Gisin form: a
-/// combination of words (the empty word is the identity).
-fn event_terms(s: &Scenario, parts: &[(usize, usize, usize)]) -> Vec<(Word, f64)> {
-    let mut terms: Vec<(Word, f64)> = vec![(Vec::new(), 1.0)];
-    for &(player, question, answer) in parts {
-        let last = s.parties()[player].answers() - 1;
-        let op = |a: usize| Projector {
-            player: player as u16,
-            setting: question as u32,
-            outcome: a as u32,
-        };
-        let factor: Vec<(Option<Projector>, f64)> = if answer < last {
-            vec![(Some(op(answer)), 1.0)]
-        } else {
-            std::iter::once((None, 1.0))
-                .chain((0..last).map(|a| (Some(op(a)), -1.0)))
-                .collect()
-        };
-        let mut next = Vec::new();
-        for (w, c) in &terms {
-            for (p, f) in &factor {
-                let mut w2 = w.clone();
-                w2.extend(p.iter().copied());
-                w2.sort_by_key(|p| p.player);
-                next.push((w2, c * f));
-            }
-        }
-        terms = next;
-    }
-    terms
 }
 
 /// The guessing probability at one score. Near the quantum maximum the feasible set becomes

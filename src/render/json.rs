@@ -19,8 +19,8 @@ use crate::optim::backend::Backend;
 use crate::optim::lp::LpMethod;
 use crate::optim::SolveStatus;
 use crate::pipeline::{
-    CommandKind, GameReport, Gaps, KeyReport, LocalReport, MarginReport, RandomnessReport, Review,
-    VerifyReport,
+    CommandKind, EntropyReport, EntropyResult, GameReport, Gaps, KeyReport, LocalReport,
+    MarginReport, RandomnessReport, Review, VerifyReport,
 };
 use crate::protocol::finite::Margin;
 use crate::protocol::key::KeyRate;
@@ -435,6 +435,37 @@ impl Serialize for RandomnessReport<'_> {
             sweep: one.is_none().then_some(&self.results[..]),
             one,
             not_obtained: &self.not_obtained,
+        }
+        .serialize(serializer)
+    }
+}
+
+#[derive(Serialize)]
+struct EntropyView<'a> {
+    schema_version: u32,
+    command: &'static str,
+    game: &'a str,
+    target: &'a str,
+    given: &'a str,
+    results: &'a [EntropyResult],
+    #[serde(skip_serializing_if = "<[String]>::is_empty")]
+    not_obtained: &'a [String],
+    assumptions: &'a [String],
+    caution: &'static str,
+}
+
+impl Serialize for EntropyReport<'_> {
+    fn serialize<S: Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        EntropyView {
+            schema_version: SCHEMA_VERSION,
+            command: "entropy",
+            game: &self.game.name,
+            target: &self.target_name,
+            given: &self.given,
+            results: &self.results,
+            not_obtained: &self.not_obtained,
+            assumptions: &self.assumptions,
+            caution: CAUTION,
         }
         .serialize(serializer)
     }

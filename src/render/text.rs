@@ -7,8 +7,8 @@ use crate::model::scenario::Scenario;
 use crate::model::symmetry::Relabelling;
 use crate::numbers::{bits_text, count_text, fixed6, num, num_sig, with_fraction};
 use crate::pipeline::{
-    GameReport, KeyReport, LocalReport, MarginReport, RandomnessReport, VerifyReport,
-    QUANTUM_SETTLED_TOLERANCE,
+    EntropyReport, GameReport, KeyReport, LocalReport, MarginReport, RandomnessReport,
+    VerifyReport, QUANTUM_SETTLED_TOLERANCE,
 };
 use crate::protocol::finite::Margin;
 use crate::protocol::CAUTION;
@@ -493,6 +493,55 @@ pub fn randomness(report: &RandomnessReport) -> String {
         "\nassumptions: quantum adversary, i.i.d. rounds, asymptotic per-round figure.\n{}\n",
         CAUTION
     );
+    out
+}
+
+/// Entropy bounds, per score or for a behaviour, with the key rate when asked.
+pub fn entropy(report: &EntropyReport) -> String {
+    let mut out = format!(
+        "game     {} ({})\nanswers  {}\ngiven    {}\n",
+        report.game.name, report.game.source, report.target_name, report.given
+    );
+    if let Some(first) = report.results.first() {
+        out += &format!("method   {}\n", first.entropy.method);
+    }
+    out += "\n";
+    let key = report.results.iter().any(|r| r.key.is_some());
+    out += &format!(
+        "{:>14}  {:>18}  {:>14}{}\n",
+        "score",
+        "H(A|X,E) ≥ (bits)",
+        "solver sum",
+        if key {
+            "   H(A|B) (bits)   key rate ≥"
+        } else {
+            ""
+        }
+    );
+    for r in &report.results {
+        let score = r.score.map_or("behaviour".to_string(), num);
+        out += &format!(
+            "{:>14}  {:>18}  {:>14}",
+            score,
+            num(r.entropy.bits),
+            num(r.entropy.solver_bits)
+        );
+        if let Some(k) = &r.key {
+            out += &format!("   {:>13}   {}", num(k.error_correction), num(k.key_rate));
+        }
+        out += &format!("  ({:.2} s)\n", r.entropy.seconds);
+    }
+    if let Some(k) = report.results.iter().find_map(|r| r.key.as_ref()) {
+        out += &format!("\nerror correction: {}\n", k.error_correction_from);
+    }
+    for f in &report.not_obtained {
+        out += &format!("not obtained: {f}\n");
+    }
+    out += "\nassumptions:\n";
+    for a in &report.assumptions {
+        out += &format!("  - {a}\n");
+    }
+    out += &format!("{CAUTION}\n");
     out
 }
 

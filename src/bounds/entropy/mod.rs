@@ -3,7 +3,14 @@
 //! arXiv:2106.13692). The relative entropy behind H(A|E) is written as an integral over
 //! t ∈ [0, 1]; a Gauss–Radau rule with its last node fixed at t = 1 turns it into a finite sum
 //! whose terms are non-commutative polynomial optimisations, each bounded by an NPA-type
-//! relaxation. This module holds the quadrature; the relaxations build on
-//! [`crate::bounds::quantum`].
+//! relaxation with the adversary's operators ([`relaxation`]), summed in [`hierarchy`].
 
+pub mod hierarchy;
 pub mod quadrature;
+pub mod relaxation;
+
+pub use hierarchy::{
+    conditional_entropy, event_terms, ConditionalEntropy, EntropyConstraint, EntropyOptions,
+    NodeBound, Target,
+};
+pub use relaxation::{AdversaryWords, MomentField};
