@@ -241,7 +241,7 @@ pub enum Command {
         #[arg(long, allow_hyphen_values = true)]
         with_question: Option<i64>,
         /// Gauss–Radau nodes (2 to 64); one relaxation is solved per node but the last.
-        #[arg(long, default_value_t = 8)]
+        #[arg(long, default_value_t = bellgap::bounds::entropy::hierarchy::DEFAULT_NODES)]
         nodes: usize,
         /// The players' NPA level of each relaxation.
         #[arg(long, default_value = "1+joint", long_help = LEVEL_HELP)]

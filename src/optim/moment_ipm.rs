@@ -38,6 +38,20 @@ pub struct IpmOptions {
     pub max_iterations: usize,
     /// Relative duality gap and relative residuals to reach.
     pub tolerance: f64,
+    /// What a run that stalls short of the relaxed tolerance returns.
+    pub on_stall: StallPolicy,
+}
+
+/// What a run that stalls short of the relaxed tolerance returns.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum StallPolicy {
+    /// An error (the caller may try another solver): for callers that report the solver's
+    /// value as the answer.
+    #[default]
+    Error,
+    /// The best iterate, with status [`SolveStatus::Stalled`] and its verified bound: for callers
+    /// that use only the verified bound, which holds for any dual vector.
+    KeepBest,
 }
 
 impl Default for IpmOptions {
@@ -45,6 +59,7 @@ impl Default for IpmOptions {
         IpmOptions {
             max_iterations: 100,
             tolerance: 1e-9,
+            on_stall: StallPolicy::Error,
         }
     }
 }
@@ -908,6 +923,8 @@ pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpS
         SolveStatus::Solved
     } else if accuracy <= ALMOST_SOLVED {
         SolveStatus::AlmostSolved
+    } else if opts.on_stall == StallPolicy::KeepBest && !x.is_empty() {
+        SolveStatus::Stalled
     } else {
         return Err(Error::solver_stopped(
             stage,
