@@ -140,21 +140,26 @@ fn two_bit_correlations(name: &str, rows: [[&str; 4]; 4]) -> PathBuf {
     temp_file(name, &text)
 }
 
-#[test]
-fn locality_test_of_the_tsirelson_box() {
-    // The optimal CHSH correlations: p(ab|xy) = (1 + (-1)^(a+b+xy)/√2)/4. Their critical white
-    // noise visibility is 1/√2, where the CHSH value 2√2·v reaches the local bound 2 (CHSH 1969;
-    // Cirel'son 1980).
+/// The optimal CHSH correlations, p(ab|xy) = (1 + (−1)^(a+b+xy)/√2)/4, as a file.
+fn tsirelson_box(name: &str) -> PathBuf {
     let (hi, lo) = ("(1 + 1/sqrt(2))/4", "(1 - 1/sqrt(2))/4");
-    let path = two_bit_correlations(
-        "tsirelson.yaml",
+    two_bit_correlations(
+        name,
         [
             [hi, lo, lo, hi],
             [hi, lo, lo, hi],
             [hi, lo, lo, hi],
             [lo, hi, hi, lo],
         ],
-    );
+    )
+}
+
+#[test]
+fn locality_test_of_the_tsirelson_box() {
+    // The optimal CHSH correlations: p(ab|xy) = (1 + (-1)^(a+b+xy)/√2)/4. Their critical white
+    // noise visibility is 1/√2, where the CHSH value 2√2·v reaches the local bound 2 (CHSH 1969;
+    // Cirel'son 1980).
+    let path = tsirelson_box("tsirelson.yaml");
     let save = std::env::temp_dir().join(format!("bellgap-cli-{}/sep.yaml", std::process::id()));
     let out = bellgap(&[
         "local",
@@ -478,16 +483,7 @@ fn entropy_of_the_tsirelson_box_and_its_key_rate() {
     // The optimal CHSH behaviour certifies one full bit of H(A|X=0,E) (Acín et al. 2007, PRL 98,
     // 230501), and no bound may exceed it; Bob's answers to his first question differ from Alice's with probability
     // Q = (1 − 1/√2)/2, so the Devetak–Winter rate is 1 − h(Q) ≈ 0.3991.
-    let (hi, lo) = ("(1 + 1/sqrt(2))/4", "(1 - 1/sqrt(2))/4");
-    let path = two_bit_correlations(
-        "tsirelson-key.yaml",
-        [
-            [hi, lo, lo, hi],
-            [hi, lo, lo, hi],
-            [hi, lo, lo, hi],
-            [lo, hi, hi, lo],
-        ],
-    );
+    let path = tsirelson_box("tsirelson-key.yaml");
     let out = bellgap(&[
         "entropy",
         "games/chsh-expression.yaml",

@@ -42,9 +42,9 @@ fn the_chsh_curve_is_bounded_and_met_within_1e_3_from_the_middle_up() {
     // 230501; Pironio et al. 2009, NJP 11, 045021), so no valid lower bound may exceed it. With
     // the defaults (12 nodes, level 1+joint with the players' words times the adversary's
     // letters) the hierarchy meets it within 1e-3 from the middle of the range to the top
-    // (measured: 4e-5 below at S = 2.5, 1.3e-4 at S = 2.8); near S = 2.1 this level is 4.4e-3
-    // short and level 2 is needed (measured 9e-5 short, but 97 s), so there only validity is
-    // checked here.
+    // (measured: 4.3e-5 below at S = 2.5 with 8 nodes, 1.6e-4 at S = 2.8 with 12); near S = 2.1
+    // this level is 4.4e-3 short and level 2 is needed (measured 8.6e-5 short, but 97 s), so
+    // there only validity is checked here.
     let game = chsh();
     let options = EntropyOptions::default();
     for score in [2.5, 2.8] {
@@ -71,6 +71,46 @@ fn the_chsh_curve_is_bounded_and_met_within_1e_3_from_the_middle_up() {
             "S = {score}"
         );
     }
+}
+
+#[test]
+fn the_min_tradeoff_line_touches_the_bound_and_stays_under_the_curve() {
+    // The CHSH curve is convex in S, and every quantum behaviour scoring S has at least the
+    // curve's entropy, so a valid affine bound lies under the curve wherever it is defined.
+    let game = chsh();
+    let got = at_score(&game.scenario, 2.7, &light());
+    let f = got
+        .min_tradeoff
+        .expect("a score constraint gives a min-tradeoff function");
+    assert_eq!(f.score, 2.7);
+    assert!(
+        (f.at(2.7) - got.bits).abs() < 1e-6,
+        "{} {}",
+        f.at(2.7),
+        got.bits
+    );
+    assert!(f.slope > 0.0);
+    assert!(f.highest <= 2.0 * 2f64.sqrt() + 1e-6);
+    for k in 0..=20 {
+        let score = 2.0 + 0.04 * k as f64;
+        if score > f.highest {
+            break;
+        }
+        assert!(
+            f.at(score) <= ChshEntropyBound.entropy(score) + 1e-7,
+            "S = {score}: {} above the curve",
+            f.at(score)
+        );
+    }
+    // A behaviour gives no function of the score.
+    let by_behaviour = conditional_entropy(
+        &game.scenario,
+        &alice_first(),
+        &EntropyConstraint::Behaviour(noisy_tsirelson(0.9)),
+        &light(),
+    )
+    .unwrap();
+    assert!(by_behaviour.min_tradeoff.is_none());
 }
 
 #[test]

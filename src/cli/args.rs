@@ -192,18 +192,8 @@ pub enum Command {
         /// Sweep the score: LOW:HIGH:POINTS.
         #[arg(long)]
         sweep: Option<String>,
-        /// Whose answer is guessed (default: the first player).
-        #[arg(long)]
-        player: Option<String>,
-        /// To which question (label; default: the first).
-        #[arg(long, allow_hyphen_values = true)]
-        question: Option<i64>,
-        /// Also guess this second player's answer (the pair of answers).
-        #[arg(long = "with")]
-        with_player: Option<String>,
-        /// The second player's question (label; default: the first).
-        #[arg(long, allow_hyphen_values = true)]
-        with_question: Option<i64>,
+        #[command(flatten)]
+        answers: AnswerArgs,
         /// NPA level of the relaxation.
         #[arg(long, default_value = "2", long_help = LEVEL_HELP)]
         level: String,
@@ -228,18 +218,8 @@ pub enum Command {
         /// game's players (it must be no-signalling).
         #[arg(long, value_name = "FILE")]
         behaviour: Option<PathBuf>,
-        /// Whose answer (default: the first player).
-        #[arg(long)]
-        player: Option<String>,
-        /// To which question (label; default: the first).
-        #[arg(long, allow_hyphen_values = true)]
-        question: Option<i64>,
-        /// Also this second player's answer (the entropy of the pair).
-        #[arg(long = "with")]
-        with_player: Option<String>,
-        /// The second player's question (label; default: the first).
-        #[arg(long, allow_hyphen_values = true)]
-        with_question: Option<i64>,
+        #[command(flatten)]
+        answers: AnswerArgs,
         /// Gauss–Radau nodes (2 to 64); one relaxation is solved per node but the last.
         #[arg(long, default_value_t = bellgap::bounds::entropy::hierarchy::DEFAULT_NODES)]
         nodes: usize,
@@ -352,6 +332,23 @@ pub enum SolverArg {
     Ipm,
     Clarabel,
     FirstOrder,
+}
+
+/// Whose answers (`randomness`, `entropy`): one player's, or a pair's.
+#[derive(Args, Debug, Clone)]
+pub struct AnswerArgs {
+    /// Whose answer (default: the first player).
+    #[arg(long)]
+    pub player: Option<String>,
+    /// To which question (label; default: the first).
+    #[arg(long, allow_hyphen_values = true)]
+    pub question: Option<i64>,
+    /// Also this second player's answer (the pair of answers).
+    #[arg(long = "with")]
+    pub with_player: Option<String>,
+    /// The second player's question (label; default: the first).
+    #[arg(long, allow_hyphen_values = true)]
+    pub with_question: Option<i64>,
 }
 
 #[derive(ValueEnum, Debug, Clone, Copy)]

@@ -22,8 +22,8 @@ use bellgap::protocol::finite::ObservedRun;
 use bellgap::{Error, Result};
 
 use super::args::{
-    AdversaryWordsArg, Cli, Command, EntropySolverArg, FamilyCommand, GameArgs, MethodArg,
-    MomentsArg, SolverArg, SymmetryArg,
+    AdversaryWordsArg, AnswerArgs, Cli, Command, EntropySolverArg, FamilyCommand, GameArgs,
+    MethodArg, MomentsArg, SolverArg, SymmetryArg,
 };
 
 /// A game file and how to compile it.
@@ -199,6 +199,22 @@ pub fn first_order(budget: Option<f64>) -> Result<FirstOrderOptions> {
         options.max_seconds = seconds;
     }
     Ok(options)
+}
+
+/// The first player's answer named by `--player` / `--question`.
+fn first_answer(a: &AnswerArgs) -> TargetChoice {
+    TargetChoice {
+        player: a.player.clone(),
+        question: a.question,
+    }
+}
+
+/// The second player's answer named by `--with` / `--with-question`, when given.
+fn second_answer(a: &AnswerArgs) -> Option<TargetChoice> {
+    a.with_player.as_ref().map(|p| TargetChoice {
+        player: Some(p.clone()),
+        question: a.with_question,
+    })
 }
 
 /// `--solver`.
@@ -424,23 +440,14 @@ impl Invocation {
                 args,
                 score,
                 sweep: spec,
-                player,
-                question,
-                with_player,
-                with_question,
+                answers,
                 level,
                 svg,
             } => Request::Randomness {
                 game: game_input(args),
                 options: RandomnessOptions {
-                    guessed: TargetChoice {
-                        player: player.clone(),
-                        question: *question,
-                    },
-                    with: with_player.as_ref().map(|p| TargetChoice {
-                        player: Some(p.clone()),
-                        question: *with_question,
-                    }),
+                    guessed: first_answer(answers),
+                    with: second_answer(answers),
                     scores: match (score, spec) {
                         (_, Some(spec)) => sweep(spec)?,
                         (Some(v), None) => vec![*v],
@@ -455,10 +462,7 @@ impl Invocation {
                 score,
                 sweep: spec,
                 behaviour,
-                player,
-                question,
-                with_player,
-                with_question,
+                answers,
                 nodes,
                 level,
                 adversary_words,
@@ -471,14 +475,8 @@ impl Invocation {
                 game: game_input(args),
                 behaviour: behaviour.clone(),
                 options: EntropyCommandOptions {
-                    target: TargetChoice {
-                        player: player.clone(),
-                        question: *question,
-                    },
-                    with: with_player.as_ref().map(|p| TargetChoice {
-                        player: Some(p.clone()),
-                        question: *with_question,
-                    }),
+                    target: first_answer(answers),
+                    with: second_answer(answers),
                     // A behaviour replaces the scores once the runner has read it.
                     given: EntropyGiven::Scores(match (score, spec, behaviour) {
                         (_, _, Some(_)) => Vec::new(),

@@ -188,18 +188,7 @@ pub fn randomness<'a>(game: &'a Game, options: &RandomnessOptions) -> Result<Ran
             not_obtained.join("; ")
         )));
     }
-    let target_name = target
-        .parts
-        .iter()
-        .map(|&(p, x)| {
-            format!(
-                "{} (question {})",
-                s.parties()[p].name,
-                s.parties()[p].question_labels[x]
-            )
-        })
-        .collect::<Vec<_>>()
-        .join(" and ");
+    let target_name = target_name(s, &target);
     Ok(RandomnessReport {
         game,
         target,

@@ -186,16 +186,7 @@ fn guessing_probability_at(
         Mode::Penalty(_) => score,
     };
     let start = std::time::Instant::now();
-    if target.parts.is_empty() || target.parts.len() > 2 {
-        return Err(Error::InvalidArgument(
-            "guess the answers of one or two players".into(),
-        ));
-    }
-    if target.parts.len() == 2 && target.parts[0].0 == target.parts[1].0 {
-        return Err(Error::InvalidArgument(
-            "the two guessed answers must belong to different players".into(),
-        ));
-    }
+    target.check(s)?;
     let m = r.matrix.moments.len();
     let index: BTreeMap<&Word, usize> = r
         .matrix

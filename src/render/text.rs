@@ -531,6 +531,20 @@ pub fn entropy(report: &EntropyReport) -> String {
         }
         out += &format!("  ({:.2} s)\n", r.entropy.seconds);
     }
+    for r in &report.results {
+        if let Some(f) = &r.entropy.min_tradeoff {
+            out += &format!(
+                "min-tradeoff: f(S) = {} + {}·(S − {}) bits, valid for every S from {} to {} (f = {} and {} there)\n",
+                num(f.at(f.score)),
+                num(f.slope),
+                num(f.score),
+                num(f.lowest),
+                num(f.highest),
+                num(f.at_lowest),
+                num(f.at_highest)
+            );
+        }
+    }
     if let Some(k) = report.results.iter().find_map(|r| r.key.as_ref()) {
         out += &format!("\nerror correction: {}\n", k.error_correction_from);
     }

@@ -43,7 +43,7 @@ use super::relaxation::{
     EveLetter, MomentField, MomentTerms,
 };
 use crate::bounds::quantum::npa::{self, Level};
-use crate::bounds::quantum::words::{Projector, Word};
+use crate::bounds::quantum::words::{collins_gisin_word, Projector, Word};
 use crate::error::{Error, Result};
 use crate::model::collins_gisin::CollinsGisin;
 use crate::model::scenario::{digits, Scenario};
@@ -174,7 +174,7 @@ pub struct EntropyOptions {
 }
 
 /// Default node count: near the top of the CHSH range the rule's own error matters (at S = 2.8,
-/// 8 nodes fall 1.3e-3 short of the curve, 12 nodes 1.3e-4; measured).
+/// 8 nodes fall 1.4e-3 short of the curve, 12 nodes 1.6e-4; measured).
 pub const DEFAULT_NODES: usize = 12;
 
 impl Default for EntropyOptions {
@@ -230,8 +230,47 @@ pub struct ConditionalEntropy {
     pub matrix_size: usize,
     /// Per node (t_i < 1).
     pub terms: Vec<NodeBound>,
+    /// With a score constraint: the affine lower bound on H as a function of the score that the
+    /// same dual certificates prove (the min-tradeoff function of entropy accumulation).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub min_tradeoff: Option<MinTradeoff>,
     /// Wall-clock time.
     pub seconds: f64,
+}
+
+/// An affine function of the score, f(S) = `at_lowest` + `slope`·(S − `lowest`), with
+/// H(A|X=x*, E) ≥ f(S) for every quantum behaviour scoring at least S, for every S up to
+/// `highest`.
+///
+/// Each node's dual certificate was found at one score, but it is dual feasible at every score:
+/// only the right-hand side of the score block changes, so its verified bound, re-evaluated with
+/// the same dual vector at another score, is valid there. That bound is affine in the score (the
+/// dual objective is, and so is the charge of the score block, whose trace bound is the highest
+/// value minus the score) plus a floating-point charge that is convex in it (sums of absolute
+/// values of affine terms); so the verified upper bounds are convex in the score, lie below their
+/// chord, and the entropy bound, one minus them, lies above the line through its values at the
+/// ends: that line is the min-tradeoff function.
+#[derive(Debug, Clone, Serialize)]
+pub struct MinTradeoff {
+    /// The score the certificates were found at (where the line touches the bound).
+    pub score: f64,
+    /// The lowest score of the range: the game's lowest value.
+    pub lowest: f64,
+    /// The highest score of the range: the NPA level's verified upper bound.
+    pub highest: f64,
+    /// f at `lowest`.
+    pub at_lowest: f64,
+    /// f at `highest`.
+    pub at_highest: f64,
+    /// The gradient, bits per unit of score.
+    pub slope: f64,
+}
+
+impl MinTradeoff {
+    /// f(S).
+    pub fn at(&self, score: f64) -> f64 {
+        self.at_lowest + self.slope * (score - self.lowest)
+    }
 }
 
 /// The game's value as a functional of the players' moments: (words and coefficients,
@@ -302,14 +341,7 @@ fn behaviour_equalities(s: &Scenario, p: &[f64]) -> Result<Vec<(MomentTerms, f64
                 hi - lo
             )));
         }
-        let word: Word = (0..n)
-            .filter(|i| mask >> i & 1 == 1)
-            .map(|i| Projector {
-                player: i as u16,
-                setting: q[i] as u32,
-                outcome: a[i] as u32,
-            })
-            .collect();
+        let word = collins_gisin_word(mask, &q, &a);
         rows.push((vec![(players_only(word), 1.0)], sum / count));
     }
     Ok(rows)
@@ -396,6 +428,7 @@ pub fn conditional_entropy(
     let rule = RadauRule::new(options.nodes)?;
     let events = target.events(s).len();
     let matrix = EntropyMatrix::new(s, &options.level, events, options.adversary)?;
+    let mut tradeoff_ends: Option<(f64, f64, f64)> = None;
     let (equalities, at_least) = match constraint {
         EntropyConstraint::Score(v) => {
             if !v.is_finite() {
@@ -413,9 +446,11 @@ pub fn conditional_entropy(
                     options.level.name()
                 )));
             }
+            let (lowest, highest_value) = s.value_range();
+            tradeoff_ends = Some((lowest, quantum.verified_upper.min(highest_value), *v));
             (
                 Vec::new(),
-                vec![(value_terms(s, &options.level)?, *v, s.value_range().1)],
+                vec![(value_terms(s, &options.level)?, *v, highest_value)],
             )
         }
         EntropyConstraint::Behaviour(p) => (behaviour_equalities(s, p)?, Vec::new()),
@@ -423,6 +458,7 @@ pub fn conditional_entropy(
     let mut terms = Vec::new();
     let (mut bits, mut solver_bits, mut magnitude) = (0.0, 0.0, 0.0);
     let m = rule.nodes.len();
+    let (mut at_ends, mut ends_magnitude) = ((0.0, 0.0), 0.0);
     for (&t, &w) in rule.nodes[..m - 1].iter().zip(&rule.weights[..m - 1]) {
         let alpha = 1.0 / (2.0 * (t * (1.0 - t)).sqrt());
         let objective = node_objective(s, target, t);
@@ -452,6 +488,25 @@ pub fn conditional_entropy(
         // lower bound on the infimum.
         let infimum = -sol.certified;
         let factor = w / (t * std::f64::consts::LN_2);
+        if let Some((lowest, highest, _)) = tradeoff_ends {
+            for (end, sum) in [(lowest, &mut at_ends.0), (highest, &mut at_ends.1)] {
+                let moved: Vec<(MomentTerms, f64, f64)> = at_least
+                    .iter()
+                    .map(|(terms, _, most)| (terms.clone(), end, *most))
+                    .collect();
+                let there = node_problem(
+                    &matrix,
+                    &objective,
+                    &equalities,
+                    &moved,
+                    options.field,
+                    alpha,
+                )?;
+                let certified = there.problem.assemble().certified_bound(&sol.z)?;
+                *sum += factor * (1.0 - certified);
+                ends_magnitude += factor * (1.0 + certified.abs());
+            }
+        }
         bits += factor * (1.0 + infimum);
         solver_bits += factor * (1.0 - sol.dual);
         magnitude += factor * (1.0 + infimum.abs());
@@ -469,6 +524,18 @@ pub fn conditional_entropy(
     // place of the exact rule; the quadrature tests check 1e-14), are charged generously.
     let bits = bits - 1e-12 * magnitude;
     let most = (events as f64).log2();
+    let min_tradeoff = tradeoff_ends.and_then(|(lowest, highest, score)| {
+        let charge = 1e-12 * ends_magnitude;
+        let (at_lowest, at_highest) = (at_ends.0 - charge, at_ends.1 - charge);
+        (highest > lowest).then(|| MinTradeoff {
+            score,
+            lowest,
+            highest,
+            at_lowest,
+            at_highest,
+            slope: (at_highest - at_lowest) / (highest - lowest),
+        })
+    });
     Ok(ConditionalEntropy {
         // H(A|E) of a classical A lies in [0, log₂ |A|]; both ends keep the bound valid.
         bits: bits.clamp(0.0, most),
@@ -484,6 +551,7 @@ pub fn conditional_entropy(
         field: options.field,
         matrix_size: matrix.size(),
         terms,
+        min_tradeoff,
         seconds: start.elapsed().as_secs_f64(),
     })
 }

@@ -11,6 +11,6 @@ pub mod relaxation;
 
 pub use hierarchy::{
     conditional_entropy, event_terms, ConditionalEntropy, EntropyConstraint, EntropyOptions,
-    NodeBound, Target,
+    MinTradeoff, NodeBound, Target,
 };
 pub use relaxation::{AdversaryWords, MomentField};

@@ -102,8 +102,8 @@ pub enum AdversaryWords {
     /// hold the objective's terms M_e Z_e* Z_e for a key event of one or two players.
     WithProjectors,
     /// Every generating word of the players' level times each of Z_e and Z_e*. The default:
-    /// at level 1+joint it reproduces the CHSH curve within 2e-5, where
-    /// [`AdversaryWords::WithProjectors`] falls 0.018 short at S = 2.5 (measured).
+    /// at level 1+joint and S = 2.5 it comes within 4.3e-5 of the CHSH curve, where
+    /// [`AdversaryWords::WithProjectors`] falls 0.018 short (measured, 8 nodes).
     #[default]
     WithPlayerWords,
     /// As [`AdversaryWords::WithPlayerWords`], and the products of two of the adversary's
@@ -455,12 +455,8 @@ pub fn with_letters(w: &[Projector], letters: &[EveLetter]) -> EntropyWord {
 mod tests {
     use super::*;
 
-    fn p(player: u16, setting: u32, outcome: u32) -> Projector {
-        Projector {
-            player,
-            setting,
-            outcome,
-        }
+    fn p(player: usize, setting: usize, outcome: usize) -> Projector {
+        Projector::new(player, setting, outcome)
     }
 
     const Z0: EveLetter = EveLetter {

@@ -20,7 +20,9 @@ use std::time::Instant;
 use serde::Serialize;
 
 use super::symmetric::{self, Reduction, SymmetryChoice, SymmetryUse};
-use super::words::{moment_key, product, projectors_of, words_of_pattern, Projector, Word};
+use super::words::{
+    collins_gisin_word, moment_key, product, projectors_of, words_of_pattern, Projector, Word,
+};
 use crate::error::{Error, Result};
 use crate::formats::certificate::{Certificate, CERTIFICATE_FORMAT};
 use crate::limits::{human_seconds, Limits};
@@ -395,7 +397,6 @@ pub fn relaxation(s: &Scenario, level: &Level) -> Result<Relaxation> {
     }
     let matrix = MomentMatrix::new(generating_words(s, level)?);
     let cg = CollinsGisin::new(s);
-    let n = s.players();
     // The game's value in Collins–Gisin coordinates.
     let mut cg_objective = vec![0.0; cg.variables];
     let mut constant = s.offset();
@@ -416,14 +417,7 @@ pub fn relaxation(s: &Scenario, level: &Level) -> Result<Relaxation> {
             continue;
         }
         let (mask, q, a) = cg.describe(v);
-        let word: Word = (0..n)
-            .filter(|i| mask >> i & 1 == 1)
-            .map(|i| Projector {
-                player: i as u16,
-                setting: q[i] as u32,
-                outcome: a[i] as u32,
-            })
-            .collect();
+        let word = collins_gisin_word(mask, &q, &a);
         let Some(&id) = index.get(&moment_key(word)) else {
             return Err(Error::InvalidArgument(format!(
                 "level {} does not contain the products of one operator for each of {} players that this game's value needs; use `1+joint` or a higher level",

@@ -23,6 +23,26 @@ pub struct Projector {
 /// A canonical word; the empty word is the identity.
 pub type Word = Vec<Projector>;
 
+impl Projector {
+    /// `player`'s projector for `outcome` of question `setting`.
+    pub fn new(player: usize, setting: usize, outcome: usize) -> Projector {
+        Projector {
+            player: player as u16,
+            setting: setting as u32,
+            outcome: outcome as u32,
+        }
+    }
+}
+
+/// The word of a Collins–Gisin coordinate: one projector for each player in `mask`, at that
+/// player's question and answer in `q` and `a`.
+pub fn collins_gisin_word(mask: usize, q: &[usize], a: &[usize]) -> Word {
+    (0..q.len())
+        .filter(|i| mask >> i & 1 == 1)
+        .map(|i| Projector::new(i, q[i], a[i]))
+        .collect()
+}
+
 /// Canonical form of a product, or `None` when it is zero.
 pub fn canonical(ops: impl IntoIterator<Item = Projector>) -> Option<Word> {
     canonical_with(ops, &[])
