@@ -148,7 +148,11 @@ pub struct EntropyMatrix {
 pub const IDENTITY: usize = usize::MAX;
 
 /// Most generating words an entropy relaxation may have (its moment matrix is dense).
-pub const MAX_ENTROPY_WORDS: usize = 4000;
+pub const MAX_ENTROPY_WORDS: usize = 2000;
+
+/// Most moments (variables) an entropy relaxation may have: the interior-point method forms a
+/// dense matrix of that side (40,000 moments: 12 GiB, below the 16 GiB every SDP may take).
+pub const MAX_ENTROPY_MOMENTS: usize = 40_000;
 
 impl EntropyMatrix {
     /// The players' words of `level` and the adversary's words for `events` key outcomes.
@@ -230,6 +234,17 @@ impl EntropyMatrix {
                 });
                 entries.push(entry);
             }
+        }
+        if moments.len() > MAX_ENTROPY_MOMENTS {
+            return Err(Error::TooLarge {
+                what: format!("the entropy relaxation at level {}", level.name()),
+                estimate: format!(
+                    "{} moments: the interior-point method's dense system alone would need {:.1} GiB",
+                    moments.len(),
+                    (moments.len() as f64).powi(2) * 8.0 / (1u64 << 30) as f64
+                ),
+                hint: "choose a lower level or fewer adversary words".into(),
+            });
         }
         Ok(EntropyMatrix {
             words,
@@ -536,6 +551,11 @@ mod tests {
             2 * real.problem.blocks[0].size
         );
         assert!(complex.problem.variables > real.problem.variables);
+        // Too many generating words is refused before anything is built.
+        assert!(matches!(
+            EntropyMatrix::new(&s, &Level::Joint, 1000, AdversaryWords::Letters),
+            Err(Error::TooLarge { .. })
+        ));
         // Bounds: α^(number of letters) per moment.
         let k = m.find(&with_letters(&[], &[Z0, Z0S])).unwrap().0;
         assert_eq!(real.problem.variable_bounds[real.real[k]], 4.0);
