@@ -288,6 +288,16 @@ fn bad_requests_are_refused() {
         EntropyConstraint::Behaviour(vec![0.25; 3]),
         &options
     ));
+    // Non-finite or negative probabilities in a behaviour given through the library.
+    for bad in [f64::NAN, f64::INFINITY, -0.25] {
+        let mut p = noisy_tsirelson(0.9);
+        p[5] = bad;
+        assert!(refused(
+            alice_first(),
+            EntropyConstraint::Behaviour(p),
+            &options
+        ));
+    }
     assert!(refused(
         alice_first(),
         EntropyConstraint::Score(2.5),
