@@ -220,23 +220,8 @@ pub enum Command {
         behaviour: Option<PathBuf>,
         #[command(flatten)]
         answers: AnswerArgs,
-        /// Gauss–Radau nodes (2 to 64); one relaxation is solved per node but the last.
-        #[arg(long, default_value_t = bellgap::bounds::entropy::hierarchy::DEFAULT_NODES)]
-        nodes: usize,
-        /// The players' NPA level of each relaxation.
-        #[arg(long, default_value = "1+joint", long_help = LEVEL_HELP)]
-        level: String,
-        /// Which of the adversary's words join the players' words.
-        #[arg(long, value_enum, default_value = "with-player-words")]
-        adversary_words: AdversaryWordsArg,
-        /// Real symmetric or complex Hermitian moment matrices (the same bound; complex is a
-        /// check and costs more).
-        #[arg(long, value_enum, default_value = "real")]
-        moments: MomentsArg,
-        /// SDP solver of the relaxations (first-order is not offered: each node's bound needs
-        /// an accurate dual).
-        #[arg(long, value_enum, default_value = "auto")]
-        solver: EntropySolverArg,
+        #[command(flatten)]
+        hierarchy: HierarchyArgs,
         /// Key rate: the player whose answers the key is reconciled with (needs --behaviour).
         #[arg(long, conflicts_with = "error_rate")]
         key_with: Option<String>,
@@ -246,6 +231,60 @@ pub enum Command {
         /// Key rate: the probability that the key answers differ (H(A|B) by Fano's bound).
         #[arg(long, allow_hyphen_values = true, value_parser = parse_finite)]
         error_rate: Option<f64>,
+    },
+    /// What a spot-checking run of n rounds certifies, by entropy accumulation: the smooth
+    /// min-entropy, the certified bits of randomness (or key) and the rate per round, the n at
+    /// which the rate reaches a fraction of its limit, and the rate against n.
+    FiniteSize {
+        #[command(flatten)]
+        args: GameArgs,
+        /// Rounds n of the run.
+        #[arg(long)]
+        rounds: u64,
+        /// Probability γ that a round is a test round (questions from the game's distribution).
+        #[arg(long, value_parser = parse_finite)]
+        testing: f64,
+        /// The score per test round the run must reach to pass (in the game's own units): the
+        /// entropy is credited at this score.
+        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite)]
+        threshold: f64,
+        /// The honest devices' expected score per test round, for the completeness error.
+        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite)]
+        expected: Option<f64>,
+        /// Smoothing parameter ε_s.
+        #[arg(long, default_value_t = 1e-9, value_parser = parse_finite)]
+        smoothing: f64,
+        /// Pass floor ε_EA: the bound covers runs that pass with at least this probability.
+        #[arg(long, default_value_t = 1e-9, value_parser = parse_finite)]
+        pass_floor: f64,
+        /// Error ε_ext of the extractor (or of privacy amplification).
+        #[arg(long, default_value_t = 1e-9, value_parser = parse_finite)]
+        extractor_error: f64,
+        /// Report the rounds at which the rate reaches this fraction of its limit.
+        #[arg(long, default_value_t = 0.9, value_parser = parse_finite)]
+        fraction: f64,
+        /// Key instead of randomness: the bits error correction and its check disclosed over
+        /// the run.
+        #[arg(long, value_parser = parse_finite)]
+        key_disclosed_bits: Option<f64>,
+        /// Key: the most test rounds the protocol allows (default: a Chernoff cap that honest
+        /// runs exceed with probability at most 1e-9).
+        #[arg(long, requires = "key_disclosed_bits")]
+        max_test_rounds: Option<u64>,
+        /// The score where the min-tradeoff line touches the entropy bound (default: the best
+        /// of --tangent-points scores from the threshold down towards the classical value).
+        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite, conflicts_with = "tangent_points")]
+        tangent: Option<f64>,
+        /// How many tangent scores the search tries (1 to 32; each is one entropy computation).
+        #[arg(long, default_value_t = bellgap::pipeline::DEFAULT_TANGENT_POINTS)]
+        tangent_points: usize,
+        #[command(flatten)]
+        answers: AnswerArgs,
+        #[command(flatten)]
+        hierarchy: HierarchyArgs,
+        /// Write the rate against n as an SVG plot.
+        #[arg(long, value_name = "FILE")]
+        svg: Option<PathBuf>,
     },
     /// Key figures for CHSH-based device-independent QKD (analytic bound).
     Key {
@@ -334,7 +373,29 @@ pub enum SolverArg {
     FirstOrder,
 }
 
-/// Whose answers (`randomness`, `entropy`): one player's, or a pair's.
+/// The entropy hierarchy's options (`entropy`, `finite-size`).
+#[derive(Args, Debug, Clone)]
+pub struct HierarchyArgs {
+    /// Gauss–Radau nodes (2 to 64); one relaxation is solved per node but the last.
+    #[arg(long, default_value_t = bellgap::bounds::entropy::hierarchy::DEFAULT_NODES)]
+    pub nodes: usize,
+    /// The players' NPA level of each relaxation.
+    #[arg(long, default_value = "1+joint", long_help = LEVEL_HELP)]
+    pub level: String,
+    /// Which of the adversary's words join the players' words.
+    #[arg(long, value_enum, default_value = "with-player-words")]
+    pub adversary_words: AdversaryWordsArg,
+    /// Real symmetric or complex Hermitian moment matrices (the same bound; complex is a
+    /// check and costs more).
+    #[arg(long, value_enum, default_value = "real")]
+    pub moments: MomentsArg,
+    /// SDP solver of the relaxations (first-order is not offered: each node's bound needs
+    /// an accurate dual).
+    #[arg(long, value_enum, default_value = "auto")]
+    pub solver: EntropySolverArg,
+}
+
+/// Whose answers (`randomness`, `entropy`, `finite-size`): one player's, or a pair's.
 #[derive(Args, Debug, Clone)]
 pub struct AnswerArgs {
     /// Whose answer (default: the first player).
@@ -471,7 +532,8 @@ impl Cli {
             | Command::Verify { args, .. }
             | Command::Margin { args, .. }
             | Command::Randomness { args, .. }
-            | Command::Entropy { args, .. } => Some(args),
+            | Command::Entropy { args, .. }
+            | Command::FiniteSize { args, .. } => Some(args),
             Command::Key { .. }
             | Command::Review { .. }
             | Command::Local { .. }

@@ -249,6 +249,14 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             let r = pipeline::entropy(&game, &options)?;
             Ok(output(text::entropy(&r), &r, &game.warnings))
         }
+        Request::FiniteSize { game, options, svg } => {
+            let game = load(game)?;
+            let r = pipeline::finite_size(&game, options)?;
+            if let Some(file) = svg {
+                write(file, &charts::finite_size_rate(&r), inputs)?;
+            }
+            Ok(output(text::finite_size(&r), &r, &game.warnings))
+        }
         Request::Key { chsh, qber } => {
             let r = pipeline::key(*chsh, *qber)?;
             Ok(output(text::key(&r), &r, &[]))

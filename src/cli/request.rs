@@ -16,14 +16,16 @@ use bellgap::optim::backend::Backend;
 use bellgap::optim::first_order::FirstOrderOptions;
 use bellgap::pipeline::{
     BoundsOptions, EntropyCommandOptions, EntropyGiven, ErrorCorrection, EvaluateOptions,
-    MarginOptions, NpaLevelsOptions, RandomnessOptions, TargetChoice,
+    FiniteSizeOptions, KeyDisclosure, MarginOptions, NpaLevelsOptions, RandomnessOptions, Tangent,
+    TargetChoice,
 };
+use bellgap::protocol::accumulation::SecurityParameters;
 use bellgap::protocol::finite::ObservedRun;
 use bellgap::{Error, Result};
 
 use super::args::{
     AdversaryWordsArg, AnswerArgs, Cli, Command, EntropySolverArg, FamilyCommand, GameArgs,
-    MethodArg, MomentsArg, SolverArg, SymmetryArg,
+    HierarchyArgs, MethodArg, MomentsArg, SolverArg, SymmetryArg,
 };
 
 /// A game file and how to compile it.
@@ -136,6 +138,12 @@ pub enum Request {
         game: GameInput,
         behaviour: Option<PathBuf>,
         options: EntropyCommandOptions,
+    },
+    /// `finite-size`.
+    FiniteSize {
+        game: GameInput,
+        options: FiniteSizeOptions,
+        svg: Option<PathBuf>,
     },
     /// `key`.
     Key { chsh: f64, qber: f64 },
@@ -463,11 +471,7 @@ impl Invocation {
                 sweep: spec,
                 behaviour,
                 answers,
-                nodes,
-                level,
-                adversary_words,
-                moments,
-                solver,
+                hierarchy,
                 key_with,
                 key_question,
                 error_rate,
@@ -494,26 +498,52 @@ impl Invocation {
                         (None, Some(q)) => Some(ErrorCorrection::ErrorRate(*q)),
                         (None, None) => None,
                     },
-                    hierarchy: EntropyOptions {
-                        nodes: *nodes,
-                        level: Level::parse(level)?,
-                        adversary: match adversary_words {
-                            AdversaryWordsArg::Letters => AdversaryWords::Letters,
-                            AdversaryWordsArg::WithProjectors => AdversaryWords::WithProjectors,
-                            AdversaryWordsArg::WithPlayerWords => AdversaryWords::WithPlayerWords,
-                            AdversaryWordsArg::WithPairs => AdversaryWords::WithPairs,
-                        },
-                        field: match moments {
-                            MomentsArg::Real => MomentField::Real,
-                            MomentsArg::Complex => MomentField::Complex,
-                        },
-                        backend: match solver {
-                            EntropySolverArg::Auto => Backend::Auto,
-                            EntropySolverArg::Ipm => Backend::MomentIpm,
-                            EntropySolverArg::Clarabel => Backend::Clarabel,
-                        },
-                    },
+                    hierarchy: hierarchy_options(hierarchy)?,
                 },
+            },
+            Command::FiniteSize {
+                args,
+                rounds,
+                testing,
+                threshold,
+                expected,
+                smoothing,
+                pass_floor,
+                extractor_error,
+                fraction,
+                key_disclosed_bits,
+                max_test_rounds,
+                tangent,
+                tangent_points,
+                answers,
+                hierarchy,
+                svg,
+            } => Request::FiniteSize {
+                game: game_input(args),
+                options: FiniteSizeOptions {
+                    target: first_answer(answers),
+                    with: second_answer(answers),
+                    rounds: *rounds,
+                    testing: *testing,
+                    threshold: *threshold,
+                    security: SecurityParameters {
+                        smoothing: *smoothing,
+                        pass_floor: *pass_floor,
+                        extraction: *extractor_error,
+                    },
+                    expected: *expected,
+                    fraction: *fraction,
+                    key: key_disclosed_bits.map(|bits| KeyDisclosure {
+                        error_correction_bits: bits,
+                        max_test_rounds: *max_test_rounds,
+                    }),
+                    tangent: match tangent {
+                        Some(score) => Tangent::At(*score),
+                        None => Tangent::Search(*tangent_points),
+                    },
+                    hierarchy: hierarchy_options(hierarchy)?,
+                },
+                svg: svg.clone(),
             },
             Command::Key { chsh, qber, .. } => Request::Key {
                 chsh: *chsh,
@@ -557,6 +587,29 @@ impl Invocation {
             inputs: cli.inputs(),
         })
     }
+}
+
+/// The entropy hierarchy's options from the command line.
+fn hierarchy_options(h: &HierarchyArgs) -> Result<EntropyOptions> {
+    Ok(EntropyOptions {
+        nodes: h.nodes,
+        level: Level::parse(&h.level)?,
+        adversary: match h.adversary_words {
+            AdversaryWordsArg::Letters => AdversaryWords::Letters,
+            AdversaryWordsArg::WithProjectors => AdversaryWords::WithProjectors,
+            AdversaryWordsArg::WithPlayerWords => AdversaryWords::WithPlayerWords,
+            AdversaryWordsArg::WithPairs => AdversaryWords::WithPairs,
+        },
+        field: match h.moments {
+            MomentsArg::Real => MomentField::Real,
+            MomentsArg::Complex => MomentField::Complex,
+        },
+        backend: match h.solver {
+            EntropySolverArg::Auto => Backend::Auto,
+            EntropySolverArg::Ipm => Backend::MomentIpm,
+            EntropySolverArg::Clarabel => Backend::Clarabel,
+        },
+    })
 }
 
 #[cfg(test)]

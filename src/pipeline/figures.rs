@@ -93,7 +93,7 @@ pub struct TargetChoice {
 
 impl TargetChoice {
     /// The (player, question index) pair this choice names in `s`.
-    fn resolve(&self, s: &Scenario, default_player: usize) -> Result<(usize, usize)> {
+    pub(crate) fn resolve(&self, s: &Scenario, default_player: usize) -> Result<(usize, usize)> {
         let p = match &self.player {
             Some(n) => s
                 .parties()
@@ -475,7 +475,7 @@ pub fn entropy<'a>(game: &'a Game, options: &EntropyCommandOptions) -> Result<En
 }
 
 /// The answers of a target in words, e.g. `alice (question 0) and bob (question 1)`.
-fn target_name(s: &Scenario, target: &Target) -> String {
+pub(crate) fn target_name(s: &Scenario, target: &Target) -> String {
     target
         .parts
         .iter()

@@ -7,6 +7,7 @@
 //! progress while it runs. The library prints nothing itself.
 
 mod figures;
+mod finite_size;
 mod review;
 
 pub use figures::{
@@ -14,6 +15,11 @@ pub use figures::{
     EntropyCommandOptions, EntropyGiven, EntropyReport, EntropyResult, ErrorCorrection, KeyReport,
     LocalReport, MarginOptions, MarginReport, RandomnessOptions, RandomnessReport, TargetChoice,
     VerifyReport,
+};
+pub use finite_size::{
+    finite_size, finite_size_assumptions, Extracting, FiniteSizeOptions, FiniteSizeReport,
+    KeyDisclosure, Tangent, TangentTried, DEFAULT_TANGENT_POINTS, DEFAULT_TEST_CAP_ABORT,
+    MAX_TANGENT_POINTS,
 };
 pub use review::{review, Review, ReviewKey, ReviewRandomness};
 

@@ -2,6 +2,7 @@
 //! certified randomness ([`randomness`]) and key figures ([`key`]); the review that puts them
 //! together is [`crate::pipeline::review`]. Every figure comes with the assumptions it rests on; none is a security proof.
 
+pub mod accumulation;
 pub mod finite;
 pub mod key;
 pub mod randomness;

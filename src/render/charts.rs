@@ -277,6 +277,33 @@ pub fn min_entropy(report: &crate::pipeline::RandomnessReport) -> String {
     )
 }
 
+/// Certified rate per round against log₁₀ n, for a finite-size report.
+pub fn finite_size_rate(report: &crate::pipeline::FiniteSizeReport) -> String {
+    line_chart(
+        &format!("Certified rate against rounds, {}", report.game.name),
+        "log10 of the number of rounds",
+        "certified bits per round",
+        &[
+            Series {
+                name: "certified rate".into(),
+                points: report
+                    .curve
+                    .iter()
+                    .map(|&(n, r)| ((n as f64).log10(), r))
+                    .collect(),
+            },
+            Series {
+                name: "limit as n grows".into(),
+                points: report
+                    .curve
+                    .iter()
+                    .map(|&(n, _)| ((n as f64).log10(), report.asymptotic_output_rate))
+                    .collect(),
+            },
+        ],
+    )
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

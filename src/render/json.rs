@@ -10,6 +10,7 @@ use crate::bounds::classical::locality::{NoSignallingProjection, SeparatingExpre
 use crate::bounds::classical::{
     ClassicalEstimate, ClassicalStatus, DeterministicStrategy, Method as ClassicalMethod,
 };
+use crate::bounds::entropy::ConditionalEntropy;
 use crate::bounds::quantum::analysis::{Bipartition, Robustness};
 use crate::bounds::quantum::npa::{Level, NpaBound};
 use crate::bounds::quantum::symmetric::SymmetryUse;
@@ -19,9 +20,10 @@ use crate::optim::backend::Backend;
 use crate::optim::lp::LpMethod;
 use crate::optim::SolveStatus;
 use crate::pipeline::{
-    CommandKind, EntropyReport, EntropyResult, GameReport, Gaps, KeyReport, LocalReport,
-    MarginReport, RandomnessReport, Review, VerifyReport,
+    CommandKind, EntropyReport, EntropyResult, Extracting, FiniteSizeReport, GameReport, Gaps,
+    KeyReport, LocalReport, MarginReport, RandomnessReport, Review, TangentTried, VerifyReport,
 };
+use crate::protocol::accumulation::Accumulation;
 use crate::protocol::finite::Margin;
 use crate::protocol::key::KeyRate;
 use crate::protocol::randomness::Randomness;
@@ -464,6 +466,65 @@ impl Serialize for EntropyReport<'_> {
             given: &self.given,
             results: &self.results,
             not_obtained: &self.not_obtained,
+            assumptions: &self.assumptions,
+            caution: CAUTION,
+        }
+        .serialize(serializer)
+    }
+}
+
+#[derive(Serialize)]
+struct CurvePoint {
+    rounds: u64,
+    rate_per_round: f64,
+}
+
+#[derive(Serialize)]
+struct FiniteSizeView<'a> {
+    schema_version: u32,
+    command: &'static str,
+    game: &'a str,
+    target: &'a str,
+    extracting: Extracting,
+    entropy: &'a ConditionalEntropy,
+    tangents: &'a [TangentTried],
+    run: &'a Accumulation,
+    asymptotic_output_rate: f64,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    max_test_rounds: Option<u64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    completeness_error_log10: Option<f64>,
+    fraction: f64,
+    rounds_for_fraction: Option<u64>,
+    curve: Vec<CurvePoint>,
+    assumptions: &'a [String],
+    caution: &'static str,
+}
+
+impl Serialize for FiniteSizeReport<'_> {
+    fn serialize<S: Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        FiniteSizeView {
+            schema_version: SCHEMA_VERSION,
+            command: "finite-size",
+            game: &self.game.name,
+            target: &self.target_name,
+            extracting: self.extracting,
+            entropy: &self.entropy,
+            tangents: &self.tangents,
+            run: &self.run,
+            asymptotic_output_rate: self.asymptotic_output_rate,
+            max_test_rounds: self.max_test_rounds,
+            completeness_error_log10: self.completeness_error_log10,
+            fraction: self.fraction,
+            rounds_for_fraction: self.rounds_for_fraction,
+            curve: self
+                .curve
+                .iter()
+                .map(|&(rounds, rate_per_round)| CurvePoint {
+                    rounds,
+                    rate_per_round,
+                })
+                .collect(),
             assumptions: &self.assumptions,
             caution: CAUTION,
         }

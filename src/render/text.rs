@@ -7,8 +7,8 @@ use crate::model::scenario::Scenario;
 use crate::model::symmetry::Relabelling;
 use crate::numbers::{bits_text, count_text, fixed6, num, num_sig, with_fraction};
 use crate::pipeline::{
-    EntropyReport, GameReport, KeyReport, LocalReport, MarginReport, RandomnessReport,
-    VerifyReport, QUANTUM_SETTLED_TOLERANCE,
+    EntropyReport, Extracting, FiniteSizeReport, GameReport, KeyReport, LocalReport, MarginReport,
+    RandomnessReport, VerifyReport, QUANTUM_SETTLED_TOLERANCE,
 };
 use crate::protocol::finite::Margin;
 use crate::protocol::CAUTION;
@@ -551,6 +551,172 @@ pub fn entropy(report: &EntropyReport) -> String {
     for f in &report.not_obtained {
         out += &format!("not obtained: {f}\n");
     }
+    out += "\nassumptions:\n";
+    for a in &report.assumptions {
+        out += &format!("  - {a}\n");
+    }
+    out += &format!("{CAUTION}\n");
+    out
+}
+
+/// A small probability in scientific notation (`1.234e-12`), 0 as `0`.
+fn probability_text(x: f64) -> String {
+    if x == 0.0 {
+        "0".into()
+    } else if x >= 1e-3 {
+        num_sig(x, 4)
+    } else {
+        format!("{x:.3e}")
+    }
+}
+
+/// A number of bits that may be large: ten significant digits.
+fn many_bits(x: f64) -> String {
+    format!("{} bits", num_sig(x, 10))
+}
+
+/// What a spot-checking run certifies (`finite-size`).
+pub fn finite_size(report: &FiniteSizeReport) -> String {
+    let run = &report.run;
+    let p = &run.protocol;
+    let f = &run.tradeoff;
+    let t = &run.second_order;
+    let what = match report.extracting {
+        Extracting::Randomness => "randomness (every player's answers)",
+        Extracting::Key => "key (the target player's answers)",
+    };
+    let mut rows = vec![
+        (
+            "game".to_string(),
+            format!("{} ({})", report.game.name, report.game.source),
+        ),
+        ("entropy of".into(), report.target_name.clone()),
+        ("extracting".into(), what.into()),
+        ("rounds".into(), count_text(p.rounds as f64)),
+        ("testing probability".into(), num(p.testing)),
+        (
+            "pass condition".into(),
+            format!(
+                "the test rounds' total shortfall Σ ({} − score) is at most {} (score ≥ {} per test round on average)",
+                num(p.score_range.1),
+                num_sig(run.shortfall_allowed, 8),
+                num(p.threshold)
+            ),
+        ),
+        (
+            "tangent score".into(),
+            format!(
+                "{}: H(A|X,E) ≥ {} there ({}); tried {}",
+                num(report.entropy.min_tradeoff.as_ref().map_or(p.threshold, |m| m.score)),
+                bits_text(report.entropy.bits),
+                report.entropy.method,
+                report
+                    .tangents
+                    .iter()
+                    .map(|t| format!("{} → {}", num(t.score), bits_text(t.output_bits)))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ),
+        ),
+        (
+            "min-tradeoff g(S)".into(),
+            format!(
+                "{} + {}·S bits per round (with the factor 1 − γ for generation rounds)",
+                num(f.intercept),
+                num(f.slope)
+            ),
+        ),
+        (
+            "f: Max, Min, Min_Σ, Var ≤".into(),
+            format!(
+                "{}, {}, {}, {}",
+                num(f.max),
+                num(f.min),
+                num(f.min_achievable),
+                num_sig(f.variance, 6)
+            ),
+        ),
+        ("output register d_O".into(), num(p.output_dimension)),
+        (
+            "ε_s, ε_EA, ε_ext".into(),
+            format!(
+                "{}, {}, {}",
+                probability_text(run.security.smoothing),
+                probability_text(run.security.pass_floor),
+                probability_text(run.security.extraction)
+            ),
+        ),
+        (
+            "Rényi α chosen".into(),
+            format!("{} (V = {}, K_α = {})", num_sig(t.alpha, 8), num_sig(t.v, 6), num_sig(t.k_alpha, 6)),
+        ),
+        ("first order n·h".into(), many_bits(run.first_order)),
+        (
+            "second-order terms".into(),
+            format!(
+                "{} (variance) + {} (ε) + {} (third order)",
+                many_bits(t.variance_term),
+                many_bits(t.error_term),
+                many_bits(t.third_order_term)
+            ),
+        ),
+        ("H_min^ε_s ≥".into(), many_bits(run.smooth_min_entropy)),
+    ];
+    if report.extracting == Extracting::Key {
+        rows.push((
+            "test rounds allowed".into(),
+            report
+                .max_test_rounds
+                .map_or("-".into(), |m| count_text(m as f64)),
+        ));
+        rows.push((
+            "others' test answers".into(),
+            many_bits(run.disclosure.test_answers),
+        ));
+        rows.push((
+            "error correction".into(),
+            many_bits(run.disclosure.error_correction),
+        ));
+    }
+    rows.push(("certified output".into(), many_bits(run.output_bits)));
+    rows.push((
+        "rate per round".into(),
+        format!(
+            "{} (limit as n grows: {})",
+            bits_text(run.rate_per_round),
+            bits_text(report.asymptotic_output_rate)
+        ),
+    ));
+    rows.push((
+        format!("rounds for {}% of the limit", num(100.0 * report.fraction)),
+        report.rounds_for_fraction.map_or_else(
+            || "not within 10^18 rounds (or nothing is certified)".to_string(),
+            |n| count_text(n as f64),
+        ),
+    ));
+    if let Some(c) = report.completeness_error_log10 {
+        rows.push((
+            "honest runs fail with probability ≤".into(),
+            if c > -3.0 {
+                num_sig(10f64.powf(c), 4)
+            } else {
+                format!("10^{}", num_sig(c, 5))
+            },
+        ));
+    }
+    let mut out = table(&rows);
+    out += "\nrate per round against n:\n";
+    for (n, r) in report.curve.iter().filter(|(n, _)| {
+        let l = (*n as f64).log10();
+        (l - l.round()).abs() < 1e-9
+    }) {
+        out += &format!(
+            "  n = 10^{:<3} {}\n",
+            (*n as f64).log10().round(),
+            bits_text(*r)
+        );
+    }
+    out += &format!("\nstatement: {}\n", run.statement);
     out += "\nassumptions:\n";
     for a in &report.assumptions {
         out += &format!("  - {a}\n");

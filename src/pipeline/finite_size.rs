@@ -1,0 +1,371 @@
+//! The `finite-size` command: what a spot-checking run of n rounds certifies by entropy
+//! accumulation ([`crate::protocol::accumulation`]), from the entropy hierarchy's min-tradeoff
+//! function at the run's threshold score.
+
+use serde::Serialize;
+
+use super::figures::{target_name, TargetChoice};
+use crate::bounds::classical::{classical_value, ClassicalOptions};
+use crate::bounds::entropy::{
+    conditional_entropy, ConditionalEntropy, EntropyConstraint, EntropyOptions,
+};
+use crate::error::{Error, Result};
+use crate::formats::game::Game;
+use crate::protocol::accumulation::{
+    accumulate, completeness_error_log10, crossover, max_test_rounds, rate_curve,
+    rounds_for_fraction, Accumulation, CrossoverTradeoff, Disclosure, SecurityParameters,
+    SpotChecking,
+};
+use crate::protocol::randomness::Target;
+
+/// Key extraction instead of randomness: what the run disclosed.
+#[derive(Debug, Clone, Copy)]
+pub struct KeyDisclosure {
+    /// Bits disclosed by error correction and its check, for the whole run.
+    pub error_correction_bits: f64,
+    /// The most test rounds the protocol allows before aborting (default: the Chernoff cap at
+    /// [`DEFAULT_TEST_CAP_ABORT`]).
+    pub max_test_rounds: Option<u64>,
+}
+
+/// Honest runs exceed the default cap on test rounds with at most this probability.
+pub const DEFAULT_TEST_CAP_ABORT: f64 = 1e-9;
+
+/// Where the min-tradeoff line touches the entropy bound. Any score gives a valid line (the
+/// line lies below the bound everywhere); a tangent below the threshold has a smaller slope,
+/// hence a smaller variance and second-order penalty, at the cost of a lower first-order rate.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Tangent {
+    /// Try this many scores evenly from the threshold down towards the classical value (the
+    /// threshold first) and keep the line certifying the most bits.
+    Search(usize),
+    /// At this score.
+    At(f64),
+}
+
+impl Default for Tangent {
+    fn default() -> Self {
+        Tangent::Search(DEFAULT_TANGENT_POINTS)
+    }
+}
+
+/// Scores tried by the default tangent search.
+pub const DEFAULT_TANGENT_POINTS: usize = 4;
+
+/// The most scores a tangent search may try (each is one entropy computation).
+pub const MAX_TANGENT_POINTS: usize = 32;
+
+/// One tangent score tried.
+#[derive(Debug, Clone, Copy, Serialize)]
+pub struct TangentTried {
+    /// The score the line touches the bound at.
+    pub score: f64,
+    /// The entropy bound there.
+    pub entropy: f64,
+    /// The certified output of the run with that line.
+    pub output_bits: f64,
+}
+
+/// Options of [`finite_size`].
+#[derive(Debug, Clone)]
+pub struct FiniteSizeOptions {
+    /// Whose answer is the randomness or key (default: the first player's first question).
+    pub target: TargetChoice,
+    /// A second player's answer, for randomness from the pair.
+    pub with: Option<TargetChoice>,
+    /// Rounds n.
+    pub rounds: u64,
+    /// Testing probability γ.
+    pub testing: f64,
+    /// Threshold score per test round S_thr.
+    pub threshold: f64,
+    /// Error parameters.
+    pub security: SecurityParameters,
+    /// The honest devices' expected score, for the completeness error.
+    pub expected: Option<f64>,
+    /// The fraction of the asymptotic rate whose round count is reported (default 0.9).
+    pub fraction: f64,
+    /// Key instead of randomness.
+    pub key: Option<KeyDisclosure>,
+    /// Where the min-tradeoff line touches the bound.
+    pub tangent: Tangent,
+    /// The entropy hierarchy's options.
+    pub hierarchy: EntropyOptions,
+}
+
+impl Default for FiniteSizeOptions {
+    fn default() -> Self {
+        FiniteSizeOptions {
+            target: TargetChoice::default(),
+            with: None,
+            rounds: 1_000_000_000,
+            testing: 0.01,
+            threshold: f64::NAN,
+            security: SecurityParameters::default(),
+            expected: None,
+            fraction: 0.9,
+            key: None,
+            tangent: Tangent::default(),
+            hierarchy: EntropyOptions::default(),
+        }
+    }
+}
+
+/// What the run is for.
+#[derive(Debug, Clone, Copy, Serialize, PartialEq, Eq)]
+#[serde(rename_all = "snake_case")]
+pub enum Extracting {
+    /// Randomness: every player's answers are output.
+    Randomness,
+    /// Key: the target player's answers, the others' test answers removed.
+    Key,
+}
+
+/// The `finite-size` command's result.
+#[derive(Debug, Clone)]
+pub struct FiniteSizeReport<'a> {
+    /// The game.
+    pub game: &'a Game,
+    /// Whose answers, in words.
+    pub target_name: String,
+    /// Randomness or key.
+    pub extracting: Extracting,
+    /// The entropy bound at the chosen tangent score, with its min-tradeoff function.
+    pub entropy: ConditionalEntropy,
+    /// Every tangent score tried (the chosen one is `entropy`'s).
+    pub tangents: Vec<TangentTried>,
+    /// The finite-size figures for the run.
+    pub run: Accumulation,
+    /// The limit of the output rate per round as n grows: the entropy rate h less, for key,
+    /// the others' test answers (γ·log₂|B|) and the error-correction bits per round.
+    pub asymptotic_output_rate: f64,
+    /// For key: the cap on test rounds used.
+    pub max_test_rounds: Option<u64>,
+    /// log₁₀ of the probability that honest devices at the expected score fail the test (when
+    /// given).
+    pub completeness_error_log10: Option<f64>,
+    /// The fraction of the asymptotic rate asked about.
+    pub fraction: f64,
+    /// The fewest rounds reaching that fraction (None: not within 10¹⁸ rounds, or nothing is
+    /// certified at any n).
+    pub rounds_for_fraction: Option<u64>,
+    /// Rate per round against n (10³ to 10¹⁴ rounds, five points a decade).
+    pub curve: Vec<(u64, f64)>,
+    /// The assumptions.
+    pub assumptions: Vec<String>,
+}
+
+/// The assumptions of the finite-size figures.
+pub fn finite_size_assumptions(extracting: Extracting) -> Vec<String> {
+    let mut a = vec![
+        "adversary: quantum side information; the devices may keep memory and adapt between rounds (sequential rounds), but do not signal to each other during a round or learn future questions".to_string(),
+        "questions and the test flag of each round are drawn independently from trusted public randomness".to_string(),
+        "finite size: entropy accumulation (Dupuis & Fawzi 2019) with the constants as recalled from memory; compare them with the published theorem before relying on them".to_string(),
+        "the bound holds for runs that pass the test, unless the pass probability is below the pass floor ε_EA".to_string(),
+    ];
+    match extracting {
+        Extracting::Randomness => a.push(
+            "randomness: all players' answers are the raw output; extraction by a quantum-proof two-universal hash (leftover hash lemma), costing 2·log₂(1/ε_ext) bits".to_string(),
+        ),
+        Extracting::Key => a.push(
+            "key: the target player's answers are the raw key; the others' test answers are removed by the chain rule (log₂ of their answer count per test round, at most the cap on test rounds) and the error-correction disclosure is subtracted as given; privacy amplification costs 2·log₂(1/ε_PA) bits".to_string(),
+        ),
+    }
+    a.push("not a security proof: defer to the peer-reviewed proof of the protocol and the certification practice that applies".to_string());
+    a
+}
+
+/// Run lengths of the rate curve: 10³ to 10¹⁴, five a decade.
+fn curve_rounds() -> Vec<u64> {
+    (15..=70)
+        .map(|k| 10f64.powf(k as f64 / 5.0).round() as u64)
+        .collect()
+}
+
+/// The tangent scores to try, the threshold first.
+fn tangent_scores(game: &Game, options: &FiniteSizeOptions) -> Result<Vec<f64>> {
+    let threshold = options.threshold;
+    match options.tangent {
+        Tangent::At(score) if score.is_finite() => Ok(vec![score]),
+        Tangent::At(score) => Err(Error::InvalidArgument(format!(
+            "the tangent score must be a finite number, got {score}"
+        ))),
+        Tangent::Search(points) if points == 0 || points > MAX_TANGENT_POINTS => {
+            Err(Error::InvalidArgument(format!(
+                "the tangent search tries 1 to {MAX_TANGENT_POINTS} scores, got {points}"
+            )))
+        }
+        Tangent::Search(1) => Ok(vec![threshold]),
+        Tangent::Search(points) => {
+            let classical =
+                classical_value(&game.scenario, &ClassicalOptions::default(), None)?.value;
+            if threshold <= classical {
+                return Ok(vec![threshold]);
+            }
+            Ok((0..points)
+                .map(|k| threshold - (threshold - classical) * k as f64 / points as f64)
+                .collect())
+        }
+    }
+}
+
+/// The `finite-size` command.
+pub fn finite_size<'a>(
+    game: &'a Game,
+    options: &FiniteSizeOptions,
+) -> Result<FiniteSizeReport<'a>> {
+    let s = &game.scenario;
+    let mut parts = vec![options.target.resolve(s, 0)?];
+    if let Some(with) = &options.with {
+        parts.push(with.resolve(s, 1)?);
+    }
+    let target = Target { parts };
+    target.check(s)?;
+    let extracting = if options.key.is_some() {
+        if target.parts.len() != 1 {
+            return Err(Error::InvalidArgument(
+                "a key is one player's answers: leave out the second player".into(),
+            ));
+        }
+        Extracting::Key
+    } else {
+        Extracting::Randomness
+    };
+    let answers: Vec<f64> = s.parties().iter().map(|p| p.answers() as f64).collect();
+    let all: f64 = answers.iter().product();
+    let key_player = target.parts[0].0;
+    let others = all / answers[key_player];
+    // One round's output register: every answer (randomness), or the key answer and the others'
+    // answers in test rounds (⊥ otherwise) for key.
+    let output_dimension = match extracting {
+        Extracting::Randomness => all,
+        Extracting::Key => answers[key_player] * (others + 1.0),
+    };
+    let protocol = SpotChecking {
+        rounds: options.rounds,
+        testing: options.testing,
+        threshold: options.threshold,
+        score_range: s.per_round_score_range(),
+        lowest_score: s.value_range().0,
+        output_dimension,
+    };
+    protocol.check()?;
+    options.security.check()?;
+    if let Some(k) = &options.key {
+        if !k.error_correction_bits.is_finite() || k.error_correction_bits < 0.0 {
+            return Err(Error::InvalidArgument(format!(
+                "the error-correction disclosure must be a finite number of bits ≥ 0, got {}",
+                k.error_correction_bits
+            )));
+        }
+    }
+    let cap = |n: u64| -> u64 {
+        match options.key.and_then(|k| k.max_test_rounds) {
+            Some(m) => m,
+            None => max_test_rounds(n, options.testing, DEFAULT_TEST_CAP_ABORT),
+        }
+    };
+    // The error-correction disclosure scales with the run (the curve assumes the same bits
+    // per round as the run given).
+    let per_round_leak = options
+        .key
+        .map_or(0.0, |k| k.error_correction_bits / options.rounds as f64);
+    let disclosure = |n: u64| -> Disclosure {
+        match extracting {
+            Extracting::Randomness => Disclosure::default(),
+            Extracting::Key => Disclosure {
+                test_answers: cap(n) as f64 * others.log2(),
+                error_correction: per_round_leak * n as f64,
+            },
+        }
+    };
+    let scores = tangent_scores(game, options)?;
+    let mut tangents = Vec::new();
+    let mut best: Option<(ConditionalEntropy, CrossoverTradeoff, Accumulation)> = None;
+    for score in scores {
+        let entropy = conditional_entropy(
+            s,
+            &target,
+            &EntropyConstraint::Score(score),
+            &options.hierarchy,
+        )?;
+        let line = entropy.min_tradeoff.clone().ok_or_else(|| {
+            Error::solver(
+                "finite-size",
+                "the entropy bound came without its min-tradeoff function",
+            )
+        })?;
+        let intercept = line.at_lowest - line.slope * line.lowest;
+        let tradeoff = crossover(&protocol, intercept, line.slope, line.highest)?;
+        let run = accumulate(
+            &protocol,
+            &tradeoff,
+            &options.security,
+            disclosure(options.rounds),
+        )?;
+        tangents.push(TangentTried {
+            score,
+            entropy: entropy.bits,
+            output_bits: run.output_bits,
+        });
+        let better = best.as_ref().is_none_or(|(_, _, b)| {
+            (run.output_bits, run.smooth_min_entropy) > (b.output_bits, b.smooth_min_entropy)
+        });
+        if better {
+            best = Some((entropy, tradeoff, run));
+        }
+    }
+    let (entropy, tradeoff, run) =
+        best.ok_or_else(|| Error::InvalidArgument("no tangent score to try".into()))?;
+    let completeness = options
+        .expected
+        .map(|e| completeness_error_log10(&protocol, e))
+        .transpose()?;
+    // With a fixed cap the disclosure per round falls with n only if the cap is proportional
+    // to n; a fixed user cap is used for the run only, the curve uses the Chernoff cap.
+    let curve_disclosure = |n: u64| -> Disclosure {
+        match extracting {
+            Extracting::Randomness => Disclosure::default(),
+            Extracting::Key => Disclosure {
+                test_answers: max_test_rounds(n, options.testing, DEFAULT_TEST_CAP_ABORT) as f64
+                    * others.log2(),
+                error_correction: per_round_leak * n as f64,
+            },
+        }
+    };
+    let limit = run.asymptotic_rate
+        - match extracting {
+            Extracting::Randomness => 0.0,
+            Extracting::Key => options.testing * others.log2() + per_round_leak,
+        };
+    let curve = rate_curve(
+        &curve_rounds(),
+        &protocol,
+        &tradeoff,
+        &options.security,
+        &curve_disclosure,
+    )?;
+    let rounds_for_fraction = rounds_for_fraction(
+        options.fraction,
+        limit,
+        &protocol,
+        &tradeoff,
+        &options.security,
+        &curve_disclosure,
+    )?;
+    Ok(FiniteSizeReport {
+        game,
+        target_name: target_name(s, &target),
+        extracting,
+        entropy,
+        tangents,
+        run,
+        asymptotic_output_rate: limit,
+        max_test_rounds: (extracting == Extracting::Key).then(|| cap(options.rounds)),
+        completeness_error_log10: completeness,
+        fraction: options.fraction,
+        rounds_for_fraction,
+        curve,
+        assumptions: finite_size_assumptions(extracting),
+    })
+}

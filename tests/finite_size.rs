@@ -1,0 +1,242 @@
+//! Finite-size figures by entropy accumulation: the rate grows with n towards its limit, the
+//! limit is the hierarchy's bound at the threshold (times 1 − γ), nothing is certified at the
+//! classical value, key costs what it discloses, and bad requests are refused.
+
+use bellgap::bounds::entropy::{AdversaryWords, EntropyOptions};
+use bellgap::formats::game::{CompileOptions, Game};
+use bellgap::pipeline::{finite_size, FiniteSizeOptions, KeyDisclosure, Tangent};
+use bellgap::protocol::key::{ChshEntropyBound, EntropyBound};
+
+mod common;
+use common::{bellgap, json_of};
+
+fn chsh_game() -> Game {
+    Game::from_file("games/chsh.yaml", CompileOptions::default()).unwrap()
+}
+
+/// A quick relaxation (valid, a little looser): enough for the invariants.
+fn quick(threshold: f64, rounds: u64) -> FiniteSizeOptions {
+    FiniteSizeOptions {
+        rounds,
+        testing: 0.01,
+        threshold,
+        tangent: Tangent::Search(1),
+        hierarchy: EntropyOptions {
+            nodes: 6,
+            adversary: AdversaryWords::WithProjectors,
+            ..Default::default()
+        },
+        ..Default::default()
+    }
+}
+
+#[test]
+fn the_rate_grows_with_n_towards_the_bound_at_the_threshold() {
+    let game = chsh_game();
+    let r = finite_size(&game, &quick(0.84, 1_000_000_000)).unwrap();
+    // The limit is (1 − γ) times the hierarchy's bound at the threshold (the tangent is there),
+    // which is at most the analytic CHSH curve at S = 8·0.84 − 4 = 2.72 (Acín et al. 2007,
+    // PRL 98, 230501): 1 − h(1/2 + 1/2·√((2.72/2)² − 1)) = 0.7636 (computed here).
+    let curve = ChshEntropyBound.entropy(8.0 * 0.84 - 4.0);
+    assert!((r.asymptotic_output_rate - 0.99 * r.entropy.bits).abs() < 1e-9);
+    assert!(r.entropy.bits <= curve + 1e-9 && r.entropy.bits > curve - 0.02);
+    // Monotone increasing in n, below the limit, and zero for short runs.
+    for w in r.curve.windows(2) {
+        assert!(w[1].1 >= w[0].1, "{:?}", r.curve);
+    }
+    assert!(r
+        .curve
+        .iter()
+        .all(|&(_, rate)| rate < r.asymptotic_output_rate));
+    assert_eq!(r.curve[0], (1000, 0.0));
+    let last = r.curve.last().unwrap().1;
+    assert!(last > 0.99 * r.asymptotic_output_rate, "{last}");
+    // The run's own figures: output = ⌊H_min − 2·log₂(1/ε_ext)⌋, rate = output / n.
+    let run = &r.run;
+    assert_eq!(
+        run.output_bits,
+        (run.smooth_min_entropy - 2.0 * (1e9f64).log2()).floor()
+    );
+    assert!((run.rate_per_round - run.output_bits / 1e9).abs() < 1e-15);
+    // The rounds for 90 %: the curve crosses 90 % of the limit between its neighbours.
+    let n90 = r.rounds_for_fraction.unwrap();
+    let goal = 0.9 * r.asymptotic_output_rate;
+    assert!(r
+        .curve
+        .iter()
+        .all(|&(n, rate)| (n >= n90) == (rate >= goal)));
+    let at_n90 = finite_size(&game, &quick(0.84, n90)).unwrap();
+    assert!(at_n90.run.rate_per_round >= goal);
+    let before = finite_size(&game, &quick(0.84, n90 - 1)).unwrap();
+    assert!(before.run.rate_per_round < goal);
+}
+
+#[test]
+fn a_higher_threshold_certifies_more_and_the_classical_value_nothing() {
+    let game = chsh_game();
+    let low = finite_size(&game, &quick(0.80, 10_000_000_000)).unwrap();
+    let high = finite_size(&game, &quick(0.84, 10_000_000_000)).unwrap();
+    assert!(high.run.output_bits > low.run.output_bits);
+    let classical = finite_size(&game, &quick(0.75, 10_000_000_000)).unwrap();
+    assert_eq!(classical.run.output_bits, 0.0);
+    assert_eq!(classical.rounds_for_fraction, None);
+}
+
+#[test]
+fn the_tangent_search_keeps_the_best_line() {
+    let game = chsh_game();
+    let mut options = quick(0.84, 10_000_000);
+    options.tangent = Tangent::Search(3);
+    let r = finite_size(&game, &options).unwrap();
+    assert_eq!(r.tangents.len(), 3);
+    assert_eq!(r.tangents[0].score, 0.84);
+    let best = r
+        .tangents
+        .iter()
+        .map(|t| t.output_bits)
+        .fold(f64::NEG_INFINITY, f64::max);
+    assert_eq!(r.run.output_bits, best);
+    // Every tried line is a valid bound: each is at most the threshold's own entropy bound.
+    let at = |score: f64| {
+        let mut o = quick(0.84, 10_000_000);
+        o.tangent = Tangent::At(score);
+        finite_size(&game, &o).unwrap()
+    };
+    let lower = at(r.tangents[2].score);
+    assert!(lower.run.asymptotic_rate <= 0.99 * r.tangents[0].entropy + 1e-9);
+}
+
+#[test]
+fn key_subtracts_the_test_answers_and_the_disclosure() {
+    let game = chsh_game();
+    let randomness = finite_size(&game, &quick(0.84, 1_000_000_000)).unwrap();
+    let mut options = quick(0.84, 1_000_000_000);
+    options.key = Some(KeyDisclosure {
+        error_correction_bits: 1e8,
+        max_test_rounds: None,
+    });
+    let key = finite_size(&game, &options).unwrap();
+    // d_O = |A|·(|B| + 1) = 6 for key against 4 for randomness: a slightly larger V.
+    assert_eq!(key.run.protocol.output_dimension, 6.0);
+    let cap = key.max_test_rounds.unwrap();
+    // The Chernoff cap: μ = nγ = 10⁷, L = ln 10⁹ = 20.72, δ = (L + √(L² + 8μL))/(2μ) ≈ 0.002037
+    // (by hand), so about 10,020,370.
+    assert!(cap > 10_020_000 && cap < 10_021_000, "{cap}");
+    assert_eq!(key.run.disclosure.test_answers, cap as f64);
+    assert_eq!(key.run.disclosure.error_correction, 1e8);
+    assert_eq!(
+        key.run.output_bits,
+        (key.run.smooth_min_entropy - cap as f64 - 1e8 - 2.0 * (1e9f64).log2())
+            .floor()
+            .max(0.0)
+    );
+    assert!(key.run.output_bits < randomness.run.output_bits - 1e8);
+    // The limit: h − γ·log₂|B| − leak per round.
+    assert!((key.asymptotic_output_rate - (key.run.asymptotic_rate - 0.01 - 0.1)).abs() < 1e-12);
+}
+
+#[test]
+fn bad_requests_are_refused() {
+    let game = chsh_game();
+    let refused = |f: &dyn Fn(&mut FiniteSizeOptions)| {
+        let mut o = quick(0.84, 1_000_000);
+        f(&mut o);
+        assert!(finite_size(&game, &o).is_err());
+    };
+    refused(&|o| o.testing = 0.0);
+    refused(&|o| o.testing = 1.5);
+    refused(&|o| o.testing = f64::NAN);
+    refused(&|o| o.rounds = 0);
+    refused(&|o| o.threshold = f64::NAN);
+    refused(&|o| o.threshold = 1.2);
+    // Above Tsirelson's bound (cos²(π/8) ≈ 0.8536): no quantum device passes.
+    refused(&|o| o.threshold = 0.9);
+    refused(&|o| o.security.smoothing = 0.0);
+    refused(&|o| o.security.pass_floor = 1.0);
+    refused(&|o| o.security.extraction = -1e-9);
+    refused(&|o| o.fraction = 1.0);
+    refused(&|o| o.tangent = Tangent::Search(0));
+    refused(&|o| o.tangent = Tangent::Search(33));
+    refused(&|o| o.tangent = Tangent::At(f64::INFINITY));
+    refused(&|o| o.expected = Some(2.0));
+    refused(&|o| {
+        o.key = Some(KeyDisclosure {
+            error_correction_bits: f64::NAN,
+            max_test_rounds: None,
+        })
+    });
+    refused(&|o| {
+        o.key = Some(KeyDisclosure {
+            error_correction_bits: 0.0,
+            max_test_rounds: None,
+        });
+        o.with = Some(Default::default());
+    });
+}
+
+#[test]
+fn the_command_prints_json_and_writes_the_plot() {
+    let dir = std::env::temp_dir().join(format!("bellgap-finite-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let svg = dir.join("rate.svg");
+    let svg_path = svg.to_string_lossy().to_string();
+    let out = bellgap(&[
+        "finite-size",
+        "games/chsh.yaml",
+        "--rounds",
+        "100000000",
+        "--testing",
+        "0.05",
+        "--threshold",
+        "0.83",
+        "--expected",
+        "0.845",
+        "--nodes",
+        "6",
+        "--adversary-words",
+        "with-projectors",
+        "--tangent-points",
+        "1",
+        "--json",
+        "--svg",
+        &svg_path,
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j = json_of(&out);
+    assert_eq!(j["command"], "finite-size");
+    assert_eq!(j["extracting"], "randomness");
+    let run = &j["run"];
+    assert!(run["output_bits"].as_f64().unwrap() > 0.0);
+    assert!(run["smooth_min_entropy"].as_f64().unwrap() < run["first_order"].as_f64().unwrap());
+    assert!(run["statement"]
+        .as_str()
+        .unwrap()
+        .contains("Dupuis & Fawzi"));
+    assert!(j["completeness_error_log10"].as_f64().unwrap() < -9.0);
+    assert_eq!(j["curve"].as_array().unwrap().len(), 56);
+    assert!(std::fs::read_to_string(&svg).unwrap().starts_with("<svg"));
+    // Bad numbers are usage errors (exit 2).
+    for bad in [
+        ["--testing", "nan"],
+        ["--rounds", "-5"],
+        ["--smoothing", "inf"],
+    ] {
+        let mut args = vec![
+            "finite-size",
+            "games/chsh.yaml",
+            "--threshold",
+            "0.83",
+            "--rounds",
+            "1000",
+            "--testing",
+            "0.1",
+        ];
+        args.extend(bad);
+        let out = bellgap(&args);
+        assert_eq!(out.status.code(), Some(2), "{bad:?}");
+    }
+}
