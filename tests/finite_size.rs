@@ -240,3 +240,81 @@ fn the_command_prints_json_and_writes_the_plot() {
         assert_eq!(out.status.code(), Some(2), "{bad:?}");
     }
 }
+
+#[test]
+fn the_review_adds_the_finite_size_section_and_a_general_game_key_rate() {
+    let dir = std::env::temp_dir().join(format!("bellgap-finite-review-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let root = env!("CARGO_MANIFEST_DIR");
+    // A CHSH run with a finite-size section.
+    let chsh_run = dir.join("chsh-run.yaml");
+    std::fs::write(
+        &chsh_run,
+        format!(
+            "game: {root}/games/chsh.yaml\nrounds: 100000\nwins: 84500\nfinite_size: {{rounds: 1000000000, testing: 0.01, threshold: 0.84, nodes: 6, tangent_points: 1}}\n"
+        ),
+    )
+    .unwrap();
+    let out = bellgap(&["review", chsh_run.to_str().unwrap(), "--json"]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j = json_of(&out);
+    let f = &j["finite_size"];
+    assert_eq!(f["observed_passes"], true);
+    // The same figures as the library computes with the same options.
+    let mut options = quick(0.84, 1_000_000_000);
+    options.hierarchy.adversary = AdversaryWords::WithPlayerWords;
+    let game = chsh_game();
+    let direct = finite_size(&game, &options).unwrap();
+    assert_eq!(
+        f["figures"]["run"]["output_bits"].as_f64().unwrap(),
+        direct.run.output_bits
+    );
+    assert!(j["assumptions"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|a| a.as_str().unwrap().contains("Dupuis & Fawzi")));
+    // A game other than CHSH with a key section: the entropy hierarchy and Fano's bound.
+    let depot_run = dir.join("depot-run.yaml");
+    std::fs::write(
+        &depot_run,
+        format!(
+            "game: {root}/examples/data/depot-game.yaml\nrounds: 200000\nwins: 172000\nkey: {{qber: 0.01, player: north, question: 0, nodes: 4}}\n"
+        ),
+    )
+    .unwrap();
+    let out = bellgap(&["review", depot_run.to_str().unwrap(), "--markdown", "-o"]);
+    assert_eq!(out.status.code(), Some(2), "-o needs a file");
+    let md = dir.join("depot.md");
+    let out = bellgap(&[
+        "review",
+        depot_run.to_str().unwrap(),
+        "--markdown",
+        "-o",
+        md.to_str().unwrap(),
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = std::fs::read_to_string(&md).unwrap();
+    assert!(
+        text.contains("Key figures \\(entropy hierarchy\\)"),
+        "{text}"
+    );
+    let out = bellgap(&["review", depot_run.to_str().unwrap(), "--json"]);
+    let j = json_of(&out);
+    let k = &j["entropy_key"];
+    let h = k["rate"]["conditional_entropy"].as_f64().unwrap();
+    // Fano at Q = 0.01 with binary answers: h(0.01) = 0.0807931 (computed here).
+    let fano = k["rate"]["error_correction"].as_f64().unwrap();
+    assert!((fano - 0.080_793_1).abs() < 1e-6, "{fano}");
+    assert!((k["rate"]["key_rate"].as_f64().unwrap() - (h - fano).max(0.0)).abs() < 1e-15);
+    // The lower confidence score is above the classical value 4/5, so the bound is positive.
+    assert!(k["score"].as_f64().unwrap() > 0.8 && h > 0.0);
+}

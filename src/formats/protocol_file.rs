@@ -9,7 +9,14 @@
 //! alpha: 1e-6                   # error probability of the confidence bounds (default 1e-6)
 //! target_p_value: 1e-9          # for `rounds needed` (default 1e-9)
 //! randomness: {player: alice, question: 0, level: 2}   # optional
-//! key: {qber: 0.02}             # optional; CHSH-type games only
+//! key: {qber: 0.02}             # optional; analytic for CHSH, the entropy hierarchy otherwise
+//!                               # (then also player, question, nodes)
+//! finite_size:                  # optional: a spot-checking run by entropy accumulation
+//!   rounds: 1000000000
+//!   testing: 0.01
+//!   threshold: 0.84
+//!   # player, question, smoothing, pass_floor, extractor_error, key_disclosed_bits, nodes,
+//!   # tangent_points
 //! ```
 
 use std::path::{Path, PathBuf};
@@ -49,9 +56,12 @@ pub struct ProtocolSpec {
     /// Certified randomness of one answer.
     #[serde(default)]
     pub randomness: Option<RandomnessSpec>,
-    /// CHSH key figures.
+    /// Key figures.
     #[serde(default)]
     pub key: Option<KeySpec>,
+    /// Finite-size figures of a spot-checking run.
+    #[serde(default)]
+    pub finite_size: Option<FiniteSizeSpec>,
 }
 
 /// Whose answer's randomness the review certifies.
@@ -71,8 +81,53 @@ pub struct RandomnessSpec {
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct KeySpec {
-    /// Quantum bit error rate of the key rounds.
+    /// Probability that the key answers differ (the QBER for binary answers).
     pub qber: f64,
+    /// The key player (games other than CHSH; default: the first player).
+    #[serde(default)]
+    pub player: Option<String>,
+    /// The key question's label (default: the first).
+    #[serde(default)]
+    pub question: Option<i64>,
+    /// Gauss–Radau nodes of the entropy hierarchy (default 8).
+    #[serde(default)]
+    pub nodes: Option<usize>,
+}
+
+/// A spot-checking run's parameters for the finite-size figures.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FiniteSizeSpec {
+    /// Rounds n of the run.
+    pub rounds: u64,
+    /// Probability γ of a test round.
+    pub testing: f64,
+    /// The score per test round the run must reach.
+    pub threshold: f64,
+    /// Whose answer (default: the first player).
+    #[serde(default)]
+    pub player: Option<String>,
+    /// Which question (label; default: the first).
+    #[serde(default)]
+    pub question: Option<i64>,
+    /// Smoothing parameter ε_s (default 1e-9).
+    #[serde(default)]
+    pub smoothing: Option<f64>,
+    /// Pass floor ε_EA (default 1e-9).
+    #[serde(default)]
+    pub pass_floor: Option<f64>,
+    /// Extractor error ε_ext (default 1e-9).
+    #[serde(default)]
+    pub extractor_error: Option<f64>,
+    /// Key instead of randomness: the bits error correction disclosed.
+    #[serde(default)]
+    pub key_disclosed_bits: Option<f64>,
+    /// Gauss–Radau nodes (default 8).
+    #[serde(default)]
+    pub nodes: Option<usize>,
+    /// Tangent scores the min-tradeoff search tries (default 4).
+    #[serde(default)]
+    pub tangent_points: Option<usize>,
 }
 
 /// A protocol file read, with where its game file is.

@@ -380,7 +380,7 @@ pub fn entropy<'a>(game: &'a Game, options: &EntropyCommandOptions) -> Result<En
                     .iter()
                     .map(|&v| (Some(v), EntropyConstraint::Score(v)))
                     .collect(),
-                "score at least".into(),
+                "every quantum behaviour scoring at least the row's score".into(),
             )
         }
         EntropyGiven::Behaviour(c) => {

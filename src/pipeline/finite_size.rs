@@ -160,7 +160,7 @@ pub fn finite_size_assumptions(extracting: Extracting) -> Vec<String> {
     let mut a = vec![
         "adversary: quantum side information; the devices may keep memory and adapt between rounds (sequential rounds), but do not signal to each other during a round or learn future questions".to_string(),
         "questions and the test flag of each round are drawn independently from trusted public randomness".to_string(),
-        "finite size: entropy accumulation (Dupuis & Fawzi 2019) with the constants as recalled from memory; compare them with the published theorem before relying on them".to_string(),
+        "statement: entropy accumulation (Dupuis & Fawzi 2019) with the constants as recalled from memory; compare them with the published theorem before relying on them".to_string(),
         "the bound holds for runs that pass the test, unless the pass probability is below the pass floor ε_EA".to_string(),
     ];
     match extracting {
@@ -333,11 +333,13 @@ pub fn finite_size<'a>(
             },
         }
     };
-    let limit = run.asymptotic_rate
+    // The certified rate is floored at 0, and so is its limit.
+    let limit = (run.asymptotic_rate
         - match extracting {
             Extracting::Randomness => 0.0,
             Extracting::Key => options.testing * others.log2() + per_round_leak,
-        };
+        })
+    .max(0.0);
     let curve = rate_curve(
         &curve_rounds(),
         &protocol,

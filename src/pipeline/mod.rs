@@ -21,7 +21,9 @@ pub use finite_size::{
     KeyDisclosure, Tangent, TangentTried, DEFAULT_TANGENT_POINTS, DEFAULT_TEST_CAP_ABORT,
     MAX_TANGENT_POINTS,
 };
-pub use review::{review, Review, ReviewKey, ReviewRandomness};
+pub use review::{
+    review, Review, ReviewEntropyKey, ReviewFiniteSize, ReviewKey, ReviewRandomness, REVIEW_NODES,
+};
 
 use serde::Serialize;
 

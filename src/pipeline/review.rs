@@ -5,15 +5,27 @@
 
 use serde::Serialize;
 
+use super::figures::{
+    entropy, DevetakWinter, EntropyCommandOptions, EntropyGiven, ErrorCorrection, TargetChoice,
+};
+use super::finite_size::{
+    finite_size, FiniteSizeOptions, FiniteSizeReport, KeyDisclosure, Tangent,
+    DEFAULT_TANGENT_POINTS,
+};
 use super::{bounds, BoundsOptions, GameReport, Observer};
+use crate::bounds::entropy::EntropyOptions;
 use crate::bounds::quantum::npa::Level;
 use crate::error::{Error, Location, Result};
 use crate::formats::game::{families, Game};
 use crate::formats::protocol_file::ProtocolFile;
+use crate::protocol::accumulation::SecurityParameters;
 use crate::protocol::finite::{margin, observation, Margin, ObservedRun};
 use crate::protocol::key::{chsh_threshold_qber, key_rate, ChshEntropyBound, KeyRate};
 use crate::protocol::randomness::{guessing_probability, Randomness, Target};
 use crate::protocol::CAUTION;
+
+/// Gauss–Radau nodes of the review's entropy bounds unless the file says otherwise.
+pub const REVIEW_NODES: usize = 8;
 
 /// Certified randomness in a review: at the lower confidence score, and a curve for the plot.
 #[derive(Debug, Clone, Serialize)]
@@ -37,6 +49,29 @@ pub struct ReviewKey {
     pub threshold_qber: f64,
 }
 
+/// Key figures of a game other than CHSH: the entropy hierarchy at the lower confidence score
+/// and Fano's bound on the error-correction term.
+#[derive(Debug, Clone, Serialize)]
+pub struct ReviewEntropyKey {
+    /// Whose answers are the key, e.g. `alice (question 0)`.
+    pub target: String,
+    /// The score the entropy bound assumes (the lower confidence bound).
+    pub score: f64,
+    /// The method of the entropy bound.
+    pub method: String,
+    /// The Devetak–Winter rate.
+    pub rate: DevetakWinter,
+}
+
+/// The finite-size figures in a review.
+#[derive(Debug, Clone)]
+pub struct ReviewFiniteSize<'a> {
+    /// The figures.
+    pub report: FiniteSizeReport<'a>,
+    /// Whether the observed mean score reaches the threshold (read as the run's test rounds).
+    pub observed_passes: bool,
+}
+
 /// Everything a review shows.
 #[derive(Debug, Clone)]
 pub struct Review<'a> {
@@ -50,8 +85,12 @@ pub struct Review<'a> {
     pub margin: Margin,
     /// Certified randomness, when the file asks for it.
     pub randomness: Option<ReviewRandomness>,
-    /// Key figures, when the file asks for them.
+    /// Key figures, when the file asks for them (analytic for CHSH).
     pub key: Option<ReviewKey>,
+    /// Key figures of another game, from the entropy hierarchy.
+    pub entropy_key: Option<ReviewEntropyKey>,
+    /// Finite-size figures, when the file asks for them.
+    pub finite_size: Option<ReviewFiniteSize<'a>>,
     /// Tool version and the UTC date the report was made.
     pub generated: String,
     /// The command that made the report (set by the caller; empty when unknown).
@@ -180,19 +219,82 @@ pub fn review<'a>(
             })
         }
     };
-    let key = match (&p.key, chsh_correlator(game, certified_score)) {
-        (Some(k), Some(sv)) => Some(ReviewKey {
-            chsh_value: sv,
-            figures: key_rate(&ChshEntropyBound, sv, k.qber)
-                .map_err(|e| bad(format!("key: {e}")))?,
-            threshold_qber: chsh_threshold_qber(),
-        }),
-        (Some(_), None) => {
-            return Err(bad(
-                "key figures are available for the CHSH game or the CHSH expression only".into(),
-            ))
+    let (mut key, mut entropy_key) = (None, None);
+    match (&p.key, chsh_correlator(game, certified_score)) {
+        (Some(k), Some(sv)) => {
+            key = Some(ReviewKey {
+                chsh_value: sv,
+                figures: key_rate(&ChshEntropyBound, sv, k.qber)
+                    .map_err(|e| bad(format!("key: {e}")))?,
+                threshold_qber: chsh_threshold_qber(),
+            })
         }
-        _ => None,
+        (Some(k), None) => {
+            let options = EntropyCommandOptions {
+                target: TargetChoice {
+                    player: k.player.clone(),
+                    question: k.question,
+                },
+                with: None,
+                given: EntropyGiven::Scores(vec![certified_score]),
+                key: Some(ErrorCorrection::ErrorRate(k.qber)),
+                hierarchy: EntropyOptions {
+                    nodes: k.nodes.unwrap_or(REVIEW_NODES),
+                    ..Default::default()
+                },
+            };
+            let r = entropy(game, &options).map_err(|e| bad(format!("key: {e}")))?;
+            let result = r
+                .results
+                .into_iter()
+                .next()
+                .ok_or_else(|| bad("key: the entropy bound was not obtained".into()))?;
+            entropy_key = Some(ReviewEntropyKey {
+                target: r.target_name,
+                score: certified_score,
+                method: result.entropy.method.clone(),
+                rate: result
+                    .key
+                    .ok_or_else(|| bad("key: no key rate was computed".into()))?,
+            });
+        }
+        _ => {}
+    }
+    let finite_size = match &p.finite_size {
+        None => None,
+        Some(f) => {
+            let defaults = SecurityParameters::default();
+            let options = FiniteSizeOptions {
+                target: TargetChoice {
+                    player: f.player.clone(),
+                    question: f.question,
+                },
+                rounds: f.rounds,
+                testing: f.testing,
+                threshold: f.threshold,
+                security: SecurityParameters {
+                    smoothing: f.smoothing.unwrap_or(defaults.smoothing),
+                    pass_floor: f.pass_floor.unwrap_or(defaults.pass_floor),
+                    extraction: f.extractor_error.unwrap_or(defaults.extraction),
+                },
+                key: f.key_disclosed_bits.map(|bits| KeyDisclosure {
+                    error_correction_bits: bits,
+                    max_test_rounds: None,
+                }),
+                tangent: Tangent::Search(f.tangent_points.unwrap_or(DEFAULT_TANGENT_POINTS)),
+                hierarchy: EntropyOptions {
+                    nodes: f.nodes.unwrap_or(REVIEW_NODES),
+                    ..Default::default()
+                },
+                ..Default::default()
+            };
+            let report =
+                finite_size(game, &options).map_err(|e| bad(format!("finite_size: {e}")))?;
+            Some(ReviewFiniteSize {
+                observed_passes: m.observed_mean >= f.threshold,
+                report,
+            })
+        }
     };
     Ok(Review {
         name: p.name.clone().unwrap_or_else(|| path.to_string()),
@@ -201,6 +303,8 @@ pub fn review<'a>(
         margin: m,
         randomness,
         key,
+        entropy_key,
+        finite_size,
         generated: format!(
             "bellgap {} on {} (UTC)",
             env!("CARGO_PKG_VERSION"),
@@ -225,6 +329,18 @@ impl Review<'_> {
         }
         if self.key.is_some() {
             a.push("Key figures assume collective attacks, i.i.d. rounds, the asymptotic limit and one-way error correction at the Shannon limit.".into());
+        }
+        if self.entropy_key.is_some() {
+            a.push("The key rate of this game is the Devetak–Winter rate with a verified lower bound on H(A|X=x*, E) from the Gauss–Radau entropy hierarchy at the lower confidence score, and Fano's bound on H(A|B) at the stated error rate: collective attacks, i.i.d. rounds, asymptotic, one-way error correction at the Shannon limit.".into());
+        }
+        if let Some(f) = &self.finite_size {
+            a.extend(
+                f.report
+                    .assumptions
+                    .iter()
+                    .filter(|s| !s.starts_with("not a security proof"))
+                    .map(|s| format!("Finite size: {s}.")),
+            );
         }
         a.push(CAUTION.into());
         a

@@ -4,9 +4,9 @@
 
 use std::fmt::Write;
 
-use super::charts::{line_chart, Series};
+use super::charts::{finite_size_rate, line_chart, Series};
 use super::text::p_value_text;
-use crate::numbers::{bits_text, num};
+use crate::numbers::{bits_text, count_text, num, num_sig};
 use crate::pipeline::Review;
 
 /// The headline: whether the run certifies a score above every classical strategy.
@@ -176,6 +176,83 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
             ],
         ));
     }
+    if let Some(k) = &r.entropy_key {
+        let rate = &k.rate;
+        out.push((
+            "Key figures (entropy hierarchy)".into(),
+            vec![
+                ("key answers".into(), k.target.clone()),
+                ("at score (lower confidence bound)".into(), num(k.score)),
+                (
+                    "H(A|X=x*, E) ≥".into(),
+                    format!("{} ({})", bits_text(rate.conditional_entropy), k.method),
+                ),
+                (
+                    "H(A|B) ≤".into(),
+                    format!(
+                        "{} ({})",
+                        bits_text(rate.error_correction),
+                        rate.error_correction_from
+                    ),
+                ),
+                (
+                    "asymptotic key rate ≥".into(),
+                    format!("{} per round", bits_text(rate.key_rate)),
+                ),
+            ],
+        ));
+    }
+    if let Some(f) = &r.finite_size {
+        let (rep, run) = (&f.report, &f.report.run);
+        let p = &run.protocol;
+        out.push((
+            "Finite size (entropy accumulation)".into(),
+            vec![
+                ("entropy of".into(), rep.target_name.clone()),
+                ("rounds".into(), count_text(p.rounds as f64)),
+                ("testing probability".into(), num(p.testing)),
+                ("threshold score per test round".into(), num(p.threshold)),
+                (
+                    "observed mean reaches the threshold".into(),
+                    if f.observed_passes {
+                        "yes"
+                    } else {
+                        "no: the run would abort"
+                    }
+                    .into(),
+                ),
+                (
+                    "ε_s, ε_EA, ε_ext".into(),
+                    format!(
+                        "{:e}, {:e}, {:e}",
+                        run.security.smoothing, run.security.pass_floor, run.security.extraction
+                    ),
+                ),
+                (
+                    "smooth min-entropy ≥".into(),
+                    format!("{} bits", num_sig(run.smooth_min_entropy, 10)),
+                ),
+                (
+                    "certified output".into(),
+                    format!("{} bits", num_sig(run.output_bits, 10)),
+                ),
+                (
+                    "rate per round".into(),
+                    format!(
+                        "{} (limit {})",
+                        bits_text(run.rate_per_round),
+                        bits_text(rep.asymptotic_output_rate)
+                    ),
+                ),
+                (
+                    format!("rounds for {}% of the limit", num(100.0 * rep.fraction)),
+                    rep.rounds_for_fraction
+                        .map_or("not within 10^18 rounds".into(), |n| count_text(n as f64)),
+                ),
+                ("statement".into(), run.statement.into()),
+            ],
+        ));
+    }
     out
 }
 
@@ -211,6 +288,10 @@ pub fn html(r: &Review) -> String {
         h.push_str("<h2>Min-entropy against score</h2>\n");
         h.push_str(&svg);
     }
+    if let Some(f) = &r.finite_size {
+        h.push_str("<h2>Certified rate against rounds</h2>\n");
+        h.push_str(&finite_size_rate(&f.report));
+    }
     h.push_str("<h2>Assumptions and cautions</h2>\n<ul>\n");
     for a in r.assumptions() {
         let _ = writeln!(h, "<li>{}</li>", esc(&a));
@@ -240,6 +321,13 @@ pub fn markdown(r: &Review) -> String {
             md,
             "\n## Min-entropy against score\n\n![min-entropy](data:image/svg+xml;base64,{})\n",
             base64(svg.as_bytes())
+        );
+    }
+    if let Some(f) = &r.finite_size {
+        let _ = write!(
+            md,
+            "\n## Certified rate against rounds\n\n![rate](data:image/svg+xml;base64,{})\n",
+            base64(finite_size_rate(&f.report).as_bytes())
         );
     }
     md.push_str("\n## Assumptions and cautions\n\n");

@@ -645,11 +645,21 @@ struct ReviewView<'a> {
     margin: &'a Margin,
     randomness: Option<&'a crate::pipeline::ReviewRandomness>,
     key: Option<&'a crate::pipeline::ReviewKey>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    entropy_key: Option<&'a crate::pipeline::ReviewEntropyKey>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    finite_size: Option<ReviewFiniteSizeView<'a>>,
     assumptions: Vec<String>,
     #[serde(skip_serializing_if = "<[String]>::is_empty")]
     notes: &'a [String],
     #[serde(skip_serializing_if = "<[String]>::is_empty")]
     not_obtained: &'a [String],
+}
+
+#[derive(Serialize)]
+struct ReviewFiniteSizeView<'a> {
+    observed_passes: bool,
+    figures: &'a FiniteSizeReport<'a>,
 }
 
 impl Serialize for Review<'_> {
@@ -670,6 +680,11 @@ impl Serialize for Review<'_> {
             margin: &self.margin,
             randomness: self.randomness.as_ref(),
             key: self.key.as_ref(),
+            entropy_key: self.entropy_key.as_ref(),
+            finite_size: self.finite_size.as_ref().map(|f| ReviewFiniteSizeView {
+                observed_passes: f.observed_passes,
+                figures: &f.report,
+            }),
             assumptions: self.assumptions(),
             notes: &b.notes,
             not_obtained: &b.not_obtained,
