@@ -379,9 +379,10 @@ pub struct HierarchyArgs {
     /// Gauss–Radau nodes (2 to 64); one relaxation is solved per node but the last.
     #[arg(long, default_value_t = bellgap::bounds::entropy::hierarchy::DEFAULT_NODES)]
     pub nodes: usize,
-    /// The players' NPA level of each relaxation.
-    #[arg(long, default_value = "1+joint", long_help = LEVEL_HELP)]
-    pub level: String,
+    /// The players' NPA level of each relaxation (default: 1+joint and the target players'
+    /// products of two of their own operators, e.g. `1 A B AB AA`).
+    #[arg(long, long_help = LEVEL_HELP)]
+    pub level: Option<String>,
     /// Which of the adversary's words join the players' words.
     #[arg(long, value_enum, default_value = "with-player-words")]
     pub adversary_words: AdversaryWordsArg,

@@ -593,7 +593,7 @@ impl Invocation {
 fn hierarchy_options(h: &HierarchyArgs) -> Result<EntropyOptions> {
     Ok(EntropyOptions {
         nodes: h.nodes,
-        level: Level::parse(&h.level)?,
+        level: h.level.as_deref().map(Level::parse).transpose()?,
         adversary: match h.adversary_words {
             AdversaryWordsArg::Letters => AdversaryWords::Letters,
             AdversaryWordsArg::WithProjectors => AdversaryWords::WithProjectors,
@@ -816,7 +816,7 @@ mod tests {
         assert_eq!(options.hierarchy.nodes, 6);
         assert_eq!(options.hierarchy.field, MomentField::Complex);
         assert_eq!(options.hierarchy.adversary, AdversaryWords::Letters);
-        assert_eq!(options.hierarchy.level, Level::Joint);
+        assert_eq!(options.hierarchy.level, None);
         assert!(matches!(options.key, Some(ErrorCorrection::ErrorRate(q)) if q == 0.02));
         let Request::Entropy {
             options, behaviour, ..

@@ -10,7 +10,7 @@ pub mod quadrature;
 pub mod relaxation;
 
 pub use hierarchy::{
-    conditional_entropy, event_terms, ConditionalEntropy, EntropyConstraint, EntropyOptions,
-    MinTradeoff, NodeBound, Target,
+    conditional_entropy, default_level, event_terms, ConditionalEntropy, EntropyConstraint,
+    EntropyOptions, MinTradeoff, NodeBound, Target,
 };
 pub use relaxation::{AdversaryWords, MomentField};
