@@ -238,6 +238,57 @@ fn the_full_behaviour_certifies_at_least_what_its_score_does() {
 }
 
 #[test]
+fn the_pair_bound_lies_between_the_single_answer_and_a_realisation() {
+    // H(AB|X=0, Y=0, E) for every quantum behaviour with CHSH value S = 2√2·v, v = 0.95.
+    let game = chsh();
+    let s = &game.scenario;
+    let v = 0.95;
+    let score = 2.0 * 2f64.sqrt() * v;
+    let options = EntropyOptions {
+        nodes: 4,
+        level: Some(Level::Joint),
+        ..Default::default()
+    };
+    let pair = conditional_entropy(
+        s,
+        &Target {
+            parts: vec![(0, 0), (1, 0)],
+        },
+        &EntropyConstraint::Score(score),
+        &options,
+    )
+    .unwrap();
+    let single = at_score(s, score, &light());
+    // The Werner state v|Φ+⟩⟨Φ+| + (1−v)1/4 with the optimal CHSH measurements reaches S; with
+    // Eve holding its purification, measuring both rank-one answers leaves Eve's state pure, so
+    // H(AB|E) = H(AB) − S(ρ_AB) = 1 + h((1 + v/√2)/2) − S(ρ_AB) (our derivation): 1.3539 here.
+    // No bound may exceed it. A pair holds at least one answer's entropy, and the bound clears
+    // the pair's min-entropy from the guessing probability (measured: 0.9552 against 0.7075 for
+    // one answer and 0.5841 for the pair's min-entropy).
+    let h = |p: f64| -p * p.log2() - (1.0 - p) * (1.0 - p).log2();
+    let (l1, l2) = ((1.0 + 3.0 * v) / 4.0, (1.0 - v) / 4.0);
+    let werner = 1.0 + h((1.0 + v / 2f64.sqrt()) / 2.0) + l1 * l1.log2() + 3.0 * l2 * l2.log2();
+    assert!((werner - 1.353_939_4).abs() < 1e-6);
+    assert!(pair.bits <= werner + 1e-7, "{} above {werner}", pair.bits);
+    assert!(pair.bits > single.bits, "{} vs {}", pair.bits, single.bits);
+    let guess = guessing_probability(
+        s,
+        &Target {
+            parts: vec![(0, 0), (1, 0)],
+        },
+        score,
+        &Level::Length(2),
+    )
+    .unwrap();
+    assert!(
+        pair.bits >= guess.min_entropy,
+        "{} vs {}",
+        pair.bits,
+        guess.min_entropy
+    );
+}
+
+#[test]
 fn bad_requests_are_refused() {
     let game = chsh();
     let s = &game.scenario;

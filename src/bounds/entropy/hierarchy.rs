@@ -164,7 +164,7 @@ pub struct EntropyOptions {
     /// Gauss–Radau nodes m (m − 1 relaxations are solved; the node at t = 1 is dropped).
     pub nodes: usize,
     /// The players' NPA level of each relaxation (None: [`default_level`], which depends on
-    /// the target).
+    /// the target and the size).
     pub level: Option<Level>,
     /// Which of the adversary's words join it.
     pub adversary: AdversaryWords,
@@ -191,12 +191,19 @@ impl Default for EntropyOptions {
     }
 }
 
+/// The side of the entropy moment matrix up to which [`default_level`] adds the target
+/// players' own products (each node's work grows with about the fourth power of the side).
+pub const DEFAULT_LEVEL_MAX_SIDE: usize = 120;
+
 /// The default players' level for a target: 1+joint (every player's operators and the
 /// products of one operator of each of two or more players) and, for each target player, the
-/// products of two of its own operators. Those products are what the CHSH comparison needs at
-/// low scores: at S = 2.1 (12 nodes) 1+joint alone falls 4.4e-3 short of the analytic curve,
-/// with them 2.3e-4 (measured), in about the same time.
-pub fn default_level(s: &Scenario, target: &Target) -> Level {
+/// products of two of its own operators, when the moment matrix stays within
+/// [`DEFAULT_LEVEL_MAX_SIDE`] (otherwise 1+joint alone). Those products are what the CHSH
+/// comparison needs at low scores: at S = 2.1 (12 nodes) 1+joint alone falls 4.4e-3 short of the
+/// analytic curve, with them 2.3e-4, in about the same time (measured). On CGLMP with three
+/// answers they would make each relaxation several times larger and slower (it ran for more
+/// than ten minutes), hence the cap.
+pub fn default_level(s: &Scenario, target: &Target, adversary: AdversaryWords) -> Result<Level> {
     let players = s.players();
     let mut patterns: Vec<Vec<usize>> = vec![Vec::new()];
     patterns.extend((0..players).map(|p| vec![p]));
@@ -209,7 +216,13 @@ pub fn default_level(s: &Scenario, target: &Target) -> Level {
     own.sort_unstable();
     own.dedup();
     patterns.extend(own.into_iter().map(|p| vec![p, p]));
-    Level::Patterns(patterns)
+    let with_products = Level::Patterns(patterns);
+    let events = target.events(s).len();
+    match EntropyMatrix::new(s, &with_products, events, adversary) {
+        Ok(m) if m.words.len() <= DEFAULT_LEVEL_MAX_SIDE => Ok(with_products),
+        Ok(_) | Err(Error::TooLarge { .. }) => Ok(Level::Joint),
+        Err(e) => Err(e),
+    }
 }
 
 /// One node's share of the bound.
@@ -449,10 +462,10 @@ pub fn conditional_entropy(
     let start = std::time::Instant::now();
     target.check(s)?;
     let rule = RadauRule::new(options.nodes)?;
-    let level = options
-        .level
-        .clone()
-        .unwrap_or_else(|| default_level(s, target));
+    let level = match &options.level {
+        Some(level) => level.clone(),
+        None => default_level(s, target, options.adversary)?,
+    };
     let events = target.events(s).len();
     let matrix = EntropyMatrix::new(s, &level, events, options.adversary)?;
     let mut tradeoff_ends: Option<(f64, f64, f64)> = None;
