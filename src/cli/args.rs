@@ -380,7 +380,8 @@ pub struct HierarchyArgs {
     #[arg(long, default_value_t = bellgap::bounds::entropy::hierarchy::DEFAULT_NODES)]
     pub nodes: usize,
     /// The players' NPA level of each relaxation (default: 1+joint and the target players'
-    /// products of two of their own operators, e.g. `1 A B AB AA`).
+    /// products of two of their own operators, e.g. `1 A B AB AA`, while the matrix side stays
+    /// within 120; else 1+joint).
     #[arg(long, long_help = LEVEL_HELP)]
     pub level: Option<String>,
     /// Which of the adversary's words join the players' words.
