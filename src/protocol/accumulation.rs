@@ -497,7 +497,7 @@ pub fn max_test_rounds(rounds: u64, testing: f64, abort: f64) -> u64 {
 /// log₁₀ of an upper bound on the probability that honest devices scoring `expected` per test
 /// round on average fail the test (a logarithm, since the bound underflows for long runs): the
 /// test shortfalls D_i = [test]·(w_max − score) are i.i.d. in [0, Δ] with mean γ(w_max − S)
-/// and E[D²] ≤ γΔ(w_max − S); the lesser of Hoeffding's and Bernstein's inequalities for
+/// and E(D²) ≤ γΔ(w_max − S); the lesser of Hoeffding's and Bernstein's inequalities for
 /// Σ D_i exceeding n·γ·(w_max − S_thr). 0 (probability 1) when S ≤ S_thr.
 pub fn completeness_error_log10(protocol: &SpotChecking, expected: f64) -> Result<f64> {
     protocol.check()?;
