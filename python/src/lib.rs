@@ -1,0 +1,791 @@
+//! Python bindings of the bellgap library (`bellgap._bellgap`; the Python package `bellgap`
+//! wraps them). Each command takes a loaded game and its options as a JSON object (the Python
+//! keyword arguments), converts them to the library's typed options in one place here, runs the
+//! library's pipeline function with the GIL released, and returns the same JSON the command
+//! line prints with `--json` (`bellgap::render::json::to_value`), as text.
+//!
+//! Long computations run on a worker thread while the calling thread waits with the GIL
+//! released and checks for Ctrl-C every 100 ms: an interrupt raises `KeyboardInterrupt` at once
+//! (the abandoned computation finishes on its own thread and its result is dropped).
+
+use std::panic::AssertUnwindSafe;
+use std::sync::{mpsc, Arc};
+use std::time::Duration;
+
+use pyo3::create_exception;
+use pyo3::exceptions::PyException;
+use pyo3::prelude::*;
+use serde::Deserialize;
+use serde_json::{json, Value};
+
+use bellgap::bounds::classical::{Choice, ClassicalOptions};
+use bellgap::bounds::entropy::{AdversaryWords, EntropyOptions, MomentField};
+use bellgap::bounds::quantum::npa::Level;
+use bellgap::bounds::quantum::symmetric::SymmetryChoice;
+use bellgap::formats::game::families::{self, Family};
+use bellgap::formats::game::CompileOptions;
+use bellgap::formats::protocol_file::ProtocolFile;
+use bellgap::model::strategy::{CMatrix, CVector};
+use bellgap::optim::first_order::FirstOrderOptions;
+use bellgap::pipeline::{
+    self, BoundsOptions, EntropyCommandOptions, EntropyGiven, ErrorCorrection, EvaluateOptions,
+    FiniteSizeOptions, KeyDisclosure, MarginOptions, NpaLevelsOptions, RandomnessOptions, Silent,
+    Tangent, TargetChoice,
+};
+use bellgap::protocol::accumulation::SecurityParameters;
+use bellgap::protocol::finite::ObservedRun;
+use bellgap::render::json::to_value;
+use bellgap::{Backend, Error, Game, Limits, QuantumStrategy, SeesawOptions};
+
+create_exception!(
+    _bellgap,
+    BellgapError,
+    PyException,
+    "An error of bellgap: args are (kind, message, location), location a dict or None."
+);
+
+/// The library's error as a Python exception carrying its kind, message and location (the
+/// same three the command line's JSON error object has).
+fn to_py(e: Error) -> PyErr {
+    let location = e
+        .location()
+        .map(|l| serde_json::to_string(l).unwrap_or_default());
+    BellgapError::new_err((e.kind(), e.to_string(), location))
+}
+
+fn usage(message: String) -> PyErr {
+    to_py(Error::Usage(message))
+}
+
+/// A failure that is a bug or of the machine, not of the input (kind `internal`).
+fn internal(message: String) -> PyErr {
+    BellgapError::new_err(("internal", message, None::<String>))
+}
+
+/// Runs `work` on a worker thread; waits with the GIL released, checking for signals.
+fn interruptible<T: Send + 'static>(
+    py: Python<'_>,
+    work: impl FnOnce() -> bellgap::Result<T> + Send + 'static,
+) -> PyResult<T> {
+    let (tx, rx) = mpsc::channel();
+    std::thread::Builder::new()
+        .name("bellgap".into())
+        .stack_size(64 << 20)
+        .spawn(move || {
+            let outcome = std::panic::catch_unwind(AssertUnwindSafe(work));
+            let _ = tx.send(outcome);
+        })
+        .map_err(|e| internal(format!("cannot start a worker thread: {e}")))?;
+    // The receiver is not Sync, so it moves into each wait and back out.
+    let mut rx = rx;
+    loop {
+        let (got, back) = py.detach(move || {
+            let got = rx.recv_timeout(Duration::from_millis(100));
+            (got, rx)
+        });
+        rx = back;
+        match got {
+            Ok(Ok(result)) => return result.map_err(to_py),
+            Ok(Err(_)) => {
+                return Err(internal(
+                    "internal error (a bug; please report it): the computation panicked".into(),
+                ))
+            }
+            Err(mpsc::RecvTimeoutError::Timeout) => py.check_signals()?,
+            Err(mpsc::RecvTimeoutError::Disconnected) => {
+                return Err(internal("the worker thread stopped".into()))
+            }
+        }
+    }
+}
+
+/// A loaded, validated game.
+#[pyclass(name = "Game", module = "bellgap._bellgap", frozen)]
+struct PyGame {
+    game: Arc<Game>,
+}
+
+#[pymethods]
+impl PyGame {
+    /// The game's name.
+    #[getter]
+    fn name(&self) -> String {
+        self.game.name.clone()
+    }
+    /// Where it came from (a path, `<string>`, or `family NAME`).
+    #[getter]
+    fn source(&self) -> String {
+        self.game.source.clone()
+    }
+    /// Warnings found while loading (e.g. a score that never changes).
+    #[getter]
+    fn warnings(&self) -> Vec<String> {
+        self.game.warnings.clone()
+    }
+    /// (name, questions, answers) of each player.
+    #[getter]
+    fn players(&self) -> Vec<(String, usize, usize)> {
+        self.game
+            .scenario
+            .parties()
+            .iter()
+            .map(|p| (p.name.clone(), p.questions(), p.answers()))
+            .collect()
+    }
+    /// The flat table every bound reads: question weights w(q), scores V(a|q) (row-major, one
+    /// row of joint answers per joint question, first player most significant), the offset,
+    /// and the questions and answers per player.
+    fn table(&self) -> (Vec<f64>, Vec<f64>, f64, Vec<usize>, Vec<usize>) {
+        let s = &self.game.scenario;
+        (
+            s.weights().to_vec(),
+            s.scores().to_vec(),
+            s.offset(),
+            s.question_radices(),
+            s.answer_radices(),
+        )
+    }
+    fn __repr__(&self) -> String {
+        let players: Vec<String> = self
+            .players()
+            .iter()
+            .map(|(n, q, a)| format!("{n} {q}×{a}"))
+            .collect();
+        format!(
+            "Game({:?}, {}, from {})",
+            self.game.name,
+            players.join(", "),
+            self.game.source
+        )
+    }
+}
+
+/// Loads a game file.
+#[pyfunction]
+fn load_file(py: Python<'_>, path: String) -> PyResult<PyGame> {
+    let game = interruptible(py, move || {
+        Game::from_file(&path, CompileOptions::default())
+    })?;
+    Ok(PyGame {
+        game: Arc::new(game),
+    })
+}
+
+/// Loads a game from YAML text (JSON text is YAML too); errors name `file` as the source.
+#[pyfunction]
+#[pyo3(signature = (text, file = "<string>".to_string()))]
+fn load_yaml(py: Python<'_>, text: String, file: String) -> PyResult<PyGame> {
+    let game = interruptible(py, move || {
+        Game::from_yaml(&text, &file, CompileOptions::default())
+    })?;
+    Ok(PyGame {
+        game: Arc::new(game),
+    })
+}
+
+#[derive(Deserialize, Default)]
+#[serde(deny_unknown_fields)]
+struct FamilyArgs {
+    #[serde(default)]
+    n: Option<usize>,
+    #[serde(default)]
+    d: Option<usize>,
+    #[serde(default)]
+    m: Option<usize>,
+    #[serde(default)]
+    players: Option<usize>,
+    #[serde(default)]
+    signs: Option<String>,
+}
+
+/// One of the standard games by name, with its parameter (`n`, `d`, `m`, `players`, `signs`).
+#[pyfunction]
+fn family(name: &str, args: &str) -> PyResult<PyGame> {
+    let a: FamilyArgs = options(args)?;
+    let need = |v: Option<usize>, what: &str| {
+        v.ok_or_else(|| usage(format!("the family `{name}` needs the parameter `{what}`")))
+    };
+    let family = match name {
+        "chsh" => Family::Chsh,
+        "chsh-expression" => Family::ChshExpression,
+        "xor" => Family::Xor {
+            signs: families::parse_sign_table(
+                a.signs
+                    .as_deref()
+                    .ok_or_else(|| usage("the family `xor` needs `signs`".into()))?,
+            )
+            .map_err(to_py)?,
+        },
+        "odd-cycle" => Family::OddCycle { n: need(a.n, "n")? },
+        "magic-square" => Family::MagicSquare,
+        "ghz" => Family::Ghz {
+            players: need(a.players, "players")?,
+        },
+        "cglmp" => Family::Cglmp { d: need(a.d, "d")? },
+        "i3322" => Family::I3322,
+        "chained" => Family::Chained { m: need(a.m, "m")? },
+        "mermin" => Family::Mermin,
+        other => {
+            return Err(usage(format!(
+                "no family `{other}` (known: chsh, chsh-expression, xor, odd-cycle, magic-square, ghz, cglmp, i3322, chained, mermin)"
+            )))
+        }
+    };
+    let spec = family.spec().map_err(to_py)?;
+    let game = Game::from_spec(&spec, &format!("family {name}")).map_err(to_py)?;
+    Ok(PyGame {
+        game: Arc::new(game),
+    })
+}
+
+/// Keyword arguments (a JSON object) into an options struct; unknown names are refused.
+fn options<T: for<'de> Deserialize<'de>>(json: &str) -> PyResult<T> {
+    serde_json::from_str(json).map_err(|e| usage(format!("bad keyword argument: {e}")))
+}
+
+fn backend(name: &str) -> PyResult<Backend> {
+    match name {
+        "auto" => Ok(Backend::Auto),
+        "ipm" => Ok(Backend::MomentIpm),
+        "clarabel" => Ok(Backend::Clarabel),
+        "first-order" => Ok(Backend::FirstOrder),
+        other => Err(usage(format!(
+            "solver must be auto, ipm, clarabel or first-order, got `{other}`"
+        ))),
+    }
+}
+
+fn symmetry(name: &str) -> PyResult<SymmetryChoice> {
+    match name {
+        "auto" => Ok(SymmetryChoice::Auto),
+        "off" => Ok(SymmetryChoice::Off),
+        other => Err(usage(format!(
+            "symmetry must be auto or off, got `{other}`"
+        ))),
+    }
+}
+
+fn first_order(budget: Option<f64>) -> PyResult<FirstOrderOptions> {
+    let mut o = FirstOrderOptions::default();
+    if let Some(seconds) = budget {
+        if !(seconds.is_finite() && seconds > 0.0) {
+            return Err(usage(format!(
+                "budget must be a positive number of seconds, got {seconds}"
+            )));
+        }
+        o.max_seconds = seconds;
+    }
+    Ok(o)
+}
+
+fn limits(force: bool) -> Limits {
+    Limits { force }
+}
+
+fn default_solver() -> String {
+    "auto".into()
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct SolveArgs {
+    #[serde(default)]
+    level: Option<String>,
+    #[serde(default = "default_solver")]
+    solver: String,
+    #[serde(default = "default_solver")]
+    symmetry: String,
+    #[serde(default)]
+    budget: Option<f64>,
+    #[serde(default)]
+    force: bool,
+    #[serde(default = "default_solver")]
+    method: String,
+    #[serde(default)]
+    dims: Option<Vec<usize>>,
+    #[serde(default = "default_restarts")]
+    restarts: usize,
+    #[serde(default = "default_seed")]
+    seed: u64,
+    #[serde(default)]
+    certificate: bool,
+    #[serde(default)]
+    no_classical: bool,
+}
+
+fn default_restarts() -> usize {
+    8
+}
+fn default_seed() -> u64 {
+    1
+}
+
+/// What a command returns: the command line's JSON, and for `seesaw` the strategy.
+fn reply(value: Value, extra: Option<Value>) -> String {
+    json!({"result": value, "extra": extra}).to_string()
+}
+
+fn strategy_json(st: &QuantumStrategy) -> Value {
+    let c = |z: &num_complex::Complex64| json!([z.re, z.im]);
+    let matrix = |m: &CMatrix| -> Value {
+        Value::Array(
+            (0..m.nrows())
+                .map(|r| Value::Array((0..m.ncols()).map(|k| c(&m[(r, k)])).collect()))
+                .collect(),
+        )
+    };
+    json!({
+        "dims": st.dims,
+        "state": st.state.iter().map(c).collect::<Vec<_>>(),
+        "measurements": st.measurements.iter().map(|player| {
+            player.iter().map(|question| question.iter().map(matrix).collect::<Vec<_>>()).collect::<Vec<_>>()
+        }).collect::<Vec<_>>(),
+    })
+}
+
+/// A complex matrix as rows of (re, im) pairs.
+type PairMatrix = Vec<Vec<[f64; 2]>>;
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct StrategyInput {
+    dims: Vec<usize>,
+    state: Vec<[f64; 2]>,
+    /// `measurements[player][question][answer]`.
+    measurements: Vec<Vec<Vec<PairMatrix>>>,
+}
+
+/// A strategy given from Python (state and measurements as complex arrays), checked like a
+/// strategy file.
+fn strategy_from(input: StrategyInput, game: &Game) -> bellgap::Result<QuantumStrategy> {
+    let bad = |m: String| Error::Input {
+        location: bellgap::Location {
+            file: "<strategy>".into(),
+            field: Some("strategy".into()),
+            ..Default::default()
+        },
+        message: m,
+    };
+    let z = |p: &[f64; 2]| num_complex::Complex64::new(p[0], p[1]);
+    let total: usize = input.dims.iter().product();
+    if input.state.len() != total {
+        return Err(bad(format!(
+            "the state has {} amplitudes, the dimensions {:?} need {total}",
+            input.state.len(),
+            input.dims
+        )));
+    }
+    let mut measurements = Vec::new();
+    for (p, player) in input.measurements.iter().enumerate() {
+        let d = *input
+            .dims
+            .get(p)
+            .ok_or_else(|| bad(format!("no dimension for player {p}")))?;
+        let mut questions = Vec::new();
+        for question in player {
+            let mut answers = Vec::new();
+            for m in question {
+                if m.len() != d || m.iter().any(|row| row.len() != d) {
+                    return Err(bad(format!(
+                        "player {p}'s measurement operators must be {d}×{d}"
+                    )));
+                }
+                answers.push(CMatrix::from_fn(d, d, |r, k| z(&m[r][k])));
+            }
+            questions.push(answers);
+        }
+        measurements.push(questions);
+    }
+    let st = QuantumStrategy {
+        dims: input.dims,
+        state: CVector::from_iterator(total, input.state.iter().map(z)),
+        measurements,
+    };
+    st.check_located(&game.scenario)
+        .map_err(|(field, message)| Error::Input {
+            location: bellgap::Location {
+                file: "<strategy>".into(),
+                field: Some(field),
+                ..Default::default()
+            },
+            message,
+        })?;
+    Ok(st)
+}
+
+/// Runs one game command: `check`, `classical`, `nosignal`, `bounds`, `npa`, `seesaw`,
+/// `evaluate` (the strategy in `strategy`, a JSON object).
+#[pyfunction]
+#[pyo3(signature = (command, game, args, strategy = None))]
+fn run_game(
+    py: Python<'_>,
+    command: String,
+    game: &PyGame,
+    args: &str,
+    strategy: Option<String>,
+) -> PyResult<String> {
+    let a: SolveArgs = options(args)?;
+    let game = game.game.clone();
+    let backend = backend(&a.solver)?;
+    let symmetry = symmetry(&a.symmetry)?;
+    let first_order = first_order(a.budget)?;
+    let limits = limits(a.force);
+    let method = match a.method.as_str() {
+        "auto" => Choice::Auto,
+        "search" => Choice::Search,
+        "milp" => Choice::Milp,
+        other => {
+            return Err(usage(format!(
+                "method must be auto, search or milp, got `{other}`"
+            )))
+        }
+    };
+    let level = a.level.clone();
+    let strategy: Option<StrategyInput> = strategy.map(|s| options(&s)).transpose()?;
+    interruptible(py, move || {
+        let g = &*game;
+        match command.as_str() {
+            "check" => Ok(reply(to_value(&pipeline::check(g)), None)),
+            "classical" => {
+                let o = ClassicalOptions { method, limits };
+                Ok(reply(to_value(&pipeline::classical(g, &o, &Silent)?), None))
+            }
+            "nosignal" => Ok(reply(to_value(&pipeline::nosignal(g, &limits)?), None)),
+            "bounds" => {
+                let o = BoundsOptions {
+                    npa_level: level.as_deref().map(Level::parse).transpose()?,
+                    backend,
+                    symmetry,
+                    first_order,
+                    limits,
+                    ..Default::default()
+                };
+                Ok(reply(to_value(&pipeline::bounds(g, &o, &Silent)?), None))
+            }
+            "npa" => {
+                let text = level.unwrap_or_else(|| "2".into());
+                let levels = text
+                    .split(';')
+                    .filter(|l| !l.trim().is_empty())
+                    .map(Level::parse)
+                    .collect::<bellgap::Result<Vec<_>>>()?;
+                if levels.is_empty() {
+                    return Err(Error::Usage("no NPA level given".into()));
+                }
+                let o = NpaLevelsOptions {
+                    levels,
+                    backend,
+                    symmetry,
+                    first_order,
+                    limits,
+                };
+                let r = pipeline::npa_levels(g, &o, &Silent)?;
+                let certificate = if a.certificate {
+                    r.npa
+                        .as_ref()
+                        .and_then(|b| {
+                            bellgap::bounds::quantum::npa::certificate(&g.name, &g.scenario, b)
+                        })
+                        .map(|c| serde_json::from_str::<Value>(&c.to_json()).unwrap_or(Value::Null))
+                } else {
+                    None
+                };
+                Ok(reply(to_value(&r), certificate))
+            }
+            "seesaw" => {
+                let o = SeesawOptions {
+                    dims: a.dims.clone().unwrap_or_default(),
+                    restarts: a.restarts,
+                    seed: a.seed,
+                    limits,
+                    ..Default::default()
+                };
+                let r = pipeline::seesaw(g, &o, &Silent)?;
+                let extra = r.seesaw.as_ref().map(|f| strategy_json(&f.strategy));
+                Ok(reply(to_value(&r), extra))
+            }
+            "evaluate" => {
+                let input =
+                    strategy.ok_or_else(|| Error::Usage("evaluate needs a strategy".into()))?;
+                let st = strategy_from(input, g)?;
+                let o = EvaluateOptions {
+                    skip_classical: a.no_classical,
+                    limits,
+                };
+                Ok(reply(
+                    to_value(&pipeline::evaluate(g, &st, &o, &Silent)?),
+                    None,
+                ))
+            }
+            other => Err(Error::Usage(format!("no game command `{other}`"))),
+        }
+    })
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct FigureArgs {
+    // margin
+    #[serde(default)]
+    rounds: Option<u64>,
+    #[serde(default)]
+    wins: Option<u64>,
+    #[serde(default)]
+    score_sum: Option<f64>,
+    #[serde(default)]
+    score_range: Option<(f64, f64)>,
+    #[serde(default)]
+    alpha: Option<f64>,
+    #[serde(default)]
+    target_p_value: Option<f64>,
+    #[serde(default)]
+    expected: Option<f64>,
+    // randomness, entropy, finite size
+    #[serde(default)]
+    score: Option<f64>,
+    #[serde(default)]
+    scores: Option<Vec<f64>>,
+    #[serde(default)]
+    player: Option<String>,
+    #[serde(default)]
+    question: Option<i64>,
+    #[serde(default)]
+    with_player: Option<String>,
+    #[serde(default)]
+    with_question: Option<i64>,
+    #[serde(default)]
+    level: Option<String>,
+    #[serde(default)]
+    nodes: Option<usize>,
+    #[serde(default)]
+    adversary_words: Option<String>,
+    #[serde(default)]
+    moments: Option<String>,
+    #[serde(default)]
+    solver: Option<String>,
+    #[serde(default)]
+    error_rate: Option<f64>,
+    // finite size
+    #[serde(default)]
+    testing: Option<f64>,
+    #[serde(default)]
+    threshold: Option<f64>,
+    #[serde(default)]
+    smoothing: Option<f64>,
+    #[serde(default)]
+    pass_floor: Option<f64>,
+    #[serde(default)]
+    extractor_error: Option<f64>,
+    #[serde(default)]
+    fraction: Option<f64>,
+    #[serde(default)]
+    key_disclosed_bits: Option<f64>,
+    #[serde(default)]
+    max_test_rounds: Option<u64>,
+    #[serde(default)]
+    tangent: Option<f64>,
+    #[serde(default)]
+    tangent_points: Option<usize>,
+    #[serde(default)]
+    force: bool,
+}
+
+fn hierarchy(a: &FigureArgs) -> PyResult<EntropyOptions> {
+    let mut o = EntropyOptions::default();
+    if let Some(n) = a.nodes {
+        o.nodes = n;
+    }
+    o.level = a
+        .level
+        .as_deref()
+        .map(Level::parse)
+        .transpose()
+        .map_err(to_py)?;
+    if let Some(w) = &a.adversary_words {
+        o.adversary = match w.as_str() {
+            "letters" => AdversaryWords::Letters,
+            "with-projectors" => AdversaryWords::WithProjectors,
+            "with-player-words" => AdversaryWords::WithPlayerWords,
+            "with-pairs" => AdversaryWords::WithPairs,
+            other => return Err(usage(format!("unknown adversary_words `{other}`"))),
+        };
+    }
+    if let Some(m) = &a.moments {
+        o.field = match m.as_str() {
+            "real" => MomentField::Real,
+            "complex" => MomentField::Complex,
+            other => {
+                return Err(usage(format!(
+                    "moments must be real or complex, got `{other}`"
+                )))
+            }
+        };
+    }
+    if let Some(s) = &a.solver {
+        o.backend = match s.as_str() {
+            "auto" => Backend::Auto,
+            "ipm" => Backend::MomentIpm,
+            "clarabel" => Backend::Clarabel,
+            other => {
+                return Err(usage(format!(
+                    "solver must be auto, ipm or clarabel, got `{other}`"
+                )))
+            }
+        };
+    }
+    Ok(o)
+}
+
+fn scores_of(a: &FigureArgs) -> PyResult<Vec<f64>> {
+    match (a.score, &a.scores) {
+        (Some(s), None) => Ok(vec![s]),
+        (None, Some(v)) if !v.is_empty() => Ok(v.clone()),
+        _ => Err(usage("give score (one number) or scores (a list)".into())),
+    }
+}
+
+/// Runs one figure command on a game: `margin`, `randomness`, `entropy`, `finite_size`.
+#[pyfunction]
+fn run_figure(py: Python<'_>, command: String, game: &PyGame, args: &str) -> PyResult<String> {
+    let a: FigureArgs = options(args)?;
+    let game = game.game.clone();
+    let target = TargetChoice {
+        player: a.player.clone(),
+        question: a.question,
+    };
+    let with = a.with_player.clone().map(|p| TargetChoice {
+        player: Some(p),
+        question: a.with_question,
+    });
+    let hierarchy = hierarchy(&a)?;
+    match command.as_str() {
+        "margin" => {
+            let run = ObservedRun {
+                rounds: a
+                    .rounds
+                    .ok_or_else(|| usage("margin needs rounds".into()))?,
+                wins: a.wins,
+                score_sum: a.score_sum,
+                score_range: a.score_range,
+            };
+            let defaults = MarginOptions::default();
+            let o = MarginOptions {
+                alpha: a.alpha.unwrap_or(defaults.alpha),
+                target_p_value: a.target_p_value.unwrap_or(defaults.target_p_value),
+                expected: a.expected,
+                classical: ClassicalOptions {
+                    limits: limits(a.force),
+                    ..Default::default()
+                },
+            };
+            interruptible(py, move || {
+                Ok(reply(
+                    to_value(&pipeline::margin(&game, &run, &o, &Silent)?),
+                    None,
+                ))
+            })
+        }
+        "randomness" => {
+            let o = RandomnessOptions {
+                guessed: target,
+                with,
+                scores: scores_of(&a)?,
+                level: Level::parse(a.level.as_deref().unwrap_or("2")).map_err(to_py)?,
+            };
+            interruptible(py, move || {
+                Ok(reply(to_value(&pipeline::randomness(&game, &o)?), None))
+            })
+        }
+        "entropy" => {
+            let o = EntropyCommandOptions {
+                target,
+                with,
+                given: EntropyGiven::Scores(scores_of(&a)?),
+                key: a.error_rate.map(ErrorCorrection::ErrorRate),
+                hierarchy,
+            };
+            interruptible(py, move || {
+                Ok(reply(to_value(&pipeline::entropy(&game, &o)?), None))
+            })
+        }
+        "finite_size" => {
+            let defaults = FiniteSizeOptions::default();
+            let security = SecurityParameters::default();
+            let o = FiniteSizeOptions {
+                target,
+                with,
+                rounds: a
+                    .rounds
+                    .ok_or_else(|| usage("finite_size needs rounds".into()))?,
+                testing: a
+                    .testing
+                    .ok_or_else(|| usage("finite_size needs testing".into()))?,
+                threshold: a
+                    .threshold
+                    .ok_or_else(|| usage("finite_size needs threshold".into()))?,
+                security: SecurityParameters {
+                    smoothing: a.smoothing.unwrap_or(security.smoothing),
+                    pass_floor: a.pass_floor.unwrap_or(security.pass_floor),
+                    extraction: a.extractor_error.unwrap_or(security.extraction),
+                },
+                expected: a.expected,
+                fraction: a.fraction.unwrap_or(defaults.fraction),
+                key: a.key_disclosed_bits.map(|bits| KeyDisclosure {
+                    error_correction_bits: bits,
+                    max_test_rounds: a.max_test_rounds,
+                }),
+                tangent: match a.tangent {
+                    Some(s) => Tangent::At(s),
+                    None => Tangent::Search(
+                        a.tangent_points.unwrap_or(pipeline::DEFAULT_TANGENT_POINTS),
+                    ),
+                },
+                hierarchy,
+            };
+            interruptible(py, move || {
+                Ok(reply(to_value(&pipeline::finite_size(&game, &o)?), None))
+            })
+        }
+        other => Err(usage(format!("no figure command `{other}`"))),
+    }
+}
+
+/// `key`: CHSH-based DIQKD figures.
+#[pyfunction]
+fn key(py: Python<'_>, chsh: f64, qber: f64) -> PyResult<String> {
+    interruptible(py, move || {
+        Ok(reply(to_value(&pipeline::key(chsh, qber)?), None))
+    })
+}
+
+/// `review`: the review of a protocol file, as JSON.
+#[pyfunction]
+fn review(py: Python<'_>, protocol: String) -> PyResult<String> {
+    interruptible(py, move || {
+        let file = ProtocolFile::from_file(&protocol)?;
+        let game = Game::from_file(&file.game_path.to_string_lossy(), CompileOptions::default())?;
+        let r = pipeline::review(&file, &game, &Silent)?;
+        Ok(reply(to_value(&r), None))
+    })
+}
+
+/// The library's version.
+#[pyfunction]
+fn version() -> &'static str {
+    env!("CARGO_PKG_VERSION")
+}
+
+#[pymodule]
+fn _bellgap(m: &Bound<'_, PyModule>) -> PyResult<()> {
+    m.add_class::<PyGame>()?;
+    m.add_function(wrap_pyfunction!(load_file, m)?)?;
+    m.add_function(wrap_pyfunction!(load_yaml, m)?)?;
+    m.add_function(wrap_pyfunction!(family, m)?)?;
+    m.add_function(wrap_pyfunction!(run_game, m)?)?;
+    m.add_function(wrap_pyfunction!(run_figure, m)?)?;
+    m.add_function(wrap_pyfunction!(key, m)?)?;
+    m.add_function(wrap_pyfunction!(review, m)?)?;
+    m.add_function(wrap_pyfunction!(version, m)?)?;
+    m.add("BellgapError", m.py().get_type::<BellgapError>())?;
+    Ok(())
+}
