@@ -677,3 +677,82 @@ fn check_reports_the_symmetries_modulo_no_signalling() {
     let text = String::from_utf8_lossy(&bellgap(&["check", "games/chsh.yaml"]).stdout).to_string();
     assert!(!text.contains("modulo no-signalling"), "{text}");
 }
+
+#[test]
+fn a_sharded_sweep_merges_into_the_whole() {
+    let list = temp_file(
+        "sweep-list.txt",
+        "# three tasks and a bad one\nclassical games/chsh.yaml\nnosignal games/chsh.yaml\n\nnpa games/chsh.yaml --level 0\nclassical games/odd-cycle-3.yaml\n",
+    );
+    let dir = list.parent().unwrap().to_path_buf();
+    let list = list.to_str().unwrap().to_string();
+    let whole = dir.join("whole.jsonl");
+    let out = bellgap(&["sweep", &list, "-o", whole.to_str().unwrap()]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let mut shards = Vec::new();
+    for i in 1..=3 {
+        let file = dir.join(format!("shard-{i}.jsonl"));
+        let shard = format!("{i}/3");
+        let out = bellgap(&[
+            "sweep",
+            &list,
+            "--shard",
+            &shard,
+            "-o",
+            file.to_str().unwrap(),
+        ]);
+        assert!(out.status.success());
+        shards.push(file.to_str().unwrap().to_string());
+    }
+    let merged = dir.join("merged.jsonl");
+    let mut args = vec!["sweep-merge"];
+    args.extend(shards.iter().map(String::as_str));
+    args.extend(["-o", merged.to_str().unwrap()]);
+    let out = bellgap(&args);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let read = |p: &std::path::Path| -> Vec<Value> {
+        std::fs::read_to_string(p)
+            .unwrap()
+            .lines()
+            .map(|l| serde_json::from_str(l).unwrap())
+            .collect()
+    };
+    let (whole, merged) = (read(&whole), read(&merged));
+    assert_eq!(whole.len(), 4);
+    assert_eq!(merged.len(), 4);
+    for (a, b) in whole.iter().zip(&merged) {
+        assert_eq!(a["index"], b["index"]);
+        assert_eq!(a["line"], b["line"]);
+        assert_eq!(a["error"], b["error"]);
+        assert_eq!(a["result"]["classical"], b["result"]["classical"]);
+        assert_eq!(a["result"]["no_signalling"], b["result"]["no_signalling"]);
+    }
+    // The values are those of the commands run alone.
+    assert_eq!(merged[0]["result"]["classical"], 0.75);
+    assert_eq!(merged[1]["result"]["no_signalling"].as_f64().unwrap(), 1.0);
+    assert_eq!(merged[2]["error"]["kind"], "usage");
+    assert_eq!(merged[2]["list_line"], 5);
+    let alone = json_of(&bellgap(&["classical", "games/odd-cycle-3.yaml", "--json"]));
+    assert_eq!(merged[3]["result"]["classical"], alone["classical"]);
+    // A missing shard or a shard given twice is an error (exit 2).
+    let out = bellgap(&["sweep-merge", &shards[0], &shards[1]]);
+    assert_eq!(out.status.code(), Some(2));
+    let out = bellgap(&[
+        "sweep-merge",
+        &shards[0],
+        &shards[0],
+        &shards[1],
+        &shards[2],
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    let out = bellgap(&["sweep", &list, "--shard", "0/3"]);
+    assert_eq!(out.status.code(), Some(2));
+}

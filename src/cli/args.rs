@@ -337,6 +337,39 @@ pub enum Command {
         #[arg(long)]
         json: bool,
     },
+    /// Run a list of commands, one per line of a file (e.g. `npa games/chsh.yaml --level 2`,
+    /// without `bellgap`), and write each one's JSON result as a line of JSON Lines; a failing
+    /// line gives its error object and the others still run. `--shard I/N` runs lines I, I+N,
+    /// I+2N, ... of the list (counting from 1), so N jobs of a batch scheduler split it;
+    /// `sweep-merge` joins their outputs.
+    Sweep {
+        /// The list file: one command line per line; blank lines and lines starting with `#`
+        /// are skipped; words are split at spaces, and "double quotes" keep spaces in a word.
+        /// Paths in it are relative to the current folder.
+        list: PathBuf,
+        /// Run only this shard, I of N (1 ≤ I ≤ N).
+        #[arg(long, value_name = "I/N")]
+        shard: Option<String>,
+        /// Write the JSON Lines here (atomically) instead of stdout.
+        #[arg(long, short, value_name = "FILE")]
+        output: Option<PathBuf>,
+        /// Print one JSON object (a summary, with the records when there is no --output).
+        #[arg(long)]
+        json: bool,
+    },
+    /// Merge the JSON Lines of a sweep's shards into one, in list order, after checking that
+    /// every line of the list is there exactly once.
+    SweepMerge {
+        /// The shards' output files.
+        #[arg(required = true)]
+        shards: Vec<PathBuf>,
+        /// Write the merged JSON Lines here (atomically) instead of stdout.
+        #[arg(long, short, value_name = "FILE")]
+        output: Option<PathBuf>,
+        /// Print one JSON object (a summary, with the records when there is no --output).
+        #[arg(long)]
+        json: bool,
+    },
     /// Print a standard game or Bell expression as a game file.
     Family {
         #[command(subcommand)]
@@ -510,6 +543,8 @@ impl Cli {
             Command::Verify { certificate, .. } => v.push(certificate.clone()),
             Command::Review { protocol, .. } => v.push(protocol.clone()),
             Command::Local { correlations, .. } => v.push(correlations.clone()),
+            Command::Sweep { list, .. } => v.push(list.clone()),
+            Command::SweepMerge { shards, .. } => v.extend(shards.iter().cloned()),
             Command::Entropy {
                 behaviour: Some(b), ..
             } => v.push(b.clone()),
@@ -539,7 +574,9 @@ impl Cli {
             Command::Key { .. }
             | Command::Review { .. }
             | Command::Local { .. }
-            | Command::Family { .. } => None,
+            | Command::Family { .. }
+            | Command::Sweep { .. }
+            | Command::SweepMerge { .. } => None,
         }
     }
 
@@ -558,6 +595,7 @@ impl Cli {
             (_, Some(a)) => a.json,
             (Command::Key { json, .. } | Command::Review { json, .. }, None) => *json,
             (Command::Local { json, .. } | Command::Family { json, .. }, None) => *json,
+            (Command::Sweep { json, .. } | Command::SweepMerge { json, .. }, None) => *json,
             _ => false,
         }
     }

@@ -4,6 +4,7 @@
 
 pub mod args;
 pub mod request;
+mod sweep;
 
 use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
@@ -320,6 +321,15 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
                 warnings: Vec::new(),
             })
         }
+        Request::Sweep {
+            list,
+            shard,
+            output: file,
+        } => sweep::sweep(list, *shard, file.as_ref(), inputs),
+        Request::SweepMerge {
+            shards,
+            output: file,
+        } => sweep::merge(shards, file.as_ref(), inputs),
         Request::Family { family } => {
             let spec = match family {
                 FamilyChoice::Standard(f) => f.spec()?,

@@ -167,6 +167,17 @@ pub enum Request {
     },
     /// `family`.
     Family { family: FamilyChoice },
+    /// `sweep`: the list file, the shard (I, N) and where the records go.
+    Sweep {
+        list: PathBuf,
+        shard: Option<(usize, usize)>,
+        output: Option<PathBuf>,
+    },
+    /// `sweep-merge`.
+    SweepMerge {
+        shards: Vec<PathBuf>,
+        output: Option<PathBuf>,
+    },
 }
 
 /// A request with how its result is presented.
@@ -281,6 +292,18 @@ pub fn sweep(spec: &str) -> Result<Vec<f64>> {
     Ok((0..n)
         .map(|k| lo + (hi - lo) * k as f64 / (n - 1) as f64)
         .collect())
+}
+
+/// `--shard I/N` → (I, N), 1 ≤ I ≤ N.
+pub fn shard(text: &str) -> Result<(usize, usize)> {
+    let bad = || Error::Usage(format!("--shard expects I/N with 1 ≤ I ≤ N, got `{text}`"));
+    let (i, n) = text.split_once('/').ok_or_else(bad)?;
+    let i: usize = i.trim().parse().map_err(|_| bad())?;
+    let n: usize = n.trim().parse().map_err(|_| bad())?;
+    if i == 0 || n == 0 || i > n {
+        return Err(bad());
+    }
+    Ok((i, n))
 }
 
 /// `--score-range LO,HI`.
@@ -579,6 +602,20 @@ impl Invocation {
                 limits: limits(*force),
             },
             Command::Family { family: f, .. } => Request::Family { family: family(f)? },
+            Command::Sweep {
+                list,
+                shard: s,
+                output,
+                ..
+            } => Request::Sweep {
+                list: list.clone(),
+                shard: s.as_deref().map(shard).transpose()?,
+                output: output.clone(),
+            },
+            Command::SweepMerge { shards, output, .. } => Request::SweepMerge {
+                shards: shards.clone(),
+                output: output.clone(),
+            },
         };
         Ok(Invocation {
             request,
