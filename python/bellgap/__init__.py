@@ -47,6 +47,7 @@ __all__ = [
     "entropy",
     "finite_size",
     "key",
+    "locality",
     "review",
     "sweep",
     "Task",
@@ -541,6 +542,22 @@ def finite_size(game: GameLike, rounds: int, testing: float, threshold: float, *
 def key(chsh: float, qber: float) -> Result:
     """CHSH-based DIQKD figures (analytic bound)."""
     return Result(_call(_bellgap.key, float(chsh), float(qber))["result"])
+
+
+def locality(correlations: Union[str, os.PathLike, dict], force: bool = False) -> Result:
+    """Whether correlations have a local model (``bellgap local``): a correlations file's path,
+    its YAML text, or a dict in the same schema."""
+    if isinstance(correlations, dict):
+        text, name = json.dumps(correlations), "<dict>"
+    elif isinstance(correlations, os.PathLike) or (
+        isinstance(correlations, str) and os.path.exists(correlations)
+    ):
+        name = os.fspath(correlations)
+        with open(name, "r", encoding="utf-8") as f:
+            text = f.read()
+    else:
+        text, name = correlations, "<string>"
+    return Result(_call(_bellgap.locality, text, name, force)["result"])
 
 
 def review(protocol: Union[str, os.PathLike]) -> Result:

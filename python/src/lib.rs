@@ -769,6 +769,21 @@ fn review(py: Python<'_>, protocol: String) -> PyResult<String> {
     })
 }
 
+/// `local`: whether correlations (YAML text of a correlations file; `file` names it in errors)
+/// have a local model.
+#[pyfunction]
+#[pyo3(signature = (text, file = "<string>".to_string(), force = false))]
+fn locality(py: Python<'_>, text: String, file: String, force: bool) -> PyResult<String> {
+    interruptible(py, move || {
+        let c = bellgap::Correlations::from_yaml(&text, &file)?;
+        let r = pipeline::local(&c, &limits(force))?;
+        Ok(reply(
+            to_value(&bellgap::render::json::LocalView::of(&r, None)),
+            None,
+        ))
+    })
+}
+
 /// The library's version.
 #[pyfunction]
 fn version() -> &'static str {
@@ -785,6 +800,7 @@ fn _bellgap(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(run_figure, m)?)?;
     m.add_function(wrap_pyfunction!(key, m)?)?;
     m.add_function(wrap_pyfunction!(review, m)?)?;
+    m.add_function(wrap_pyfunction!(locality, m)?)?;
     m.add_function(wrap_pyfunction!(version, m)?)?;
     m.add("BellgapError", m.py().get_type::<BellgapError>())?;
     Ok(())

@@ -266,3 +266,38 @@ def test_the_dask_sweep_returns_the_serial_table():
     assert_same(
         _table(on_dask.to_dict(orient="records")), _table(serial.to_dict(orient="records"))
     )
+
+
+def test_locality_equals_the_command_line():
+    path = os.path.join(ROOT, "examples", "data", "lab-frequencies.yaml")
+    a = bellgap.locality(path).to_dict()
+    b = cli_json("local", os.path.join("examples", "data", "lab-frequencies.yaml"))
+    assert_same(without_timing(a), without_timing(b))
+
+
+def test_ctrl_c_interrupts_a_long_computation():
+    # A see-saw of 10⁵ restarts on CGLMP-4 runs for hours; SIGINT must come back as
+    # KeyboardInterrupt while it runs (the child prints what it caught).
+    import signal
+    import sys
+    import time
+
+    code = (
+        "import bellgap, sys\n"
+        "game = bellgap.Game.family('cglmp', d=4)\n"
+        "print('started', flush=True)\n"
+        "try:\n"
+        "    bellgap.seesaw(game, restarts=100000, force=True)\n"
+        "    print('finished', flush=True)\n"
+        "except KeyboardInterrupt:\n"
+        "    print('interrupted', flush=True)\n"
+    )
+    child = subprocess.Popen([sys.executable, "-c", code], stdout=subprocess.PIPE, text=True)
+    assert child.stdout.readline().strip() == "started"
+    time.sleep(2)
+    child.send_signal(signal.SIGINT)
+    try:
+        out, _ = child.communicate(timeout=120)
+    finally:
+        child.kill()
+    assert out.strip() == "interrupted", out
