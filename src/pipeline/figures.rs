@@ -92,6 +92,20 @@ pub struct TargetChoice {
 }
 
 impl TargetChoice {
+    /// The target of one answer (`first`, default the first player) or of a pair (with
+    /// `second`, default the second player).
+    pub(crate) fn target(
+        s: &Scenario,
+        first: &TargetChoice,
+        second: Option<&TargetChoice>,
+    ) -> Result<Target> {
+        let mut parts = vec![first.resolve(s, 0)?];
+        if let Some(with) = second {
+            parts.push(with.resolve(s, 1)?);
+        }
+        Ok(Target { parts })
+    }
+
     /// The (player, question index) pair this choice names in `s`.
     pub(crate) fn resolve(&self, s: &Scenario, default_player: usize) -> Result<(usize, usize)> {
         let p = match &self.player {
@@ -163,11 +177,7 @@ pub struct RandomnessReport<'a> {
 /// quantum maximum) is listed and the sweep goes on; a single score that fails is an error.
 pub fn randomness<'a>(game: &'a Game, options: &RandomnessOptions) -> Result<RandomnessReport<'a>> {
     let s = &game.scenario;
-    let mut parts = vec![options.guessed.resolve(s, 0)?];
-    if let Some(with) = &options.with {
-        parts.push(with.resolve(s, 1)?);
-    }
-    let target = Target { parts };
+    let target = TargetChoice::target(s, &options.guessed, options.with.as_ref())?;
     if options.scores.is_empty() {
         return Err(Error::InvalidArgument("no score given".into()));
     }
@@ -358,11 +368,7 @@ pub fn entropy_assumptions(key: bool) -> Vec<String> {
 /// behaviour, and optionally the Devetak–Winter key rate.
 pub fn entropy<'a>(game: &'a Game, options: &EntropyCommandOptions) -> Result<EntropyReport<'a>> {
     let s = &game.scenario;
-    let mut parts = vec![options.target.resolve(s, 0)?];
-    if let Some(with) = &options.with {
-        parts.push(with.resolve(s, 1)?);
-    }
-    let target = Target { parts };
+    let target = TargetChoice::target(s, &options.target, options.with.as_ref())?;
     target.check(s)?;
     if options.key.is_some() && target.parts.len() != 1 {
         return Err(Error::InvalidArgument(

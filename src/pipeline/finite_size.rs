@@ -16,7 +16,6 @@ use crate::protocol::accumulation::{
     rounds_for_fraction, Accumulation, CrossoverTradeoff, Disclosure, SecurityParameters,
     SpotChecking,
 };
-use crate::protocol::randomness::Target;
 
 /// Key extraction instead of randomness: what the run disclosed.
 #[derive(Debug, Clone, Copy)]
@@ -215,11 +214,7 @@ pub fn finite_size<'a>(
     options: &FiniteSizeOptions,
 ) -> Result<FiniteSizeReport<'a>> {
     let s = &game.scenario;
-    let mut parts = vec![options.target.resolve(s, 0)?];
-    if let Some(with) = &options.with {
-        parts.push(with.resolve(s, 1)?);
-    }
-    let target = Target { parts };
+    let target = TargetChoice::target(s, &options.target, options.with.as_ref())?;
     target.check(s)?;
     let extracting = if options.key.is_some() {
         if target.parts.len() != 1 {
