@@ -438,7 +438,7 @@ def bounds(
 
 def npa(
     game: GameLike,
-    level: str = "2",
+    level: str = "1+joint",
     solver: str = "auto",
     symmetry: str = "auto",
     budget: Optional[float] = None,
@@ -463,7 +463,7 @@ def npa(
 def seesaw(
     game: GameLike,
     dims: Optional[Sequence[int]] = None,
-    restarts: int = 8,
+    restarts: int = 10,
     seed: int = 1,
     force: bool = False,
 ) -> Result:

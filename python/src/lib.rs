@@ -313,8 +313,9 @@ struct SolveArgs {
     no_classical: bool,
 }
 
+/// The command line's default (`seesaw --restarts`).
 fn default_restarts() -> usize {
-    8
+    10
 }
 fn default_seed() -> u64 {
     1
@@ -463,7 +464,8 @@ fn run_game(
                 Ok(reply(to_value(&pipeline::bounds(g, &o, &Silent)?), None))
             }
             "npa" => {
-                let text = level.unwrap_or_else(|| "2".into());
+                // The command line's default level.
+                let text = level.unwrap_or_else(|| "1+joint".into());
                 let levels = text
                     .split(';')
                     .filter(|l| !l.trim().is_empty())

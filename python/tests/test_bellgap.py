@@ -80,6 +80,9 @@ def test_other_commands_equal_the_command_line():
         (bellgap.nosignal(game), cli_json("nosignal", chsh)),
         (bellgap.npa(game, level="1;2"), cli_json("npa", chsh, "--level", "1;2")),
         (bellgap.check(game), cli_json("check", chsh)),
+        # The same defaults as the command line.
+        (bellgap.npa(game), cli_json("npa", chsh)),
+        (bellgap.seesaw(game), cli_json("seesaw", chsh)),
         (bellgap.seesaw(game, restarts=4, seed=7), cli_json("seesaw", chsh, "--restarts", "4", "--seed", "7")),
         (
             bellgap.margin(game, rounds=10000, wins=8400),
