@@ -208,13 +208,7 @@ class Game:
     def from_file(cls, path: Union[str, os.PathLike]) -> "Game":
         """Reads a game file (errors name the file, line and column)."""
         path = os.fspath(path)
-        try:
-            with open(path, "r", encoding="utf-8") as f:
-                text = f.read()
-        except OSError:
-            # Let the library report the missing or unreadable file in its own words.
-            inner = _call_game(_bellgap.load_file, path)
-            return cls(inner, ("file", path, None))
+        text = _read_input(path)
         return cls(_call_game(_bellgap.load_yaml, text, path), ("yaml", text, path))
 
     @classmethod
@@ -272,6 +266,36 @@ class Game:
 
     def __reduce__(self):
         return (_rebuild_game, (self._recipe,))
+
+
+MAX_INPUT_BYTES = 64 << 20
+"""The largest input file read, as in the library (``formats::files::MAX_INPUT_BYTES``)."""
+
+
+def _read_input(path: str) -> str:
+    """An input file's text, refused like the library refuses it: not a regular file (a device
+    or a folder), larger than 64 MiB, or not UTF-8."""
+    where = {"file": path, "line": None, "column": None, "field": None}
+    try:
+        info = os.stat(path)
+    except OSError as e:
+        raise IoError("io", f"cannot read {path}: {e.strerror}", where) from None
+    import stat
+
+    if not stat.S_ISREG(info.st_mode):
+        raise IoError("io", f"cannot read {path}: not a regular file", where)
+    if info.st_size > MAX_INPUT_BYTES:
+        raise InputError(
+            "input", f"{path} is {info.st_size} bytes, more than the 64 MiB an input may have", where
+        )
+    try:
+        with open(path, "rb") as f:
+            data = f.read(MAX_INPUT_BYTES + 1)
+        return data.decode("utf-8")
+    except UnicodeDecodeError:
+        raise InputError("input", f"{path} is not UTF-8 text", where) from None
+    except OSError as e:
+        raise IoError("io", f"cannot read {path}: {e.strerror}", where) from None
 
 
 def _call_game(fn, *args):
@@ -553,8 +577,7 @@ def locality(correlations: Union[str, os.PathLike, dict], force: bool = False) -
         isinstance(correlations, str) and os.path.exists(correlations)
     ):
         name = os.fspath(correlations)
-        with open(name, "r", encoding="utf-8") as f:
-            text = f.read()
+        text = _read_input(name)
     else:
         text, name = correlations, "<string>"
     return Result(_call(_bellgap.locality, text, name, force)["result"])

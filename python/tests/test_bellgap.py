@@ -159,6 +159,10 @@ def test_errors_carry_kind_message_and_location(tmp_path):
     # A missing file, a bad option, an impossible request.
     with pytest.raises(bellgap.IoError):
         bellgap.Game.from_file(tmp_path / "missing.yaml")
+    with pytest.raises(bellgap.IoError):
+        bellgap.Game.from_file("/dev/zero")  # never read: not a regular file
+    with pytest.raises(bellgap.IoError):
+        bellgap.Game.from_file(tmp_path)
     chsh = bellgap.Game.family("chsh")
     with pytest.raises(bellgap.UsageError):
         bellgap.npa(chsh, level="0")
