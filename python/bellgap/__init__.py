@@ -196,6 +196,34 @@ class Result:
         return (type(self), (self._data,))
 
 
+_COMMANDS = [
+    "check", "classical", "nosignal", "bounds", "npa", "seesaw", "evaluate", "local", "margin",
+    "randomness", "entropy", "finite-size", "key", "review",
+]
+RESULT_TYPES: Dict[str, type] = {}
+for _command in _COMMANDS:
+    _name = "".join(part.capitalize() for part in _command.split("-")) + "Result"
+    _type = type(
+        _name,
+        (Result,),
+        {
+            "__doc__": f"The result of ``bellgap {_command}``: ``to_dict()`` is its ``--json`` "
+            "object (keys listed in CHANGELOG.md).",
+            "__module__": __name__,
+            "__qualname__": _name,
+        },
+    )
+    RESULT_TYPES[_command] = _type
+    globals()[_name] = _type
+    __all__.append(_name)
+del _command, _name, _type
+
+
+def _result(data: dict) -> Result:
+    """The typed result of a command's JSON object (by its ``command`` key)."""
+    return RESULT_TYPES.get(data.get("command"), Result)(data)
+
+
 class Game:
     """A loaded and validated game. Picklable (it keeps its YAML text or family), so it can
     be sent to process pools and cluster workers."""
@@ -417,7 +445,7 @@ def _game_command(command: str, game: GameLike, strategy: Optional[Strategy] = N
     if strategy is not None:
         args.append(strategy._to_json())
     reply = _call(_bellgap.run_game, *args)
-    result = Result(reply["result"])
+    result = _result(reply["result"])
     if command == "seesaw" and reply.get("extra"):
         result.__dict__["strategy"] = Strategy._from_json(reply["extra"])
     if command == "npa" and reply.get("extra") is not None:
@@ -428,7 +456,7 @@ def _game_command(command: str, game: GameLike, strategy: Optional[Strategy] = N
 def _figure_command(command: str, game: GameLike, **kwargs) -> Result:
     g = load(game)
     reply = _call(_bellgap.run_figure, command, g._inner, json.dumps(kwargs))
-    return Result(reply["result"])
+    return _result(reply["result"])
 
 
 def check(game: GameLike) -> Result:
@@ -565,7 +593,7 @@ def finite_size(game: GameLike, rounds: int, testing: float, threshold: float, *
 
 def key(chsh: float, qber: float) -> Result:
     """CHSH-based DIQKD figures (analytic bound)."""
-    return Result(_call(_bellgap.key, float(chsh), float(qber))["result"])
+    return _result(_call(_bellgap.key, float(chsh), float(qber))["result"])
 
 
 def locality(correlations: Union[str, os.PathLike, dict], force: bool = False) -> Result:
@@ -580,9 +608,9 @@ def locality(correlations: Union[str, os.PathLike, dict], force: bool = False) -
         text = _read_input(name)
     else:
         text, name = correlations, "<string>"
-    return Result(_call(_bellgap.locality, text, name, force)["result"])
+    return _result(_call(_bellgap.locality, text, name, force)["result"])
 
 
 def review(protocol: Union[str, os.PathLike]) -> Result:
     """The review of a protocol file (its JSON form)."""
-    return Result(_call(_bellgap.review, os.fspath(protocol))["result"])
+    return _result(_call(_bellgap.review, os.fspath(protocol))["result"])

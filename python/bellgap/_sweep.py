@@ -25,14 +25,19 @@ class Task:
     label: Dict[str, Any] = field(default_factory=dict)
 
 
-def _name(function: Union[str, Callable]) -> str:
-    import bellgap
+GAME_FUNCTIONS = (
+    "check", "classical", "nosignal", "bounds", "npa", "seesaw", "evaluate", "margin",
+    "randomness", "entropy", "finite_size",
+)
+"""The bellgap functions whose first argument is a game: what a sweep maps."""
 
+
+def _name(function: Union[str, Callable]) -> str:
     name = function if isinstance(function, str) else getattr(function, "__name__", "")
-    if name not in bellgap.__all__ or not callable(getattr(bellgap, name, None)) or name in (
-        "load", "sweep", "Task", "Game", "Result", "Strategy",
-    ):
-        raise ValueError(f"not a bellgap bound or figure function: {function!r}")
+    if name not in GAME_FUNCTIONS:
+        raise ValueError(
+            f"not a bellgap function of a game: {function!r} (one of {', '.join(GAME_FUNCTIONS)})"
+        )
     return name
 
 

@@ -211,11 +211,13 @@ def test_seesaw_strategy_reproduces_its_value_by_the_born_rule():
 def test_results_read_well_and_pickle():
     game = bellgap.Game.family("odd-cycle", n=5)
     r = bellgap.classical(game)
+    assert type(r) is bellgap.ClassicalResult and isinstance(r, bellgap.Result)
+    assert type(bellgap.key(2.7, 0.02)) is bellgap.KeyResult
     assert r.classical == r["classical"] == r.to_dict()["classical"]
     assert "<table>" in r._repr_html_() and "classical" in r._repr_html_()
     assert json.loads(r.to_json()) == r.to_dict()
     again = pickle.loads(pickle.dumps(r))
-    assert again.to_dict() == r.to_dict()
+    assert again.to_dict() == r.to_dict() and type(again) is bellgap.ClassicalResult
     game2 = pickle.loads(pickle.dumps(game))
     assert game2.name == game.name and game2.players == game.players
     from_dict = bellgap.Game.from_dict(
@@ -260,6 +262,8 @@ def test_sweeps_agree_on_every_executor():
         "randomness", [games[0], games[0]], params=[{"score": 0.5}, {"score": 2.0}], as_frame=False
     )
     assert rows[0]["ok"] and not rows[1]["ok"]
+    with pytest.raises(ValueError):
+        bellgap.sweep("KeyResult", games)
     assert rows[1]["error"]["kind"] in ("usage", "input")
 
 
