@@ -755,4 +755,17 @@ fn a_sharded_sweep_merges_into_the_whole() {
     assert_eq!(out.status.code(), Some(2));
     let out = bellgap(&["sweep", &list, "--shard", "0/3"]);
     assert_eq!(out.status.code(), Some(2));
+    // Hostile lists and shards: a device, a folder, a missing file, a shard that is not JSON.
+    for path in ["/dev/zero", dir.to_str().unwrap(), "/nonexistent/list.txt"] {
+        assert_eq!(bellgap(&["sweep", path]).status.code(), Some(2), "{path}");
+        assert_eq!(
+            bellgap(&["sweep-merge", path]).status.code(),
+            Some(2),
+            "{path}"
+        );
+    }
+    let garbage = temp_file("garbage.jsonl", "not json\n");
+    let out = bellgap(&["sweep-merge", garbage.to_str().unwrap(), "--json"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert_eq!(json_of(&out)["error"]["location"]["line"], 1);
 }

@@ -278,6 +278,30 @@ fn the_review_adds_the_finite_size_section_and_a_general_game_key_rate() {
         .unwrap()
         .iter()
         .any(|a| a.as_str().unwrap().contains("Dupuis & Fawzi")));
+    // Bad numbers in the finite-size section are input errors of the protocol file (exit 2).
+    for bad in [
+        "testing: .nan, threshold: 0.84",
+        "testing: 0.01, threshold: .inf",
+        "testing: 2, threshold: 0.84",
+        "testing: 0.01, threshold: 0.84, smoothing: 0",
+        "testing: 0.01, threshold: 0.84, key_disclosed_bits: -1",
+        "testing: 0.01, threshold: 0.84, nodes: 100000",
+    ] {
+        let file = dir.join("bad-run.yaml");
+        std::fs::write(
+            &file,
+            format!(
+                "game: {root}/games/chsh.yaml\nrounds: 1000\nwins: 845\nfinite_size: {{rounds: 1000000, {bad}}}\n"
+            ),
+        )
+        .unwrap();
+        let out = bellgap(&["review", file.to_str().unwrap(), "--json"]);
+        assert_eq!(out.status.code(), Some(2), "{bad}");
+        assert!(json_of(&out)["error"]["message"]
+            .as_str()
+            .unwrap()
+            .contains("finite_size"));
+    }
     // A game other than CHSH with a key section: the entropy hierarchy and Fano's bound.
     let depot_run = dir.join("depot-run.yaml");
     std::fs::write(

@@ -254,26 +254,31 @@ pub fn finite_size<'a>(
             )));
         }
     }
-    let cap = |n: u64| -> u64 {
-        match options.key.and_then(|k| k.max_test_rounds) {
-            Some(m) => m,
-            None => max_test_rounds(n, options.testing, DEFAULT_TEST_CAP_ABORT),
-        }
-    };
     // The error-correction disclosure scales with the run (the curve assumes the same bits
     // per round as the run given).
     let per_round_leak = options
         .key
         .map_or(0.0, |k| k.error_correction_bits / options.rounds as f64);
-    let disclosure = |n: u64| -> Disclosure {
+    // What a run of n rounds with at most `tests` test rounds discloses.
+    let disclosed = |n: u64, tests: u64| -> Disclosure {
         match extracting {
             Extracting::Randomness => Disclosure::default(),
             Extracting::Key => Disclosure {
-                test_answers: cap(n) as f64 * others.log2(),
+                test_answers: tests as f64 * others.log2(),
                 error_correction: per_round_leak * n as f64,
             },
         }
     };
+    let chernoff_cap = |n: u64| max_test_rounds(n, options.testing, DEFAULT_TEST_CAP_ABORT);
+    // The run uses the protocol's own cap when given; the curve, whose n varies, the Chernoff
+    // cap.
+    let cap = |n: u64| -> u64 {
+        options
+            .key
+            .and_then(|k| k.max_test_rounds)
+            .unwrap_or_else(|| chernoff_cap(n))
+    };
+    let disclosure = |n: u64| disclosed(n, cap(n));
     let scores = tangent_scores(game, options)?;
     let mut tangents = Vec::new();
     let mut best: Option<(ConditionalEntropy, CrossoverTradeoff, Accumulation)> = None;
@@ -318,16 +323,7 @@ pub fn finite_size<'a>(
         .transpose()?;
     // With a fixed cap the disclosure per round falls with n only if the cap is proportional
     // to n; a fixed user cap is used for the run only, the curve uses the Chernoff cap.
-    let curve_disclosure = |n: u64| -> Disclosure {
-        match extracting {
-            Extracting::Randomness => Disclosure::default(),
-            Extracting::Key => Disclosure {
-                test_answers: max_test_rounds(n, options.testing, DEFAULT_TEST_CAP_ABORT) as f64
-                    * others.log2(),
-                error_correction: per_round_leak * n as f64,
-            },
-        }
-    };
+    let curve_disclosure = |n: u64| disclosed(n, chernoff_cap(n));
     // The certified rate is floored at 0, and so is its limit.
     let limit = (run.asymptotic_rate
         - match extracting {
