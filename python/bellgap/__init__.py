@@ -573,13 +573,16 @@ def randomness(game: GameLike, score=None, scores=None, player=None, question=No
 
 def entropy(game: GameLike, score=None, scores=None, player=None, question=None,
             with_player=None, with_question=None, nodes=None, level=None,
-            adversary_words=None, moments=None, solver=None, error_rate=None) -> Result:
+            adversary_words=None, moments=None, solver=None, error_rate=None,
+            noisy_preprocessing=None) -> Result:
     """A verified lower bound on H(A|X=x, E) by the Gauss–Radau hierarchy, with the
-    Devetak–Winter key rate when ``error_rate`` is given."""
+    Devetak–Winter key rate when ``error_rate`` is given; ``noisy_preprocessing`` is the
+    probability with which the key player changes its answer first."""
     return _figure_command(
         "entropy", game, score=score, scores=scores, player=player, question=question,
         with_player=with_player, with_question=with_question, nodes=nodes, level=level,
         adversary_words=adversary_words, moments=moments, solver=solver, error_rate=error_rate,
+        noisy_preprocessing=noisy_preprocessing,
     )
 
 
@@ -587,13 +590,15 @@ def finite_size(game: GameLike, rounds: int, testing: float, threshold: float, *
     """What a spot-checking run certifies by entropy accumulation (``bellgap finite-size``);
     further options as keyword arguments: expected, player, question, smoothing, pass_floor,
     extractor_error, fraction, key_disclosed_bits, max_test_rounds, tangent, tangent_points,
-    nodes, level, adversary_words, moments, solver."""
+    nodes, level, adversary_words, moments, solver, noisy_preprocessing."""
     return _figure_command("finite_size", game, rounds=rounds, testing=testing, threshold=threshold, **kwargs)
 
 
-def key(chsh: float, qber: float) -> Result:
-    """CHSH-based DIQKD figures (analytic bound)."""
-    return _result(_call(_bellgap.key, float(chsh), float(qber))["result"])
+def key(chsh: float, qber: float, noisy_preprocessing: Optional[float] = None) -> Result:
+    """CHSH-based DIQKD figures (analytic bound; with noisy preprocessing, the key bit flipped
+    with that probability before error correction)."""
+    flip = None if noisy_preprocessing is None else float(noisy_preprocessing)
+    return _result(_call(_bellgap.key, float(chsh), float(qber), flip)["result"])
 
 
 def locality(correlations: Union[str, os.PathLike, dict], force: bool = False) -> Result:

@@ -19,7 +19,7 @@ use serde::Deserialize;
 use serde_json::{json, Value};
 
 use bellgap::bounds::classical::{Choice, ClassicalOptions};
-use bellgap::bounds::entropy::{AdversaryWords, EntropyOptions, MomentField};
+use bellgap::bounds::entropy::{AdversaryWords, EntropyOptions, MomentField, Preprocessing};
 use bellgap::bounds::quantum::npa::Level;
 use bellgap::bounds::quantum::symmetric::SymmetryChoice;
 use bellgap::formats::game::families::{self, Family};
@@ -567,6 +567,8 @@ struct FigureArgs {
     solver: Option<String>,
     #[serde(default)]
     error_rate: Option<f64>,
+    #[serde(default)]
+    noisy_preprocessing: Option<f64>,
     // finite size
     #[serde(default)]
     testing: Option<f64>,
@@ -635,6 +637,7 @@ fn hierarchy(a: &FigureArgs) -> PyResult<EntropyOptions> {
             }
         };
     }
+    o.preprocessing = preprocessing(a.noisy_preprocessing);
     Ok(o)
 }
 
@@ -754,10 +757,24 @@ fn run_figure(py: Python<'_>, command: String, game: &PyGame, args: &str) -> PyR
 
 /// `key`: CHSH-based DIQKD figures.
 #[pyfunction]
-fn key(py: Python<'_>, chsh: f64, qber: f64) -> PyResult<String> {
+#[pyo3(signature = (chsh, qber, noisy_preprocessing=None))]
+fn key(py: Python<'_>, chsh: f64, qber: f64, noisy_preprocessing: Option<f64>) -> PyResult<String> {
+    let options = pipeline::KeyOptions {
+        chsh,
+        qber,
+        preprocessing: preprocessing(noisy_preprocessing),
+    };
     interruptible(py, move || {
-        Ok(reply(to_value(&pipeline::key(chsh, qber)?), None))
+        Ok(reply(to_value(&pipeline::key(&options)?), None))
     })
+}
+
+/// The preprocessing a `noisy_preprocessing` keyword asks for.
+fn preprocessing(noisy: Option<f64>) -> Preprocessing {
+    match noisy {
+        None => Preprocessing::None,
+        Some(probability) => Preprocessing::Noisy { probability },
+    }
 }
 
 /// `review`: the review of a protocol file, as JSON.

@@ -294,6 +294,10 @@ pub enum Command {
         /// Quantum bit error rate, in [0, 0.5].
         #[arg(long, allow_hyphen_values = true, value_parser = parse_finite)]
         qber: f64,
+        /// Noisy preprocessing: the key player flips its bit with this probability (in
+        /// [0, 0.5]) before error correction.
+        #[arg(long, value_name = "PROBABILITY", value_parser = parse_finite)]
+        noisy_preprocessing: Option<f64>,
         /// Print exactly one JSON object on stdout.
         #[arg(long)]
         json: bool,
@@ -428,6 +432,11 @@ pub struct HierarchyArgs {
     /// an accurate dual).
     #[arg(long, value_enum, default_value = "auto")]
     pub solver: EntropySolverArg,
+    /// Noisy preprocessing: the key player changes its answer with this probability (to each
+    /// other answer alike) before the entropy is counted; the entropy and the error-correction
+    /// term are both of the changed answer.
+    #[arg(long, value_name = "PROBABILITY", value_parser = parse_finite)]
+    pub noisy_preprocessing: Option<f64>,
 }
 
 /// Whose answers (`randomness`, `entropy`, `finite-size`): one player's, or a pair's.

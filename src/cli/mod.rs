@@ -258,8 +258,8 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             }
             Ok(output(text::finite_size(&r), &r, &game.warnings))
         }
-        Request::Key { chsh, qber } => {
-            let r = pipeline::key(*chsh, *qber)?;
+        Request::Key(options) => {
+            let r = pipeline::key(options)?;
             Ok(output(text::key(&r), &r, &[]))
         }
         Request::Review {

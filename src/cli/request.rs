@@ -5,7 +5,7 @@
 use std::path::PathBuf;
 
 use bellgap::bounds::classical::{Choice, ClassicalOptions};
-use bellgap::bounds::entropy::{AdversaryWords, EntropyOptions, MomentField};
+use bellgap::bounds::entropy::{AdversaryWords, EntropyOptions, MomentField, Preprocessing};
 use bellgap::bounds::quantum::npa::Level;
 use bellgap::bounds::quantum::seesaw::SeesawOptions;
 use bellgap::bounds::quantum::symmetric::SymmetryChoice;
@@ -16,8 +16,8 @@ use bellgap::optim::backend::Backend;
 use bellgap::optim::first_order::FirstOrderOptions;
 use bellgap::pipeline::{
     BoundsOptions, EntropyCommandOptions, EntropyGiven, ErrorCorrection, EvaluateOptions,
-    FiniteSizeOptions, KeyDisclosure, MarginOptions, NpaLevelsOptions, RandomnessOptions, Tangent,
-    TargetChoice,
+    FiniteSizeOptions, KeyDisclosure, KeyOptions, MarginOptions, NpaLevelsOptions,
+    RandomnessOptions, Tangent, TargetChoice,
 };
 use bellgap::protocol::accumulation::SecurityParameters;
 use bellgap::protocol::finite::ObservedRun;
@@ -146,7 +146,7 @@ pub enum Request {
         svg: Option<PathBuf>,
     },
     /// `key`.
-    Key { chsh: f64, qber: f64 },
+    Key(KeyOptions),
     /// `review`.
     Review {
         protocol: PathBuf,
@@ -568,10 +568,21 @@ impl Invocation {
                 },
                 svg: svg.clone(),
             },
-            Command::Key { chsh, qber, .. } => Request::Key {
+            Command::Key {
+                chsh,
+                qber,
+                noisy_preprocessing,
+                ..
+            } => Request::Key(KeyOptions {
                 chsh: *chsh,
                 qber: *qber,
-            },
+                preprocessing: match noisy_preprocessing {
+                    None => Preprocessing::None,
+                    Some(probability) => Preprocessing::Noisy {
+                        probability: *probability,
+                    },
+                },
+            }),
             Command::Review {
                 protocol,
                 markdown,
@@ -645,6 +656,10 @@ fn hierarchy_options(h: &HierarchyArgs) -> Result<EntropyOptions> {
             EntropySolverArg::Auto => Backend::Auto,
             EntropySolverArg::Ipm => Backend::MomentIpm,
             EntropySolverArg::Clarabel => Backend::Clarabel,
+        },
+        preprocessing: match h.noisy_preprocessing {
+            None => Preprocessing::None,
+            Some(probability) => Preprocessing::Noisy { probability },
         },
     })
 }
@@ -975,6 +990,8 @@ mod tests {
             Cli::try_parse_from(["bellgap", "key", "--chsh", "2.5", "--qber", "0.01"]).unwrap();
         let inv = Invocation::from_cli(&cli).unwrap();
         assert!(!inv.json && inv.inputs.is_empty());
-        assert!(matches!(inv.request, Request::Key { chsh, qber } if chsh == 2.5 && qber == 0.01));
+        assert!(
+            matches!(inv.request, Request::Key(KeyOptions { chsh, qber, .. }) if chsh == 2.5 && qber == 0.01)
+        );
     }
 }

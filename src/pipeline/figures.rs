@@ -5,7 +5,7 @@ use super::{classical_observed, Observer};
 use crate::bounds::classical::locality::{locality_test, LocalityReport};
 use crate::bounds::classical::{classical_value, ClassicalOptions};
 use crate::bounds::entropy::{
-    conditional_entropy, ConditionalEntropy, EntropyConstraint, EntropyOptions,
+    conditional_entropy, ConditionalEntropy, EntropyConstraint, EntropyOptions, Preprocessing,
 };
 use crate::bounds::quantum::npa::{self, Level, Verification};
 use crate::error::{Error, Result};
@@ -16,8 +16,8 @@ use crate::model::correlations::Correlations;
 use crate::model::scenario::Scenario;
 use crate::protocol::finite::{self, Margin, ObservedRun};
 use crate::protocol::key::{
-    binary_entropy, chsh_threshold_qber, error_correction_entropy, key_rate, ChshEntropyBound,
-    KeyRate,
+    binary_entropy, error_correction_entropy, key_rate, threshold_qber, ChshEntropyBound,
+    EntropyBound, KeyRate, NoisyChshEntropyBound,
 };
 use crate::protocol::randomness::{guessing_probability, Randomness, Target};
 use serde::Serialize;
@@ -214,15 +214,34 @@ pub struct KeyReport {
     /// Entropy and key rate at the given S and QBER.
     pub rate: KeyRate,
     /// The QBER at which the key rate of the optimal CHSH devices under depolarising noise
-    /// reaches zero.
+    /// reaches zero (with the same preprocessing).
     pub threshold_qber: f64,
+    /// The key player's preprocessing.
+    pub preprocessing: Preprocessing,
 }
 
-/// The `key` command: the analytic CHSH bound at correlator value `chsh` and error rate `qber`.
-pub fn key(chsh: f64, qber: f64) -> Result<KeyReport> {
+/// What the `key` command is asked.
+#[derive(Debug, Clone, Default)]
+pub struct KeyOptions {
+    /// The CHSH correlator value S.
+    pub chsh: f64,
+    /// The raw answers' error rate.
+    pub qber: f64,
+    /// The key player's noisy preprocessing, if any.
+    pub preprocessing: Preprocessing,
+}
+
+/// The `key` command: the analytic CHSH bound (with noisy preprocessing when asked) at the
+/// correlator value and error rate.
+pub fn key(options: &KeyOptions) -> Result<KeyReport> {
+    let bound: Box<dyn EntropyBound> = match options.preprocessing {
+        Preprocessing::None => Box::new(ChshEntropyBound),
+        Preprocessing::Noisy { probability } => Box::new(NoisyChshEntropyBound::new(probability)?),
+    };
     Ok(KeyReport {
-        rate: key_rate(&ChshEntropyBound, chsh, qber)?,
-        threshold_qber: chsh_threshold_qber(),
+        rate: key_rate(bound.as_ref(), options.chsh, options.qber)?,
+        threshold_qber: threshold_qber(bound.as_ref()),
+        preprocessing: options.preprocessing,
     })
 }
 
@@ -405,11 +424,20 @@ pub fn entropy<'a>(game: &'a Game, options: &EntropyCommandOptions) -> Result<En
                     "the error rate must be a probability, got {q}"
                 )));
             }
-            let d = s.parties()[target.parts[0].0].answers() as f64;
-            let fano = binary_entropy(*q) + q * (d - 1.0).log2();
+            let answers = s.parties()[target.parts[0].0].answers();
+            let d = answers as f64;
+            let noisy = options.hierarchy.preprocessing.error_rate(*q, answers);
+            let fano = binary_entropy(noisy) + noisy * (d - 1.0).log2();
             Some((
                 fano,
-                format!("Fano's bound at error rate {q}: h(Q) + Q·log₂({d} − 1)"),
+                match options.hierarchy.preprocessing {
+                    Preprocessing::None => {
+                        format!("Fano's bound at error rate {q}: h(Q) + Q·log₂({d} − 1)")
+                    }
+                    Preprocessing::Noisy { probability } => format!(
+                        "Fano's bound at the preprocessed answers' error rate {noisy} (raw {q}, noisy preprocessing {probability}): h(Q) + Q·log₂({d} − 1)"
+                    ),
+                },
             ))
         }
         Some(ErrorCorrection::KeyPair(choice)) => {
@@ -425,14 +453,22 @@ pub fn entropy<'a>(game: &'a Game, options: &EntropyCommandOptions) -> Result<En
                     "the key pair needs a second player".into(),
                 ));
             }
-            let table = key_pair_table(s, &c.p, (pa, xa), (pb, yb));
+            let table = options
+                .hierarchy
+                .preprocessing
+                .apply_to_rows(&key_pair_table(s, &c.p, (pa, xa), (pb, yb)));
             let h = error_correction_entropy(&table)?;
             Some((
                 h,
                 format!(
-                    "H(A|B) of the behaviour's answers of {} (question {}) and {} (question {})",
+                    "H(A|B) of the behaviour's answers of {} (question {}{}) and {} (question {})",
                     s.parties()[pa].name,
                     s.parties()[pa].question_labels[xa],
+                    match options.hierarchy.preprocessing {
+                        Preprocessing::None => String::new(),
+                        Preprocessing::Noisy { probability } =>
+                            format!(", after noisy preprocessing {probability}"),
+                    },
                     s.parties()[pb].name,
                     s.parties()[pb].question_labels[yb]
                 ),
@@ -476,7 +512,16 @@ pub fn entropy<'a>(game: &'a Game, options: &EntropyCommandOptions) -> Result<En
         given,
         results,
         not_obtained,
-        assumptions: entropy_assumptions(options.key.is_some()),
+        assumptions: {
+            let mut a = entropy_assumptions(options.key.is_some());
+            if let Preprocessing::Noisy { probability } = options.hierarchy.preprocessing {
+                a.insert(
+                    a.len() - 1,
+                    format!("noisy preprocessing: the key player changes each answer with probability {probability} using private randomness that is never announced and that the adversary does not know (Ho et al. 2020, PRL 124, 230502)"),
+                );
+            }
+            a
+        },
     })
 }
 

@@ -12,9 +12,9 @@ mod review;
 
 pub use figures::{
     entropy, entropy_assumptions, key, local, margin, randomness, verify, DevetakWinter,
-    EntropyCommandOptions, EntropyGiven, EntropyReport, EntropyResult, ErrorCorrection, KeyReport,
-    LocalReport, MarginOptions, MarginReport, RandomnessOptions, RandomnessReport, TargetChoice,
-    VerifyReport,
+    EntropyCommandOptions, EntropyGiven, EntropyReport, EntropyResult, ErrorCorrection, KeyOptions,
+    KeyReport, LocalReport, MarginOptions, MarginReport, RandomnessOptions, RandomnessReport,
+    TargetChoice, VerifyReport,
 };
 pub use finite_size::{
     finite_size, finite_size_assumptions, Extracting, FiniteSizeOptions, FiniteSizeReport,

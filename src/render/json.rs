@@ -11,6 +11,7 @@ use crate::bounds::classical::{
     ClassicalEstimate, ClassicalStatus, DeterministicStrategy, Method as ClassicalMethod,
 };
 use crate::bounds::entropy::ConditionalEntropy;
+use crate::bounds::entropy::Preprocessing;
 use crate::bounds::quantum::analysis::{Bipartition, Robustness};
 use crate::bounds::quantum::npa::{Level, NpaBound};
 use crate::bounds::quantum::symmetric::SymmetryUse;
@@ -538,6 +539,9 @@ struct KeyView<'a> {
     command: &'static str,
     chsh: f64,
     qber: f64,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    noisy_preprocessing: Option<f64>,
+    key_qber: f64,
     conditional_entropy: f64,
     key_rate: f64,
     threshold_qber: f64,
@@ -553,6 +557,11 @@ impl Serialize for KeyReport {
             command: "key",
             chsh: k.score,
             qber: k.qber,
+            noisy_preprocessing: match self.preprocessing {
+                Preprocessing::None => None,
+                Preprocessing::Noisy { probability } => Some(probability),
+            },
+            key_qber: k.key_qber,
             conditional_entropy: k.conditional_entropy,
             key_rate: k.key_rate,
             threshold_qber: self.threshold_qber,
@@ -794,7 +803,12 @@ mod tests {
 
     #[test]
     fn key_and_verify_views_name_their_command() {
-        let k = crate::pipeline::key(2.5, 0.02).unwrap();
+        let k = crate::pipeline::key(&crate::pipeline::KeyOptions {
+            chsh: 2.5,
+            qber: 0.02,
+            ..Default::default()
+        })
+        .unwrap();
         let v = to_value(&k);
         assert_eq!(v["command"], "key");
         assert_eq!(v["chsh"], 2.5);

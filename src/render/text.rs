@@ -2,6 +2,7 @@
 //! renderer reads.
 
 use crate::bounds::classical::{ClassicalStatus, DeterministicStrategy};
+use crate::bounds::entropy::Preprocessing;
 use crate::bounds::quantum::analysis::StrategyAnalysis;
 use crate::model::scenario::Scenario;
 use crate::model::symmetry::Relabelling;
@@ -731,15 +732,26 @@ pub fn key(report: &KeyReport) -> String {
     let mut out = table(&[
         ("CHSH value".into(), num(k.score)),
         ("QBER".into(), num(k.qber)),
+        (
+            "QBER of the key (after preprocessing)".into(),
+            num(k.key_qber),
+        ),
         ("H(A|E) ≥".into(), bits_text(k.conditional_entropy)),
         (
             "key rate ≥".into(),
             format!("{} per round", bits_text(k.key_rate)),
         ),
-        ("threshold QBER (depolarising)".into(), num(threshold)),
+        (
+            "threshold QBER (depolarising, same preprocessing)".into(),
+            num(threshold),
+        ),
         ("bound".into(), k.bound.to_string()),
     ]);
-    out += "\nassumptions: collective attacks, i.i.d. rounds, asymptotic limit, one-way error correction at the Shannon limit.\n";
+    out += "\nassumptions: collective attacks, i.i.d. rounds, asymptotic limit, one-way error correction at the Shannon limit";
+    if let Preprocessing::Noisy { probability } = report.preprocessing {
+        out += &format!(", the key bit flipped with probability {probability} by private randomness that is never announced");
+    }
+    out += ".\n";
     out += &format!("{}\n", CAUTION);
     out
 }

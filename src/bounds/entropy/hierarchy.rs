@@ -17,7 +17,8 @@
 //! integrand (λ − 1)/(1 + t(λ − 1)) has a non-positive derivative of order 2m − 1, and the
 //! rule's error is that derivative times ∫ (t − 1) Π (t − t_i)² dt < 0, so the integral minus
 //! the rule is non-negative. The term at t = 1 is 1 − Σ_e Tr(ρ_{E,e}² ρ_E⁻¹) ≥ 0 (as
-//! ρ_{E,e} ≤ ρ_E) and is dropped. So, in bits,
+//! ρ_{E,e} ≤ ρ_E) and is replaced by that floor, 0 (or by a positive floor after noisy
+//! preprocessing, below). So, in bits,
 //!
 //! ```text
 //!   H(A|E) ≥ Σ_{i<m} w_i / (t_i ln 2) · (1 + inf_Z …(t_i)),
@@ -34,6 +35,19 @@
 //! = 1/(2√(t(1 − t))). Restricting the Z_e to that ball leaves every infimum unchanged, and then
 //! |⟨w⟩| ≤ α^{(number of Z letters in w)} for every word (our derivation; it is tighter than
 //! the bound the paper states).
+//!
+//! Nothing above needs the M_e to be projectors: any POVM with ρ_{E,e} = Tr_Q(M_e ρ_QE) ≤ ρ_E
+//! gives the same formula and the same norm bound. So noisy preprocessing (the key player
+//! replaces its answer a by e with probability T(e|a); Ho et al., PRL 124, 230502 (2020)) is the
+//! same programme with M̂_e = Σ_a T(e|a) M_a, a combination of the players' projectors.
+//!
+//! The term at t = 1 then has a positive floor (our derivation). Write ρ_a for the raw answers'
+//! conditional states and G_{aa'} = Tr(ρ_a ρ_E⁻¹ ρ_{a'}): Σ_{a'} G_{aa'} = Tr ρ_a, so the
+//! entries of G sum to 1, and s = Tr G ≤ 1 as above. The symmetric channel of d answers is
+//! T = β·1 + γ·J with γ = q/(d − 1), β = 1 − dγ, and TᵀT = β²·1 + (2βγ + dγ²)·J, so
+//! Σ_e Tr(ρ_{E,e}² ρ_E⁻¹) = Tr(TᵀT G) = β² s + 2βγ + dγ² ≤ β² + 2βγ + dγ² = 1 − 2q + dq²/(d − 1),
+//! and the term is at least 2q − dq²/(d − 1) (2q(1 − q) for a bit flip: the whole term at
+//! q = 1/2, where the answer is uniform and the entropy is exactly 1 bit).
 
 use serde::Serialize;
 
@@ -158,10 +172,88 @@ pub enum EntropyConstraint {
     Behaviour(Vec<f64>),
 }
 
+/// What the key player does to its answer before the entropy is counted.
+#[derive(Debug, Clone, Copy, PartialEq, Default, Serialize)]
+#[serde(rename_all = "kebab-case", tag = "kind")]
+pub enum Preprocessing {
+    /// The answer as it is.
+    #[default]
+    None,
+    /// Noisy preprocessing: the answer is kept with probability 1 − `probability` and otherwise
+    /// replaced by each of the other answers with probability `probability`/(d − 1) (for two
+    /// answers, a bit flip with probability `probability`). The randomness is the player's own,
+    /// private, and never announced.
+    Noisy {
+        /// The probability of changing the answer, in [0, 1].
+        probability: f64,
+    },
+}
+
+impl Preprocessing {
+    /// T(e|a) for answers e and a out of `d`.
+    pub fn channel(&self, e: usize, a: usize, d: usize) -> f64 {
+        match *self {
+            Preprocessing::None => f64::from(u8::from(e == a)),
+            Preprocessing::Noisy { probability } if e == a => 1.0 - probability,
+            Preprocessing::Noisy { probability } => probability / (d - 1) as f64,
+        }
+    }
+
+    /// A floor on the quadrature's term at t = 1, 1 − Σ_e Tr(ρ_{E,e}² ρ_E⁻¹), for d answers
+    /// (see the module notes): 0 without preprocessing, 2q − dq²/(d − 1) with it.
+    pub fn last_node_floor(&self, d: usize) -> f64 {
+        match *self {
+            Preprocessing::None => 0.0,
+            Preprocessing::Noisy { probability: q } => {
+                (2.0 * q - d as f64 * q * q / (d - 1) as f64).max(0.0)
+            }
+        }
+    }
+
+    /// Refuses a probability outside [0, 1] (or not a number).
+    pub fn check(&self) -> Result<()> {
+        match *self {
+            Preprocessing::Noisy { probability } if !(0.0..=1.0).contains(&probability) => {
+                Err(Error::InvalidArgument(format!(
+                    "the noisy preprocessing probability must be in [0, 1], got {probability}"
+                )))
+            }
+            _ => Ok(()),
+        }
+    }
+
+    /// `p(e, ·)` from `p(a, ·)`: the rows of a joint table with the key answer first, passed
+    /// through the channel.
+    pub fn apply_to_rows(&self, table: &[Vec<f64>]) -> Vec<Vec<f64>> {
+        let d = table.len();
+        (0..d)
+            .map(|e| {
+                let width = table.first().map_or(0, Vec::len);
+                (0..width)
+                    .map(|b| (0..d).map(|a| self.channel(e, a, d) * table[a][b]).sum())
+                    .collect()
+            })
+            .collect()
+    }
+
+    /// The probability that the preprocessed answer differs from the other player's, from the
+    /// raw one's `q` (d answers): a differing answer becomes equal with probability p/(d − 1),
+    /// an equal one differs with probability p.
+    pub fn error_rate(&self, q: f64, d: usize) -> f64 {
+        match *self {
+            Preprocessing::None => q,
+            Preprocessing::Noisy { probability } => {
+                (1.0 - q) * probability + q * (1.0 - probability / (d - 1) as f64)
+            }
+        }
+    }
+}
+
 /// Options of [`conditional_entropy`].
 #[derive(Debug, Clone)]
 pub struct EntropyOptions {
-    /// Gauss–Radau nodes m (m − 1 relaxations are solved; the node at t = 1 is dropped).
+    /// Gauss–Radau nodes m (m − 1 relaxations are solved; the node at t = 1 is replaced by a
+    /// floor).
     pub nodes: usize,
     /// The players' NPA level of each relaxation (None: [`default_level`], which depends on
     /// the target and the size).
@@ -172,6 +264,8 @@ pub struct EntropyOptions {
     pub field: MomentField,
     /// SDP backend.
     pub backend: Backend,
+    /// What the key player does to its answer first (one player's answer only).
+    pub preprocessing: Preprocessing,
 }
 
 /// Default node count: near the top of the CHSH range the rule's own error matters. With the
@@ -187,6 +281,7 @@ impl Default for EntropyOptions {
             adversary: AdversaryWords::default(),
             field: MomentField::default(),
             backend: Backend::Auto,
+            preprocessing: Preprocessing::None,
         }
     }
 }
@@ -264,6 +359,8 @@ pub struct ConditionalEntropy {
     pub field: MomentField,
     /// Side of each node's moment matrix (before a complex embedding doubles it).
     pub matrix_size: usize,
+    /// What the key player did to its answer before the entropy was counted.
+    pub preprocessing: Preprocessing,
     /// Per node (t_i < 1).
     pub terms: Vec<NodeBound>,
     /// With a score constraint: the affine lower bound on H as a function of the score that the
@@ -383,10 +480,18 @@ fn behaviour_equalities(s: &Scenario, p: &[f64]) -> Result<Vec<(MomentTerms, f64
     Ok(rows)
 }
 
-/// The objective of node t: Σ_e ⟨M_e (Z_e + Z_e* + (1 − t) Z_e* Z_e) + t Z_e Z_e*⟩.
-fn node_objective(s: &Scenario, target: &Target, t: f64) -> MomentTerms {
+/// The objective of node t: Σ_e ⟨M̂_e (Z_e + Z_e* + (1 − t) Z_e* Z_e) + t Z_e Z_e*⟩, with
+/// M̂_e = Σ_a T(e|a) M_a after preprocessing (M̂_e = M_e without).
+fn node_objective(
+    s: &Scenario,
+    target: &Target,
+    preprocessing: Preprocessing,
+    t: f64,
+) -> MomentTerms {
+    let events = target.events(s);
+    let d = events.len();
     let mut terms = Vec::new();
-    for (e, parts) in target.events(s).iter().enumerate() {
+    for e in 0..d {
         let z = EveLetter {
             event: e as u32,
             adjoint: false,
@@ -395,10 +500,17 @@ fn node_objective(s: &Scenario, target: &Target, t: f64) -> MomentTerms {
             event: e as u32,
             adjoint: true,
         };
-        for (w, c) in event_terms(s, parts) {
-            terms.push((with_letters(&w, &[z]), c));
-            terms.push((with_letters(&w, &[zs]), c));
-            terms.push((with_letters(&w, &[zs, z]), c * (1.0 - t)));
+        for (a, parts) in events.iter().enumerate() {
+            let weight = preprocessing.channel(e, a, d);
+            if weight == 0.0 {
+                continue;
+            }
+            for (w, c) in event_terms(s, parts) {
+                let c = c * weight;
+                terms.push((with_letters(&w, &[z]), c));
+                terms.push((with_letters(&w, &[zs]), c));
+                terms.push((with_letters(&w, &[zs, z]), c * (1.0 - t)));
+            }
         }
         terms.push((with_letters(&[], &[z, zs]), t));
     }
@@ -461,6 +573,13 @@ pub fn conditional_entropy(
 ) -> Result<ConditionalEntropy> {
     let start = std::time::Instant::now();
     target.check(s)?;
+    options.preprocessing.check()?;
+    if options.preprocessing != Preprocessing::None && target.parts.len() != 1 {
+        return Err(Error::InvalidArgument(
+            "noisy preprocessing is for one player's key answer: leave out the second player"
+                .into(),
+        ));
+    }
     let rule = RadauRule::new(options.nodes)?;
     let level = match &options.level {
         Some(level) => level.clone(),
@@ -501,7 +620,7 @@ pub fn conditional_entropy(
     let (mut at_ends, mut ends_magnitude) = ((0.0, 0.0), 0.0);
     for (&t, &w) in rule.nodes[..m - 1].iter().zip(&rule.weights[..m - 1]) {
         let alpha = 1.0 / (2.0 * (t * (1.0 - t)).sqrt());
-        let objective = node_objective(s, target, t);
+        let objective = node_objective(s, target, options.preprocessing, t);
         let node = node_problem(
             &matrix,
             &objective,
@@ -560,6 +679,14 @@ pub fn conditional_entropy(
             iterations: sol.iterations,
         });
     }
+    // The node at t = 1 contributes at least its floor (0 without preprocessing).
+    let last = rule.weights[m - 1] / std::f64::consts::LN_2
+        * options.preprocessing.last_node_floor(events);
+    bits += last;
+    solver_bits += last;
+    magnitude += last;
+    at_ends = (at_ends.0 + last, at_ends.1 + last);
+    ends_magnitude += 2.0 * last;
     // The sum's rounding, and the nodes' and weights' own (each within a few units in the last
     // place of the exact rule; the quadrature tests check 1e-14), are charged generously.
     let bits = bits - 1e-12 * magnitude;
@@ -581,17 +708,127 @@ pub fn conditional_entropy(
         bits: bits.clamp(0.0, most),
         solver_bits,
         method: format!(
-            "Gauss–Radau hierarchy (Brown, Fawzi & Fawzi 2024), {} nodes, NPA level {} with the adversary's operators",
+            "Gauss–Radau hierarchy (Brown, Fawzi & Fawzi 2024), {} nodes, NPA level {} with the adversary's operators{}",
             options.nodes,
-            level.name()
+            level.name(),
+            match options.preprocessing {
+                Preprocessing::None => String::new(),
+                Preprocessing::Noisy { probability } => format!(
+                    "; the answer after noisy preprocessing with probability {probability} (Ho et al. 2020)"
+                ),
+            }
         ),
         nodes: options.nodes,
         level,
         adversary: options.adversary,
         field: options.field,
         matrix_size: matrix.size(),
+        preprocessing: options.preprocessing,
         terms,
         min_tradeoff,
         seconds: start.elapsed().as_secs_f64(),
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use nalgebra::DMatrix;
+
+    /// A small deterministic generator of numbers in [−1, 1).
+    fn numbers(mut seed: u64) -> impl FnMut() -> f64 {
+        move || {
+            seed = seed
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (seed >> 11) as f64 / (1u64 << 52) as f64 - 1.0
+        }
+    }
+
+    #[test]
+    fn the_last_node_floor_holds_on_random_states_and_is_met_by_a_uniform_answer() {
+        // 1 − Σ_e Tr(ρ_{E,e}² ρ_E⁻¹) ≥ 2q − dq²/(d − 1) for the symmetric channel, on random
+        // classical-quantum states (Eve's dimension 3, d = 2, 3, 4 answers).
+        let mut next = numbers(7);
+        for d in [2usize, 3, 4] {
+            for q in [0.0, 0.05, 0.3, 0.5, (d - 1) as f64 / d as f64, 1.0] {
+                let noisy = Preprocessing::Noisy { probability: q };
+                for _ in 0..20 {
+                    let raw: Vec<DMatrix<f64>> = (0..d)
+                        .map(|_| {
+                            let a = DMatrix::from_fn(3, 2, |_, _| next());
+                            &a * a.transpose()
+                        })
+                        .collect();
+                    let total: DMatrix<f64> = raw.iter().sum();
+                    let scale = total.trace();
+                    let raw: Vec<DMatrix<f64>> = raw.iter().map(|r| r / scale).collect();
+                    let inverse = (total / scale).try_inverse().unwrap();
+                    let collision: f64 = (0..d)
+                        .map(|e| {
+                            let rho_e: DMatrix<f64> =
+                                (0..d).map(|a| &raw[a] * noisy.channel(e, a, d)).sum();
+                            (&rho_e * &rho_e * &inverse).trace()
+                        })
+                        .sum();
+                    let floor = noisy.last_node_floor(d);
+                    assert!(
+                        1.0 - collision >= floor - 1e-10,
+                        "d = {d}, q = {q}: {} < {floor}",
+                        1.0 - collision
+                    );
+                }
+            }
+            // A uniform answer (q = (d − 1)/d) has ρ_{E,e} = ρ_E/d: the term is 1 − 1/d exactly.
+            let uniform = Preprocessing::Noisy {
+                probability: (d - 1) as f64 / d as f64,
+            };
+            assert!((uniform.last_node_floor(d) - (1.0 - 1.0 / d as f64)).abs() < 1e-15);
+        }
+        assert_eq!(Preprocessing::None.last_node_floor(3), 0.0);
+    }
+
+    #[test]
+    fn the_error_rate_after_preprocessing_is_the_tables() {
+        // A symmetric binary table with error rate Q: after the flip, the table's error rate
+        // is the one `error_rate` gives, and its rows still sum to the key's marginals.
+        let (qber, flip) = (0.07, 0.2);
+        let table = vec![
+            vec![(1.0 - qber) / 2.0, qber / 2.0],
+            vec![qber / 2.0, (1.0 - qber) / 2.0],
+        ];
+        let noisy = Preprocessing::Noisy { probability: flip };
+        let after = noisy.apply_to_rows(&table);
+        let differ = after[0][1] + after[1][0];
+        assert!((differ - noisy.error_rate(qber, 2)).abs() < 1e-15);
+        assert!(
+            (noisy.error_rate(qber, 2) - (qber * (1.0 - flip) + (1.0 - qber) * flip)).abs() < 1e-15
+        );
+        // Three answers: an answer equal to the other player's differs with probability q, a
+        // different one becomes equal with probability q/2.
+        let third = Preprocessing::Noisy { probability: 0.3 };
+        let t3: Vec<Vec<f64>> = (0..3)
+            .map(|a| {
+                (0..3)
+                    .map(|b| if a == b { 0.9 / 3.0 } else { 0.05 / 3.0 })
+                    .collect()
+            })
+            .collect();
+        let after = third.apply_to_rows(&t3);
+        let differ: f64 = (0..3)
+            .flat_map(|a| (0..3).map(move |b| (a, b)))
+            .filter(|(a, b)| a != b)
+            .map(|(a, b)| after[a][b])
+            .sum();
+        assert!((differ - third.error_rate(0.1, 3)).abs() < 1e-15);
+        let total: f64 = after.iter().flatten().sum();
+        assert!((total - 1.0).abs() < 1e-15);
+        assert!(matches!(
+            Preprocessing::Noisy {
+                probability: f64::NAN
+            }
+            .check(),
+            Err(Error::InvalidArgument(_))
+        ));
+    }
 }

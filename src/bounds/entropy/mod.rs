@@ -11,6 +11,6 @@ pub mod relaxation;
 
 pub use hierarchy::{
     conditional_entropy, default_level, event_terms, ConditionalEntropy, EntropyConstraint,
-    EntropyOptions, MinTradeoff, NodeBound, Target,
+    EntropyOptions, MinTradeoff, NodeBound, Preprocessing, Target,
 };
 pub use relaxation::{AdversaryWords, MomentField};
