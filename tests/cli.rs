@@ -3,6 +3,7 @@
 
 use std::path::PathBuf;
 
+use bellgap::protocol::key::{EntropyBound, NoisyChshEntropyBound};
 use serde_json::Value;
 
 mod common;
@@ -526,6 +527,112 @@ fn entropy_of_the_tsirelson_box_and_its_key_rate() {
         "--json",
     ]);
     assert_eq!(out.status.code(), Some(2));
+}
+
+#[test]
+fn noisy_preprocessing_in_the_entropy_and_key_commands() {
+    // The Tsirelson box with Alice's key bit flipped with probability 0.1: the error-correction
+    // term is h of the flipped bit's error rate Q' = Q(1 − q) + (1 − Q)q, from the behaviour's
+    // table; the entropy stays at most 1 bit.
+    let path = tsirelson_box("tsirelson-noisy.yaml");
+    let out = bellgap(&[
+        "entropy",
+        "games/chsh-expression.yaml",
+        "--behaviour",
+        &path.to_string_lossy(),
+        "--key-with",
+        "bob",
+        "--adversary-words",
+        "with-projectors",
+        "--nodes",
+        "4",
+        "--noisy-preprocessing",
+        "0.1",
+        "--json",
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j = json_of(&out);
+    let r = &j["results"][0];
+    let h = r["entropy"]["bits"].as_f64().unwrap();
+    assert!((0.95..=1.0).contains(&h), "{h}");
+    assert_eq!(r["entropy"]["preprocessing"]["kind"], "noisy");
+    let q: f64 = (1.0 - 1.0 / 2f64.sqrt()) / 2.0;
+    let noisy = q * 0.9 + (1.0 - q) * 0.1;
+    let hq = -noisy * noisy.log2() - (1.0 - noisy) * (1.0 - noisy).log2();
+    assert!((r["key"]["error_correction"].as_f64().unwrap() - hq).abs() < 1e-9);
+    assert!(j["assumptions"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|a| a.as_str().unwrap().contains("noisy preprocessing")));
+    // A pair of answers, or a probability outside [0, 1], is refused with exit 2.
+    for extra in [
+        &["--with", "bob", "--noisy-preprocessing", "0.1"][..],
+        &["--noisy-preprocessing", "1.5"][..],
+        &["--noisy-preprocessing", "nan"][..],
+    ] {
+        let mut args = vec!["entropy", "games/chsh-expression.yaml", "--score", "2.5"];
+        args.extend_from_slice(extra);
+        let out = bellgap(&args);
+        assert_eq!(out.status.code(), Some(2), "{extra:?}");
+    }
+    // The analytic key figures: S = 2.5, Q = 0.03, q = 0.1 gives H(Â|E) = 0.703571 and the key
+    // error rate 0.124 (our computation from the bound of Ho et al. 2020).
+    let j = json_of(&bellgap(&[
+        "key",
+        "--chsh",
+        "2.5",
+        "--qber",
+        "0.03",
+        "--noisy-preprocessing",
+        "0.1",
+        "--json",
+    ]));
+    assert!((j["conditional_entropy"].as_f64().unwrap() - 0.703_571_4).abs() < 1e-6);
+    assert!((j["key_qber"].as_f64().unwrap() - 0.124).abs() < 1e-12);
+    assert_eq!(j["noisy_preprocessing"].as_f64(), Some(0.1));
+    let out = bellgap(&[
+        "key",
+        "--chsh",
+        "2.5",
+        "--qber",
+        "0.03",
+        "--noisy-preprocessing",
+        "0.6",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    // The review's key section takes the same preprocessing (CHSH: the analytic bound).
+    let dir = std::env::temp_dir().join(format!("bellgap-noisy-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let game = std::fs::canonicalize("games/chsh.yaml").unwrap();
+    for (flip, ok) in [("0.1", true), ("0.7", false)] {
+        let protocol = dir.join(format!("run-{flip}.yaml"));
+        std::fs::write(
+            &protocol,
+            format!(
+                "game: {}\nrounds: 200000\nwins: 169400\nkey: {{qber: 0.03, noisy_preprocessing: {flip}}}\n",
+                game.display()
+            ),
+        )
+        .unwrap();
+        let out = bellgap(&["review", &protocol.to_string_lossy(), "--json"]);
+        if !ok {
+            assert_eq!(out.status.code(), Some(2));
+            assert!(String::from_utf8_lossy(&out.stderr).contains("noisy_preprocessing"));
+            continue;
+        }
+        let j = json_of(&out);
+        let k = &j["key"];
+        assert_eq!(k["preprocessing"]["kind"], "noisy");
+        assert!((k["figures"]["key_qber"].as_f64().unwrap() - 0.124).abs() < 1e-12);
+        let sv = k["chsh_value"].as_f64().unwrap();
+        let want = NoisyChshEntropyBound::new(0.1).unwrap().entropy(sv);
+        assert!((k["figures"]["conditional_entropy"].as_f64().unwrap() - want).abs() < 1e-12);
+    }
 }
 
 #[test]

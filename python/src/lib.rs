@@ -637,7 +637,7 @@ fn hierarchy(a: &FigureArgs) -> PyResult<EntropyOptions> {
             }
         };
     }
-    o.preprocessing = preprocessing(a.noisy_preprocessing);
+    o.preprocessing = Preprocessing::noisy_if(a.noisy_preprocessing);
     Ok(o)
 }
 
@@ -762,19 +762,11 @@ fn key(py: Python<'_>, chsh: f64, qber: f64, noisy_preprocessing: Option<f64>) -
     let options = pipeline::KeyOptions {
         chsh,
         qber,
-        preprocessing: preprocessing(noisy_preprocessing),
+        preprocessing: Preprocessing::noisy_if(noisy_preprocessing),
     };
     interruptible(py, move || {
         Ok(reply(to_value(&pipeline::key(&options)?), None))
     })
-}
-
-/// The preprocessing a `noisy_preprocessing` keyword asks for.
-fn preprocessing(noisy: Option<f64>) -> Preprocessing {
-    match noisy {
-        None => Preprocessing::None,
-        Some(probability) => Preprocessing::Noisy { probability },
-    }
 }
 
 /// `review`: the review of a protocol file, as JSON.

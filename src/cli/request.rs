@@ -576,12 +576,7 @@ impl Invocation {
             } => Request::Key(KeyOptions {
                 chsh: *chsh,
                 qber: *qber,
-                preprocessing: match noisy_preprocessing {
-                    None => Preprocessing::None,
-                    Some(probability) => Preprocessing::Noisy {
-                        probability: *probability,
-                    },
-                },
+                preprocessing: Preprocessing::noisy_if(*noisy_preprocessing),
             }),
             Command::Review {
                 protocol,
@@ -657,10 +652,7 @@ fn hierarchy_options(h: &HierarchyArgs) -> Result<EntropyOptions> {
             EntropySolverArg::Ipm => Backend::MomentIpm,
             EntropySolverArg::Clarabel => Backend::Clarabel,
         },
-        preprocessing: match h.noisy_preprocessing {
-            None => Preprocessing::None,
-            Some(probability) => Preprocessing::Noisy { probability },
-        },
+        preprocessing: Preprocessing::noisy_if(h.noisy_preprocessing),
     })
 }
 

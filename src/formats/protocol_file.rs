@@ -10,13 +10,14 @@
 //! target_p_value: 1e-9          # for `rounds needed` (default 1e-9)
 //! randomness: {player: alice, question: 0, level: 2}   # optional
 //! key: {qber: 0.02}             # optional; analytic for CHSH, the entropy hierarchy otherwise
-//!                               # (then also player, question, nodes)
+//!                               # (then also player, question, nodes); noisy_preprocessing
+//!                               # (the key bit flipped with that probability first)
 //! finite_size:                  # optional: a spot-checking run by entropy accumulation
 //!   rounds: 1000000000
 //!   testing: 0.01
 //!   threshold: 0.84
 //!   # player, question, smoothing, pass_floor, extractor_error, key_disclosed_bits, nodes,
-//!   # tangent_points
+//!   # tangent_points, noisy_preprocessing
 //! ```
 
 use std::path::{Path, PathBuf};
@@ -92,6 +93,10 @@ pub struct KeySpec {
     /// Gauss–Radau nodes of the entropy hierarchy (default 8).
     #[serde(default)]
     pub nodes: Option<usize>,
+    /// Noisy preprocessing: the probability with which the key player changes its answer
+    /// before error correction.
+    #[serde(default)]
+    pub noisy_preprocessing: Option<f64>,
 }
 
 /// A spot-checking run's parameters for the finite-size figures.
@@ -125,6 +130,9 @@ pub struct FiniteSizeSpec {
     /// Gauss–Radau nodes (default 8).
     #[serde(default)]
     pub nodes: Option<usize>,
+    /// Noisy preprocessing of the answer before extraction (the key player's, for key).
+    #[serde(default)]
+    pub noisy_preprocessing: Option<f64>,
     /// Tangent scores the min-tradeoff search tries (default 4).
     #[serde(default)]
     pub tangent_points: Option<usize>,

@@ -13,14 +13,16 @@ use super::finite_size::{
     DEFAULT_TANGENT_POINTS,
 };
 use super::{bounds, BoundsOptions, GameReport, Observer};
-use crate::bounds::entropy::EntropyOptions;
+use crate::bounds::entropy::{EntropyOptions, Preprocessing};
 use crate::bounds::quantum::npa::Level;
 use crate::error::{Error, Location, Result};
 use crate::formats::game::{families, Game};
 use crate::formats::protocol_file::ProtocolFile;
 use crate::protocol::accumulation::SecurityParameters;
 use crate::protocol::finite::{margin, observation, Margin, ObservedRun};
-use crate::protocol::key::{chsh_threshold_qber, key_rate, ChshEntropyBound, KeyRate};
+use crate::protocol::key::{
+    key_rate, threshold_qber, ChshEntropyBound, EntropyBound, KeyRate, NoisyChshEntropyBound,
+};
 use crate::protocol::randomness::{guessing_probability, Randomness, Target};
 use crate::protocol::CAUTION;
 
@@ -47,6 +49,8 @@ pub struct ReviewKey {
     pub figures: KeyRate,
     /// The depolarising-noise threshold QBER.
     pub threshold_qber: f64,
+    /// The key player's preprocessing.
+    pub preprocessing: Preprocessing,
 }
 
 /// Key figures of a game other than CHSH: the entropy hierarchy at the lower confidence score
@@ -61,6 +65,8 @@ pub struct ReviewEntropyKey {
     pub method: String,
     /// The Devetak–Winter rate.
     pub rate: DevetakWinter,
+    /// The key player's preprocessing.
+    pub preprocessing: Preprocessing,
 }
 
 /// The finite-size figures in a review.
@@ -222,11 +228,19 @@ pub fn review<'a>(
     let (mut key, mut entropy_key) = (None, None);
     match (&p.key, chsh_correlator(game, certified_score)) {
         (Some(k), Some(sv)) => {
+            let bound: Box<dyn EntropyBound> = match k.noisy_preprocessing {
+                None => Box::new(ChshEntropyBound),
+                Some(q) => Box::new(
+                    NoisyChshEntropyBound::new(q)
+                        .map_err(|e| bad(format!("key: noisy_preprocessing: {e}")))?,
+                ),
+            };
             key = Some(ReviewKey {
                 chsh_value: sv,
-                figures: key_rate(&ChshEntropyBound, sv, k.qber)
+                figures: key_rate(bound.as_ref(), sv, k.qber)
                     .map_err(|e| bad(format!("key: {e}")))?,
-                threshold_qber: chsh_threshold_qber(),
+                threshold_qber: threshold_qber(bound.as_ref()),
+                preprocessing: Preprocessing::noisy_if(k.noisy_preprocessing),
             })
         }
         (Some(k), None) => {
@@ -240,6 +254,7 @@ pub fn review<'a>(
                 key: Some(ErrorCorrection::ErrorRate(k.qber)),
                 hierarchy: EntropyOptions {
                     nodes: k.nodes.unwrap_or(REVIEW_NODES),
+                    preprocessing: Preprocessing::noisy_if(k.noisy_preprocessing),
                     ..Default::default()
                 },
             };
@@ -253,6 +268,7 @@ pub fn review<'a>(
                 target: r.target_name,
                 score: certified_score,
                 method: result.entropy.method.clone(),
+                preprocessing: result.entropy.preprocessing,
                 rate: result
                     .key
                     .ok_or_else(|| bad("key: no key rate was computed".into()))?,
@@ -284,6 +300,7 @@ pub fn review<'a>(
                 tangent: Tangent::Search(f.tangent_points.unwrap_or(DEFAULT_TANGENT_POINTS)),
                 hierarchy: EntropyOptions {
                     nodes: f.nodes.unwrap_or(REVIEW_NODES),
+                    preprocessing: Preprocessing::noisy_if(f.noisy_preprocessing),
                     ..Default::default()
                 },
                 ..Default::default()
@@ -329,6 +346,17 @@ impl Review<'_> {
         }
         if self.key.is_some() {
             a.push("Key figures assume collective attacks, i.i.d. rounds, the asymptotic limit and one-way error correction at the Shannon limit.".into());
+        }
+        let preprocessing = [
+            self.key.as_ref().map(|k| k.preprocessing),
+            self.entropy_key.as_ref().map(|k| k.preprocessing),
+        ];
+        if let Some(Preprocessing::Noisy { probability }) = preprocessing
+            .into_iter()
+            .flatten()
+            .find(|p| *p != Preprocessing::None)
+        {
+            a.push(format!("Noisy preprocessing: the key player changes each key answer with probability {probability} using private randomness that is never announced and that the adversary does not know (Ho et al. 2020, PRL 124, 230502); the error-correction term is that of the changed answers."));
         }
         if self.entropy_key.is_some() {
             a.push("The key rate of this game is the Devetak–Winter rate with a verified lower bound on H(A|X=x*, E) from the Gauss–Radau entropy hierarchy at the lower confidence score, and Fano's bound on H(A|B) at the stated error rate: collective attacks, i.i.d. rounds, asymptotic, one-way error correction at the Shannon limit.".into());

@@ -166,6 +166,10 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
                 ),
                 ("QBER".into(), num(k.qber)),
                 (
+                    "QBER of the key (after preprocessing)".into(),
+                    num(k.key_qber),
+                ),
+                (
                     "asymptotic key rate ≥".into(),
                     format!("{} per round", bits_text(k.key_rate)),
                 ),

@@ -190,6 +190,14 @@ pub enum Preprocessing {
 }
 
 impl Preprocessing {
+    /// Noisy preprocessing with the probability given, or none.
+    pub fn noisy_if(probability: Option<f64>) -> Preprocessing {
+        match probability {
+            None => Preprocessing::None,
+            Some(probability) => Preprocessing::Noisy { probability },
+        }
+    }
+
     /// T(e|a) for answers e and a out of `d`.
     pub fn channel(&self, e: usize, a: usize, d: usize) -> f64 {
         match *self {
