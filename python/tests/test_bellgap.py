@@ -96,6 +96,10 @@ def test_other_commands_equal_the_command_line():
             cli_json("randomness", chsh, "--score", "0.84"),
         ),
         (bellgap.key(2.7, 0.02), cli_json("key", "--chsh", "2.7", "--qber", "0.02")),
+        (
+            bellgap.key(2.7, 0.02, noisy_preprocessing=0.1),
+            cli_json("key", "--chsh", "2.7", "--qber", "0.02", "--noisy-preprocessing", "0.1"),
+        ),
     ]
     for from_python, from_cli in pairs:
         a, b = without_timing(from_python.to_dict()), without_timing(from_cli)
@@ -125,6 +129,18 @@ def test_entropy_and_finite_size_equal_the_command_line():
     a = bellgap.entropy(os.path.join(ROOT, expr), score=2.5, nodes=4, adversary_words="with-projectors")
     b = cli_json("entropy", expr, "--score", "2.5", "--nodes", "4", "--adversary-words", "with-projectors")
     assert_same(without_timing(a.to_dict()), without_timing(b))
+    a = bellgap.entropy(
+        os.path.join(ROOT, expr), score=2.5, nodes=4, adversary_words="with-projectors",
+        error_rate=0.03, noisy_preprocessing=0.1,
+    )
+    b = cli_json(
+        "entropy", expr, "--score", "2.5", "--nodes", "4", "--adversary-words", "with-projectors",
+        "--error-rate", "0.03", "--noisy-preprocessing", "0.1",
+    )
+    assert_same(without_timing(a.to_dict()), without_timing(b))
+    assert a.results[0]["entropy"]["preprocessing"] == {"kind": "noisy", "probability": 0.1}
+    with pytest.raises(bellgap.UsageError):
+        bellgap.key(2.7, 0.02, noisy_preprocessing=0.7)
     chsh = os.path.join("games", "chsh.yaml")
     a = bellgap.finite_size(
         os.path.join(ROOT, chsh), rounds=10**9, testing=0.01, threshold=0.84,
