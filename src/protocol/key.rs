@@ -1,7 +1,7 @@
-//! Key figures for device-independent QKD. The trait [`EntropyBound`] is the seam for bounds on
-//! the conditional von Neumann entropy H(A|E) as a function of an observed score; today it has
-//! the analytic CHSH bound, and a general-game bound (e.g. from an SDP hierarchy) can implement
-//! the same trait later.
+//! Key figures for device-independent QKD. The trait [`EntropyBound`] is the seam for analytic
+//! bounds on the conditional von Neumann entropy H(A|E) as a function of an observed score: the
+//! CHSH bound, with and without noisy preprocessing. Other games go through the entropy
+//! hierarchy ([`crate::bounds::entropy`]) instead.
 
 use serde::Serialize;
 
