@@ -49,6 +49,7 @@
 //! and the term is at least 2q − dq²/(d − 1) (2q(1 − q) for a bit flip: the whole term at
 //! q = 1/2, where the answer is uniform and the entropy is exactly 1 bit).
 
+use rayon::prelude::*;
 use serde::Serialize;
 
 use super::quadrature::RadauRule;
@@ -525,6 +526,18 @@ fn node_objective(
     terms
 }
 
+/// One node's share, before the sum.
+struct NodeOutcome {
+    bound: NodeBound,
+    /// The verified upper bounds of the node's maximisation with the score constraint at the
+    /// lowest and highest score (with a score constraint).
+    certified_at_ends: Option<[f64; 2]>,
+}
+
+/// Most memory the dense systems of the nodes solved at once may take: nodes run side by side
+/// only while two of them fit (2 GiB each at about 16,000 moments).
+const PARALLEL_NODES_BYTES: f64 = 4.0 * (1u64 << 30) as f64;
+
 /// Largest loss of a node's verified bound against its solver's own primal value that is kept
 /// without trying the other solver (about 4e-5 bits at the first of 8 nodes, whose factor
 /// w/(t ln 2) is the largest, 3.7).
@@ -622,11 +635,8 @@ pub fn conditional_entropy(
         }
         EntropyConstraint::Behaviour(p) => (behaviour_equalities(s, p)?, Vec::new()),
     };
-    let mut terms = Vec::new();
-    let (mut bits, mut solver_bits, mut magnitude) = (0.0, 0.0, 0.0);
     let m = rule.nodes.len();
-    let (mut at_ends, mut ends_magnitude) = ((0.0, 0.0), 0.0);
-    for (&t, &w) in rule.nodes[..m - 1].iter().zip(&rule.weights[..m - 1]) {
+    let node_at = |(&t, &w): (&f64, &f64)| -> Result<NodeOutcome> {
         let alpha = 1.0 / (2.0 * (t * (1.0 - t)).sqrt());
         let objective = node_objective(s, target, options.preprocessing, t);
         let node = node_problem(
@@ -651,12 +661,12 @@ pub fn conditional_entropy(
             )),
             (other, _) => other,
         })?;
-        // The SDP maximised minus the objective: its verified upper bound is minus a verified
-        // lower bound on the infimum.
-        let infimum = -sol.certified;
-        let factor = w / (t * std::f64::consts::LN_2);
+        // The same dual vector's verified bound with the score constraint moved to each end of
+        // the range (see [`MinTradeoff`]).
+        let mut at_ends = None;
         if let Some((lowest, highest, _)) = tradeoff_ends {
-            for (end, sum) in [(lowest, &mut at_ends.0), (highest, &mut at_ends.1)] {
+            let mut ends = [0.0; 2];
+            for (end, out) in [lowest, highest].into_iter().zip(&mut ends) {
                 let moved: Vec<(MomentTerms, f64, f64)> = at_least
                     .iter()
                     .map(|(terms, _, most)| (terms.clone(), end, *most))
@@ -669,23 +679,54 @@ pub fn conditional_entropy(
                     options.field,
                     alpha,
                 )?;
-                let certified = there.problem.assemble().certified_bound(&sol.z)?;
-                *sum += factor * (1.0 - certified);
-                ends_magnitude += factor * (1.0 + certified.abs());
+                *out = there.problem.assemble().certified_bound(&sol.z)?;
             }
+            at_ends = Some(ends);
         }
-        bits += factor * (1.0 + infimum);
-        solver_bits += factor * (1.0 - sol.dual);
-        magnitude += factor * (1.0 + infimum.abs());
-        terms.push(NodeBound {
-            t,
-            weight: w,
-            norm_bound: alpha,
-            infimum,
-            solver_value: -sol.dual,
-            status: sol.status,
-            iterations: sol.iterations,
-        });
+        Ok(NodeOutcome {
+            bound: NodeBound {
+                t,
+                weight: w,
+                norm_bound: alpha,
+                // The SDP maximised minus the objective: its verified upper bound is minus a
+                // verified lower bound on the infimum.
+                infimum: -sol.certified,
+                solver_value: -sol.dual,
+                status: sol.status,
+                iterations: sol.iterations,
+            },
+            certified_at_ends: at_ends,
+        })
+    };
+    // The nodes are independent: solved side by side when two of them fit in memory at once
+    // (each interior-point solve holds a dense matrix of side the number of moments), one after
+    // the other otherwise. The sums below run in node order either way.
+    let pairs = rule.nodes[..m - 1].iter().zip(&rule.weights[..m - 1]);
+    let node_bytes = (matrix.moments.len() as f64).powi(2) * 8.0;
+    let outcomes: Vec<NodeOutcome> = if node_bytes * 2.0 <= PARALLEL_NODES_BYTES {
+        pairs
+            .collect::<Vec<_>>()
+            .into_par_iter()
+            .map(node_at)
+            .collect::<Result<_>>()?
+    } else {
+        pairs.map(node_at).collect::<Result<_>>()?
+    };
+    let mut terms = Vec::with_capacity(outcomes.len());
+    let (mut bits, mut solver_bits, mut magnitude) = (0.0, 0.0, 0.0);
+    let (mut at_ends, mut ends_magnitude) = ((0.0, 0.0), 0.0);
+    for outcome in outcomes {
+        let b = &outcome.bound;
+        let factor = b.weight / (b.t * std::f64::consts::LN_2);
+        if let Some([lowest, highest]) = outcome.certified_at_ends {
+            at_ends.0 += factor * (1.0 - lowest);
+            at_ends.1 += factor * (1.0 - highest);
+            ends_magnitude += factor * (2.0 + lowest.abs() + highest.abs());
+        }
+        bits += factor * (1.0 + b.infimum);
+        solver_bits += factor * (1.0 + b.solver_value);
+        magnitude += factor * (1.0 + b.infimum.abs());
+        terms.push(outcome.bound);
     }
     // The node at t = 1 contributes at least its floor (0 without preprocessing).
     let last = rule.weights[m - 1] / std::f64::consts::LN_2
