@@ -2,7 +2,7 @@
 //! limit is the hierarchy's bound at the threshold (times 1 − γ), nothing is certified at the
 //! classical value, key costs what it discloses, and bad requests are refused.
 
-use bellgap::bounds::entropy::{AdversaryWords, EntropyOptions};
+use bellgap::bounds::entropy::{AdversaryWords, EntropyOptions, Preprocessing};
 use bellgap::formats::game::{CompileOptions, Game};
 use bellgap::pipeline::{finite_size, FiniteSizeOptions, KeyDisclosure, Tangent};
 use bellgap::protocol::key::{ChshEntropyBound, EntropyBound};
@@ -133,6 +133,17 @@ fn key_subtracts_the_test_answers_and_the_disclosure() {
     assert!(key.run.output_bits < randomness.run.output_bits - 1e8);
     // The limit: h − γ·log₂|B| − leak per round.
     assert!((key.asymptotic_output_rate - (key.run.asymptotic_rate - 0.01 - 0.1)).abs() < 1e-12);
+    // With noisy preprocessing the raw key holds more entropy (the disclosure, given, is the
+    // same here; in practice error correction then discloses more).
+    options.hierarchy.preprocessing = Preprocessing::Noisy { probability: 0.1 };
+    let noisy = finite_size(&game, &options).unwrap();
+    assert!(
+        noisy.entropy.bits > key.entropy.bits + 0.05,
+        "{} {}",
+        noisy.entropy.bits,
+        key.entropy.bits
+    );
+    assert!(noisy.run.output_bits > key.run.output_bits);
 }
 
 #[test]
@@ -172,6 +183,8 @@ fn bad_requests_are_refused() {
         });
         o.with = Some(Default::default());
     });
+    // Randomness with noisy preprocessing would count the flip's own randomness as certified.
+    refused(&|o| o.hierarchy.preprocessing = Preprocessing::Noisy { probability: 0.1 });
 }
 
 #[test]

@@ -383,6 +383,16 @@ pub fn entropy_assumptions(key: bool) -> Vec<String> {
     a
 }
 
+/// What noisy preprocessing assumes, for the assumption lists (None without it).
+pub(crate) fn preprocessing_assumption(preprocessing: Preprocessing) -> Option<String> {
+    match preprocessing {
+        Preprocessing::None => None,
+        Preprocessing::Noisy { probability } => Some(format!(
+            "noisy preprocessing: the key player changes each key answer with probability {probability} using private randomness that is never announced and that the adversary does not know (Ho et al. 2020, PRL 124, 230502); the error-correction term is that of the changed answers"
+        )),
+    }
+}
+
 /// The `entropy` command: a verified lower bound on H(A|X=x*, E) at each score, or for the
 /// behaviour, and optionally the Devetak–Winter key rate.
 pub fn entropy<'a>(game: &'a Game, options: &EntropyCommandOptions) -> Result<EntropyReport<'a>> {
@@ -514,11 +524,8 @@ pub fn entropy<'a>(game: &'a Game, options: &EntropyCommandOptions) -> Result<En
         not_obtained,
         assumptions: {
             let mut a = entropy_assumptions(options.key.is_some());
-            if let Preprocessing::Noisy { probability } = options.hierarchy.preprocessing {
-                a.insert(
-                    a.len() - 1,
-                    format!("noisy preprocessing: the key player changes each answer with probability {probability} using private randomness that is never announced and that the adversary does not know (Ho et al. 2020, PRL 124, 230502)"),
-                );
+            if let Some(line) = preprocessing_assumption(options.hierarchy.preprocessing) {
+                a.insert(a.len() - 1, line);
             }
             a
         },

@@ -4,10 +4,10 @@
 
 use serde::Serialize;
 
-use super::figures::{target_name, TargetChoice};
+use super::figures::{preprocessing_assumption, target_name, TargetChoice};
 use crate::bounds::classical::{classical_value, ClassicalOptions};
 use crate::bounds::entropy::{
-    conditional_entropy, ConditionalEntropy, EntropyConstraint, EntropyOptions,
+    conditional_entropy, ConditionalEntropy, EntropyConstraint, EntropyOptions, Preprocessing,
 };
 use crate::error::{Error, Result};
 use crate::formats::game::Game;
@@ -224,6 +224,13 @@ pub fn finite_size<'a>(
         }
         Extracting::Key
     } else {
+        if options.hierarchy.preprocessing != Preprocessing::None {
+            // The flip's own randomness would be counted among the certified bits: it comes
+            // from the user's local source, not from the devices.
+            return Err(Error::InvalidArgument(
+                "noisy preprocessing is for key: in randomness generation the flip's own randomness would be counted as certified; give the key disclosure or leave out the preprocessing".into(),
+            ));
+        }
         Extracting::Randomness
     };
     let answers: Vec<f64> = s.parties().iter().map(|p| p.answers() as f64).collect();
@@ -359,6 +366,12 @@ pub fn finite_size<'a>(
         fraction: options.fraction,
         rounds_for_fraction,
         curve,
-        assumptions: finite_size_assumptions(extracting),
+        assumptions: {
+            let mut a = finite_size_assumptions(extracting);
+            if let Some(line) = preprocessing_assumption(options.hierarchy.preprocessing) {
+                a.insert(a.len() - 1, line);
+            }
+            a
+        },
     })
 }

@@ -6,7 +6,8 @@
 use serde::Serialize;
 
 use super::figures::{
-    entropy, DevetakWinter, EntropyCommandOptions, EntropyGiven, ErrorCorrection, TargetChoice,
+    entropy, preprocessing_assumption, DevetakWinter, EntropyCommandOptions, EntropyGiven,
+    ErrorCorrection, TargetChoice,
 };
 use super::finite_size::{
     finite_size, FiniteSizeOptions, FiniteSizeReport, KeyDisclosure, Tangent,
@@ -351,12 +352,12 @@ impl Review<'_> {
             self.key.as_ref().map(|k| k.preprocessing),
             self.entropy_key.as_ref().map(|k| k.preprocessing),
         ];
-        if let Some(Preprocessing::Noisy { probability }) = preprocessing
+        if let Some(line) = preprocessing
             .into_iter()
             .flatten()
-            .find(|p| *p != Preprocessing::None)
+            .find_map(preprocessing_assumption)
         {
-            a.push(format!("Noisy preprocessing: the key player changes each key answer with probability {probability} using private randomness that is never announced and that the adversary does not know (Ho et al. 2020, PRL 124, 230502); the error-correction term is that of the changed answers."));
+            a.push(line);
         }
         if self.entropy_key.is_some() {
             a.push("The key rate of this game is the Devetak–Winter rate with a verified lower bound on H(A|X=x*, E) from the Gauss–Radau entropy hierarchy at the lower confidence score, and Fano's bound on H(A|B) at the stated error rate: collective attacks, i.i.d. rounds, asymptotic, one-way error correction at the Shannon limit.".into());
