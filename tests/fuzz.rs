@@ -447,13 +447,13 @@ proptest! {
     #[test]
     fn hostile_protocol_files_exit_0_or_2(
         rounds in number(), wins in number(), qber in number(),
-        range in (number(), number()),
+        range in (number(), number()), flip in number(),
     ) {
         let dir = std::env::temp_dir().join(format!("bellgap-fuzz-{}", std::process::id()));
         std::fs::create_dir_all(&dir).unwrap();
         let game = concat!(env!("CARGO_MANIFEST_DIR"), "/games/chsh-expression.yaml");
         let text = format!(
-            "game: {game}\nrounds: {rounds}\nscore_sum: {wins}\nscore_range: [{}, {}]\nkey: {{qber: {qber}}}\n",
+            "game: {game}\nrounds: {rounds}\nscore_sum: {wins}\nscore_range: [{}, {}]\nkey: {{qber: {qber}, noisy_preprocessing: {flip}}}\n",
             range.0, range.1
         );
         let path = dir.join("protocol.yaml");
