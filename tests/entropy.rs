@@ -44,9 +44,10 @@ fn the_chsh_curve_is_met_within_1e_3_across_the_range() {
     // 230501; Pironio et al. 2009, NJP 11, 045021), so no valid lower bound may exceed it, and
     // the hierarchy reproduces it within 1e-3 over S ∈ [2.1, 2√2] (Brown, Fawzi & Fawzi 2024,
     // Quantum 8, 1445, the comparison of their CHSH figure). With the defaults (16 nodes, level
-    // 1 A B AB AA, the players' words times the adversary's letters), measured: 2.3e-4 short at
-    // S = 2.1, 7e-5 at 2.5, 4.0e-4 at 2.82. Within 4e-4 of the top the quadrature needs more
-    // nodes: at S = 2.828, 28 nodes fall 6.8e-4 short (16 nodes: 2.3e-3).
+    // 1 A B AB AA, the players' words times the adversary's letters, the norm bound on the Z_e
+    // as constraints), measured: 3.0e-5 short at S = 2.1, 2.4e-5 at 2.5, 3.0e-4 at 2.82, so below
+    // 2.8 the test asks for 1e-4. Within 4e-4 of the top the quadrature needs more nodes: at
+    // S = 2.828, 28 nodes fall 5.5e-4 short (16 nodes: 2.2e-3).
     let game = chsh();
     let defaults = EntropyOptions::default();
     let many_nodes = EntropyOptions {
@@ -59,7 +60,7 @@ fn the_chsh_curve_is_met_within_1e_3_across_the_range() {
         (2.82, &defaults),
         (2.828, &many_nodes),
     ] {
-        let within = 1e-3;
+        let within = if score < 2.8 { 1e-4 } else { 1e-3 };
         let got = at_score(&game.scenario, score, options);
         let want = ChshEntropyBound.entropy(score);
         assert!(

@@ -278,8 +278,8 @@ pub struct EntropyOptions {
 }
 
 /// Default node count: near the top of the CHSH range the rule's own error matters. With the
-/// default level, 12 nodes fall 1.1e-3 short of the analytic curve at S = 2.82, 16 nodes 4.0e-4;
-/// at S = 2.828 (within 4e-4 of 2√2) 16 nodes fall 2.3e-3 short and 28 nodes 6.8e-4 (measured).
+/// default level, 16 nodes fall 3.0e-4 short of the analytic curve at S = 2.82; at S = 2.828
+/// (within 4e-4 of 2√2) 16 nodes fall 2.2e-3 short and 28 nodes 5.5e-4 (measured).
 pub const DEFAULT_NODES: usize = 16;
 
 impl Default for EntropyOptions {
@@ -303,8 +303,8 @@ pub const DEFAULT_LEVEL_MAX_SIDE: usize = 120;
 /// products of one operator of each of two or more players) and, for each target player, the
 /// products of two of its own operators, when the moment matrix stays within
 /// [`DEFAULT_LEVEL_MAX_SIDE`] (otherwise 1+joint alone). Those products are what the CHSH
-/// comparison needs at low scores: at S = 2.1 (12 nodes) 1+joint alone falls 4.4e-3 short of the
-/// analytic curve, with them 2.3e-4, in about the same time (measured). On CGLMP with three
+/// comparison needs at low scores: at S = 2.1 (16 nodes) 1+joint alone falls 4.1e-3 short of the
+/// analytic curve, with them 3.0e-5, in about the same time (measured). On CGLMP with three
 /// answers they would make each relaxation several times larger and slower (it ran for more
 /// than ten minutes), hence the cap.
 pub fn default_level(s: &Scenario, target: &Target, adversary: AdversaryWords) -> Result<Level> {

@@ -102,8 +102,8 @@ pub enum AdversaryWords {
     /// hold the objective's terms M_e Z_e* Z_e for a key event of one or two players.
     WithProjectors,
     /// Every generating word of the players' level times each of Z_e and Z_e*. The default:
-    /// at level 1+joint and S = 2.5 it comes within 4.3e-5 of the CHSH curve, where
-    /// [`AdversaryWords::WithProjectors`] falls 0.018 short (measured, 8 nodes).
+    /// at S = 2.5 with the default level it comes within 2.4e-5 of the CHSH curve (16 nodes),
+    /// where [`AdversaryWords::WithProjectors`] falls 0.012 short (8 nodes; measured).
     #[default]
     WithPlayerWords,
     /// As [`AdversaryWords::WithPlayerWords`], and the products of two of the adversary's
@@ -354,6 +354,27 @@ pub fn node_problem(
                 terms: t,
             }],
             trace_bound: (most - value).max(0.0),
+        });
+    }
+    // ‖Z_e‖ ≤ α, so ⟨Z_e* Z_e⟩ ≤ α² and ⟨Z_e Z_e*⟩ ≤ α² (a restriction that leaves the infimum
+    // unchanged, see the hierarchy's notes). Said to the solver as 1×1 blocks: without them the
+    // parts of Z_e the objective does not weigh are free, the optimal face is unbounded, and
+    // the interior-point method stalls with a gap near 1e-4.
+    for w in &matrix.words {
+        if !w.players.is_empty() || w.eve.len() != 1 {
+            continue;
+        }
+        let Some(square) = w.adjoint().times(w) else {
+            continue;
+        };
+        let (terms, k) = real_terms(&[(square, 1.0)], "norm bound")?;
+        extra_blocks.push(MatrixBlock {
+            size: 1,
+            upper: vec![AffineEntry {
+                constant: alpha * alpha - k,
+                terms: terms.into_iter().map(|(v, c)| (v, -c)).collect(),
+            }],
+            trace_bound: alpha * alpha,
         });
     }
     let n = matrix.size();
