@@ -605,6 +605,34 @@ fn noisy_preprocessing_in_the_entropy_and_key_commands() {
         "0.6",
     ]);
     assert_eq!(out.status.code(), Some(2));
+    // The best flip: under depolarising noise, S = 2√2(1 − 2Q), a QBER of 7.5 % is above the
+    // threshold without preprocessing (7.15 %) and below the one with the best flip (8.08 %,
+    // our computation): no key without the flip, some with it; at 8.5 % none either way.
+    let at = |qber: f64, flip: Option<&str>| {
+        let s = format!("{}", 2.0 * 2f64.sqrt() * (1.0 - 2.0 * qber));
+        let q = format!("{qber}");
+        let mut args = vec!["key", "--chsh", &s, "--qber", &q, "--json"];
+        if let Some(f) = flip {
+            args.extend(["--noisy-preprocessing", f]);
+        }
+        json_of(&bellgap(&args))
+    };
+    let plain = at(0.075, None);
+    assert_eq!(plain["key_rate"].as_f64(), Some(0.0));
+    let best = &plain["best_noisy_preprocessing"];
+    let best_rate = best["key_rate"].as_f64().unwrap();
+    assert!(best_rate > 1e-3, "{best}");
+    let q = best["probability"].as_f64().unwrap();
+    assert!(q > 0.0 && q <= 0.5);
+    for flip in ["0.1", "0.3", "0.45"] {
+        assert!(at(0.075, Some(flip))["key_rate"].as_f64().unwrap() <= best_rate);
+    }
+    let there = at(0.075, Some(&format!("{q}")));
+    assert!((there["key_rate"].as_f64().unwrap() - best_rate).abs() < 1e-15);
+    assert_eq!(
+        at(0.085, None)["best_noisy_preprocessing"]["key_rate"].as_f64(),
+        Some(0.0)
+    );
     // The review's key section takes the same preprocessing (CHSH: the analytic bound).
     let dir = std::env::temp_dir().join(format!("bellgap-noisy-{}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();

@@ -11,7 +11,7 @@ mod finite_size;
 mod review;
 
 pub use figures::{
-    entropy, entropy_assumptions, key, local, margin, randomness, verify, DevetakWinter,
+    entropy, entropy_assumptions, key, local, margin, randomness, verify, BestFlip, DevetakWinter,
     EntropyCommandOptions, EntropyGiven, EntropyReport, EntropyResult, ErrorCorrection, KeyOptions,
     KeyReport, LocalReport, MarginOptions, MarginReport, RandomnessOptions, RandomnessReport,
     TargetChoice, VerifyReport,

@@ -21,8 +21,9 @@ use crate::optim::backend::Backend;
 use crate::optim::lp::LpMethod;
 use crate::optim::SolveStatus;
 use crate::pipeline::{
-    CommandKind, EntropyReport, EntropyResult, Extracting, FiniteSizeReport, GameReport, Gaps,
-    KeyReport, LocalReport, MarginReport, RandomnessReport, Review, TangentTried, VerifyReport,
+    BestFlip, CommandKind, EntropyReport, EntropyResult, Extracting, FiniteSizeReport, GameReport,
+    Gaps, KeyReport, LocalReport, MarginReport, RandomnessReport, Review, TangentTried,
+    VerifyReport,
 };
 use crate::protocol::accumulation::Accumulation;
 use crate::protocol::finite::Margin;
@@ -545,6 +546,7 @@ struct KeyView<'a> {
     conditional_entropy: f64,
     key_rate: f64,
     threshold_qber: f64,
+    best_noisy_preprocessing: BestFlip,
     bound: &'a str,
     caution: &'static str,
 }
@@ -565,6 +567,7 @@ impl Serialize for KeyReport {
             conditional_entropy: k.conditional_entropy,
             key_rate: k.key_rate,
             threshold_qber: self.threshold_qber,
+            best_noisy_preprocessing: self.best_flip,
             bound: k.bound,
             caution: CAUTION,
         }

@@ -745,6 +745,14 @@ pub fn key(report: &KeyReport) -> String {
             "threshold QBER (depolarising, same preprocessing)".into(),
             num(threshold),
         ),
+        (
+            "best noisy preprocessing".into(),
+            format!(
+                "flip probability {} → key rate {} per round",
+                num_sig(report.best_flip.probability, 4),
+                bits_text(report.best_flip.key_rate)
+            ),
+        ),
         ("bound".into(), k.bound.to_string()),
     ]);
     out += "\nassumptions: collective attacks, i.i.d. rounds, asymptotic limit, one-way error correction at the Shannon limit";
