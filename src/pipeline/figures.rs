@@ -218,8 +218,8 @@ pub struct KeyReport {
     pub threshold_qber: f64,
     /// The key player's preprocessing.
     pub preprocessing: Preprocessing,
-    /// The flip probability that maximises the key rate at this S and QBER (on a grid of step
-    /// 0.001 over [0, 1/2]), and that rate.
+    /// The flip probability that maximises the key rate at this S and QBER (searched over
+    /// [0, 1/2], see [`best_flip`]), and that rate.
     pub best_flip: BestFlip,
 }
 
