@@ -219,7 +219,7 @@ pub struct KeyReport {
     /// The key player's preprocessing.
     pub preprocessing: Preprocessing,
     /// The flip probability that maximises the key rate at this S and QBER (searched over
-    /// [0, 1/2], see [`best_flip`]), and that rate.
+    /// [0, 1/2]: a grid, then a golden-section search), and that rate.
     pub best_flip: BestFlip,
 }
 
