@@ -479,17 +479,15 @@ fn randomness_json_keys_and_the_chsh_curve() {
     assert!(std::fs::read_to_string(&svg).unwrap().starts_with("<svg"));
 }
 
-#[test]
-fn entropy_of_the_tsirelson_box_and_its_key_rate() {
-    // The optimal CHSH behaviour certifies one full bit of H(A|X=0,E) (Acín et al. 2007, PRL 98,
-    // 230501), and no bound may exceed it; Bob's answers to his first question differ from Alice's with probability
-    // Q = (1 − 1/√2)/2, so the Devetak–Winter rate is 1 − h(Q) ≈ 0.3991.
-    let path = tsirelson_box("tsirelson-key.yaml");
-    let out = bellgap(&[
+/// `entropy` of the Tsirelson box with Bob as the key partner (light relaxation, four nodes).
+fn tsirelson_key_entropy(file: &str, extra: &[&str]) -> std::process::Output {
+    let path = tsirelson_box(file);
+    let path = path.to_string_lossy();
+    let mut args = vec![
         "entropy",
         "games/chsh-expression.yaml",
         "--behaviour",
-        &path.to_string_lossy(),
+        &path,
         "--key-with",
         "bob",
         "--adversary-words",
@@ -497,7 +495,17 @@ fn entropy_of_the_tsirelson_box_and_its_key_rate() {
         "--nodes",
         "4",
         "--json",
-    ]);
+    ];
+    args.extend_from_slice(extra);
+    bellgap(&args)
+}
+
+#[test]
+fn entropy_of_the_tsirelson_box_and_its_key_rate() {
+    // The optimal CHSH behaviour certifies one full bit of H(A|X=0,E) (Acín et al. 2007, PRL 98,
+    // 230501), and no bound may exceed it; Bob's answers to his first question differ from Alice's with probability
+    // Q = (1 − 1/√2)/2, so the Devetak–Winter rate is 1 − h(Q) ≈ 0.3991.
+    let out = tsirelson_key_entropy("tsirelson-key.yaml", &[]);
     assert!(
         out.status.success(),
         "{}",
@@ -534,22 +542,7 @@ fn noisy_preprocessing_in_the_entropy_and_key_commands() {
     // The Tsirelson box with Alice's key bit flipped with probability 0.1: the error-correction
     // term is h of the flipped bit's error rate Q' = Q(1 − q) + (1 − Q)q, from the behaviour's
     // table; the entropy stays at most 1 bit.
-    let path = tsirelson_box("tsirelson-noisy.yaml");
-    let out = bellgap(&[
-        "entropy",
-        "games/chsh-expression.yaml",
-        "--behaviour",
-        &path.to_string_lossy(),
-        "--key-with",
-        "bob",
-        "--adversary-words",
-        "with-projectors",
-        "--nodes",
-        "4",
-        "--noisy-preprocessing",
-        "0.1",
-        "--json",
-    ]);
+    let out = tsirelson_key_entropy("tsirelson-noisy.yaml", &["--noisy-preprocessing", "0.1"]);
     assert!(
         out.status.success(),
         "{}",
