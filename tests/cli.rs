@@ -575,29 +575,23 @@ fn noisy_preprocessing_in_the_entropy_and_key_commands() {
     }
     // The analytic key figures: S = 2.5, Q = 0.03, q = 0.1 gives H(Â|E) = 0.703571 and the key
     // error rate 0.124 (our computation from the bound of Ho et al. 2020).
-    let j = json_of(&bellgap(&[
-        "key",
-        "--chsh",
-        "2.5",
-        "--qber",
-        "0.03",
-        "--noisy-preprocessing",
-        "0.1",
-        "--json",
-    ]));
+    let key_with_flip = |flip: &str| {
+        bellgap(&[
+            "key",
+            "--chsh",
+            "2.5",
+            "--qber",
+            "0.03",
+            "--noisy-preprocessing",
+            flip,
+            "--json",
+        ])
+    };
+    let j = json_of(&key_with_flip("0.1"));
     assert!((j["conditional_entropy"].as_f64().unwrap() - 0.703_571_4).abs() < 1e-6);
     assert!((j["key_qber"].as_f64().unwrap() - 0.124).abs() < 1e-12);
     assert_eq!(j["noisy_preprocessing"].as_f64(), Some(0.1));
-    let out = bellgap(&[
-        "key",
-        "--chsh",
-        "2.5",
-        "--qber",
-        "0.03",
-        "--noisy-preprocessing",
-        "0.6",
-    ]);
-    assert_eq!(out.status.code(), Some(2));
+    assert_eq!(key_with_flip("0.6").status.code(), Some(2));
     // The best flip: under depolarising noise, S = 2√2(1 − 2Q), a QBER of 7.5 % is above the
     // threshold without preprocessing (7.15 %) and below the one with the best flip (8.08 %,
     // our computation): no key without the flip, some with it; at 8.5 % none either way.
