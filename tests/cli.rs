@@ -538,6 +538,66 @@ fn entropy_of_the_tsirelson_box_and_its_key_rate() {
 }
 
 #[test]
+fn entropy_of_a_strategy_file() {
+    // The see-saw's CHSH strategy, saved and given back: its behaviour (Born rule) is the
+    // Tsirelson box's, so the bound and the key pair's term equal the box's (Acín et al. 2007:
+    // a full secret bit; Q = (1 − 1/√2)/2).
+    let dir = std::env::temp_dir().join(format!("bellgap-strategy-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let saved = dir.join("chsh-strategy.yaml");
+    let out = bellgap(&[
+        "seesaw",
+        "games/chsh-expression.yaml",
+        "--restarts",
+        "4",
+        "--seed",
+        "7",
+        "--save",
+        &saved.to_string_lossy(),
+        "--quiet",
+    ]);
+    assert!(out.status.success());
+    let light = ["--adversary-words", "with-projectors", "--nodes", "4"];
+    let mut args = vec![
+        "entropy",
+        "games/chsh-expression.yaml",
+        "--key-with",
+        "bob",
+        "--json",
+    ];
+    args.extend_from_slice(&light);
+    let saved_name = saved.to_string_lossy().to_string();
+    let mut with_strategy = args.clone();
+    with_strategy.extend(["--strategy", &saved_name]);
+    let j = json_of(&bellgap(&with_strategy));
+    let box_json = json_of(&tsirelson_key_entropy("tsirelson-strategy.yaml", &[]));
+    let (a, b) = (&j["results"][0], &box_json["results"][0]);
+    let h = a["entropy"]["bits"].as_f64().unwrap();
+    assert!(
+        (h - b["entropy"]["bits"].as_f64().unwrap()).abs() < 1e-6,
+        "{h}"
+    );
+    assert!(
+        (a["key"]["error_correction"].as_f64().unwrap()
+            - b["key"]["error_correction"].as_f64().unwrap())
+        .abs()
+            < 1e-9
+    );
+    assert!(j["given"].as_str().unwrap().contains("strategy"));
+    // A strategy with a score, or with a behaviour, is a usage error; a strategy file that
+    // does not fit the game is an input error; both exit 2.
+    for extra in [
+        vec!["--strategy", &saved_name, "--score", "2.5"],
+        vec!["--strategy", &saved_name, "--behaviour", &saved_name],
+        vec!["--strategy", "games/chsh.yaml"],
+    ] {
+        let mut a = vec!["entropy", "games/chsh-expression.yaml"];
+        a.extend(extra.iter().copied());
+        assert_eq!(bellgap(&a).status.code(), Some(2), "{extra:?}");
+    }
+}
+
+#[test]
 fn noisy_preprocessing_in_the_entropy_and_key_commands() {
     // The Tsirelson box with Alice's key bit flipped with probability 0.1: the error-correction
     // term is h of the flipped bit's error rate Q' = Q(1 − q) + (1 − Q)q, from the behaviour's

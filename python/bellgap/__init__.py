@@ -574,16 +574,30 @@ def randomness(game: GameLike, score=None, scores=None, player=None, question=No
 def entropy(game: GameLike, score=None, scores=None, player=None, question=None,
             with_player=None, with_question=None, nodes=None, level=None,
             adversary_words=None, moments=None, solver=None, error_rate=None,
-            noisy_preprocessing=None) -> Result:
-    """A verified lower bound on H(A|X=x, E) by the Gauss–Radau hierarchy, with the
-    Devetak–Winter key rate when ``error_rate`` is given; ``noisy_preprocessing`` is the
-    probability with which the key player changes its answer first."""
-    return _figure_command(
-        "entropy", game, score=score, scores=scores, player=player, question=question,
+            noisy_preprocessing=None, behaviour=None, strategy: Optional[Strategy] = None,
+            key_with=None, key_question=None) -> Result:
+    """A verified lower bound on H(A|X=x, E) by the Gauss–Radau hierarchy (``bellgap entropy``).
+
+    Given ``score`` (or ``scores``), the bound holds for every quantum behaviour scoring at least
+    that; given ``behaviour`` (a correlations file's path, its YAML text, or a dict in the same
+    schema) or ``strategy`` (a :class:`Strategy`, e.g. ``seesaw(game).strategy``), for that
+    behaviour. The Devetak–Winter key rate comes with ``error_rate`` (Fano's bound) or with
+    ``key_with`` (the other player of the key pair, and ``key_question``, from the behaviour).
+    ``noisy_preprocessing`` is the probability with which the key player changes its answer
+    first."""
+    kwargs = dict(
+        score=score, scores=scores, player=player, question=question,
         with_player=with_player, with_question=with_question, nodes=nodes, level=level,
         adversary_words=adversary_words, moments=moments, solver=solver, error_rate=error_rate,
-        noisy_preprocessing=noisy_preprocessing,
+        noisy_preprocessing=noisy_preprocessing, key_with=key_with, key_question=key_question,
     )
+    if behaviour is not None:
+        kwargs["behaviour_text"], kwargs["behaviour_name"] = _text_and_name(behaviour)
+    g = load(game)
+    args = ["entropy", g._inner, json.dumps(kwargs)]
+    if strategy is not None:
+        args.append(strategy._to_json())
+    return _result(_call(_bellgap.run_figure, *args)["result"])
 
 
 def finite_size(game: GameLike, rounds: int, testing: float, threshold: float, **kwargs) -> Result:
@@ -604,16 +618,20 @@ def key(chsh: float, qber: float, noisy_preprocessing: Optional[float] = None) -
 def locality(correlations: Union[str, os.PathLike, dict], force: bool = False) -> Result:
     """Whether correlations have a local model (``bellgap local``): a correlations file's path,
     its YAML text, or a dict in the same schema."""
-    if isinstance(correlations, dict):
-        text, name = json.dumps(correlations), "<dict>"
-    elif isinstance(correlations, os.PathLike) or (
-        isinstance(correlations, str) and os.path.exists(correlations)
-    ):
-        name = os.fspath(correlations)
-        text = _read_input(name)
-    else:
-        text, name = correlations, "<string>"
+    text, name = _text_and_name(correlations)
     return _result(_call(_bellgap.locality, text, name, force)["result"])
+
+
+def _text_and_name(document: Union[str, os.PathLike, dict]):
+    """A file's path, YAML text, or a dict in the same schema, as (text, name)."""
+    if isinstance(document, dict):
+        return json.dumps(document), "<dict>"
+    if isinstance(document, os.PathLike) or (isinstance(document, str) and os.path.exists(document)):
+        name = os.fspath(document)
+        return _read_input(name), name
+    if isinstance(document, str):
+        return document, "<string>"
+    raise UsageError("usage", f"expected a path, YAML text or a dict, got {type(document).__name__}")
 
 
 def review(protocol: Union[str, os.PathLike]) -> Result:

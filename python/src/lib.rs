@@ -569,6 +569,15 @@ struct FigureArgs {
     error_rate: Option<f64>,
     #[serde(default)]
     noisy_preprocessing: Option<f64>,
+    #[serde(default)]
+    key_with: Option<String>,
+    #[serde(default)]
+    key_question: Option<i64>,
+    /// A correlations file's text and its name (entropy given a behaviour).
+    #[serde(default)]
+    behaviour_text: Option<String>,
+    #[serde(default)]
+    behaviour_name: Option<String>,
     // finite size
     #[serde(default)]
     testing: Option<f64>,
@@ -649,10 +658,22 @@ fn scores_of(a: &FigureArgs) -> PyResult<Vec<f64>> {
     }
 }
 
-/// Runs one figure command on a game: `margin`, `randomness`, `entropy`, `finite_size`.
+/// Runs one figure command on a game: `margin`, `randomness`, `entropy`, `finite_size`
+/// (`entropy` may be given a strategy, as JSON like `run_game`'s).
 #[pyfunction]
-fn run_figure(py: Python<'_>, command: String, game: &PyGame, args: &str) -> PyResult<String> {
+#[pyo3(signature = (command, game, args, strategy=None))]
+fn run_figure(
+    py: Python<'_>,
+    command: String,
+    game: &PyGame,
+    args: &str,
+    strategy: Option<String>,
+) -> PyResult<String> {
     let a: FigureArgs = options(args)?;
+    let strategy: Option<StrategyInput> = strategy.map(|s| options(&s)).transpose()?;
+    if strategy.is_some() && command != "entropy" {
+        return Err(usage(format!("{command} takes no strategy")));
+    }
     let game = game.game.clone();
     let target = TargetChoice {
         player: a.player.clone(),
@@ -702,11 +723,37 @@ fn run_figure(py: Python<'_>, command: String, game: &PyGame, args: &str) -> PyR
             })
         }
         "entropy" => {
+            let given = match (&a.behaviour_text, strategy) {
+                (Some(_), Some(_)) => {
+                    return Err(usage("give a behaviour or a strategy, not both".into()))
+                }
+                (Some(text), None) => {
+                    let name = a.behaviour_name.as_deref().unwrap_or("<string>");
+                    EntropyGiven::Behaviour(
+                        bellgap::Correlations::from_yaml(text, name).map_err(to_py)?,
+                    )
+                }
+                (None, Some(input)) => EntropyGiven::Strategy {
+                    strategy: strategy_from(input, &game).map_err(to_py)?,
+                    name: "<strategy>".into(),
+                },
+                (None, None) => EntropyGiven::Scores(scores_of(&a)?),
+            };
+            let key = match (&a.key_with, a.error_rate) {
+                (Some(_), Some(_)) => {
+                    return Err(usage("give key_with or error_rate, not both".into()))
+                }
+                (Some(p), None) => Some(ErrorCorrection::KeyPair(TargetChoice {
+                    player: Some(p.clone()),
+                    question: a.key_question,
+                })),
+                (None, rate) => rate.map(ErrorCorrection::ErrorRate),
+            };
             let o = EntropyCommandOptions {
                 target,
                 with,
-                given: EntropyGiven::Scores(scores_of(&a)?),
-                key: a.error_rate.map(ErrorCorrection::ErrorRate),
+                given,
+                key,
                 hierarchy,
             };
             interruptible(py, move || {

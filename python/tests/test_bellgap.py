@@ -305,6 +305,55 @@ def test_locality_equals_the_command_line():
     assert_same(without_timing(a), without_timing(b))
 
 
+def test_entropy_of_a_behaviour_or_a_strategy_with_its_key_pair(tmp_path):
+    # The see-saw's CHSH strategy reaches Tsirelson's bound, where Alice's key answer is a full
+    # secret bit (Acín et al. 2007) and Bob's first answer differs from it with probability
+    # Q = (1 − 1/√2)/2; its behaviour, given as the strategy, as YAML text or as a dict, gives
+    # the same bound, the command line's with --strategy included.
+    expr = os.path.join(ROOT, "games", "chsh-expression.yaml")
+    light = dict(nodes=4, adversary_words="with-projectors", key_with="bob")
+    found = bellgap.seesaw(expr, restarts=4, seed=7)
+    by_strategy = bellgap.entropy(expr, strategy=found.strategy, **light)
+    r = by_strategy.results[0]
+    assert 0.95 <= r["entropy"]["bits"] <= 1.0
+    q = (1 - 1 / np.sqrt(2)) / 2
+    hq = -q * np.log2(q) - (1 - q) * np.log2(1 - q)
+    assert abs(r["key"]["error_correction"] - hq) < 1e-6
+    assert "strategy" in by_strategy["given"]
+    hi, lo = (1 + 1 / np.sqrt(2)) / 4, (1 - 1 / np.sqrt(2)) / 4
+    rows = [[hi, lo, lo, hi]] * 3 + [[lo, hi, hi, lo]]
+    box = {
+        "players": [
+            {"name": "alice", "questions": 2, "answers": 2},
+            {"name": "bob", "questions": 2, "answers": 2},
+        ],
+        "behaviour": [
+            {"questions": [k // 2, k % 2], "probabilities": row} for k, row in enumerate(rows)
+        ],
+    }
+    by_dict = bellgap.entropy(expr, behaviour=box, **light).results[0]
+    by_text = bellgap.entropy(expr, behaviour=json.dumps(box), **light).results[0]
+    assert by_dict["entropy"]["bits"] == by_text["entropy"]["bits"]
+    assert abs(by_dict["entropy"]["bits"] - r["entropy"]["bits"]) < 1e-5
+    assert abs(by_dict["key"]["error_correction"] - hq) < 1e-12
+    # The strategy written to a file, through the command line.
+    path = str(tmp_path / "strategy.yaml")
+    subprocess.run(
+        [binary(), "seesaw", os.path.join("games", "chsh-expression.yaml"), "--restarts", "4",
+         "--seed", "7", "--save", path, "--quiet"],
+        cwd=ROOT, check=True, capture_output=True,
+    )
+    b = cli_json(
+        "entropy", os.path.join("games", "chsh-expression.yaml"), "--strategy", path,
+        "--key-with", "bob", "--nodes", "4", "--adversary-words", "with-projectors",
+    )
+    assert abs(b["results"][0]["entropy"]["bits"] - r["entropy"]["bits"]) < 1e-6
+    with pytest.raises(bellgap.UsageError):
+        bellgap.entropy(expr, behaviour=box, strategy=found.strategy)
+    with pytest.raises(bellgap.UsageError):
+        bellgap.entropy(expr, score=2.5, key_with="bob")
+
+
 def test_ctrl_c_interrupts_a_long_computation():
     # A see-saw of 10⁵ restarts on CGLMP-4 runs for hours; SIGINT must come back as
     # KeyboardInterrupt while it runs (the child prints what it caught).

@@ -209,20 +209,24 @@ pub enum Command {
         args: GameArgs,
         /// The score (in the game's own units): the bound holds for every quantum behaviour
         /// scoring at least this.
-        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite, conflicts_with_all = ["sweep", "behaviour"], long_help = SCORE_HELP)]
+        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite, conflicts_with_all = ["sweep", "behaviour", "strategy"], long_help = SCORE_HELP)]
         score: Option<f64>,
         /// Sweep the score: LOW:HIGH:POINTS.
-        #[arg(long, conflicts_with = "behaviour")]
+        #[arg(long, conflicts_with_all = ["behaviour", "strategy"])]
         sweep: Option<String>,
         /// Condition on the devices' full behaviour instead: a correlations file with the
         /// game's players (it must be no-signalling).
-        #[arg(long, value_name = "FILE")]
+        #[arg(long, value_name = "FILE", conflicts_with = "strategy")]
         behaviour: Option<PathBuf>,
+        /// Condition on the behaviour of a strategy file instead (as written by `bellgap
+        /// seesaw --save`), computed by the Born rule.
+        #[arg(long, value_name = "FILE")]
+        strategy: Option<PathBuf>,
         #[command(flatten)]
         answers: AnswerArgs,
         #[command(flatten)]
         hierarchy: HierarchyArgs,
-        /// Key rate: the player whose answers the key is reconciled with (needs --behaviour).
+        /// Key rate: the player whose answers the key is reconciled with (needs --behaviour or --strategy).
         #[arg(long, conflicts_with = "error_rate")]
         key_with: Option<String>,
         /// Key rate: that player's question (label; default: the first).

@@ -239,6 +239,7 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
         Request::Entropy {
             game,
             behaviour,
+            strategy,
             options,
         } => {
             let game = load(game)?;
@@ -246,6 +247,13 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             if let Some(file) = behaviour {
                 let c = Correlations::from_file(&file.to_string_lossy())?;
                 options.given = EntropyGiven::Behaviour(c);
+            }
+            if let Some(file) = strategy {
+                let name = file.to_string_lossy();
+                options.given = EntropyGiven::Strategy {
+                    strategy: QuantumStrategy::from_file(&name, &game.scenario)?,
+                    name: name.to_string(),
+                };
             }
             let r = pipeline::entropy(&game, &options)?;
             Ok(output(text::entropy(&r), &r, &game.warnings))

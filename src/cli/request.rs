@@ -137,6 +137,7 @@ pub enum Request {
     Entropy {
         game: GameInput,
         behaviour: Option<PathBuf>,
+        strategy: Option<PathBuf>,
         options: EntropyCommandOptions,
     },
     /// `finite-size`.
@@ -493,6 +494,7 @@ impl Invocation {
                 score,
                 sweep: spec,
                 behaviour,
+                strategy,
                 answers,
                 hierarchy,
                 key_with,
@@ -501,16 +503,19 @@ impl Invocation {
             } => Request::Entropy {
                 game: game_input(args),
                 behaviour: behaviour.clone(),
+                strategy: strategy.clone(),
                 options: EntropyCommandOptions {
                     target: first_answer(answers),
                     with: second_answer(answers),
-                    // A behaviour replaces the scores once the runner has read it.
-                    given: EntropyGiven::Scores(match (score, spec, behaviour) {
-                        (_, _, Some(_)) => Vec::new(),
-                        (_, Some(spec), None) => sweep(spec)?,
-                        (Some(v), None, None) => vec![*v],
-                        (None, None, None) => {
-                            return Err(Error::Usage("give --score, --sweep or --behaviour".into()))
+                    // A behaviour or a strategy replaces the scores once the runner has read it.
+                    given: EntropyGiven::Scores(match (score, spec) {
+                        _ if behaviour.is_some() || strategy.is_some() => Vec::new(),
+                        (_, Some(spec)) => sweep(spec)?,
+                        (Some(v), None) => vec![*v],
+                        (None, None) => {
+                            return Err(Error::Usage(
+                                "give --score, --sweep, --behaviour or --strategy".into(),
+                            ))
                         }
                     }),
                     key: match (key_with, error_rate) {

@@ -14,6 +14,7 @@ use crate::formats::game::Game;
 use crate::limits::Limits;
 use crate::model::correlations::Correlations;
 use crate::model::scenario::Scenario;
+use crate::model::strategy::QuantumStrategy;
 use crate::protocol::finite::{self, Margin, ObservedRun};
 use crate::protocol::key::{
     binary_entropy, error_correction_entropy, key_rate, threshold_qber, ChshEntropyBound,
@@ -359,6 +360,13 @@ pub enum EntropyGiven {
     Scores(Vec<f64>),
     /// The devices' full behaviour (a correlations file with the game's players).
     Behaviour(Correlations),
+    /// The behaviour of an explicit quantum strategy (by the Born rule), e.g. the see-saw's.
+    Strategy {
+        /// The strategy (checked against the game before use).
+        strategy: QuantumStrategy,
+        /// Where it came from, for reports.
+        name: String,
+    },
 }
 
 /// The error-correction term of the key rate: from the behaviour's key pair, or an error rate.
@@ -488,6 +496,15 @@ pub fn entropy<'a>(game: &'a Game, options: &EntropyCommandOptions) -> Result<En
                 format!("the behaviour `{}`", c.name),
             )
         }
+        EntropyGiven::Strategy { strategy, name } => {
+            strategy
+                .check(s)
+                .map_err(|e| Error::InvalidArgument(format!("the strategy `{name}`: {e}")))?;
+            (
+                vec![(None, EntropyConstraint::Behaviour(strategy.behaviour(s)))],
+                format!("the behaviour of the strategy `{name}` (Born rule)"),
+            )
+        }
     };
     let error_correction = match &options.key {
         None => None,
@@ -514,10 +531,16 @@ pub fn entropy<'a>(game: &'a Game, options: &EntropyCommandOptions) -> Result<En
             ))
         }
         Some(ErrorCorrection::KeyPair(choice)) => {
-            let EntropyGiven::Behaviour(c) = &options.given else {
-                return Err(Error::InvalidArgument(
-                    "the key pair's error-correction term needs the behaviour; with a score, give the error rate instead".into(),
-                ));
+            let behaviour = match (&options.given, constraints.first()) {
+                (
+                    EntropyGiven::Behaviour(_) | EntropyGiven::Strategy { .. },
+                    Some((_, EntropyConstraint::Behaviour(p))),
+                ) => p,
+                _ => {
+                    return Err(Error::InvalidArgument(
+                        "the key pair's error-correction term needs the behaviour (or a strategy); with a score, give the error rate instead".into(),
+                    ))
+                }
             };
             let (pa, xa) = target.parts[0];
             let (pb, yb) = choice.resolve(s, 1)?;
@@ -529,7 +552,7 @@ pub fn entropy<'a>(game: &'a Game, options: &EntropyCommandOptions) -> Result<En
             let table = options
                 .hierarchy
                 .preprocessing
-                .apply_to_rows(&key_pair_table(s, &c.p, (pa, xa), (pb, yb)));
+                .apply_to_rows(&key_pair_table(s, behaviour, (pa, xa), (pb, yb)));
             let h = error_correction_entropy(&table)?;
             Some((
                 h,
