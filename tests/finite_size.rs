@@ -4,7 +4,7 @@
 
 use bellgap::bounds::entropy::{AdversaryWords, EntropyOptions, Preprocessing};
 use bellgap::formats::game::{CompileOptions, Game};
-use bellgap::pipeline::{finite_size, FiniteSizeOptions, KeyDisclosure, Tangent};
+use bellgap::pipeline::{finite_size, FiniteSizeOptions, KeyDisclosure, Silent, Tangent};
 use bellgap::protocol::key::{ChshEntropyBound, EntropyBound};
 
 mod common;
@@ -33,7 +33,7 @@ fn quick(threshold: f64, rounds: u64) -> FiniteSizeOptions {
 #[test]
 fn the_rate_grows_with_n_towards_the_bound_at_the_threshold() {
     let game = chsh_game();
-    let r = finite_size(&game, &quick(0.84, 1_000_000_000)).unwrap();
+    let r = finite_size(&game, &quick(0.84, 1_000_000_000), &Silent).unwrap();
     // The limit is (1 − γ) times the hierarchy's bound at the threshold (the tangent is there),
     // which is at most the analytic CHSH curve at S = 8·0.84 − 4 = 2.72 (Acín et al. 2007,
     // PRL 98, 230501): 1 − h(1/2 + 1/2·√((2.72/2)² − 1)) = 0.7636 (computed here).
@@ -65,19 +65,19 @@ fn the_rate_grows_with_n_towards_the_bound_at_the_threshold() {
         .curve
         .iter()
         .all(|&(n, rate)| (n >= n90) == (rate >= goal)));
-    let at_n90 = finite_size(&game, &quick(0.84, n90)).unwrap();
+    let at_n90 = finite_size(&game, &quick(0.84, n90), &Silent).unwrap();
     assert!(at_n90.run.rate_per_round >= goal);
-    let before = finite_size(&game, &quick(0.84, n90 - 1)).unwrap();
+    let before = finite_size(&game, &quick(0.84, n90 - 1), &Silent).unwrap();
     assert!(before.run.rate_per_round < goal);
 }
 
 #[test]
 fn a_higher_threshold_certifies_more_and_the_classical_value_nothing() {
     let game = chsh_game();
-    let low = finite_size(&game, &quick(0.80, 10_000_000_000)).unwrap();
-    let high = finite_size(&game, &quick(0.84, 10_000_000_000)).unwrap();
+    let low = finite_size(&game, &quick(0.80, 10_000_000_000), &Silent).unwrap();
+    let high = finite_size(&game, &quick(0.84, 10_000_000_000), &Silent).unwrap();
     assert!(high.run.output_bits > low.run.output_bits);
-    let classical = finite_size(&game, &quick(0.75, 10_000_000_000)).unwrap();
+    let classical = finite_size(&game, &quick(0.75, 10_000_000_000), &Silent).unwrap();
     assert_eq!(classical.run.output_bits, 0.0);
     assert_eq!(classical.rounds_for_fraction, None);
 }
@@ -87,7 +87,7 @@ fn the_tangent_search_keeps_the_best_line() {
     let game = chsh_game();
     let mut options = quick(0.84, 10_000_000);
     options.tangent = Tangent::Search(3);
-    let r = finite_size(&game, &options).unwrap();
+    let r = finite_size(&game, &options, &Silent).unwrap();
     assert_eq!(r.tangents.len(), 3);
     assert_eq!(r.tangents[0].score, 0.84);
     let best = r
@@ -100,7 +100,7 @@ fn the_tangent_search_keeps_the_best_line() {
     let at = |score: f64| {
         let mut o = quick(0.84, 10_000_000);
         o.tangent = Tangent::At(score);
-        finite_size(&game, &o).unwrap()
+        finite_size(&game, &o, &Silent).unwrap()
     };
     let lower = at(r.tangents[2].score);
     assert!(lower.run.asymptotic_rate <= 0.99 * r.tangents[0].entropy + 1e-9);
@@ -109,13 +109,13 @@ fn the_tangent_search_keeps_the_best_line() {
 #[test]
 fn key_subtracts_the_test_answers_and_the_disclosure() {
     let game = chsh_game();
-    let randomness = finite_size(&game, &quick(0.84, 1_000_000_000)).unwrap();
+    let randomness = finite_size(&game, &quick(0.84, 1_000_000_000), &Silent).unwrap();
     let mut options = quick(0.84, 1_000_000_000);
     options.key = Some(KeyDisclosure {
         error_correction_bits: 1e8,
         max_test_rounds: None,
     });
-    let key = finite_size(&game, &options).unwrap();
+    let key = finite_size(&game, &options, &Silent).unwrap();
     // d_O = |A|·(|B| + 1) = 6 for key against 4 for randomness: a slightly larger V.
     assert_eq!(key.run.protocol.output_dimension, 6.0);
     let cap = key.max_test_rounds.unwrap();
@@ -136,7 +136,7 @@ fn key_subtracts_the_test_answers_and_the_disclosure() {
     // With noisy preprocessing the raw key holds more entropy (the disclosure, given, is the
     // same here; in practice error correction then discloses more).
     options.hierarchy.preprocessing = Preprocessing::Noisy { probability: 0.1 };
-    let noisy = finite_size(&game, &options).unwrap();
+    let noisy = finite_size(&game, &options, &Silent).unwrap();
     assert!(
         noisy.entropy.bits > key.entropy.bits + 0.05,
         "{} {}",
@@ -152,7 +152,7 @@ fn bad_requests_are_refused() {
     let refused = |f: &dyn Fn(&mut FiniteSizeOptions)| {
         let mut o = quick(0.84, 1_000_000);
         f(&mut o);
-        assert!(finite_size(&game, &o).is_err());
+        assert!(finite_size(&game, &o, &Silent).is_err());
     };
     refused(&|o| o.testing = 0.0);
     refused(&|o| o.testing = 1.5);
@@ -281,7 +281,7 @@ fn the_review_adds_the_finite_size_section_and_a_general_game_key_rate() {
     let mut options = quick(0.84, 1_000_000_000);
     options.hierarchy.adversary = AdversaryWords::WithPlayerWords;
     let game = chsh_game();
-    let direct = finite_size(&game, &options).unwrap();
+    let direct = finite_size(&game, &options, &Silent).unwrap();
     assert_eq!(
         f["figures"]["run"]["output_bits"].as_f64().unwrap(),
         direct.run.output_bits

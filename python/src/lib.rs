@@ -757,7 +757,10 @@ fn run_figure(
                 hierarchy,
             };
             interruptible(py, move || {
-                Ok(reply(to_value(&pipeline::entropy(&game, &o)?), None))
+                Ok(reply(
+                    to_value(&pipeline::entropy(&game, &o, &Silent)?),
+                    None,
+                ))
             })
         }
         "finite_size" => {
@@ -795,7 +798,10 @@ fn run_figure(
                 hierarchy,
             };
             interruptible(py, move || {
-                Ok(reply(to_value(&pipeline::finite_size(&game, &o)?), None))
+                Ok(reply(
+                    to_value(&pipeline::finite_size(&game, &o, &Silent)?),
+                    None,
+                ))
             })
         }
         other => Err(usage(format!("no figure command `{other}`"))),

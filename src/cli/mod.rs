@@ -80,6 +80,7 @@ impl Observer for Stderr {
         match stage {
             Stage::ClassicalSearch => eprint!("\rclassical search: {done}/{total} subtrees"),
             Stage::SeesawRestarts => eprint!("\rsee-saw: {done}/{total} restarts"),
+            Stage::EntropyNodes => eprint!("\rentropy hierarchy: {done}/{total} relaxations"),
         }
         if done == total {
             eprint!("\r{:40}\r", "");
@@ -255,12 +256,12 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
                     name: name.to_string(),
                 };
             }
-            let r = pipeline::entropy(&game, &options)?;
+            let r = pipeline::entropy(&game, &options, &observer)?;
             Ok(output(text::entropy(&r), &r, &game.warnings))
         }
         Request::FiniteSize { game, options, svg } => {
             let game = load(game)?;
-            let r = pipeline::finite_size(&game, options)?;
+            let r = pipeline::finite_size(&game, options, &observer)?;
             if let Some(file) = svg {
                 write(file, &charts::finite_size_rate(&r), inputs)?;
             }

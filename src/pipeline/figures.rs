@@ -1,11 +1,12 @@
 //! The commands that read an observation, a certificate or correlations: `margin`,
 //! `randomness`, `entropy`, `key`, `verify` and `local`.
 
-use super::{classical_observed, Observer};
+use super::{classical_observed, Observer, Stage};
 use crate::bounds::classical::locality::{locality_test, LocalityReport};
 use crate::bounds::classical::{classical_value, ClassicalOptions};
 use crate::bounds::entropy::{
-    conditional_entropy, ConditionalEntropy, EntropyConstraint, EntropyOptions, Preprocessing,
+    conditional_entropy_reporting, ConditionalEntropy, EntropyConstraint, EntropyOptions,
+    Preprocessing,
 };
 use crate::bounds::quantum::npa::{self, Level, Verification};
 use crate::error::{Error, Result};
@@ -466,7 +467,11 @@ pub(crate) fn preprocessing_assumption(preprocessing: Preprocessing) -> Option<S
 
 /// The `entropy` command: a verified lower bound on H(A|X=x*, E) at each score, or for the
 /// behaviour, and optionally the Devetak–Winter key rate.
-pub fn entropy<'a>(game: &'a Game, options: &EntropyCommandOptions) -> Result<EntropyReport<'a>> {
+pub fn entropy<'a>(
+    game: &'a Game,
+    options: &EntropyCommandOptions,
+    observer: &dyn Observer,
+) -> Result<EntropyReport<'a>> {
     let s = &game.scenario;
     let target = TargetChoice::target(s, &options.target, options.with.as_ref())?;
     target.check(s)?;
@@ -574,8 +579,14 @@ pub fn entropy<'a>(game: &'a Game, options: &EntropyCommandOptions) -> Result<En
     let mut results = Vec::new();
     let mut not_obtained = Vec::new();
     let sweep = constraints.len() > 1;
-    for (score, constraint) in constraints {
-        match conditional_entropy(s, &target, &constraint, &options.hierarchy) {
+    let count = constraints.len();
+    for (k, (score, constraint)) in constraints.into_iter().enumerate() {
+        let solved = |done: usize, total: usize| {
+            if observer.wants_progress() {
+                observer.progress(Stage::EntropyNodes, k * total + done, count * total);
+            }
+        };
+        match conditional_entropy_reporting(s, &target, &constraint, &options.hierarchy, &solved) {
             Ok(entropy) => {
                 let key = error_correction.as_ref().map(|(h, from)| DevetakWinter {
                     conditional_entropy: entropy.bits,

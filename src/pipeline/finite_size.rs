@@ -5,9 +5,11 @@
 use serde::Serialize;
 
 use super::figures::{preprocessing_assumption, target_name, TargetChoice};
+use super::{Observer, Stage};
 use crate::bounds::classical::{classical_value, ClassicalOptions};
 use crate::bounds::entropy::{
-    conditional_entropy, ConditionalEntropy, EntropyConstraint, EntropyOptions, Preprocessing,
+    conditional_entropy_reporting, ConditionalEntropy, EntropyConstraint, EntropyOptions,
+    Preprocessing,
 };
 use crate::error::{Error, Result};
 use crate::formats::game::Game;
@@ -212,6 +214,7 @@ fn tangent_scores(game: &Game, options: &FiniteSizeOptions) -> Result<Vec<f64>> 
 pub fn finite_size<'a>(
     game: &'a Game,
     options: &FiniteSizeOptions,
+    observer: &dyn Observer,
 ) -> Result<FiniteSizeReport<'a>> {
     let s = &game.scenario;
     let target = TargetChoice::target(s, &options.target, options.with.as_ref())?;
@@ -289,12 +292,19 @@ pub fn finite_size<'a>(
     let scores = tangent_scores(game, options)?;
     let mut tangents = Vec::new();
     let mut best: Option<(ConditionalEntropy, CrossoverTradeoff, Accumulation)> = None;
-    for score in scores {
-        let entropy = conditional_entropy(
+    let count = scores.len();
+    for (k, score) in scores.into_iter().enumerate() {
+        let solved = |done: usize, total: usize| {
+            if observer.wants_progress() {
+                observer.progress(Stage::EntropyNodes, k * total + done, count * total);
+            }
+        };
+        let entropy = conditional_entropy_reporting(
             s,
             &target,
             &EntropyConstraint::Score(score),
             &options.hierarchy,
+            &solved,
         )?;
         let line = entropy.min_tradeoff.clone().ok_or_else(|| {
             Error::solver(

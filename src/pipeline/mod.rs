@@ -56,6 +56,8 @@ pub enum Stage {
     ClassicalSearch,
     /// Restarts of the see-saw.
     SeesawRestarts,
+    /// Quadrature nodes of the entropy hierarchy (each one relaxation).
+    EntropyNodes,
 }
 
 /// Receives what long work has to say while it runs. Every method has a silent default.

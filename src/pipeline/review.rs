@@ -259,7 +259,7 @@ pub fn review<'a>(
                     ..Default::default()
                 },
             };
-            let r = entropy(game, &options).map_err(|e| bad(format!("key: {e}")))?;
+            let r = entropy(game, &options, observer).map_err(|e| bad(format!("key: {e}")))?;
             let result = r
                 .results
                 .into_iter()
@@ -306,8 +306,8 @@ pub fn review<'a>(
                 },
                 ..Default::default()
             };
-            let report =
-                finite_size(game, &options).map_err(|e| bad(format!("finite_size: {e}")))?;
+            let report = finite_size(game, &options, observer)
+                .map_err(|e| bad(format!("finite_size: {e}")))?;
             Some(ReviewFiniteSize {
                 observed_passes: m.observed_mean >= f.threshold,
                 report,

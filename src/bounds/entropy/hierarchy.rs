@@ -592,6 +592,18 @@ pub fn conditional_entropy(
     constraint: &EntropyConstraint,
     options: &EntropyOptions,
 ) -> Result<ConditionalEntropy> {
+    conditional_entropy_reporting(s, target, constraint, options, &|_, _| {})
+}
+
+/// As [`conditional_entropy`], calling `solved(done, total)` as each node's relaxation is
+/// finished (from the thread that solved it).
+pub fn conditional_entropy_reporting(
+    s: &Scenario,
+    target: &Target,
+    constraint: &EntropyConstraint,
+    options: &EntropyOptions,
+    solved: &(dyn Fn(usize, usize) + Sync),
+) -> Result<ConditionalEntropy> {
     let start = std::time::Instant::now();
     target.check(s)?;
     options.preprocessing.check()?;
@@ -636,6 +648,7 @@ pub fn conditional_entropy(
         EntropyConstraint::Behaviour(p) => (behaviour_equalities(s, p)?, Vec::new()),
     };
     let m = rule.nodes.len();
+    let finished = std::sync::atomic::AtomicUsize::new(0);
     let node_at = |(&t, &w): (&f64, &f64)| -> Result<NodeOutcome> {
         let alpha = 1.0 / (2.0 * (t * (1.0 - t)).sqrt());
         let objective = node_objective(s, target, options.preprocessing, t);
@@ -683,6 +696,8 @@ pub fn conditional_entropy(
             }
             at_ends = Some(ends);
         }
+        let done = finished.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
+        solved(done, m - 1);
         Ok(NodeOutcome {
             bound: NodeBound {
                 t,

@@ -10,7 +10,8 @@ pub mod quadrature;
 pub mod relaxation;
 
 pub use hierarchy::{
-    conditional_entropy, default_level, event_terms, ConditionalEntropy, EntropyConstraint,
-    EntropyOptions, MinTradeoff, NodeBound, Preprocessing, Target,
+    conditional_entropy, conditional_entropy_reporting, default_level, event_terms,
+    ConditionalEntropy, EntropyConstraint, EntropyOptions, MinTradeoff, NodeBound, Preprocessing,
+    Target,
 };
 pub use relaxation::{AdversaryWords, MomentField};
