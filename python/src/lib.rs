@@ -723,6 +723,12 @@ fn run_figure(
             })
         }
         "entropy" => {
+            let fixed = a.behaviour_text.is_some() || strategy.is_some();
+            if fixed && (a.score.is_some() || a.scores.is_some()) {
+                return Err(usage(
+                    "give a score (or scores), a behaviour or a strategy, not two of them".into(),
+                ));
+            }
             let given = match (&a.behaviour_text, strategy) {
                 (Some(_), Some(_)) => {
                     return Err(usage("give a behaviour or a strategy, not both".into()))

@@ -351,6 +351,8 @@ def test_entropy_of_a_behaviour_or_a_strategy_with_its_key_pair(tmp_path):
     with pytest.raises(bellgap.UsageError):
         bellgap.entropy(expr, behaviour=box, strategy=found.strategy)
     with pytest.raises(bellgap.UsageError):
+        bellgap.entropy(expr, behaviour=box, score=2.5)
+    with pytest.raises(bellgap.UsageError):
         bellgap.entropy(expr, score=2.5, key_with="bob")
 
 
