@@ -538,6 +538,51 @@ fn entropy_of_the_tsirelson_box_and_its_key_rate() {
 }
 
 #[test]
+fn a_single_answer_key_has_no_entropy_and_no_error_correction() {
+    // A key player with one answer: H(A|E) = 0 and H(A|B) = 0 whatever the error rate or the
+    // flip (there is nothing to change to); every figure stays finite. (The flip used to scale
+    // the only answer's POVM by 1 − q and gave 2.19 bits from the solvers, and Fano's bound
+    // used to read log₂ 0.)
+    let game = temp_file(
+        "one-answer.yaml",
+        "name: one\nplayers:\n  - {name: alice, question: x, answer: a, questions: 2, answers: 1}\n  - {name: bob, question: y, answer: b, questions: 2, answers: 2}\nwin: b == x*y\n",
+    );
+    let game = game.to_string_lossy().to_string();
+    for flip in [None, Some("0.2")] {
+        let mut args = vec![
+            "entropy",
+            &game,
+            "--score",
+            "0.75",
+            "--error-rate",
+            "0.1",
+            "--nodes",
+            "4",
+            "--json",
+        ];
+        if let Some(f) = flip {
+            args.extend(["--noisy-preprocessing", f]);
+        }
+        let j = json_of(&bellgap(&args));
+        let r = &j["results"][0];
+        assert_eq!(r["entropy"]["bits"].as_f64(), Some(0.0), "{flip:?}");
+        assert!(
+            r["entropy"]["solver_bits"].as_f64().unwrap() < 1e-6,
+            "{flip:?}"
+        );
+        assert_eq!(r["key"]["error_correction"].as_f64(), Some(0.0), "{flip:?}");
+        assert_eq!(r["key"]["key_rate"].as_f64(), Some(0.0), "{flip:?}");
+        let line = &r["entropy"]["min_tradeoff"];
+        let at = line["at_lowest"].as_f64().unwrap()
+            + line["slope"].as_f64().unwrap() * (0.75 - line["lowest"].as_f64().unwrap());
+        assert!(
+            at <= 1e-7,
+            "{flip:?}: the line claims {at} bits of a constant"
+        );
+    }
+}
+
+#[test]
 fn entropy_of_a_strategy_file() {
     // The see-saw's CHSH strategy, saved and given back: its behaviour (Born rule) is the
     // Tsirelson box's, so the bound and the key pair's term equal the box's (Acín et al. 2007:

@@ -522,7 +522,12 @@ pub fn entropy<'a>(
             let answers = s.parties()[target.parts[0].0].answers();
             let d = answers as f64;
             let noisy = options.hierarchy.preprocessing.error_rate(*q, answers);
-            let fano = binary_entropy(noisy) + noisy * (d - 1.0).log2();
+            // Fano's inequality, capped at log₂ d (H(A|B) ≤ H(A)); a single answer has none.
+            let fano = if answers <= 1 {
+                0.0
+            } else {
+                (binary_entropy(noisy) + noisy * (d - 1.0).log2()).min(d.log2())
+            };
             Some((
                 fano,
                 match options.hierarchy.preprocessing {

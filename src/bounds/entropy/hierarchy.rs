@@ -199,9 +199,11 @@ impl Preprocessing {
         }
     }
 
-    /// T(e|a) for answers e and a out of `d`.
+    /// T(e|a) for answers e and a out of `d` (with a single answer there is nothing to change
+    /// to, and the channel is the identity).
     pub fn channel(&self, e: usize, a: usize, d: usize) -> f64 {
         match *self {
+            _ if d <= 1 => f64::from(u8::from(e == a)),
             Preprocessing::None => f64::from(u8::from(e == a)),
             Preprocessing::Noisy { probability } if e == a => 1.0 - probability,
             Preprocessing::Noisy { probability } => probability / (d - 1) as f64,
@@ -212,10 +214,10 @@ impl Preprocessing {
     /// (see the module notes): 0 without preprocessing, 2q − dq²/(d − 1) with it.
     pub fn last_node_floor(&self, d: usize) -> f64 {
         match *self {
-            Preprocessing::None => 0.0,
-            Preprocessing::Noisy { probability: q } => {
+            Preprocessing::Noisy { probability: q } if d > 1 => {
                 (2.0 * q - d as f64 * q * q / (d - 1) as f64).max(0.0)
             }
+            _ => 0.0,
         }
     }
 
@@ -250,10 +252,10 @@ impl Preprocessing {
     /// an equal one differs with probability p.
     pub fn error_rate(&self, q: f64, d: usize) -> f64 {
         match *self {
-            Preprocessing::None => q,
-            Preprocessing::Noisy { probability } => {
+            Preprocessing::Noisy { probability } if d > 1 => {
                 (1.0 - q) * probability + q * (1.0 - probability / (d - 1) as f64)
             }
+            _ => q,
         }
     }
 }
@@ -850,6 +852,11 @@ mod tests {
             assert!((uniform.last_node_floor(d) - (1.0 - 1.0 / d as f64)).abs() < 1e-15);
         }
         assert_eq!(Preprocessing::None.last_node_floor(3), 0.0);
+        // A single answer has nothing to change to: the identity, no floor, the same error rate.
+        let flip = Preprocessing::Noisy { probability: 0.3 };
+        assert_eq!(flip.channel(0, 0, 1), 1.0);
+        assert_eq!(flip.last_node_floor(1), 0.0);
+        assert_eq!(flip.error_rate(0.0, 1), 0.0);
     }
 
     #[test]
