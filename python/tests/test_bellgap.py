@@ -352,6 +352,16 @@ def test_entropy_of_a_behaviour_or_a_strategy_with_its_key_pair(tmp_path):
         bellgap.entropy(expr, behaviour=box, strategy=found.strategy)
     with pytest.raises(bellgap.UsageError):
         bellgap.entropy(expr, behaviour=box, score=2.5)
+    # Hostile behaviours: a wrong type, text that is not a correlations document, a probability
+    # that is not a number.
+    with pytest.raises(bellgap.UsageError):
+        bellgap.entropy(expr, behaviour=42)
+    with pytest.raises(bellgap.InputError):
+        bellgap.entropy(expr, behaviour="players: [unclosed")
+    nan_box = json.loads(json.dumps(box))
+    nan_box["behaviour"][0]["probabilities"][0] = ".nan"
+    with pytest.raises(bellgap.InputError):
+        bellgap.entropy(expr, behaviour=nan_box)
     with pytest.raises(bellgap.UsageError):
         bellgap.entropy(expr, score=2.5, key_with="bob")
 

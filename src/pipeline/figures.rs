@@ -18,8 +18,8 @@ use crate::model::scenario::Scenario;
 use crate::model::strategy::QuantumStrategy;
 use crate::protocol::finite::{self, Margin, ObservedRun};
 use crate::protocol::key::{
-    binary_entropy, error_correction_entropy, key_rate, threshold_qber, ChshEntropyBound,
-    EntropyBound, KeyRate, NoisyChshEntropyBound,
+    binary_entropy, chsh_bound, error_correction_entropy, key_rate, threshold_qber, KeyRate,
+    NoisyChshEntropyBound,
 };
 use crate::protocol::randomness::{guessing_probability, Randomness, Target};
 use serde::Serialize;
@@ -297,10 +297,7 @@ pub struct KeyOptions {
 /// The `key` command: the analytic CHSH bound (with noisy preprocessing when asked) at the
 /// correlator value and error rate.
 pub fn key(options: &KeyOptions) -> Result<KeyReport> {
-    let bound: Box<dyn EntropyBound> = match options.preprocessing {
-        Preprocessing::None => Box::new(ChshEntropyBound),
-        Preprocessing::Noisy { probability } => Box::new(NoisyChshEntropyBound::new(probability)?),
-    };
+    let bound = chsh_bound(options.preprocessing)?;
     let rate = key_rate(bound.as_ref(), options.chsh, options.qber)?;
     Ok(KeyReport {
         rate,
@@ -541,16 +538,11 @@ pub fn entropy<'a>(
             ))
         }
         Some(ErrorCorrection::KeyPair(choice)) => {
-            let behaviour = match (&options.given, constraints.first()) {
-                (
-                    EntropyGiven::Behaviour(_) | EntropyGiven::Strategy { .. },
-                    Some((_, EntropyConstraint::Behaviour(p))),
-                ) => p,
-                _ => {
-                    return Err(Error::InvalidArgument(
-                        "the key pair's error-correction term needs the behaviour (or a strategy); with a score, give the error rate instead".into(),
-                    ))
-                }
+            // A behaviour or a strategy gives exactly one constraint, the behaviour itself.
+            let Some((_, EntropyConstraint::Behaviour(behaviour))) = constraints.first() else {
+                return Err(Error::InvalidArgument(
+                    "the key pair's error-correction term needs the behaviour (or a strategy); with a score, give the error rate instead".into(),
+                ));
             };
             let (pa, xa) = target.parts[0];
             let (pb, yb) = choice.resolve(s, 1)?;

@@ -21,9 +21,7 @@ use crate::formats::game::{families, Game};
 use crate::formats::protocol_file::ProtocolFile;
 use crate::protocol::accumulation::SecurityParameters;
 use crate::protocol::finite::{margin, observation, Margin, ObservedRun};
-use crate::protocol::key::{
-    key_rate, threshold_qber, ChshEntropyBound, EntropyBound, KeyRate, NoisyChshEntropyBound,
-};
+use crate::protocol::key::{chsh_bound, key_rate, threshold_qber, KeyRate};
 use crate::protocol::randomness::{guessing_probability, Randomness, Target};
 use crate::protocol::CAUTION;
 
@@ -229,13 +227,8 @@ pub fn review<'a>(
     let (mut key, mut entropy_key) = (None, None);
     match (&p.key, chsh_correlator(game, certified_score)) {
         (Some(k), Some(sv)) => {
-            let bound: Box<dyn EntropyBound> = match k.noisy_preprocessing {
-                None => Box::new(ChshEntropyBound),
-                Some(q) => Box::new(
-                    NoisyChshEntropyBound::new(q)
-                        .map_err(|e| bad(format!("key: noisy_preprocessing: {e}")))?,
-                ),
-            };
+            let bound = chsh_bound(Preprocessing::noisy_if(k.noisy_preprocessing))
+                .map_err(|e| bad(format!("key: noisy_preprocessing: {e}")))?;
             key = Some(ReviewKey {
                 chsh_value: sv,
                 figures: key_rate(bound.as_ref(), sv, k.qber)

@@ -5,6 +5,7 @@
 
 use serde::Serialize;
 
+use crate::bounds::entropy::Preprocessing;
 use crate::error::{Error, Result};
 
 /// Binary entropy in bits.
@@ -105,6 +106,15 @@ impl EntropyBound for NoisyChshEntropyBound {
         let q = self.probability;
         qber * (1.0 - q) + (1.0 - qber) * q
     }
+}
+
+/// The analytic CHSH bound for a key player's preprocessing: [`ChshEntropyBound`] without it,
+/// [`NoisyChshEntropyBound`] with it (refused outside [0, 1/2]).
+pub fn chsh_bound(preprocessing: Preprocessing) -> Result<Box<dyn EntropyBound>> {
+    Ok(match preprocessing {
+        Preprocessing::None => Box::new(ChshEntropyBound),
+        Preprocessing::Noisy { probability } => Box::new(NoisyChshEntropyBound::new(probability)?),
+    })
 }
 
 /// Key figures at a score and error rate.
