@@ -187,18 +187,8 @@ impl QuantumStrategy {
     /// `n·d + D` products, a common-practice bound), each weighted by `Σ |w(q)V(a|q)|`; the sum
     /// itself is compensated (Neumaier) with its own error charged.
     pub fn certified_value(&self, s: &Scenario) -> CertifiedValue {
-        let valid = self.made_valid();
-        let p = valid.behaviour(s);
-        let (eta, mus) = valid.invalidity();
+        let (p, per_probability) = self.certified_behaviour(s);
         let unit = f64::EPSILON / 2.0;
-        let d_max = self.dims.iter().copied().max().unwrap_or(1) as f64;
-        let joint = self.total_dim() as f64;
-        let n = s.players() as f64;
-        let mu_total: f64 = mus.iter().sum();
-        let growth = mus.iter().fold(1.0, |acc, m| acc * (1.0 + m));
-        let per_probability = (2.0 * eta + eta * eta) * growth
-            + mu_total * growth
-            + 8.0 * unit * (n * d_max * d_max + joint + 8.0) * growth;
         let (mut sum, mut compensation, mut magnitude, mut weight) = (0.0f64, 0.0f64, 0.0, 0.0);
         let mut add = |t: f64| {
             let next = sum + t;
@@ -231,6 +221,26 @@ impl QuantumStrategy {
             error,
             lower: value - error,
         }
+    }
+
+    /// The Born-rule behaviour of the strategy made valid ([`QuantumStrategy::made_valid`]), and
+    /// a bound on how far each of its probabilities may lie from the behaviour of an exactly
+    /// valid strategy (the terms of [`QuantumStrategy::certified_value`] per probability): every
+    /// behaviour within that distance of the returned one, entry by entry, includes a quantum one.
+    pub fn certified_behaviour(&self, s: &Scenario) -> (Vec<f64>, f64) {
+        let valid = self.made_valid();
+        let p = valid.behaviour(s);
+        let (eta, mus) = valid.invalidity();
+        let unit = f64::EPSILON / 2.0;
+        let d_max = self.dims.iter().copied().max().unwrap_or(1) as f64;
+        let joint = self.total_dim() as f64;
+        let n = s.players() as f64;
+        let mu_total: f64 = mus.iter().sum();
+        let growth = mus.iter().fold(1.0, |acc, m| acc * (1.0 + m));
+        let per_probability = (2.0 * eta + eta * eta) * growth
+            + mu_total * growth
+            + 8.0 * unit * (n * d_max * d_max + joint + 8.0) * growth;
+        (p, per_probability)
     }
 
     /// The value when every player's detector clicks with probability `eta` and a missing click

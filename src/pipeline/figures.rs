@@ -13,12 +13,14 @@ use crate::error::{Error, Result};
 use crate::formats::certificate::Certificate;
 use crate::formats::game::Game;
 use crate::limits::Limits;
+use crate::formats::correlations::ROW_TOLERANCE;
 use crate::model::correlations::Correlations;
+use crate::model::region::BehaviourRegion;
 use crate::model::scenario::Scenario;
 use crate::model::strategy::QuantumStrategy;
 use crate::protocol::finite::{self, Margin, ObservedRun};
 use crate::protocol::key::{
-    binary_entropy, chsh_bound, error_correction_entropy, key_rate, threshold_qber, KeyRate,
+    binary_entropy, chsh_bound, error_correction_entropy_within, key_rate, threshold_qber, KeyRate,
     NoisyChshEntropyBound,
 };
 use crate::protocol::randomness::{guessing_probability, Randomness, Target};
@@ -280,6 +282,13 @@ fn best_flip(chsh: f64, qber: f64) -> Result<BestFlip> {
             lo = a;
         }
     }
+    // Where no flip gives a key, none is best: say 0, not the search's last probe.
+    if found.key_rate <= 0.0 {
+        found = BestFlip {
+            probability: 0.0,
+            key_rate: 0.0,
+        };
+    }
     Ok(found)
 }
 
@@ -358,6 +367,8 @@ pub enum EntropyGiven {
     Scores(Vec<f64>),
     /// The devices' full behaviour (a correlations file with the game's players).
     Behaviour(Correlations),
+    /// Every behaviour in a region (e.g. the confidence region of measured counts).
+    Region(BehaviourRegion),
     /// The behaviour of an explicit quantum strategy (by the Born rule), e.g. the see-saw's.
     Strategy {
         /// The strategy (checked against the game before use).
@@ -493,18 +504,41 @@ pub fn entropy<'a>(
         }
         EntropyGiven::Behaviour(c) => {
             check_same_players(s, c)?;
+            let region = BehaviourRegion::around(
+                &c.p,
+                ROW_TOLERANCE,
+                format!(
+                    "every behaviour within {ROW_TOLERANCE:e} of `{}` in each probability (the tolerance a typed behaviour is read to)",
+                    c.name
+                ),
+            )?;
             (
-                vec![(None, EntropyConstraint::Behaviour(c.p.clone()))],
-                format!("the behaviour `{}`", c.name),
+                vec![(None, EntropyConstraint::Region(region))],
+                format!(
+                    "the behaviour `{}`, as every behaviour within {ROW_TOLERANCE:e} of it in each probability",
+                    c.name
+                ),
             )
         }
+        EntropyGiven::Region(region) => (
+            vec![(None, EntropyConstraint::Region(region.clone()))],
+            region.description.clone(),
+        ),
         EntropyGiven::Strategy { strategy, name } => {
             strategy
                 .check(s)
                 .map_err(|e| Error::InvalidArgument(format!("the strategy `{name}`: {e}")))?;
+            // The strategy is made exactly valid first; its behaviour then stands for every
+            // behaviour within the evaluation's error bound.
+            let (p, error) = strategy.certified_behaviour(s);
+            let region = BehaviourRegion::around(
+                &p,
+                error,
+                format!("the behaviour of the strategy `{name}` made exactly valid (Born rule), within its evaluation error {error:.1e}"),
+            )?;
             (
-                vec![(None, EntropyConstraint::Behaviour(strategy.behaviour(s)))],
-                format!("the behaviour of the strategy `{name}` (Born rule)"),
+                vec![(None, EntropyConstraint::Region(region))],
+                format!("the behaviour of the strategy `{name}` (made exactly valid; Born rule)"),
             )
         }
     };
@@ -539,7 +573,7 @@ pub fn entropy<'a>(
         }
         Some(ErrorCorrection::KeyPair(choice)) => {
             // A behaviour or a strategy gives exactly one constraint, the behaviour itself.
-            let Some((_, EntropyConstraint::Behaviour(behaviour))) = constraints.first() else {
+            let Some((_, EntropyConstraint::Region(region))) = constraints.first() else {
                 return Err(Error::InvalidArgument(
                     "the key pair's error-correction term needs the behaviour (or a strategy); with a score, give the error rate instead".into(),
                 ));
@@ -551,11 +585,25 @@ pub fn entropy<'a>(
                     "the key pair needs a second player".into(),
                 ));
             }
+            // H(A|B) over the whole region: at its centre, plus the continuity term for the
+            // table's largest distance from the centre (the preprocessing channel only
+            // contracts it).
+            let half_widths: Vec<f64> = region
+                .centre
+                .iter()
+                .zip(region.lower.iter().zip(&region.upper))
+                .map(|(c, (l, u))| (c - l).max(u - c).max(0.0))
+                .collect();
+            let distance: f64 = key_pair_table(s, &half_widths, (pa, xa), (pb, yb))
+                .iter()
+                .flatten()
+                .sum::<f64>()
+                / 2.0;
             let table = options
                 .hierarchy
                 .preprocessing
-                .apply_to_rows(&key_pair_table(s, behaviour, (pa, xa), (pb, yb)));
-            let h = error_correction_entropy(&table)?;
+                .apply_to_rows(&key_pair_table(s, &region.centre, (pa, xa), (pb, yb)));
+            let h = error_correction_entropy_within(&table, distance)?;
             Some((
                 h,
                 format!(

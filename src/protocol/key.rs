@@ -26,6 +26,8 @@ pub trait EntropyBound {
     fn score_range(&self) -> (f64, f64);
     /// The bound on H(A|E) in bits at `score` (0 where nothing is certified).
     fn entropy(&self, score: f64) -> f64;
+    /// The highest score classical devices reach (no key at or below it).
+    fn classical_score(&self) -> f64;
     /// The error rate between the key (after any preprocessing the bound assumes) and the other
     /// player's answers, from the raw answers' error rate.
     fn key_error_rate(&self, qber: f64) -> f64 {
@@ -47,6 +49,9 @@ impl EntropyBound for ChshEntropyBound {
         // the rounding of a value computed at the maximum.
         let tsirelson = 2.0 * std::f64::consts::SQRT_2;
         (-tsirelson * (1.0 + 1e-12), tsirelson * (1.0 + 1e-12))
+    }
+    fn classical_score(&self) -> f64 {
+        2.0
     }
     fn entropy(&self, s: f64) -> f64 {
         if s <= 2.0 {
@@ -94,6 +99,9 @@ impl EntropyBound for NoisyChshEntropyBound {
     }
     fn score_range(&self) -> (f64, f64) {
         ChshEntropyBound.score_range()
+    }
+    fn classical_score(&self) -> f64 {
+        ChshEntropyBound.classical_score()
     }
     fn entropy(&self, s: f64) -> f64 {
         let q = self.probability;
@@ -153,12 +161,18 @@ pub fn key_rate(bound: &dyn EntropyBound, score: f64, qber: f64) -> Result<KeyRa
     }
     let h = bound.entropy(score);
     let key_qber = bound.key_error_rate(qber);
+    // Each closed form is evaluated to a few units in the last place: the difference is rounded
+    // down by a generous relative 1e-12. At or below the classical score no key is possible
+    // (a deterministic strategy reproduces the score; a flip's own randomness is no secret the
+    // other player shares), so the rate is 0 there whatever the rounding says.
+    let rate = h - binary_entropy(key_qber) - 1e-12 * (1.0 + h);
+    let classical = score <= bound.classical_score();
     Ok(KeyRate {
         score,
         qber,
         key_qber,
         conditional_entropy: h,
-        key_rate: (h - binary_entropy(key_qber)).max(0.0),
+        key_rate: if classical { 0.0 } else { rate.max(0.0) },
         bound: bound.name(),
     })
 }
@@ -220,6 +234,51 @@ pub fn error_correction_entropy(p: &[Vec<f64>]) -> Result<f64> {
         .map(|b| plogp(p.iter().map(|r| r[b]).sum()))
         .sum();
     Ok((joint - marginal).max(0.0))
+}
+
+/// An upper bound on H(A|B) over every distribution within `distance` (half the L1 norm) of
+/// `centre`, which need not sum to 1 exactly (a typed or estimated table): the centre is
+/// clipped at 0 and normalised (its total's distance from 1 is added), then the continuity
+/// bound of Alicki–Fannes–Winter for a classical A, |H(A|B)_p − H(A|B)_q| ≤ 2ε log₂ |A| +
+/// (1 + ε) h(ε/(1 + ε)) when ½‖p − q‖₁ ≤ ε (Winter, Commun. Math. Phys. 347, 291 (2016),
+/// Lemma 2; from memory, in its form for quantum B, which covers a classical one) is added, and
+/// the sum capped at log₂ |A|.
+pub fn error_correction_entropy_within(centre: &[Vec<f64>], distance: f64) -> Result<f64> {
+    if !(distance >= 0.0 && distance.is_finite()) {
+        return Err(Error::InvalidArgument(format!(
+            "the key pair's distance must be a non-negative number, got {distance}"
+        )));
+    }
+    if centre.iter().flatten().any(|v| !v.is_finite()) {
+        return Err(Error::InvalidArgument(
+            "the key pair's joint distribution has an entry that is not a finite number".into(),
+        ));
+    }
+    let clipped: Vec<Vec<f64>> = centre
+        .iter()
+        .map(|r| r.iter().map(|v| v.max(0.0)).collect())
+        .collect();
+    let total: f64 = clipped.iter().flatten().sum();
+    if !(total > 0.0) {
+        return Err(Error::InvalidArgument(
+            "the key pair's joint distribution is zero".into(),
+        ));
+    }
+    let normalised: Vec<Vec<f64>> = clipped
+        .iter()
+        .map(|r| r.iter().map(|v| v / total).collect())
+        .collect();
+    let at_centre = error_correction_entropy(&normalised)?;
+    let answers = centre.len() as f64;
+    let most = answers.log2();
+    let eps = (distance + (total - 1.0).abs() / 2.0).min(1.0);
+    if eps == 0.0 {
+        return Ok(at_centre);
+    }
+    let continuity = 2.0 * eps * most + (1.0 + eps) * binary_entropy(eps / (1.0 + eps));
+    // Rounding of the sums above is far below the continuity term's own size; a relative
+    // 1e-12 is charged for it.
+    Ok(((at_centre + continuity) * (1.0 + 1e-12)).min(most))
 }
 
 #[cfg(test)]

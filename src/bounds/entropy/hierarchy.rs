@@ -57,10 +57,12 @@ use super::relaxation::{
     node_problem, players_only, with_letters, AdversaryWords, EntropyMatrix, EntropyWord,
     EveLetter, MomentField, MomentTerms,
 };
+use crate::bounds::quantum::membership;
 use crate::bounds::quantum::npa::{self, Level};
-use crate::bounds::quantum::words::{collins_gisin_word, Projector, Word};
+use crate::bounds::quantum::words::{Projector, Word};
 use crate::error::{Error, Result};
 use crate::model::collins_gisin::CollinsGisin;
+use crate::model::region::BehaviourRegion;
 use crate::model::scenario::{digits, Scenario};
 use crate::optim::backend::{self, Backend};
 use crate::optim::moment_ipm::{self, IpmOptions, StallPolicy};
@@ -168,9 +170,11 @@ pub fn event_terms(s: &Scenario, parts: &[(usize, usize, usize)]) -> Vec<(Word, 
 pub enum EntropyConstraint {
     /// The game's value (win probability or expression value) is at least this.
     Score(f64),
-    /// The full behaviour `p[q * joint_answers + a]` in the scenario's layout (it must be
-    /// no-signalling: its marginals are the constraints).
-    Behaviour(Vec<f64>),
+    /// Every behaviour in a region: an interval for each probability `p(a|q)` (a behaviour
+    /// given to a tolerance, a strategy's within its evaluation error, or counts' confidence
+    /// region). The intervals are the constraints, so slightly signalling data need no
+    /// projection; a region proven to hold no quantum behaviour is refused.
+    Region(BehaviourRegion),
 }
 
 /// What the key player does to its answer before the entropy is counted.
@@ -430,65 +434,58 @@ pub fn value_terms(s: &Scenario, level: &Level) -> Result<MomentTerms> {
     Ok(terms)
 }
 
-/// Largest difference between marginals computed at different questions of the other players
-/// that a behaviour may show (typed probabilities carry rounding).
-pub const SIGNALLING_TOLERANCE: f64 = 1e-6;
-
-/// The behaviour's Collins–Gisin coordinates as equalities on the players' moments.
-fn behaviour_equalities(s: &Scenario, p: &[f64]) -> Result<Vec<(MomentTerms, f64)>> {
-    let parties = s.parties();
-    let nq: usize = parties.iter().map(|q| q.questions()).product();
-    let na: usize = parties.iter().map(|q| q.answers()).product();
-    if p.len() != nq * na {
+/// The region's intervals as constraints on the players' moments: each full probability
+/// `P(a|q) ≥ lower` and `−P(a|q) ≥ −upper` (as 1×1 blocks, whose slack at any point of the
+/// region is at most `upper − lower`).
+fn region_constraints(s: &Scenario, region: &BehaviourRegion) -> Result<Vec<(MomentTerms, f64, f64)>> {
+    let nq: usize = s.question_radices().iter().product();
+    let na: usize = s.answer_radices().iter().product();
+    if region.lower.len() != nq * na || region.upper.len() != nq * na {
         return Err(Error::InvalidArgument(format!(
             "the behaviour has {} probabilities, the game's players need {}",
-            p.len(),
+            region.lower.len(),
             nq * na
         )));
     }
-    if p.iter().any(|v| !v.is_finite() || *v < 0.0) {
-        return Err(Error::InvalidArgument(
-            "the behaviour has a negative or non-finite probability".into(),
-        ));
-    }
-    let qr: Vec<usize> = parties.iter().map(|q| q.questions()).collect();
-    let ar: Vec<usize> = parties.iter().map(|q| q.answers()).collect();
     let cg = CollinsGisin::new(s);
-    let n = s.players();
-    let (mut qd, mut ad) = (vec![0; n], vec![0; n]);
-    let mut rows = Vec::new();
-    for v in 0..cg.variables {
-        let (mask, q, a) = cg.describe(v);
-        // The marginal of the players in `mask` at (q, a), from every choice of the others'
-        // questions: they must agree (no signalling).
-        let (mut lo, mut hi, mut sum, mut count) = (f64::INFINITY, f64::NEG_INFINITY, 0.0, 0.0);
-        for qi in 0..nq {
-            digits(qi, &qr, &mut qd);
-            if (0..n).any(|i| mask >> i & 1 == 1 && qd[i] != q[i]) {
-                continue;
+    let mut rows = Vec::with_capacity(2 * nq * na);
+    for q in 0..nq {
+        for a in 0..na {
+            let k = q * na + a;
+            let (lo, hi) = (region.lower[k], region.upper[k]);
+            if !(lo <= hi) || !lo.is_finite() || !hi.is_finite() {
+                return Err(Error::InvalidArgument(format!(
+                    "the behaviour's interval {k} is empty or not a number"
+                )));
             }
-            let mut marginal = 0.0;
-            for ai in 0..na {
-                digits(ai, &ar, &mut ad);
-                if (0..n).all(|i| mask >> i & 1 == 0 || ad[i] == a[i]) {
-                    marginal += p[qi * na + ai];
-                }
+            let (words, constant) = membership::full_probability_terms(s, &cg, q, a);
+            let mut plus: MomentTerms = vec![(EntropyWord::default(), constant)];
+            let mut minus: MomentTerms = vec![(EntropyWord::default(), -constant)];
+            for (w, c) in words {
+                plus.push((players_only(w.clone()), c));
+                minus.push((players_only(w), -c));
             }
-            lo = lo.min(marginal);
-            hi = hi.max(marginal);
-            sum += marginal;
-            count += 1.0;
+            rows.push((plus, lo, hi));
+            rows.push((minus, -hi, -lo));
         }
-        if hi - lo > SIGNALLING_TOLERANCE {
-            return Err(Error::InvalidArgument(format!(
-                "the behaviour signals: a marginal differs by {:.2e} between the other players' questions; constrain the entropy by the score instead",
-                hi - lo
-            )));
-        }
-        let word = collins_gisin_word(mask, &q, &a);
-        rows.push((vec![(players_only(word), 1.0)], sum / count));
     }
     Ok(rows)
+}
+
+/// The refusal of a behaviour (or region) that holds no quantum behaviour.
+fn outside_quantum_set(level: &Level, distance: f64) -> Error {
+    Error::InvalidArgument(if distance > 0.0 {
+        format!(
+            "the behaviour is outside the quantum set: every behaviour of the NPA relaxation at level {} differs from it by at least {} beyond its tolerance in some probability (verified)",
+            level.name(),
+            crate::numbers::num_sig(distance, 3)
+        )
+    } else {
+        format!(
+            "the behaviour is outside the quantum set: the entropy relaxations at NPA level {} prove that no quantum behaviour lies within its tolerance",
+            level.name()
+        )
+    })
 }
 
 /// The objective of node t: Σ_e ⟨M̂_e (Z_e + Z_e* + (1 − t) Z_e* Z_e) + t Z_e Z_e*⟩, with
@@ -647,7 +644,16 @@ pub fn conditional_entropy_reporting(
                 vec![(value_terms(s, &level)?, *v, highest_value)],
             )
         }
-        EntropyConstraint::Behaviour(p) => (behaviour_equalities(s, p)?, Vec::new()),
+        EntropyConstraint::Region(region) => {
+            // A region with no quantum behaviour would make every figure vacuous (the
+            // relaxations are infeasible and their duals unbounded): proven here and refused.
+            let distance =
+                membership::region_distance(s, region, &level, options.backend)?;
+            if distance.proven_outside() {
+                return Err(outside_quantum_set(&level, distance.verified_lower));
+            }
+            (Vec::new(), region_constraints(s, region)?)
+        }
     };
     let m = rule.nodes.len();
     let finished = std::sync::atomic::AtomicUsize::new(0);
@@ -669,11 +675,8 @@ pub fn conditional_entropy_reporting(
                     status: Some(SolveStatus::Infeasible),
                     ..
                 },
-                EntropyConstraint::Behaviour(_),
-            ) => Error::InvalidArgument(format!(
-                "no quantum behaviour in the relaxation at level {} has these correlations: they are outside the quantum set",
-                level.name()
-            )),
+                EntropyConstraint::Region(_),
+            ) => outside_quantum_set(&level, 0.0),
             (other, _) => other,
         })?;
         // The same dual vector's verified bound with the score constraint moved to each end of
@@ -769,9 +772,22 @@ pub fn conditional_entropy_reporting(
             slope: (at_highest - at_lowest) / (highest - lowest),
         })
     });
+    // For any quantum behaviour meeting the constraint, bits ≤ H(A|X=x*, E) ≤ log₂ |A|. A node
+    // whose verified infimum is positive proves its relaxation infeasible (every feasible point
+    // extends with Z = 0, where the objective is 0), and a sum above log₂ |A| proves that no
+    // quantum behaviour meets the constraint: either way every figure would be vacuous.
+    let infeasible_node = terms.iter().any(|b| b.infimum > 0.0);
+    if infeasible_node || bits > most {
+        return Err(match constraint {
+            EntropyConstraint::Region(_) => outside_quantum_set(&level, 0.0),
+            EntropyConstraint::Score(v) => Error::InvalidArgument(format!(
+                "no quantum behaviour reaches the score {v}: the entropy relaxations prove it (a bound of {bits:.6} bits exceeds log₂ {events})"
+            )),
+        });
+    }
     Ok(ConditionalEntropy {
-        // H(A|E) of a classical A lies in [0, log₂ |A|]; both ends keep the bound valid.
-        bits: bits.clamp(0.0, most),
+        // H(A|E) of a classical A is at least 0, so a negative bound is replaced by 0.
+        bits: bits.max(0.0),
         solver_bits,
         method: format!(
             "Gauss–Radau hierarchy (Brown, Fawzi & Fawzi 2024), {} nodes, NPA level {} with the adversary's operators{}",

@@ -5,6 +5,7 @@
 
 pub mod analysis;
 mod flips;
+pub mod membership;
 pub mod npa;
 pub mod seesaw;
 pub mod symmetric;
