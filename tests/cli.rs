@@ -520,8 +520,12 @@ fn entropy_of_the_tsirelson_box_and_its_key_rate() {
     assert!((0.95..=1.0).contains(&h), "{h}");
     let q: f64 = (1.0 - 1.0 / 2f64.sqrt()) / 2.0;
     let hq = -q * q.log2() - (1.0 - q) * (1.0 - q).log2();
-    assert!((r["key"]["error_correction"].as_f64().unwrap() - hq).abs() < 1e-9);
-    assert!((r["key"]["key_rate"].as_f64().unwrap() - (h - hq)).abs() < 1e-12);
+    // The typed behaviour stands for every behaviour within 1e-6 of it in each probability: the
+    // error-correction term is H(A|B) at the box plus the continuity term over that tolerance
+    // (2ε + (1 + ε)h(ε/(1 + ε)) with ε = 2e-6, about 4.5e-5 bits).
+    let ec = r["key"]["error_correction"].as_f64().unwrap();
+    assert!(ec >= hq && ec <= hq + 5e-5, "{ec} {hq}");
+    assert!((r["key"]["key_rate"].as_f64().unwrap() - (h - ec)).abs() < 1e-12);
     assert_eq!(r["entropy"]["nodes"], 4);
     assert!(j["assumptions"].as_array().unwrap().len() >= 4);
     // A score and a key pair cannot go together (the pair's statistics come from a behaviour).
@@ -617,17 +621,14 @@ fn entropy_of_a_strategy_file() {
     let j = json_of(&bellgap(&with_strategy));
     let box_json = json_of(&tsirelson_key_entropy("tsirelson-strategy.yaml", &[]));
     let (a, b) = (&j["results"][0], &box_json["results"][0]);
+    // The typed box stands for every behaviour within 1e-6 of it, the strategy for those within
+    // its evaluation error (about 1e-14): the box's bound may only be lower, and slightly.
     let h = a["entropy"]["bits"].as_f64().unwrap();
-    assert!(
-        (h - b["entropy"]["bits"].as_f64().unwrap()).abs() < 1e-6,
-        "{h}"
-    );
-    assert!(
-        (a["key"]["error_correction"].as_f64().unwrap()
-            - b["key"]["error_correction"].as_f64().unwrap())
-        .abs()
-            < 1e-9
-    );
+    let h_box = b["entropy"]["bits"].as_f64().unwrap();
+    assert!(h >= h_box - 1e-6 && h - h_box < 1e-3, "{h} {h_box}");
+    let ec = a["key"]["error_correction"].as_f64().unwrap();
+    let ec_box = b["key"]["error_correction"].as_f64().unwrap();
+    assert!(ec <= ec_box + 1e-9 && ec_box - ec < 5e-5, "{ec} {ec_box}");
     assert!(j["given"].as_str().unwrap().contains("strategy"));
     // A strategy with a score, or with a behaviour, is a usage error; a strategy file that
     // does not fit the game is an input error; both exit 2.
@@ -661,7 +662,11 @@ fn noisy_preprocessing_in_the_entropy_and_key_commands() {
     let q: f64 = (1.0 - 1.0 / 2f64.sqrt()) / 2.0;
     let noisy = q * 0.9 + (1.0 - q) * 0.1;
     let hq = -noisy * noisy.log2() - (1.0 - noisy) * (1.0 - noisy).log2();
-    assert!((r["key"]["error_correction"].as_f64().unwrap() - hq).abs() < 1e-9);
+    // The typed behaviour stands for every behaviour within 1e-6 of it in each probability: the
+    // error-correction term is H(A|B) at the box plus the continuity term over that tolerance
+    // (2ε + (1 + ε)h(ε/(1 + ε)) with ε = 2e-6, about 4.5e-5 bits).
+    let ec = r["key"]["error_correction"].as_f64().unwrap();
+    assert!(ec >= hq && ec <= hq + 5e-5, "{ec} {hq}");
     assert!(j["assumptions"]
         .as_array()
         .unwrap()
@@ -995,4 +1000,182 @@ fn a_sharded_sweep_merges_into_the_whole() {
     let out = bellgap(&["sweep-merge", garbage.to_str().unwrap(), "--json"]);
     assert_eq!(out.status.code(), Some(2));
     assert_eq!(json_of(&out)["error"]["location"]["line"], 1);
+}
+
+/// The tilted-CHSH strategy with state cos θ|00⟩ + sin θ|11⟩, A₀ = Z, A₁ = X and Bob's
+/// observables cos μ Z ± sin μ X (tan μ = sin 2θ), every amplitude scaled by `scale`.
+fn tilted_strategy(name: &str, theta: f64, scale: f64) -> PathBuf {
+    let mu = (2.0 * theta).sin().atan();
+    let projectors = |cz: f64, sx: f64| {
+        format!(
+            "[[[{}, {}], [{}, {}]], [[{}, {}], [{}, {}]]]",
+            (1.0 + cz) / 2.0,
+            sx / 2.0,
+            sx / 2.0,
+            (1.0 - cz) / 2.0,
+            (1.0 - cz) / 2.0,
+            -sx / 2.0,
+            -sx / 2.0,
+            (1.0 + cz) / 2.0
+        )
+    };
+    let text = format!(
+        "dims: [2, 2]\nstate: [{}, 0, 0, {}]\nmeasurements:\n  alice:\n    - {{question: 0, elements: {}}}\n    - {{question: 1, elements: {}}}\n  bob:\n    - {{question: 0, elements: {}}}\n    - {{question: 1, elements: {}}}\n",
+        theta.cos() * scale,
+        theta.sin() * scale,
+        projectors(1.0, 0.0),
+        projectors(0.0, 1.0),
+        projectors(mu.cos(), mu.sin()),
+        projectors(mu.cos(), -mu.sin()),
+    );
+    temp_file(name, &text)
+}
+
+/// The tilted strategy's Born-rule behaviour, every probability scaled by `scale`.
+fn tilted_behaviour(name: &str, theta: f64, scale: f64) -> PathBuf {
+    let mu = (2.0 * theta).sin().atan();
+    // ⟨ψ|P_a ⊗ Q_b|ψ⟩ for ψ = (c, 0, 0, s) and projectors (1 ± n·σ)/2 with n in the x–z plane.
+    let (c, s) = (theta.cos(), theta.sin());
+    let alice = [(1.0, 0.0), (0.0, 1.0)];
+    let bob = [(mu.cos(), mu.sin()), (mu.cos(), -mu.sin())];
+    let mut text = String::from(
+        "players:\n  - {name: alice, questions: 2, answers: 2}\n  - {name: bob, questions: 2, answers: 2}\nbehaviour:\n",
+    );
+    for (x, &(az, ax)) in alice.iter().enumerate() {
+        for (y, &(bz, bx)) in bob.iter().enumerate() {
+            let mut row = Vec::new();
+            for a in 0..2 {
+                for b in 0..2 {
+                    let (sa, sb) = (1.0 - 2.0 * a as f64, 1.0 - 2.0 * b as f64);
+                    // ⟨Z⊗1⟩ = ⟨1⊗Z⟩ = c² − s², ⟨Z⊗Z⟩ = 1, ⟨X⊗X⟩ = 2cs, mixed terms 0.
+                    let z = c * c - s * s;
+                    let p = (1.0
+                        + sa * az * z
+                        + sb * bz * z
+                        + sa * sb * (az * bz + ax * bx * 2.0 * c * s))
+                        / 4.0;
+                    row.push(format!("{}", p * scale));
+                }
+            }
+            text += &format!(
+                "  - questions: [{x}, {y}]\n    probabilities: [{}]\n",
+                row.join(", ")
+            );
+        }
+    }
+    temp_file(name, &text)
+}
+
+fn entropy_bits(args: &[&str]) -> f64 {
+    let out = bellgap(args);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    json_of(&out)["results"][0]["entropy"]["bits"]
+        .as_f64()
+        .unwrap()
+}
+
+#[test]
+fn entropy_never_certifies_more_than_the_devices_have() {
+    // A pure state cos θ|00⟩ + sin θ|11⟩ measured by A₀ = Z leaves Eve nothing but gives
+    // H(A|X=0, E) ≤ H(A|X=0) = h(cos² θ). Inputs within the accepted tolerances (amplitudes
+    // scaled by 1 + 9.5e-7, rows summing to 1 + 9e-7) once gave 0.4701 and 0.4332 bits at θ = 0.3
+    // (h = 0.42750) and 0.6342 at θ = 0.4 (h = 0.61395).
+    let h = |p: f64| -p * p.log2() - (1.0 - p) * (1.0 - p).log2();
+    for (theta, scale) in [(0.3, 1.0), (0.3, 1.0 + 9.5e-7)] {
+        let file = tilted_strategy(&format!("tilted-{theta}-{scale}.yaml"), theta, scale);
+        let bits = entropy_bits(&[
+            "entropy",
+            "games/chsh.yaml",
+            "--strategy",
+            file.to_str().unwrap(),
+            "--nodes",
+            "8",
+            "--json",
+        ]);
+        let most = h(theta.cos().powi(2));
+        assert!(bits <= most, "θ = {theta}, scale {scale}: {bits} > {most}");
+        assert!(bits > most - 0.01, "θ = {theta}, scale {scale}: {bits}");
+    }
+    for theta in [0.3, 0.4] {
+        let file = tilted_behaviour(&format!("tilted-behaviour-{theta}.yaml"), theta, 1.0 + 9e-7);
+        let bits = entropy_bits(&[
+            "entropy",
+            "games/chsh.yaml",
+            "--behaviour",
+            file.to_str().unwrap(),
+            "--nodes",
+            "8",
+            "--json",
+        ]);
+        let most = h(theta.cos().powi(2));
+        assert!(bits <= most, "θ = {theta}: {bits} > {most}");
+        assert!(bits > most - 0.02, "θ = {theta}: {bits}");
+    }
+}
+
+#[test]
+fn behaviours_outside_the_quantum_set_are_refused_never_capped() {
+    // The PR box (S = 4) once printed 1 bit and a key rate of 1; Tsirelson's box moved outwards
+    // by 1e-4 printed 1 bit with 8 nodes and 0.563 with 4.
+    let pr = two_bit_correlations(
+        "pr-box.yaml",
+        [
+            ["1/2", "0", "0", "1/2"],
+            ["1/2", "0", "0", "1/2"],
+            ["1/2", "0", "0", "1/2"],
+            ["0", "1/2", "1/2", "0"],
+        ],
+    );
+    let (hi, lo) = ("(1 + 1/sqrt(2) + 1e-4)/4", "(1 - 1/sqrt(2) - 1e-4)/4");
+    let beyond = two_bit_correlations(
+        "beyond-tsirelson.yaml",
+        [
+            [hi, lo, lo, hi],
+            [hi, lo, lo, hi],
+            [hi, lo, lo, hi],
+            [lo, hi, hi, lo],
+        ],
+    );
+    for file in [&pr, &beyond] {
+        for extra in [&[][..], &["--key-with", "bob"][..]] {
+            let mut args = vec![
+                "entropy",
+                "games/chsh.yaml",
+                "--behaviour",
+                file.to_str().unwrap(),
+                "--nodes",
+                "4",
+            ];
+            args.extend_from_slice(extra);
+            let out = bellgap(&args);
+            assert_eq!(out.status.code(), Some(2), "{file:?} {extra:?}");
+            let err = String::from_utf8_lossy(&out.stderr);
+            assert!(err.contains("outside the quantum set"), "{err}");
+        }
+    }
+    // At the classical score no key: exactly 0, and no flip is "best".
+    let out = bellgap(&[
+        "key",
+        "--chsh",
+        "2",
+        "--qber",
+        "0",
+        "--noisy-preprocessing",
+        "0.1",
+        "--json",
+    ]);
+    let j = json_of(&out);
+    assert_eq!(j["key_rate"].as_f64(), Some(0.0));
+    assert_eq!(
+        j["best_noisy_preprocessing"]["probability"].as_f64(),
+        Some(0.0)
+    );
+    assert_eq!(
+        j["best_noisy_preprocessing"]["key_rate"].as_f64(),
+        Some(0.0)
+    );
 }

@@ -11,9 +11,9 @@ use crate::bounds::entropy::{
 use crate::bounds::quantum::npa::{self, Level, Verification};
 use crate::error::{Error, Result};
 use crate::formats::certificate::Certificate;
+use crate::formats::correlations::ROW_TOLERANCE;
 use crate::formats::game::Game;
 use crate::limits::Limits;
-use crate::formats::correlations::ROW_TOLERANCE;
 use crate::model::correlations::Correlations;
 use crate::model::region::BehaviourRegion;
 use crate::model::scenario::Scenario;

@@ -20,7 +20,7 @@ use crate::error::{Error, Location, Result};
 use crate::formats::game::{families, Game};
 use crate::formats::protocol_file::ProtocolFile;
 use crate::protocol::accumulation::SecurityParameters;
-use crate::protocol::finite::{margin, observation, Margin, ObservedRun};
+use crate::protocol::finite::{margin, observation, rounds_needed, Margin, ObservedRun};
 use crate::protocol::key::{chsh_bound, key_rate, threshold_qber, KeyRate};
 use crate::protocol::randomness::{guessing_probability, Randomness, Target};
 use crate::protocol::CAUTION;
@@ -86,8 +86,11 @@ pub struct Review<'a> {
     pub bounds: GameReport<'a>,
     /// The exact classical value (a review needs it: the margin is measured against it).
     pub classical: f64,
-    /// Confidence bounds, margin and p-value of the observed run.
+    /// Confidence bounds, margin and p-value of the observed run (rounds needed at its mean).
     pub margin: Margin,
+    /// The see-saw's score and the rounds needed there for the target p-value (devices as good
+    /// as the best strategy found).
+    pub rounds_needed_at_see_saw: Option<(f64, Option<u64>)>,
     /// Certified randomness, when the file asks for it.
     pub randomness: Option<ReviewRandomness>,
     /// Key figures, when the file asks for them (analytic for CHSH).
@@ -184,8 +187,17 @@ pub fn review<'a>(
     let see_saw = report.seesaw.as_ref().map(|sw| sw.quantum_lower);
     let alpha = p.alpha.unwrap_or(1e-6);
     let target = p.target_p_value.unwrap_or(1e-9);
-    let m = margin(&obs, classical, alpha, target, see_saw)?;
-    let certified_score = m.lower_confidence_exact.unwrap_or(m.lower_confidence);
+    // Rounds needed at the observed mean (what this run's devices did); the see-saw's ideal
+    // score gets its own, labelled, figure.
+    let m = margin(&obs, classical, alpha, target, None)?;
+    let rounds_needed_at_see_saw = see_saw.map(|v| {
+        (
+            v,
+            rounds_needed(m.score_range[1] - m.score_range[0], v - classical, target),
+        )
+    });
+    // One lower confidence bound for every figure of the report.
+    let certified_score = m.certified_score;
 
     let randomness = match &p.randomness {
         None => None,
@@ -312,6 +324,7 @@ pub fn review<'a>(
         bounds: report,
         classical,
         margin: m,
+        rounds_needed_at_see_saw,
         randomness,
         key,
         entropy_key,

@@ -154,8 +154,8 @@ pub struct Accumulation {
     pub first_order: f64,
     /// The second-order terms at the α chosen.
     pub second_order: SecondOrder,
-    /// Lower bound on H_min^{ε_s}(O^n | I^n E) given the run passed, in bits (may be negative:
-    /// nothing certified).
+    /// Lower bound on H_min^{ε_s}(O^n | I^n E) given the run passed, in bits (0 when the
+    /// second-order terms exceed the first-order term: nothing certified).
     pub smooth_min_entropy: f64,
     /// What is subtracted besides the extractor's term.
     pub disclosure: Disclosure,
@@ -380,7 +380,8 @@ pub fn accumulate(
     let raw = first_order - penalty(&second_order);
     // Floating-point slack: a relative 1e-12 of every term (each is computed to ~1e-15).
     let slack = 1e-12 * (first_order.abs() + penalty(&second_order)) + 1e-9;
-    let smooth_min_entropy = raw - slack;
+    // A min-entropy is never negative: a bound below 0 certifies nothing and is stated as 0.
+    let smooth_min_entropy = (raw - slack).max(0.0);
     let extractor = 2.0 * (1.0 / security.extraction).log2();
     let output =
         smooth_min_entropy - disclosure.test_answers - disclosure.error_correction - extractor;

@@ -42,9 +42,17 @@ pub struct Margin {
     pub lower_confidence: f64,
     /// Exact binomial (Clopper–Pearson) lower confidence bound, for win/lose scores.
     pub lower_confidence_exact: Option<f64>,
+    /// The one lower confidence bound every figure of a report uses: the exact binomial bound
+    /// for win/lose scores (never below Hoeffding's, and exact), Hoeffding's otherwise.
+    pub certified_score: f64,
+    /// The method of `certified_score`, named in every row that uses it.
+    pub confidence_method: &'static str,
+    /// The per-round score range the bounds use (the game's own, from
+    /// [`Scenario::per_round_score_range`], or a wider one the user gave).
+    pub score_range: [f64; 2],
     /// The classical value.
     pub classical: f64,
-    /// `lower_confidence − classical`: positive when the data certify a score above every
+    /// `certified_score − classical`: positive when the data certify a score above every
     /// classical strategy at confidence 1 − α.
     pub margin: f64,
     /// Probability that a classical strategy (adaptive or not) scores at least this much.
@@ -60,6 +68,8 @@ pub struct Margin {
     pub target_p_value: f64,
     /// The mean score the rounds needed assume.
     pub expected_mean: f64,
+    /// Where that mean comes from: `observed` (the run's mean) or `expected` (given).
+    pub expected_from: &'static str,
     /// The assumptions behind these figures, in words.
     pub assumptions: Vec<&'static str>,
 }
@@ -155,6 +165,17 @@ pub fn observation(s: &Scenario, run: &ObservedRun) -> Result<Observation> {
     }
 }
 
+/// The rounds after which devices scoring `gap` above the classical value on average reach an
+/// Azuma–Hoeffding p-value of `target_p_value` (per-round range `width`): ⌈ln(1/p)·width²/(2
+/// gap²)⌉. None when there is no advantage, or when the count exceeds u64 (reported as "not
+/// reachable" rather than saturated).
+pub fn rounds_needed(width: f64, gap: f64, target_p_value: f64) -> Option<u64> {
+    (gap > 0.0)
+        .then(|| ((1.0 / target_p_value).ln() * width * width / (2.0 * gap * gap)).ceil())
+        .filter(|r| r.is_finite() && *r < u64::MAX as f64)
+        .map(|r| r as u64)
+}
+
 /// Margins, p-value and rounds needed for an observation against a classical value.
 pub fn margin(
     obs: &Observation,
@@ -225,28 +246,35 @@ pub fn margin(
     };
     let p_value = exponent.exp();
     let p_value_log10 = exponent / std::f64::consts::LN_10;
+    let expected_from = if expected_mean.is_some() {
+        "expected"
+    } else {
+        "observed"
+    };
     let expected_mean = expected_mean.unwrap_or(mean);
-    let gap = expected_mean - classical;
-    // Saturating conversion: a gap so small that the count exceeds u64 is reported as None
-    // ("not reachable") rather than as 2⁶⁴ − 1.
-    let rounds_needed = (gap > 0.0)
-        .then(|| ((1.0 / target_p_value).ln() * width * width / (2.0 * gap * gap)).ceil())
-        .filter(|r| r.is_finite() && *r < u64::MAX as f64)
-        .map(|r| r as u64);
+    let rounds_needed = rounds_needed(width, expected_mean - classical, target_p_value);
+    let (certified_score, confidence_method) = match lower_confidence_exact {
+        Some(exact) => (exact, "Clopper–Pearson"),
+        None => (lower_confidence, "Hoeffding"),
+    };
     Ok(Margin {
         rounds: obs.rounds,
         observed_mean: mean,
         alpha,
         lower_confidence,
         lower_confidence_exact,
+        certified_score,
+        confidence_method,
+        score_range: [obs.low, obs.high],
         classical,
-        margin: lower_confidence - classical,
+        margin: certified_score - classical,
         p_value,
         p_value_log10,
         p_value_bound: "Azuma–Hoeffding (valid for adaptive strategies)",
         rounds_needed,
         target_p_value,
         expected_mean,
+        expected_from,
         assumptions: vec![
             "the lower confidence bounds (Hoeffding, Clopper–Pearson) assume independent, identically distributed rounds",
             "the p-value holds for any classical strategy, including one that adapts to earlier rounds, if each round's questions are drawn afresh from the game's distribution",

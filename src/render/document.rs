@@ -7,28 +7,99 @@ use std::fmt::Write;
 use super::charts::{finite_size_rate, line_chart, Series};
 use super::text::p_value_text;
 use crate::numbers::{bits_text, count_text, num, num_sig};
-use crate::pipeline::Review;
+use crate::pipeline::{Extracting, Review};
 
-/// The headline: whether the run certifies a score above every classical strategy.
+/// The headline: whether the run certifies a score above every classical strategy (at the one
+/// confidence method of the report), and what it certifies in bits: the finite-size output of
+/// this run when the file asks for it (or that there is none at this length, with about how many
+/// rounds would give some), else the asymptotic figures per round. It agrees with every section
+/// below it because it reads the same fields.
 pub fn verdict(r: &Review) -> String {
     let m = &r.margin;
     let confidence = format!("{}", 1.0 - m.alpha);
+    let mut parts = Vec::new();
     if m.margin > 0.0 {
-        format!(
-            "Nonlocal at confidence {confidence}: the lower confidence bound {} exceeds the classical value {} by {} (i.i.d. rounds); classical devices, even adaptive ones, score this much with probability at most {}.",
-            num(m.lower_confidence),
+        parts.push(format!(
+            "Nonlocal at confidence {confidence}: the {} lower confidence bound {} exceeds the classical value {} by {} (i.i.d. rounds); classical devices, even adaptive ones, score this much with probability at most {}.",
+            m.confidence_method,
+            num(m.certified_score),
             num(m.classical),
             num(m.margin),
             p_value_text(m)
-        )
+        ));
     } else {
-        format!(
-            "Not certified at confidence {confidence}: the lower confidence bound {} does not exceed the classical value {} (margin {}); classical devices score this much with probability up to {}.",
-            num(m.lower_confidence),
+        parts.push(format!(
+            "Not certified at confidence {confidence}: the {} lower confidence bound {} does not exceed the classical value {} (margin {}); classical devices score this much with probability up to {}.",
+            m.confidence_method,
+            num(m.certified_score),
             num(m.classical),
             num(m.margin),
             p_value_text(m)
-        )
+        ));
+    }
+    if let Some(f) = &r.finite_size {
+        let rep = &f.report;
+        let what = match rep.extracting {
+            Extracting::Randomness => "randomness",
+            Extracting::Key => "key",
+        };
+        let n = rep.run.protocol.rounds;
+        if !f.observed_passes {
+            parts.push(format!(
+                "Finite size: the observed mean score {} is below the test's threshold {}, so the protocol aborts and certifies no {what}.",
+                num(m.observed_mean),
+                num(rep.run.protocol.threshold)
+            ));
+        } else if rep.run.output_bits > 0.0 {
+            parts.push(format!(
+                "Finite size: {} bits of {what} certified from these {} rounds (entropy accumulation, constants from memory; total error {:e}).",
+                count_text(rep.run.output_bits),
+                count_text(n as f64),
+                rep.run.security.smoothing + rep.run.security.pass_floor + rep.run.security.extraction
+            ));
+        } else {
+            let needed = rep
+                .curve
+                .iter()
+                .find(|(_, rate)| *rate > 0.0)
+                .map_or("not within 10^14 rounds".to_string(), |(k, _)| {
+                    format!("about {} rounds are needed", count_text(*k as f64))
+                });
+            parts.push(format!(
+                "Finite size: no bits of {what} are certified at this length ({} rounds): {needed} at the same test rate and threshold.",
+                count_text(n as f64)
+            ));
+        }
+    } else {
+        if let Some(rr) = &r.randomness {
+            parts.push(format!(
+                "Asymptotic randomness: min-entropy ≥ {} per round of {} (i.i.d. rounds; no finite-size statement requested).",
+                bits_text(rr.at_lower_confidence.min_entropy),
+                rr.target
+            ));
+        }
+        let rate = r
+            .key
+            .as_ref()
+            .map(|k| k.figures.key_rate)
+            .or(r.entropy_key.as_ref().map(|k| k.rate.key_rate));
+        if let Some(rate) = rate {
+            parts.push(format!(
+                "Asymptotic key rate ≥ {} per round (collective attacks; no finite-size statement requested).",
+                bits_text(rate)
+            ));
+        }
+    }
+    parts.join(" ")
+}
+
+/// A bit count that is never printed negative: a lower bound below zero certifies nothing, and
+/// 0 is said with that reason.
+fn nonnegative_bits(bits: f64) -> String {
+    if bits > 0.0 {
+        format!("{} bits", num_sig(bits, 10))
+    } else {
+        "0 bits (nothing certified at this length: the finite-size corrections exceed the first-order term)".into()
     }
 }
 
@@ -102,33 +173,47 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
         ("rounds".into(), m.rounds.to_string()),
         ("observed mean score".into(), num(m.observed_mean)),
         (
-            format!("lower confidence bound (Hoeffding, α = {:e})", m.alpha),
-            num(m.lower_confidence),
+            "per-round score range".into(),
+            format!("[{}, {}]", num(m.score_range[0]), num(m.score_range[1])),
+        ),
+        (
+            format!(
+                "lower confidence bound ({}, α = {:e})",
+                m.confidence_method, m.alpha
+            ),
+            num(m.certified_score),
         ),
     ];
-    if let Some(e) = m.lower_confidence_exact {
-        stats.push((
-            format!(
-                "lower confidence bound (Clopper–Pearson, α = {:e})",
-                m.alpha
-            ),
-            num(e),
-        ));
-    }
-    stats.push(("margin over the classical value".into(), num(m.margin)));
+    stats.push((
+        format!("margin over the classical value ({})", m.confidence_method),
+        num(m.margin),
+    ));
     stats.push((
         format!("p-value of \"classical devices\" ({})", m.p_value_bound),
         p_value_text(m),
     ));
     stats.push((
         format!(
-            "rounds needed for p ≤ {:e} at the see-saw score",
-            m.target_p_value
+            "rounds needed for p ≤ {:e} at the observed mean {}",
+            m.target_p_value,
+            num(m.expected_mean)
         ),
         m.rounds_needed
             .map(|n| n.to_string())
             .unwrap_or_else(|| "never (no advantage)".into()),
     ));
+    if let Some((score, needed)) = r.rounds_needed_at_see_saw {
+        stats.push((
+            format!(
+                "rounds needed for p ≤ {:e} at the see-saw score {} (devices as good as the best strategy found)",
+                m.target_p_value,
+                num(score)
+            ),
+            needed
+                .map(|n| n.to_string())
+                .unwrap_or_else(|| "never (no advantage)".into()),
+        ));
+    }
     out.push(("Finite statistics".into(), stats));
     if let Some(rr) = &r.randomness {
         let (who, r) = (&rr.target, &rr.at_lower_confidence);
@@ -137,7 +222,7 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
             vec![
                 ("guessed answer".into(), who.clone()),
                 (
-                    "at score (lower confidence bound)".into(),
+                    format!("at score ({} lower confidence bound)", m.confidence_method),
                     if (r.score_used - r.score).abs() > 0.0 {
                         format!(
                             "{} (solved at {}, a weaker constraint)",
@@ -159,7 +244,13 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
         out.push((
             "Key figures (CHSH-based DIQKD)".into(),
             vec![
-                ("CHSH value at the lower confidence bound".into(), num(*sv)),
+                (
+                    format!(
+                        "CHSH value at the {} lower confidence bound",
+                        m.confidence_method
+                    ),
+                    num(*sv),
+                ),
                 (
                     "H(A|E) ≥".into(),
                     format!("{} ({})", bits_text(k.conditional_entropy), k.bound),
@@ -186,7 +277,10 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
             "Key figures (entropy hierarchy)".into(),
             vec![
                 ("key answers".into(), k.target.clone()),
-                ("at score (lower confidence bound)".into(), num(k.score)),
+                (
+                    format!("at score ({} lower confidence bound)", m.confidence_method),
+                    num(k.score),
+                ),
                 (
                     "H(A|X=x*, E) ≥".into(),
                     format!("{} ({})", bits_text(rate.conditional_entropy), k.method),
@@ -234,12 +328,9 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
                 ),
                 (
                     "smooth min-entropy ≥".into(),
-                    format!("{} bits", num_sig(run.smooth_min_entropy, 10)),
+                    nonnegative_bits(run.smooth_min_entropy),
                 ),
-                (
-                    "certified output".into(),
-                    format!("{} bits", num_sig(run.output_bits, 10)),
-                ),
+                ("certified output".into(), nonnegative_bits(run.output_bits)),
                 (
                     "rate per round".into(),
                     format!(

@@ -655,6 +655,8 @@ struct ReviewView<'a> {
     verified_upper: Option<f64>,
     no_signalling: Option<f64>,
     margin: &'a Margin,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    rounds_needed_at_see_saw: Option<RoundsAtScore>,
     randomness: Option<&'a crate::pipeline::ReviewRandomness>,
     key: Option<&'a crate::pipeline::ReviewKey>,
     #[serde(skip_serializing_if = "Option::is_none")]
@@ -666,6 +668,12 @@ struct ReviewView<'a> {
     notes: &'a [String],
     #[serde(skip_serializing_if = "<[String]>::is_empty")]
     not_obtained: &'a [String],
+}
+
+#[derive(Serialize)]
+struct RoundsAtScore {
+    score: f64,
+    rounds: Option<u64>,
 }
 
 #[derive(Serialize)]
@@ -690,6 +698,9 @@ impl Serialize for Review<'_> {
             verified_upper: b.npa.as_ref().map(|n| n.verified_upper),
             no_signalling: b.no_signalling.as_ref().map(|n| n.value),
             margin: &self.margin,
+            rounds_needed_at_see_saw: self
+                .rounds_needed_at_see_saw
+                .map(|(score, rounds)| RoundsAtScore { score, rounds }),
             randomness: self.randomness.as_ref(),
             key: self.key.as_ref(),
             entropy_key: self.entropy_key.as_ref(),

@@ -423,26 +423,28 @@ pub fn margin(report: &MarginReport) -> String {
         ("rounds".to_string(), m.rounds.to_string()),
         ("observed mean".to_string(), num(m.observed_mean)),
         (
-            format!("lower confidence (Hoeffding, α={:e})", m.alpha),
-            num(m.lower_confidence),
+            "per-round score range".to_string(),
+            format!("[{}, {}]", num(m.score_range[0]), num(m.score_range[1])),
+        ),
+        (
+            format!(
+                "lower confidence ({}, α={:e})",
+                m.confidence_method, m.alpha
+            ),
+            num(m.certified_score),
         ),
     ];
-    if let Some(e) = m.lower_confidence_exact {
-        rows.push((
-            format!("lower confidence (Clopper–Pearson, α={:e})", m.alpha),
-            num(e),
-        ));
-    }
     rows.push(("classical value".into(), num(m.classical)));
-    rows.push(("margin".into(), num(m.margin)));
+    rows.push((format!("margin ({})", m.confidence_method), num(m.margin)));
     rows.push((
         "p-value (classical devices)".into(),
         format!("{}  ({})", p_value_text(m), m.p_value_bound),
     ));
     rows.push((
         format!(
-            "rounds needed (p ≤ {:e} at mean {})",
+            "rounds needed (p ≤ {:e} at the {} mean {})",
             m.target_p_value,
+            m.expected_from,
             num(m.expected_mean)
         ),
         m.rounds_needed
@@ -576,6 +578,15 @@ fn many_bits(x: f64) -> String {
     format!("{} bits", num_sig(x, 10))
 }
 
+/// A certified bit count, never negative: 0 is said with its reason.
+fn certified_bits(x: f64) -> String {
+    if x > 0.0 {
+        many_bits(x)
+    } else {
+        "0 bits (nothing certified at this length)".into()
+    }
+}
+
 /// What a spot-checking run certifies (`finite-size`).
 pub fn finite_size(report: &FiniteSizeReport) -> String {
     let run = &report.run;
@@ -661,7 +672,7 @@ pub fn finite_size(report: &FiniteSizeReport) -> String {
                 many_bits(t.third_order_term)
             ),
         ),
-        ("H_min^ε_s ≥".into(), many_bits(run.smooth_min_entropy)),
+        ("H_min^ε_s ≥".into(), certified_bits(run.smooth_min_entropy)),
     ];
     if report.extracting == Extracting::Key {
         rows.push((
@@ -679,7 +690,7 @@ pub fn finite_size(report: &FiniteSizeReport) -> String {
             many_bits(run.disclosure.error_correction),
         ));
     }
-    rows.push(("certified output".into(), many_bits(run.output_bits)));
+    rows.push(("certified output".into(), certified_bits(run.output_bits)));
     rows.push((
         "rate per round".into(),
         format!(

@@ -437,7 +437,10 @@ pub fn value_terms(s: &Scenario, level: &Level) -> Result<MomentTerms> {
 /// The region's intervals as constraints on the players' moments: each full probability
 /// `P(a|q) ≥ lower` and `−P(a|q) ≥ −upper` (as 1×1 blocks, whose slack at any point of the
 /// region is at most `upper − lower`).
-fn region_constraints(s: &Scenario, region: &BehaviourRegion) -> Result<Vec<(MomentTerms, f64, f64)>> {
+fn region_constraints(
+    s: &Scenario,
+    region: &BehaviourRegion,
+) -> Result<Vec<(MomentTerms, f64, f64)>> {
     let nq: usize = s.question_radices().iter().product();
     let na: usize = s.answer_radices().iter().product();
     if region.lower.len() != nq * na || region.upper.len() != nq * na {
@@ -647,8 +650,7 @@ pub fn conditional_entropy_reporting(
         EntropyConstraint::Region(region) => {
             // A region with no quantum behaviour would make every figure vacuous (the
             // relaxations are infeasible and their duals unbounded): proven here and refused.
-            let distance =
-                membership::region_distance(s, region, &level, options.backend)?;
+            let distance = membership::region_distance(s, region, &level, options.backend)?;
             if distance.proven_outside() {
                 return Err(outside_quantum_set(&level, distance.verified_lower));
             }
@@ -669,15 +671,17 @@ pub fn conditional_entropy_reporting(
             alpha,
         )?;
         let stage = format!("entropy relaxation at t = {t:.4}");
-        let sol = solve_node(&node.problem, options.backend, &stage).map_err(|e| match (e, constraint) {
-            (
-                Error::Solver {
-                    status: Some(SolveStatus::Infeasible),
-                    ..
-                },
-                EntropyConstraint::Region(_),
-            ) => outside_quantum_set(&level, 0.0),
-            (other, _) => other,
+        let sol = solve_node(&node.problem, options.backend, &stage).map_err(|e| {
+            match (e, constraint) {
+                (
+                    Error::Solver {
+                        status: Some(SolveStatus::Infeasible),
+                        ..
+                    },
+                    EntropyConstraint::Region(_),
+                ) => outside_quantum_set(&level, 0.0),
+                (other, _) => other,
+            }
         })?;
         // The same dual vector's verified bound with the score constraint moved to each end of
         // the range (see [`MinTradeoff`]).

@@ -163,7 +163,10 @@ pub fn region_distance(
     let sol = backend::solve(
         &problem,
         solver,
-        &format!("membership of the behaviour region at NPA level {}", level.name()),
+        &format!(
+            "membership of the behaviour region at NPA level {}",
+            level.name()
+        ),
     )?;
     // The SDP maximised −δ: its verified upper bound is minus a verified lower bound on δ*.
     Ok(RegionDistance {
