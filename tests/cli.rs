@@ -1179,3 +1179,65 @@ fn behaviours_outside_the_quantum_set_are_refused_never_capped() {
         Some(0.0)
     );
 }
+
+#[test]
+fn a_review_says_one_consistent_thing() {
+    // An invented beacon on a tilted CHSH expression (0.5·A0 + CHSH): 5·10⁶ rounds pass their
+    // test but certify nothing at this length. The headline once said only "Nonlocal …" while
+    // the finite-size table printed a smooth min-entropy of −325118.59 bits.
+    let game = temp_file(
+        "tilted.yaml",
+        "name: tilted\nplayers:\n  - {name: alice, question: x, answer: a, questions: 2, answers: 2}\n  - {name: bob, question: y, answer: b, questions: 2, answers: 2}\nbell:\n  correlators: [[0, 0, 0], [0.5, 1, 1], [0, 1, -1]]\n",
+    );
+    let beacon = temp_file(
+        "tilted-beacon.yaml",
+        "name: beacon\ngame: tilted.yaml\nrounds: 5000000\nscore_sum: 13750000\nfinite_size: {rounds: 5000000, testing: 0.05, threshold: 2.7}\n",
+    );
+    let j = json_of(&bellgap(&["review", beacon.to_str().unwrap(), "--json"]));
+    let verdict = j["verdict"].as_str().unwrap();
+    assert!(verdict.starts_with("Nonlocal"), "{verdict}");
+    assert!(
+        verdict.contains("Hoeffding lower confidence bound"),
+        "{verdict}"
+    );
+    assert!(
+        verdict.contains("no bits of randomness are certified at this length")
+            && verdict.contains("rounds are needed"),
+        "{verdict}"
+    );
+    let run = &j["finite_size"]["figures"]["run"];
+    assert_eq!(run["smooth_min_entropy"].as_f64(), Some(0.0));
+    assert_eq!(run["output_bits"].as_f64(), Some(0.0));
+    // One score range, the per-round one, in check, margin and review alike: one round of the
+    // expression scores 4·V(a|q) ∈ [−5, 5] (the value itself lies in [−4.5, 4.5]).
+    assert_eq!(j["margin"]["score_range"], serde_json::json!([-5.0, 5.0]));
+    let check = json_of(&bellgap(&["check", game.to_str().unwrap(), "--json"]));
+    assert_eq!(
+        check["per_round_score_range"],
+        serde_json::json!([-5.0, 5.0])
+    );
+    assert_eq!(check["value_range"], serde_json::json!([-4.5, 4.5]));
+
+    // A failing CHSH run (760 wins of 1000): one confidence method (Clopper–Pearson) in the
+    // headline and under it, and the rounds needed at the observed mean: ⌈ln(10⁹)/(2·0.01²)⌉ =
+    // 103,617; the see-saw's ideal score has its own labelled figure.
+    let chsh = format!("{}/games/chsh.yaml", env!("CARGO_MANIFEST_DIR"));
+    let failing = temp_file(
+        "failing-run.yaml",
+        &format!("name: failing\ngame: {chsh}\nrounds: 1000\nwins: 760\nrandomness: {{player: alice, question: 0, level: 1}}\n"),
+    );
+    let j = json_of(&bellgap(&["review", failing.to_str().unwrap(), "--json"]));
+    let m = &j["margin"];
+    assert_eq!(m["confidence_method"], "Clopper–Pearson");
+    assert_eq!(m["certified_score"], m["lower_confidence_exact"]);
+    assert_eq!(m["expected_from"], "observed");
+    assert_eq!(m["rounds_needed"].as_u64(), Some(103_617));
+    assert!(j["rounds_needed_at_see_saw"]["rounds"].as_u64().unwrap() < 1000);
+    let verdict = j["verdict"].as_str().unwrap();
+    assert!(verdict.starts_with("Not certified"), "{verdict}");
+    assert!(verdict.contains("Clopper–Pearson"), "{verdict}");
+    let h = j["randomness"]["at_lower_confidence"]["min_entropy"]
+        .as_f64()
+        .unwrap();
+    assert!((0.0..1e-6).contains(&h), "{h}");
+}

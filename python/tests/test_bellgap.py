@@ -334,8 +334,11 @@ def test_entropy_of_a_behaviour_or_a_strategy_with_its_key_pair(tmp_path):
     by_dict = bellgap.entropy(expr, behaviour=box, **light).results[0]
     by_text = bellgap.entropy(expr, behaviour=json.dumps(box), **light).results[0]
     assert by_dict["entropy"]["bits"] == by_text["entropy"]["bits"]
-    assert abs(by_dict["entropy"]["bits"] - r["entropy"]["bits"]) < 1e-5
-    assert abs(by_dict["key"]["error_correction"] - hq) < 1e-12
+    # The typed box stands for every behaviour within 1e-6 of it (the strategy for those within
+    # its evaluation error): its bound may only be lower, and slightly; its H(A|B) carries the
+    # continuity term over that tolerance (about 4.5e-5 bits).
+    assert r["entropy"]["bits"] - 1e-3 < by_dict["entropy"]["bits"] <= r["entropy"]["bits"] + 1e-6
+    assert hq <= by_dict["key"]["error_correction"] <= hq + 5e-5
     # The strategy written to a file, through the command line.
     path = str(tmp_path / "strategy.yaml")
     subprocess.run(

@@ -111,6 +111,9 @@ pub struct GameSizes {
     pub classical: ClassicalEstimate,
     /// Smallest and largest value any behaviour can have.
     pub value_range: (f64, f64),
+    /// The range of one round's score, the estimator whose mean is the value
+    /// ([`Scenario::per_round_score_range`]): what `margin`, `review` and `finite-size` use.
+    pub per_round_score_range: (f64, f64),
     /// The relabellings of players, questions and answers that leave the weighted score table
     /// unchanged (None when the table is too large to search).
     pub symmetry: Option<SymmetryGroup>,
@@ -346,6 +349,7 @@ pub fn check(game: &Game) -> GameReport<'_> {
         sizes: Sizes::of(s),
         classical: ClassicalEstimate::of(s),
         value_range: s.value_range(),
+        per_round_score_range: s.per_round_score_range(),
         symmetry: symmetries(s),
         symmetry_modulo_no_signalling: symmetries_modulo_no_signalling(s),
     });

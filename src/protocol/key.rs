@@ -161,11 +161,12 @@ pub fn key_rate(bound: &dyn EntropyBound, score: f64, qber: f64) -> Result<KeyRa
     }
     let h = bound.entropy(score);
     let key_qber = bound.key_error_rate(qber);
-    // Each closed form is evaluated to a few units in the last place: the difference is rounded
-    // down by a generous relative 1e-12. At or below the classical score no key is possible
+    // Each closed form is evaluated to a few units in the last place (common practice for
+    // log₂ and √ of the platform's libm): the difference is rounded down by 16 units of the
+    // larger term. At or below the classical score no key is possible
     // (a deterministic strategy reproduces the score; a flip's own randomness is no secret the
     // other player shares), so the rate is 0 there whatever the rounding says.
-    let rate = h - binary_entropy(key_qber) - 1e-12 * (1.0 + h);
+    let rate = h - binary_entropy(key_qber) - 16.0 * f64::EPSILON * (1.0 + h);
     let classical = score <= bound.classical_score();
     Ok(KeyRate {
         score,
@@ -259,7 +260,7 @@ pub fn error_correction_entropy_within(centre: &[Vec<f64>], distance: f64) -> Re
         .map(|r| r.iter().map(|v| v.max(0.0)).collect())
         .collect();
     let total: f64 = clipped.iter().flatten().sum();
-    if !(total > 0.0) {
+    if total.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater) {
         return Err(Error::InvalidArgument(
             "the key pair's joint distribution is zero".into(),
         ));

@@ -194,6 +194,8 @@ struct GameReportView<'a> {
     estimates: Option<EstimatesView<'a>>,
     #[serde(skip_serializing_if = "Option::is_none")]
     value_range: Option<(f64, f64)>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    per_round_score_range: Option<(f64, f64)>,
     /// With sizes: the symmetry group (null when the table is too large to search).
     #[serde(skip_serializing_if = "Option::is_none")]
     symmetry: Option<Option<SymmetryView<'a>>>,
@@ -277,6 +279,7 @@ impl<'a> GameReportView<'a> {
                 classical: &z.classical,
             }),
             value_range: r.sizes.as_ref().map(|z| z.value_range),
+            per_round_score_range: r.sizes.as_ref().map(|z| z.per_round_score_range),
             symmetry: r
                 .sizes
                 .as_ref()

@@ -87,6 +87,15 @@ pub fn game_report(r: &GameReport) -> String {
             ),
         ));
         rows.push(("value range".into(), format!("[{}, {}]", num(lo), num(hi))));
+        let (rlo, rhi) = sizes.per_round_score_range;
+        rows.push((
+            "per-round score range".into(),
+            format!(
+                "[{}, {}]  (one round's score, whose mean is the value; used by margin, review and finite-size)",
+                num(rlo),
+                num(rhi)
+            ),
+        ));
         rows.push((
             "symmetry".into(),
             match &sizes.symmetry {
@@ -606,6 +615,10 @@ pub fn finite_size(report: &FiniteSizeReport) -> String {
         ("extracting".into(), what.into()),
         ("rounds".into(), count_text(p.rounds as f64)),
         ("testing probability".into(), num(p.testing)),
+        (
+            "per-round score range".into(),
+            format!("[{}, {}]", num(p.score_range.0), num(p.score_range.1)),
+        ),
         (
             "pass condition".into(),
             format!(

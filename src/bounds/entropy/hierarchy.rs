@@ -456,7 +456,10 @@ fn region_constraints(
         for a in 0..na {
             let k = q * na + a;
             let (lo, hi) = (region.lower[k], region.upper[k]);
-            if !(lo <= hi) || !lo.is_finite() || !hi.is_finite() {
+            if lo.partial_cmp(&hi) == Some(std::cmp::Ordering::Greater)
+                || !lo.is_finite()
+                || !hi.is_finite()
+            {
                 return Err(Error::InvalidArgument(format!(
                     "the behaviour's interval {k} is empty or not a number"
                 )));

@@ -111,7 +111,10 @@ pub fn region_distance(
         for a in 0..na {
             let k = q * na + a;
             let (lo, hi) = (region.lower[k].max(-1.0), region.upper[k].min(2.0));
-            if !(lo <= hi) {
+            if lo
+                .partial_cmp(&hi)
+                .is_none_or(|o| o == std::cmp::Ordering::Greater)
+            {
                 return Err(Error::InvalidArgument(format!(
                     "the region's interval {k} is empty or not a number"
                 )));
