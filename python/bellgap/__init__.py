@@ -538,7 +538,7 @@ def evaluate(game: GameLike, strategy: Strategy, no_classical: bool = False, for
 
 def margin(
     game: GameLike,
-    rounds: int,
+    rounds: Optional[int] = None,
     wins: Optional[int] = None,
     score_sum: Optional[float] = None,
     score_range: Optional[Sequence[float]] = None,
@@ -546,11 +546,18 @@ def margin(
     target_p_value: Optional[float] = None,
     expected: Optional[float] = None,
     force: bool = False,
+    counts=None,
 ) -> Result:
-    """What an observed run certifies against the classical value."""
+    """What an observed run certifies against the classical value: ``rounds`` with ``wins`` or
+    ``score_sum``, or ``counts`` (a counts file's path, its YAML text, or a dict in the same
+    schema), whose per-round estimator the result states."""
+    extra = {}
+    if counts is not None:
+        extra["counts_text"], extra["counts_name"] = _text_and_name(counts)
     return _figure_command(
         "margin",
         game,
+        **extra,
         rounds=rounds,
         wins=wins,
         score_sum=score_sum,
@@ -575,7 +582,7 @@ def entropy(game: GameLike, score=None, scores=None, player=None, question=None,
             with_player=None, with_question=None, nodes=None, level=None,
             adversary_words=None, moments=None, solver=None, error_rate=None,
             noisy_preprocessing=None, behaviour=None, strategy: Optional[Strategy] = None,
-            key_with=None, key_question=None) -> Result:
+            key_with=None, key_question=None, counts=None, alpha=None) -> Result:
     """A verified lower bound on H(A|X=x, E) by the Gauss–Radau hierarchy (``bellgap entropy``).
 
     Given ``score`` (or ``scores``), the bound holds for every quantum behaviour scoring at least
@@ -584,7 +591,8 @@ def entropy(game: GameLike, score=None, scores=None, player=None, question=None,
     behaviour. The Devetak–Winter key rate comes with ``error_rate`` (Fano's bound) or with
     ``key_with`` (the other player of the key pair, and ``key_question``, from the behaviour).
     ``noisy_preprocessing`` is the probability with which the key player changes its answer
-    first."""
+    first. Given ``counts`` (a counts file's path, its YAML text or a dict), for every quantum
+    behaviour in their confidence region of error ``alpha`` (default 1e-6)."""
     kwargs = dict(
         score=score, scores=scores, player=player, question=question,
         with_player=with_player, with_question=with_question, nodes=nodes, level=level,
@@ -593,6 +601,9 @@ def entropy(game: GameLike, score=None, scores=None, player=None, question=None,
     )
     if behaviour is not None:
         kwargs["behaviour_text"], kwargs["behaviour_name"] = _text_and_name(behaviour)
+    if counts is not None:
+        kwargs["counts_text"], kwargs["counts_name"] = _text_and_name(counts)
+        kwargs["alpha"] = alpha
     g = load(game)
     args = ["entropy", g._inner, json.dumps(kwargs)]
     if strategy is not None:

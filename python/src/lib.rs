@@ -25,12 +25,13 @@ use bellgap::bounds::quantum::symmetric::SymmetryChoice;
 use bellgap::formats::game::families::{self, Family};
 use bellgap::formats::game::CompileOptions;
 use bellgap::formats::protocol_file::ProtocolFile;
+use bellgap::model::counts::Counts;
 use bellgap::model::strategy::{CMatrix, CVector};
 use bellgap::optim::first_order::FirstOrderOptions;
 use bellgap::pipeline::{
     self, BoundsOptions, EntropyCommandOptions, EntropyGiven, ErrorCorrection, EvaluateOptions,
-    FiniteSizeOptions, KeyDisclosure, MarginOptions, NpaLevelsOptions, RandomnessOptions, Silent,
-    Tangent, TargetChoice,
+    FiniteSizeOptions, KeyDisclosure, MarginOptions, NpaLevelsOptions, RandomnessOptions, RunData,
+    Silent, Tangent, TargetChoice,
 };
 use bellgap::protocol::accumulation::SecurityParameters;
 use bellgap::protocol::finite::ObservedRun;
@@ -578,6 +579,11 @@ struct FigureArgs {
     behaviour_text: Option<String>,
     #[serde(default)]
     behaviour_name: Option<String>,
+    /// A counts file's text and its name (margin and entropy given a lab's counts).
+    #[serde(default)]
+    counts_text: Option<String>,
+    #[serde(default)]
+    counts_name: Option<String>,
     // finite size
     #[serde(default)]
     testing: Option<f64>,
@@ -686,13 +692,24 @@ fn run_figure(
     let hierarchy = hierarchy(&a)?;
     match command.as_str() {
         "margin" => {
-            let run = ObservedRun {
-                rounds: a
-                    .rounds
-                    .ok_or_else(|| usage("margin needs rounds".into()))?,
-                wins: a.wins,
-                score_sum: a.score_sum,
-                score_range: a.score_range,
+            let run = match &a.counts_text {
+                Some(text) => {
+                    if a.rounds.is_some() || a.wins.is_some() || a.score_sum.is_some() {
+                        return Err(usage(
+                            "give counts, or rounds with wins or a score sum, not both".into(),
+                        ));
+                    }
+                    let name = a.counts_name.as_deref().unwrap_or("<string>");
+                    RunData::Counts(Counts::from_yaml(text, name).map_err(to_py)?)
+                }
+                None => RunData::Summary(ObservedRun {
+                    rounds: a
+                        .rounds
+                        .ok_or_else(|| usage("margin needs rounds (or counts)".into()))?,
+                    wins: a.wins,
+                    score_sum: a.score_sum,
+                    score_range: a.score_range,
+                }),
             };
             let defaults = MarginOptions::default();
             let o = MarginOptions {
@@ -723,15 +740,30 @@ fn run_figure(
             })
         }
         "entropy" => {
-            let fixed = a.behaviour_text.is_some() || strategy.is_some();
+            let fixed = a.behaviour_text.is_some() || strategy.is_some() || a.counts_text.is_some();
             if fixed && (a.score.is_some() || a.scores.is_some()) {
                 return Err(usage(
-                    "give a score (or scores), a behaviour or a strategy, not two of them".into(),
+                    "give a score (or scores), a behaviour, a strategy or counts, not two of them"
+                        .into(),
                 ));
             }
+            let has_strategy = strategy.is_some();
             let given = match (&a.behaviour_text, strategy) {
+                _ if a.counts_text.is_some() && (a.behaviour_text.is_some() || has_strategy) => {
+                    return Err(usage(
+                        "give a behaviour, a strategy or counts, not two of them".into(),
+                    ))
+                }
                 (Some(_), Some(_)) => {
                     return Err(usage("give a behaviour or a strategy, not both".into()))
+                }
+                (None, None) if a.counts_text.is_some() => {
+                    let text = a.counts_text.as_deref().unwrap_or_default();
+                    let name = a.counts_name.as_deref().unwrap_or("<string>");
+                    EntropyGiven::Counts {
+                        counts: Counts::from_yaml(text, name).map_err(to_py)?,
+                        error: a.alpha.unwrap_or(1e-6),
+                    }
                 }
                 (Some(text), None) => {
                     let name = a.behaviour_name.as_deref().unwrap_or("<string>");

@@ -159,8 +159,13 @@ pub enum Command {
         #[command(flatten)]
         args: GameArgs,
         /// Number of rounds played.
-        #[arg(long)]
-        rounds: u64,
+        #[arg(long, required_unless_present = "counts")]
+        rounds: Option<u64>,
+        /// The lab's counts instead of a summary: a counts file (per joint question, the rounds
+        /// and the count of each joint answer, no-clicks binned as the file says); the
+        /// per-round estimator is stated in the output.
+        #[arg(long, value_name = "FILE", conflicts_with_all = ["rounds", "wins", "score_sum", "score_range"])]
+        counts: Option<PathBuf>,
         /// Rounds won (a game).
         #[arg(long, conflicts_with = "score_sum")]
         wins: Option<u64>,
@@ -216,8 +221,17 @@ pub enum Command {
         sweep: Option<String>,
         /// Condition on the devices' full behaviour instead: a correlations file with the
         /// game's players (it must be no-signalling).
-        #[arg(long, value_name = "FILE", conflicts_with = "strategy")]
+        #[arg(long, value_name = "FILE", conflicts_with_all = ["strategy", "counts"])]
         behaviour: Option<PathBuf>,
+        /// Condition on a lab's counts instead: every quantum behaviour in their confidence
+        /// region (two-sided Clopper–Pearson intervals for every probability, union bound, error
+        /// `--alpha`; i.i.d. rounds). Slightly signalling data need no projection; data with no
+        /// quantum behaviour in the region are refused.
+        #[arg(long, value_name = "FILE", conflicts_with_all = ["strategy", "score", "sweep"])]
+        counts: Option<PathBuf>,
+        /// The confidence region's error probability (with --counts).
+        #[arg(long, default_value_t = 1e-6, value_parser = parse_finite)]
+        alpha: f64,
         /// Condition on the behaviour of a strategy file instead (as written by `bellgap
         /// seesaw --save`), computed by the Born rule.
         #[arg(long, value_name = "FILE")]

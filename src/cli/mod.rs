@@ -21,13 +21,14 @@ use bellgap::formats::game::{product, Game};
 use bellgap::formats::protocol_file::ProtocolFile;
 use bellgap::limits::human_seconds;
 use bellgap::model::correlations::Correlations;
+use bellgap::model::counts::Counts;
 use bellgap::model::strategy::QuantumStrategy;
 use bellgap::optim::first_order::IterationReport;
-use bellgap::pipeline::{self, EntropyGiven, Observer, Stage};
+use bellgap::pipeline::{self, EntropyGiven, Observer, RunData, Stage};
 use bellgap::render::{charts, document, json, text};
 use bellgap::{Error, Result};
 
-use request::{DocumentFormat, FamilyChoice, GameInput, Invocation, Request};
+use request::{DocumentFormat, FamilyChoice, GameInput, Invocation, Request, RunInput};
 
 /// What a command produced: text for people, one JSON object for programs, warnings for stderr.
 pub struct Output {
@@ -226,7 +227,13 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
         }
         Request::Margin { game, run, options } => {
             let game = load(game)?;
-            let r = pipeline::margin(&game, run, options, &observer)?;
+            let run = match run {
+                RunInput::Summary(run) => RunData::Summary(*run),
+                RunInput::Counts(file) => {
+                    RunData::Counts(Counts::from_file(&file.to_string_lossy())?)
+                }
+            };
+            let r = pipeline::margin(&game, &run, options, &observer)?;
             Ok(output(text::margin(&r), &r, &game.warnings))
         }
         Request::Randomness { game, options, svg } => {
@@ -241,10 +248,18 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             game,
             behaviour,
             strategy,
+            counts,
             options,
         } => {
             let game = load(game)?;
             let mut options = options.clone();
+            if let Some((file, alpha)) = counts {
+                let c = Counts::from_file(&file.to_string_lossy())?;
+                options.given = EntropyGiven::Counts {
+                    counts: c,
+                    error: *alpha,
+                };
+            }
             if let Some(file) = behaviour {
                 let c = Correlations::from_file(&file.to_string_lossy())?;
                 options.given = EntropyGiven::Behaviour(c);

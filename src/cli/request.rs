@@ -82,6 +82,15 @@ pub enum FamilyChoice {
     },
 }
 
+/// A run's data as typed: a summary, or a counts file the runner reads.
+#[derive(Debug, Clone, PartialEq)]
+pub enum RunInput {
+    /// Rounds with wins or a score sum.
+    Summary(ObservedRun),
+    /// A counts file.
+    Counts(PathBuf),
+}
+
 /// A command with every option converted.
 #[derive(Debug, Clone)]
 pub enum Request {
@@ -124,7 +133,7 @@ pub enum Request {
     /// `margin`.
     Margin {
         game: GameInput,
-        run: ObservedRun,
+        run: RunInput,
         options: MarginOptions,
     },
     /// `randomness`.
@@ -133,11 +142,13 @@ pub enum Request {
         options: RandomnessOptions,
         svg: Option<PathBuf>,
     },
-    /// `entropy`; the behaviour file, when given, is read by the runner.
+    /// `entropy`; the behaviour, strategy or counts file, when given, is read by the runner
+    /// (counts with the confidence region's error).
     Entropy {
         game: GameInput,
         behaviour: Option<PathBuf>,
         strategy: Option<PathBuf>,
+        counts: Option<(PathBuf, f64)>,
         options: EntropyCommandOptions,
     },
     /// `finite-size`.
@@ -444,6 +455,7 @@ impl Invocation {
             Command::Margin {
                 args,
                 rounds,
+                counts,
                 wins,
                 score_sum,
                 score_range: range,
@@ -452,11 +464,19 @@ impl Invocation {
                 expected,
             } => Request::Margin {
                 game: game_input(args),
-                run: ObservedRun {
-                    rounds: *rounds,
-                    wins: *wins,
-                    score_sum: *score_sum,
-                    score_range: score_range(range.as_ref())?,
+                run: match (counts, rounds) {
+                    (Some(file), _) => RunInput::Counts(file.clone()),
+                    (None, Some(rounds)) => RunInput::Summary(ObservedRun {
+                        rounds: *rounds,
+                        wins: *wins,
+                        score_sum: *score_sum,
+                        score_range: score_range(range.as_ref())?,
+                    }),
+                    (None, None) => {
+                        return Err(Error::Usage(
+                            "give --rounds (with --wins or --score-sum) or --counts".into(),
+                        ))
+                    }
                 },
                 options: MarginOptions {
                     alpha: *alpha,
@@ -495,6 +515,8 @@ impl Invocation {
                 sweep: spec,
                 behaviour,
                 strategy,
+                counts,
+                alpha,
                 answers,
                 hierarchy,
                 key_with,
@@ -504,17 +526,20 @@ impl Invocation {
                 game: game_input(args),
                 behaviour: behaviour.clone(),
                 strategy: strategy.clone(),
+                counts: counts.clone().map(|c| (c, *alpha)),
                 options: EntropyCommandOptions {
                     target: first_answer(answers),
                     with: second_answer(answers),
                     // A behaviour or a strategy replaces the scores once the runner has read it.
                     given: EntropyGiven::Scores(match (score, spec) {
-                        _ if behaviour.is_some() || strategy.is_some() => Vec::new(),
+                        _ if behaviour.is_some() || strategy.is_some() || counts.is_some() => {
+                            Vec::new()
+                        }
                         (_, Some(spec)) => sweep(spec)?,
                         (Some(v), None) => vec![*v],
                         (None, None) => {
                             return Err(Error::Usage(
-                                "give --score, --sweep, --behaviour or --strategy".into(),
+                                "give --score, --sweep, --behaviour, --strategy or --counts".into(),
                             ))
                         }
                     }),

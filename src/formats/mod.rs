@@ -6,6 +6,7 @@
 
 pub mod certificate;
 pub mod correlations;
+pub mod counts;
 pub(crate) mod fields;
 pub mod files;
 pub mod formula;

@@ -4,6 +4,7 @@
 
 pub mod collins_gisin;
 pub mod correlations;
+pub mod counts;
 pub mod region;
 pub mod scenario;
 pub mod strategy;

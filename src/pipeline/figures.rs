@@ -15,8 +15,9 @@ use crate::formats::correlations::ROW_TOLERANCE;
 use crate::formats::game::Game;
 use crate::limits::Limits;
 use crate::model::correlations::Correlations;
+use crate::model::counts::Counts;
 use crate::model::region::BehaviourRegion;
-use crate::model::scenario::Scenario;
+use crate::model::scenario::{Party, Scenario};
 use crate::model::strategy::QuantumStrategy;
 use crate::protocol::finite::{self, Margin, ObservedRun};
 use crate::protocol::key::{
@@ -57,17 +58,42 @@ pub struct MarginReport<'a> {
     pub game: &'a Game,
     /// Confidence bounds, margin, p-value and rounds needed.
     pub margin: Margin,
+    /// With counts: the per-round estimator used, in words.
+    pub estimator: Option<String>,
+}
+
+/// What a run's data are: a summary (rounds and wins or a score sum), or the lab's counts.
+#[derive(Debug, Clone)]
+pub enum RunData {
+    /// Rounds with wins or a score sum.
+    Summary(ObservedRun),
+    /// Counts per joint question and joint answer.
+    Counts(Counts),
+}
+
+impl RunData {
+    /// The observation the margin is computed from, and the estimator in words (with counts).
+    pub fn observation(&self, s: &Scenario) -> Result<(finite::Observation, Option<String>)> {
+        match self {
+            RunData::Summary(run) => Ok((finite::observation(s, run)?, None)),
+            RunData::Counts(c) => {
+                check_same_parties(s, &c.parties, &c.name)?;
+                let (obs, e) = finite::observation_of_counts(s, c)?;
+                Ok((obs, Some(e.estimator)))
+            }
+        }
+    }
 }
 
 /// The `margin` command: the run checked against the game, then its figures against the exact
 /// classical value.
 pub fn margin<'a>(
     game: &'a Game,
-    run: &ObservedRun,
+    run: &RunData,
     options: &MarginOptions,
     observer: &dyn Observer,
 ) -> Result<MarginReport<'a>> {
-    let obs = finite::observation(&game.scenario, run)?;
+    let (obs, estimator) = run.observation(&game.scenario)?;
     let classical = classical_observed(
         &game.scenario,
         &options.classical,
@@ -82,7 +108,11 @@ pub fn margin<'a>(
         options.target_p_value,
         options.expected,
     )?;
-    Ok(MarginReport { game, margin })
+    Ok(MarginReport {
+        game,
+        margin,
+        estimator,
+    })
 }
 
 /// A player and question chosen by name and label (defaults: the first player or the given
@@ -367,8 +397,16 @@ pub enum EntropyGiven {
     Scores(Vec<f64>),
     /// The devices' full behaviour (a correlations file with the game's players).
     Behaviour(Correlations),
-    /// Every behaviour in a region (e.g. the confidence region of measured counts).
+    /// Every behaviour in a region (a typed tolerance, or any region built by the caller).
     Region(BehaviourRegion),
+    /// A lab's counts: every behaviour in their confidence region of error `error`
+    /// ([`Counts::confidence_region`]).
+    Counts {
+        /// The counts.
+        counts: Counts,
+        /// The probability that the true behaviour lies outside the region.
+        error: f64,
+    },
     /// The behaviour of an explicit quantum strategy (by the Born rule), e.g. the see-saw's.
     Strategy {
         /// The strategy (checked against the game before use).
@@ -520,6 +558,12 @@ pub fn entropy<'a>(
                 ),
             )
         }
+        EntropyGiven::Counts { counts, error } => {
+            check_same_parties(s, &counts.parties, &counts.name)?;
+            let region = counts.confidence_region(*error)?;
+            let given = region.description.clone();
+            (vec![(None, EntropyConstraint::Region(region))], given)
+        }
         EntropyGiven::Region(region) => (
             vec![(None, EntropyConstraint::Region(region.clone()))],
             region.description.clone(),
@@ -603,11 +647,39 @@ pub fn entropy<'a>(
                 .hierarchy
                 .preprocessing
                 .apply_to_rows(&key_pair_table(s, &region.centre, (pa, xa), (pb, yb)));
-            let h = error_correction_entropy_within(&table, distance)?;
+            let by_continuity = error_correction_entropy_within(&table, distance)?;
+            // Fano's inequality at the largest error rate the region allows is a second valid
+            // bound (often tighter for a wide confidence region): H(A|B) ≤ h(Q) + Q log₂(d − 1),
+            // increasing in Q up to 1 − 1/d, with Q the sum of the upper ends of the table's
+            // off-diagonal entries (the flip maps it to its own, larger-is-worse, error rate).
+            let upper = key_pair_table(s, &region.upper, (pa, xa), (pb, yb));
+            let d = upper.len();
+            let raw_most: f64 = upper
+                .iter()
+                .enumerate()
+                .flat_map(|(a, row)| {
+                    row.iter()
+                        .enumerate()
+                        .filter(move |(b, _)| *b != a)
+                        .map(|(_, v)| v.max(0.0))
+                })
+                .sum();
+            let q = options
+                .hierarchy
+                .preprocessing
+                .error_rate(raw_most.min(1.0), d)
+                .min(1.0 - 1.0 / d as f64);
+            let by_fano = if d <= 1 {
+                0.0
+            } else {
+                ((binary_entropy(q) + q * (d as f64 - 1.0).log2()) * (1.0 + 1e-12))
+                    .min((d as f64).log2())
+            };
+            let h = by_continuity.min(by_fano);
             Some((
                 h,
                 format!(
-                    "H(A|B) of the behaviour's answers of {} (question {}{}) and {} (question {})",
+                    "H(A|B) of the behaviour's answers of {} (question {}{}) and {} (question {}), bounded over the whole region (continuity or Fano at the largest error rate, the smaller)",
                     s.parties()[pa].name,
                     s.parties()[pa].question_labels[xa],
                     match options.hierarchy.preprocessing {
@@ -692,16 +764,20 @@ pub(crate) fn target_name(s: &Scenario, target: &Target) -> String {
 
 /// Refuses correlations whose players differ from the game's (names, question and answer counts).
 fn check_same_players(s: &Scenario, c: &Correlations) -> Result<()> {
-    let same = c.parties.len() == s.players()
-        && c.parties.iter().zip(s.parties()).all(|(a, b)| {
+    check_same_parties(s, &c.parties, &c.name)
+}
+
+/// Refuses data whose players differ from the game's (names, question and answer counts).
+pub(crate) fn check_same_parties(s: &Scenario, parties: &[Party], name: &str) -> Result<()> {
+    let same = parties.len() == s.players()
+        && parties.iter().zip(s.parties()).all(|(a, b)| {
             a.name == b.name && a.questions() == b.questions() && a.answers() == b.answers()
         });
     if same {
         Ok(())
     } else {
         Err(Error::InvalidArgument(format!(
-            "the behaviour `{}` does not have the game's players (names, question and answer counts, in order)",
-            c.name
+            "the data `{name}` do not have the game's players (names, question and answer counts, in order)"
         )))
     }
 }

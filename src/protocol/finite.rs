@@ -11,6 +11,7 @@ use serde::Serialize;
 use crate::error::{Error, Result};
 use crate::stats::clopper_pearson_lower;
 
+use crate::model::counts::{Counts, ScoreEstimate};
 use crate::model::scenario::{Scenario, ScoreKind};
 
 /// Observed data: the number of rounds and the sum of per-round scores, each in [low, high]
@@ -75,7 +76,7 @@ pub struct Margin {
 }
 
 /// What the user reported of a run, before it is checked against the game.
-#[derive(Debug, Clone, Copy, Default)]
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
 pub struct ObservedRun {
     /// Rounds played.
     pub rounds: u64,
@@ -174,6 +175,33 @@ pub fn rounds_needed(width: f64, gap: f64, target_p_value: f64) -> Option<u64> {
         .then(|| ((1.0 / target_p_value).ln() * width * width / (2.0 * gap * gap)).ceil())
         .filter(|r| r.is_finite() && *r < u64::MAX as f64)
         .map(|r| r as u64)
+}
+
+/// The observation of a run given as counts: the per-round estimator of
+/// [`Counts::score_estimate`] (wins when the game is win/lose under its own distribution, so the
+/// exact binomial bound applies), with the estimator's own range.
+pub fn observation_of_counts(
+    s: &Scenario,
+    counts: &Counts,
+) -> Result<(Observation, ScoreEstimate)> {
+    let e = counts.score_estimate(s)?;
+    let (low, high) = e.range;
+    if high.partial_cmp(&low) != Some(std::cmp::Ordering::Greater) {
+        return Err(Error::InvalidArgument(format!(
+            "every round of the counts `{}` scores {low}: nothing can be certified",
+            counts.name
+        )));
+    }
+    Ok((
+        Observation {
+            rounds: e.rounds,
+            score_sum: e.wins.map_or(e.score_sum, |w| w as f64),
+            low: if e.wins.is_some() { 0.0 } else { low },
+            high: if e.wins.is_some() { 1.0 } else { high },
+            binary: e.wins.is_some(),
+        },
+        e,
+    ))
 }
 
 /// Margins, p-value and rounds needed for an observation against a classical value.

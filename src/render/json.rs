@@ -373,6 +373,8 @@ struct MarginView<'a> {
     command: &'static str,
     game: &'a str,
     caution: &'static str,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    estimator: Option<&'a str>,
     #[serde(flatten)]
     margin: &'a Margin,
 }
@@ -384,6 +386,7 @@ impl Serialize for MarginReport<'_> {
             command: "margin",
             game: &self.game.name,
             caution: CAUTION,
+            estimator: self.estimator.as_deref(),
             margin: &self.margin,
         }
         .serialize(serializer)

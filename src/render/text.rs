@@ -431,6 +431,11 @@ pub fn margin(report: &MarginReport) -> String {
         ),
         ("rounds".to_string(), m.rounds.to_string()),
         ("observed mean".to_string(), num(m.observed_mean)),
+    ];
+    if let Some(e) = &report.estimator {
+        rows.push(("per-round estimator".into(), e.clone()));
+    }
+    rows.extend([
         (
             "per-round score range".to_string(),
             format!("[{}, {}]", num(m.score_range[0]), num(m.score_range[1])),
@@ -442,7 +447,7 @@ pub fn margin(report: &MarginReport) -> String {
             ),
             num(m.certified_score),
         ),
-    ];
+    ]);
     rows.push(("classical value".into(), num(m.classical)));
     rows.push((format!("margin ({})", m.confidence_method), num(m.margin)));
     rows.push((
