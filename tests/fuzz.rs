@@ -357,6 +357,79 @@ proptest! {
     }
 }
 
+/// A counts entry as a file may spell it: whole numbers, and hostile ones.
+fn count() -> impl Strategy<Value = String> {
+    prop_oneof![
+        4 => (0u64..50).prop_map(|v| v.to_string()),
+        1 => number(),
+        1 => Just("9007199254740992".to_string()),
+        1 => Just("9007199254740993".to_string()),
+        1 => Just("18446744073709551615".to_string()),
+        1 => Just("18446744073709551616".to_string()),
+        1 => Just("-0".to_string()),
+        1 => Just("3.0".to_string()),
+    ]
+}
+
+/// Counts files of two players (2 questions × 2 answers, optionally a no-click for Alice), with
+/// hostile entries and structure-level mutations.
+fn counts_text() -> impl Strategy<Value = String> {
+    (
+        any::<bool>(),
+        proptest::collection::vec(proptest::collection::vec(count(), 4..8), 3..6),
+        proptest::collection::vec(prop_oneof![Just(None), count().prop_map(Some)], 4),
+    )
+        .prop_map(|(no_click, rows, rounds)| {
+            let mut text = format!(
+                "players:\n  - {{name: alice, questions: 2, answers: 2{}}}\n  - {{name: bob, questions: 2, answers: 2}}\ncounts:\n",
+                if no_click { ", no_click: 1" } else { "" }
+            );
+            for (k, row) in rows.iter().enumerate() {
+                text += &format!(
+                    "  - questions: [{}, {}]\n",
+                    (k / 2) % 3,
+                    k % 2
+                );
+                if let Some(Some(r)) = rounds.get(k) {
+                    text += &format!("    rounds: {r}\n");
+                }
+                text += &format!("    answers: [{}]\n", row.join(", "));
+            }
+            text
+        })
+        .prop_flat_map(|text| prop_oneof![Just(text.clone()), mutated(text)])
+}
+
+proptest! {
+    #![proptest_config(cases(400))]
+
+    /// Hostile counts files are accepted or refused with a location, never a panic; what is
+    /// accepted has whole counts adding up to each row's rounds, and its confidence region
+    /// contains the frequencies with every interval inside [0, 1].
+    #[test]
+    fn counts_files_parse_or_fail_with_a_location(text in counts_text()) {
+        let r = catch_unwind(AssertUnwindSafe(|| bellgap::model::counts::Counts::from_yaml(&text, "c.yaml")));
+        prop_assert!(r.is_ok(), "panic on {text}");
+        match r.unwrap() {
+            Ok(c) => {
+                let na = 4;
+                for (q, &n) in c.rounds.iter().enumerate() {
+                    prop_assert!(n > 0);
+                    prop_assert_eq!(c.counts[q * na..(q + 1) * na].iter().sum::<u64>(), n);
+                }
+                let region = c.confidence_region(1e-3).unwrap();
+                prop_assert!(region.contains(&c.frequencies()));
+                prop_assert!(region.lower.iter().all(|v| (0.0..=1.0).contains(v)));
+                prop_assert!(region.upper.iter().all(|v| (0.0..=1.0).contains(v)));
+            }
+            Err(e) => {
+                let shown = e.to_string();
+                prop_assert!(shown.contains("c.yaml"), "{shown}");
+            }
+        }
+    }
+}
+
 // ---------------------------------------------------------------------------------------------
 // The binary: exit codes, one JSON object, bounds in order
 

@@ -570,10 +570,17 @@ def margin(
 
 
 def randomness(game: GameLike, score=None, scores=None, player=None, question=None,
-               with_player=None, with_question=None, level: str = "2") -> Result:
-    """Certified min-entropy from the guessing probability at a score (or a list of scores)."""
+               with_player=None, with_question=None, level: str = "2", counts=None,
+               alpha=None) -> Result:
+    """Certified min-entropy from the guessing probability at a score (or a list of scores),
+    or at the lower confidence score of ``counts`` (a counts file's path, its YAML text or a
+    dict) with error ``alpha`` (default 1e-6)."""
+    extra = {}
+    if counts is not None:
+        extra["counts_text"], extra["counts_name"] = _text_and_name(counts)
+        extra["alpha"] = alpha
     return _figure_command(
-        "randomness", game, score=score, scores=scores, player=player, question=question,
+        "randomness", game, **extra, score=score, scores=scores, player=player, question=question,
         with_player=with_player, with_question=with_question, level=level,
     )
 

@@ -729,11 +729,29 @@ fn run_figure(
             })
         }
         "randomness" => {
+            let from_counts = match &a.counts_text {
+                Some(text) => {
+                    if a.score.is_some() || a.scores.is_some() {
+                        return Err(usage("give scores or counts, not both".into()));
+                    }
+                    let name = a.counts_name.as_deref().unwrap_or("<string>");
+                    Some((
+                        Counts::from_yaml(text, name).map_err(to_py)?,
+                        a.alpha.unwrap_or(1e-6),
+                    ))
+                }
+                None => None,
+            };
             let o = RandomnessOptions {
                 guessed: target,
                 with,
-                scores: scores_of(&a)?,
+                scores: if from_counts.is_some() {
+                    Vec::new()
+                } else {
+                    scores_of(&a)?
+                },
                 level: Level::parse(a.level.as_deref().unwrap_or("2")).map_err(to_py)?,
+                from_counts,
             };
             interruptible(py, move || {
                 Ok(reply(to_value(&pipeline::randomness(&game, &o)?), None))

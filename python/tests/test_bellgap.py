@@ -395,3 +395,28 @@ def test_ctrl_c_interrupts_a_long_computation():
     finally:
         child.kill()
     assert out.strip() == "interrupted", out
+
+
+def test_counts_give_the_command_lines_figures():
+    # A simulated lab run (invented data, no-clicks binned): margin, randomness and entropy from
+    # the counts agree with the command line's.
+    counts = os.path.join("examples", "data", "lab-counts.yaml")
+    chsh = os.path.join(ROOT, "games", "chsh.yaml")
+    game_rel = os.path.join("games", "chsh.yaml")
+    a = bellgap.margin(chsh, counts=os.path.join(ROOT, counts)).to_dict()
+    b = cli_json("margin", game_rel, "--counts", counts)
+    assert_same(without_timing(a), without_timing(b))
+    assert a["confidence_method"] == "Clopper–Pearson"
+    assert a["rounds"] == 240000
+    r = bellgap.randomness(chsh, counts=os.path.join(ROOT, counts)).to_dict()
+    s = cli_json("randomness", game_rel, "--counts", counts)
+    assert abs(r["guessing_probability"] - s["guessing_probability"]) < 1e-9
+    assert abs(r["score"] - a["certified_score"]) < 1e-15
+    light = ["--nodes", "4", "--adversary-words", "with-projectors", "--alpha", "1e-3"]
+    e = bellgap.entropy(chsh, counts=os.path.join(ROOT, counts), alpha=1e-3, nodes=4,
+                        adversary_words="with-projectors").results[0]
+    f = cli_json("entropy", game_rel, "--counts", counts, *light)["results"][0]
+    assert abs(e["entropy"]["bits"] - f["entropy"]["bits"]) < 1e-9
+    assert e["entropy"]["bits"] > 0.1
+    with pytest.raises(bellgap.UsageError):
+        bellgap.margin(chsh, rounds=10, wins=8, counts=os.path.join(ROOT, counts))

@@ -192,11 +192,18 @@ pub enum Command {
         #[command(flatten)]
         args: GameArgs,
         /// The score (in the game's own units).
-        #[arg(long, allow_hyphen_values = true, required_unless_present = "sweep", value_parser = parse_finite, long_help = SCORE_HELP)]
+        #[arg(long, allow_hyphen_values = true, required_unless_present_any = ["sweep", "counts"], value_parser = parse_finite, long_help = SCORE_HELP)]
         score: Option<f64>,
         /// Sweep the score: LOW:HIGH:POINTS.
-        #[arg(long)]
+        #[arg(long, conflicts_with = "counts")]
         sweep: Option<String>,
+        /// A lab's counts instead of a score: the bound at their lower confidence score (exact
+        /// binomial for a win/lose game, Hoeffding otherwise; error `--alpha`, i.i.d. rounds).
+        #[arg(long, value_name = "FILE", conflicts_with = "score")]
+        counts: Option<PathBuf>,
+        /// The lower confidence score's error probability (with --counts).
+        #[arg(long, default_value_t = 1e-6, value_parser = parse_finite)]
+        alpha: f64,
         #[command(flatten)]
         answers: AnswerArgs,
         /// NPA level of the relaxation.

@@ -236,9 +236,18 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             let r = pipeline::margin(&game, &run, options, &observer)?;
             Ok(output(text::margin(&r), &r, &game.warnings))
         }
-        Request::Randomness { game, options, svg } => {
+        Request::Randomness {
+            game,
+            options,
+            counts,
+            svg,
+        } => {
             let game = load(game)?;
-            let r = pipeline::randomness(&game, options)?;
+            let mut options = options.clone();
+            if let Some((file, alpha)) = counts {
+                options.from_counts = Some((Counts::from_file(&file.to_string_lossy())?, *alpha));
+            }
+            let r = pipeline::randomness(&game, &options)?;
             if let Some(file) = svg {
                 write(file, &charts::min_entropy(&r), inputs)?;
             }

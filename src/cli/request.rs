@@ -140,6 +140,8 @@ pub enum Request {
     Randomness {
         game: GameInput,
         options: RandomnessOptions,
+        /// A counts file and the error of its lower confidence score (read by the runner).
+        counts: Option<(PathBuf, f64)>,
         svg: Option<PathBuf>,
     },
     /// `entropy`; the behaviour, strategy or counts file, when given, is read by the runner
@@ -492,6 +494,8 @@ impl Invocation {
                 args,
                 score,
                 sweep: spec,
+                counts,
+                alpha,
                 answers,
                 level,
                 svg,
@@ -501,12 +505,17 @@ impl Invocation {
                     guessed: first_answer(answers),
                     with: second_answer(answers),
                     scores: match (score, spec) {
+                        _ if counts.is_some() => Vec::new(),
                         (_, Some(spec)) => sweep(spec)?,
                         (Some(v), None) => vec![*v],
-                        (None, None) => return Err(Error::Usage("give --score or --sweep".into())),
+                        (None, None) => {
+                            return Err(Error::Usage("give --score, --sweep or --counts".into()))
+                        }
                     },
                     level: Level::parse(level)?,
+                    from_counts: None,
                 },
+                counts: counts.clone().map(|c| (c, *alpha)),
                 svg: svg.clone(),
             },
             Command::Entropy {

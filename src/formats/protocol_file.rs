@@ -6,6 +6,8 @@
 //! game: ../games/chsh.yaml      # relative to this file
 //! rounds: 200000
 //! wins: 170000                  # a game; for a Bell expression: score_sum and score_range
+//!                               # (or instead of rounds and wins: counts: FILE, a counts file
+//!                               # relative to this file)
 //! alpha: 1e-6                   # error probability of the confidence bounds (default 1e-6)
 //! target_p_value: 1e-9          # for `rounds needed` (default 1e-9)
 //! randomness: {player: alice, question: 0, level: 2}   # optional
@@ -27,6 +29,7 @@ use serde::Deserialize;
 use super::files::read_text;
 use super::located::yaml_error;
 use crate::error::Result;
+use crate::model::counts::Counts;
 
 /// A protocol run as the file describes it (unchecked against the game: the review does that).
 #[derive(Debug, Clone, Deserialize)]
@@ -37,8 +40,12 @@ pub struct ProtocolSpec {
     pub name: Option<String>,
     /// The game file, relative to the protocol file.
     pub game: String,
-    /// Rounds played.
-    pub rounds: u64,
+    /// Rounds played (with `wins` or `score_sum`; not with `counts`).
+    #[serde(default)]
+    pub rounds: Option<u64>,
+    /// The lab's counts file instead of a summary, relative to this file.
+    #[serde(default)]
+    pub counts: Option<String>,
     /// Rounds won (a game).
     #[serde(default)]
     pub wins: Option<u64>,
@@ -147,6 +154,8 @@ pub struct ProtocolFile {
     pub spec: ProtocolSpec,
     /// The game file, resolved against the protocol file's folder.
     pub game_path: PathBuf,
+    /// The counts, when the file names a counts file (resolved against its folder and read).
+    pub counts: Option<Counts>,
 }
 
 impl ProtocolFile {
@@ -156,10 +165,15 @@ impl ProtocolFile {
         let spec: ProtocolSpec = serde_yaml::from_str(&text).map_err(|e| yaml_error(e, path))?;
         let base = Path::new(path).parent().unwrap_or(Path::new("."));
         let game_path = base.join(&spec.game);
+        let counts = match &spec.counts {
+            None => None,
+            Some(file) => Some(Counts::from_file(&base.join(file).to_string_lossy())?),
+        };
         Ok(ProtocolFile {
             path: path.to_string(),
             spec,
             game_path,
+            counts,
         })
     }
 }

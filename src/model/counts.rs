@@ -210,7 +210,21 @@ mod tests {
         // Each interval is the two-sided Clopper–Pearson interval at 1e-3/32 per side.
         let lo = clopper_pearson_lower(100, 40, 1e-3 / 32.0);
         assert!((r.lower[0] - lo).abs() < 1e-15);
-        assert!(r.lower[0] < 0.4 && r.upper[0] > 0.4 && r.upper[0] < 0.6);
+        let hi = 1.0 - clopper_pearson_lower(100, 60, 1e-3 / 32.0);
+        assert!((r.upper[0] - hi).abs() < 1e-15);
+        assert!(r.lower[0] < 0.4 && r.upper[0] > 0.4 && r.upper[0] < 0.7);
+        // A zero count's upper end has the closed form 1 − (ε/2K)^(1/n) (the exact binomial
+        // interval for no successes).
+        let mut z = c.clone();
+        z.counts[..4].copy_from_slice(&[0, 50, 20, 30]);
+        let r = z.confidence_region(1e-3).unwrap();
+        let closed = 1.0 - (1e-3f64 / 32.0).powf(1.0 / 100.0);
+        assert!(
+            (r.upper[0] - closed).abs() < 1e-9,
+            "{} {closed}",
+            r.upper[0]
+        );
+        assert_eq!(r.lower[0], 0.0);
         // A stated design of (1/2, 1/6, 1/6, 1/6) weights the rounds by (1/4)/λ(q).
         let mut d = c.clone();
         d.design = Some(vec![0.5, 1.0 / 6.0, 1.0 / 6.0, 1.0 / 6.0]);

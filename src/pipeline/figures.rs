@@ -179,6 +179,9 @@ pub struct RandomnessOptions {
     pub scores: Vec<f64>,
     /// NPA level of the relaxation (default 2).
     pub level: Level,
+    /// A lab's counts and an error α instead of scores: the bound at their lower confidence
+    /// score (the region "score at least that", which holds except with probability α).
+    pub from_counts: Option<(Counts, f64)>,
 }
 
 impl Default for RandomnessOptions {
@@ -188,6 +191,7 @@ impl Default for RandomnessOptions {
             with: None,
             scores: Vec::new(),
             level: Level::Length(2),
+            from_counts: None,
         }
     }
 }
@@ -205,6 +209,8 @@ pub struct RandomnessReport<'a> {
     pub results: Vec<Randomness>,
     /// Scores of a sweep that could not be certified, with the reason.
     pub not_obtained: Vec<String>,
+    /// With counts: where the score came from, in words.
+    pub given: Option<String>,
 }
 
 /// The `randomness` command. In a sweep, a score that cannot be certified (e.g. above the
@@ -212,15 +218,32 @@ pub struct RandomnessReport<'a> {
 pub fn randomness<'a>(game: &'a Game, options: &RandomnessOptions) -> Result<RandomnessReport<'a>> {
     let s = &game.scenario;
     let target = TargetChoice::target(s, &options.guessed, options.with.as_ref())?;
-    if options.scores.is_empty() {
+    let mut given = None;
+    let mut scores = options.scores.clone();
+    if let Some((counts, alpha)) = &options.from_counts {
+        if !(*alpha > 0.0 && *alpha < 1.0) {
+            return Err(Error::InvalidArgument(format!(
+                "the error probability must lie strictly between 0 and 1, got {alpha}"
+            )));
+        }
+        let (obs, estimator) = RunData::Counts(counts.clone()).observation(s)?;
+        let (score, method) = finite::certified_lower_confidence(&obs, *alpha);
+        given = Some(format!(
+            "every quantum behaviour scoring at least {score}, the {method} lower confidence bound (α = {alpha:e}, i.i.d. rounds) of the counts `{}` ({})",
+            counts.name,
+            estimator.unwrap_or_default()
+        ));
+        scores = vec![score];
+    }
+    if scores.is_empty() {
         return Err(Error::InvalidArgument("no score given".into()));
     }
     let mut results = Vec::new();
     let mut not_obtained = Vec::new();
-    for &v in &options.scores {
+    for &v in &scores {
         match guessing_probability(s, &target, v, &options.level) {
             Ok(r) => results.push(r),
-            Err(e) if options.scores.len() > 1 && !matches!(e, Error::TooLarge { .. }) => {
+            Err(e) if scores.len() > 1 && !matches!(e, Error::TooLarge { .. }) => {
                 not_obtained.push(format!("score {v}: {e}"))
             }
             Err(e) => return Err(e),
@@ -239,6 +262,7 @@ pub fn randomness<'a>(game: &'a Game, options: &RandomnessOptions) -> Result<Ran
         target_name,
         results,
         not_obtained,
+        given,
     })
 }
 

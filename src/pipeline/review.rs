@@ -5,6 +5,7 @@
 
 use serde::Serialize;
 
+use super::figures::RunData;
 use super::figures::{
     entropy, preprocessing_assumption, DevetakWinter, EntropyCommandOptions, EntropyGiven,
     ErrorCorrection, TargetChoice,
@@ -20,7 +21,7 @@ use crate::error::{Error, Location, Result};
 use crate::formats::game::{families, Game};
 use crate::formats::protocol_file::ProtocolFile;
 use crate::protocol::accumulation::SecurityParameters;
-use crate::protocol::finite::{margin, observation, rounds_needed, Margin, ObservedRun};
+use crate::protocol::finite::{margin, rounds_needed, Margin, ObservedRun};
 use crate::protocol::key::{chsh_bound, key_rate, threshold_qber, KeyRate};
 use crate::protocol::randomness::{guessing_probability, Randomness, Target};
 use crate::protocol::CAUTION;
@@ -88,6 +89,8 @@ pub struct Review<'a> {
     pub classical: f64,
     /// Confidence bounds, margin and p-value of the observed run (rounds needed at its mean).
     pub margin: Margin,
+    /// With counts: the per-round estimator, in words.
+    pub estimator: Option<String>,
     /// The see-saw's score and the rounds needed there for the target p-value (devices as good
     /// as the best strategy found).
     pub rounds_needed_at_see_saw: Option<(f64, Option<u64>)>,
@@ -164,16 +167,28 @@ pub fn review<'a>(
         },
         message: m,
     };
-    let obs = observation(
-        s,
-        &ObservedRun {
-            rounds: p.rounds,
+    let run = match (&protocol.counts, p.rounds) {
+        (Some(counts), None) if p.wins.is_none() && p.score_sum.is_none() => {
+            RunData::Counts(counts.clone())
+        }
+        (Some(_), _) => {
+            return Err(bad(
+                "give counts, or rounds with wins or a score sum, not both".into(),
+            ))
+        }
+        (None, Some(rounds)) => RunData::Summary(ObservedRun {
+            rounds,
             wins: p.wins,
             score_sum: p.score_sum,
             score_range: p.score_range.map(|[lo, hi]| (lo, hi)),
-        },
-    )
-    .map_err(|e| bad(e.to_string()))?;
+        }),
+        (None, None) => {
+            return Err(bad(
+                "give rounds (with wins or a score sum) or counts".into()
+            ))
+        }
+    };
+    let (obs, estimator) = run.observation(s).map_err(|e| bad(e.to_string()))?;
     let report = bounds(game, &BoundsOptions::default(), observer)?;
     let Some(classical) = report.classical.as_ref().map(|c| c.value) else {
         return Err(Error::solver(
@@ -324,6 +339,7 @@ pub fn review<'a>(
         bounds: report,
         classical,
         margin: m,
+        estimator,
         rounds_needed_at_see_saw,
         randomness,
         key,

@@ -204,6 +204,30 @@ pub fn observation_of_counts(
     ))
 }
 
+/// Hoeffding's lower confidence bound on the per-round expected score (Hoeffding 1963:
+/// P(mean − E ≥ t) ≤ exp(−2 n t² / width²)), and for 0/1 scores the exact binomial
+/// (Clopper–Pearson) one; i.i.d. rounds, error `alpha`.
+pub fn lower_confidence_bounds(obs: &Observation, alpha: f64) -> (f64, Option<f64>) {
+    let n = obs.rounds as f64;
+    let mean = obs.score_sum / n;
+    let width = obs.high - obs.low;
+    let hoeffding_t = width * ((1.0 / alpha).ln() / (2.0 * n)).sqrt();
+    let exact = obs.binary.then(|| {
+        let wins = obs.score_sum.round() as u64;
+        clopper_pearson_lower(obs.rounds, wins, alpha)
+    });
+    (mean - hoeffding_t, exact)
+}
+
+/// The one lower confidence bound a report uses, with its method's name: the exact binomial
+/// bound for 0/1 scores, Hoeffding's otherwise.
+pub fn certified_lower_confidence(obs: &Observation, alpha: f64) -> (f64, &'static str) {
+    match lower_confidence_bounds(obs, alpha) {
+        (_, Some(exact)) => (exact, "Clopper–Pearson"),
+        (hoeffding, None) => (hoeffding, "Hoeffding"),
+    }
+}
+
 /// Margins, p-value and rounds needed for an observation against a classical value.
 pub fn margin(
     obs: &Observation,
@@ -257,13 +281,7 @@ pub fn margin(
         )));
     }
     let width = obs.high - obs.low;
-    // Hoeffding (1963): P(mean − E ≥ t) ≤ exp(−2 n t² / width²).
-    let hoeffding_t = width * ((1.0 / alpha).ln() / (2.0 * n)).sqrt();
-    let lower_confidence = mean - hoeffding_t;
-    let lower_confidence_exact = obs.binary.then(|| {
-        let wins = obs.score_sum.round() as u64;
-        clopper_pearson_lower(obs.rounds, wins, alpha)
-    });
+    let (lower_confidence, lower_confidence_exact) = lower_confidence_bounds(obs, alpha);
     // Azuma–Hoeffding for the martingale of per-round scores under any classical (adaptive)
     // strategy: P(sum ≥ observed) ≤ exp(−2 n (mean − classical)² / width²).
     let excess = mean - classical;
@@ -281,10 +299,7 @@ pub fn margin(
     };
     let expected_mean = expected_mean.unwrap_or(mean);
     let rounds_needed = rounds_needed(width, expected_mean - classical, target_p_value);
-    let (certified_score, confidence_method) = match lower_confidence_exact {
-        Some(exact) => (exact, "Clopper–Pearson"),
-        None => (lower_confidence, "Hoeffding"),
-    };
+    let (certified_score, confidence_method) = certified_lower_confidence(obs, alpha);
     Ok(Margin {
         rounds: obs.rounds,
         observed_mean: mean,

@@ -173,6 +173,12 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
         ("rounds".into(), m.rounds.to_string()),
         ("observed mean score".into(), num(m.observed_mean)),
         (
+            "per-round estimator".into(),
+            r.estimator.clone().unwrap_or_else(|| {
+                "the score of each round (as the protocol file reports the run)".into()
+            }),
+        ),
+        (
             "per-round score range".into(),
             format!("[{}, {}]", num(m.score_range[0]), num(m.score_range[1])),
         ),

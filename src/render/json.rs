@@ -412,6 +412,8 @@ struct RandomnessView<'a> {
     command: &'static str,
     game: &'a str,
     target: &'a str,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    given: Option<&'a str>,
     caution: &'static str,
     #[serde(flatten)]
     one: Option<RandomnessOneView<'a>>,
@@ -441,6 +443,7 @@ impl Serialize for RandomnessReport<'_> {
             command: "randomness",
             game: &self.game.name,
             target: &self.target_name,
+            given: self.given.as_deref(),
             caution: CAUTION,
             sweep: one.is_none().then_some(&self.results[..]),
             one,
@@ -662,6 +665,8 @@ struct ReviewView<'a> {
     no_signalling: Option<f64>,
     margin: &'a Margin,
     #[serde(skip_serializing_if = "Option::is_none")]
+    estimator: Option<&'a str>,
+    #[serde(skip_serializing_if = "Option::is_none")]
     rounds_needed_at_see_saw: Option<RoundsAtScore>,
     randomness: Option<&'a crate::pipeline::ReviewRandomness>,
     key: Option<&'a crate::pipeline::ReviewKey>,
@@ -704,6 +709,7 @@ impl Serialize for Review<'_> {
             verified_upper: b.npa.as_ref().map(|n| n.verified_upper),
             no_signalling: b.no_signalling.as_ref().map(|n| n.value),
             margin: &self.margin,
+            estimator: self.estimator.as_deref(),
             rounds_needed_at_see_saw: self
                 .rounds_needed_at_see_saw
                 .map(|(score, rounds)| RoundsAtScore { score, rounds }),

@@ -478,9 +478,13 @@ pub fn margin(report: &MarginReport) -> String {
 pub fn randomness(report: &RandomnessReport) -> String {
     let (game, rs) = (report.game, &report.results);
     let mut out = format!(
-        "game     {} ({})\nguessed  {}\n\n",
+        "game     {} ({})\nguessed  {}\n",
         game.name, game.source, report.target_name
     );
+    if let Some(g) = &report.given {
+        out += &format!("given    {g}\n");
+    }
+    out += "\n";
     out += &format!(
         "{:>14}  {:>22}  {:>18}  {}\n",
         "score", "guessing probability ≤", "min-entropy ≥ (bits)", "solver"
