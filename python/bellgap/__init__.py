@@ -621,8 +621,10 @@ def entropy(game: GameLike, score=None, scores=None, player=None, question=None,
 def finite_size(game: GameLike, rounds: int, testing: float, threshold: float, **kwargs) -> Result:
     """What a spot-checking run certifies by entropy accumulation (``bellgap finite-size``);
     further options as keyword arguments: expected, player, question, smoothing, pass_floor,
-    extractor_error, fraction, key_disclosed_bits, max_test_rounds, tangent, tangent_points,
-    nodes, level, adversary_words, moments, solver, noisy_preprocessing."""
+    extractor_error, fraction, key_disclosed_bits or key_error_rate (with ec_efficiency),
+    verification_error, correction_failure, max_test_rounds, statement ("smaller",
+    "improved-second-order" or "original"), tangent, tangent_points, nodes, level,
+    adversary_words, moments, solver, noisy_preprocessing."""
     return _figure_command("finite_size", game, rounds=rounds, testing=testing, threshold=threshold, **kwargs)
 
 

@@ -30,10 +30,10 @@ use bellgap::model::strategy::{CMatrix, CVector};
 use bellgap::optim::first_order::FirstOrderOptions;
 use bellgap::pipeline::{
     self, BoundsOptions, EntropyCommandOptions, EntropyGiven, ErrorCorrection, EvaluateOptions,
-    FiniteSizeOptions, KeyDisclosure, MarginOptions, NpaLevelsOptions, RandomnessOptions, RunData,
-    Silent, Tangent, TargetChoice,
+    FiniteSizeOptions, KeyDisclosure, KeyParts, MarginOptions, NpaLevelsOptions, RandomnessOptions,
+    RunData, Silent, Tangent, TargetChoice,
 };
-use bellgap::protocol::accumulation::SecurityParameters;
+use bellgap::protocol::accumulation::{SecurityParameters, Statement};
 use bellgap::protocol::finite::ObservedRun;
 use bellgap::render::json::to_value;
 use bellgap::{Backend, Error, Game, Limits, QuantumStrategy, SeesawOptions};
@@ -600,6 +600,16 @@ struct FigureArgs {
     #[serde(default)]
     key_disclosed_bits: Option<f64>,
     #[serde(default)]
+    key_error_rate: Option<f64>,
+    #[serde(default)]
+    ec_efficiency: Option<f64>,
+    #[serde(default)]
+    verification_error: Option<f64>,
+    #[serde(default)]
+    correction_failure: Option<f64>,
+    #[serde(default)]
+    statement: Option<String>,
+    #[serde(default)]
     max_test_rounds: Option<u64>,
     #[serde(default)]
     tangent: Option<f64>,
@@ -838,13 +848,30 @@ fn run_figure(
                     smoothing: a.smoothing.unwrap_or(security.smoothing),
                     pass_floor: a.pass_floor.unwrap_or(security.pass_floor),
                     extraction: a.extractor_error.unwrap_or(security.extraction),
+                    statement: match &a.statement {
+                        Some(name) => Statement::parse(name).map_err(to_py)?,
+                        None => security.statement,
+                    },
                 },
                 expected: a.expected,
                 fraction: a.fraction.unwrap_or(defaults.fraction),
-                key: a.key_disclosed_bits.map(|bits| KeyDisclosure {
-                    error_correction_bits: bits,
-                    max_test_rounds: a.max_test_rounds,
-                }),
+                key: {
+                    let parts = KeyParts {
+                        disclosed_bits: a.key_disclosed_bits,
+                        error_rate: a.key_error_rate,
+                        efficiency: a.ec_efficiency,
+                        verification_error: a.verification_error,
+                        correction_failure: a.correction_failure,
+                        max_test_rounds: a.max_test_rounds,
+                    };
+                    let key = KeyDisclosure::from_parts(parts).map_err(to_py)?;
+                    if key.is_none() && parts != KeyParts::default() {
+                        return Err(usage(
+                            "the key options need key_disclosed_bits or key_error_rate".into(),
+                        ));
+                    }
+                    key
+                },
                 tangent: match a.tangent {
                     Some(s) => Tangent::At(s),
                     None => Tangent::Search(

@@ -288,14 +288,34 @@ pub enum Command {
         /// Report the rounds at which the rate reaches this fraction of its limit.
         #[arg(long, default_value_t = 0.9, value_parser = parse_finite)]
         fraction: f64,
-        /// Key instead of randomness: the bits error correction and its check disclosed over
-        /// the run.
-        #[arg(long, value_parser = parse_finite)]
+        /// Key instead of randomness: the bits error correction disclosed over the run (the
+        /// verification hash is counted separately, from --verification-error).
+        #[arg(long, value_parser = parse_finite, conflicts_with = "key_error_rate")]
         key_disclosed_bits: Option<f64>,
+        /// Key instead of randomness: the key pair's error rate Q; error correction then
+        /// discloses n·f·(h(Q) + Q·log₂(d − 1)) bits (Fano's bound times the efficiency f).
+        #[arg(long, value_parser = parse_finite)]
+        key_error_rate: Option<f64>,
+        /// Key: the error-correcting code's efficiency f ≥ 1 (default 1.16, common practice in
+        /// reports of experiments; state your code's own).
+        #[arg(long, value_parser = parse_finite, requires = "key_error_rate")]
+        ec_efficiency: Option<f64>,
+        /// Key: ε_EC, the verification hash's collision probability (the key's correctness
+        /// error); the hash discloses ⌈log₂(1/ε_EC)⌉ bits [default: 1e-9].
+        #[arg(long, value_parser = parse_finite)]
+        verification_error: Option<f64>,
+        /// Key: the probability that error correction fails on honest devices, as the code's
+        /// designer states it (added to the completeness error; not computed here).
+        #[arg(long, value_parser = parse_finite)]
+        correction_failure: Option<f64>,
         /// Key: the most test rounds the protocol allows (default: a Chernoff cap that honest
         /// runs exceed with probability at most 1e-9).
-        #[arg(long, requires = "key_disclosed_bits")]
+        #[arg(long)]
         max_test_rounds: Option<u64>,
+        /// Which entropy accumulation statement certifies: smaller (both evaluated, the
+        /// smaller bound certified), improved-second-order or original.
+        #[arg(long, default_value = "smaller")]
+        statement: String,
         /// The score where the min-tradeoff line touches the entropy bound (default: the best
         /// of --tangent-points scores from the threshold down towards the classical value).
         #[arg(long, allow_hyphen_values = true, value_parser = parse_finite, conflicts_with = "tangent_points")]
@@ -356,6 +376,10 @@ pub enum Command {
     Local {
         /// Correlations file (YAML or JSON, see README).
         correlations: PathBuf,
+        /// The file is a counts file: the test runs on its frequencies, with its rounds for
+        /// the signalling p-value.
+        #[arg(long)]
+        counts: bool,
         /// Write the separating Bell expression (if any) as a game file here.
         #[arg(long, value_name = "FILE")]
         save: Option<PathBuf>,

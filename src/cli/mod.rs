@@ -332,10 +332,16 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
         }
         Request::Local {
             correlations,
+            counts,
             save,
             limits,
         } => {
-            let c = Correlations::from_file(&correlations.to_string_lossy())?;
+            let path = correlations.to_string_lossy();
+            let c = if *counts {
+                Counts::from_file(&path)?.as_correlations()
+            } else {
+                Correlations::from_file(&path)?
+            };
             let r = pipeline::local(&c, limits)?;
             let mut saved = None;
             if let (Some(file), Some(sep)) = (save, &r.test.separating) {

@@ -16,10 +16,10 @@ use bellgap::optim::backend::Backend;
 use bellgap::optim::first_order::FirstOrderOptions;
 use bellgap::pipeline::{
     BoundsOptions, EntropyCommandOptions, EntropyGiven, ErrorCorrection, EvaluateOptions,
-    FiniteSizeOptions, KeyDisclosure, KeyOptions, MarginOptions, NpaLevelsOptions,
+    FiniteSizeOptions, KeyDisclosure, KeyOptions, KeyParts, MarginOptions, NpaLevelsOptions,
     RandomnessOptions, Tangent, TargetChoice,
 };
-use bellgap::protocol::accumulation::SecurityParameters;
+use bellgap::protocol::accumulation::{SecurityParameters, Statement};
 use bellgap::protocol::finite::ObservedRun;
 use bellgap::{Error, Result};
 
@@ -176,6 +176,8 @@ pub enum Request {
     /// `local`.
     Local {
         correlations: PathBuf,
+        /// Whether the file is a counts file.
+        counts: bool,
         save: Option<PathBuf>,
         limits: Limits,
     },
@@ -574,7 +576,12 @@ impl Invocation {
                 extractor_error,
                 fraction,
                 key_disclosed_bits,
+                key_error_rate,
+                ec_efficiency,
+                verification_error,
+                correction_failure,
                 max_test_rounds,
+                statement,
                 tangent,
                 tangent_points,
                 answers,
@@ -592,13 +599,28 @@ impl Invocation {
                         smoothing: *smoothing,
                         pass_floor: *pass_floor,
                         extraction: *extractor_error,
+                        statement: Statement::parse(statement)?,
                     },
                     expected: *expected,
                     fraction: *fraction,
-                    key: key_disclosed_bits.map(|bits| KeyDisclosure {
-                        error_correction_bits: bits,
-                        max_test_rounds: *max_test_rounds,
-                    }),
+                    key: {
+                        let parts = KeyParts {
+                            disclosed_bits: *key_disclosed_bits,
+                            error_rate: *key_error_rate,
+                            efficiency: *ec_efficiency,
+                            verification_error: *verification_error,
+                            correction_failure: *correction_failure,
+                            max_test_rounds: *max_test_rounds,
+                        };
+                        let key = KeyDisclosure::from_parts(parts)?;
+                        if key.is_none() && parts != KeyParts::default() {
+                            return Err(Error::Usage(
+                                "the key options need --key-disclosed-bits or --key-error-rate"
+                                    .into(),
+                            ));
+                        }
+                        key
+                    },
                     tangent: match tangent {
                         Some(score) => Tangent::At(*score),
                         None => Tangent::Search(*tangent_points),
@@ -638,11 +660,13 @@ impl Invocation {
             },
             Command::Local {
                 correlations,
+                counts,
                 save,
                 force,
                 ..
             } => Request::Local {
                 correlations: correlations.clone(),
+                counts: *counts,
                 save: save.clone(),
                 limits: limits(*force),
             },

@@ -134,6 +134,18 @@ pub struct FiniteSizeSpec {
     /// Key instead of randomness: the bits error correction disclosed.
     #[serde(default)]
     pub key_disclosed_bits: Option<f64>,
+    /// Key instead of randomness: the key pair's error rate (leakage n·f·Fano).
+    #[serde(default)]
+    pub key_error_rate: Option<f64>,
+    /// Error-correction efficiency f (default 1.16, common practice).
+    #[serde(default)]
+    pub ec_efficiency: Option<f64>,
+    /// ε_EC, the verification hash's collision probability (default 1e-9).
+    #[serde(default)]
+    pub verification_error: Option<f64>,
+    /// Error correction's failure probability on honest devices, as its designer states it.
+    #[serde(default)]
+    pub correction_failure: Option<f64>,
     /// Gauss–Radau nodes (default 8).
     #[serde(default)]
     pub nodes: Option<usize>,
@@ -143,6 +155,9 @@ pub struct FiniteSizeSpec {
     /// Tangent scores the min-tradeoff search tries (default 4).
     #[serde(default)]
     pub tangent_points: Option<usize>,
+    /// Which entropy accumulation statement certifies (default: the smaller of both).
+    #[serde(default)]
+    pub statement: Option<crate::protocol::accumulation::Statement>,
 }
 
 /// A protocol file read, with where its game file is.

@@ -13,6 +13,7 @@
 
 use serde::Serialize;
 
+use super::correlations::Correlations;
 use super::region::BehaviourRegion;
 use super::scenario::{Party, Scenario, ScoreKind};
 use crate::error::{Error, Result};
@@ -71,6 +72,16 @@ impl Counts {
             .enumerate()
             .map(|(k, &c)| c as f64 / self.rounds[k / na] as f64)
             .collect()
+    }
+
+    /// The observed frequencies as correlations, with the rounds behind each row.
+    pub fn as_correlations(&self) -> Correlations {
+        Correlations {
+            name: self.name.clone(),
+            parties: self.parties.clone(),
+            p: self.frequencies(),
+            rounds: Some(self.rounds.clone()),
+        }
     }
 
     /// The confidence region (module notes): the true behaviour lies outside it with probability

@@ -18,15 +18,176 @@ use crate::protocol::accumulation::{
     rounds_for_fraction, Accumulation, CrossoverTradeoff, Disclosure, SecurityParameters,
     SpotChecking,
 };
+use crate::protocol::key::binary_entropy;
 
 /// Key extraction instead of randomness: what the run disclosed.
 #[derive(Debug, Clone, Copy)]
 pub struct KeyDisclosure {
-    /// Bits disclosed by error correction and its check, for the whole run.
-    pub error_correction_bits: f64,
+    /// What error correction disclosed.
+    pub leakage: Leakage,
+    /// ε_EC, the verification hash's collision probability (the key's correctness error):
+    /// the hash discloses ⌈log₂(1/ε_EC)⌉ bits and ε_EC enters the total security parameter.
+    pub verification_error: f64,
+    /// The probability that error correction fails on honest devices, as its designer states
+    /// it for the code and leakage used (not computed here; added to the completeness error
+    /// when given).
+    pub correction_failure: Option<f64>,
     /// The most test rounds the protocol allows before aborting (default: the Chernoff cap at
     /// [`DEFAULT_TEST_CAP_ABORT`]).
     pub max_test_rounds: Option<u64>,
+}
+
+impl Default for KeyDisclosure {
+    fn default() -> Self {
+        KeyDisclosure {
+            leakage: Leakage::ErrorRate {
+                error_rate: 0.0,
+                efficiency: COMMON_EFFICIENCY,
+            },
+            verification_error: 1e-9,
+            correction_failure: None,
+            max_test_rounds: None,
+        }
+    }
+}
+
+/// The optional parts of a key disclosure, as typed (see [`KeyDisclosure::from_parts`]).
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct KeyParts {
+    /// Bits error correction disclosed in the whole run.
+    pub disclosed_bits: Option<f64>,
+    /// The key pair's error rate.
+    pub error_rate: Option<f64>,
+    /// The code's efficiency factor (default [`COMMON_EFFICIENCY`]).
+    pub efficiency: Option<f64>,
+    /// ε_EC (default 1e-9).
+    pub verification_error: Option<f64>,
+    /// Error correction's failure probability on honest devices.
+    pub correction_failure: Option<f64>,
+    /// The cap on test rounds.
+    pub max_test_rounds: Option<u64>,
+}
+
+/// How error correction's leakage is counted.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(rename_all = "kebab-case", tag = "kind")]
+pub enum Leakage {
+    /// The bits the run disclosed, as counted by the lab (for the whole run).
+    Bits {
+        /// The bits.
+        bits: f64,
+    },
+    /// From the key pair's error rate Q: n·f·(h(Q) + Q·log₂(d − 1)) bits, Fano's bound on
+    /// H(A|B) per round times the code's efficiency f ≥ 1.
+    ErrorRate {
+        /// The probability that the key pair's answers differ.
+        error_rate: f64,
+        /// The efficiency factor f.
+        efficiency: f64,
+    },
+}
+
+/// The efficiency factor of practical error-correcting codes relative to the Shannon limit:
+/// 1.16 is common practice in reports of experiments (not a standard; state your code's own).
+pub const COMMON_EFFICIENCY: f64 = 1.16;
+
+impl KeyDisclosure {
+    /// The leakage of a run of n rounds (with `answers` key answers per round) without the hash.
+    pub fn leakage_bits(&self, n: u64, rounds: u64, answers: usize) -> f64 {
+        match self.leakage {
+            // A lab's count scales with the run, per round as in the run given.
+            Leakage::Bits { bits } => bits / rounds as f64 * n as f64,
+            Leakage::ErrorRate {
+                error_rate,
+                efficiency,
+            } => {
+                let d = answers as f64;
+                let fano = if answers <= 1 {
+                    0.0
+                } else {
+                    (binary_entropy(error_rate) + error_rate * (d - 1.0).log2()).min(d.log2())
+                };
+                n as f64 * efficiency * fano
+            }
+        }
+    }
+
+    /// The key disclosure from its optional parts, as a command line or a file gives them:
+    /// None (randomness) when neither disclosed bits nor an error rate is given; both at once
+    /// are refused.
+    pub fn from_parts(parts: KeyParts) -> Result<Option<KeyDisclosure>> {
+        let leakage = match (parts.disclosed_bits, parts.error_rate) {
+            (Some(_), Some(_)) => {
+                return Err(Error::InvalidArgument(
+                    "give the disclosed error-correction bits or the key error rate, not both"
+                        .into(),
+                ))
+            }
+            (Some(bits), None) => Leakage::Bits { bits },
+            (None, Some(error_rate)) => Leakage::ErrorRate {
+                error_rate,
+                efficiency: parts.efficiency.unwrap_or(COMMON_EFFICIENCY),
+            },
+            (None, None) => return Ok(None),
+        };
+        let defaults = KeyDisclosure::default();
+        let k = KeyDisclosure {
+            leakage,
+            verification_error: parts
+                .verification_error
+                .unwrap_or(defaults.verification_error),
+            correction_failure: parts.correction_failure,
+            max_test_rounds: parts.max_test_rounds,
+        };
+        k.check()?;
+        Ok(Some(k))
+    }
+
+    /// The verification hash's length, ⌈log₂(1/ε_EC)⌉.
+    pub fn hash_bits(&self) -> f64 {
+        (1.0 / self.verification_error).log2().ceil()
+    }
+
+    /// Refuses values outside their domains.
+    pub fn check(&self) -> Result<()> {
+        match self.leakage {
+            Leakage::Bits { bits } if !(bits.is_finite() && bits >= 0.0) => {
+                return Err(Error::InvalidArgument(format!(
+                    "the error-correction disclosure must be a finite number of bits ≥ 0, got {bits}"
+                )))
+            }
+            Leakage::ErrorRate {
+                error_rate,
+                efficiency,
+            } => {
+                if !(0.0..=1.0).contains(&error_rate) {
+                    return Err(Error::InvalidArgument(format!(
+                        "the key error rate must be a probability, got {error_rate}"
+                    )));
+                }
+                if !(efficiency >= 1.0 && efficiency.is_finite()) {
+                    return Err(Error::InvalidArgument(format!(
+                        "the error-correction efficiency must be a finite number ≥ 1 (the Shannon limit), got {efficiency}"
+                    )));
+                }
+            }
+            Leakage::Bits { .. } => {}
+        }
+        if !(self.verification_error > 0.0 && self.verification_error < 1.0) {
+            return Err(Error::InvalidArgument(format!(
+                "the verification error must lie strictly between 0 and 1, got {}",
+                self.verification_error
+            )));
+        }
+        if let Some(f) = self.correction_failure {
+            if !(0.0..=1.0).contains(&f) {
+                return Err(Error::InvalidArgument(format!(
+                    "the error-correction failure probability must be a probability, got {f}"
+                )));
+            }
+        }
+        Ok(())
+    }
 }
 
 /// Honest runs exceed the default cap on test rounds with at most this probability.
@@ -142,6 +303,11 @@ pub struct FiniteSizeReport<'a> {
     pub asymptotic_output_rate: f64,
     /// For key: the cap on test rounds used.
     pub max_test_rounds: Option<u64>,
+    /// The parts of the security parameter, each with its name; the total is their sum
+    /// ([`FiniteSizeReport::security_total`]).
+    pub security_parts: Vec<(String, f64)>,
+    /// For key: the disclosure (leakage, verification hash, error correction's failure).
+    pub key_disclosure: Option<KeyDisclosure>,
     /// log₁₀ of the probability that honest devices at the expected score fail the test (when
     /// given).
     pub completeness_error_log10: Option<f64>,
@@ -154,6 +320,25 @@ pub struct FiniteSizeReport<'a> {
     pub curve: Vec<(u64, f64)>,
     /// The assumptions.
     pub assumptions: Vec<String>,
+}
+
+impl FiniteSizeReport<'_> {
+    /// The total security parameter: the sum of its parts (every failure event is charged
+    /// once, by the union bound).
+    pub fn security_total(&self) -> f64 {
+        self.security_parts.iter().map(|(_, e)| e).sum()
+    }
+
+    /// The total completeness error of honest devices: failing the test (with an expected
+    /// score) plus error correction's stated failure (for key), when either is known.
+    pub fn completeness_total(&self) -> Option<f64> {
+        let test = self.completeness_error_log10.map(|l| 10f64.powf(l));
+        let correction = self.key_disclosure.and_then(|k| k.correction_failure);
+        match (test, correction) {
+            (None, None) => None,
+            (a, b) => Some((a.unwrap_or(0.0) + b.unwrap_or(0.0)).min(1.0)),
+        }
+    }
 }
 
 /// The assumptions of the finite-size figures.
@@ -257,26 +442,21 @@ pub fn finite_size<'a>(
     protocol.check()?;
     options.security.check()?;
     if let Some(k) = &options.key {
-        if !k.error_correction_bits.is_finite() || k.error_correction_bits < 0.0 {
-            return Err(Error::InvalidArgument(format!(
-                "the error-correction disclosure must be a finite number of bits ≥ 0, got {}",
-                k.error_correction_bits
-            )));
-        }
+        k.check()?;
     }
-    // The error-correction disclosure scales with the run (the curve assumes the same bits
-    // per round as the run given).
-    let per_round_leak = options
-        .key
-        .map_or(0.0, |k| k.error_correction_bits / options.rounds as f64);
+    let key_answers = s.parties()[target.parts[0].0].answers();
     // What a run of n rounds with at most `tests` test rounds discloses.
     let disclosed = |n: u64, tests: u64| -> Disclosure {
         match extracting {
             Extracting::Randomness => Disclosure::default(),
-            Extracting::Key => Disclosure {
-                test_answers: tests as f64 * others.log2(),
-                error_correction: per_round_leak * n as f64,
-            },
+            Extracting::Key => {
+                let k = options.key.unwrap_or_default();
+                Disclosure {
+                    test_answers: tests as f64 * others.log2(),
+                    error_correction: k.leakage_bits(n, options.rounds, key_answers),
+                    verification_hash: k.hash_bits(),
+                }
+            }
         }
     };
     let chernoff_cap = |n: u64| max_test_rounds(n, options.testing, DEFAULT_TEST_CAP_ABORT);
@@ -345,7 +525,13 @@ pub fn finite_size<'a>(
     let limit = (run.asymptotic_rate
         - match extracting {
             Extracting::Randomness => 0.0,
-            Extracting::Key => options.testing * others.log2() + per_round_leak,
+            Extracting::Key => {
+                options.testing * others.log2()
+                    + options.key.map_or(0.0, |k| {
+                        k.leakage_bits(options.rounds, options.rounds, key_answers)
+                            / options.rounds as f64
+                    })
+            }
         })
     .max(0.0);
     let curve = rate_curve(
@@ -372,6 +558,28 @@ pub fn finite_size<'a>(
         run,
         asymptotic_output_rate: limit,
         max_test_rounds: (extracting == Extracting::Key).then(|| cap(options.rounds)),
+        security_parts: {
+            let sec = &options.security;
+            let mut parts = vec![
+                ("smoothing ε_s".to_string(), sec.smoothing),
+                ("pass floor ε_EA".to_string(), sec.pass_floor),
+                (
+                    match extracting {
+                        Extracting::Randomness => "extractor ε_ext".to_string(),
+                        Extracting::Key => "privacy amplification ε_PA".to_string(),
+                    },
+                    sec.extraction,
+                ),
+            ];
+            if let (Extracting::Key, Some(k)) = (extracting, options.key) {
+                parts.push((
+                    "verification (correctness) ε_EC".into(),
+                    k.verification_error,
+                ));
+            }
+            parts
+        },
+        key_disclosure: options.key.filter(|_| extracting == Extracting::Key),
         completeness_error_log10: completeness,
         fraction: options.fraction,
         rounds_for_fraction,

@@ -18,8 +18,8 @@ pub use figures::{
 };
 pub use finite_size::{
     finite_size, finite_size_assumptions, Extracting, FiniteSizeOptions, FiniteSizeReport,
-    KeyDisclosure, Tangent, TangentTried, DEFAULT_TANGENT_POINTS, DEFAULT_TEST_CAP_ABORT,
-    MAX_TANGENT_POINTS,
+    KeyDisclosure, KeyParts, Leakage, Tangent, TangentTried, COMMON_EFFICIENCY,
+    DEFAULT_TANGENT_POINTS, DEFAULT_TEST_CAP_ABORT, MAX_TANGENT_POINTS,
 };
 pub use review::{
     review, Review, ReviewEntropyKey, ReviewFiniteSize, ReviewKey, ReviewRandomness, REVIEW_NODES,

@@ -11,7 +11,7 @@ use super::figures::{
     ErrorCorrection, TargetChoice,
 };
 use super::finite_size::{
-    finite_size, FiniteSizeOptions, FiniteSizeReport, KeyDisclosure, Tangent,
+    finite_size, FiniteSizeOptions, FiniteSizeReport, KeyDisclosure, KeyParts, Tangent,
     DEFAULT_TANGENT_POINTS,
 };
 use super::{bounds, BoundsOptions, GameReport, Observer};
@@ -313,11 +313,17 @@ pub fn review<'a>(
                     smoothing: f.smoothing.unwrap_or(defaults.smoothing),
                     pass_floor: f.pass_floor.unwrap_or(defaults.pass_floor),
                     extraction: f.extractor_error.unwrap_or(defaults.extraction),
+                    statement: f.statement.unwrap_or(defaults.statement),
                 },
-                key: f.key_disclosed_bits.map(|bits| KeyDisclosure {
-                    error_correction_bits: bits,
+                key: KeyDisclosure::from_parts(KeyParts {
+                    disclosed_bits: f.key_disclosed_bits,
+                    error_rate: f.key_error_rate,
+                    efficiency: f.ec_efficiency,
+                    verification_error: f.verification_error,
+                    correction_failure: f.correction_failure,
                     max_test_rounds: None,
-                }),
+                })
+                .map_err(|e| bad(format!("finite_size: {e}")))?,
                 tangent: Tangent::Search(f.tangent_points.unwrap_or(DEFAULT_TANGENT_POINTS)),
                 hierarchy: EntropyOptions {
                     nodes: f.nodes.unwrap_or(REVIEW_NODES),

@@ -36,6 +36,16 @@
 //! this was written, so a reviewer should compare the constants with the published theorem.
 //! Every α gives a valid bound; the code picks the best α numerically.
 //!
+//! **The original statement** ([`Statement::Original`]), also from memory: for the same f,
+//!
+//! H_min^{ε_s}(O^n | I^n E)_{|Ω} > n·h − v·√n,  v = 2(log₂(1 + 2 d_O) + ⌈‖∇f‖∞⌉)·√(1 − 2 log₂(ε_s·ε_EA)),
+//!
+//! with ‖∇f‖∞ the largest |f(δ_c)| over the register's values (Dupuis, Fawzi & Renner 2020;
+//! in this form in Arnon-Friedman, Dupuis, Fawzi, Renner & Vidick 2018, Nat. Commun. 9, 459).
+//! By default both bounds are computed and the smaller is certified ([`Statement::Smaller`]):
+//! a wrong recollection of one statement's constants can then only lower the figure.
+//! docs/finite-size-statement.md states both for a reviewer, term by term.
+//!
 //! Output lengths: randomness ℓ = H_min − 2·log₂(1/ε_ext) (the leftover hash lemma with
 //! quantum side information, two-universal hashing); key ℓ = H_min − m·log₂|B| − leak −
 //! 2·log₂(1/ε_PA), where the output register also holds the other players' test answers
@@ -48,7 +58,7 @@ use serde::Serialize;
 use crate::error::{Error, Result};
 
 /// The entropy accumulation statement the figures use, in words, for the output.
-pub const EAT_STATEMENT: &str = "entropy accumulation theorem with improved second-order term (Dupuis & Fawzi 2019, IEEE Trans. Inf. Theory 65, 7596; arXiv:1805.11652), constants as recalled from memory; crossover min-tradeoff function for spot-checking";
+pub const EAT_STATEMENT: &str = "entropy accumulation: the improved second-order statement (Dupuis & Fawzi 2019, IEEE Trans. Inf. Theory 65, 7596; arXiv:1805.11652) and the original statement (Dupuis, Fawzi & Renner 2020, Commun. Math. Phys. 379, 867; arXiv:1607.01796), both with constants as recalled from memory and stated in docs/finite-size-statement.md; crossover min-tradeoff function for spot-checking";
 
 /// The spot-checking protocol the figures are for.
 #[derive(Debug, Clone, Copy, Serialize)]
@@ -67,6 +77,68 @@ pub struct SpotChecking {
     pub output_dimension: f64,
 }
 
+/// Which entropy accumulation statement certifies the smooth min-entropy. Both are recalled
+/// from memory (module notes); by default both are evaluated and the smaller bound certified.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, serde::Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Statement {
+    /// The smaller of the two bounds (the default: a wrong recollection of either constant
+    /// can then only lower the figure, unless both are wrong).
+    #[default]
+    Smaller,
+    /// The improved second-order statement (Dupuis & Fawzi 2019).
+    ImprovedSecondOrder,
+    /// The original statement, first-order term minus a √n correction (Dupuis, Fawzi & Renner
+    /// 2020; Arnon-Friedman, Dupuis, Fawzi, Renner & Vidick 2018).
+    Original,
+}
+
+impl Statement {
+    /// From its name: `smaller`, `improved-second-order` or `original`.
+    pub fn parse(name: &str) -> Result<Statement> {
+        match name {
+            "smaller" => Ok(Statement::Smaller),
+            "improved-second-order" => Ok(Statement::ImprovedSecondOrder),
+            "original" => Ok(Statement::Original),
+            other => Err(Error::InvalidArgument(format!(
+                "unknown statement `{other}` (expected smaller, improved-second-order or original)"
+            ))),
+        }
+    }
+}
+
+/// The original statement's correction (module notes): H_min ≥ n·h − v·√n with
+/// v = 2(log₂(1 + 2 d_O) + ⌈‖∇f‖∞⌉)·√(1 − 2 log₂(ε_s·ε_EA)).
+#[derive(Debug, Clone, Copy, Serialize)]
+pub struct OriginalTerms {
+    /// ‖∇f‖∞, taken as max(|Max(f)|, |Min(f)|) (the largest value of the affine f on a
+    /// vertex: an upper bound on any gradient representation's largest entry that the
+    /// statement could mean, so at worst too cautious).
+    pub gradient_bound: f64,
+    /// v.
+    pub v: f64,
+    /// v·√n.
+    pub correction: f64,
+}
+
+/// The original statement's terms for n rounds.
+pub fn original_terms(
+    n: f64,
+    tradeoff: &CrossoverTradeoff,
+    d: f64,
+    security: &SecurityParameters,
+) -> OriginalTerms {
+    let gradient_bound = tradeoff.max.abs().max(tradeoff.min.abs());
+    let v = 2.0
+        * ((1.0 + 2.0 * d).log2() + gradient_bound.ceil())
+        * (1.0 - 2.0 * (security.smoothing.log2() + security.pass_floor.log2())).sqrt();
+    OriginalTerms {
+        gradient_bound,
+        v,
+        correction: v * n.sqrt(),
+    }
+}
+
 /// The protocol's error parameters.
 #[derive(Debug, Clone, Copy, Serialize)]
 pub struct SecurityParameters {
@@ -76,6 +148,8 @@ pub struct SecurityParameters {
     pub pass_floor: f64,
     /// Error of the randomness extractor or privacy amplification, ε_ext.
     pub extraction: f64,
+    /// Which statement certifies (default: the smaller of both).
+    pub statement: Statement,
 }
 
 impl Default for SecurityParameters {
@@ -85,6 +159,7 @@ impl Default for SecurityParameters {
             smoothing: 1e-9,
             pass_floor: 1e-9,
             extraction: 1e-9,
+            statement: Statement::Smaller,
         }
     }
 }
@@ -95,8 +170,10 @@ pub struct Disclosure {
     /// Bits for removing the other players' test answers from the output register
     /// (m·log₂|B|; 0 for randomness, where every answer is output).
     pub test_answers: f64,
-    /// Bits disclosed by error correction and its check (0 for randomness).
+    /// Bits disclosed by error correction (0 for randomness).
     pub error_correction: f64,
+    /// Bits of the verification hash that checks error correction (0 for randomness).
+    pub verification_hash: f64,
 }
 
 /// The crossover min-tradeoff function's constants.
@@ -154,6 +231,14 @@ pub struct Accumulation {
     pub first_order: f64,
     /// The second-order terms at the α chosen.
     pub second_order: SecondOrder,
+    /// The original statement's terms.
+    pub original: OriginalTerms,
+    /// n·h minus the improved second-order terms (before the floor at 0).
+    pub by_improved_second_order: f64,
+    /// n·h minus the original statement's correction (before the floor at 0).
+    pub by_original: f64,
+    /// The statement whose bound was certified.
+    pub certified_by: Statement,
     /// Lower bound on H_min^{ε_s}(O^n | I^n E) given the run passed, in bits (0 when the
     /// second-order terms exceed the first-order term: nothing certified).
     pub smooth_min_entropy: f64,
@@ -367,7 +452,11 @@ pub fn accumulate(
     protocol.check()?;
     security.check()?;
     finite("the disclosed bits", disclosure.error_correction)?;
-    if disclosure.error_correction < 0.0 || disclosure.test_answers < 0.0 {
+    finite("the verification hash", disclosure.verification_hash)?;
+    if disclosure.error_correction < 0.0
+        || disclosure.test_answers < 0.0
+        || disclosure.verification_hash < 0.0
+    {
         return Err(Error::InvalidArgument(
             "disclosed bits cannot be negative".into(),
         ));
@@ -376,15 +465,34 @@ pub fn accumulate(
     let (_, hi) = protocol.score_range;
     let h = tradeoff.intercept + tradeoff.slope * protocol.threshold;
     let second_order = best_terms(n, tradeoff, protocol.output_dimension, security);
+    let original = original_terms(n, tradeoff, protocol.output_dimension, security);
     let first_order = n * h;
-    let raw = first_order - penalty(&second_order);
     // Floating-point slack: a relative 1e-12 of every term (each is computed to ~1e-15).
-    let slack = 1e-12 * (first_order.abs() + penalty(&second_order)) + 1e-9;
+    let by_improved_second_order = first_order
+        - penalty(&second_order)
+        - (1e-12 * (first_order.abs() + penalty(&second_order)) + 1e-9);
+    let by_original = first_order
+        - original.correction
+        - (1e-12 * (first_order.abs() + original.correction) + 1e-9);
+    let (raw, certified_by) = match security.statement {
+        Statement::ImprovedSecondOrder => {
+            (by_improved_second_order, Statement::ImprovedSecondOrder)
+        }
+        Statement::Original => (by_original, Statement::Original),
+        Statement::Smaller if by_original < by_improved_second_order => {
+            (by_original, Statement::Original)
+        }
+        Statement::Smaller => (by_improved_second_order, Statement::ImprovedSecondOrder),
+    };
     // A min-entropy is never negative: a bound below 0 certifies nothing and is stated as 0.
-    let smooth_min_entropy = (raw - slack).max(0.0);
+    // Nor is it above n·log₂ d_O, the register's size.
+    let smooth_min_entropy = raw.max(0.0).min(n * protocol.output_dimension.log2());
     let extractor = 2.0 * (1.0 / security.extraction).log2();
-    let output =
-        smooth_min_entropy - disclosure.test_answers - disclosure.error_correction - extractor;
+    let output = smooth_min_entropy
+        - disclosure.test_answers
+        - disclosure.error_correction
+        - disclosure.verification_hash
+        - extractor;
     let output_bits = output.floor().max(0.0);
     Ok(Accumulation {
         statement: EAT_STATEMENT,
@@ -395,6 +503,10 @@ pub fn accumulate(
         asymptotic_rate: h,
         first_order,
         second_order,
+        original,
+        by_improved_second_order,
+        by_original,
+        certified_by,
         smooth_min_entropy,
         disclosure,
         output_bits,

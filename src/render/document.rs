@@ -55,7 +55,7 @@ pub fn verdict(r: &Review) -> String {
                 "Finite size: {} bits of {what} certified from these {} rounds (entropy accumulation, constants from memory; total error {:e}).",
                 count_text(rep.run.output_bits),
                 count_text(n as f64),
-                rep.run.security.smoothing + rep.run.security.pass_floor + rep.run.security.extraction
+                rep.security_total()
             ));
         } else {
             let needed = rep

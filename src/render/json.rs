@@ -503,13 +503,34 @@ struct FiniteSizeView<'a> {
     asymptotic_output_rate: f64,
     #[serde(skip_serializing_if = "Option::is_none")]
     max_test_rounds: Option<u64>,
+    security_parts: Vec<SecurityPart<'a>>,
+    security_total: f64,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    key_disclosure: Option<KeyDisclosureView>,
     #[serde(skip_serializing_if = "Option::is_none")]
     completeness_error_log10: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    completeness_total: Option<f64>,
     fraction: f64,
     rounds_for_fraction: Option<u64>,
     curve: Vec<CurvePoint>,
     assumptions: &'a [String],
     caution: &'static str,
+}
+
+#[derive(Serialize)]
+struct SecurityPart<'a> {
+    name: &'a str,
+    epsilon: f64,
+}
+
+#[derive(Serialize)]
+struct KeyDisclosureView {
+    leakage: crate::pipeline::Leakage,
+    verification_error: f64,
+    verification_hash_bits: f64,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    correction_failure: Option<f64>,
 }
 
 impl Serialize for FiniteSizeReport<'_> {
@@ -525,7 +546,23 @@ impl Serialize for FiniteSizeReport<'_> {
             run: &self.run,
             asymptotic_output_rate: self.asymptotic_output_rate,
             max_test_rounds: self.max_test_rounds,
+            security_parts: self
+                .security_parts
+                .iter()
+                .map(|(name, epsilon)| SecurityPart {
+                    name,
+                    epsilon: *epsilon,
+                })
+                .collect(),
+            security_total: self.security_total(),
+            key_disclosure: self.key_disclosure.map(|k| KeyDisclosureView {
+                leakage: k.leakage,
+                verification_error: k.verification_error,
+                verification_hash_bits: k.hash_bits(),
+                correction_failure: k.correction_failure,
+            }),
             completeness_error_log10: self.completeness_error_log10,
+            completeness_total: self.completeness_total(),
             fraction: self.fraction,
             rounds_for_fraction: self.rounds_for_fraction,
             curve: self

@@ -8,9 +8,10 @@ use crate::model::scenario::Scenario;
 use crate::model::symmetry::Relabelling;
 use crate::numbers::{bits_text, count_text, fixed6, num, num_sig, with_fraction};
 use crate::pipeline::{
-    EntropyReport, Extracting, FiniteSizeReport, GameReport, KeyReport, LocalReport, MarginReport,
-    RandomnessReport, VerifyReport, QUANTUM_SETTLED_TOLERANCE,
+    EntropyReport, Extracting, FiniteSizeReport, GameReport, KeyReport, Leakage, LocalReport,
+    MarginReport, RandomnessReport, VerifyReport, COMMON_EFFICIENCY, QUANTUM_SETTLED_TOLERANCE,
 };
+use crate::protocol::accumulation::Statement;
 use crate::protocol::finite::Margin;
 use crate::protocol::CAUTION;
 
@@ -596,6 +597,15 @@ fn many_bits(x: f64) -> String {
     format!("{} bits", num_sig(x, 10))
 }
 
+/// A statement's bound: never printed negative (0 with the reason).
+fn signed_bits(x: f64) -> String {
+    if x > 0.0 {
+        many_bits(x)
+    } else {
+        "0 bits (its correction exceeds the first-order term)".into()
+    }
+}
+
 /// A certified bit count, never negative: 0 is said with its reason.
 fn certified_bits(x: f64) -> String {
     if x > 0.0 {
@@ -694,6 +704,32 @@ pub fn finite_size(report: &FiniteSizeReport) -> String {
                 many_bits(t.third_order_term)
             ),
         ),
+        (
+            "original statement".into(),
+            format!(
+                "n·h − v·√n with v = {} (‖∇f‖∞ ≤ {}): {}",
+                num_sig(run.original.v, 6),
+                num_sig(run.original.gradient_bound, 6),
+                signed_bits(run.by_original)
+            ),
+        ),
+        (
+            "improved second-order statement".into(),
+            signed_bits(run.by_improved_second_order),
+        ),
+        (
+            "certified by".into(),
+            match run.certified_by {
+                Statement::Original => "the original statement",
+                Statement::ImprovedSecondOrder => "the improved second-order statement",
+                Statement::Smaller => "the smaller of both",
+            }
+            .to_string()
+                + match run.security.statement {
+                    Statement::Smaller => " (the smaller of both, the default)",
+                    _ => " (as asked)",
+                },
+        ),
         ("H_min^ε_s ≥".into(), certified_bits(run.smooth_min_entropy)),
     ];
     if report.extracting == Extracting::Key {
@@ -709,7 +745,36 @@ pub fn finite_size(report: &FiniteSizeReport) -> String {
         ));
         rows.push((
             "error correction".into(),
-            many_bits(run.disclosure.error_correction),
+            match report.key_disclosure.map(|k| k.leakage) {
+                Some(Leakage::ErrorRate {
+                    error_rate,
+                    efficiency,
+                }) => format!(
+                    "{} (n·f·Fano at Q = {}, efficiency f = {}{})",
+                    many_bits(run.disclosure.error_correction),
+                    num(error_rate),
+                    num(efficiency),
+                    if efficiency == COMMON_EFFICIENCY {
+                        ", common practice"
+                    } else {
+                        ""
+                    }
+                ),
+                _ => format!(
+                    "{} (as disclosed)",
+                    many_bits(run.disclosure.error_correction)
+                ),
+            },
+        ));
+        rows.push((
+            "verification hash".into(),
+            format!(
+                "{} (ε_EC = {})",
+                many_bits(run.disclosure.verification_hash),
+                report
+                    .key_disclosure
+                    .map_or("-".into(), |k| probability_text(k.verification_error))
+            ),
         ));
     }
     rows.push(("certified output".into(), certified_bits(run.output_bits)));
@@ -728,15 +793,37 @@ pub fn finite_size(report: &FiniteSizeReport) -> String {
             |n| count_text(n as f64),
         ),
     ));
+    rows.push((
+        "security parameter (sum)".into(),
+        format!(
+            "{} = {}",
+            probability_text(report.security_total()),
+            report
+                .security_parts
+                .iter()
+                .map(|(name, e)| format!("{} ({name})", probability_text(*e)))
+                .collect::<Vec<_>>()
+                .join(" + ")
+        ),
+    ));
     if let Some(c) = report.completeness_error_log10 {
         rows.push((
-            "honest runs fail with probability ≤".into(),
+            "honest runs fail the test with probability ≤".into(),
             if c > -3.0 {
                 num_sig(10f64.powf(c), 4)
             } else {
                 format!("10^{}", num_sig(c, 5))
             },
         ));
+    }
+    if let Some(f) = report.key_disclosure.and_then(|k| k.correction_failure) {
+        rows.push((
+            "error correction fails with probability ≤".into(),
+            format!("{} (as stated for the code)", probability_text(f)),
+        ));
+    }
+    if let Some(total) = report.completeness_total() {
+        rows.push(("completeness error (sum)".into(), probability_text(total)));
     }
     let mut out = table(&rows);
     out += "\nrate per round against n:\n";
