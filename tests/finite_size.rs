@@ -317,7 +317,7 @@ fn the_review_adds_the_finite_size_section_and_a_general_game_key_rate() {
     std::fs::write(
         &chsh_run,
         format!(
-            "game: {root}/games/chsh.yaml\nrounds: 100000\nwins: 84500\nfinite_size: {{rounds: 1000000000, testing: 0.01, threshold: 0.84, nodes: 6, tangent_points: 1}}\n"
+            "game: {root}/games/chsh.yaml\nrounds: 100000\nwins: 84500\nfinite_size: {{rounds: 1000000000, testing: 0.01, threshold: 0.84, nodes: 6, tangent_points: 1, statement: improved-second-order}}\n"
         ),
     )
     .unwrap();
@@ -352,6 +352,10 @@ fn the_review_adds_the_finite_size_section_and_a_general_game_key_rate() {
         "testing: 0.01, threshold: 0.84, smoothing: 0",
         "testing: 0.01, threshold: 0.84, key_disclosed_bits: -1",
         "testing: 0.01, threshold: 0.84, nodes: 100000",
+        "testing: 0.01, threshold: 0.84, statement: newest",
+        "testing: 0.01, threshold: 0.84, key_error_rate: 0.02, key_disclosed_bits: 5",
+        "testing: 0.01, threshold: 0.84, key_error_rate: 0.02, ec_efficiency: 0.5",
+        "testing: 0.01, threshold: 0.84, key_error_rate: 0.02, verification_error: 0",
     ] {
         let file = dir.join("bad-run.yaml");
         std::fs::write(

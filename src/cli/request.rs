@@ -861,10 +861,22 @@ mod tests {
         .unwrap() else {
             panic!()
         };
+        let RunInput::Summary(run) = run else {
+            panic!("a summary")
+        };
         assert_eq!(run.rounds, 100);
         assert_eq!(run.score_sum, Some(-3.5));
         assert_eq!(run.score_range, Some((-4.0, 4.0)));
         assert_eq!(options.alpha, 1e-3);
+        // Counts instead of a summary; not both.
+        let Request::Margin { run, .. } =
+            request(&["margin", "g.yaml", "--counts", "c.yaml"]).unwrap()
+        else {
+            panic!()
+        };
+        assert_eq!(run, RunInput::Counts(PathBuf::from("c.yaml")));
+        assert!(request(&["margin", "g.yaml", "--counts", "c.yaml", "--rounds", "5"]).is_err());
+        assert!(request(&["margin", "g.yaml"]).is_err());
         assert_eq!(options.target_p_value, 1e-9);
         assert!(matches!(
             request(&[

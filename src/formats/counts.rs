@@ -360,7 +360,8 @@ mod tests {
             "listed twice",
         );
         bad(
-            &(format!("  - questions: [0, 0]\n    rounds: 30\n    answers: [10, 1, 2, 9, 3, 4]\n")
+            &("  - questions: [0, 0]\n    rounds: 30\n    answers: [10, 1, 2, 9, 3, 4]\n"
+                .to_string()
                 + &rest),
             "counts[0].rounds",
         );

@@ -58,13 +58,17 @@ pub fn verdict(r: &Review) -> String {
                 rep.security_total()
             ));
         } else {
-            let needed = rep
-                .curve
-                .iter()
-                .find(|(_, rate)| *rate > 0.0)
-                .map_or("not within 10^14 rounds".to_string(), |(k, _)| {
-                    format!("about {} rounds are needed", count_text(*k as f64))
-                });
+            let needed = rep.curve.iter().find(|(_, rate)| *rate > 0.0).map_or(
+                "not within 10^14 rounds".to_string(),
+                |(k, _)| {
+                    let e = (*k as f64).log10().floor();
+                    format!(
+                        "about {}×10^{} rounds are needed",
+                        num_sig(*k as f64 / 10f64.powf(e), 2),
+                        e
+                    )
+                },
+            );
             parts.push(format!(
                 "Finite size: no bits of {what} are certified at this length ({} rounds): {needed} at the same test rate and threshold.",
                 count_text(n as f64)
