@@ -155,9 +155,10 @@ pub struct FiniteSizeSpec {
     /// Tangent scores the min-tradeoff search tries (default 4).
     #[serde(default)]
     pub tangent_points: Option<usize>,
-    /// Which entropy accumulation statement certifies (default: the smaller of both).
+    /// Which entropy accumulation statement certifies: `smaller` (the default),
+    /// `improved-second-order` or `original` (checked by the review).
     #[serde(default)]
-    pub statement: Option<crate::protocol::accumulation::Statement>,
+    pub statement: Option<String>,
 }
 
 /// A protocol file read, with where its game file is.

@@ -20,7 +20,7 @@ use crate::bounds::quantum::npa::Level;
 use crate::error::{Error, Location, Result};
 use crate::formats::game::{families, Game};
 use crate::formats::protocol_file::ProtocolFile;
-use crate::protocol::accumulation::SecurityParameters;
+use crate::protocol::accumulation::{SecurityParameters, Statement};
 use crate::protocol::finite::{margin, rounds_needed, Margin, ObservedRun};
 use crate::protocol::key::{chsh_bound, key_rate, threshold_qber, KeyRate};
 use crate::protocol::randomness::{guessing_probability, Randomness, Target};
@@ -313,7 +313,11 @@ pub fn review<'a>(
                     smoothing: f.smoothing.unwrap_or(defaults.smoothing),
                     pass_floor: f.pass_floor.unwrap_or(defaults.pass_floor),
                     extraction: f.extractor_error.unwrap_or(defaults.extraction),
-                    statement: f.statement.unwrap_or(defaults.statement),
+                    statement: match &f.statement {
+                        Some(name) => Statement::parse(name)
+                            .map_err(|e| bad(format!("finite_size: statement: {e}")))?,
+                        None => defaults.statement,
+                    },
                 },
                 key: KeyDisclosure::from_parts(KeyParts {
                     disclosed_bits: f.key_disclosed_bits,

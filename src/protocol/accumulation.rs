@@ -79,7 +79,7 @@ pub struct SpotChecking {
 
 /// Which entropy accumulation statement certifies the smooth min-entropy. Both are recalled
 /// from memory (module notes); by default both are evaluated and the smaller bound certified.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, serde::Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum Statement {
     /// The smaller of the two bounds (the default: a wrong recollection of either constant
