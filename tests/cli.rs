@@ -1241,3 +1241,55 @@ fn a_review_says_one_consistent_thing() {
         .unwrap();
     assert!((0.0..1e-6).contains(&h), "{h}");
 }
+
+#[test]
+fn measured_frequencies_with_rounds_stand_for_their_confidence_region() {
+    // Frequencies that signal a little (Alice's marginal at x = 0 differs by 0.003 between Bob's
+    // questions) once got "the behaviour signals" from `entropy` while `local` projected them.
+    // With each row's rounds they stand for their confidence region, no projection; without,
+    // the typed tolerance holds no quantum behaviour and the refusal says what to give.
+    let rows = [
+        ["0.418", "0.082", "0.085", "0.415"],
+        ["0.405", "0.095", "0.095", "0.405"],
+        ["0.415", "0.085", "0.085", "0.415"],
+        ["0.09", "0.41", "0.41", "0.09"],
+    ];
+    let typed = two_bit_correlations("signalling-typed.yaml", rows);
+    let out = bellgap(&[
+        "entropy",
+        "games/chsh.yaml",
+        "--behaviour",
+        typed.to_str().unwrap(),
+        "--nodes",
+        "4",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.contains("outside the quantum set") && err.contains("rounds"),
+        "{err}"
+    );
+    let text = std::fs::read_to_string(&typed).unwrap();
+    let measured = temp_file(
+        "signalling-measured.yaml",
+        &text.replacen("players:", "rounds: 50000\nplayers:", 1),
+    );
+    let out = bellgap(&[
+        "entropy",
+        "games/chsh.yaml",
+        "--behaviour",
+        measured.to_str().unwrap(),
+        "--nodes",
+        "4",
+        "--json",
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j = json_of(&out);
+    assert!(j["given"].as_str().unwrap().contains("confidence region"));
+    let bits = j["results"][0]["entropy"]["bits"].as_f64().unwrap();
+    assert!(bits > 0.2 && bits < 1.0, "{bits}");
+}

@@ -440,6 +440,10 @@ pub enum EntropyGiven {
     },
 }
 
+/// The error of the confidence region that measured frequencies (a correlations file with
+/// rounds) stand for in `entropy --behaviour`; `--counts` takes its own `--alpha`.
+pub const MEASURED_BEHAVIOUR_ERROR: f64 = 1e-6;
+
 /// The error-correction term of the key rate: from the behaviour's key pair, or an error rate.
 #[derive(Debug, Clone)]
 pub enum ErrorCorrection {
@@ -563,6 +567,39 @@ pub fn entropy<'a>(
                     .collect(),
                 "every quantum behaviour scoring at least the row's score".into(),
             )
+        }
+        EntropyGiven::Behaviour(c) if c.rounds.is_some() => {
+            // Measured frequencies with their rounds: the confidence region of the counts they
+            // stand for (each frequency times its rounds, rounded), each interval widened by
+            // the rounding and the file's tolerance; no projection.
+            check_same_players(s, c)?;
+            let rounds = c.rounds.clone().unwrap_or_default();
+            let na: usize = c.parties.iter().map(Party::answers).product();
+            let counts: Vec<u64> =
+                c.p.iter()
+                    .enumerate()
+                    .map(|(k, &p)| (p * rounds[k / na] as f64).round().max(0.0) as u64)
+                    .collect();
+            let as_counts = Counts {
+                name: c.name.clone(),
+                parties: c.parties.clone(),
+                rounds: (0..rounds.len())
+                    .map(|q| counts[q * na..(q + 1) * na].iter().sum::<u64>().max(1))
+                    .collect(),
+                counts,
+                design: None,
+                no_click: vec![None; c.parties.len()],
+            };
+            let mut region = as_counts.confidence_region(MEASURED_BEHAVIOUR_ERROR)?;
+            let fitted = as_counts.frequencies();
+            for (k, &p) in c.p.iter().enumerate() {
+                let slack = (p - fitted[k]).abs() + ROW_TOLERANCE;
+                region.lower[k] = (region.lower[k] - slack).max(0.0);
+                region.upper[k] = (region.upper[k] + slack).min(1.0);
+            }
+            region.centre = c.p.clone();
+            let given = region.description.clone();
+            (vec![(None, EntropyConstraint::Region(region))], given)
         }
         EntropyGiven::Behaviour(c) => {
             check_same_players(s, c)?;
@@ -727,7 +764,16 @@ pub fn entropy<'a>(
                 observer.progress(Stage::EntropyNodes, k * total + done, count * total);
             }
         };
-        match conditional_entropy_reporting(s, &target, &constraint, &options.hierarchy, &solved) {
+        let typed = matches!(&options.given, EntropyGiven::Behaviour(c) if c.rounds.is_none());
+        match conditional_entropy_reporting(s, &target, &constraint, &options.hierarchy, &solved)
+            .map_err(|e| match e {
+                Error::InvalidArgument(m) if typed && m.contains("outside the quantum set") => {
+                    Error::InvalidArgument(format!(
+                        "{m}. Measured frequencies signal and scatter: give each row's `rounds` in the correlations file, or the counts with --counts, for a confidence region"
+                    ))
+                }
+                other => other,
+            }) {
             Ok(entropy) => {
                 let key = error_correction.as_ref().map(|(h, from)| DevetakWinter {
                     conditional_entropy: entropy.bits,
