@@ -145,10 +145,12 @@ def test_entropy_and_finite_size_equal_the_command_line():
     a = bellgap.finite_size(
         os.path.join(ROOT, chsh), rounds=10**9, testing=0.01, threshold=0.84,
         nodes=4, adversary_words="with-projectors", tangent_points=1,
+        statement="improved-second-order",
     )
     b = cli_json(
         "finite-size", chsh, "--rounds", "1000000000", "--testing", "0.01", "--threshold", "0.84",
         "--nodes", "4", "--adversary-words", "with-projectors", "--tangent-points", "1",
+        "--statement", "improved-second-order",
     )
     assert_same(without_timing(a.to_dict()), without_timing(b))
     assert a.run["output_bits"] > 0
