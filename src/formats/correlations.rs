@@ -5,13 +5,13 @@
 use serde::Deserialize;
 use serde_yaml::{Mapping, Value as Yaml};
 
-use super::fields::{constant_number, parse_labels_for};
+use super::fields::{constant_number, parse_labels_for, row_question};
 use super::files::read_text;
 use super::game::spec::{GameSpec, PlayerSpec};
 use super::located::{yaml_error, Context, SourceMap};
 use crate::error::Result;
 use crate::model::correlations::Correlations;
-use crate::model::scenario::{at_most, digits, index_of, Party};
+use crate::model::scenario::{at_most, digits, Party};
 
 /// Rows must sum to one within this tolerance (typed probabilities carry rounding).
 pub const ROW_TOLERANCE: f64 = 1e-6;
@@ -103,29 +103,7 @@ impl Correlations {
         let mut d = vec![0; parties.len()];
         for (r, row) in raw.behaviour.iter().enumerate() {
             let rf = format!("behaviour[{r}]");
-            if row.questions.len() != parties.len() {
-                return Err(ctx.error(
-                    &format!("{rf}.questions"),
-                    format!("expected one question label per player ({})", parties.len()),
-                ));
-            }
-            for (i, &label) in row.questions.iter().enumerate() {
-                d[i] = parties[i]
-                    .question_labels
-                    .iter()
-                    .position(|&l| l == label)
-                    .ok_or_else(|| {
-                        ctx.error(
-                            &format!("{rf}.questions[{i}]"),
-                            format!("{} has no question {label}", parties[i].name),
-                        )
-                    })?;
-            }
-            let q = index_of(&d, &qr);
-            if seen[q] {
-                return Err(ctx.error(&rf, "this joint question is listed twice"));
-            }
-            seen[q] = true;
+            let q = row_question(&row.questions, &parties, &ctx, &rf, &mut seen)?;
             if row.rounds.is_some() {
                 rounds[q] = row.rounds;
             }

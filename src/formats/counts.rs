@@ -22,7 +22,7 @@
 use serde::Deserialize;
 use serde_yaml::Value as Yaml;
 
-use super::fields::parse_labels_for;
+use super::fields::{parse_labels_for, row_question};
 use super::files::read_text;
 use super::located::{yaml_error, Context, SourceMap};
 use crate::error::Result;
@@ -170,29 +170,7 @@ impl Counts {
         );
         for (r, row) in raw.counts.iter().enumerate() {
             let rf = format!("counts[{r}]");
-            if row.questions.len() != parties.len() {
-                return Err(ctx.error(
-                    &format!("{rf}.questions"),
-                    format!("expected one question label per player ({})", parties.len()),
-                ));
-            }
-            for (i, &label) in row.questions.iter().enumerate() {
-                d[i] = parties[i]
-                    .question_labels
-                    .iter()
-                    .position(|&l| l == label)
-                    .ok_or_else(|| {
-                        ctx.error(
-                            &format!("{rf}.questions[{i}]"),
-                            format!("{} has no question {label}", parties[i].name),
-                        )
-                    })?;
-            }
-            let q = index_of(&d, &qr);
-            if seen[q] {
-                return Err(ctx.error(&rf, "this joint question is listed twice"));
-            }
-            seen[q] = true;
+            let q = row_question(&row.questions, &parties, &ctx, &rf, &mut seen)?;
             if row.answers.len() != no {
                 return Err(ctx.error(
                     &format!("{rf}.answers"),

@@ -10,6 +10,7 @@ use serde_yaml::Value as Yaml;
 use super::formula::{self, ConstantScope, Value};
 use super::located::{yaml_brief, Context};
 use crate::error::Result;
+use crate::model::scenario::{index_of, Party};
 
 /// A number, a constant expression, or a (nested) list of those.
 pub fn constant_value(
@@ -164,3 +165,41 @@ pub fn parse_labels_for(value: &Yaml, ctx: &Context, field: &str) -> Result<Vec<
 
 /// Largest label set of one player.
 pub const MAX_LABELS: usize = 1 << 20;
+
+/// The joint question a data row names by one question label per player (field
+/// `{row}.questions`), in the scenario's mixed radix; refused with a location when a label is
+/// unknown, the count is wrong, or an earlier row named the same joint question (`seen`).
+pub(crate) fn row_question(
+    labels: &[i64],
+    parties: &[Party],
+    ctx: &Context,
+    row: &str,
+    seen: &mut [bool],
+) -> Result<usize> {
+    if labels.len() != parties.len() {
+        return Err(ctx.error(
+            &format!("{row}.questions"),
+            format!("expected one question label per player ({})", parties.len()),
+        ));
+    }
+    let mut digits = vec![0; parties.len()];
+    for (i, &label) in labels.iter().enumerate() {
+        digits[i] = parties[i]
+            .question_labels
+            .iter()
+            .position(|&l| l == label)
+            .ok_or_else(|| {
+                ctx.error(
+                    &format!("{row}.questions[{i}]"),
+                    format!("{} has no question {label}", parties[i].name),
+                )
+            })?;
+    }
+    let radices: Vec<usize> = parties.iter().map(Party::questions).collect();
+    let q = index_of(&digits, &radices);
+    if seen[q] {
+        return Err(ctx.error(row, "this joint question is listed twice"));
+    }
+    seen[q] = true;
+    Ok(q)
+}
