@@ -319,3 +319,74 @@ fn counts_through_the_command_line() {
     let out = bellgap(&["margin", "games/cglmp-3.yaml", "--counts", p]);
     assert_eq!(out.status.code(), Some(2));
 }
+
+#[test]
+fn a_review_from_counts_uses_them_throughout() {
+    // The invented lab's counts as the run: the margin from them, and a finite-size key whose
+    // error correction leaks n·f·h(Q) with Q observed in the counts at the key questions.
+    let root = env!("CARGO_MANIFEST_DIR");
+    let counts_path = format!("{root}/examples/data/lab-counts.yaml");
+    let dir = std::env::temp_dir().join(format!("bellgap-counts-review-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let protocol = dir.join("run.yaml");
+    std::fs::write(
+        &protocol,
+        format!(
+            "name: quarry-mill run\ngame: {root}/games/chsh.yaml\ncounts: {counts_path}\nfinite_size: {{rounds: 1000000000, testing: 0.01, threshold: 0.82, key_with: bob, nodes: 6, tangent_points: 1, statement: improved-second-order}}\n"
+        ),
+    )
+    .unwrap();
+    let out = bellgap(&["review", protocol.to_str().unwrap(), "--json"]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j = json_of(&out);
+    assert_eq!(j["margin"]["rounds"].as_u64(), Some(240_000));
+    assert!(j["estimator"]
+        .as_str()
+        .unwrap()
+        .contains("game's distribution"));
+    let counts = Counts::from_file(&counts_path).unwrap();
+    let f = counts.frequencies();
+    // Question (0, 0) is row 0: answers (0,1) and (1,0) differ.
+    let q = f[1] + f[2];
+    let leak = &j["finite_size"]["figures"]["key_disclosure"]["leakage"];
+    assert_eq!(leak["kind"], "error-rate");
+    assert!((leak["error_rate"].as_f64().unwrap() - q).abs() < 1e-15);
+    let h = -(q * q.log2() + (1.0 - q) * (1.0 - q).log2());
+    let disclosed = j["finite_size"]["figures"]["run"]["disclosure"]["error_correction"]
+        .as_f64()
+        .unwrap();
+    assert!((disclosed - 1e9 * 1.16 * h).abs() < 1e-3 * disclosed.abs().max(1.0));
+    assert!(
+        j["finite_size"]["figures"]["security_total"]
+            .as_f64()
+            .unwrap()
+            > 3.9e-9
+    );
+    // Counts together with rounds, or key_with without counts, are refused.
+    let both = dir.join("both.yaml");
+    std::fs::write(
+        &both,
+        format!("game: {root}/games/chsh.yaml\ncounts: {counts_path}\nrounds: 10\nwins: 8\n"),
+    )
+    .unwrap();
+    assert_eq!(
+        bellgap(&["review", both.to_str().unwrap()]).status.code(),
+        Some(2)
+    );
+    let no_counts = dir.join("no-counts.yaml");
+    std::fs::write(
+        &no_counts,
+        format!("game: {root}/games/chsh.yaml\nrounds: 1000\nwins: 845\nfinite_size: {{rounds: 1000000, testing: 0.01, threshold: 0.84, key_with: bob}}\n"),
+    )
+    .unwrap();
+    assert_eq!(
+        bellgap(&["review", no_counts.to_str().unwrap()])
+            .status
+            .code(),
+        Some(2)
+    );
+}

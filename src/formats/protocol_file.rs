@@ -137,6 +137,13 @@ pub struct FiniteSizeSpec {
     /// Key instead of randomness: the key pair's error rate (leakage n·f·Fano).
     #[serde(default)]
     pub key_error_rate: Option<f64>,
+    /// Key: the player whose answers the key is reconciled with; the key error rate is then the
+    /// one observed in the counts at the key questions (needs `counts`).
+    #[serde(default)]
+    pub key_with: Option<String>,
+    /// That player's key question (default: its first).
+    #[serde(default)]
+    pub key_question: Option<i64>,
     /// Error-correction efficiency f (default 1.16, common practice).
     #[serde(default)]
     pub ec_efficiency: Option<f64>,

@@ -853,7 +853,12 @@ pub(crate) fn check_same_parties(s: &Scenario, parties: &[Party], name: &str) ->
 }
 
 /// p(a, b | x*, y*) of two players, the others' answers summed out at their first question.
-fn key_pair_table(s: &Scenario, p: &[f64], a: (usize, usize), b: (usize, usize)) -> Vec<Vec<f64>> {
+pub(crate) fn key_pair_table(
+    s: &Scenario,
+    p: &[f64],
+    a: (usize, usize),
+    b: (usize, usize),
+) -> Vec<Vec<f64>> {
     let parties = s.parties();
     let qr: Vec<usize> = parties.iter().map(|q| q.questions()).collect();
     let ar: Vec<usize> = parties.iter().map(|q| q.answers()).collect();

@@ -5,11 +5,11 @@
 
 use serde::Serialize;
 
-use super::figures::RunData;
 use super::figures::{
     entropy, preprocessing_assumption, DevetakWinter, EntropyCommandOptions, EntropyGiven,
     ErrorCorrection, TargetChoice,
 };
+use super::figures::{key_pair_table, RunData};
 use super::finite_size::{
     finite_size, FiniteSizeOptions, FiniteSizeReport, KeyDisclosure, KeyParts, Tangent,
     DEFAULT_TANGENT_POINTS,
@@ -301,6 +301,45 @@ pub fn review<'a>(
         None => None,
         Some(f) => {
             let defaults = SecurityParameters::default();
+            // The key error rate observed in the counts at the key pair's questions.
+            let observed_error_rate = match (&f.key_with, &protocol.counts) {
+                (None, _) => None,
+                (Some(_), None) => {
+                    return Err(bad(
+                        "finite_size: key_with takes the error rate from the counts: give counts".into(),
+                    ))
+                }
+                (Some(_), Some(_)) if f.key_error_rate.is_some() || f.key_disclosed_bits.is_some() => {
+                    return Err(bad(
+                        "finite_size: give key_with (the observed error rate), key_error_rate or key_disclosed_bits, one of them".into(),
+                    ))
+                }
+                (Some(player), Some(counts)) => {
+                    let (pa, xa) = TargetChoice {
+                        player: f.player.clone(),
+                        question: f.question,
+                    }
+                    .resolve(s, 0)
+                    .map_err(|e| bad(format!("finite_size: {e}")))?;
+                    let (pb, yb) = TargetChoice {
+                        player: Some(player.clone()),
+                        question: f.key_question,
+                    }
+                    .resolve(s, 1)
+                    .map_err(|e| bad(format!("finite_size: key_with: {e}")))?;
+                    if pa == pb {
+                        return Err(bad("finite_size: key_with needs a second player".into()));
+                    }
+                    let table = key_pair_table(s, &counts.frequencies(), (pa, xa), (pb, yb));
+                    let differ: f64 = table
+                        .iter()
+                        .enumerate()
+                        .flat_map(|(a, row)| row.iter().enumerate().filter(move |(b, _)| *b != a))
+                        .map(|(_, v)| v)
+                        .sum();
+                    Some(differ.clamp(0.0, 1.0))
+                }
+            };
             let options = FiniteSizeOptions {
                 target: TargetChoice {
                     player: f.player.clone(),
@@ -321,7 +360,7 @@ pub fn review<'a>(
                 },
                 key: KeyDisclosure::from_parts(KeyParts {
                     disclosed_bits: f.key_disclosed_bits,
-                    error_rate: f.key_error_rate,
+                    error_rate: f.key_error_rate.or(observed_error_rate),
                     efficiency: f.ec_efficiency,
                     verification_error: f.verification_error,
                     correction_failure: f.correction_failure,
