@@ -346,7 +346,7 @@ pub fn finite_size_assumptions(extracting: Extracting) -> Vec<String> {
     let mut a = vec![
         "adversary: quantum side information; the devices may keep memory and adapt between rounds (sequential rounds), but do not signal to each other during a round or learn future questions".to_string(),
         "questions and the test flag of each round are drawn independently from trusted public randomness".to_string(),
-        "statement: entropy accumulation (Dupuis & Fawzi 2019) with the constants as recalled from memory; compare them with the published theorem before relying on them".to_string(),
+        "statement: entropy accumulation, the improved second-order statement (Dupuis & Fawzi 2019) and the original one (Dupuis, Fawzi & Renner 2020), both with the constants as recalled from memory; the smaller bound is certified unless one is chosen; compare them with the published theorems (docs/finite-size-statement.md lists what to check) before relying on them".to_string(),
         "the bound holds for runs that pass the test, unless the pass probability is below the pass floor ε_EA".to_string(),
     ];
     match extracting {
@@ -354,7 +354,7 @@ pub fn finite_size_assumptions(extracting: Extracting) -> Vec<String> {
             "randomness: all players' answers are the raw output; extraction by a quantum-proof two-universal hash (leftover hash lemma), costing 2·log₂(1/ε_ext) bits".to_string(),
         ),
         Extracting::Key => a.push(
-            "key: the target player's answers are the raw key; the others' test answers are removed by the chain rule (log₂ of their answer count per test round, at most the cap on test rounds) and the error-correction disclosure is subtracted as given; privacy amplification costs 2·log₂(1/ε_PA) bits".to_string(),
+            "key: the target player's answers are the raw key; the others' test answers are removed by the chain rule (log₂ of their answer count per test round, at most the cap on test rounds) the error-correction leakage (as given, or n·f·Fano from the key error rate) and the verification hash ⌈log₂(1/ε_EC)⌉ are subtracted; privacy amplification costs 2·log₂(1/ε_PA) bits; the security parameter is the sum ε_s + ε_EA + ε_PA + ε_EC".to_string(),
         ),
     }
     a.push("not a security proof: defer to the peer-reviewed proof of the protocol and the certification practice that applies".to_string());
