@@ -59,6 +59,16 @@ fn main() -> ExitCode {
             return ExitCode::from(1);
         }
     };
+    // A report that could not be written as JSON is an internal failure: never exit 0 with an
+    // error object on stdout.
+    let result = result.and_then(|out| match out.json.get("error") {
+        Some(e) if json && out.json.get("command").is_none() => Err(bellgap::Error::Solver {
+            stage: "writing the JSON report".into(),
+            status: None,
+            message: e["message"].as_str().unwrap_or("unknown").to_string(),
+        }),
+        _ => Ok(out),
+    });
     match result {
         Ok(out) => {
             for w in &out.warnings {

@@ -88,3 +88,19 @@ pub fn fixed6(x: f64) -> String {
         s
     }
 }
+
+/// Serialises a count that may exceed 64 bits (a symmetry group's order): as a JSON number up to
+/// 2⁶⁴ − 1, beyond that as a string of its exact decimal digits, and a count that saturated
+/// (`u128::MAX`, the product overflowed) as the string `"at least 3.4e38"`. JSON numbers beyond
+/// 64 bits are not representable in serde_json without loss, and an error here once turned a
+/// whole report into an error object printed with exit 0.
+pub(crate) fn serialize_count<S: serde::Serializer>(
+    count: &u128,
+    serializer: S,
+) -> Result<S::Ok, S::Error> {
+    match u64::try_from(*count) {
+        Ok(small) => serializer.serialize_u64(small),
+        Err(_) if *count == u128::MAX => serializer.serialize_str("at least 3.4e38"),
+        Err(_) => serializer.serialize_str(&count.to_string()),
+    }
+}

@@ -723,3 +723,33 @@ behaviour:
         "{j}"
     );
 }
+
+#[test]
+fn symmetry_groups_beyond_64_bits_are_printed_exactly_in_json() {
+    // 21 interchangeable questions: the group's order, 21!·2^… > 2⁶⁴, once made `check --json` and
+    // `bounds --json` print {"error": "number out of range"} with exit 0, losing every result.
+    let game = file(
+        "many-questions.yaml",
+        "name: many-questions\nplayers:\n  - {name: alice, question: x, answer: a, questions: 21, answers: 2}\n  - {name: bob, question: y, answer: b, questions: 1, answers: 2}\ndistribution: uniform\nwin: \"a == b\"\n",
+    );
+    let text = bellgap(&["check", &game]);
+    assert!(text.status.success());
+    let shown = String::from_utf8_lossy(&text.stdout);
+    let order = shown
+        .split("order ")
+        .nth(1)
+        .and_then(|rest| rest.split_whitespace().next())
+        .unwrap()
+        .to_string();
+    assert!(order.len() > 19, "{order}");
+    let out = bellgap(&["check", &game, "--json"]);
+    assert_eq!(out.status.code(), Some(0));
+    let j = json_of(&out);
+    assert!(j.get("error").is_none());
+    assert_eq!(j["symmetry"]["order"], Value::String(order.clone()));
+    let out = bellgap(&["bounds", &game, "--json", "--quiet"]);
+    assert_eq!(out.status.code(), Some(0));
+    let j = json_of(&out);
+    assert!((j["classical"].as_f64().unwrap() - 1.0).abs() < 1e-12);
+    assert_eq!(j["npa_symmetry"]["detected_order"], Value::String(order));
+}

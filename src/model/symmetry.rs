@@ -44,6 +44,7 @@ pub struct Relabelling {
 #[derive(Debug, Clone, Serialize)]
 pub struct SymmetryGroup {
     /// Number of symmetries (the identity included); a lower bound when `complete` is false.
+    #[serde(serialize_with = "crate::numbers::serialize_count")]
     pub order: u128,
     /// Whether the search finished (else `order` counts only what was found).
     pub complete: bool,

@@ -59,6 +59,7 @@ struct GeneratorView<'a> {
 
 #[derive(Serialize)]
 struct SymmetryView<'a> {
+    #[serde(serialize_with = "crate::numbers::serialize_count")]
     order: u128,
     complete: bool,
     generators: Vec<GeneratorView<'a>>,

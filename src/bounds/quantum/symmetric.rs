@@ -72,6 +72,7 @@ impl SymmetryChoice {
 pub struct SymmetryUse {
     /// Order of the game's symmetry group as detected (a lower bound when
     /// `detection_complete` is false).
+    #[serde(serialize_with = "crate::numbers::serialize_count")]
     pub detected_order: u128,
     /// Whether the symmetry search finished.
     pub detection_complete: bool,
