@@ -753,3 +753,26 @@ fn symmetry_groups_beyond_64_bits_are_printed_exactly_in_json() {
     assert!((j["classical"].as_f64().unwrap() - 1.0).abs() < 1e-12);
     assert_eq!(j["npa_symmetry"]["detected_order"], Value::String(order));
 }
+
+#[test]
+fn coefficients_that_overflow_inside_the_solvers_are_refused() {
+    // A correlator coefficient of −1e308 once made `nosignal` print "no-signalling NaN" (JSON
+    // null, status solved, exit 0); such tables are refused where they are read, with the field.
+    let game = file(
+        "huge-coefficient.yaml",
+        "name: huge\nplayers:\n  - {name: alice, question: x, answer: a, questions: 2, answers: 2}\n  - {name: bob, question: y, answer: b, questions: 2, answers: 2}\nbell:\n  correlators: [[0, 0, 0], [0, -1e308, 1], [0, 1, -1]]\n",
+    );
+    for command in ["nosignal", "bounds", "check"] {
+        let e = refused(&[command, &game]);
+        let message = e["error"]["message"].as_str().unwrap();
+        assert!(message.contains("1e100"), "{message}");
+        assert_eq!(e["error"]["location"]["field"], "bell", "{e}");
+    }
+    // Large but representable coefficients still give finite figures.
+    let fine = file(
+        "large-coefficient.yaml",
+        "name: large\nplayers:\n  - {name: alice, question: x, answer: a, questions: 2, answers: 2}\n  - {name: bob, question: y, answer: b, questions: 2, answers: 2}\nbell:\n  correlators: [[0, 0, 0], [0, 1e90, 1], [0, 1, -1]]\n",
+    );
+    let j = json_of(&bellgap(&["nosignal", &fine, "--json"]));
+    assert!(j["no_signalling"].as_f64().unwrap().is_finite());
+}

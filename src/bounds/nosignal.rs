@@ -181,8 +181,15 @@ pub fn no_signalling_value(s: &Scenario, limits: &Limits) -> Result<NoSignalling
         .zip(&expansions)
         .map(|(row, constant)| constant + row.terms.iter().map(|&(v, c)| c * sol.x[v]).sum::<f64>())
         .collect();
+    let value = constant_value + sol.objective;
+    if !value.is_finite() {
+        return Err(Error::solver(
+            "no-signalling LP",
+            format!("the value came out as {value}: the table's numbers overflow double precision"),
+        ));
+    }
     Ok(NoSignallingValue {
-        value: constant_value + sol.objective,
+        value,
         certified_upper: sol.certified_bound.map(|b| constant_value + b),
         method: if use_simplex {
             LpMethod::Simplex

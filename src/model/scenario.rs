@@ -86,6 +86,10 @@ pub fn index_of(digits: &[usize], radices: &[usize]) -> usize {
         .fold(0, |acc, (&d, &r)| acc * r + d)
 }
 
+/// The largest coefficient (weight × score, or the constant) a game's value may have; see
+/// [`Scenario::checked`].
+pub const MOST_COEFFICIENT: f64 = 1e100;
+
 impl Scenario {
     /// Builds a scenario; `weights` has one entry per joint question, `scores` one per joint
     /// question and answer (first player most significant). Every table is checked as for
@@ -166,6 +170,19 @@ impl Scenario {
             return Err(format!("the constant term is {offset}: it must be finite"));
         }
         let s = Scenario::from_parts(parties, weights, scores, offset, kind);
+        // Solvers square, sum and expand these coefficients (the Collins–Gisin expansion alone
+        // multiplies them by up to 2ⁿ terms): beyond this size double precision overflows to
+        // inf and NaN inside them, so such tables are refused here rather than reported as NaN.
+        let largest = s
+            .objective
+            .iter()
+            .chain(std::iter::once(&s.offset))
+            .fold(0.0f64, |m, c| m.max(c.abs()));
+        if largest > MOST_COEFFICIENT {
+            return Err(format!(
+                "a coefficient of the value is {largest:e} in magnitude; at most {MOST_COEFFICIENT:e} is accepted (larger ones overflow double precision inside the solvers): rescale the game"
+            ));
+        }
         let (lo, hi) = s.value_range();
         if !lo.is_finite() || !hi.is_finite() || s.objective.iter().any(|c| !c.is_finite()) {
             return Err(format!(
