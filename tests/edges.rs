@@ -776,3 +776,65 @@ fn coefficients_that_overflow_inside_the_solvers_are_refused() {
     let j = json_of(&bellgap(&["nosignal", &fine, "--json"]));
     assert!(j["no_signalling"].as_f64().unwrap().is_finite());
 }
+
+#[test]
+fn small_refusals_of_the_second_round() {
+    // Each was once accepted: a vanishing testing probability (smooth min-entropy null, exit 0),
+    // a cap of 0 test rounds (a large, vacuous key), a `;` list of levels for a one-level command
+    // (refused without saying why), and a score below the game's lowest value (bounded as 0).
+    let e = refused(&[
+        "finite-size",
+        "games/chsh.yaml",
+        "--rounds",
+        "1000000",
+        "--testing",
+        "5e-324",
+        "--threshold",
+        "0.84",
+    ]);
+    assert!(
+        e["error"]["message"].as_str().unwrap().contains("overflow"),
+        "{e}"
+    );
+    let e = refused(&[
+        "finite-size",
+        "games/chsh.yaml",
+        "--rounds",
+        "1000000",
+        "--testing",
+        "0.01",
+        "--threshold",
+        "0.84",
+        "--key-disclosed-bits",
+        "10",
+        "--max-test-rounds",
+        "0",
+    ]);
+    assert!(
+        e["error"]["message"].as_str().unwrap().contains("abort"),
+        "{e}"
+    );
+    let e = refused(&[
+        "entropy",
+        "games/chsh-expression.yaml",
+        "--score",
+        "2.5",
+        "--level",
+        "1;2",
+    ]);
+    assert!(
+        e["error"]["message"]
+            .as_str()
+            .unwrap()
+            .contains("for `npa`"),
+        "{e}"
+    );
+    let e = refused(&["entropy", "games/chsh-expression.yaml", "--score", "-5"]);
+    assert!(
+        e["error"]["message"]
+            .as_str()
+            .unwrap()
+            .contains("lowest value -4"),
+        "{e}"
+    );
+}

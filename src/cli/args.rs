@@ -14,6 +14,12 @@ Several levels separated by `;` (e.g. \"1;1+joint;2\") are built and size-checke
 
 The moment matrix grows quickly with the level (roughly (questions·(answers−1))^level words per player). Levels whose matrix would be too large are refused before anything is built, with the estimate; see --force.";
 
+const ONE_LEVEL_HELP: &str = "NPA level of the relaxation: which operator words index the moment matrix (one level; `;` lists are for `npa`).
+
+`1`, `2`, `3`, ...: every word of at most that length. `1+joint`: level 1 plus the products of one operator per player (for two players the level usually written 1+AB). A list of player letters such as `1 A B AB AAB` gives the words of those patterns (A is the first player).
+
+Levels whose matrix would be too large are refused before anything is built, with the estimate; see --force.";
+
 const SYMMETRY_HELP: &str = "Reduce the NPA relaxation by the game's symmetries.
 
 `auto` (default): find the relabellings of players, questions and answers that leave the game's value unchanged on every no-signalling behaviour (as `check` reports them: the table's own symmetries and, for example, flips of answers that the table writes differently but that give the same value), merge the moments that the group maps onto each other, and solve the smaller problem. The value is the same as without the reduction. The verified bound does not rely on it: the smaller problem's dual is averaged over the group and checked on the full problem, and a saved certificate is in the full problem's format. A game without symmetry, a level whose words a symmetry does not preserve, or a reduction estimated to cost more than the full problem, is solved in full.
@@ -207,7 +213,7 @@ pub enum Command {
         #[command(flatten)]
         answers: AnswerArgs,
         /// NPA level of the relaxation.
-        #[arg(long, default_value = "2", long_help = LEVEL_HELP)]
+        #[arg(long, default_value = "2", long_help = ONE_LEVEL_HELP)]
         level: String,
         /// Write the min-entropy curve of a sweep as an SVG plot.
         #[arg(long, value_name = "FILE")]
@@ -468,7 +474,7 @@ pub struct HierarchyArgs {
     /// The players' NPA level of each relaxation (default: 1+joint and the target players'
     /// products of two of their own operators, e.g. `1 A B AB AA`, while the matrix side stays
     /// within 120; else 1+joint).
-    #[arg(long, long_help = LEVEL_HELP)]
+    #[arg(long, long_help = ONE_LEVEL_HELP)]
     pub level: Option<String>,
     /// Which of the adversary's words join the players' words.
     #[arg(long, value_enum, default_value = "with-player-words")]

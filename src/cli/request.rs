@@ -82,6 +82,16 @@ pub enum FamilyChoice {
     },
 }
 
+/// One NPA level for a command that solves one relaxation per point (`;` lists are `npa`'s).
+fn one_level(text: &str) -> Result<Level> {
+    if text.contains(';') {
+        return Err(Error::Usage(format!(
+            "level `{text}`: this command solves one level; `;` lists of levels are for `npa`"
+        )));
+    }
+    Level::parse(text)
+}
+
 /// A run's data as typed: a summary, or a counts file the runner reads.
 #[derive(Debug, Clone, PartialEq)]
 pub enum RunInput {
@@ -514,7 +524,7 @@ impl Invocation {
                             return Err(Error::Usage("give --score, --sweep or --counts".into()))
                         }
                     },
-                    level: Level::parse(level)?,
+                    level: one_level(level)?,
                     from_counts: None,
                 },
                 counts: counts.clone().map(|c| (c, *alpha)),
@@ -699,7 +709,7 @@ impl Invocation {
 fn hierarchy_options(h: &HierarchyArgs) -> Result<EntropyOptions> {
     Ok(EntropyOptions {
         nodes: h.nodes,
-        level: h.level.as_deref().map(Level::parse).transpose()?,
+        level: h.level.as_deref().map(one_level).transpose()?,
         adversary: match h.adversary_words {
             AdversaryWordsArg::Letters => AdversaryWords::Letters,
             AdversaryWordsArg::WithProjectors => AdversaryWords::WithProjectors,

@@ -443,6 +443,16 @@ pub fn finite_size<'a>(
     options.security.check()?;
     if let Some(k) = &options.key {
         k.check()?;
+        if let Some(m) = k.max_test_rounds {
+            // A cap below the expected number of test rounds makes honest runs abort more often
+            // than not: the key it certifies is for a run that almost never happens.
+            let expected = options.rounds as f64 * options.testing;
+            if (m as f64) < expected {
+                return Err(Error::InvalidArgument(format!(
+                    "the cap of {m} test rounds is below the expected number of test rounds n·γ = {expected}: honest runs would abort more often than not"
+                )));
+            }
+        }
     }
     let key_answers = s.parties()[target.parts[0].0].answers();
     // What a run of n rounds with at most `tests` test rounds discloses.

@@ -467,6 +467,19 @@ pub fn accumulate(
     let second_order = best_terms(n, tradeoff, protocol.output_dimension, security);
     let original = original_terms(n, tradeoff, protocol.output_dimension, security);
     let first_order = n * h;
+    let finite_terms = [
+        second_order.variance_term,
+        second_order.error_term,
+        second_order.third_order_term,
+        original.correction,
+        first_order,
+    ];
+    if finite_terms.iter().any(|x| !x.is_finite()) {
+        return Err(Error::InvalidArgument(format!(
+            "the statements' terms overflow double precision (testing probability {:e}, {} rounds): use a testing probability whose rounds' tests are not vanishingly few",
+            protocol.testing, protocol.rounds
+        )));
+    }
     // Floating-point slack: a relative 1e-12 of every term (each is computed to ~1e-15).
     let by_improved_second_order = first_order
         - penalty(&second_order)

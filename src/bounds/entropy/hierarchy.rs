@@ -644,6 +644,11 @@ pub fn conditional_entropy_reporting(
                 )));
             }
             let (lowest, highest_value) = s.value_range();
+            if *v < lowest - 1e-9 * (1.0 + lowest.abs()) {
+                return Err(Error::InvalidArgument(format!(
+                    "the score {v} is below the game's lowest value {lowest}: no behaviour scores that little, so the bound would be about nothing"
+                )));
+            }
             tradeoff_ends = Some((lowest, quantum.verified_upper.min(highest_value), *v));
             (
                 Vec::new(),
