@@ -72,7 +72,7 @@ fn main() -> ExitCode {
     match result {
         Ok(out) => {
             for w in &out.warnings {
-                eprintln!("warning: {w}");
+                eprintln!("warning: {}", for_terminal(w));
             }
             let text = if json {
                 format!(
@@ -80,16 +80,17 @@ fn main() -> ExitCode {
                     serde_json::to_string_pretty(&out.json).unwrap_or_default()
                 )
             } else {
-                out.text
+                for_terminal(&out.text)
             };
             write_stdout(&text)
         }
         Err(e) => {
-            eprintln!("error: {e}");
+            let message = cut(&e.to_string());
+            eprintln!("error: {}", for_terminal(&message));
             if json {
                 let obj = json!({"schema_version": bellgap::render::json::SCHEMA_VERSION, "error": {
                     "kind": e.kind(),
-                    "message": e.to_string(),
+                    "message": message,
                     "location": e.location(),
                 }});
                 let _ = write_stdout(&format!("{obj}\n"));
@@ -97,6 +98,34 @@ fn main() -> ExitCode {
             ExitCode::from(e.exit_code() as u8)
         }
     }
+}
+
+/// Text for a terminal: control characters from files (ESC, BEL, CR, ...) would be obeyed by
+/// it, so every one but newline and tab is shown as its escape (`\u{1b}`) instead.
+fn for_terminal(text: &str) -> String {
+    text.chars()
+        .map(|c| {
+            if c.is_control() && c != '\n' && c != '\t' {
+                c.escape_unicode().to_string()
+            } else {
+                c.to_string()
+            }
+        })
+        .collect()
+}
+
+/// An error message of reasonable length: text echoed from a hostile file (a megabyte-long
+/// field) is cut, saying so.
+fn cut(message: &str) -> String {
+    const MOST: usize = 2000;
+    if message.chars().count() <= MOST {
+        return message.to_string();
+    }
+    let kept: String = message.chars().take(MOST).collect();
+    format!(
+        "{kept}… (cut: the message was {} characters)",
+        message.chars().count()
+    )
 }
 
 /// Writes to stdout; a closed pipe (e.g. `| head`) is not an error, as for other Unix tools.

@@ -838,3 +838,45 @@ fn small_refusals_of_the_second_round() {
         "{e}"
     );
 }
+
+#[test]
+fn control_characters_from_files_never_reach_the_terminal_raw() {
+    // A game name with ESC and BEL was printed raw (a terminal obeys them); a certificate's
+    // megabyte-long field was echoed whole in `verify`'s error.
+    let game = file(
+        "evil-name.yaml",
+        "name: \"evil\\e[31mred\\a\"\nplayers:\n  - {name: alice, question: x, answer: a, questions: 2, answers: 2}\n  - {name: bob, question: y, answer: b, questions: 2, answers: 2}\ndistribution: uniform\nwin: (a + b) % 2 == x * y\n",
+    );
+    let out = bellgap(&["check", &game]);
+    assert!(out.status.success());
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        !text.contains('\u{1b}') && !text.contains('\u{7}'),
+        "{text}"
+    );
+    assert!(text.contains("evil\\u{1b}[31mred\\u{7}"), "{text}");
+    // JSON keeps the name exactly (escaped by JSON itself).
+    let j = json_of(&bellgap(&["check", &game, "--json"]));
+    assert_eq!(j["game"], "evil\u{1b}[31mred\u{7}");
+    // A certificate whose game name is a megabyte of text with ESC in it.
+    let cert = dir().join("huge-name-cert.json");
+    let out = bellgap(&[
+        "npa",
+        "games/chsh.yaml",
+        "--level",
+        "1",
+        "--certificate",
+        cert.to_str().unwrap(),
+        "--quiet",
+    ]);
+    assert!(out.status.success());
+    let mut c: Value = serde_json::from_str(&std::fs::read_to_string(&cert).unwrap()).unwrap();
+    c["game"] = Value::String(format!("\u{1b}]0;{}", "x".repeat(1_100_000)));
+    c["game_fingerprint"] = Value::String(format!("\u{1b}[2J{}", "0".repeat(1_100_000)));
+    std::fs::write(&cert, c.to_string()).unwrap();
+    let out = bellgap(&["verify", "games/chsh.yaml", cert.to_str().unwrap()]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.len() < 5000, "{} bytes", err.len());
+    assert!(!err.contains('\u{1b}'), "{err}");
+}
