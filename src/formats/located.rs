@@ -145,15 +145,19 @@ impl MarkedEventReceiver for Builder<'_> {
                 if let Some(path) = self.next_value_path(Some(&value)) {
                     let at = self.byte_offset(mark.index());
                     let raw = &self.text[at..];
-                    let first_line = raw.lines().next().unwrap_or("");
+                    // Whether the value stands in the text as written, on one line. (Not by
+                    // taking the rest of the line first: on a one-line JSON document that is
+                    // the whole rest of the file for every scalar, quadratic in its size.)
+                    let one_line = !value.contains(['\n', '\r']);
                     let text_column = match style {
-                        TScalarStyle::Plain if first_line.starts_with(value.as_str()) => {
+                        TScalarStyle::Plain if one_line && raw.starts_with(value.as_str()) => {
                             Some(mark.col() + 1)
                         }
                         TScalarStyle::SingleQuoted | TScalarStyle::DoubleQuoted
-                            if first_line
-                                .get(1..)
-                                .is_some_and(|rest| rest.starts_with(value.as_str())) =>
+                            if one_line
+                                && raw
+                                    .get(1..)
+                                    .is_some_and(|rest| rest.starts_with(value.as_str())) =>
                         {
                             Some(mark.col() + 2)
                         }
