@@ -369,7 +369,21 @@ fn strategy_from(input: StrategyInput, game: &Game) -> bellgap::Result<QuantumSt
         message: m,
     };
     let z = |p: &[f64; 2]| num_complex::Complex64::new(p[0], p[1]);
-    let total: usize = input.dims.iter().product();
+    if input.dims.len() != game.scenario.players() || input.measurements.len() != input.dims.len() {
+        return Err(bad(format!(
+            "the strategy has {} dimensions and measurements for {} players; the game has {}",
+            input.dims.len(),
+            input.measurements.len(),
+            game.scenario.players()
+        )));
+    }
+    let Some(total) = bellgap::model::strategy::joint_dimension(&input.dims) else {
+        return Err(bad(format!(
+            "the joint dimension of {:?} is above the limit of {}",
+            input.dims,
+            bellgap::model::strategy::MAX_JOINT_DIMENSION
+        )));
+    };
     if input.state.len() != total {
         return Err(bad(format!(
             "the state has {} amplitudes, the dimensions {:?} need {total}",

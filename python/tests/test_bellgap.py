@@ -422,3 +422,25 @@ def test_counts_give_the_command_lines_figures():
     assert e["entropy"]["bits"] > 0.1
     with pytest.raises(bellgap.UsageError):
         bellgap.margin(chsh, rounds=10, wins=8, counts=os.path.join(ROOT, counts))
+
+
+def test_strategies_of_the_wrong_shape_are_input_errors():
+    # A strategy with too few players, questions or answers once panicked (index out of bounds)
+    # and surfaced as InternalError with a Rust backtrace; now the shapes are checked first.
+    chsh = os.path.join(ROOT, "games", "chsh.yaml")
+    z, o = [[1, 0], [0, 0]], [[0, 0], [0, 1]]
+    good_player = [[z, o], [z, o]]
+    state = [1 / np.sqrt(2), 0, 0, 1 / np.sqrt(2)]
+    shapes = [
+        bellgap.Strategy([2], [1, 0], [good_player]),                     # one player
+        bellgap.Strategy([2, 2], state, [good_player, [[z, o]]]),         # one question
+        bellgap.Strategy([2, 2], state, [good_player, [[z], [o]]]),       # one answer
+        bellgap.Strategy([2, 2], state, [good_player, good_player, good_player]),
+        bellgap.Strategy([2, 2], state[:3], [good_player, good_player]),  # short state
+        bellgap.Strategy([2**40, 2**40], state, [good_player, good_player]),
+    ]
+    for s in shapes:
+        with pytest.raises(bellgap.InputError):
+            bellgap.evaluate(chsh, s)
+        with pytest.raises(bellgap.InputError):
+            bellgap.entropy(chsh, strategy=s, nodes=4)

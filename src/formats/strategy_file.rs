@@ -22,7 +22,9 @@ use super::files::read_text;
 use super::located::{yaml_error, Context, SourceMap};
 use crate::error::Result;
 use crate::model::scenario::Scenario;
-use crate::model::strategy::{CMatrix, CVector, QuantumStrategy};
+use crate::model::strategy::{
+    joint_dimension, CMatrix, CVector, QuantumStrategy, MAX_JOINT_DIMENSION,
+};
 
 impl QuantumStrategy {
     /// The strategy as a file (see the module notes).
@@ -131,13 +133,14 @@ impl QuantumStrategy {
                 ))
             }
         };
-        let total: usize = dims.iter().product();
-        if total > 1 << 14 {
+        let Some(total) = joint_dimension(&dims) else {
             return Err(ctx.error(
                 "dims",
-                format!("the joint dimension {total} is above the limit of 16384"),
+                format!(
+                    "the joint dimension of {dims:?} is above the limit of {MAX_JOINT_DIMENSION}"
+                ),
             ));
-        }
+        };
         // Non-finite entries are refused here: NaN passes every `> tolerance` check later.
         let complex = |v: &Yaml, field: &str| -> Result<Complex64> {
             let z = match v {

@@ -30,6 +30,18 @@ pub struct CertifiedValue {
     pub lower: f64,
 }
 
+/// The largest joint dimension (product of the local dimensions) a strategy may have: its
+/// state has that many amplitudes and each Born-rule evaluation multiplies matrices of that side.
+pub const MAX_JOINT_DIMENSION: usize = 1 << 14;
+
+/// The joint dimension of `dims`, or None when it overflows or exceeds
+/// [`MAX_JOINT_DIMENSION`] (checked before anything of that size is allocated).
+pub fn joint_dimension(dims: &[usize]) -> Option<usize> {
+    dims.iter()
+        .try_fold(1usize, |acc, &d| acc.checked_mul(d))
+        .filter(|&t| t <= MAX_JOINT_DIMENSION)
+}
+
 /// Makes a nearly valid POVM exactly valid (up to rounding): Hermitian parts, negative
 /// eigenvalues clipped, then `M_a ← S^{-1/2} M_a S^{-1/2}` with `S = Σ M_a`.
 pub fn clean_povm(povm: Vec<CMatrix>) -> Vec<CMatrix> {
@@ -290,6 +302,78 @@ impl QuantumStrategy {
     /// As [`QuantumStrategy::check`], with the file field at fault (`state`, or
     /// `measurements.<player>`).
     pub fn check_located(&self, s: &Scenario) -> std::result::Result<(), (String, String)> {
+        // Shapes first: every later check (and the Born rule) indexes by them.
+        let parties = s.parties();
+        if self.dims.len() != parties.len() || self.measurements.len() != parties.len() {
+            return Err((
+                "measurements".into(),
+                format!(
+                    "the strategy has {} dimensions and measurements for {} players; the game has {} players",
+                    self.dims.len(),
+                    self.measurements.len(),
+                    parties.len()
+                ),
+            ));
+        }
+        if let Some(d) = self.dims.iter().find(|&&d| d == 0) {
+            return Err(("dims".into(), format!("a local dimension is {d}")));
+        }
+        let total = self
+            .dims
+            .iter()
+            .try_fold(1usize, |acc, &d| acc.checked_mul(d));
+        if total != Some(self.state.len()) {
+            return Err((
+                "state".into(),
+                format!(
+                    "the state has {} amplitudes; the dimensions {:?} need their product",
+                    self.state.len(),
+                    self.dims
+                ),
+            ));
+        }
+        for (i, (player, p)) in self.measurements.iter().zip(parties).enumerate() {
+            let field = format!("measurements.{}", p.name);
+            if player.len() != p.questions() {
+                return Err((
+                    field,
+                    format!(
+                        "{} has {} questions in the game, the strategy measures {}",
+                        p.name,
+                        p.questions(),
+                        player.len()
+                    ),
+                ));
+            }
+            for (x, povm) in player.iter().enumerate() {
+                if povm.len() != p.answers() {
+                    return Err((
+                        field,
+                        format!(
+                            "{}, question {}: the game has {} answers, the measurement {} elements",
+                            p.name,
+                            p.question_labels[x],
+                            p.answers(),
+                            povm.len()
+                        ),
+                    ));
+                }
+                if povm
+                    .iter()
+                    .any(|m| m.nrows() != self.dims[i] || m.ncols() != self.dims[i])
+                {
+                    return Err((
+                        field,
+                        format!(
+                            "{}, question {}: every element must be {d}×{d}",
+                            p.name,
+                            p.question_labels[x],
+                            d = self.dims[i]
+                        ),
+                    ));
+                }
+            }
+        }
         // `at_most` is false for NaN, so a NaN fails every check.
         let norm = self.state.norm();
         if !at_most((norm - 1.0).abs(), NORM_TOLERANCE) {
