@@ -901,3 +901,35 @@ fn a_one_line_json_game_with_many_players_is_refused_promptly() {
     assert!(message.contains("100000 players"), "{message}");
     assert_eq!(e["error"]["location"]["line"], 1);
 }
+
+#[test]
+fn the_library_caps_score_lists_like_the_command_line() {
+    use bellgap::pipeline::{
+        entropy, randomness, EntropyCommandOptions, EntropyGiven, RandomnessOptions, Silent,
+        MAX_SCORES,
+    };
+    let game = Game::from_file("games/chsh-expression.yaml", CompileOptions::default()).unwrap();
+    let many: Vec<f64> = (0..=MAX_SCORES)
+        .map(|k| 2.0 + 0.8 * k as f64 / 1000.0)
+        .collect();
+    let e = entropy(
+        &game,
+        &EntropyCommandOptions {
+            target: Default::default(),
+            with: None,
+            given: EntropyGiven::Scores(many.clone()),
+            key: None,
+            hierarchy: Default::default(),
+        },
+        &Silent,
+    );
+    assert!(matches!(e, Err(bellgap::Error::TooLarge { .. })));
+    let r = randomness(
+        &game,
+        &RandomnessOptions {
+            scores: many,
+            ..Default::default()
+        },
+    );
+    assert!(matches!(r, Err(bellgap::Error::TooLarge { .. })));
+}

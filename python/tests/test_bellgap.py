@@ -444,3 +444,14 @@ def test_strategies_of_the_wrong_shape_are_input_errors():
             bellgap.evaluate(chsh, s)
         with pytest.raises(bellgap.InputError):
             bellgap.entropy(chsh, strategy=s, nodes=4)
+
+
+def test_score_lists_have_the_command_lines_limit():
+    # `entropy(game, scores=[…])` had no cap (about 0.16 s a score: 100,000 scores is 4.5 hours)
+    # where the command line refuses more than 1,000 points.
+    expr = os.path.join(ROOT, "games", "chsh-expression.yaml")
+    many = [2.0 + 0.8 * k / 1000 for k in range(1001)]
+    with pytest.raises(bellgap.TooLargeError):
+        bellgap.entropy(expr, scores=many, nodes=4)
+    with pytest.raises(bellgap.TooLargeError):
+        bellgap.randomness(expr, scores=many)

@@ -238,6 +238,7 @@ pub fn randomness<'a>(game: &'a Game, options: &RandomnessOptions) -> Result<Ran
     if scores.is_empty() {
         return Err(Error::InvalidArgument("no score given".into()));
     }
+    check_score_count(scores.len())?;
     let mut results = Vec::new();
     let mut not_obtained = Vec::new();
     for &v in &scores {
@@ -440,6 +441,23 @@ pub enum EntropyGiven {
     },
 }
 
+/// Most scores one `randomness` or `entropy` run bounds (a sweep's points): the same limit for
+/// the command line and the library (the Python package included), where each score costs one
+/// relaxation (randomness) or one hierarchy (entropy, about a second to minutes each).
+pub const MAX_SCORES: usize = 1000;
+
+/// Refuses more scores than [`MAX_SCORES`].
+fn check_score_count(count: usize) -> Result<()> {
+    if count > MAX_SCORES {
+        return Err(Error::TooLarge {
+            what: format!("{count} scores"),
+            estimate: format!("one relaxation or hierarchy per score; at most {MAX_SCORES} are bounded in one run"),
+            hint: "split the scores over several runs (or a sweep list)".into(),
+        });
+    }
+    Ok(())
+}
+
 /// The error of the confidence region that measured frequencies (a correlations file with
 /// rounds) stand for in `entropy --behaviour`; `--counts` takes its own `--alpha`.
 pub const MEASURED_BEHAVIOUR_ERROR: f64 = 1e-6;
@@ -560,6 +578,7 @@ pub fn entropy<'a>(
             if scores.is_empty() {
                 return Err(Error::InvalidArgument("no score given".into()));
             }
+            check_score_count(scores.len())?;
             (
                 scores
                     .iter()

@@ -14,7 +14,7 @@ pub use figures::{
     entropy, entropy_assumptions, key, local, margin, randomness, verify, BestFlip, DevetakWinter,
     EntropyCommandOptions, EntropyGiven, EntropyReport, EntropyResult, ErrorCorrection, KeyOptions,
     KeyReport, LocalReport, MarginOptions, MarginReport, RandomnessOptions, RandomnessReport,
-    RunData, TargetChoice, VerifyReport,
+    RunData, TargetChoice, VerifyReport, MAX_SCORES,
 };
 pub use finite_size::{
     finite_size, finite_size_assumptions, Extracting, FiniteSizeOptions, FiniteSizeReport,
