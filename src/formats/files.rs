@@ -98,6 +98,26 @@ pub fn write_atomic(path: impl AsRef<Path>, text: &str, inputs: &[&Path]) -> Res
             path.to_string_lossy()
         )));
     }
+    match std::fs::symlink_metadata(path) {
+        // Renaming over a symbolic link would replace the link, not what it points to; writing
+        // through it would change a file the user did not name. Neither silently.
+        Ok(m) if m.file_type().is_symlink() => {
+            return Err(Error::InvalidArgument(format!(
+                "refusing to write {}: it is a symbolic link (name the file it points to instead)",
+                path.to_string_lossy()
+            )));
+        }
+        // A device, FIFO or socket (a terminal, /dev/null, a pipe): written in place, as the
+        // shell's `>` would, never replaced by a regular file.
+        Ok(m) if !m.file_type().is_file() => {
+            return std::fs::OpenOptions::new()
+                .write(true)
+                .open(path)
+                .and_then(|mut f| f.write_all(text.as_bytes()))
+                .map_err(|e| io(path, IoOp::Write, e));
+        }
+        _ => {}
+    }
     let dir = match path.parent() {
         Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
         _ => PathBuf::from("."),
@@ -108,7 +128,11 @@ pub fn write_atomic(path: impl AsRef<Path>, text: &str, inputs: &[&Path]) -> Res
         .unwrap_or_else(|| "output".into());
     let temp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
     let result = (|| {
-        let mut f = std::fs::File::create(&temp)?;
+        // `create_new`: never through a link or file planted at the temporary name.
+        let mut f = std::fs::OpenOptions::new()
+            .write(true)
+            .create_new(true)
+            .open(&temp)?;
         f.write_all(text.as_bytes())?;
         f.sync_all()?;
         std::fs::rename(&temp, path)
@@ -140,6 +164,30 @@ mod tests {
         let missing = dir.join("no/such/dir/x.svg");
         let err = write_atomic(&missing, "x", &[]).unwrap_err();
         assert!(err.to_string().starts_with("cannot write"), "{err}");
+        std::fs::remove_dir_all(&dir).unwrap();
+    }
+
+    #[cfg(unix)]
+    #[test]
+    fn devices_are_written_in_place_and_symlinks_refused() {
+        // `--svg /dev/null` run as root once replaced the system's /dev/null with a regular
+        // file (temporary file renamed over it).
+        write_atomic("/dev/null", "discarded", &[]).unwrap();
+        let meta = std::fs::metadata("/dev/null").unwrap();
+        assert!(!meta.file_type().is_file(), "/dev/null is still a device");
+        let dir = std::env::temp_dir().join(format!("bellgap-links-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let target = dir.join("target.txt");
+        std::fs::write(&target, "keep").unwrap();
+        let link = dir.join("link.txt");
+        std::os::unix::fs::symlink(&target, &link).unwrap();
+        let err = write_atomic(&link, "replaced", &[]).unwrap_err();
+        assert!(err.to_string().contains("symbolic link"), "{err}");
+        assert_eq!(read_text(&target).unwrap(), "keep");
+        assert!(std::fs::symlink_metadata(&link)
+            .unwrap()
+            .file_type()
+            .is_symlink());
         std::fs::remove_dir_all(&dir).unwrap();
     }
 }
