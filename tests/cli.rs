@@ -1293,3 +1293,57 @@ fn measured_frequencies_with_rounds_stand_for_their_confidence_region() {
     let bits = j["results"][0]["entropy"]["bits"].as_f64().unwrap();
     assert!(bits > 0.2 && bits < 1.0, "{bits}");
 }
+
+#[test]
+fn a_sweep_protects_its_list_and_inputs_and_never_mixes_lists() {
+    // A line writing its certificate over the list itself once overwrote the list, and shards
+    // of two different lists with the same number of lines merged without complaint.
+    let dir = std::env::temp_dir().join(format!("bellgap-sweep-safety-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let list = dir.join("list.txt");
+    let strategy = dir.join("kept-strategy.yaml");
+    std::fs::write(&strategy, "not touched\n").unwrap();
+    let text = format!(
+        "npa games/chsh.yaml --level 1 --certificate {list}\nseesaw games/chsh.yaml --restarts 1 --save {strategy}\nevaluate games/chsh.yaml {strategy}\n",
+        list = list.display(),
+        strategy = strategy.display()
+    );
+    std::fs::write(&list, &text).unwrap();
+    let out = bellgap(&["sweep", list.to_str().unwrap(), "--json"]);
+    let j = json_of(&out);
+    assert_eq!(
+        std::fs::read_to_string(&list).unwrap(),
+        text,
+        "the list was overwritten"
+    );
+    assert_eq!(std::fs::read_to_string(&strategy).unwrap(), "not touched\n");
+    let items = j["items"].as_array().unwrap();
+    assert!(
+        items[0]["error"]["message"]
+            .as_str()
+            .unwrap()
+            .contains("input"),
+        "{}",
+        items[0]
+    );
+    assert!(
+        items[1]["error"]["message"]
+            .as_str()
+            .unwrap()
+            .contains("input"),
+        "{}",
+        items[1]
+    );
+    // Records carry their list's hash; shards of two lists of one line each do not merge.
+    let (a, b) = (dir.join("a.txt"), dir.join("b.txt"));
+    std::fs::write(&a, "classical games/chsh.yaml\n").unwrap();
+    std::fs::write(&b, "nosignal games/chsh.yaml\n").unwrap();
+    let (sa, sb) = (dir.join("a.jsonl"), dir.join("b.jsonl"));
+    for (l, s) in [(&a, &sa), (&b, &sb)] {
+        let out = bellgap(&["sweep", l.to_str().unwrap(), "-o", s.to_str().unwrap()]);
+        assert!(out.status.success());
+    }
+    let out = bellgap(&["sweep-merge", sa.to_str().unwrap(), sb.to_str().unwrap()]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("different lists"));
+}

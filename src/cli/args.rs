@@ -610,8 +610,17 @@ impl Cli {
             Command::Sweep { list, .. } => v.push(list.clone()),
             Command::SweepMerge { shards, .. } => v.extend(shards.iter().cloned()),
             Command::Entropy {
-                behaviour: Some(b), ..
-            } => v.push(b.clone()),
+                behaviour,
+                strategy,
+                counts,
+                ..
+            } => v.extend([behaviour, strategy, counts].into_iter().flatten().cloned()),
+            Command::Margin {
+                counts: Some(c), ..
+            }
+            | Command::Randomness {
+                counts: Some(c), ..
+            } => v.push(c.clone()),
             Command::Family {
                 family: FamilyCommand::Product { game, .. },
                 ..

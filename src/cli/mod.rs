@@ -312,6 +312,7 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
                 Some(file) => {
                     let mut inputs = inputs.clone();
                     inputs.push(protocol.game_path.clone());
+                    inputs.extend(protocol.counts_path.clone());
                     write(file, &doc, &inputs)?;
                     format!("review written to {}\n", file.to_string_lossy())
                 }

@@ -50,8 +50,28 @@ fn error_value(kind: &str, message: String, location: Value) -> Value {
     json!({"kind": kind, "message": message, "location": location})
 }
 
+/// The command line of a list line, parsed (None when it does not parse; running it reports
+/// why).
+fn parsed(line: &str) -> Option<Cli> {
+    let words = words(line).ok()?;
+    Cli::try_parse_from(std::iter::once("bellgap".to_string()).chain(words)).ok()
+}
+
+/// A 64-bit FNV-1a hash of the list's text, as 16 hex digits: binds each record to its list so
+/// that shards of different lists are never merged (not a cryptographic commitment).
+fn list_hash(text: &str) -> String {
+    let mut h: u64 = 0xcbf29ce484222325;
+    for b in text.bytes() {
+        h ^= u64::from(b);
+        h = h.wrapping_mul(0x100000001b3);
+    }
+    format!("{h:016x}")
+}
+
 /// Runs one line as the command line would with `--json --quiet`; its JSON, or its error.
-fn run_line(line: &str) -> std::result::Result<Value, Value> {
+/// `protected` are files no line may write: the list, the sweep's output, and every line's
+/// inputs.
+fn run_line(line: &str, protected: &[PathBuf]) -> std::result::Result<Value, Value> {
     let words = words(line).map_err(|m| error_value("usage", m, Value::Null))?;
     match words.first().map(String::as_str) {
         Some("sweep" | "sweep-merge") => {
@@ -78,6 +98,7 @@ fn run_line(line: &str) -> std::result::Result<Value, Value> {
         Invocation::from_cli(&cli).and_then(|mut invocation| {
             invocation.json = true;
             invocation.quiet = true;
+            invocation.inputs.extend(protected.iter().cloned());
             run(&invocation)
         })
     }));
@@ -150,6 +171,17 @@ pub fn sweep(
     let text = read_text(list)?;
     let tasks = tasks(&text);
     let total = tasks.len();
+    let hash = list_hash(&text);
+    // No line may write over the list, the sweep's own output, or any line's inputs (each
+    // line's own check sees only its own inputs).
+    let mut protected: Vec<PathBuf> = vec![list.to_path_buf()];
+    protected.extend(output.cloned());
+    protected.extend(inputs.iter().cloned());
+    for (_, line) in &tasks {
+        if let Some(cli) = parsed(line) {
+            protected.extend(cli.inputs());
+        }
+    }
     let (mut records, mut failed) = (Vec::new(), 0usize);
     for (index, (line_number, line)) in tasks.iter().enumerate() {
         if let Some((i, n)) = shard {
@@ -157,9 +189,8 @@ pub fn sweep(
                 continue;
             }
         }
-        let mut record =
-            json!({"index": index, "of": total, "list_line": line_number, "line": line});
-        match run_line(line) {
+        let mut record = json!({"index": index, "of": total, "list_line": line_number, "line": line, "list_hash": hash});
+        match run_line(line, &protected) {
             Ok(result) => record["result"] = result,
             Err(error) => {
                 failed += 1;
@@ -172,6 +203,7 @@ pub fn sweep(
         "schema_version": bellgap::render::json::SCHEMA_VERSION,
         "command": "sweep",
         "list": list.display().to_string(),
+        "list_hash": hash,
         "of": total,
         "shard": shard.map(|(i, n)| format!("{i}/{n}")),
         "records": records.len(),
@@ -184,6 +216,7 @@ pub fn sweep(
 pub fn merge(shards: &[PathBuf], output: Option<&PathBuf>, inputs: &[PathBuf]) -> Result<Output> {
     let mut records: Vec<(usize, Value)> = Vec::new();
     let mut total: Option<u64> = None;
+    let mut hash: Option<String> = None;
     for file in shards {
         let name = file.display().to_string();
         let text = read_text(file)?;
@@ -209,6 +242,18 @@ pub fn merge(shards: &[PathBuf], output: Option<&PathBuf>, inputs: &[PathBuf]) -
                 return Err(bad(format!(
                     "this record is of a list of {of} lines, an earlier one of {}: shards of different sweeps",
                     total.unwrap_or(0)
+                )));
+            }
+            let this = record["list_hash"].as_str().unwrap_or("").to_string();
+            if this.is_empty() {
+                return Err(bad(
+                    "a sweep record needs `list_hash` (records of an older bellgap cannot be merged: rerun the sweep)".into(),
+                ));
+            }
+            if *hash.get_or_insert_with(|| this.clone()) != this {
+                return Err(bad(format!(
+                    "this record is of the list with hash {this}, an earlier one of {}: shards of different lists",
+                    hash.clone().unwrap_or_default()
                 )));
             }
             if index >= of {
@@ -247,6 +292,7 @@ pub fn merge(shards: &[PathBuf], output: Option<&PathBuf>, inputs: &[PathBuf]) -
     let summary = json!({
         "schema_version": bellgap::render::json::SCHEMA_VERSION,
         "command": "sweep-merge",
+        "list_hash": hash,
         "of": total,
         "records": records.len(),
         "failed": failed,

@@ -179,6 +179,8 @@ pub struct ProtocolFile {
     pub game_path: PathBuf,
     /// The counts, when the file names a counts file (resolved against its folder and read).
     pub counts: Option<Counts>,
+    /// Where the counts file is.
+    pub counts_path: Option<PathBuf>,
 }
 
 impl ProtocolFile {
@@ -188,15 +190,17 @@ impl ProtocolFile {
         let spec: ProtocolSpec = serde_yaml::from_str(&text).map_err(|e| yaml_error(e, path))?;
         let base = Path::new(path).parent().unwrap_or(Path::new("."));
         let game_path = base.join(&spec.game);
-        let counts = match &spec.counts {
+        let counts_path = spec.counts.as_ref().map(|file| base.join(file));
+        let counts = match &counts_path {
             None => None,
-            Some(file) => Some(Counts::from_file(&base.join(file).to_string_lossy())?),
+            Some(file) => Some(Counts::from_file(&file.to_string_lossy())?),
         };
         Ok(ProtocolFile {
             path: path.to_string(),
             spec,
             game_path,
             counts,
+            counts_path,
         })
     }
 }
