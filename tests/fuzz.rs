@@ -535,3 +535,96 @@ proptest! {
         prop_assert!(code == 0 || code == 2, "exit {code} on\n{text}");
     }
 }
+
+/// A sweep list line from hostile pieces: commands, the files around the sweep (the list, its
+/// output, a protected input, a device, a symbolic link) as inputs and as outputs, and garbage.
+fn sweep_line() -> impl Strategy<Value = String> {
+    let command = prop_oneof![
+        Just("check games/chsh.yaml"),
+        Just("classical games/chsh.yaml"),
+        Just("npa games/chsh.yaml --level 1"),
+        Just("evaluate games/chsh.yaml @input"),
+        Just("local @input"),
+        Just("sweep @list"),
+        Just("sweep-merge @list"),
+        Just("family chsh"),
+        Just("\"unclosed"),
+        Just(""),
+    ];
+    let output = prop_oneof![
+        Just(""),
+        Just(" --certificate @list"),
+        Just(" --certificate @input"),
+        Just(" --certificate @out"),
+        Just(" --certificate /dev/null"),
+        Just(" --certificate @link"),
+        Just(" --svg @list"),
+        Just(" --json"),
+        Just(" --level \"1;2\""),
+    ];
+    (command, output).prop_map(|(c, o)| format!("{c}{o}"))
+}
+
+proptest! {
+    #![proptest_config(cases(24))]
+
+    /// Whatever a list says, `sweep` keeps its contract (exit 0 or 2, one JSON object) and
+    /// never writes over the list, its output (except as the sweep's own output), an input of
+    /// any line, a device or a symbolic link's target; shards of it merge or are refused.
+    #[test]
+    fn hostile_sweep_lists_never_damage_files(
+        lines in proptest::collection::vec(sweep_line(), 1..6),
+        shards in 1usize..=3,
+    ) {
+        let dir = std::env::temp_dir().join(format!("bellgap-fuzz-sweep-{}", std::process::id()));
+        let _ = std::fs::remove_dir_all(&dir);
+        std::fs::create_dir_all(&dir).unwrap();
+        let (list, out, input, target, link) = (
+            dir.join("list.txt"),
+            dir.join("out.jsonl"),
+            dir.join("input.yaml"),
+            dir.join("target.txt"),
+            dir.join("link.txt"),
+        );
+        std::fs::write(&input, "name: kept\n").unwrap();
+        std::fs::write(&target, "kept\n").unwrap();
+        #[cfg(unix)]
+        std::os::unix::fs::symlink(&target, &link).unwrap();
+        let text: String = lines
+            .iter()
+            .map(|l| {
+                l.replace("@list", list.to_str().unwrap())
+                    .replace("@input", input.to_str().unwrap())
+                    .replace("@out", out.to_str().unwrap())
+                    .replace("@link", link.to_str().unwrap())
+                    + "\n"
+            })
+            .collect();
+        std::fs::write(&list, &text).unwrap();
+        let mut outputs = Vec::new();
+        for i in 1..=shards {
+            let shard_out = dir.join(format!("shard-{i}.jsonl"));
+            let (code, j) = run_json(&[
+                "sweep",
+                list.to_str().unwrap(),
+                "--shard",
+                &format!("{i}/{shards}"),
+                "-o",
+                shard_out.to_str().unwrap(),
+            ]);
+            prop_assert!(code == 0 || code == 2, "exit {code}: {j}\n{text}");
+            outputs.push(shard_out);
+        }
+        prop_assert_eq!(std::fs::read_to_string(&list).unwrap(), text.clone());
+        prop_assert_eq!(std::fs::read_to_string(&input).unwrap(), "name: kept\n");
+        prop_assert_eq!(std::fs::read_to_string(&target).unwrap(), "kept\n");
+        #[cfg(unix)]
+        prop_assert!(std::fs::symlink_metadata(&link).unwrap().file_type().is_symlink());
+        prop_assert!(!std::fs::metadata("/dev/null").unwrap().file_type().is_file());
+        let mut args = vec!["sweep-merge".to_string()];
+        args.extend(outputs.iter().map(|p| p.to_string_lossy().into_owned()));
+        let refs: Vec<&str> = args.iter().map(String::as_str).collect();
+        let (code, j) = run_json(&refs);
+        prop_assert!(code == 0 || code == 2, "merge exit {code}: {j}");
+    }
+}

@@ -455,3 +455,56 @@ def test_score_lists_have_the_command_lines_limit():
         bellgap.entropy(expr, scores=many, nodes=4)
     with pytest.raises(bellgap.TooLargeError):
         bellgap.randomness(expr, scores=many)
+
+
+def test_hostile_python_inputs_raise_typed_errors():
+    # Seeded fuzzing of the Python entry points: hostile dicts (wrong types, NaN, huge sizes),
+    # counts and strategies. Every failure is a typed BellgapError other than InternalError
+    # (a panic surfaces as InternalError), never a crash.
+    import random
+
+    rng = random.Random(20261204)
+    hostile = [None, "x", -1, 0, 2**70, float("nan"), float("inf"), [], {}, [1, "a"], 1e308, True]
+    pick = lambda: rng.choice(hostile + [1, 2, 3])
+    chsh = os.path.join(ROOT, "games", "chsh.yaml")
+
+    def typed(call):
+        try:
+            call()
+        except bellgap.InternalError as e:  # a panic or a bug
+            raise AssertionError(f"internal error: {e}")
+        except (bellgap.BellgapError, TypeError, ValueError):
+            pass
+
+    for _ in range(60):
+        spec = {
+            "name": "h",
+            "players": [
+                {"name": "a", "questions": pick(), "answers": pick()},
+                {"name": "b", "questions": pick(), "answers": pick()},
+            ],
+            "distribution": rng.choice(["uniform", pick()]),
+            "win": rng.choice(["a == b", pick()]),
+        }
+        typed(lambda: bellgap.check(bellgap.Game.from_dict(spec)))
+        counts = {
+            "players": [
+                {"name": "alice", "questions": 2, "answers": 2},
+                {"name": "bob", "questions": 2, "answers": 2},
+            ],
+            "counts": [
+                {"questions": [x, y], "answers": [pick() for _ in range(rng.choice([3, 4, 5]))]}
+                for x in range(2) for y in range(2)
+            ],
+        }
+        typed(lambda: bellgap.margin(chsh, counts=counts))
+        typed(lambda: bellgap.locality(counts))
+        dims = [rng.choice([1, 2, 3]), rng.choice([1, 2, 3])]
+        size = dims[0] * dims[1]
+        state = [complex(rng.choice([0.5, float("nan"), 1.0])) for _ in range(rng.choice([size, size + 1]))]
+        player = lambda d: [
+            [np.eye(d) * rng.choice([1.0, 0.5, float("inf")]) for _ in range(rng.choice([1, 2, 3]))]
+            for _ in range(rng.choice([1, 2, 3]))
+        ]
+        strategy = bellgap.Strategy(dims, state, [player(dims[0]), player(dims[1])])
+        typed(lambda: bellgap.evaluate(chsh, strategy))
