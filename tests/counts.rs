@@ -315,6 +315,16 @@ fn counts_through_the_command_line() {
         let err = String::from_utf8_lossy(&out.stderr);
         assert!(err.contains(field) && err.contains("bad.yaml"), "{err}");
     }
+    // An error probability outside (0, 1) for the region or the score is refused.
+    for (command, alpha) in [
+        ("entropy", "0"),
+        ("entropy", "1"),
+        ("randomness", "2"),
+        ("randomness", "nan"),
+    ] {
+        let out = bellgap(&[command, "games/chsh.yaml", "--counts", p, "--alpha", alpha]);
+        assert_eq!(out.status.code(), Some(2), "{command} --alpha {alpha}");
+    }
     // Counts whose players differ from the game's are refused too.
     let out = bellgap(&["margin", "games/cglmp-3.yaml", "--counts", p]);
     assert_eq!(out.status.code(), Some(2));

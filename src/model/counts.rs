@@ -74,6 +74,34 @@ impl Counts {
             .collect()
     }
 
+    /// The counts that measured frequencies with their rounds stand for: each frequency times
+    /// its row's rounds, rounded (a row's rounds become its rounded counts' sum, at least 1).
+    /// The caller widens the region by the rounding (see `entropy --behaviour`).
+    pub fn of_measured(c: &Correlations) -> Result<Counts> {
+        let Some(rounds) = &c.rounds else {
+            return Err(Error::InvalidArgument(format!(
+                "the correlations `{}` state no rounds: they are not measured counts",
+                c.name
+            )));
+        };
+        let na: usize = c.parties.iter().map(Party::answers).product();
+        let counts: Vec<u64> =
+            c.p.iter()
+                .enumerate()
+                .map(|(k, &p)| (p * rounds[k / na] as f64).round().max(0.0) as u64)
+                .collect();
+        Ok(Counts {
+            name: c.name.clone(),
+            parties: c.parties.clone(),
+            rounds: (0..rounds.len())
+                .map(|q| counts[q * na..(q + 1) * na].iter().sum::<u64>().max(1))
+                .collect(),
+            counts,
+            design: None,
+            no_click: vec![None; c.parties.len()],
+        })
+    }
+
     /// The observed frequencies as correlations, with the rounds behind each row.
     pub fn as_correlations(&self) -> Correlations {
         Correlations {
@@ -143,7 +171,8 @@ impl Counts {
                     self.rounds[q]
                 )));
             }
-            if lambda <= 0.0 || w == 0.0 && self.design.is_none() {
+            // A question never asked contributes no rounds (without a design, λ = 0 iff w = 0).
+            if lambda <= 0.0 {
                 continue;
             }
             let factor = w / lambda;

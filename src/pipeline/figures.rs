@@ -21,8 +21,8 @@ use crate::model::scenario::{Party, Scenario};
 use crate::model::strategy::QuantumStrategy;
 use crate::protocol::finite::{self, Margin, ObservedRun};
 use crate::protocol::key::{
-    binary_entropy, chsh_bound, error_correction_entropy_within, key_rate, threshold_qber, KeyRate,
-    NoisyChshEntropyBound,
+    chsh_bound, differ_probability, error_correction_entropy_within, fano_bound, key_rate,
+    threshold_qber, KeyRate, NoisyChshEntropyBound,
 };
 use crate::protocol::randomness::{guessing_probability, Randomness, Target};
 use serde::Serialize;
@@ -592,23 +592,7 @@ pub fn entropy<'a>(
             // stand for (each frequency times its rounds, rounded), each interval widened by
             // the rounding and the file's tolerance; no projection.
             check_same_players(s, c)?;
-            let rounds = c.rounds.clone().unwrap_or_default();
-            let na: usize = c.parties.iter().map(Party::answers).product();
-            let counts: Vec<u64> =
-                c.p.iter()
-                    .enumerate()
-                    .map(|(k, &p)| (p * rounds[k / na] as f64).round().max(0.0) as u64)
-                    .collect();
-            let as_counts = Counts {
-                name: c.name.clone(),
-                parties: c.parties.clone(),
-                rounds: (0..rounds.len())
-                    .map(|q| counts[q * na..(q + 1) * na].iter().sum::<u64>().max(1))
-                    .collect(),
-                counts,
-                design: None,
-                no_click: vec![None; c.parties.len()],
-            };
+            let as_counts = Counts::of_measured(c)?;
             let mut region = as_counts.confidence_region(MEASURED_BEHAVIOUR_ERROR)?;
             let fitted = as_counts.frequencies();
             for (k, &p) in c.p.iter().enumerate() {
@@ -677,12 +661,7 @@ pub fn entropy<'a>(
             let answers = s.parties()[target.parts[0].0].answers();
             let d = answers as f64;
             let noisy = options.hierarchy.preprocessing.error_rate(*q, answers);
-            // Fano's inequality, capped at log₂ d (H(A|B) ≤ H(A)); a single answer has none.
-            let fano = if answers <= 1 {
-                0.0
-            } else {
-                (binary_entropy(noisy) + noisy * (d - 1.0).log2()).min(d.log2())
-            };
+            let fano = fano_bound(noisy, answers);
             Some((
                 fano,
                 match options.hierarchy.preprocessing {
@@ -734,27 +713,12 @@ pub fn entropy<'a>(
             // off-diagonal entries (the flip maps it to its own, larger-is-worse, error rate).
             let upper = key_pair_table(s, &region.upper, (pa, xa), (pb, yb));
             let d = upper.len();
-            let raw_most: f64 = upper
-                .iter()
-                .enumerate()
-                .flat_map(|(a, row)| {
-                    row.iter()
-                        .enumerate()
-                        .filter(move |(b, _)| *b != a)
-                        .map(|(_, v)| v.max(0.0))
-                })
-                .sum();
             let q = options
                 .hierarchy
                 .preprocessing
-                .error_rate(raw_most.min(1.0), d)
+                .error_rate(differ_probability(&upper).min(1.0), d)
                 .min(1.0 - 1.0 / d as f64);
-            let by_fano = if d <= 1 {
-                0.0
-            } else {
-                ((binary_entropy(q) + q * (d as f64 - 1.0).log2()) * (1.0 + 1e-12))
-                    .min((d as f64).log2())
-            };
+            let by_fano = (fano_bound(q, d) * (1.0 + 1e-12)).min((d as f64).log2());
             let h = by_continuity.min(by_fano);
             Some((
                 h,

@@ -18,7 +18,7 @@ use crate::protocol::accumulation::{
     rounds_for_fraction, Accumulation, CrossoverTradeoff, Disclosure, SecurityParameters,
     SpotChecking,
 };
-use crate::protocol::key::binary_entropy;
+use crate::protocol::key::fano_bound;
 
 /// Key extraction instead of randomness: what the run disclosed.
 #[derive(Debug, Clone, Copy)]
@@ -100,15 +100,7 @@ impl KeyDisclosure {
             Leakage::ErrorRate {
                 error_rate,
                 efficiency,
-            } => {
-                let d = answers as f64;
-                let fano = if answers <= 1 {
-                    0.0
-                } else {
-                    (binary_entropy(error_rate) + error_rate * (d - 1.0).log2()).min(d.log2())
-                };
-                n as f64 * efficiency * fano
-            }
+            } => n as f64 * efficiency * fano_bound(error_rate, answers),
         }
     }
 
@@ -151,10 +143,12 @@ impl KeyDisclosure {
     /// Refuses values outside their domains.
     pub fn check(&self) -> Result<()> {
         match self.leakage {
-            Leakage::Bits { bits } if !(bits.is_finite() && bits >= 0.0) => {
-                return Err(Error::InvalidArgument(format!(
-                    "the error-correction disclosure must be a finite number of bits ≥ 0, got {bits}"
-                )))
+            Leakage::Bits { bits } => {
+                if !(bits.is_finite() && bits >= 0.0) {
+                    return Err(Error::InvalidArgument(format!(
+                        "the error-correction disclosure must be a finite number of bits ≥ 0, got {bits}"
+                    )));
+                }
             }
             Leakage::ErrorRate {
                 error_rate,
@@ -171,7 +165,6 @@ impl KeyDisclosure {
                     )));
                 }
             }
-            Leakage::Bits { .. } => {}
         }
         if !(self.verification_error > 0.0 && self.verification_error < 1.0) {
             return Err(Error::InvalidArgument(format!(

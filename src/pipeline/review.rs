@@ -22,7 +22,7 @@ use crate::formats::game::{families, Game};
 use crate::formats::protocol_file::ProtocolFile;
 use crate::protocol::accumulation::{SecurityParameters, Statement};
 use crate::protocol::finite::{margin, rounds_needed, Margin, ObservedRun};
-use crate::protocol::key::{chsh_bound, key_rate, threshold_qber, KeyRate};
+use crate::protocol::key::{chsh_bound, differ_probability, key_rate, threshold_qber, KeyRate};
 use crate::protocol::randomness::{guessing_probability, Randomness, Target};
 use crate::protocol::CAUTION;
 
@@ -331,13 +331,7 @@ pub fn review<'a>(
                         return Err(bad("finite_size: key_with needs a second player".into()));
                     }
                     let table = key_pair_table(s, &counts.frequencies(), (pa, xa), (pb, yb));
-                    let differ: f64 = table
-                        .iter()
-                        .enumerate()
-                        .flat_map(|(a, row)| row.iter().enumerate().filter(move |(b, _)| *b != a))
-                        .map(|(_, v)| v)
-                        .sum();
-                    Some(differ.clamp(0.0, 1.0))
+                    Some(differ_probability(&table).clamp(0.0, 1.0))
                 }
             };
             let options = FiniteSizeOptions {

@@ -237,6 +237,31 @@ pub fn error_correction_entropy(p: &[Vec<f64>]) -> Result<f64> {
     Ok((joint - marginal).max(0.0))
 }
 
+/// Fano's bound on H(A|B) for a key of `answers` values whose pair differs with probability
+/// `error_rate`: h(Q) + Q·log₂(d − 1), capped at log₂ d (H(A|B) ≤ H(A)); 0 for a single answer.
+pub fn fano_bound(error_rate: f64, answers: usize) -> f64 {
+    if answers <= 1 {
+        return 0.0;
+    }
+    let d = answers as f64;
+    (binary_entropy(error_rate) + error_rate * (d - 1.0).log2()).min(d.log2())
+}
+
+/// The probability that a key pair's answers differ, from their joint table: the sum of the
+/// off-diagonal entries (negative entries, from a region's lower ends, counted as 0).
+pub fn differ_probability(table: &[Vec<f64>]) -> f64 {
+    table
+        .iter()
+        .enumerate()
+        .flat_map(|(a, row)| {
+            row.iter()
+                .enumerate()
+                .filter(move |(b, _)| *b != a)
+                .map(|(_, v)| v.max(0.0))
+        })
+        .sum()
+}
+
 /// An upper bound on H(A|B) over every distribution within `distance` (half the L1 norm) of
 /// `centre`, which need not sum to 1 exactly (a typed or estimated table): the centre is
 /// clipped at 0 and normalised (its total's distance from 1 is added), then the continuity
@@ -329,6 +354,18 @@ mod tests {
         assert_eq!(ChshEntropyBound.entropy(1.9), 0.0);
         let r = key_rate(&ChshEntropyBound, 2.5, 0.02).unwrap();
         assert!((r.key_rate - (0.456436 - binary_entropy(0.02))).abs() < 1e-6);
+    }
+
+    #[test]
+    fn fano_and_the_error_rate_of_a_table() {
+        // Binary: h(Q); three answers: h(Q) + Q; never above log₂ d; none for one answer.
+        assert!((fano_bound(0.1, 2) - binary_entropy(0.1)).abs() < 1e-15);
+        assert!((fano_bound(0.1, 3) - (binary_entropy(0.1) + 0.1)).abs() < 1e-15);
+        assert_eq!(fano_bound(0.9, 2), 1.0f64.min(binary_entropy(0.9)));
+        assert!(fano_bound(2.0 / 3.0, 3) <= 3f64.log2() + 1e-15);
+        assert_eq!(fano_bound(0.3, 1), 0.0);
+        let table = vec![vec![0.4, 0.1], vec![-0.05, 0.45]];
+        assert!((differ_probability(&table) - 0.1).abs() < 1e-15);
     }
 
     #[test]
