@@ -247,7 +247,7 @@ class Game:
     @classmethod
     def from_dict(cls, spec: dict, name: str = "<dict>") -> "Game":
         """A game from a dict in the game-file schema (the same keys as the YAML file)."""
-        text = json.dumps(spec)
+        text = _document_json(spec)
         return cls(_call_game(_bellgap.load_yaml, text, name), ("yaml", text, name))
 
     @classmethod
@@ -255,7 +255,7 @@ class Game:
         """A standard game: ``chsh``, ``chsh-expression``, ``xor`` (signs="1 1;1 -1"),
         ``odd-cycle`` (n), ``magic-square``, ``ghz`` (players), ``cglmp`` (d), ``i3322``,
         ``chained`` (m), ``mermin``."""
-        inner = _call_game(_bellgap.family, name, json.dumps(params))
+        inner = _call_game(_bellgap.family, name, _arguments(params))
         return cls(inner, ("family", name, params))
 
     @property
@@ -439,9 +439,38 @@ class Strategy:
         return f"Strategy(dims={self.dims})"
 
 
+def _plain(name: str, value: Any) -> Any:
+    """A keyword argument as JSON-ready Python (NumPy scalars and arrays become numbers and
+    lists); a non-finite number or an integer beyond 64 bits is a usage error naming it."""
+    if isinstance(value, np.ndarray):
+        value = value.tolist()
+    elif isinstance(value, np.generic):
+        value = value.item()
+    if isinstance(value, bool) or value is None or isinstance(value, str):
+        return value
+    if isinstance(value, int):
+        if not -(2**63) <= value < 2**64:
+            raise UsageError("usage", f"{name} = {value} is out of range (a 64-bit integer)")
+        return value
+    if isinstance(value, float):
+        if value != value or value in (float("inf"), float("-inf")):
+            raise UsageError("usage", f"{name} must be a finite number, got {value}")
+        return value
+    if isinstance(value, (list, tuple)):
+        return [_plain(name, v) for v in value]
+    if isinstance(value, dict):
+        return {k: _plain(f"{name}.{k}", v) for k, v in value.items()}
+    raise UsageError("usage", f"{name}: expected a number, text or a list, got {type(value).__name__}")
+
+
+def _arguments(kwargs: dict) -> str:
+    """The keyword arguments as the extension's JSON."""
+    return json.dumps({k: _plain(k, v) for k, v in kwargs.items()}, allow_nan=False)
+
+
 def _game_command(command: str, game: GameLike, strategy: Optional[Strategy] = None, **kwargs) -> Result:
     g = load(game)
-    args = [command, g._inner, json.dumps(kwargs)]
+    args = [command, g._inner, _arguments(kwargs)]
     if strategy is not None:
         args.append(strategy._to_json())
     reply = _call(_bellgap.run_game, *args)
@@ -455,7 +484,7 @@ def _game_command(command: str, game: GameLike, strategy: Optional[Strategy] = N
 
 def _figure_command(command: str, game: GameLike, **kwargs) -> Result:
     g = load(game)
-    reply = _call(_bellgap.run_figure, command, g._inner, json.dumps(kwargs))
+    reply = _call(_bellgap.run_figure, command, g._inner, _arguments(kwargs))
     return _result(reply["result"])
 
 
@@ -612,7 +641,7 @@ def entropy(game: GameLike, score=None, scores=None, player=None, question=None,
         kwargs["counts_text"], kwargs["counts_name"] = _text_and_name(counts)
         kwargs["alpha"] = alpha
     g = load(game)
-    args = ["entropy", g._inner, json.dumps(kwargs)]
+    args = ["entropy", g._inner, _arguments(kwargs)]
     if strategy is not None:
         args.append(strategy._to_json())
     return _result(_call(_bellgap.run_figure, *args)["result"])
@@ -642,10 +671,24 @@ def locality(correlations: Union[str, os.PathLike, dict], force: bool = False) -
     return _result(_call(_bellgap.locality, text, name, force)["result"])
 
 
+def _document_json(document: dict) -> str:
+    """A dict in a file schema as JSON (NumPy scalars and arrays as numbers and lists; the
+    loader then checks every value as it checks a file's)."""
+
+    def plain(value):
+        if isinstance(value, np.ndarray):
+            return value.tolist()
+        if isinstance(value, np.generic):
+            return value.item()
+        raise UsageError("usage", f"a {type(value).__name__} cannot appear in a file's dict")
+
+    return json.dumps(document, default=plain)
+
+
 def _text_and_name(document: Union[str, os.PathLike, dict]):
     """A file's path, YAML text, or a dict in the same schema, as (text, name)."""
     if isinstance(document, dict):
-        return json.dumps(document), "<dict>"
+        return _document_json(document), "<dict>"
     if isinstance(document, os.PathLike) or (isinstance(document, str) and os.path.exists(document)):
         name = os.fspath(document)
         return _read_input(name), name

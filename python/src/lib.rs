@@ -25,6 +25,7 @@ use bellgap::bounds::quantum::symmetric::SymmetryChoice;
 use bellgap::formats::game::families::{self, Family};
 use bellgap::formats::game::CompileOptions;
 use bellgap::formats::protocol_file::ProtocolFile;
+use bellgap::limits::{run_stoppable, StopSignal};
 use bellgap::model::counts::Counts;
 use bellgap::model::strategy::{CMatrix, CVector};
 use bellgap::optim::first_order::FirstOrderOptions;
@@ -63,17 +64,21 @@ fn internal(message: String) -> PyErr {
     BellgapError::new_err(("internal", message, None::<String>))
 }
 
-/// Runs `work` on a worker thread; waits with the GIL released, checking for signals.
+/// Runs `work` on worker threads of its own; waits with the GIL released, checking for signals.
+/// On a signal (Ctrl-C) the computation is asked to stop and winds down within an iteration.
 fn interruptible<T: Send + 'static>(
     py: Python<'_>,
     work: impl FnOnce() -> bellgap::Result<T> + Send + 'static,
 ) -> PyResult<T> {
     let (tx, rx) = mpsc::channel();
+    let stop = StopSignal::new();
+    let stop_worker = stop.clone();
     std::thread::Builder::new()
         .name("bellgap".into())
-        .stack_size(64 << 20)
         .spawn(move || {
-            let outcome = std::panic::catch_unwind(AssertUnwindSafe(work));
+            let outcome = run_stoppable(&stop_worker, || {
+                std::panic::catch_unwind(AssertUnwindSafe(work))
+            });
             let _ = tx.send(outcome);
         })
         .map_err(|e| internal(format!("cannot start a worker thread: {e}")))?;
@@ -86,13 +91,19 @@ fn interruptible<T: Send + 'static>(
         });
         rx = back;
         match got {
-            Ok(Ok(result)) => return result.map_err(to_py),
-            Ok(Err(_)) => {
+            Ok(Ok(Ok(result))) => return result.map_err(to_py),
+            Ok(Err(message)) => return Err(internal(message)),
+            Ok(Ok(Err(_))) => {
                 return Err(internal(
                     "internal error (a bug; please report it): the computation panicked".into(),
                 ))
             }
-            Err(mpsc::RecvTimeoutError::Timeout) => py.check_signals()?,
+            Err(mpsc::RecvTimeoutError::Timeout) => {
+                if let Err(interrupt) = py.check_signals() {
+                    stop.raise();
+                    return Err(interrupt);
+                }
+            }
             Err(mpsc::RecvTimeoutError::Disconnected) => {
                 return Err(internal("the worker thread stopped".into()))
             }
@@ -156,7 +167,7 @@ impl PyGame {
             "Game({:?}, {}, from {})",
             self.game.name,
             players.join(", "),
-            self.game.source
+            self.game.source.escape_debug()
         )
     }
 }

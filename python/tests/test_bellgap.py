@@ -371,24 +371,39 @@ def test_entropy_of_a_behaviour_or_a_strategy_with_its_key_pair(tmp_path):
         bellgap.entropy(expr, score=2.5, key_with="bob")
 
 
-def test_ctrl_c_interrupts_a_long_computation():
-    # A see-saw of 10⁵ restarts on CGLMP-4 runs for hours; SIGINT must come back as
-    # KeyboardInterrupt while it runs (the child prints what it caught).
+@pytest.mark.parametrize(
+    "call",
+    [
+        # A see-saw of 10⁵ restarts on CGLMP-4 runs for hours.
+        "bellgap.seesaw(bellgap.Game.family('cglmp', d=4), restarts=100000, force=True)",
+        # A level-9 entropy hierarchy: interior-point iterations of seconds each.
+        "bellgap.finite_size('games/chsh.yaml', rounds=10**9, testing=0.01, threshold=0.84,"
+        " level='9')",
+    ],
+)
+def test_ctrl_c_interrupts_a_long_computation_and_stops_its_work(call):
+    # SIGINT must come back as KeyboardInterrupt while the work runs, and the abandoned work must
+    # stop rather than keep both cores busy: over the two seconds after the interrupt the process
+    # uses well under one core-second (it used 4 before the work was asked to stop).
     import signal
     import sys
     import time
 
     code = (
-        "import bellgap, sys\n"
-        "game = bellgap.Game.family('cglmp', d=4)\n"
+        "import bellgap, os, time\n"
         "print('started', flush=True)\n"
         "try:\n"
-        "    bellgap.seesaw(game, restarts=100000, force=True)\n"
+        f"    {call}\n"
         "    print('finished', flush=True)\n"
         "except KeyboardInterrupt:\n"
-        "    print('interrupted', flush=True)\n"
+        "    time.sleep(0.5)\n"
+        "    a = os.times(); time.sleep(2); b = os.times()\n"
+        "    busy = b.user - a.user + b.system - a.system\n"
+        "    print('interrupted', 'idle' if busy < 0.5 else f'busy {busy}', flush=True)\n"
     )
-    child = subprocess.Popen([sys.executable, "-c", code], stdout=subprocess.PIPE, text=True)
+    child = subprocess.Popen(
+        [sys.executable, "-c", code], stdout=subprocess.PIPE, text=True, cwd=ROOT
+    )
     assert child.stdout.readline().strip() == "started"
     time.sleep(2)
     child.send_signal(signal.SIGINT)
@@ -396,7 +411,53 @@ def test_ctrl_c_interrupts_a_long_computation():
         out, _ = child.communicate(timeout=120)
     finally:
         child.kill()
-    assert out.strip() == "interrupted", out
+    assert out.strip() == "interrupted idle", out
+
+
+def test_keyword_arguments_are_checked_and_numpy_numbers_accepted():
+    chsh = os.path.join(ROOT, "games", "chsh.yaml")
+    with pytest.raises(bellgap.UsageError, match="budget must be a finite number"):
+        bellgap.npa(chsh, budget=float("nan"))
+    with pytest.raises(bellgap.UsageError, match="rounds = .* out of range"):
+        bellgap.finite_size(chsh, rounds=2**70, testing=0.01, threshold=0.84)
+    with pytest.raises(bellgap.UsageError, match="level: expected a number"):
+        bellgap.npa(chsh, level=object())
+    # NumPy scalars and arrays are numbers and lists, as typed: the same figures as plain ones.
+    plain = bellgap.margin(chsh, rounds=1000, wins=800).to_dict()
+    numpy = bellgap.margin(chsh, rounds=np.int64(1000), wins=np.uint32(800)).to_dict()
+    assert_same(without_timing(plain), without_timing(numpy))
+    spec = {
+        "name": "np",
+        "players": [
+            {"name": "a", "question": "x", "answer": "a", "questions": np.int64(2), "answers": 2},
+            {"name": "b", "question": "y", "answer": "b", "questions": 2, "answers": 2},
+        ],
+        "distribution": {
+            "table": [[np.int64(x), np.int64(y), np.float64(0.25)] for x in range(2) for y in range(2)]
+        },
+        "win": "(a + b) % 2 == x * y",
+    }
+    assert abs(bellgap.classical(bellgap.Game.from_dict(spec))["classical"] - 0.75) < 1e-12
+
+
+def test_symmetry_groups_beyond_64_bits_and_control_characters_survive_python():
+    # 21 interchangeable questions: the group's order exceeds 2⁶⁴ (once an error object with
+    # exit 0 on the command line); Python gets it exactly, as the command line's JSON does.
+    spec = {
+        "name": "many\x1b[31m-questions\x07",
+        "players": [
+            {"name": "alice", "question": "x", "answer": "a", "questions": 21, "answers": 2},
+            {"name": "bob", "question": "y", "answer": "b", "questions": 1, "answers": 2},
+        ],
+        "distribution": "uniform",
+        "win": "a == b",
+    }
+    game = bellgap.Game.from_dict(spec)
+    order = bellgap.check(game)["symmetry"]["order"]
+    assert isinstance(order, str) and len(order) > 19 and int(order) > 2**64, order
+    # Control characters in the name stay data in JSON and are escaped in the repr.
+    assert "\x1b" in game.name
+    assert "\x1b" not in repr(game) and "\x07" not in repr(game), repr(game)
 
 
 def test_counts_give_the_command_lines_figures():

@@ -671,7 +671,7 @@ pub fn solve(
     let mut rejected = 0u32;
     let mut envelope = f64::INFINITY;
     while iteration < options.max_iterations {
-        if start.elapsed().as_secs_f64() > options.max_seconds {
+        if start.elapsed().as_secs_f64() > options.max_seconds || crate::limits::stop_requested() {
             status = SolveStatus::TimeLimit;
             break;
         }

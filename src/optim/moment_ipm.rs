@@ -374,9 +374,7 @@ fn build(p: &SdpProblem, el: &Elimination) -> Internal {
     if !p.disjoint && p.g_rows.is_empty() && p.m <= MAX_GRAM_SIDE {
         // The Schur complement at X = S = I is the Gram matrix.
         let identity: Vec<Mat<f64>> = p.sizes.iter().map(|&n| Mat::identity(n, n)).collect();
-        p.gram = schur(&p, &identity, &identity, &[], &[])
-            .llt(Side::Lower)
-            .ok();
+        p.gram = schur(&p, &identity, &identity, &[], &[]).and_then(|m| m.llt(Side::Lower).ok());
     }
     p
 }
@@ -608,10 +606,21 @@ fn direction(
 }
 
 /// Schur complement `M_ij = ⟨F_j, X F_i S⁻¹⟩ + Σ_r G_ri G_rj x_r / s_r`, rows in parallel.
-fn schur(p: &Internal, x: &[Mat<f64>], sinv: &[Mat<f64>], xl: &[f64], sl: &[f64]) -> Mat<f64> {
+/// The Schur complement, or `None` when the computation was asked to stop (one complement can
+/// take seconds on large relaxations, so the request is looked at per row).
+fn schur(
+    p: &Internal,
+    x: &[Mat<f64>],
+    sinv: &[Mat<f64>],
+    xl: &[f64],
+    sl: &[f64],
+) -> Option<Mat<f64>> {
     let rows: Vec<(Vec<f64>, Vec<Vec<f64>>)> = (0..p.m)
         .into_par_iter()
         .map(|i| {
+            if crate::limits::stop_requested() {
+                return (Vec::new(), Vec::new());
+            }
             let mut row = vec![0.0; p.m];
             // For dense blocks: ⟨·, G⟩ per triangle slot, multiplied by the F_j all at once below.
             let mut slot_values: Vec<Vec<f64>> = vec![Vec::new(); p.sizes.len()];
@@ -682,6 +691,9 @@ fn schur(p: &Internal, x: &[Mat<f64>], sinv: &[Mat<f64>], xl: &[f64], sl: &[f64]
             (row, slot_values)
         })
         .collect();
+    if crate::limits::stop_requested() {
+        return None;
+    }
     let mut m = Mat::<f64>::zeros(p.m, p.m);
     for (i, (row, _)) in rows.iter().enumerate() {
         for (j, &v) in row.iter().enumerate().skip(i) {
@@ -706,7 +718,7 @@ fn schur(p: &Internal, x: &[Mat<f64>], sinv: &[Mat<f64>], xl: &[f64], sl: &[f64]
         }
     }
     symmetrise(&mut m);
-    m
+    Some(m)
 }
 
 /// Solves the problem; the solution carries clarabel's dual layout so that
@@ -747,6 +759,9 @@ pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpS
     let mut iterations = 0;
     let (mut best_gap, mut stalled, mut progress_mu) = (f64::INFINITY, 0, f64::INFINITY);
     for it in 0..opts.max_iterations {
+        if crate::limits::stop_requested() {
+            break;
+        }
         iterations = it + 1;
         // Residuals.
         let mut rd: Vec<Mat<f64>> = p.f0.clone();
@@ -839,7 +854,9 @@ pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpS
                 ))
             }
         };
-        let mut m = schur(&p, &x, &sinv, &xl, &sl);
+        let Some(mut m) = schur(&p, &x, &sinv, &xl, &sl) else {
+            break;
+        };
         let llt = match m.llt(Side::Lower) {
             Ok(l) => l,
             Err(_) => {
@@ -921,6 +938,9 @@ pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpS
         for (yi, dyi) in y.iter_mut().zip(&corr.dy) {
             *yi += ad * dyi;
         }
+    }
+    if crate::limits::stop_requested() {
+        return Err(Error::solver(stage, "stopped on request"));
     }
     let (accuracy, x, xl, y) = best;
     let status = if accuracy <= SOLVED {

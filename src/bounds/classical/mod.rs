@@ -622,6 +622,18 @@ pub fn search(s: &Scenario, progress: Option<Progress>) -> ClassicalValue {
         .find(|r| r.1.is_some() && r.0 >= top - tolerance)
         .and_then(|r| r.1.clone());
     let nodes = results.iter().map(|r| r.2).sum();
+    if crate::limits::stop_requested() {
+        // Tasks skipped on the request prove nothing: the climbed strategy is all we have.
+        return ClassicalValue {
+            value: s.value_of_strategy(&climbed),
+            strategy: DeterministicStrategy { answers: climbed },
+            method: Method::Search,
+            status: ClassicalStatus::Incumbent,
+            note: Some("stopped on request before the search finished".into()),
+            nodes,
+            seconds: start.elapsed().as_secs_f64(),
+        };
+    }
     let Some(winner) = winner else {
         // Unreachable after the unseeded rerun; never reported as exact all the same.
         return ClassicalValue {
@@ -673,7 +685,7 @@ fn search_tasks(
             let mut sr = Searcher::new(lay, &shared, tolerance);
             let mut prefix = vec![0; split];
             digits(t, &radices, &mut prefix);
-            let mut alive = true;
+            let mut alive = !crate::limits::stop_requested();
             for (d, &alpha) in prefix.iter().enumerate() {
                 let (k, x) = lay.slots[d];
                 sr.assign[k][x] = alpha;

@@ -420,7 +420,7 @@ fn run(
     };
     let mut value = optimise_state(s, &mut st);
     let mut rounds = 0;
-    while rounds < opts.max_rounds {
+    while rounds < opts.max_rounds && !crate::limits::stop_requested() {
         rounds += 1;
         let before = value;
         for player in 0..s.players() {
@@ -503,20 +503,25 @@ pub fn seesaw(
         });
     }
     let done = AtomicUsize::new(0);
-    let runs: Vec<Result<(QuantumStrategy, usize)>> = (0..opts.restarts)
+    // Restarts after the first are skipped once the computation is asked to stop.
+    let runs: Vec<Option<Result<(QuantumStrategy, usize)>>> = (0..opts.restarts)
         .into_par_iter()
         .map(|r| {
+            if r > 0 && crate::limits::stop_requested() {
+                return None;
+            }
             let mut rng = Rng(opts.seed ^ (r as u64).wrapping_mul(0xA076_1D64_78BD_642F));
             let out = run(s, opts, &mut rng, r);
             let k = done.fetch_add(1, Ordering::Relaxed) + 1;
             if let Some(p) = progress {
                 p(k, opts.restarts);
             }
-            out
+            Some(out)
         })
         .collect();
+    let restarts = runs.iter().filter(|r| r.is_some()).count();
     let mut best: Option<(f64, QuantumStrategy, usize)> = None;
-    for r in runs {
+    for r in runs.into_iter().flatten() {
         let (st, rounds) = r?;
         let v = st.value(s);
         if best.as_ref().is_none_or(|b| v > b.0 + 1e-12) {
@@ -538,7 +543,7 @@ pub fn seesaw(
         value_error: certified.error,
         dims: opts.dims.clone(),
         seed: opts.seed,
-        restarts: opts.restarts,
+        restarts,
         rounds,
         seconds: start.elapsed().as_secs_f64(),
         strategy,
