@@ -168,3 +168,33 @@ fn a_split_whose_invariance_equations_outgrow_the_problem_is_declined() {
     // The game is won with probability 3/4 classically, and no-signalling boxes do no better.
     assert!((reduced.quantum_upper - 0.75).abs() < 1e-7);
 }
+
+#[test]
+fn clarabel_solves_reduced_problems_with_redundant_invariance_equations() {
+    // A 2×4 against 2×3 game with a non-uniform distribution: its reduction carries 354
+    // invariance equations on 111 variables, and clarabel's KKT system was singular
+    // ("NumericalError after 1 iterations"). Its value is 1 (both always answer 0).
+    let game = Game::from_yaml(
+        "name: small-uneven\nplayers:\n  - {name: alice, question: x, answer: a, questions: 2, answers: 4}\n  - {name: bob, question: y, answer: b, questions: 2, answers: 3}\ndistribution:\n  table: [[0, 0, \"1/3\"], [1, 0, \"2/9\"], [1, 1, \"4/9\"]]\nwin: \"a == abs(b)\"\n",
+        "small-uneven.yaml",
+        CompileOptions::default(),
+    )
+    .unwrap();
+    for backend in [bellgap::Backend::Clarabel, bellgap::Backend::MomentIpm] {
+        let b = npa_bound(
+            &game.scenario,
+            &NpaOptions {
+                backend,
+                symmetry: SymmetryChoice::Auto,
+                ..NpaOptions::at(Level::parse("1+joint").unwrap())
+            },
+        )
+        .unwrap();
+        assert!(b.symmetry.is_some(), "{backend:?}: the reduction was used");
+        assert!(
+            b.verified_upper >= 1.0 - 1e-12 && b.verified_upper <= 1.0 + 1e-6,
+            "{backend:?}: {}",
+            b.verified_upper
+        );
+    }
+}

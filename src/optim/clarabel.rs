@@ -8,6 +8,7 @@ use clarabel::algebra::CscMatrix;
 use clarabel::solver::{
     DefaultSettingsBuilder, DefaultSolver, IPSolver, SolverStatus, SupportedConeT,
 };
+use faer::Mat;
 
 use super::sdp::{Backend, SdpProblem, SdpSolution};
 use super::SolveStatus;
@@ -15,9 +16,29 @@ use crate::error::{Error, Result};
 
 /// Solves with clarabel. A run that ends in any state but solved or almost solved is an
 /// error: no number is reported as a bound unless it is one.
+///
+/// Redundant equality rows (the invariance equations of a symmetry reduction are) make
+/// clarabel's KKT system singular; it then stops with a numerical error at its first
+/// iteration. So clarabel sees only a numerically independent subset of the rows, and the
+/// dropped rows get dual zero: they are combinations of the kept ones, so the dual vector in
+/// the full layout has the same `Aᵀz` and the certified bound is checked on the full problem.
 pub fn solve_sdp(problem: &SdpProblem, stage: &str) -> Result<SdpSolution> {
     let start = Instant::now();
-    let asm = problem.assemble();
+    let kept = independent_equalities(problem);
+    let reduced;
+    let solved = if kept.len() < problem.equalities.len() {
+        reduced = SdpProblem {
+            equalities: kept
+                .iter()
+                .map(|&r| problem.equalities[r].clone())
+                .collect(),
+            ..problem.clone()
+        };
+        &reduced
+    } else {
+        problem
+    };
+    let asm = solved.assemble();
     let mut cones = Vec::new();
     if asm.equalities > 0 {
         cones.push(SupportedConeT::ZeroConeT(asm.equalities));
@@ -31,7 +52,17 @@ pub fn solve_sdp(problem: &SdpProblem, stage: &str) -> Result<SdpSolution> {
     let p = CscMatrix::zeros((problem.variables, problem.variables));
     let (solver, status) = run_clarabel(&p, &asm.q, &asm.a, &asm.b, &cones, 1e-9, stage)?;
     let y = solver.solution.x.clone();
-    let z = solver.solution.z.clone();
+    let (z, asm) = if kept.len() < problem.equalities.len() {
+        let full = problem.assemble();
+        let mut z = vec![0.0; full.b.len()];
+        for (i, &r) in kept.iter().enumerate() {
+            z[r] = solver.solution.z[i];
+        }
+        z[problem.equalities.len()..].copy_from_slice(&solver.solution.z[kept.len()..]);
+        (z, full)
+    } else {
+        (solver.solution.z.clone(), asm)
+    };
     let primal = problem.primal_value(&y);
     let dual = asm.dual_value(&z);
     let certified = asm.certified_bound(&z)?;
@@ -48,6 +79,36 @@ pub fn solve_sdp(problem: &SdpProblem, stage: &str) -> Result<SdpSolution> {
         y,
         z,
     })
+}
+
+/// The equality rows to keep: a numerically independent subset spanning the others, from a
+/// QR factorisation of Eᵀ with column pivoting (Golub & Van Loan, Matrix Computations, 4th ed.
+/// 2013, §5.4.1), in their original order.
+fn independent_equalities(problem: &SdpProblem) -> Vec<usize> {
+    let k = problem.equalities.len();
+    let m = problem.variables;
+    // The factorisation is cubic; clarabel is chosen for small problems only, and a problem too
+    // large to factorise here is passed on whole.
+    if k < 2 || (k as f64) * (m as f64) * (k.min(m) as f64) > 2e10 {
+        return (0..k).collect();
+    }
+    let mut et = Mat::<f64>::zeros(m, k);
+    for (r, (terms, _)) in problem.equalities.iter().enumerate() {
+        for &(j, c) in terms {
+            et[(j, r)] += c;
+        }
+    }
+    let qr = et.col_piv_qr();
+    let r = qr.thin_R();
+    let (forward, _) = qr.P().arrays();
+    let size = r.nrows().min(r.ncols());
+    let largest = if size > 0 { r[(0, 0)].abs() } else { 0.0 };
+    let rank = (0..size)
+        .take_while(|&i| r[(i, i)].abs() > 1e-12 * largest * (m.max(k) as f64))
+        .count();
+    let mut kept: Vec<usize> = forward[..rank].to_vec();
+    kept.sort_unstable();
+    kept
 }
 
 /// Runs clarabel with quiet settings and the given tolerances; a run that ends in any state but
