@@ -74,7 +74,9 @@ fn main() -> ExitCode {
             for w in &out.warnings {
                 eprintln!("warning: {}", for_terminal(w));
             }
-            let text = if json {
+            let text = if cli.wants_json_lines() {
+                format!("{}\n", serde_json::to_string(&out.json).unwrap_or_default())
+            } else if json {
                 format!(
                     "{}\n",
                     serde_json::to_string_pretty(&out.json).unwrap_or_default()

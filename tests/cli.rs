@@ -1347,3 +1347,114 @@ fn a_sweep_protects_its_list_and_inputs_and_never_mixes_lists() {
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("different lists"));
 }
+
+#[test]
+fn bounds_takes_the_seesaw_options_and_skips_bounds() {
+    // The see-saw of `bounds` is the `seesaw` command's, options and defaults alike.
+    let alone = json_of(&bellgap(&[
+        "seesaw",
+        "games/chsh.yaml",
+        "--dims",
+        "2,2",
+        "--restarts",
+        "3",
+        "--seed",
+        "7",
+        "--json",
+    ]));
+    let out = bellgap(&[
+        "bounds",
+        "games/chsh.yaml",
+        "--dims",
+        "2,2",
+        "--restarts",
+        "3",
+        "--seed",
+        "7",
+        "--skip",
+        "classical,npa",
+        "--json",
+        "--quiet",
+    ]);
+    assert!(out.status.success());
+    let j = json_of(&out);
+    assert_eq!(j["quantum_lower"], alone["quantum_lower"]);
+    assert_eq!(j["restarts"], 3);
+    assert_eq!(j["seed"], 7);
+    assert!(
+        j.get("classical").is_none() && j.get("verified_upper").is_none(),
+        "{j}"
+    );
+    assert!((j["no_signalling"].as_f64().unwrap() - 1.0).abs() < 1e-9);
+    // Defaults: 10 restarts in both.
+    let defaults = json_of(&bellgap(&[
+        "bounds",
+        "games/chsh.yaml",
+        "--json",
+        "--quiet",
+    ]));
+    assert_eq!(defaults["restarts"], 10);
+}
+
+#[test]
+fn bounds_streams_each_bound_as_a_json_line() {
+    let out = bellgap(&[
+        "bounds",
+        "games/chsh.yaml",
+        "--json-lines",
+        "--restarts",
+        "2",
+    ]);
+    assert!(out.status.success());
+    let text = String::from_utf8(out.stdout).unwrap();
+    let lines: Vec<Value> = text
+        .lines()
+        .map(|l| serde_json::from_str(l).unwrap())
+        .collect();
+    // One line per bound as obtained, then the report.
+    let obtained: Vec<&str> = lines
+        .iter()
+        .filter_map(|l| l.get("obtained").and_then(Value::as_str))
+        .collect();
+    assert_eq!(obtained, ["classical", "no-signalling", "npa", "seesaw"]);
+    assert_eq!(lines.len(), 5);
+    assert!(lines[0].get("verified_upper").is_none());
+    assert!((lines[0]["classical"].as_f64().unwrap() - 0.75).abs() < 1e-12);
+    let last = &lines[4];
+    assert!(last.get("obtained").is_none());
+    assert_eq!(last["command"], "bounds");
+    assert_eq!(last["verified_upper"], lines[2]["verified_upper"]);
+    assert_eq!(last["quantum_lower"], lines[3]["quantum_lower"]);
+}
+
+#[test]
+fn a_bounds_budget_cuts_the_seesaw_and_reports_what_ran() {
+    // A see-saw of 100,000 restarts would run for minutes; with a budget of 3 s it stops,
+    // reports the restarts that ran, and its value is still a lower bound below the verified
+    // NPA bound. (No time is asserted: only what ran and what is reported.)
+    let out = bellgap(&[
+        "bounds",
+        "games/chsh.yaml",
+        "--restarts",
+        "100000",
+        "--budget",
+        "3",
+        "--json",
+        "--quiet",
+        "--force",
+    ]);
+    assert!(out.status.success());
+    let j = json_of(&out);
+    let ran = j["restarts"].as_u64().unwrap();
+    assert!((1..100000).contains(&ran), "{ran}");
+    let notes = j["notes"].to_string();
+    assert!(
+        notes.contains("of 100000 restarts within the budget"),
+        "{notes}"
+    );
+    assert!(j["quantum_lower"].as_f64().unwrap() <= j["verified_upper"].as_f64().unwrap());
+    for bad in ["0", "-1", "nan"] {
+        let out = bellgap(&["bounds", "games/chsh.yaml", "--budget", bad]);
+        assert_eq!(out.status.code(), Some(2), "{bad}");
+    }
+}

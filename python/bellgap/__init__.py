@@ -510,10 +510,17 @@ def bounds(
     symmetry: str = "auto",
     budget: Optional[float] = None,
     force: bool = False,
+    dims: Optional[Sequence[int]] = None,
+    restarts: int = 10,
+    seed: int = 1,
+    skip: Sequence[str] = (),
 ) -> Result:
-    """Every bound and the gaps (``bellgap bounds``)."""
+    """Every bound and the gaps (``bellgap bounds``). ``budget`` is the whole call's wall-clock
+    seconds; ``dims``, ``restarts`` and ``seed`` are the see-saw's (as :func:`seesaw`); ``skip``
+    lists bounds not to compute (``classical``, ``no-signalling``, ``npa``, ``seesaw``)."""
     return _game_command(
-        "bounds", game, level=level, solver=solver, symmetry=symmetry, budget=budget, force=force
+        "bounds", game, level=level, solver=solver, symmetry=symmetry, budget=budget, force=force,
+        dims=dims, restarts=restarts, seed=seed, skip=list(skip),
     )
 
 

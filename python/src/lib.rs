@@ -30,9 +30,9 @@ use bellgap::model::counts::Counts;
 use bellgap::model::strategy::{CMatrix, CVector};
 use bellgap::optim::first_order::FirstOrderOptions;
 use bellgap::pipeline::{
-    self, BoundsOptions, EntropyCommandOptions, EntropyGiven, ErrorCorrection, EvaluateOptions,
-    FiniteSizeOptions, KeyDisclosure, KeyParts, MarginOptions, NpaLevelsOptions, RandomnessOptions,
-    RunData, Silent, Tangent, TargetChoice,
+    self, BoundKind, BoundsOptions, EntropyCommandOptions, EntropyGiven, ErrorCorrection,
+    EvaluateOptions, FiniteSizeOptions, KeyDisclosure, KeyParts, MarginOptions, NpaLevelsOptions,
+    RandomnessOptions, RunData, Silent, Tangent, TargetChoice,
 };
 use bellgap::protocol::accumulation::{SecurityParameters, Statement};
 use bellgap::protocol::finite::ObservedRun;
@@ -323,6 +323,8 @@ struct SolveArgs {
     certificate: bool,
     #[serde(default)]
     no_classical: bool,
+    #[serde(default)]
+    skip: Vec<String>,
 }
 
 /// The command line's default (`seesaw --restarts`).
@@ -479,13 +481,35 @@ fn run_game(
             }
             "nosignal" => Ok(reply(to_value(&pipeline::nosignal(g, &limits)?), None)),
             "bounds" => {
+                let skip = a
+                    .skip
+                    .iter()
+                    .map(|name| {
+                        BoundKind::ALL
+                            .into_iter()
+                            .find(|k| k.name() == name)
+                            .ok_or_else(|| {
+                                Error::Usage(format!(
+                                    "skip: unknown bound `{name}` (classical, no-signalling, npa or seesaw)"
+                                ))
+                            })
+                    })
+                    .collect::<bellgap::Result<Vec<_>>>()?;
                 let o = BoundsOptions {
                     npa_level: level.as_deref().map(Level::parse).transpose()?,
                     backend,
                     symmetry,
                     first_order,
                     limits,
-                    ..Default::default()
+                    seesaw: SeesawOptions {
+                        dims: a.dims.clone().unwrap_or_default(),
+                        restarts: a.restarts,
+                        seed: a.seed,
+                        limits,
+                        ..Default::default()
+                    },
+                    skip,
+                    budget: a.budget,
                 };
                 Ok(reply(to_value(&pipeline::bounds(g, &o, &Silent)?), None))
             }

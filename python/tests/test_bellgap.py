@@ -569,3 +569,16 @@ def test_hostile_python_inputs_raise_typed_errors():
         ]
         strategy = bellgap.Strategy(dims, state, [player(dims[0]), player(dims[1])])
         typed(lambda: bellgap.evaluate(chsh, strategy))
+
+
+def test_bounds_takes_the_seesaw_options_skip_and_budget_like_the_command_line():
+    chsh = os.path.join(ROOT, "games", "chsh.yaml")
+    py = bellgap.bounds(chsh, dims=[2, 2], restarts=3, seed=7, skip=["classical", "npa"]).to_dict()
+    cli = cli_json("bounds", chsh, "--dims", "2,2", "--restarts", "3", "--seed", "7",
+                   "--skip", "classical,npa", "--quiet")
+    assert_same(without_timing(py), without_timing(cli))
+    assert "classical" not in py and py["restarts"] == 3
+    with pytest.raises(bellgap.UsageError, match="unknown bound"):
+        bellgap.bounds(chsh, skip=["quantum"])
+    with pytest.raises(bellgap.UsageError):
+        bellgap.bounds(chsh, budget=-1.0)

@@ -38,6 +38,10 @@ const BUDGET_HELP: &str = "Time limit, in seconds, for the first-order solver (`
 
 When the limit is reached the run stops and reports the verified bound of the point it has: still a rigorous upper bound on the quantum value, with every residual charged, but looser than a converged run's. The output marks it as stopped at the time limit and never as solved.";
 
+const BOUNDS_BUDGET_HELP: &str = "Wall-clock seconds for the whole command.
+
+Each bound is started only if its estimate fits in what is left: a classical search estimated to take longer is not started, an NPA relaxation the interior-point method would take longer on is solved by the first-order method, stopped at the time left with the verified bound it has reached (marked as stopped at the time limit, never as solved), and the see-saw starts no restart once the time is up (the report says how many ran). A bound not obtained is listed as such. The no-signalling LP always runs.";
+
 const FORCE_HELP: &str = "Run even when the estimate says the work would take very long or need much memory.
 
 Every command estimates its time and memory before starting (the classical search from random probes, the NPA moment matrix from its size, the see-saw from a rule of thumb) and refuses with the estimate when it is above its default limit (about an hour or 16 GiB for the searches and SDPs, a number of nonzeros for the LPs). --force starts the work anyway.
@@ -89,10 +93,19 @@ pub enum Command {
         /// Reduce the NPA relaxation by the game's symmetries (`auto`) or solve it in full (`off`).
         #[arg(long, value_enum, default_value_t = SymmetryArg::Auto, long_help = SYMMETRY_HELP)]
         symmetry: SymmetryArg,
-        /// Stop the first-order solver after this many seconds and report the verified bound it
-        /// has reached (marked as stopped at the time limit).
-        #[arg(long, value_name = "SECONDS", long_help = BUDGET_HELP)]
+        /// Wall-clock seconds for the whole command: bounds estimated to need more than what is
+        /// left are not started, and the NPA bound and see-saw stop at the time left.
+        #[arg(long, value_name = "SECONDS", value_parser = parse_finite, long_help = BOUNDS_BUDGET_HELP)]
         budget: Option<f64>,
+        /// Bounds not to compute, comma separated.
+        #[arg(long, value_enum, value_delimiter = ',')]
+        skip: Vec<BoundArg>,
+        /// Print each bound as soon as it is obtained, as one JSON object per line (the report so
+        /// far, with `obtained` naming the bound), then the whole report as the last line.
+        #[arg(long)]
+        json_lines: bool,
+        #[command(flatten)]
+        seesaw: SeesawArgs,
     },
     /// Quantum upper bound from the NPA hierarchy, with a verified bound from the dual solution.
     Npa {
@@ -125,18 +138,8 @@ pub enum Command {
     Seesaw {
         #[command(flatten)]
         args: GameArgs,
-        /// Local dimension of every player.
-        #[arg(long, conflicts_with = "dims")]
-        dim: Option<usize>,
-        /// Local dimension per player, comma separated (e.g. 2,3).
-        #[arg(long, value_delimiter = ',')]
-        dims: Option<Vec<usize>>,
-        /// Random restarts (run in parallel; the best is kept).
-        #[arg(long, default_value_t = 10)]
-        restarts: usize,
-        /// Seed of the random starts (reported, so runs are reproducible).
-        #[arg(long, default_value_t = 1)]
-        seed: u64,
+        #[command(flatten)]
+        seesaw: SeesawArgs,
         /// Write the best strategy (state and measurements) to this file.
         #[arg(long, value_name = "FILE")]
         save: Option<PathBuf>,
@@ -439,6 +442,36 @@ pub enum Command {
     },
 }
 
+/// The see-saw's search (`seesaw`, and the see-saw of `bounds`).
+#[derive(Args, Debug, Clone)]
+pub struct SeesawArgs {
+    /// Local dimension of every player in the see-saw.
+    #[arg(long, conflicts_with = "dims")]
+    pub dim: Option<usize>,
+    /// Local dimension per player in the see-saw, comma separated (e.g. 2,3).
+    #[arg(long, value_delimiter = ',')]
+    pub dims: Option<Vec<usize>>,
+    /// Random restarts of the see-saw (run in parallel; the best is kept).
+    #[arg(long, default_value_t = bellgap::bounds::quantum::seesaw::DEFAULT_RESTARTS)]
+    pub restarts: usize,
+    /// Seed of the see-saw's random starts (reported, so runs are reproducible).
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+}
+
+/// A bound of `bounds` (`--skip`).
+#[derive(ValueEnum, Debug, Clone, Copy, PartialEq, Eq)]
+pub enum BoundArg {
+    /// The exact classical value.
+    Classical,
+    /// The no-signalling value.
+    NoSignalling,
+    /// The NPA upper bound.
+    Npa,
+    /// The see-saw lower bound.
+    Seesaw,
+}
+
 #[derive(Args, Debug, Clone)]
 pub struct GameArgs {
     /// Game file (YAML).
@@ -662,10 +695,21 @@ impl Cli {
         }
     }
 
-    /// Whether `--json` was given.
+    /// Whether `--json-lines` was given (`bounds`).
+    pub fn wants_json_lines(&self) -> bool {
+        matches!(
+            &self.command,
+            Command::Bounds {
+                json_lines: true,
+                ..
+            }
+        )
+    }
+
+    /// Whether `--json` (or `--json-lines`) was given.
     pub fn wants_json(&self) -> bool {
         match (&self.command, self.game_args()) {
-            (_, Some(a)) => a.json,
+            (_, Some(a)) => a.json || self.wants_json_lines(),
             (Command::Key { json, .. } | Command::Review { json, .. }, None) => *json,
             (Command::Local { json, .. } | Command::Family { json, .. }, None) => *json,
             (Command::Sweep { json, .. } | Command::SweepMerge { json, .. }, None) => *json,

@@ -24,7 +24,7 @@ use bellgap::model::correlations::Correlations;
 use bellgap::model::counts::Counts;
 use bellgap::model::strategy::QuantumStrategy;
 use bellgap::optim::first_order::IterationReport;
-use bellgap::pipeline::{self, EntropyGiven, Observer, RunData, Stage};
+use bellgap::pipeline::{self, BoundKind, EntropyGiven, GameReport, Observer, RunData, Stage};
 use bellgap::render::{charts, document, json, text};
 use bellgap::{Error, Result};
 
@@ -48,6 +48,8 @@ struct Stderr {
     last: Mutex<Instant>,
     /// Whether a solver progress line is on the terminal, to be cleared when it finishes.
     solver_line: std::sync::atomic::AtomicBool,
+    /// `bounds --json-lines`: each bound on stdout as soon as it is obtained.
+    json_lines: bool,
 }
 
 impl Stderr {
@@ -57,6 +59,13 @@ impl Stderr {
             progress: !invocation.quiet && !invocation.json && std::io::stderr().is_terminal(),
             last: Mutex::new(Instant::now()),
             solver_line: std::sync::atomic::AtomicBool::new(false),
+            json_lines: matches!(
+                invocation.request,
+                Request::Bounds {
+                    json_lines: true,
+                    ..
+                }
+            ),
         }
     }
 }
@@ -108,6 +117,24 @@ impl Observer for Stderr {
             eprint!("\r{:100}\r", "");
         }
     }
+
+    fn obtained(&self, bound: BoundKind, so_far: &GameReport<'_>) {
+        // The report so far as the final one will read (its bounds reconciled).
+        let mut report = so_far.clone();
+        report.reconcile_bounds();
+        if self.json_lines {
+            let mut line = json::to_value(&report);
+            if let Some(object) = line.as_object_mut() {
+                object.insert("obtained".into(), Value::String(bound.name().into()));
+            }
+            use std::io::Write;
+            let mut stdout = std::io::stdout().lock();
+            let _ = writeln!(stdout, "{line}");
+            let _ = stdout.flush();
+        } else if self.progress {
+            eprintln!("{}", text::bound_obtained(&report, bound));
+        }
+    }
 }
 
 fn load(input: &GameInput) -> Result<Game> {
@@ -148,9 +175,21 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             let r = pipeline::nosignal(&game, limits)?;
             Ok(output(text::game_report(&r), &r, &game.warnings))
         }
-        Request::Bounds { game, options } => {
+        Request::Bounds {
+            game,
+            options,
+            dims,
+            ..
+        } => {
             let game = load(game)?;
-            let r = pipeline::bounds(&game, options, &observer)?;
+            let options = pipeline::BoundsOptions {
+                seesaw: bellgap::bounds::quantum::seesaw::SeesawOptions {
+                    dims: dims.resolve(game.scenario.players()),
+                    ..options.seesaw.clone()
+                },
+                ..options.clone()
+            };
+            let r = pipeline::bounds(&game, &options, &observer)?;
             Ok(output(text::game_report(&r), &r, &game.warnings))
         }
         Request::Npa {

@@ -15,17 +15,17 @@ use bellgap::limits::Limits;
 use bellgap::optim::backend::Backend;
 use bellgap::optim::first_order::FirstOrderOptions;
 use bellgap::pipeline::{
-    BoundsOptions, EntropyCommandOptions, EntropyGiven, ErrorCorrection, EvaluateOptions,
-    FiniteSizeOptions, KeyDisclosure, KeyOptions, KeyParts, MarginOptions, NpaLevelsOptions,
-    RandomnessOptions, Tangent, TargetChoice,
+    BoundKind, BoundsOptions, EntropyCommandOptions, EntropyGiven, ErrorCorrection,
+    EvaluateOptions, FiniteSizeOptions, KeyDisclosure, KeyOptions, KeyParts, MarginOptions,
+    NpaLevelsOptions, RandomnessOptions, Tangent, TargetChoice,
 };
 use bellgap::protocol::accumulation::{SecurityParameters, Statement};
 use bellgap::protocol::finite::ObservedRun;
 use bellgap::{Error, Result};
 
 use super::args::{
-    AdversaryWordsArg, AnswerArgs, Cli, Command, EntropySolverArg, FamilyCommand, GameArgs,
-    HierarchyArgs, MethodArg, MomentsArg, SolverArg, SymmetryArg,
+    AdversaryWordsArg, AnswerArgs, BoundArg, Cli, Command, EntropySolverArg, FamilyCommand,
+    GameArgs, HierarchyArgs, MethodArg, MomentsArg, SeesawArgs, SolverArg, SymmetryArg,
 };
 
 /// A game file and how to compile it.
@@ -117,6 +117,10 @@ pub enum Request {
     Bounds {
         game: GameInput,
         options: BoundsOptions,
+        /// The see-saw's dimensions (resolved once the game is read).
+        dims: DimsChoice,
+        /// Each bound printed as a JSON line as soon as it is obtained.
+        json_lines: bool,
     },
     /// `npa`.
     Npa {
@@ -262,6 +266,26 @@ fn second_answer(a: &AnswerArgs) -> Option<TargetChoice> {
     })
 }
 
+/// The see-saw's options from `--restarts` and `--seed` (dimensions are resolved with the game).
+fn seesaw_options(a: &SeesawArgs, force: bool) -> SeesawOptions {
+    SeesawOptions {
+        restarts: a.restarts,
+        seed: a.seed,
+        limits: limits(force),
+        ..Default::default()
+    }
+}
+
+/// `--skip`.
+pub fn bound_kind(b: BoundArg) -> BoundKind {
+    match b {
+        BoundArg::Classical => BoundKind::Classical,
+        BoundArg::NoSignalling => BoundKind::NoSignalling,
+        BoundArg::Npa => BoundKind::Npa,
+        BoundArg::Seesaw => BoundKind::Seesaw,
+    }
+}
+
 /// `--solver`.
 pub fn backend(solver: SolverArg) -> Backend {
     match solver {
@@ -401,16 +425,23 @@ impl Invocation {
                 solver,
                 symmetry: sym,
                 budget,
+                skip,
+                json_lines,
+                seesaw,
             } => Request::Bounds {
                 game: game_input(args),
                 options: BoundsOptions {
-                    npa_level: level.as_deref().map(Level::parse).transpose()?,
+                    npa_level: level.as_deref().map(one_level).transpose()?,
                     backend: backend(*solver),
                     symmetry: symmetry(*sym),
                     first_order: first_order(*budget)?,
                     limits: limits(args.force),
-                    ..Default::default()
+                    seesaw: seesaw_options(seesaw, args.force),
+                    skip: skip.iter().map(|&b| bound_kind(b)).collect(),
+                    budget: *budget,
                 },
+                dims: dims(seesaw.dim, seesaw.dims.as_ref()),
+                json_lines: *json_lines,
             },
             Command::Npa {
                 args,
@@ -434,21 +465,13 @@ impl Invocation {
             },
             Command::Seesaw {
                 args,
-                dim,
-                dims: ds,
-                restarts,
-                seed,
+                seesaw,
                 save,
                 svg,
             } => Request::Seesaw {
                 game: game_input(args),
-                dims: dims(*dim, ds.as_ref()),
-                options: SeesawOptions {
-                    restarts: *restarts,
-                    seed: *seed,
-                    limits: limits(args.force),
-                    ..Default::default()
-                },
+                dims: dims(seesaw.dim, seesaw.dims.as_ref()),
+                options: seesaw_options(seesaw, args.force),
                 save: save.clone(),
                 svg: svg.clone(),
             },

@@ -75,6 +75,43 @@ pub trait Observer: Sync {
     fn solver_progress(&self, _stage: &str, _report: &IterationReport) {}
     /// The iterative solver on `stage` has finished (a progress line may be cleared).
     fn solver_done(&self, _stage: &str) {}
+    /// `bounds` has obtained (or given up on) `bound`; `so_far` is the report up to here, for
+    /// printing each bound as soon as it is known.
+    fn obtained(&self, _bound: BoundKind, _so_far: &GameReport<'_>) {}
+}
+
+/// One of the bounds the `bounds` command computes, in the order it computes them.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum BoundKind {
+    /// The exact classical value.
+    Classical,
+    /// The no-signalling value.
+    NoSignalling,
+    /// The NPA upper bound.
+    Npa,
+    /// The see-saw lower bound.
+    Seesaw,
+}
+
+impl BoundKind {
+    /// Every bound, in the order `bounds` computes them.
+    pub const ALL: [BoundKind; 4] = [
+        BoundKind::Classical,
+        BoundKind::NoSignalling,
+        BoundKind::Npa,
+        BoundKind::Seesaw,
+    ];
+
+    /// The name used on the command line and in JSON.
+    pub fn name(self) -> &'static str {
+        match self {
+            BoundKind::Classical => "classical",
+            BoundKind::NoSignalling => "no-signalling",
+            BoundKind::Npa => "npa",
+            BoundKind::Seesaw => "seesaw",
+        }
+    }
 }
 
 /// An observer that ignores everything.
@@ -339,6 +376,13 @@ pub struct BoundsOptions {
     pub seesaw: SeesawOptions,
     /// Work limits of every bound.
     pub limits: Limits,
+    /// Bounds not to compute.
+    pub skip: Vec<BoundKind>,
+    /// Wall-clock seconds for the whole command (default: none). A bound estimated to need more
+    /// than what is left is not started (and listed as not obtained); the NPA bound then runs
+    /// the first-order method, stopped at the time left with the verified bound it has reached,
+    /// and the see-saw starts no restart once the time is up.
+    pub budget: Option<f64>,
 }
 
 /// The `check` command: sizes and estimates, no solving.
@@ -504,8 +548,87 @@ pub fn bounds<'a>(
     observer: &dyn Observer,
 ) -> Result<GameReport<'a>> {
     let s = &game.scenario;
-    warn_long_search(s, &options.limits, observer);
+    let start = std::time::Instant::now();
+    if let Some(b) = options.budget {
+        if !(b.is_finite() && b > 0.0) {
+            return Err(Error::InvalidArgument(format!(
+                "the budget must be a positive number of seconds (found {b})"
+            )));
+        }
+    }
+    // Seconds left of the budget (infinite without one).
+    let left = || match options.budget {
+        Some(b) => b - start.elapsed().as_secs_f64(),
+        None => f64::INFINITY,
+    };
+    let wanted = |k: BoundKind| !options.skip.contains(&k);
     let mut r = GameReport::new(CommandKind::Bounds, game);
+    if wanted(BoundKind::Classical) {
+        classical_within(s, options, left(), observer, &mut r)?;
+        observer.obtained(BoundKind::Classical, &r);
+    }
+    if wanted(BoundKind::NoSignalling) {
+        r.no_signalling = Some(no_signalling_value(s, &options.limits)?);
+        observer.obtained(BoundKind::NoSignalling, &r);
+    }
+    if wanted(BoundKind::Npa) {
+        npa_within(s, options, left(), observer, &mut r);
+        observer.obtained(BoundKind::Npa, &r);
+    }
+    if wanted(BoundKind::Seesaw) {
+        let seconds = left();
+        if seconds <= 0.0 {
+            r.not_obtained
+                .push("see-saw lower bound: the budget was used up before it started".into());
+        } else {
+            let seesaw_options = SeesawOptions {
+                limits: options.limits,
+                max_seconds: options.seesaw.max_seconds.min(seconds),
+                ..options.seesaw.clone()
+            };
+            warn_slow_seesaw(s, &seesaw_options, observer);
+            match seesaw_observed(s, &seesaw_options, observer) {
+                Ok(found) => {
+                    if found.restarts < seesaw_options.restarts {
+                        r.notes.push(format!(
+                            "the see-saw ran {} of {} restarts within the budget",
+                            found.restarts, seesaw_options.restarts
+                        ));
+                    }
+                    let classical = r.classical.as_ref().map(|c| c.value);
+                    r.strategy_analysis = Some(analyse(s, &found.strategy, classical));
+                    r.seesaw = Some(found);
+                }
+                Err(e) => r.not_obtained.push(format!("see-saw lower bound: {e}")),
+            }
+        }
+        observer.obtained(BoundKind::Seesaw, &r);
+    }
+    r.reconcile_bounds();
+    Ok(r)
+}
+
+/// The classical value for [`bounds`], unless its search is estimated to need more than
+/// `seconds`.
+fn classical_within(
+    s: &Scenario,
+    options: &BoundsOptions,
+    seconds: f64,
+    observer: &dyn Observer,
+    r: &mut GameReport<'_>,
+) -> Result<()> {
+    if seconds.is_finite() && ClassicalEstimate::of(s).search_work > classical::CHEAP_SEARCH_WORK {
+        let estimate = classical::estimate_search(s);
+        if estimate.seconds > seconds {
+            r.not_obtained.push(format!(
+                "classical value: the search is estimated to take {}, more than the {} left of the budget",
+                human_seconds(estimate.seconds),
+                human_seconds(seconds)
+            ));
+            return Ok(());
+        }
+    }
+    warn_long_search(s, &options.limits, observer);
     let classical_options = ClassicalOptions {
         limits: options.limits,
         ..Default::default()
@@ -517,49 +640,61 @@ pub fn bounds<'a>(
         }
         Err(e) => return Err(e),
     }
-    r.no_signalling = Some(no_signalling_value(s, &options.limits)?);
-    let level = match &options.npa_level {
+    Ok(())
+}
+
+/// The NPA bound for [`bounds`] within `seconds`: a relaxation the automatic choice would solve
+/// by the interior-point method in more than that runs the first-order method instead, stopped
+/// at the time left.
+fn npa_within(
+    s: &Scenario,
+    options: &BoundsOptions,
+    seconds: f64,
+    observer: &dyn Observer,
+    r: &mut GameReport<'_>,
+) {
+    let Some(level) = (match &options.npa_level {
         Some(l) => Some(l.clone()),
         None => npa::default_level(s).ok(),
+    }) else {
+        r.not_obtained
+            .push("NPA upper bound: no standard level fits this game".into());
+        return;
     };
-    match level {
-        Some(level) => {
-            let npa_options = NpaOptions {
-                level,
-                backend: options.backend,
-                symmetry: options.symmetry,
-                first_order: options.first_order,
-                limits: options.limits,
-            };
-            let start = std::time::Instant::now();
-            let solved = npa::sized_relaxation(s, &npa_options).and_then(|(relaxation, est)| {
-                let build_seconds = start.elapsed().as_secs_f64();
-                npa_observed(&relaxation, &est, &npa_options, build_seconds, observer)
-            });
-            match solved {
-                Ok(b) => r.npa = Some(b),
-                Err(e) => r.not_obtained.push(format!("NPA upper bound: {e}")),
-            }
-        }
-        None => r
-            .not_obtained
-            .push("NPA upper bound: no standard level fits this game".into()),
+    if seconds <= 0.0 {
+        r.not_obtained
+            .push("NPA upper bound: the budget was used up before it started".into());
+        return;
     }
-    let seesaw_options = SeesawOptions {
+    let mut npa_options = NpaOptions {
+        level,
+        backend: options.backend,
+        symmetry: options.symmetry,
+        first_order: options.first_order,
         limits: options.limits,
-        ..options.seesaw.clone()
     };
-    warn_slow_seesaw(s, &seesaw_options, observer);
-    match seesaw_observed(s, &seesaw_options, observer) {
-        Ok(found) => {
-            let classical = r.classical.as_ref().map(|c| c.value);
-            r.strategy_analysis = Some(analyse(s, &found.strategy, classical));
-            r.seesaw = Some(found);
-        }
-        Err(e) => r.not_obtained.push(format!("see-saw lower bound: {e}")),
+    npa_options.first_order.max_seconds = npa_options.first_order.max_seconds.min(seconds);
+    let start = std::time::Instant::now();
+    let solved = npa::sized_relaxation(s, &npa_options).and_then(|(relaxation, est)| {
+        let (options, est) = if options.backend == Backend::Auto
+            && est.solver != Backend::FirstOrder
+            && est.seconds > seconds
+        {
+            let o = NpaOptions {
+                backend: Backend::FirstOrder,
+                ..npa_options.clone()
+            };
+            (o, npa::estimate_for(&relaxation, Backend::FirstOrder))
+        } else {
+            (npa_options.clone(), est)
+        };
+        let build_seconds = start.elapsed().as_secs_f64();
+        npa_observed(&relaxation, &est, &options, build_seconds, observer)
+    });
+    match solved {
+        Ok(b) => r.npa = Some(b),
+        Err(e) => r.not_obtained.push(format!("NPA upper bound: {e}")),
     }
-    r.reconcile_bounds();
-    Ok(r)
 }
 
 /// Options of [`npa_levels`].

@@ -8,8 +8,9 @@ use crate::model::scenario::Scenario;
 use crate::model::symmetry::Relabelling;
 use crate::numbers::{bits_text, count_text, fixed6, num, num_sig, with_fraction};
 use crate::pipeline::{
-    EntropyReport, Extracting, FiniteSizeReport, GameReport, KeyReport, Leakage, LocalReport,
-    MarginReport, RandomnessReport, VerifyReport, COMMON_EFFICIENCY, QUANTUM_SETTLED_TOLERANCE,
+    BoundKind, EntropyReport, Extracting, FiniteSizeReport, GameReport, KeyReport, Leakage,
+    LocalReport, MarginReport, RandomnessReport, VerifyReport, COMMON_EFFICIENCY,
+    QUANTUM_SETTLED_TOLERANCE,
 };
 use crate::protocol::accumulation::Statement;
 use crate::protocol::finite::Margin;
@@ -302,6 +303,50 @@ pub fn game_report(r: &GameReport) -> String {
         out += &format!("({:?}, {} nodes, {:.3} s)\n", c.method, c.nodes, c.seconds).to_lowercase();
     }
     out
+}
+
+/// One line for a bound as soon as `bounds` has it (or has given up on it), for stderr while
+/// the other bounds are still being computed.
+pub fn bound_obtained(r: &GameReport, bound: BoundKind) -> String {
+    let line = match bound {
+        BoundKind::Classical => r.classical.as_ref().map(|c| match c.status {
+            ClassicalStatus::Exact => format!("classical {} ({:.2} s)", num(c.value), c.seconds),
+            ClassicalStatus::Incumbent => {
+                format!("classical ≥ {} (a lower bound only)", num(c.value))
+            }
+        }),
+        BoundKind::NoSignalling => r
+            .no_signalling
+            .as_ref()
+            .map(|ns| format!("no-signalling {}", num(ns.value))),
+        BoundKind::Npa => r.npa.as_ref().map(|b| {
+            format!(
+                "quantum ≤ {} (NPA {}, verified, {:.2} s)",
+                num(b.verified_upper),
+                b.level,
+                b.seconds
+            )
+        }),
+        BoundKind::Seesaw => r.seesaw.as_ref().map(|sw| {
+            format!(
+                "quantum ≥ {} (see-saw, dims {:?}, {} restarts, {:.2} s)",
+                num(sw.quantum_lower),
+                sw.dims,
+                sw.restarts,
+                sw.seconds
+            )
+        }),
+    };
+    let label = match bound {
+        BoundKind::Classical => "classical value",
+        BoundKind::NoSignalling => "no-signalling value",
+        BoundKind::Npa => "NPA upper bound",
+        BoundKind::Seesaw => "see-saw lower bound",
+    };
+    match line {
+        Some(l) => format!("obtained: {l}"),
+        None => format!("not obtained: {label} (see the report)"),
+    }
 }
 
 fn strategy_text(s: &Scenario, st: &DeterministicStrategy) -> String {

@@ -92,7 +92,7 @@ pub enum Choice {
 /// Estimated search time (seconds) above which `Auto` does not start the search: "hours".
 pub const SEARCH_SECONDS_LIMIT: f64 = 3600.0;
 /// Worst-case work below which the search starts without probing its size.
-const CHEAP_SEARCH_WORK: f64 = 1e8;
+pub const CHEAP_SEARCH_WORK: f64 = 1e8;
 /// MILP size (variables) above which `Auto` refuses.
 pub const MILP_VARIABLE_LIMIT: f64 = 20_000.0;
 /// Seconds per search node and per (responder question × answer) pair on one core, measured on

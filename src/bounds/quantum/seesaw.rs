@@ -36,6 +36,10 @@ pub struct SeesawOptions {
     pub tolerance: f64,
     /// Most rounds of one run.
     pub max_rounds: usize,
+    /// Wall-clock seconds after which no restart starts and running ones finish their round
+    /// (default: no limit). The best strategy so far is kept; its value is a lower bound all
+    /// the same, and the report says how many restarts ran.
+    pub max_seconds: f64,
     /// Run even when the estimate says it would take more than an hour.
     pub limits: Limits,
 }
@@ -44,14 +48,18 @@ impl Default for SeesawOptions {
     fn default() -> Self {
         SeesawOptions {
             dims: Vec::new(),
-            restarts: 8,
+            restarts: DEFAULT_RESTARTS,
             seed: 1,
             tolerance: 1e-10,
             max_rounds: 500,
+            max_seconds: f64::INFINITY,
             limits: Limits::default(),
         }
     }
 }
+
+/// Random restarts when none are asked for (`seesaw` and `bounds` alike).
+pub const DEFAULT_RESTARTS: usize = 10;
 
 /// Estimated seconds before a see-saw is refused without `force`.
 pub const SECONDS_LIMIT: f64 = 3600.0;
@@ -398,7 +406,9 @@ fn run(
     opts: &SeesawOptions,
     rng: &mut Rng,
     restart: usize,
+    deadline: Option<Instant>,
 ) -> Result<(QuantumStrategy, usize)> {
+    let out_of_time = || deadline.is_some_and(|d| Instant::now() > d);
     let start = if restart.is_multiple_of(2) {
         random_measurement
     } else {
@@ -420,7 +430,7 @@ fn run(
     };
     let mut value = optimise_state(s, &mut st);
     let mut rounds = 0;
-    while rounds < opts.max_rounds && !crate::limits::stop_requested() {
+    while rounds < opts.max_rounds && !crate::limits::stop_requested() && !out_of_time() {
         rounds += 1;
         let before = value;
         for player in 0..s.players() {
@@ -503,15 +513,27 @@ pub fn seesaw(
         });
     }
     let done = AtomicUsize::new(0);
-    // Restarts after the first are skipped once the computation is asked to stop.
+    if !(opts.max_seconds > 0.0) {
+        return Err(Error::InvalidArgument(format!(
+            "the see-saw's time limit must be a positive number of seconds (found {})",
+            opts.max_seconds
+        )));
+    }
+    // A limit too far ahead to represent is no limit.
+    let deadline = std::time::Duration::try_from_secs_f64(opts.max_seconds)
+        .ok()
+        .and_then(|d| start.checked_add(d));
+    // Restarts after the first are skipped once the computation is asked to stop or the time
+    // is up.
     let runs: Vec<Option<Result<(QuantumStrategy, usize)>>> = (0..opts.restarts)
         .into_par_iter()
         .map(|r| {
-            if r > 0 && crate::limits::stop_requested() {
+            let late = deadline.is_some_and(|d| Instant::now() > d);
+            if r > 0 && (crate::limits::stop_requested() || late) {
                 return None;
             }
             let mut rng = Rng(opts.seed ^ (r as u64).wrapping_mul(0xA076_1D64_78BD_642F));
-            let out = run(s, opts, &mut rng, r);
+            let out = run(s, opts, &mut rng, r, deadline);
             let k = done.fetch_add(1, Ordering::Relaxed) + 1;
             if let Some(p) = progress {
                 p(k, opts.restarts);
