@@ -513,7 +513,7 @@ pub fn seesaw(
         });
     }
     let done = AtomicUsize::new(0);
-    if !(opts.max_seconds > 0.0) {
+    if opts.max_seconds.is_nan() || opts.max_seconds <= 0.0 {
         return Err(Error::InvalidArgument(format!(
             "the see-saw's time limit must be a positive number of seconds (found {})",
             opts.max_seconds
