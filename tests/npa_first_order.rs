@@ -173,3 +173,62 @@ fn auto_picks_the_first_order_method_only_for_what_the_interior_point_method_can
     assert!(est.first_order_memory_bytes < 0.2 * (1u64 << 30) as f64);
     assert!(est.first_order_memory_bytes < 8.0 * (est.moments as f64).powi(2) / 20.0);
 }
+
+/// A two-player game with `q` questions and `a` answers each and seeded scores in [0, 1) with
+/// three decimals (no symmetry), as in the benchmark set.
+fn random_game(q: usize, a: usize, seed: u64) -> Game {
+    let mut state = seed.max(1);
+    let mut next = || {
+        state ^= state << 13;
+        state ^= state >> 7;
+        state ^= state << 17;
+        (state >> 11) as f64 / (1u64 << 53) as f64
+    };
+    let mut yaml = format!(
+        "name: random\nplayers:\n  - {{name: alice, question: x, answer: a, questions: {q}, answers: {a}}}\n  - {{name: bob, question: y, answer: b, questions: {q}, answers: {a}}}\nbell:\n  terms:\n"
+    );
+    for x in 0..q {
+        for y in 0..q {
+            for i in 0..a {
+                for j in 0..a {
+                    let c = (next() * 1000.0).floor() / 1000.0;
+                    yaml += &format!(
+                        "    - {{coefficient: {c}, event: {{alice: \"{i}|{x}\", bob: \"{j}|{y}\"}}}}\n"
+                    );
+                }
+            }
+        }
+    }
+    Game::from_yaml(&yaml, "random.yaml", CompileOptions::default()).unwrap()
+}
+
+#[test]
+fn auto_races_the_first_order_method_where_it_is_expected_to_win() {
+    use bellgap::bounds::quantum::npa::first_order_race;
+    // Random 4×3 game at 1+joint (1,664 moments): the interior-point method took 0.85 s, the
+    // first-order method 0.23 s (BENCHMARKS.md): raced.
+    let random = random_game(4, 3, 11);
+    let r = relaxation(&random.scenario, &Level::parse("1+joint").unwrap()).unwrap();
+    let allowed = first_order_race(&r).expect("raced");
+    assert!(allowed > 0.0 && allowed.is_finite());
+    // CGLMP d = 5 without symmetry (880 moments): the interior-point method is the faster
+    // (0.23 s against 0.62 s): not raced. With symmetry the reduced problem is never raced.
+    let cglmp = Game::from_spec(&families::cglmp(5).unwrap(), "cglmp-5").unwrap();
+    let full = relaxation(&cglmp.scenario, &Level::parse("1+joint").unwrap()).unwrap();
+    assert_eq!(first_order_race(&full), None);
+    let reduced = bellgap::bounds::quantum::npa::sized_relaxation(
+        &cglmp.scenario,
+        &NpaOptions::at(Level::parse("1+joint").unwrap()),
+    )
+    .unwrap()
+    .0;
+    assert!(reduced.reduction.is_some());
+    assert_eq!(first_order_race(&reduced), None);
+    // Whichever method finishes, `auto` gives the interior-point bound within 1e-7.
+    let s = &random.scenario;
+    let auto = solve(s, "1+joint", Backend::Auto, SymmetryChoice::Auto);
+    let ipm = solve(s, "1+joint", Backend::MomentIpm, SymmetryChoice::Off);
+    assert_eq!(auto.status, SolveStatus::Solved);
+    assert!(auto.verified_upper >= ipm.primal - 1e-9);
+    assert!((auto.verified_upper - ipm.verified_upper).abs() < 1e-7);
+}

@@ -55,6 +55,10 @@ pub struct FirstOrderOptions {
     pub max_seconds: f64,
     /// Seconds between two verified-bound checks reported as progress.
     pub report_every_seconds: f64,
+    /// Give up (status [`SolveStatus::Stalled`]) as soon as the run's own convergence predicts
+    /// it would need more seconds than this in all (default: never). The automatic choice sets
+    /// it to the other method's expected time, so a run that would lose the race stops early.
+    pub give_up_beyond_seconds: f64,
 }
 
 impl Default for FirstOrderOptions {
@@ -64,6 +68,7 @@ impl Default for FirstOrderOptions {
             max_iterations: MAX_ITERATIONS,
             max_seconds: f64::INFINITY,
             report_every_seconds: 2.0,
+            give_up_beyond_seconds: f64::INFINITY,
         }
     }
 }
@@ -670,6 +675,7 @@ pub fn solve(
     let mut z_in_cone = vec![0.0; rows];
     let mut rejected = 0u32;
     let mut envelope = f64::INFINITY;
+    let mut forecast = Forecast::default();
     while iteration < options.max_iterations {
         if start.elapsed().as_secs_f64() > options.max_seconds || crate::limits::stop_requested() {
             status = SolveStatus::TimeLimit;
@@ -700,6 +706,17 @@ pub fn solve(
             && last.gap <= options.tolerance
         {
             status = SolveStatus::Solved;
+            break;
+        }
+        if options.give_up_beyond_seconds.is_finite()
+            && forecast.would_exceed(
+                start.elapsed().as_secs_f64(),
+                &last,
+                options.tolerance,
+                options.give_up_beyond_seconds,
+            )
+        {
+            status = SolveStatus::Stalled;
             break;
         }
         if let Some(report) = progress {
@@ -768,6 +785,53 @@ pub fn solve(
         z,
     })
 }
+/// The run's time to convergence, forecast from its own progress: how many orders of magnitude
+/// the worst of the relative residuals and gap still has to fall to reach the tolerance, over
+/// the rate at which their best value so far fell in the second half of the elapsed time (ADMM
+/// converges linearly in its late phase, so this rate is steady there).
+#[derive(Debug, Default)]
+struct Forecast {
+    /// (seconds, orders of magnitude above the tolerance, best so far), one per iteration.
+    history: Vec<(f64, f64)>,
+    /// When the forecast was last made.
+    last_check: f64,
+}
+
+/// The share of the allowed time after which the first forecast is made, and between two.
+const FORECAST_FIRST: f64 = 0.25;
+const FORECAST_EVERY: f64 = 0.1;
+
+impl Forecast {
+    /// Whether the run, at `seconds` and at the point `last`, is forecast to need more than
+    /// `allowed` seconds in all.
+    fn would_exceed(&mut self, seconds: f64, last: &Step, tolerance: f64, allowed: f64) -> bool {
+        let worst = last
+            .primal_residual
+            .max(last.dual_residual)
+            .max(last.gap)
+            .max(tolerance);
+        let orders = (worst / tolerance).log10();
+        let best = self.history.last().map_or(orders, |&(_, b)| b.min(orders));
+        self.history.push((seconds, best));
+        if seconds < FORECAST_FIRST * allowed
+            || seconds < self.last_check + FORECAST_EVERY * allowed
+            || self.history.len() < 50
+        {
+            return false;
+        }
+        self.last_check = seconds;
+        let half = self.history.partition_point(|&(t, _)| t < seconds / 2.0);
+        let (t0, b0) = self.history[half.min(self.history.len() - 1)];
+        let rate = (b0 - best) / (seconds - t0).max(f64::MIN_POSITIVE);
+        let remaining = if rate > 0.0 {
+            best / rate
+        } else {
+            f64::INFINITY
+        };
+        seconds + remaining > allowed
+    }
+}
+
 /// The first-order method as a backend, with the default options.
 pub struct FirstOrderBackend;
 

@@ -523,6 +523,25 @@ pub const IPM_MEMORY_CEILING: f64 = 4.0 * (1u64 << 30) as f64;
 /// `auto` takes the first-order method when the interior-point method's estimate is above
 /// this many seconds and this many times the first-order method's.
 const FIRST_ORDER_SECONDS_THRESHOLD: f64 = 120.0;
+/// How much the interior-point estimate overshoots the measured time on full problems (2.4–4.7×
+/// on six random two-player games from 3×4 to 6×3 at `1+joint`, BENCHMARKS.md); the race below
+/// uses the estimate divided by this.
+const IPM_ESTIMATE_OVERSHOOT: f64 = 3.5;
+/// How much the first-order estimate (planned for [`FIRST_ORDER_PLANNED_ITERATIONS`]) overshoots
+/// the measured time on full problems: 5–18× on the same six random games, magic square and
+/// CHSH ×2 (400–950 iterations); 2.5–3.4× on CGLMP d = 5, 6 without symmetry (850–1,400
+/// iterations), where the interior-point method is the faster.
+const FIRST_ORDER_ESTIMATE_OVERSHOOT: f64 = 8.0;
+/// Full problems the interior-point method is expected to need at least this many seconds on
+/// are raced when the first-order method is expected to be faster (below, the interior-point
+/// method is quick and more accurate).
+const RACE_FROM_SECONDS: f64 = 0.3;
+/// The first-order method goes on while its forecast total stays below this multiple of the
+/// interior-point method's expected time. Its convergence is irregular (plateaus ended by a
+/// sudden drop when the acceleration finds the fixed point), so the forecast only catches runs
+/// far off their expected pace: it is first made at a quarter of this allowance, which bounds
+/// the cost of a lost race.
+const RACE_SHARE: f64 = 2.0;
 const FIRST_ORDER_ADVANTAGE: f64 = 8.0;
 
 /// What `auto` runs for a relaxation, from the estimates: the first-order method when the
@@ -548,6 +567,22 @@ fn automatic_backend_from(
     } else {
         Backend::Auto
     }
+}
+
+/// Whether `auto` starts a full problem with the first-order method (when the interior-point
+/// method is expected to take at least [`RACE_FROM_SECONDS`] and longer than it), and if so the
+/// seconds after which the first-order run gives up if its forecast exceeds them. Reduced
+/// problems, and problems [`automatic_backend`] sends to the first-order method outright, are
+/// not raced.
+pub fn first_order_race(r: &Relaxation) -> Option<f64> {
+    if r.reduction.is_some() || automatic_backend(r) != Backend::Auto {
+        return None;
+    }
+    let ipm_expected = estimate_for(r, Backend::MomentIpm).seconds / IPM_ESTIMATE_OVERSHOOT;
+    let first_order_expected =
+        estimate_for(r, Backend::FirstOrder).seconds / FIRST_ORDER_ESTIMATE_OVERSHOOT;
+    (ipm_expected >= RACE_FROM_SECONDS && first_order_expected < ipm_expected)
+        .then_some(RACE_SHARE * ipm_expected)
 }
 
 /// The estimate with the backend `auto` would run first.
@@ -772,6 +807,23 @@ pub fn solve_relaxation(
         Backend::Auto if r.reduction.is_some() => {
             backend::solve(problem, Backend::MomentIpm, &stage)
                 .or_else(|_| backend::solve(problem, Backend::Auto, &stage))?
+        }
+        // A full problem the interior-point method would take a while on, and the first-order
+        // method is expected to solve sooner: the first-order method goes first, and gives up
+        // as soon as its own convergence forecasts that it would take much longer than the
+        // interior-point method (see `RACE_SHARE`); then the usual choice runs.
+        Backend::Auto => {
+            let first = first_order_race(r).map(|allowed| {
+                let o = FirstOrderOptions {
+                    give_up_beyond_seconds: allowed,
+                    ..options.first_order
+                };
+                first_order::solve(problem, &stage, &o, None, control.progress)
+            });
+            match first {
+                Some(Ok(sol)) if sol.status == SolveStatus::Solved => sol,
+                _ => backend::solve(problem, Backend::Auto, &stage)?,
+            }
         }
         other => backend::solve(problem, other, &stage)?,
     };
