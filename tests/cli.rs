@@ -1428,33 +1428,65 @@ fn bounds_streams_each_bound_as_a_json_line() {
 }
 
 #[test]
-fn a_bounds_budget_cuts_the_seesaw_and_reports_what_ran() {
-    // A see-saw of 100,000 restarts would run for minutes; with a budget of 3 s it stops,
-    // reports the restarts that ran, and its value is still a lower bound below the verified
-    // NPA bound. (No time is asserted: only what ran and what is reported.)
+fn a_bounds_budget_used_up_leaves_the_later_bounds_not_obtained() {
+    // A budget of a nanosecond is used up by the time the NPA bound would start: the classical
+    // and no-signalling values (always computed when cheap) are reported, the NPA and see-saw
+    // bounds are listed as not obtained, and nothing is made up. (No time is asserted.)
     let out = bellgap(&[
         "bounds",
         "games/chsh.yaml",
-        "--restarts",
-        "100000",
         "--budget",
-        "3",
+        "1e-9",
         "--json",
         "--quiet",
-        "--force",
     ]);
     assert!(out.status.success());
     let j = json_of(&out);
-    let ran = j["restarts"].as_u64().unwrap();
-    assert!((1..100000).contains(&ran), "{ran}");
-    let notes = j["notes"].to_string();
+    assert!((j["classical"].as_f64().unwrap() - 0.75).abs() < 1e-12);
+    assert!((j["no_signalling"].as_f64().unwrap() - 1.0).abs() < 1e-9);
     assert!(
-        notes.contains("of 100000 restarts within the budget"),
-        "{notes}"
+        j.get("verified_upper").is_none() && j.get("quantum_lower").is_none(),
+        "{j}"
     );
-    assert!(j["quantum_lower"].as_f64().unwrap() <= j["verified_upper"].as_f64().unwrap());
+    let missing = j["not_obtained"].to_string();
+    assert!(
+        missing.contains("NPA upper bound: the budget was used up"),
+        "{missing}"
+    );
+    assert!(
+        missing.contains("see-saw lower bound: the budget was used up"),
+        "{missing}"
+    );
     for bad in ["0", "-1", "nan"] {
         let out = bellgap(&["bounds", "games/chsh.yaml", "--budget", bad]);
         assert_eq!(out.status.code(), Some(2), "{bad}");
     }
+}
+
+#[test]
+fn randomness_estimates_its_cost_and_refuses_with_the_estimate() {
+    // A three-player game at level 3: three moment matrices of side 389 per SDP. Refused before
+    // any SDP is solved, with the estimate and a lighter level offered.
+    let game = temp_file(
+        "trident.yaml",
+        "name: trident\nplayers:\n  - {name: north, question: x, answer: a, questions: 2, answers: 3}\n  - {name: south, question: y, answer: b, questions: 2, answers: 3}\n  - {name: west, question: z, answer: c, questions: 2, answers: 3}\ndistribution: uniform\nwin: \"(a + b + c) % 3 == (x*y + y*z + z*x) % 3\"\n",
+    );
+    let game = game.to_str().unwrap();
+    let out = bellgap(&[
+        "randomness",
+        game,
+        "--score",
+        "0.76",
+        "--level",
+        "3",
+        "--json",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    let e = json_of(&out);
+    assert_eq!(e["error"]["kind"], "too_large");
+    let message = e["error"]["message"].as_str().unwrap();
+    assert!(
+        message.contains("side 389") && message.contains("lower level"),
+        "{message}"
+    );
 }

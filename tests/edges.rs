@@ -930,6 +930,7 @@ fn the_library_caps_score_lists_like_the_command_line() {
             scores: many,
             ..Default::default()
         },
+        &Silent,
     );
     assert!(matches!(r, Err(bellgap::Error::TooLarge { .. })));
 }

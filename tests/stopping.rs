@@ -95,3 +95,26 @@ fn a_stopped_classical_search_is_an_incumbent_never_exact() {
     assert_eq!(v.status, ClassicalStatus::Incumbent);
     assert!(v.note.unwrap().contains("stopped"));
 }
+
+#[test]
+fn a_seesaw_out_of_time_runs_only_its_first_restart_and_says_so() {
+    // The see-saw's time limit (what `bounds --budget` sets): once it has passed no restart
+    // starts; the first always runs, so there is a strategy and a valid lower bound.
+    let g = chsh();
+    let o = SeesawOptions {
+        dims: vec![2, 2],
+        restarts: 1000,
+        max_seconds: 1e-9,
+        ..Default::default()
+    };
+    let r = bellgap::bounds::quantum::seesaw::seesaw(&g.scenario, &o, None).unwrap();
+    assert_eq!(r.restarts, 1);
+    assert!(r.quantum_lower <= 0.5 + 0.5 / 2f64.sqrt());
+    for bad in [0.0, -1.0, f64::NAN] {
+        let o = SeesawOptions {
+            max_seconds: bad,
+            ..Default::default()
+        };
+        assert!(bellgap::bounds::quantum::seesaw::seesaw(&g.scenario, &o, None).is_err());
+    }
+}

@@ -607,7 +607,7 @@ def margin(
 
 def randomness(game: GameLike, score=None, scores=None, player=None, question=None,
                with_player=None, with_question=None, level: str = "2", counts=None,
-               alpha=None) -> Result:
+               alpha=None, force: bool = False) -> Result:
     """Certified min-entropy from the guessing probability at a score (or a list of scores),
     or at the lower confidence score of ``counts`` (a counts file's path, its YAML text or a
     dict) with error ``alpha`` (default 1e-6)."""
@@ -617,7 +617,7 @@ def randomness(game: GameLike, score=None, scores=None, player=None, question=No
         extra["alpha"] = alpha
     return _figure_command(
         "randomness", game, **extra, score=score, scores=scores, player=player, question=question,
-        with_player=with_player, with_question=with_question, level=level,
+        with_player=with_player, with_question=with_question, level=level, force=force,
     )
 
 

@@ -811,9 +811,13 @@ fn run_figure(
                 },
                 level: Level::parse(a.level.as_deref().unwrap_or("2")).map_err(to_py)?,
                 from_counts,
+                limits: limits(a.force),
             };
             interruptible(py, move || {
-                Ok(reply(to_value(&pipeline::randomness(&game, &o)?), None))
+                Ok(reply(
+                    to_value(&pipeline::randomness(&game, &o, &Silent)?),
+                    None,
+                ))
             })
         }
         "entropy" => {

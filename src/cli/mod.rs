@@ -286,7 +286,7 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             if let Some((file, alpha)) = counts {
                 options.from_counts = Some((Counts::from_file(&file.to_string_lossy())?, *alpha));
             }
-            let r = pipeline::randomness(&game, &options)?;
+            let r = pipeline::randomness(&game, &options, &observer)?;
             if let Some(file) = svg {
                 write(file, &charts::min_entropy(&r), inputs)?;
             }

@@ -549,6 +549,7 @@ impl Invocation {
                     },
                     level: one_level(level)?,
                     from_counts: None,
+                    limits: limits(args.force),
                 },
                 counts: counts.clone().map(|c| (c, *alpha)),
                 svg: svg.clone(),

@@ -13,7 +13,7 @@ use crate::error::{Error, Result};
 use crate::formats::certificate::Certificate;
 use crate::formats::correlations::ROW_TOLERANCE;
 use crate::formats::game::Game;
-use crate::limits::Limits;
+use crate::limits::{human_seconds, Limits};
 use crate::model::correlations::Correlations;
 use crate::model::counts::Counts;
 use crate::model::region::BehaviourRegion;
@@ -182,6 +182,8 @@ pub struct RandomnessOptions {
     /// A lab's counts and an error α instead of scores: the bound at their lower confidence
     /// score (the region "score at least that", which holds except with probability α).
     pub from_counts: Option<(Counts, f64)>,
+    /// Work limits: a run estimated above an hour is refused unless forced.
+    pub limits: Limits,
 }
 
 impl Default for RandomnessOptions {
@@ -192,6 +194,7 @@ impl Default for RandomnessOptions {
             scores: Vec::new(),
             level: Level::Length(2),
             from_counts: None,
+            limits: Limits::default(),
         }
     }
 }
@@ -215,7 +218,11 @@ pub struct RandomnessReport<'a> {
 
 /// The `randomness` command. In a sweep, a score that cannot be certified (e.g. above the
 /// quantum maximum) is listed and the sweep goes on; a single score that fails is an error.
-pub fn randomness<'a>(game: &'a Game, options: &RandomnessOptions) -> Result<RandomnessReport<'a>> {
+pub fn randomness<'a>(
+    game: &'a Game,
+    options: &RandomnessOptions,
+    observer: &dyn Observer,
+) -> Result<RandomnessReport<'a>> {
     let s = &game.scenario;
     let target = TargetChoice::target(s, &options.guessed, options.with.as_ref())?;
     let mut given = None;
@@ -239,6 +246,7 @@ pub fn randomness<'a>(game: &'a Game, options: &RandomnessOptions) -> Result<Ran
         return Err(Error::InvalidArgument("no score given".into()));
     }
     check_score_count(scores.len())?;
+    randomness_cost(s, &target, options, scores.len(), observer)?;
     let mut results = Vec::new();
     let mut not_obtained = Vec::new();
     for &v in &scores {
@@ -265,6 +273,46 @@ pub fn randomness<'a>(game: &'a Game, options: &RandomnessOptions) -> Result<Ran
         not_obtained,
         given,
     })
+}
+
+/// The run's cost, announced before any SDP is solved: refused above an hour (unless forced),
+/// with the estimate and a lighter level; a heads-up above half a minute.
+fn randomness_cost(
+    s: &Scenario,
+    target: &Target,
+    options: &RandomnessOptions,
+    scores: usize,
+    observer: &dyn Observer,
+) -> Result<()> {
+    use crate::protocol::randomness::{estimate, RandomnessEstimate};
+    let est = estimate(s, target, &options.level)?;
+    let n = scores as f64;
+    let typical = est.seconds_per_solve * RandomnessEstimate::SOLVES * n;
+    let worst = est.seconds_per_solve * RandomnessEstimate::SOLVES_AT_WORST * n;
+    let what = format!(
+        "{scores} score{} at level {}: {} moment matrices of side {} per SDP, about {} per SDP ({:.1} GiB); {} SDPs per score, up to {} near the quantum maximum: about {} in all, up to {}",
+        if scores == 1 { "" } else { "s" },
+        options.level.name(),
+        est.guesses,
+        est.matrix_size,
+        human_seconds(est.seconds_per_solve),
+        est.memory_bytes / (1u64 << 30) as f64,
+        RandomnessEstimate::SOLVES,
+        RandomnessEstimate::SOLVES_AT_WORST,
+        human_seconds(typical),
+        human_seconds(worst),
+    );
+    if !options.limits.force && typical > npa::SECONDS_LIMIT {
+        return Err(Error::TooLarge {
+            what: "the randomness bound".into(),
+            estimate: what,
+            hint: "choose a lower level (e.g. 1+joint), fewer scores, or pass --force".into(),
+        });
+    }
+    if worst > 30.0 {
+        observer.warn(&format!("the randomness bound may take long: {what}"));
+    }
+    Ok(())
 }
 
 /// CHSH key figures (the `key` command).

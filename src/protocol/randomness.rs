@@ -21,6 +21,7 @@ use crate::bounds::quantum::words::{moment_key, Word};
 use crate::error::{Error, Result};
 use crate::model::scenario::Scenario;
 use crate::optim::backend::{self, Backend};
+use crate::optim::moment_ipm::{self, IpmOptions, StallPolicy};
 use crate::optim::sdp::{AffineEntry, MatrixBlock, SdpProblem};
 use crate::optim::SolveStatus;
 
@@ -49,6 +50,53 @@ pub struct Randomness {
     pub score_multiplier: Option<f64>,
     /// Wall-clock time.
     pub seconds: f64,
+}
+
+/// A stalled run's verified bound within this of its solver's value is reported as it is.
+const TIGHT_ENOUGH: f64 = 1e-6;
+
+/// What bounding the guessing probability at one score is expected to cost.
+#[derive(Debug, Clone, Copy)]
+pub struct RandomnessEstimate {
+    /// Moment matrices in one SDP (one per guess).
+    pub guesses: usize,
+    /// Side of each.
+    pub matrix_size: usize,
+    /// Seconds of one SDP (the interior-point estimate, which overshoots by a few times).
+    pub seconds_per_solve: f64,
+    /// Memory of one SDP.
+    pub memory_bytes: f64,
+}
+
+impl RandomnessEstimate {
+    /// SDPs solved per score when the score constraint can be imposed: the NPA bound that
+    /// checks the score is reachable, then the guessing SDP.
+    pub const SOLVES: f64 = 2.0;
+    /// SDPs per score at worst, near the quantum maximum, where the constraint gives way to a
+    /// search over the Lagrange multiplier of the score.
+    pub const SOLVES_AT_WORST: f64 = 18.0;
+}
+
+/// The cost of the guessing-probability SDP for `target` at `level` (no SDP is solved).
+pub fn estimate(s: &Scenario, target: &Target, level: &Level) -> Result<RandomnessEstimate> {
+    target.check(s)?;
+    let guesses: usize = target
+        .parts
+        .iter()
+        .map(|&(p, _)| s.parties().get(p).map_or(1, |q| q.answers()))
+        .product();
+    let options = npa::NpaOptions {
+        symmetry: crate::bounds::quantum::symmetric::SymmetryChoice::Off,
+        ..npa::NpaOptions::at(level.clone())
+    };
+    let (_, est) = npa::sized_relaxation(s, &options)?;
+    let g = guesses as f64;
+    Ok(RandomnessEstimate {
+        guesses,
+        matrix_size: est.matrix_size,
+        seconds_per_solve: est.seconds * g * g * g,
+        memory_bytes: est.memory_bytes * g * g,
+    })
 }
 
 /// The guessing probability at one score. Near the quantum maximum the feasible set becomes
@@ -102,34 +150,61 @@ pub fn guessing_probability(
             level.name()
         )));
     }
+    // Near the edge of the quantum set the interior-point method can stall short of its
+    // tolerance; its best point still gives a verified bound, kept when tight.
+    let mut best: Option<Randomness> = None;
+    let mut multiplier = None;
     match guessing_probability_at(s, target, score, Mode::Constraint(score), &base) {
-        Ok(r) => return Ok(r),
+        Ok(a) if a.result.status.converged() => return Ok(a.result),
+        Ok(a) => {
+            if a.result.guessing_probability - a.solver_value <= TIGHT_ENOUGH {
+                return Ok(a.result);
+            }
+            multiplier = a.multiplier;
+            best = Some(a.result);
+        }
         Err(Error::Solver { .. }) => {}
         Err(e) => return Err(e),
     }
-    // At the edge of the quantum set the constraint leaves a feasible set without interior and
-    // the interior-point method can fail. Weak duality gives a bound for every μ ≥ 0 without
-    // that constraint: P_guess(p) ≤ P_guess(p) + μ (value(p) − S) ≤ max over the relaxation.
-    // The best μ is found by a golden-section search on log μ; every μ tried gives a valid
-    // (verified) bound and the smallest is kept.
-    let mut best: Option<Randomness> = None;
+    // Weak duality gives a bound for every μ ≥ 0 without the constraint:
+    // P_guess(p) ≤ P_guess(p) + μ (value(p) − S) ≤ max over the relaxation. Every μ tried gives
+    // a valid (verified) bound and the smallest is kept.
     let mut evaluate = |log_mu: f64| -> f64 {
         match guessing_probability_at(s, target, score, Mode::Penalty(10f64.powf(log_mu)), &base) {
-            Ok(r) => {
-                let p = r.guessing_probability;
+            Ok(a) => {
+                let p = a.result.guessing_probability;
                 if best.as_ref().is_none_or(|b| p < b.guessing_probability) {
-                    best = Some(r);
+                    best = Some(a.result);
                 }
                 p
             }
             Err(_) => f64::INFINITY,
         }
     };
-    let (mut a, mut b) = (-2.0f64, 5.0f64);
+    // The stalled run's multiplier of the score is close to the best μ: a short search around
+    // it (a factor of two each way) usually settles the bound in three solves.
+    let settled = multiplier.is_some_and(|mu| {
+        let centre = mu.log10();
+        let values: Vec<f64> = [-0.3, 0.0, 0.3]
+            .iter()
+            .map(|d| evaluate(centre + d))
+            .collect();
+        values.iter().any(|v| v.is_finite())
+    });
+    // Otherwise the best μ is found by a golden-section search on log μ.
+    let (mut a, mut b) = if settled {
+        (0.0, 0.0)
+    } else {
+        (-2.0f64, 5.0f64)
+    };
     let phi = (5f64.sqrt() - 1.0) / 2.0;
     let (mut c, mut d) = (b - phi * (b - a), a + phi * (b - a));
-    let (mut fc, mut fd) = (evaluate(c), evaluate(d));
-    for _ in 0..30 {
+    let (mut fc, mut fd) = if settled {
+        (0.0, 0.0)
+    } else {
+        (evaluate(c), evaluate(d))
+    };
+    for _ in 0..if settled { 0 } else { 30 } {
         if fc <= fd {
             b = d;
             d = c;
@@ -156,7 +231,7 @@ pub fn guessing_probability(
     for step in [1e-6, 1e-5, 1e-4, 1e-3] {
         let used = score - step * (hi - lo);
         match guessing_probability_at(s, target, score, Mode::Constraint(used), &base) {
-            Ok(r) => return Ok(r),
+            Ok(a) => return Ok(a.result),
             Err(e @ Error::Solver { .. }) => last = Some(e),
             Err(e) => return Err(e),
         }
@@ -179,7 +254,7 @@ fn guessing_probability_at(
     score: f64,
     mode: Mode,
     r: &Relaxation,
-) -> Result<Randomness> {
+) -> Result<Attempt> {
     let level = &r.level;
     let score_used = match mode {
         Mode::Constraint(v) => v,
@@ -285,7 +360,17 @@ fn guessing_probability_at(
         variable_bound: 1.0,
         variable_bounds: Vec::new(),
     };
-    let sol = backend::solve(&problem, Backend::Auto, "guessing probability SDP").map_err(|e| match e {
+    let stage = "guessing probability SDP";
+    // Only the verified bound is reported, which holds for any dual point: a run of the
+    // moment-matrix method that stalls near the edge of the quantum set keeps its best point
+    // (reported as stalled) rather than failing.
+    let keep_best = IpmOptions {
+        on_stall: StallPolicy::KeepBest,
+        ..IpmOptions::default()
+    };
+    let sol = moment_ipm::solve(&problem, stage, keep_best)
+        .or_else(|_| backend::solve(&problem, Backend::Auto, stage))
+        .map_err(|e| match e {
         Error::Solver {
             status: Some(SolveStatus::Infeasible),
             ..
@@ -296,7 +381,13 @@ fn guessing_probability_at(
         other => other,
     })?;
     let p = sol.certified.min(1.0);
-    Ok(Randomness {
+    // The score row's dual is the Lagrange multiplier of the score (equalities come first in
+    // the dual layout: one, the normalisation).
+    let multiplier = match mode {
+        Mode::Constraint(_) => sol.z.get(1).copied().filter(|m| m.is_finite() && *m > 0.0),
+        Mode::Penalty(_) => None,
+    };
+    let result = Randomness {
         score,
         score_used,
         guessing_probability: p,
@@ -309,5 +400,19 @@ fn guessing_probability_at(
             Mode::Penalty(mu) => Some(mu),
         },
         seconds: start.elapsed().as_secs_f64(),
+    };
+    Ok(Attempt {
+        result,
+        solver_value: sol.primal,
+        multiplier,
     })
+}
+
+/// One guessing-probability SDP: the result, the solver's own value (how far the verified
+/// bound sits above it says how tight it is) and, with the score as a constraint, its
+/// multiplier.
+struct Attempt {
+    result: Randomness,
+    solver_value: f64,
+    multiplier: Option<f64>,
 }
