@@ -1490,3 +1490,34 @@ fn randomness_estimates_its_cost_and_refuses_with_the_estimate() {
         "{message}"
     );
 }
+
+#[test]
+fn entropy_and_finite_size_refuse_hierarchies_estimated_above_an_hour() {
+    // CHSH at level 7: fifteen relaxations of side 565 (4,772 moments). Once this ran for
+    // minutes with no word; now refused with the estimate before any SDP is solved.
+    for command in [
+        vec!["entropy", "games/chsh.yaml", "--score", "0.8"],
+        vec![
+            "finite-size",
+            "games/chsh.yaml",
+            "--rounds",
+            "1000000000",
+            "--testing",
+            "0.01",
+            "--threshold",
+            "0.84",
+        ],
+    ] {
+        let mut args = command.clone();
+        args.extend(["--level", "7", "--json"]);
+        let out = bellgap(&args);
+        assert_eq!(out.status.code(), Some(2), "{command:?}");
+        let e = json_of(&out);
+        assert_eq!(e["error"]["kind"], "too_large", "{command:?}");
+        let message = e["error"]["message"].as_str().unwrap();
+        assert!(
+            message.contains("565×565") && message.contains("per score"),
+            "{message}"
+        );
+    }
+}

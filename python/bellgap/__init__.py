@@ -625,7 +625,8 @@ def entropy(game: GameLike, score=None, scores=None, player=None, question=None,
             with_player=None, with_question=None, nodes=None, level=None,
             adversary_words=None, moments=None, solver=None, error_rate=None,
             noisy_preprocessing=None, behaviour=None, strategy: Optional[Strategy] = None,
-            key_with=None, key_question=None, counts=None, alpha=None) -> Result:
+            key_with=None, key_question=None, counts=None, alpha=None,
+            force: bool = False) -> Result:
     """A verified lower bound on H(A|X=x, E) by the Gauss–Radau hierarchy (``bellgap entropy``).
 
     Given ``score`` (or ``scores``), the bound holds for every quantum behaviour scoring at least
@@ -641,6 +642,7 @@ def entropy(game: GameLike, score=None, scores=None, player=None, question=None,
         with_player=with_player, with_question=with_question, nodes=nodes, level=level,
         adversary_words=adversary_words, moments=moments, solver=solver, error_rate=error_rate,
         noisy_preprocessing=noisy_preprocessing, key_with=key_with, key_question=key_question,
+        force=force,
     )
     if behaviour is not None:
         kwargs["behaviour_text"], kwargs["behaviour_name"] = _text_and_name(behaviour)

@@ -712,6 +712,7 @@ fn hierarchy(a: &FigureArgs) -> PyResult<EntropyOptions> {
         };
     }
     o.preprocessing = Preprocessing::noisy_if(a.noisy_preprocessing);
+    o.limits = limits(a.force);
     Ok(o)
 }
 

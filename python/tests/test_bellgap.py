@@ -378,7 +378,7 @@ def test_entropy_of_a_behaviour_or_a_strategy_with_its_key_pair(tmp_path):
         "bellgap.seesaw(bellgap.Game.family('cglmp', d=4), restarts=100000, force=True)",
         # A level-9 entropy hierarchy: interior-point iterations of seconds each.
         "bellgap.finite_size('games/chsh.yaml', rounds=10**9, testing=0.01, threshold=0.84,"
-        " level='9')",
+        " level='9', force=True)",
     ],
 )
 def test_ctrl_c_interrupts_a_long_computation_and_stops_its_work(call):

@@ -596,7 +596,7 @@ impl Invocation {
                         (None, Some(q)) => Some(ErrorCorrection::ErrorRate(*q)),
                         (None, None) => None,
                     },
-                    hierarchy: hierarchy_options(hierarchy)?,
+                    hierarchy: hierarchy_options(hierarchy, args.force)?,
                 },
             },
             Command::FiniteSize {
@@ -659,7 +659,7 @@ impl Invocation {
                         Some(score) => Tangent::At(*score),
                         None => Tangent::Search(*tangent_points),
                     },
-                    hierarchy: hierarchy_options(hierarchy)?,
+                    hierarchy: hierarchy_options(hierarchy, args.force)?,
                 },
                 svg: svg.clone(),
             },
@@ -730,7 +730,7 @@ impl Invocation {
 }
 
 /// The entropy hierarchy's options from the command line.
-fn hierarchy_options(h: &HierarchyArgs) -> Result<EntropyOptions> {
+fn hierarchy_options(h: &HierarchyArgs, force: bool) -> Result<EntropyOptions> {
     Ok(EntropyOptions {
         nodes: h.nodes,
         level: h.level.as_deref().map(one_level).transpose()?,
@@ -750,6 +750,7 @@ fn hierarchy_options(h: &HierarchyArgs) -> Result<EntropyOptions> {
             EntropySolverArg::Clarabel => Backend::Clarabel,
         },
         preprocessing: Preprocessing::noisy_if(h.noisy_preprocessing),
+        limits: limits(force),
     })
 }
 

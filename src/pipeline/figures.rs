@@ -489,6 +489,29 @@ pub enum EntropyGiven {
     },
 }
 
+/// A heads-up before entropy hierarchies estimated to take over half a minute in all (one
+/// hierarchy above the limit is refused by the hierarchy itself).
+pub(crate) fn warn_slow_entropy(
+    s: &Scenario,
+    target: &Target,
+    options: &EntropyOptions,
+    hierarchies: usize,
+    observer: &dyn Observer,
+) -> Result<()> {
+    let est = crate::bounds::entropy::hierarchy::estimate(s, target, options)?;
+    let total = est.seconds * hierarchies as f64;
+    if total > 30.0 {
+        observer.warn(&format!(
+            "the entropy bound may take long: {}, {} hierarch{} (an interior-point estimate, which overshoots by a few times): about {} in all",
+            est.describe(),
+            hierarchies,
+            if hierarchies == 1 { "y" } else { "ies" },
+            human_seconds(total)
+        ));
+    }
+    Ok(())
+}
+
 /// Most scores one `randomness` or `entropy` run bounds (a sweep's points): the same limit for
 /// the command line and the library (the Python package included), where each score costs one
 /// relaxation (randomness) or one hierarchy (entropy, about a second to minutes each).
@@ -619,6 +642,9 @@ pub fn entropy<'a>(
         return Err(Error::InvalidArgument(
             "a key rate is for one player's key answers: leave out the second player".into(),
         ));
+    }
+    if let EntropyGiven::Scores(scores) = &options.given {
+        warn_slow_entropy(s, &target, &options.hierarchy, scores.len(), observer)?;
     }
     let (constraints, given): (Vec<(Option<f64>, EntropyConstraint)>, String) = match &options.given
     {

@@ -473,6 +473,7 @@ pub fn finite_size<'a>(
     };
     let disclosure = |n: u64| disclosed(n, cap(n));
     let scores = tangent_scores(game, options)?;
+    super::figures::warn_slow_entropy(s, &target, &options.hierarchy, scores.len(), observer)?;
     let mut tangents = Vec::new();
     let mut best: Option<(ConditionalEntropy, CrossoverTradeoff, Accumulation)> = None;
     let count = scores.len();

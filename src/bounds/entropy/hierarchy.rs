@@ -61,6 +61,7 @@ use crate::bounds::quantum::membership;
 use crate::bounds::quantum::npa::{self, Level};
 use crate::bounds::quantum::words::{Projector, Word};
 use crate::error::{Error, Result};
+use crate::limits::Limits;
 use crate::model::collins_gisin::CollinsGisin;
 use crate::model::region::BehaviourRegion;
 use crate::model::scenario::{digits, Scenario};
@@ -281,6 +282,81 @@ pub struct EntropyOptions {
     pub backend: Backend,
     /// What the key player does to its answer first (one player's answer only).
     pub preprocessing: Preprocessing,
+    /// Work limits: a hierarchy estimated above an hour is refused unless forced.
+    pub limits: Limits,
+}
+
+/// What one hierarchy (one score or behaviour) is expected to cost.
+#[derive(Debug, Clone, Serialize)]
+pub struct EntropyEstimate {
+    /// The players' level used.
+    pub level: Level,
+    /// Side of each relaxation's moment matrix.
+    pub matrix_size: usize,
+    /// Distinct moments of each.
+    pub moments: usize,
+    /// Relaxations solved (one per node but the last).
+    pub relaxations: usize,
+    /// Estimated seconds for all of them (the interior-point estimate of one relaxation, times
+    /// their number).
+    pub seconds: f64,
+}
+
+impl EntropyEstimate {
+    /// The estimate in words, for warnings and refusals.
+    pub fn describe(&self) -> String {
+        format!(
+            "{} relaxations at level {} ({}×{} moment matrix, {} moments): about {} per score",
+            self.relaxations,
+            self.level.name(),
+            self.matrix_size,
+            self.matrix_size,
+            self.moments,
+            crate::limits::human_seconds(self.seconds)
+        )
+    }
+}
+
+/// The cost of one hierarchy, from its moment matrix (built, not solved).
+pub fn estimate(
+    s: &Scenario,
+    target: &Target,
+    options: &EntropyOptions,
+) -> Result<EntropyEstimate> {
+    target.check(s)?;
+    let rule = RadauRule::new(options.nodes)?;
+    let level = match &options.level {
+        Some(level) => level.clone(),
+        None => default_level(s, target, options.adversary)?,
+    };
+    let events = target.events(s).len();
+    let matrix = EntropyMatrix::new(s, &level, events, options.adversary)?;
+    Ok(estimate_of(&matrix, level, &rule, options.field))
+}
+
+fn estimate_of(
+    matrix: &EntropyMatrix,
+    level: Level,
+    rule: &RadauRule,
+    field: MomentField,
+) -> EntropyEstimate {
+    // Complex moments have a real and an imaginary part each, and the Hermitian matrix is
+    // solved as a real one of twice the side.
+    let (m, n) = match field {
+        MomentField::Real => (matrix.moments.len() as f64, matrix.size() as f64),
+        MomentField::Complex => (
+            2.0 * matrix.moments.len() as f64,
+            2.0 * matrix.size() as f64,
+        ),
+    };
+    let relaxations = rule.nodes.len().saturating_sub(1).max(1);
+    EntropyEstimate {
+        level,
+        matrix_size: matrix.size(),
+        moments: matrix.moments.len(),
+        relaxations,
+        seconds: relaxations as f64 * npa::ipm_seconds_estimate(m, n),
+    }
 }
 
 /// Default node count: near the top of the CHSH range the rule's own error matters. With the
@@ -297,6 +373,7 @@ impl Default for EntropyOptions {
             field: MomentField::default(),
             backend: Backend::Auto,
             preprocessing: Preprocessing::None,
+            limits: Limits::default(),
         }
     }
 }
@@ -625,6 +702,15 @@ pub fn conditional_entropy_reporting(
     };
     let events = target.events(s).len();
     let matrix = EntropyMatrix::new(s, &level, events, options.adversary)?;
+    let cost = estimate_of(&matrix, level.clone(), &rule, options.field);
+    if !options.limits.force && cost.seconds > npa::SECONDS_LIMIT {
+        return Err(Error::TooLarge {
+            what: "the entropy hierarchy".into(),
+            estimate: cost.describe(),
+            hint: "choose a lower level, fewer nodes or fewer adversary words, or pass --force"
+                .into(),
+        });
+    }
     let mut tradeoff_ends: Option<(f64, f64, f64)> = None;
     let (equalities, at_least) = match constraint {
         EntropyConstraint::Score(v) => {

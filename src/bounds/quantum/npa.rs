@@ -590,6 +590,12 @@ pub fn estimate(r: &Relaxation) -> NpaEstimate {
     estimate_for(r, Backend::Auto)
 }
 
+/// The moment-matrix method's estimated seconds for `moments` variables and a matrix of side
+/// `side` (the formula of [`estimate_for`] for a full problem).
+pub fn ipm_seconds_estimate(moments: f64, side: f64) -> f64 {
+    30.0 * (moments.powi(3) / 3.0 / IPM_CHOLESKY_FLOPS + 4.0 * side.powi(4) / IPM_ASSEMBLY_FLOPS)
+}
+
 /// The estimate with the given backend.
 pub fn estimate_for(r: &Relaxation, solver: Backend) -> NpaEstimate {
     let n = r.matrix.size() as f64;
