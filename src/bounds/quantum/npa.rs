@@ -826,8 +826,13 @@ pub fn solve_relaxation(
                 };
                 first_order::solve(problem, &stage, &o, None, control.progress)
             });
+            // A run stopped at the user's own budget reports what it has reached, as the
+            // first-order method always does; one that gave up leaves the problem to the other.
+            let budget_reached = |sol: &SdpSolution| {
+                sol.status == SolveStatus::TimeLimit && options.first_order.max_seconds.is_finite()
+            };
             match first {
-                Some(Ok(sol)) if sol.status == SolveStatus::Solved => sol,
+                Some(Ok(sol)) if sol.status == SolveStatus::Solved || budget_reached(&sol) => sol,
                 _ => backend::solve(problem, Backend::Auto, &stage)?,
             }
         }
