@@ -80,6 +80,13 @@ impl RandomnessEstimate {
 /// The cost of the guessing-probability SDP for `target` at `level` (no SDP is solved).
 pub fn estimate(s: &Scenario, target: &Target, level: &Level) -> Result<RandomnessEstimate> {
     target.check(s)?;
+    Ok(sized(s, target, level)?.1)
+}
+
+/// The players' relaxation the guessing SDP is built on, and the SDP's cost (one moment matrix
+/// per guess). The guessing-probability SDPs are not symmetric under the game's group: solved
+/// in full.
+fn sized(s: &Scenario, target: &Target, level: &Level) -> Result<(Relaxation, RandomnessEstimate)> {
     let guesses: usize = target
         .parts
         .iter()
@@ -89,14 +96,15 @@ pub fn estimate(s: &Scenario, target: &Target, level: &Level) -> Result<Randomne
         symmetry: crate::bounds::quantum::symmetric::SymmetryChoice::Off,
         ..npa::NpaOptions::at(level.clone())
     };
-    let (_, est) = npa::sized_relaxation(s, &options)?;
+    let (base, est) = npa::sized_relaxation(s, &options)?;
     let g = guesses as f64;
-    Ok(RandomnessEstimate {
+    let estimate = RandomnessEstimate {
         guesses,
         matrix_size: est.matrix_size,
         seconds_per_solve: est.seconds * g * g * g,
         memory_bytes: est.memory_bytes * g * g,
-    })
+    };
+    Ok((base, estimate))
 }
 
 /// The guessing probability at one score. Near the quantum maximum the feasible set becomes
@@ -110,24 +118,14 @@ pub fn guessing_probability(
 ) -> Result<Randomness> {
     // The relaxation is built once, size-checked (one moment matrix per guess) before any SDP
     // is solved, and shared by every solve below.
-    let guesses: usize = target
-        .parts
-        .iter()
-        .map(|&(p, _)| s.parties().get(p).map_or(1, |q| q.answers()))
-        .product();
-    // The guessing-probability SDPs are not symmetric under the game's group: solved in full.
-    let options = npa::NpaOptions {
-        symmetry: crate::bounds::quantum::symmetric::SymmetryChoice::Off,
-        ..npa::NpaOptions::at(level.clone())
-    };
-    let (base, est) = npa::sized_relaxation(s, &options)?;
-    let g = guesses as f64;
-    let (seconds, bytes) = (est.seconds * g * g * g, est.memory_bytes * g * g);
+    let (base, est) = sized(s, target, level)?;
+    let (seconds, bytes) = (est.seconds_per_solve, est.memory_bytes);
     if seconds > npa::SECONDS_LIMIT || bytes > npa::MEMORY_LIMIT {
         return Err(Error::TooLarge {
             what: format!("the guessing-probability SDP at level {}", level.name()),
             estimate: format!(
-                "{guesses} moment matrices of side {}: about {} and {:.1} GiB",
+                "{} moment matrices of side {}: about {} and {:.1} GiB",
+                est.guesses,
                 est.matrix_size,
                 crate::limits::human_seconds(seconds),
                 bytes / (1u64 << 30) as f64

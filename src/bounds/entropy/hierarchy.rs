@@ -324,6 +324,16 @@ pub fn estimate(
     options: &EntropyOptions,
 ) -> Result<EntropyEstimate> {
     target.check(s)?;
+    let (rule, level, matrix) = hierarchy_matrix(s, target, options)?;
+    Ok(estimate_of(&matrix, level, &rule, options.field))
+}
+
+/// The quadrature rule, the players' level and the moment matrix every node shares.
+fn hierarchy_matrix(
+    s: &Scenario,
+    target: &Target,
+    options: &EntropyOptions,
+) -> Result<(RadauRule, Level, EntropyMatrix)> {
     let rule = RadauRule::new(options.nodes)?;
     let level = match &options.level {
         Some(level) => level.clone(),
@@ -331,7 +341,7 @@ pub fn estimate(
     };
     let events = target.events(s).len();
     let matrix = EntropyMatrix::new(s, &level, events, options.adversary)?;
-    Ok(estimate_of(&matrix, level, &rule, options.field))
+    Ok((rule, level, matrix))
 }
 
 fn estimate_of(
@@ -695,13 +705,8 @@ pub fn conditional_entropy_reporting(
                 .into(),
         ));
     }
-    let rule = RadauRule::new(options.nodes)?;
-    let level = match &options.level {
-        Some(level) => level.clone(),
-        None => default_level(s, target, options.adversary)?,
-    };
+    let (rule, level, matrix) = hierarchy_matrix(s, target, options)?;
     let events = target.events(s).len();
-    let matrix = EntropyMatrix::new(s, &level, events, options.adversary)?;
     let cost = estimate_of(&matrix, level.clone(), &rule, options.field);
     if !options.limits.force && cost.seconds > npa::SECONDS_LIMIT {
         return Err(Error::TooLarge {
