@@ -570,7 +570,7 @@ fn automatic_backend_from(
 }
 
 /// Whether `auto` starts a full problem with the first-order method (when the interior-point
-/// method is expected to take at least [`RACE_FROM_SECONDS`] and longer than it), and if so the
+/// method is expected to take at least 0.3 s and longer than it), and if so the
 /// seconds after which the first-order run gives up if its forecast exceeds them. Reduced
 /// problems, and problems [`automatic_backend`] sends to the first-order method outright, are
 /// not raced.
