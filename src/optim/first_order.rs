@@ -787,8 +787,7 @@ pub fn solve(
 }
 /// The run's time to convergence, forecast from its own progress: how many orders of magnitude
 /// the worst of the relative residuals and gap still has to fall to reach the tolerance, over
-/// the rate at which their best value so far fell in the second half of the elapsed time (ADMM
-/// converges linearly in its late phase, so this rate is steady there).
+/// the rate at which their best value so far has fallen since the first iteration.
 #[derive(Debug, Default)]
 struct Forecast {
     /// (seconds, orders of magnitude above the tolerance, best so far), one per iteration.
@@ -820,8 +819,10 @@ impl Forecast {
             return false;
         }
         self.last_check = seconds;
-        let half = self.history.partition_point(|&(t, _)| t < seconds / 2.0);
-        let (t0, b0) = self.history[half.min(self.history.len() - 1)];
+        // The rate since the first iteration: plateaus that end in an abrupt drop (the
+        // acceleration finding the fixed point) are common, and a recent window would mistake
+        // them for a stall; the rate over the whole run only catches runs far off pace.
+        let (t0, b0) = self.history[0];
         let rate = (b0 - best) / (seconds - t0).max(f64::MIN_POSITIVE);
         let remaining = if rate > 0.0 {
             best / rate
