@@ -445,14 +445,20 @@ fn npa_observed(
         } else {
             String::new()
         };
+        let solver = if options.backend == Backend::Auto
+            && npa::first_order_race(relaxation).is_some()
+        {
+            "interior-point method's estimate; the first-order method goes first, expected to be faster, and gives way to it only if it falls far behind".to_string()
+        } else {
+            format!("{} solver", est.solver)
+        };
         observer.warn(&format!(
-            "{stage} ({}×{} matrix, {} moments) may take about {} and {:.1} GiB with the {} solver{planned}",
+            "{stage} ({}×{} matrix, {} moments) may take about {} and {:.1} GiB ({solver}){planned}",
             est.matrix_size,
             est.matrix_size,
             est.moments,
             human_seconds(est.seconds),
             est.memory_bytes / (1u64 << 30) as f64,
-            est.solver
         ));
     }
     let report = |r: &IterationReport| observer.solver_progress(&stage, r);
