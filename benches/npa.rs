@@ -54,38 +54,14 @@ fn options(run: &str, level: Level) -> NpaOptions {
     }
 }
 
+#[path = "../tests/common/random_game.rs"]
+mod random_game;
+use random_game::random_game_yaml as random_game_yaml_sized;
+
 /// A two-player game with 4 questions and 4 answers each and scores drawn uniformly from
 /// [0, 1) (three decimals) by a fixed xorshift sequence: no symmetry, 7,404 moments at `1+joint`.
 pub fn random_game_yaml() -> String {
     random_game_yaml_sized(4, 4, 2026)
-}
-
-/// A two-player game with `q` questions and `a` answers each, scores drawn uniformly from
-/// [0, 1) (three decimals) by a xorshift sequence from `seed`: no symmetry.
-pub fn random_game_yaml_sized(q: usize, a: usize, seed: u64) -> String {
-    let mut state: u64 = seed;
-    let mut next = || {
-        state ^= state << 13;
-        state ^= state >> 7;
-        state ^= state << 17;
-        (state >> 11) as f64 / (1u64 << 53) as f64
-    };
-    let mut yaml = format!(
-        "name: random-{q}x{a}\ndescription: seeded random game, {q} questions and {a} answers each\nplayers:\n  - {{name: alice, question: x, answer: a, questions: {q}, answers: {a}}}\n  - {{name: bob, question: y, answer: b, questions: {q}, answers: {a}}}\nbell:\n  terms:\n",
-    );
-    for x in 0..q {
-        for y in 0..q {
-            for i in 0..a {
-                for j in 0..a {
-                    let c = (next() * 1000.0).floor() / 1000.0;
-                    yaml += &format!(
-                        "    - {{coefficient: {c}, event: {{alice: \"{i}|{x}\", bob: \"{j}|{y}\"}}}}\n"
-                    );
-                }
-            }
-        }
-    }
-    yaml
 }
 
 fn cases() -> Vec<(String, GameSpec, &'static str)> {

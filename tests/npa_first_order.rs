@@ -174,31 +174,12 @@ fn auto_picks_the_first_order_method_only_for_what_the_interior_point_method_can
     assert!(est.first_order_memory_bytes < 8.0 * (est.moments as f64).powi(2) / 20.0);
 }
 
-/// A two-player game with `q` questions and `a` answers each and seeded scores in [0, 1) with
-/// three decimals (no symmetry), as in the benchmark set.
+#[path = "common/random_game.rs"]
+mod random_game;
+
+/// A random game of the benchmark set's kind (no symmetry), loaded.
 fn random_game(q: usize, a: usize, seed: u64) -> Game {
-    let mut state = seed.max(1);
-    let mut next = || {
-        state ^= state << 13;
-        state ^= state >> 7;
-        state ^= state << 17;
-        (state >> 11) as f64 / (1u64 << 53) as f64
-    };
-    let mut yaml = format!(
-        "name: random\nplayers:\n  - {{name: alice, question: x, answer: a, questions: {q}, answers: {a}}}\n  - {{name: bob, question: y, answer: b, questions: {q}, answers: {a}}}\nbell:\n  terms:\n"
-    );
-    for x in 0..q {
-        for y in 0..q {
-            for i in 0..a {
-                for j in 0..a {
-                    let c = (next() * 1000.0).floor() / 1000.0;
-                    yaml += &format!(
-                        "    - {{coefficient: {c}, event: {{alice: \"{i}|{x}\", bob: \"{j}|{y}\"}}}}\n"
-                    );
-                }
-            }
-        }
-    }
+    let yaml = random_game::random_game_yaml(q, a, seed);
     Game::from_yaml(&yaml, "random.yaml", CompileOptions::default()).unwrap()
 }
 

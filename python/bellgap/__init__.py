@@ -439,13 +439,19 @@ class Strategy:
         return f"Strategy(dims={self.dims})"
 
 
+def _from_numpy(value: Any) -> Any:
+    """NumPy scalars and arrays as Python numbers and lists; anything else as it is."""
+    if isinstance(value, np.ndarray):
+        return value.tolist()
+    if isinstance(value, np.generic):
+        return value.item()
+    return value
+
+
 def _plain(name: str, value: Any) -> Any:
     """A keyword argument as JSON-ready Python (NumPy scalars and arrays become numbers and
     lists); a non-finite number or an integer beyond 64 bits is a usage error naming it."""
-    if isinstance(value, np.ndarray):
-        value = value.tolist()
-    elif isinstance(value, np.generic):
-        value = value.item()
+    value = _from_numpy(value)
     if isinstance(value, bool) or value is None or isinstance(value, str):
         return value
     if isinstance(value, int):
@@ -685,11 +691,10 @@ def _document_json(document: dict) -> str:
     loader then checks every value as it checks a file's)."""
 
     def plain(value):
-        if isinstance(value, np.ndarray):
-            return value.tolist()
-        if isinstance(value, np.generic):
-            return value.item()
-        raise UsageError("usage", f"a {type(value).__name__} cannot appear in a file's dict")
+        converted = _from_numpy(value)
+        if converted is value:
+            raise UsageError("usage", f"a {type(value).__name__} cannot appear in a file's dict")
+        return converted
 
     return json.dumps(document, default=plain)
 

@@ -82,8 +82,8 @@ pub fn solve_sdp(problem: &SdpProblem, stage: &str) -> Result<SdpSolution> {
 }
 
 /// The equality rows to keep: a numerically independent subset spanning the others, from a
-/// QR factorisation of Eᵀ with column pivoting (Golub & Van Loan, Matrix Computations, 4th ed.
-/// 2013, §5.4.1), in their original order.
+/// QR factorisation of Eᵀ with column pivoting ([`super::pivoted_qr_rank`]), in their original
+/// order.
 fn independent_equalities(problem: &SdpProblem) -> Vec<usize> {
     let k = problem.equalities.len();
     let m = problem.variables;
@@ -101,11 +101,7 @@ fn independent_equalities(problem: &SdpProblem) -> Vec<usize> {
     let qr = et.col_piv_qr();
     let r = qr.thin_R();
     let (forward, _) = qr.P().arrays();
-    let size = r.nrows().min(r.ncols());
-    let largest = if size > 0 { r[(0, 0)].abs() } else { 0.0 };
-    let rank = (0..size)
-        .take_while(|&i| r[(i, i)].abs() > 1e-12 * largest * (m.max(k) as f64))
-        .count();
+    let rank = super::pivoted_qr_rank(r, m, k);
     let mut kept: Vec<usize> = forward[..rank].to_vec();
     kept.sort_unstable();
     kept

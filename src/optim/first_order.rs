@@ -785,13 +785,18 @@ pub fn solve(
         z,
     })
 }
+
 /// The run's time to convergence, forecast from its own progress: how many orders of magnitude
 /// the worst of the relative residuals and gap still has to fall to reach the tolerance, over
 /// the rate at which their best value so far has fallen since the first iteration.
 #[derive(Debug, Default)]
 struct Forecast {
-    /// (seconds, orders of magnitude above the tolerance, best so far), one per iteration.
-    history: Vec<(f64, f64)>,
+    /// (seconds, orders of magnitude above the tolerance) at the first iteration.
+    first: Option<(f64, f64)>,
+    /// The fewest orders of magnitude above the tolerance so far.
+    best: f64,
+    /// Iterations seen.
+    iterations: usize,
     /// When the forecast was last made.
     last_check: f64,
 }
@@ -810,11 +815,16 @@ impl Forecast {
             .max(last.gap)
             .max(tolerance);
         let orders = (worst / tolerance).log10();
-        let best = self.history.last().map_or(orders, |&(_, b)| b.min(orders));
-        self.history.push((seconds, best));
+        let (t0, b0) = *self.first.get_or_insert((seconds, orders));
+        self.best = if self.iterations == 0 {
+            orders
+        } else {
+            self.best.min(orders)
+        };
+        self.iterations += 1;
         if seconds < FORECAST_FIRST * allowed
             || seconds < self.last_check + FORECAST_EVERY * allowed
-            || self.history.len() < 50
+            || self.iterations < 50
         {
             return false;
         }
@@ -822,10 +832,9 @@ impl Forecast {
         // The rate since the first iteration: plateaus that end in an abrupt drop (the
         // acceleration finding the fixed point) are common, and a recent window would mistake
         // them for a stall; the rate over the whole run only catches runs far off pace.
-        let (t0, b0) = self.history[0];
-        let rate = (b0 - best) / (seconds - t0).max(f64::MIN_POSITIVE);
+        let rate = (b0 - self.best) / (seconds - t0).max(f64::MIN_POSITIVE);
         let remaining = if rate > 0.0 {
-            best / rate
+            self.best / rate
         } else {
             f64::INFINITY
         };

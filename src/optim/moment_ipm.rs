@@ -1102,11 +1102,7 @@ fn fill_equality_duals(problem: &SdpProblem, asm: &Assembled, z: &mut [f64]) {
     let r = qr.thin_R();
     let q = qr.compute_thin_Q();
     let (forward, _) = qr.P().arrays();
-    let size = r.nrows().min(r.ncols());
-    let largest = if size > 0 { r[(0, 0)].abs() } else { 0.0 };
-    let rank = (0..size)
-        .take_while(|&i| r[(i, i)].abs() > 1e-12 * largest * (n.max(ne) as f64))
-        .count();
+    let rank = super::pivoted_qr_rank(r, n, ne);
     let mut nu = vec![0.0; ne];
     for _pass in 0..2 {
         // What is left of the target, then the correction from the independent columns.

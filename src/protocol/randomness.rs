@@ -190,35 +190,8 @@ pub fn guessing_probability(
         values.iter().any(|v| v.is_finite())
     });
     // Otherwise the best μ is found by a golden-section search on log μ.
-    let (mut a, mut b) = if settled {
-        (0.0, 0.0)
-    } else {
-        (-2.0f64, 5.0f64)
-    };
-    let phi = (5f64.sqrt() - 1.0) / 2.0;
-    let (mut c, mut d) = (b - phi * (b - a), a + phi * (b - a));
-    let (mut fc, mut fd) = if settled {
-        (0.0, 0.0)
-    } else {
-        (evaluate(c), evaluate(d))
-    };
-    for _ in 0..if settled { 0 } else { 30 } {
-        if fc <= fd {
-            b = d;
-            d = c;
-            fd = fc;
-            c = b - phi * (b - a);
-            fc = evaluate(c);
-        } else {
-            a = c;
-            c = d;
-            fc = fd;
-            d = a + phi * (b - a);
-            fd = evaluate(d);
-        }
-        if (b - a).abs() < 0.01 {
-            break;
-        }
+    if !settled {
+        golden_section(&mut evaluate, -2.0, 5.0);
     }
     if let Some(r) = best {
         return Ok(r);
@@ -235,6 +208,33 @@ pub fn guessing_probability(
         }
     }
     Err(last.expect("at least one attempt"))
+}
+
+/// Evaluates `f` along a golden-section search for its minimum on [lo, hi] (to a width of 0.01,
+/// at most 32 evaluations); the caller keeps what it needs from the evaluations.
+fn golden_section(f: &mut impl FnMut(f64) -> f64, lo: f64, hi: f64) {
+    let (mut a, mut b) = (lo, hi);
+    let phi = (5f64.sqrt() - 1.0) / 2.0;
+    let (mut c, mut d) = (b - phi * (b - a), a + phi * (b - a));
+    let (mut fc, mut fd) = (f(c), f(d));
+    for _ in 0..30 {
+        if fc <= fd {
+            b = d;
+            d = c;
+            fd = fc;
+            c = b - phi * (b - a);
+            fc = f(c);
+        } else {
+            a = c;
+            c = d;
+            fc = fd;
+            d = a + phi * (b - a);
+            fd = f(d);
+        }
+        if (b - a).abs() < 0.01 {
+            break;
+        }
+    }
 }
 
 /// How the score enters the SDP.
