@@ -632,7 +632,7 @@ def entropy(game: GameLike, score=None, scores=None, player=None, question=None,
             adversary_words=None, moments=None, solver=None, error_rate=None,
             noisy_preprocessing=None, behaviour=None, strategy: Optional[Strategy] = None,
             key_with=None, key_question=None, counts=None, alpha=None,
-            force: bool = False) -> Result:
+            symmetry: str = "auto", force: bool = False) -> Result:
     """A verified lower bound on H(A|X=x, E) by the Gauss–Radau hierarchy (``bellgap entropy``).
 
     Given ``score`` (or ``scores``), the bound holds for every quantum behaviour scoring at least
@@ -642,13 +642,15 @@ def entropy(game: GameLike, score=None, scores=None, player=None, question=None,
     ``key_with`` (the other player of the key pair, and ``key_question``, from the behaviour).
     ``noisy_preprocessing`` is the probability with which the key player changes its answer
     first. Given ``counts`` (a counts file's path, its YAML text or a dict), for every quantum
-    behaviour in their confidence region of error ``alpha`` (default 1e-6)."""
+    behaviour in their confidence region of error ``alpha`` (default 1e-6). ``symmetry="off"``
+    solves the relaxations in full (by default a score's are reduced by the game's relabellings
+    that keep the key player and question; the bound is checked on the full relaxations)."""
     kwargs = dict(
         score=score, scores=scores, player=player, question=question,
         with_player=with_player, with_question=with_question, nodes=nodes, level=level,
         adversary_words=adversary_words, moments=moments, solver=solver, error_rate=error_rate,
         noisy_preprocessing=noisy_preprocessing, key_with=key_with, key_question=key_question,
-        force=force,
+        entropy_symmetry=symmetry, force=force,
     )
     if behaviour is not None:
         kwargs["behaviour_text"], kwargs["behaviour_name"] = _text_and_name(behaviour)

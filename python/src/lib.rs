@@ -612,6 +612,8 @@ struct FigureArgs {
     #[serde(default)]
     adversary_words: Option<String>,
     #[serde(default)]
+    entropy_symmetry: Option<String>,
+    #[serde(default)]
     moments: Option<String>,
     #[serde(default)]
     solver: Option<String>,
@@ -712,6 +714,9 @@ fn hierarchy(a: &FigureArgs) -> PyResult<EntropyOptions> {
         };
     }
     o.preprocessing = Preprocessing::noisy_if(a.noisy_preprocessing);
+    if let Some(name) = &a.entropy_symmetry {
+        o.symmetry = symmetry(name)?;
+    }
     o.limits = limits(a.force);
     Ok(o)
 }

@@ -139,6 +139,21 @@ def test_entropy_and_finite_size_equal_the_command_line():
     )
     assert_same(without_timing(a.to_dict()), without_timing(b))
     assert a.results[0]["entropy"]["preprocessing"] == {"kind": "noisy", "probability": 0.1}
+    # The symmetry reduction, and without it: the same bound to the solvers' accuracy.
+    assert a.results[0]["entropy"]["symmetry"]["moments"] < a.results[0]["entropy"]["symmetry"]["full_moments"]
+    full = bellgap.entropy(
+        os.path.join(ROOT, expr), score=2.5, nodes=4, adversary_words="with-projectors",
+        error_rate=0.03, noisy_preprocessing=0.1, symmetry="off",
+    )
+    b = cli_json(
+        "entropy", expr, "--score", "2.5", "--nodes", "4", "--adversary-words", "with-projectors",
+        "--error-rate", "0.03", "--noisy-preprocessing", "0.1", "--symmetry", "off",
+    )
+    assert_same(without_timing(full.to_dict()), without_timing(b))
+    assert "symmetry" not in full.results[0]["entropy"]
+    assert abs(full.results[0]["entropy"]["bits"] - a.results[0]["entropy"]["bits"]) < 2e-6
+    with pytest.raises(bellgap.UsageError):
+        bellgap.entropy(os.path.join(ROOT, expr), score=2.5, nodes=4, symmetry="sideways")
     with pytest.raises(bellgap.UsageError):
         bellgap.key(2.7, 0.02, noisy_preprocessing=0.7)
     chsh = os.path.join("games", "chsh.yaml")

@@ -525,6 +525,12 @@ pub struct HierarchyArgs {
     /// term are both of the changed answer.
     #[arg(long, value_name = "PROBABILITY", value_parser = parse_finite)]
     pub noisy_preprocessing: Option<f64>,
+    /// Reduce the relaxations by the game's relabellings that keep the key player, its
+    /// question and the key's answers' roles (`auto`, with a score; a behaviour or counts are
+    /// solved in full), or never (`off`). The bound is checked on the full relaxations either
+    /// way.
+    #[arg(long, value_enum, default_value = "auto")]
+    pub symmetry: SymmetryArg,
 }
 
 /// Whose answers (`randomness`, `entropy`, `finite-size`): one player's, or a pair's.

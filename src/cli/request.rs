@@ -750,6 +750,7 @@ fn hierarchy_options(h: &HierarchyArgs, force: bool) -> Result<EntropyOptions> {
             EntropySolverArg::Clarabel => Backend::Clarabel,
         },
         preprocessing: Preprocessing::noisy_if(h.noisy_preprocessing),
+        symmetry: symmetry(h.symmetry),
         limits: limits(force),
     })
 }

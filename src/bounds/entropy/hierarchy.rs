@@ -57,8 +57,10 @@ use super::relaxation::{
     node_problem, players_only, with_letters, AdversaryWords, EntropyMatrix, EntropyWord,
     EveLetter, MomentField, MomentTerms,
 };
+use super::symmetry::EntropyReduction;
 use crate::bounds::quantum::membership;
 use crate::bounds::quantum::npa::{self, Level};
+use crate::bounds::quantum::symmetric::SymmetryChoice;
 use crate::bounds::quantum::words::{Projector, Word};
 use crate::error::{Error, Result};
 use crate::limits::Limits;
@@ -282,8 +284,24 @@ pub struct EntropyOptions {
     pub backend: Backend,
     /// What the key player does to its answer first (one player's answer only).
     pub preprocessing: Preprocessing,
+    /// Whether the relaxations are reduced by the game's relabellings that keep the target in
+    /// place (real moment matrices and a score constraint only: a behaviour or region is in
+    /// general not invariant).
+    pub symmetry: SymmetryChoice,
     /// Work limits: a hierarchy estimated above an hour is refused unless forced.
     pub limits: Limits,
+}
+
+/// How the relaxations were reduced by symmetry.
+#[derive(Debug, Clone, Serialize)]
+pub struct EntropySymmetry {
+    /// Relabellings averaged over: those keeping the target's players and questions in place
+    /// (the identity included).
+    pub order: usize,
+    /// Moments of each full relaxation.
+    pub full_moments: usize,
+    /// Variables after merging orbits.
+    pub moments: usize,
 }
 
 /// What one hierarchy (one score or behaviour) is expected to cost.
@@ -295,6 +313,8 @@ pub struct EntropyEstimate {
     pub matrix_size: usize,
     /// Distinct moments of each.
     pub moments: usize,
+    /// Variables of each after the symmetry reduction (the moments when not reduced).
+    pub variables: usize,
     /// Relaxations solved (one per node but the last).
     pub relaxations: usize,
     /// Estimated seconds for all of them (the interior-point estimate of one relaxation, times
@@ -306,18 +326,24 @@ impl EntropyEstimate {
     /// The estimate in words, for warnings and refusals.
     pub fn describe(&self) -> String {
         format!(
-            "{} relaxations at level {} ({}×{} moment matrix, {} moments): about {} per score",
+            "{} relaxations at level {} ({}×{} moment matrix, {} moments{}): about {} per score",
             self.relaxations,
             self.level.name(),
             self.matrix_size,
             self.matrix_size,
             self.moments,
+            if self.variables < self.moments {
+                format!(", {} after symmetry", self.variables)
+            } else {
+                String::new()
+            },
             crate::limits::human_seconds(self.seconds)
         )
     }
 }
 
-/// The cost of one hierarchy, from its moment matrix (built, not solved).
+/// The cost of one hierarchy with a score constraint, from its moment matrix (built, not
+/// solved) and its symmetry reduction.
 pub fn estimate(
     s: &Scenario,
     target: &Target,
@@ -325,7 +351,30 @@ pub fn estimate(
 ) -> Result<EntropyEstimate> {
     target.check(s)?;
     let (rule, level, matrix) = hierarchy_matrix(s, target, options)?;
-    Ok(estimate_of(&matrix, level, &rule, options.field))
+    let reduction = reduction_of(s, target, &matrix, options, true);
+    Ok(estimate_of(
+        &matrix,
+        level,
+        &rule,
+        options.field,
+        reduction.as_ref(),
+    ))
+}
+
+/// The symmetry reduction the options and the constraint allow (a score constraint, real
+/// moment matrices), if the game has one that keeps the target.
+fn reduction_of(
+    s: &Scenario,
+    target: &Target,
+    matrix: &EntropyMatrix,
+    options: &EntropyOptions,
+    score_constraint: bool,
+) -> Option<EntropyReduction> {
+    (score_constraint
+        && options.symmetry == SymmetryChoice::Auto
+        && options.field == MomentField::Real)
+        .then(|| EntropyReduction::new(s, target, matrix))
+        .flatten()
 }
 
 /// The quadrature rule, the players' level and the moment matrix every node shares.
@@ -349,11 +398,13 @@ fn estimate_of(
     level: Level,
     rule: &RadauRule,
     field: MomentField,
+    reduction: Option<&EntropyReduction>,
 ) -> EntropyEstimate {
     // Complex moments have a real and an imaginary part each, and the Hermitian matrix is
     // solved as a real one of twice the side.
+    let variables = reduction.map_or(matrix.moments.len(), |r| r.moments);
     let (m, n) = match field {
-        MomentField::Real => (matrix.moments.len() as f64, matrix.size() as f64),
+        MomentField::Real => (variables as f64, matrix.size() as f64),
         MomentField::Complex => (
             2.0 * matrix.moments.len() as f64,
             2.0 * matrix.size() as f64,
@@ -364,6 +415,7 @@ fn estimate_of(
         level,
         matrix_size: matrix.size(),
         moments: matrix.moments.len(),
+        variables,
         relaxations,
         seconds: relaxations as f64 * npa::ipm_seconds_estimate(m, n),
     }
@@ -383,6 +435,7 @@ impl Default for EntropyOptions {
             field: MomentField::default(),
             backend: Backend::Auto,
             preprocessing: Preprocessing::None,
+            symmetry: SymmetryChoice::Auto,
             limits: Limits::default(),
         }
     }
@@ -463,6 +516,9 @@ pub struct ConditionalEntropy {
     pub matrix_size: usize,
     /// What the key player did to its answer before the entropy was counted.
     pub preprocessing: Preprocessing,
+    /// How the relaxations were reduced by symmetry (none when not).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub symmetry: Option<EntropySymmetry>,
     /// Per node (t_i < 1).
     pub terms: Vec<NodeBound>,
     /// With a score constraint: the affine lower bound on H as a function of the score that the
@@ -635,6 +691,12 @@ const PARALLEL_NODES_BYTES: f64 = 4.0 * (1u64 << 30) as f64;
 /// w/(t ln 2) is the largest, 3.7).
 const NODE_LOSS_KEPT: f64 = 1e-5;
 
+/// The interior-point method's target accuracy on a node (relative gap and residuals). The
+/// nodes' iterations typically stall between 2e-8 and 5e-8 and spent five more iterations (a
+/// quarter of the run) before giving up on 1e-9; each node's loss from stopping at this
+/// accuracy is below 1e-7 times its factor w/(t ln 2), under 1e-6 bits in all.
+const NODE_TOLERANCE: f64 = 5e-8;
+
 /// Most estimated seconds ([`backend::clarabel_cost`]) for which clarabel is tried on a node.
 const CLARABEL_SECONDS: f64 = 5.0;
 
@@ -649,6 +711,7 @@ fn solve_node(problem: &SdpProblem, solver: Backend, stage: &str) -> Result<SdpS
     }
     let options = IpmOptions {
         on_stall: StallPolicy::KeepBest,
+        tolerance: NODE_TOLERANCE,
         ..Default::default()
     };
     let ipm = moment_ipm::solve(problem, stage, options);
@@ -707,7 +770,20 @@ pub fn conditional_entropy_reporting(
     }
     let (rule, level, matrix) = hierarchy_matrix(s, target, options)?;
     let events = target.events(s).len();
-    let cost = estimate_of(&matrix, level.clone(), &rule, options.field);
+    let reduction = reduction_of(
+        s,
+        target,
+        &matrix,
+        options,
+        matches!(constraint, EntropyConstraint::Score(_)),
+    );
+    let cost = estimate_of(
+        &matrix,
+        level.clone(),
+        &rule,
+        options.field,
+        reduction.as_ref(),
+    );
     if !options.limits.force && cost.seconds > npa::SECONDS_LIMIT {
         return Err(Error::TooLarge {
             what: "the entropy hierarchy".into(),
@@ -770,17 +846,35 @@ pub fn conditional_entropy_reporting(
             alpha,
         )?;
         let stage = format!("entropy relaxation at t = {t:.4}");
-        let sol = solve_node(&node.problem, options.backend, &stage).map_err(|e| {
-            match (e, constraint) {
-                (
-                    Error::Solver {
-                        status: Some(SolveStatus::Infeasible),
-                        ..
-                    },
-                    EntropyConstraint::Region(_),
-                ) => outside_quantum_set(&level, 0.0),
-                (other, _) => other,
+        let solved_node = match &reduction {
+            None => solve_node(&node.problem, options.backend, &stage),
+            Some(red) => {
+                let reduced = solve_node(&red.reduce(&node.problem), options.backend, &stage)
+                    .and_then(|reduced| red.lift(&node.problem, reduced));
+                // The smallest-t nodes are badly conditioned, and the reduced problem may
+                // stall further from its optimum than the full one (CGLMP-3 at 2.8: 1.7e-5
+                // at t = 0.0056, 6e-5 bits in all): a stalled reduced node is solved in full
+                // too, and the better verified bound kept (both are valid).
+                match reduced {
+                    Ok(sol) if sol.status == SolveStatus::Stalled => {
+                        match solve_node(&node.problem, options.backend, &stage) {
+                            Ok(full) if full.certified < sol.certified => Ok(full),
+                            _ => Ok(sol),
+                        }
+                    }
+                    other => other,
+                }
             }
+        };
+        let sol = solved_node.map_err(|e| match (e, constraint) {
+            (
+                Error::Solver {
+                    status: Some(SolveStatus::Infeasible),
+                    ..
+                },
+                EntropyConstraint::Region(_),
+            ) => outside_quantum_set(&level, 0.0),
+            (other, _) => other,
         })?;
         // The same dual vector's verified bound with the score constraint moved to each end of
         // the range (see [`MinTradeoff`]).
@@ -909,6 +1003,11 @@ pub fn conditional_entropy_reporting(
         field: options.field,
         matrix_size: matrix.size(),
         preprocessing: options.preprocessing,
+        symmetry: reduction.as_ref().map(|r| EntropySymmetry {
+            order: r.order,
+            full_moments: matrix.moments.len(),
+            moments: r.moments,
+        }),
         terms,
         min_tradeoff,
         seconds: start.elapsed().as_secs_f64(),

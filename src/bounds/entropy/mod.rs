@@ -8,10 +8,11 @@
 pub mod hierarchy;
 pub mod quadrature;
 pub mod relaxation;
+pub mod symmetry;
 
 pub use hierarchy::{
     conditional_entropy, conditional_entropy_reporting, default_level, event_terms,
-    ConditionalEntropy, EntropyConstraint, EntropyOptions, MinTradeoff, NodeBound, Preprocessing,
-    Target,
+    ConditionalEntropy, EntropyConstraint, EntropyOptions, EntropySymmetry, MinTradeoff, NodeBound,
+    Preprocessing, Target,
 };
 pub use relaxation::{AdversaryWords, MomentField};

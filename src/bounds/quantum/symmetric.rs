@@ -115,7 +115,7 @@ enum PrimalLift {
 }
 
 /// The image of one projector (its outcome may be the last).
-fn image(g: &Relabelling, p: Projector) -> Projector {
+pub(crate) fn image(g: &Relabelling, p: Projector) -> Projector {
     let (i, x) = (p.player as usize, p.setting as usize);
     Projector {
         player: g.players[i] as u16,
@@ -132,7 +132,7 @@ fn full_image(g: &Relabelling, w: &[Projector]) -> Word {
 
 /// `g(w)` in Collins–Gisin words: each projector sent to a last answer becomes `1 − Σ others`.
 /// `None` when the expansion is too large.
-fn expand(g: &Relabelling, w: &[Projector], last: &[u32]) -> Option<Vec<(Word, f64)>> {
+pub(crate) fn expand(g: &Relabelling, w: &[Projector], last: &[u32]) -> Option<Vec<(Word, f64)>> {
     let mut terms: Vec<(Vec<Projector>, f64)> = vec![(Vec::new(), 1.0)];
     for &p in w {
         let q = image(g, p);
@@ -167,7 +167,7 @@ fn expand(g: &Relabelling, w: &[Projector], last: &[u32]) -> Option<Vec<(Word, f
 }
 
 /// A group element's action on the generating words: per word u, `g(u) = Σ ρ_uv v` as `(v, ρ_uv)`.
-type Action = Vec<Vec<(u32, f64)>>;
+pub(crate) type Action = Vec<Vec<(u32, f64)>>;
 
 /// The action of every element ([`action`]), or `None` when one leaves the span or the whole
 /// table would exceed [`MAX_ACTION_TERMS`] (a smaller subgroup would have been needed, which is
@@ -229,7 +229,11 @@ fn action(
 }
 
 /// All products of `generators`, or `None` when there are more than `cap`.
-fn closure(s: &Scenario, generators: &[Relabelling], cap: usize) -> Option<Vec<Relabelling>> {
+pub(crate) fn closure(
+    s: &Scenario,
+    generators: &[Relabelling],
+    cap: usize,
+) -> Option<Vec<Relabelling>> {
     let identity = Relabelling::identity(s);
     let mut seen: HashSet<Relabelling> = HashSet::from([identity.clone()]);
     let mut elements = vec![identity];
@@ -251,7 +255,7 @@ fn closure(s: &Scenario, generators: &[Relabelling], cap: usize) -> Option<Vec<R
 }
 
 /// Union–find root with path halving.
-fn root(parent: &mut [usize], mut x: usize) -> usize {
+pub(crate) fn root(parent: &mut [usize], mut x: usize) -> usize {
     while parent[x] != x {
         parent[x] = parent[parent[x]];
         x = parent[x];
@@ -764,7 +768,7 @@ fn block_problem(
 }
 
 /// The problem with variable `m` replaced by variable `classes[m]`.
-fn merge(problem: &SdpProblem, classes: &[usize], reduced: usize) -> SdpProblem {
+pub(crate) fn merge(problem: &SdpProblem, classes: &[usize], reduced: usize) -> SdpProblem {
     let remap = |terms: &[(usize, f64)]| -> Vec<(usize, f64)> {
         let mut out: Vec<(usize, f64)> = Vec::with_capacity(terms.len());
         for &(v, c) in terms {
@@ -837,6 +841,68 @@ fn assembly_flops(problem: &SdpProblem) -> f64 {
     flops
 }
 
+/// `|G|⁻¹ Σ_g ρ_gᵀ Z ρ_g` for the n×n matrix `zm` (column-major) and the group's actions on
+/// the generating words, as the packed upper triangle of a dual vector (off-diagonal entries
+/// times √2, the layout of [`SdpProblem::assemble`]). Congruence keeps it positive
+/// semidefinite, and it is invariant, so the merged constraints' residuals become the full
+/// ones'.
+pub(crate) fn averaged_matrix(actions: &[Action], zm: &[f64], n: usize) -> Vec<f64> {
+    let sqrt2 = std::f64::consts::SQRT_2;
+    // ρᵀ Z ρ for one element: W = Z ρ column by column, then (Wᵀ ρ) = (ρᵀ Z ρ)ᵀ.
+    let congruence = |rho: &Vec<Vec<(u32, f64)>>, acc: &mut Vec<f64>| {
+        let mut w = vec![0.0; n * n];
+        for (l, row) in rho.iter().enumerate() {
+            for &(j, c) in row {
+                let (dst, src) = (j as usize * n, l * n);
+                for r in 0..n {
+                    w[dst + r] += c * zm[src + r];
+                }
+            }
+        }
+        let mut wt = vec![0.0; n * n];
+        for c in 0..n {
+            for r in 0..n {
+                wt[r * n + c] = w[c * n + r];
+            }
+        }
+        for (l, row) in rho.iter().enumerate() {
+            for &(j, c) in row {
+                let (dst, src) = (j as usize * n, l * n);
+                for r in 0..n {
+                    acc[dst + r] += c * wt[src + r];
+                }
+            }
+        }
+    };
+    let sum = actions
+        .par_iter()
+        .fold(
+            || vec![0.0; n * n],
+            |mut acc, rho| {
+                congruence(rho, &mut acc);
+                acc
+            },
+        )
+        .reduce(
+            || vec![0.0; n * n],
+            |mut a, b| {
+                for (x, y) in a.iter_mut().zip(b) {
+                    *x += y;
+                }
+                a
+            },
+        );
+    let scale = 1.0 / actions.len() as f64;
+    let mut out = vec![0.0; n * (n + 1) / 2];
+    for col in 0..n {
+        for row in 0..=col {
+            let v = 0.5 * (sum[col * n + row] + sum[row * n + col]) * scale;
+            out[upper_index(row, col)] = if row == col { v } else { v * sqrt2 };
+        }
+    }
+    out
+}
+
 impl Reduction {
     /// The full moment vector of a reduced one.
     pub fn lift_primal(&self, y: &[f64]) -> Vec<f64> {
@@ -876,69 +942,13 @@ impl Reduction {
                 full
             }
         };
-        // Column-major, as the averaging below reads it.
-        let zm: Vec<f64> = full.as_slice().to_vec();
-        // ρᵀ Z ρ for one element: W = Z ρ column by column, then (Wᵀ ρ) = (ρᵀ Z ρ)ᵀ.
-        let congruence = |rho: &Vec<Vec<(u32, f64)>>, acc: &mut Vec<f64>| {
-            let mut w = vec![0.0; n * n];
-            for (l, row) in rho.iter().enumerate() {
-                for &(j, c) in row {
-                    let (dst, src) = (j as usize * n, l * n);
-                    for r in 0..n {
-                        w[dst + r] += c * zm[src + r];
-                    }
-                }
-            }
-            let mut wt = vec![0.0; n * n];
-            for c in 0..n {
-                for r in 0..n {
-                    wt[r * n + c] = w[c * n + r];
-                }
-            }
-            for (l, row) in rho.iter().enumerate() {
-                for &(j, c) in row {
-                    let (dst, src) = (j as usize * n, l * n);
-                    for r in 0..n {
-                        acc[dst + r] += c * wt[src + r];
-                    }
-                }
-            }
-        };
-        let sum = self
-            .actions
-            .par_iter()
-            .fold(
-                || vec![0.0; n * n],
-                |mut acc, rho| {
-                    congruence(rho, &mut acc);
-                    acc
-                },
-            )
-            .reduce(
-                || vec![0.0; n * n],
-                |mut a, b| {
-                    for (x, y) in a.iter_mut().zip(b) {
-                        *x += y;
-                    }
-                    a
-                },
-            );
         // The full problem's dual vector: its equality and inequality rows (the same as the
         // reduced problem's before the split, none for NPA) carried over, then the matrix.
-        let scale = 1.0 / self.actions.len() as f64;
-        let head = match &self.bases {
+        let mut out = match &self.bases {
             None => z[..self.problem.equalities.len() + self.problem.inequalities.len()].to_vec(),
             Some(_) => Vec::new(),
         };
-        let mut out = head;
-        let start = out.len();
-        out.resize(start + n * (n + 1) / 2, 0.0);
-        for col in 0..n {
-            for row in 0..=col {
-                let v = 0.5 * (sum[col * n + row] + sum[row * n + col]) * scale;
-                out[start + upper_index(row, col)] = if row == col { v } else { v * sqrt2 };
-            }
-        }
+        out.extend(averaged_matrix(&self.actions, full.as_slice(), n));
         out
     }
 }
