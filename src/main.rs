@@ -1,5 +1,6 @@
 //! The `bellgap` binary: parse the command line, run, print, and turn every error into one
-//! message and an exit code (0 success, 2 bad input or usage, 1 solver or internal failure).
+//! message and an exit code (0 success, 2 bad input or usage, 1 solver or internal failure,
+//! 3 a sweep whose records were all written but some of whose lines failed).
 //! With `--json`, stdout carries exactly one JSON object in every case, errors included.
 
 mod cli;
@@ -84,7 +85,18 @@ fn main() -> ExitCode {
             } else {
                 for_terminal(&out.text)
             };
-            write_stdout(&text)
+            let code = write_stdout(&text);
+            // A batch scheduler must see a sweep with failed lines as not successful, though
+            // every record (the failures' error objects included) was written.
+            let failed = out.json.get("failed").and_then(|v| v.as_u64()).unwrap_or(0);
+            if cli.is_sweep() && failed > 0 {
+                eprintln!(
+                    "error: {failed} line{} of the list failed (their error objects are among the records); exit code 3",
+                    if failed == 1 { "" } else { "s" }
+                );
+                return ExitCode::from(3);
+            }
+            code
         }
         Err(e) => {
             let message = cut(&e.to_string());

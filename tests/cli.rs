@@ -919,12 +919,15 @@ fn a_sharded_sweep_merges_into_the_whole() {
     let dir = list.parent().unwrap().to_path_buf();
     let list = list.to_str().unwrap().to_string();
     let whole = dir.join("whole.jsonl");
-    let out = bellgap(&["sweep", &list, "-o", whole.to_str().unwrap()]);
-    assert!(
-        out.status.success(),
+    // One line fails: every record is written, and the exit code (3) tells a batch scheduler.
+    let out = bellgap(&["sweep", &list, "-o", whole.to_str().unwrap(), "--quiet"]);
+    assert_eq!(
+        out.status.code(),
+        Some(3),
         "{}",
         String::from_utf8_lossy(&out.stderr)
     );
+    assert!(String::from_utf8_lossy(&out.stderr).contains("1 line of the list failed"));
     let mut shards = Vec::new();
     for i in 1..=3 {
         let file = dir.join(format!("shard-{i}.jsonl"));
@@ -937,16 +940,22 @@ fn a_sharded_sweep_merges_into_the_whole() {
             "-o",
             file.to_str().unwrap(),
         ]);
-        assert!(out.status.success());
+        // Tasks 1 and 4, task 2, task 3 (the bad one): shards count from 1 like tasks.
+        assert_eq!(
+            out.status.code(),
+            Some(if i == 3 { 3 } else { 0 }),
+            "shard {i}"
+        );
         shards.push(file.to_str().unwrap().to_string());
     }
     let merged = dir.join("merged.jsonl");
     let mut args = vec!["sweep-merge"];
     args.extend(shards.iter().map(String::as_str));
-    args.extend(["-o", merged.to_str().unwrap()]);
+    args.extend(["-o", merged.to_str().unwrap(), "-q"]);
     let out = bellgap(&args);
-    assert!(
-        out.status.success(),
+    assert_eq!(
+        out.status.code(),
+        Some(3),
         "{}",
         String::from_utf8_lossy(&out.stderr)
     );
@@ -961,7 +970,7 @@ fn a_sharded_sweep_merges_into_the_whole() {
     assert_eq!(whole.len(), 4);
     assert_eq!(merged.len(), 4);
     for (a, b) in whole.iter().zip(&merged) {
-        assert_eq!(a["index"], b["index"]);
+        assert_eq!(a["task"], b["task"]);
         assert_eq!(a["line"], b["line"]);
         assert_eq!(a["error"], b["error"]);
         assert_eq!(a["result"]["classical"], b["result"]["classical"]);
@@ -972,6 +981,7 @@ fn a_sharded_sweep_merges_into_the_whole() {
     assert_eq!(merged[1]["result"]["no_signalling"].as_f64().unwrap(), 1.0);
     assert_eq!(merged[2]["error"]["kind"], "usage");
     assert_eq!(merged[2]["list_line"], 5);
+    assert_eq!(merged[2]["task"], 3);
     let alone = json_of(&bellgap(&["classical", "games/odd-cycle-3.yaml", "--json"]));
     assert_eq!(merged[3]["result"]["classical"], alone["classical"]);
     // A missing shard or a shard given twice is an error (exit 2).

@@ -28,7 +28,7 @@ const SYMMETRY_HELP: &str = "Reduce the NPA relaxation by the game's symmetries.
 
 const SOLVER_HELP: &str = "SDP solver of the NPA bound.
 
-`auto` (default) picks by the size of the work: the moment-matrix interior-point method (`ipm`) for large moment matrices, clarabel for small ones, and falls back to the other if the first fails (clarabel only when it fits in memory and time); the first-order method when the interior-point method would need more than 4 GiB, or over two minutes and eight times the first-order estimate.
+`auto` (default) picks from cost estimates: the moment-matrix interior-point method (`ipm`) for large moment matrices, clarabel for small ones, falling back to the other if the first fails (clarabel only when it fits in memory and time); the first-order method when the interior-point method would need more than 4 GiB, or over two minutes and eight times the first-order estimate. On a full (unreduced) relaxation that the first-order method is expected to finish sooner, it goes first and hands over to the interior-point method when its own convergence forecast exceeds twice the interior-point estimate.
 
 `ipm`: our interior-point method on the moment matrix's Schur complement, usually 30–460 times faster than clarabel on NPA problems, but its memory grows as the square of the number of moments. `clarabel`: a general conic solver, accurate but slow and memory-hungry on large matrices. `first-order`: an accelerated ADMM on the moment matrix (one eigendecomposition per iteration, memory proportional to the matrix), for relaxations the others cannot hold; it converges fast on well-posed problems and slowly on degenerate ones, shows its progress, and stops at --budget if given.
 
@@ -54,11 +54,17 @@ For a game with a win predicate this is the winning probability (e.g. 0.85 for C
 
 The adversary's guessing probability is bounded over every quantum behaviour reaching at least this score. A score above the NPA bound is refused (no quantum device reaches it); a score at or below the classical value certifies nothing (min-entropy 0).";
 
+const ENTROPY_SCORE_HELP: &str = "The observed score, in the game's own units.
+
+For a game with a win predicate this is the winning probability (e.g. 0.85 for CHSH); for a Bell expression it is the expression's value (e.g. 2.7 for the CHSH expression in correlators, whose classical bound is 2).
+
+The conditional von Neumann entropy H(A|X=x, E) is bounded below over every quantum behaviour reaching at least this score. A score above the NPA bound is refused (no quantum device reaches it); a score at or below the classical value certifies nothing (a bound of 0 bits).";
+
 #[derive(Parser, Debug)]
 #[command(
     name = "bellgap",
     version,
-    about = "Bounds for nonlocal games and Bell expressions: classical, no-signalling, and the gaps between them",
+    about = "Bounds for nonlocal games and Bell expressions: classical, quantum (explicit strategies and verified NPA upper bounds) and no-signalling values, the gaps between them, and what an observed run certifies",
     long_about = None
 )]
 pub struct Cli {
@@ -122,8 +128,8 @@ pub enum Command {
         /// Plot the verified bound against the level (SVG), when comparing levels.
         #[arg(long, value_name = "FILE")]
         svg: Option<PathBuf>,
-        /// SDP solver: the moment-matrix interior-point method (`ipm`), `clarabel`, or `auto`
-        /// (ipm, falling back to clarabel).
+        /// SDP solver: our interior-point method (`ipm`), `clarabel`, our first-order method
+        /// (`first-order`), or `auto` (chosen from cost estimates, with fallbacks).
         #[arg(long, value_enum, default_value_t = SolverArg::Auto, long_help = SOLVER_HELP)]
         solver: SolverArg,
         /// Reduce the relaxation by the game's symmetries (`auto`) or solve it in full (`off`).
@@ -230,7 +236,7 @@ pub enum Command {
         args: GameArgs,
         /// The score (in the game's own units): the bound holds for every quantum behaviour
         /// scoring at least this.
-        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite, conflicts_with_all = ["sweep", "behaviour", "strategy"], long_help = SCORE_HELP)]
+        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite, conflicts_with_all = ["sweep", "behaviour", "strategy"], long_help = ENTROPY_SCORE_HELP)]
         score: Option<f64>,
         /// Sweep the score: LOW:HIGH:POINTS.
         #[arg(long, conflicts_with_all = ["behaviour", "strategy"])]
@@ -373,6 +379,9 @@ pub enum Command {
         /// Print exactly one JSON object on stdout instead of the report.
         #[arg(long)]
         json: bool,
+        /// No progress output on stderr.
+        #[arg(long, short)]
+        quiet: bool,
     },
     /// Re-check an NPA dual certificate without any solver and print the bound it proves.
     Verify {
@@ -398,6 +407,9 @@ pub enum Command {
         /// Print exactly one JSON object on stdout.
         #[arg(long)]
         json: bool,
+        /// No progress output on stderr.
+        #[arg(long, short)]
+        quiet: bool,
     },
     /// Run a list of commands, one per line of a file (e.g. `npa games/chsh.yaml --level 2`,
     /// without `bellgap`), and write each one's JSON result as a line of JSON Lines; a failing
@@ -418,6 +430,9 @@ pub enum Command {
         /// Print one JSON object (a summary, with the records when there is no --output).
         #[arg(long)]
         json: bool,
+        /// No progress output on stderr.
+        #[arg(long, short)]
+        quiet: bool,
     },
     /// Merge the JSON Lines of a sweep's shards into one, in list order, after checking that
     /// every line of the list is there exactly once.
@@ -431,6 +446,9 @@ pub enum Command {
         /// Print one JSON object (a summary, with the records when there is no --output).
         #[arg(long)]
         json: bool,
+        /// No progress output on stderr.
+        #[arg(long, short)]
+        quiet: bool,
     },
     /// Print a standard game or Bell expression as a game file.
     Family {
@@ -439,6 +457,9 @@ pub enum Command {
         /// Print the game as JSON (also a valid game file) instead of YAML.
         #[arg(long, global = true)]
         json: bool,
+        /// No progress output on stderr (accepted for uniformity: `family` has none).
+        #[arg(long, short, global = true)]
+        quiet: bool,
     },
 }
 
@@ -696,9 +717,26 @@ impl Cli {
     pub fn quiet(&self) -> bool {
         match (&self.command, self.game_args()) {
             (_, Some(a)) => a.quiet,
-            (Command::Key { quiet, .. }, None) => *quiet,
+            (
+                Command::Key { quiet, .. }
+                | Command::Review { quiet, .. }
+                | Command::Local { quiet, .. }
+                | Command::Family { quiet, .. }
+                | Command::Sweep { quiet, .. }
+                | Command::SweepMerge { quiet, .. },
+                None,
+            ) => *quiet,
             _ => false,
         }
+    }
+
+    /// Whether the command is `sweep` or `sweep-merge` (whose partial failures have an exit
+    /// code of their own).
+    pub fn is_sweep(&self) -> bool {
+        matches!(
+            self.command,
+            Command::Sweep { .. } | Command::SweepMerge { .. }
+        )
     }
 
     /// Whether `--json-lines` was given (`bounds`).

@@ -760,6 +760,63 @@ mod tests {
     use super::*;
     use clap::Parser;
 
+    #[test]
+    fn every_command_takes_quiet_and_json() {
+        // README promises both on every command; `review`, `local`, `sweep` and `sweep-merge`
+        // once refused `--quiet`.
+        use clap::CommandFactory;
+        for sub in Cli::command().get_subcommands() {
+            let names: Vec<&str> = sub.get_arguments().map(|a| a.get_id().as_str()).collect();
+            for wanted in ["quiet", "json"] {
+                assert!(
+                    names.contains(&wanted),
+                    "`{}` has no --{wanted}",
+                    sub.get_name()
+                );
+            }
+        }
+        for line in [
+            "review p.yaml --quiet",
+            "local c.yaml -q",
+            "sweep l.txt --quiet",
+            "sweep-merge a.jsonl --quiet",
+            "family chsh --quiet",
+        ] {
+            let cli = Cli::try_parse_from(std::iter::once("bellgap").chain(line.split(' ')))
+                .unwrap_or_else(|e| panic!("{line}: {e}"));
+            assert!(cli.quiet(), "{line}");
+        }
+    }
+
+    #[test]
+    fn help_texts_say_what_each_command_does() {
+        use clap::CommandFactory;
+        let mut cli = Cli::command();
+        let top = cli.render_help().to_string();
+        assert!(top.contains("quantum"), "{top}");
+        let help = |name: &str| {
+            let mut sub = Cli::command()
+                .find_subcommand(name)
+                .unwrap_or_else(|| panic!("{name}"))
+                .clone();
+            (
+                sub.render_help().to_string(),
+                sub.render_long_help().to_string(),
+            )
+        };
+        // `entropy --score` speaks of the entropy, not of the guessing probability.
+        let (_, long) = help("entropy");
+        let score = &long[long.find("--score").unwrap()..long.find("--sweep").unwrap()];
+        assert!(score.contains("von Neumann"), "{score}");
+        assert!(!score.contains("guessing"), "{score}");
+        // Both helps of `npa --solver` name the first-order method.
+        let (short, long) = help("npa");
+        for text in [&short, &long] {
+            let solver = &text[text.find("--solver").unwrap()..text.find("--symmetry").unwrap()];
+            assert!(solver.contains("first-order"), "{solver}");
+        }
+    }
+
     fn request(args: &[&str]) -> Result<Request> {
         let cli = Cli::try_parse_from(std::iter::once("bellgap").chain(args.iter().copied()))
             .map_err(|e| Error::Usage(e.to_string()))?;

@@ -189,7 +189,7 @@ pub fn sweep(
                 continue;
             }
         }
-        let mut record = json!({"index": index, "of": total, "list_line": line_number, "line": line, "list_hash": hash});
+        let mut record = json!({"task": index + 1, "of": total, "list_line": line_number, "line": line, "list_hash": hash});
         match run_line(line, &protected) {
             Ok(result) => record["result"] = result,
             Err(error) => {
@@ -235,8 +235,10 @@ pub fn merge(shards: &[PathBuf], output: Option<&PathBuf>, inputs: &[PathBuf]) -
             };
             let record: Value =
                 serde_json::from_str(line).map_err(|e| bad(format!("not a JSON object: {e}")))?;
-            let (Some(index), Some(of)) = (record["index"].as_u64(), record["of"].as_u64()) else {
-                return Err(bad("a sweep record needs `index` and `of`".into()));
+            let (Some(task), Some(of)) = (record["task"].as_u64(), record["of"].as_u64()) else {
+                return Err(bad(
+                    "a sweep record needs `task` and `of` (records of an older bellgap cannot be merged: rerun the sweep)".into(),
+                ));
             };
             if *total.get_or_insert(of) != of {
                 return Err(bad(format!(
@@ -256,20 +258,20 @@ pub fn merge(shards: &[PathBuf], output: Option<&PathBuf>, inputs: &[PathBuf]) -
                     hash.clone().unwrap_or_default()
                 )));
             }
-            if index >= of {
+            if task == 0 || task > of {
                 return Err(bad(format!(
-                    "index {index} is outside a list of {of} lines"
+                    "task {task} is outside a list of {of} tasks (they count from 1)"
                 )));
             }
-            records.push((index as usize, record));
+            records.push((task as usize - 1, record));
         }
     }
     let total = total.unwrap_or(0) as usize;
     records.sort_by_key(|(i, _)| *i);
     if let Some(w) = records.windows(2).find(|w| w[0].0 == w[1].0) {
         return Err(Error::InvalidArgument(format!(
-            "line {} of the list appears in more than one record: a shard was given twice",
-            w[0].0
+            "task {} of the list appears in more than one record: a shard was given twice",
+            w[0].0 + 1
         )));
     }
     let missing: Vec<usize> = {
@@ -277,9 +279,13 @@ pub fn merge(shards: &[PathBuf], output: Option<&PathBuf>, inputs: &[PathBuf]) -
         (0..total).filter(|i| !have.contains(i)).collect()
     };
     if !missing.is_empty() {
-        let shown: Vec<String> = missing.iter().take(10).map(|i| i.to_string()).collect();
+        let shown: Vec<String> = missing
+            .iter()
+            .take(10)
+            .map(|i| (i + 1).to_string())
+            .collect();
         return Err(Error::InvalidArgument(format!(
-            "{} of {total} records are missing (indices {}{}): a shard is missing or did not finish",
+            "{} of {total} records are missing (tasks {}{}): a shard is missing or did not finish",
             missing.len(),
             shown.join(", "),
             if missing.len() > 10 { ", ..." } else { "" }
