@@ -134,9 +134,14 @@ fn noisy_preprocessing_raises_the_chsh_threshold() {
     // tolerates from 7.149 % to 8.085 % (our computation from the bound; the best q tends to
     // 1/2, where the rate itself tends to 0).
     let best = (0..=100)
-        .map(|i| threshold_qber(&NoisyChshEntropyBound::new(i as f64 * 0.005).unwrap()))
+        .filter_map(|i| threshold_qber(&NoisyChshEntropyBound::new(i as f64 * 0.005).unwrap()))
         .fold(0.0, f64::max);
-    assert!((threshold_qber(&plain) - chsh_threshold_qber()).abs() < 1e-12);
+    assert!((threshold_qber(&plain).unwrap() - chsh_threshold_qber()).abs() < 1e-12);
+    // At q = 1/2 the key answer is uniform: no error rate gives a key, and none is printed.
+    assert_eq!(
+        threshold_qber(&NoisyChshEntropyBound::new(0.5).unwrap()),
+        None
+    );
     assert!((best - 0.08085).abs() < 2e-5, "{best}");
     for bad in [-0.01, 0.51, f64::NAN] {
         assert!(NoisyChshEntropyBound::new(bad).is_err(), "{bad}");

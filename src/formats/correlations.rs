@@ -222,7 +222,10 @@ pub fn expression_as_game(
         name: Some(format!("separating-{}", c.name)),
         description: Some(format!(
             "Bell expression separating {} from the local set: local bound {:.6}, value on the correlations {:.6}",
-            c.name, local_bound, value
+            c.name,
+            // Rounding residue below the printed precision reads 0, never -0.000000.
+            if local_bound.abs() < 5e-7 { 0.0 } else { local_bound },
+            if value.abs() < 5e-7 { 0.0 } else { value }
         )),
         players: c
             .parties

@@ -321,8 +321,8 @@ pub struct KeyReport {
     /// Entropy and key rate at the given S and QBER.
     pub rate: KeyRate,
     /// The QBER at which the key rate of the optimal CHSH devices under depolarising noise
-    /// reaches zero (with the same preprocessing).
-    pub threshold_qber: f64,
+    /// reaches zero (with the same preprocessing); `None` when no QBER gives a key.
+    pub threshold_qber: Option<f64>,
     /// The key player's preprocessing.
     pub preprocessing: Preprocessing,
     /// The flip probability that maximises the key rate at this S and QBER (searched over
@@ -385,11 +385,18 @@ fn best_flip(chsh: f64, qber: f64) -> Result<BestFlip> {
             lo = a;
         }
     }
-    // Where no flip gives a key, none is best: say 0, not the search's last probe.
+    // Where no flip gives a key, none is best: say 0, not the search's last probe. Where no
+    // flip does measurably better than none (within 1e-8 bits per round), none is best too:
+    // a probability of 4e-9 is the search's noise, not advice.
     if found.key_rate <= 0.0 {
         found = BestFlip {
             probability: 0.0,
             key_rate: 0.0,
+        };
+    } else if rates[grid.iter().position(|&q| q == 0.0).unwrap_or(0)] >= found.key_rate - 1e-8 {
+        found = BestFlip {
+            probability: 0.0,
+            key_rate: rate(0.0)?,
         };
     }
     Ok(found)
@@ -510,6 +517,16 @@ pub(crate) fn warn_slow_entropy(
         ));
     }
     Ok(())
+}
+
+/// Fano's bound on H(A|B) for `d` answers in words: h(Q) alone for two answers (the second
+/// term, Q·log₂(d − 1), vanishes), else with d − 1 written out.
+fn fano_formula(d: f64) -> String {
+    if d <= 2.0 {
+        "h(Q)".into()
+    } else {
+        format!("h(Q) + Q·log₂ {}", d - 1.0)
+    }
 }
 
 /// Most scores one `randomness` or `entropy` run bounds (a sweep's points): the same limit for
@@ -740,10 +757,11 @@ pub fn entropy<'a>(
                 fano,
                 match options.hierarchy.preprocessing {
                     Preprocessing::None => {
-                        format!("Fano's bound at error rate {q}: h(Q) + Q·log₂({d} − 1)")
+                        format!("Fano's bound at error rate {q}: {}", fano_formula(d))
                     }
                     Preprocessing::Noisy { probability } => format!(
-                        "Fano's bound at the preprocessed answers' error rate {noisy} (raw {q}, noisy preprocessing {probability}): h(Q) + Q·log₂({d} − 1)"
+                        "Fano's bound at the preprocessed answers' error rate {noisy} (raw {q}, noisy preprocessing {probability}): {}",
+                        fano_formula(d)
                     ),
                 },
             ))

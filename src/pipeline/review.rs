@@ -47,8 +47,8 @@ pub struct ReviewKey {
     pub chsh_value: f64,
     /// Entropy and key rate there.
     pub figures: KeyRate,
-    /// The depolarising-noise threshold QBER.
-    pub threshold_qber: f64,
+    /// The depolarising-noise threshold QBER (`None`: no QBER gives a key).
+    pub threshold_qber: Option<f64>,
     /// The key player's preprocessing.
     pub preprocessing: Preprocessing,
 }

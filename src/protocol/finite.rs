@@ -313,7 +313,7 @@ pub fn margin(
         margin: certified_score - classical,
         p_value,
         p_value_log10,
-        p_value_bound: "Azuma–Hoeffding (valid for adaptive strategies)",
+        p_value_bound: "Azuma–Hoeffding, valid for adaptive strategies",
         rounds_needed,
         target_p_value,
         expected_mean,

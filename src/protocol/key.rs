@@ -181,17 +181,22 @@ pub fn key_rate(bound: &dyn EntropyBound, score: f64, qber: f64) -> Result<KeyRa
 /// For depolarising noise, where S = 2√2(1 − 2Q): the QBER at which the CHSH key rate reaches
 /// zero (bisection on the rate).
 pub fn chsh_threshold_qber() -> f64 {
-    threshold_qber(&ChshEntropyBound)
+    threshold_qber(&ChshEntropyBound).unwrap_or(0.0)
 }
 
 /// For depolarising noise, where S = 2√2(1 − 2Q): the QBER at which the key rate of a CHSH
-/// bound reaches zero (bisection on the rate, which falls with Q).
-pub fn threshold_qber(bound: &dyn EntropyBound) -> f64 {
+/// bound reaches zero (bisection on the rate, which falls with Q); `None` when no error rate
+/// gives a positive rate (a flip probability of 1/2 makes the key answer uniform: H(A|E) = 1 but
+/// H(A|B) = 1 too).
+pub fn threshold_qber(bound: &dyn EntropyBound) -> Option<f64> {
     let rate = |q: f64| {
         let s = 2.0 * std::f64::consts::SQRT_2 * (1.0 - 2.0 * q);
         bound.entropy(s) - binary_entropy(bound.key_error_rate(q))
     };
     let (mut lo, mut hi) = (1e-9, 0.146);
+    if rate(lo) <= 0.0 {
+        return None;
+    }
     for _ in 0..200 {
         let mid = 0.5 * (lo + hi);
         if rate(mid) > 0.0 {
@@ -200,7 +205,7 @@ pub fn threshold_qber(bound: &dyn EntropyBound) -> f64 {
             hi = mid;
         }
     }
-    0.5 * (lo + hi)
+    Some(0.5 * (lo + hi))
 }
 
 /// The error-correction term of the Devetak–Winter rate, H(A|B) in bits, from the joint

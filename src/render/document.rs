@@ -276,7 +276,10 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
                 ),
                 (
                     "threshold QBER (depolarising noise)".into(),
-                    num(*threshold),
+                    threshold.map_or_else(
+                        || "none: no error rate gives a key with this preprocessing".into(),
+                        num,
+                    ),
                 ),
             ],
         ));
@@ -385,7 +388,12 @@ pub fn html(r: &Review) -> String {
     for (title, rows) in tables(r) {
         let _ = write!(h, "<h2>{}</h2>\n<table>\n", esc(&title));
         for (k, v) in rows {
-            let _ = writeln!(h, "<tr><td>{}</td><td>{}</td></tr>", esc(&k), esc(&v));
+            let _ = writeln!(
+                h,
+                "<tr><td>{}</td><td>{}</td></tr>",
+                esc(&k),
+                superscripts(&esc(&v))
+            );
         }
         h.push_str("</table>\n");
     }
@@ -466,6 +474,37 @@ pub fn md_escape(s: &str) -> String {
     out
 }
 
+/// Powers of ten written `10^e` (e an optionally signed integer) as `10<sup>e</sup>`, in text
+/// already escaped: only digits and a sign go inside the tag.
+fn superscripts(escaped: &str) -> String {
+    let mut out = String::with_capacity(escaped.len());
+    let mut rest = escaped;
+    while let Some(at) = rest.find("10^") {
+        out.push_str(&rest[..at + 2]);
+        let after = &rest[at + 3..];
+        let sign = usize::from(after.starts_with(['-', '+', '−']));
+        let sign_len = after
+            .chars()
+            .next()
+            .filter(|_| sign == 1)
+            .map_or(0, char::len_utf8);
+        let digits = after[sign_len..]
+            .chars()
+            .take_while(char::is_ascii_digit)
+            .count();
+        if digits == 0 {
+            out.push('^');
+            rest = after;
+            continue;
+        }
+        let end = sign_len + digits;
+        out.push_str(&format!("<sup>{}</sup>", &after[..end]));
+        rest = &after[end..];
+    }
+    out.push_str(rest);
+    out
+}
+
 fn esc(s: &str) -> String {
     s.replace('&', "&amp;")
         .replace('<', "&lt;")
@@ -500,6 +539,21 @@ fn base64(bytes: &[u8]) -> String {
 
 #[cfg(test)]
 mod tests {
+    #[test]
+    fn powers_of_ten_become_superscripts_in_html() {
+        assert_eq!(
+            super::superscripts("p 1.234×10^-1635 (bound)"),
+            "p 1.234×10<sup>-1635</sup> (bound)"
+        );
+        assert_eq!(
+            super::superscripts("not within 10^14 rounds"),
+            "not within 10<sup>14</sup> rounds"
+        );
+        // Anything else after the caret is left as it was.
+        assert_eq!(super::superscripts("10^x and 10^"), "10^x and 10^");
+        assert_eq!(super::superscripts("&lt;b&gt;"), "&lt;b&gt;");
+    }
+
     #[test]
     fn base64_matches_the_standard_examples() {
         // RFC 4648 test vectors.

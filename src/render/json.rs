@@ -592,7 +592,7 @@ struct KeyView<'a> {
     key_qber: f64,
     conditional_entropy: f64,
     key_rate: f64,
-    threshold_qber: f64,
+    threshold_qber: Option<f64>,
     best_noisy_preprocessing: BestFlip,
     bound: &'a str,
     caution: &'static str,

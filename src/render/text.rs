@@ -399,14 +399,20 @@ pub fn local(report: &LocalReport, saved: Option<&str>) -> String {
                 "unbounded (pure noise)".into()
             },
         ),
-        ("signalling".to_string(), num(r.signalling)),
+        (
+            "signalling".to_string(),
+            format!(
+                "{} (the largest difference between a player's marginal under two questions of the others; 0 for no-signalling correlations)",
+                num(r.signalling)
+            ),
+        ),
     ];
     if let Some(sep) = &r.separating {
         rows.push((
             "separating expression".to_string(),
             format!(
                 "local bound {}, value on the input {}{}",
-                num(sep.local_bound),
+                num(clean_zero(sep.local_bound)),
                 num(sep.value),
                 saved
                     .map(|f| format!(" (saved to {f})"))
@@ -512,11 +518,7 @@ pub fn margin(report: &MarginReport) -> String {
             .unwrap_or_else(|| "never (no advantage)".into()),
     ));
     let mut out = table(&rows);
-    out += "\nassumptions:\n";
-    for a in &m.assumptions {
-        out += &format!("  - {a}\n");
-    }
-    out += &format!("\n{}\n", CAUTION);
+    out += &assumptions_and_caution(&m.assumptions);
     out
 }
 
@@ -583,7 +585,7 @@ pub fn entropy(report: &EntropyReport) -> String {
         "{:>14}  {:>18}  {:>14}{}\n",
         "score",
         "H(A|X,E) ≥ (bits)",
-        "solver sum",
+        "solvers' sum",
         if key {
             "   H(A|B) (bits)   key rate ≥"
         } else {
@@ -617,17 +619,14 @@ pub fn entropy(report: &EntropyReport) -> String {
             );
         }
     }
+    out += "(solvers' sum: the same sum from the relaxations' own values, before the verification's margin; not a bound)\n";
     if let Some(k) = report.results.iter().find_map(|r| r.key.as_ref()) {
         out += &format!("\nerror correction: {}\n", k.error_correction_from);
     }
     for f in &report.not_obtained {
         out += &format!("not obtained: {f}\n");
     }
-    out += "\nassumptions:\n";
-    for a in &report.assumptions {
-        out += &format!("  - {a}\n");
-    }
-    out += &format!("{CAUTION}\n");
+    out += &assumptions_and_caution(&report.assumptions);
     out
 }
 
@@ -888,12 +887,31 @@ pub fn finite_size(report: &FiniteSizeReport) -> String {
         );
     }
     out += &format!("\nstatement: {}\n", run.statement);
-    out += "\nassumptions:\n";
-    for a in &report.assumptions {
+    out += &assumptions_and_caution(&report.assumptions);
+    out
+}
+
+/// A value that rounds to zero at the printed precision, shown as 0 (never as -0.000000).
+fn clean_zero(v: f64) -> f64 {
+    if v.abs() < 5e-11 {
+        0.0
+    } else {
+        v
+    }
+}
+
+/// The assumptions as a list, then the caution once: the list's own "not a security proof"
+/// item says what the caution says, so the text leaves it to the caution (JSON keeps both).
+fn assumptions_and_caution<S: AsRef<str>>(assumptions: &[S]) -> String {
+    let mut out = "\nassumptions:\n".to_string();
+    for a in assumptions
+        .iter()
+        .map(AsRef::as_ref)
+        .filter(|a| !a.starts_with("not a security proof"))
+    {
         out += &format!("  - {a}\n");
     }
-    out += &format!("{CAUTION}\n");
-    out
+    out + &format!("\n{CAUTION}\n")
 }
 
 /// CHSH key figures.
@@ -913,7 +931,10 @@ pub fn key(report: &KeyReport) -> String {
         ),
         (
             "threshold QBER (depolarising, same preprocessing)".into(),
-            num(threshold),
+            threshold.map_or_else(
+                || "none: no error rate gives a key with this preprocessing".into(),
+                num,
+            ),
         ),
         (
             "best noisy preprocessing".into(),

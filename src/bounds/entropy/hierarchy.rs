@@ -373,7 +373,7 @@ fn reduction_of(
     (score_constraint
         && options.symmetry == SymmetryChoice::Auto
         && options.field == MomentField::Real)
-        .then(|| EntropyReduction::new(s, target, matrix))
+        .then(|| EntropyReduction::new(s, &target.parts, matrix))
         .flatten()
 }
 

@@ -19,7 +19,6 @@
 
 use std::collections::HashMap;
 
-use super::hierarchy::Target;
 use super::relaxation::{EntropyMatrix, EntropyWord, EveLetter};
 use crate::bounds::quantum::symmetric::{self, Action};
 use crate::error::Result;
@@ -55,16 +54,14 @@ pub struct EntropyReduction {
 
 /// The permutation of the key outcomes that `g` induces, or `None` when `g` moves a target
 /// player or question.
-fn event_permutation(g: &Relabelling, s: &Scenario, target: &Target) -> Option<Vec<u32>> {
-    if target
-        .parts
+fn event_permutation(g: &Relabelling, s: &Scenario, parts: &[(usize, usize)]) -> Option<Vec<u32>> {
+    if parts
         .iter()
         .any(|&(p, x)| g.players[p] != p || g.questions[p][x] != x)
     {
         return None;
     }
-    let radices: Vec<usize> = target
-        .parts
+    let radices: Vec<usize> = parts
         .iter()
         .map(|&(p, _)| s.parties()[p].answers())
         .collect();
@@ -75,7 +72,7 @@ fn event_permutation(g: &Relabelling, s: &Scenario, target: &Target) -> Option<V
             .map(|e| {
                 digits(e, &radices, &mut d);
                 let mut image = 0;
-                for (k, &(p, x)) in target.parts.iter().enumerate() {
+                for (k, &(p, x)) in parts.iter().enumerate() {
                     image = image * radices[k] + g.answers[p][x][d[k]];
                 }
                 image as u32
@@ -121,9 +118,14 @@ fn action(
 }
 
 impl EntropyReduction {
-    /// The reduction of the hierarchy of `target` on `matrix` (real moment matrices), or `None`
-    /// when no relabelling of the game keeps the target and the generating words' span.
-    pub fn new(s: &Scenario, target: &Target, matrix: &EntropyMatrix) -> Option<EntropyReduction> {
+    /// The reduction of the hierarchy of the target `parts` ((player, question) of each key
+    /// answer) on `matrix` (real moment matrices), or `None` when no relabelling of the game
+    /// keeps the target and the generating words' span.
+    pub fn new(
+        s: &Scenario,
+        parts: &[(usize, usize)],
+        matrix: &EntropyMatrix,
+    ) -> Option<EntropyReduction> {
         let group = symmetries_modulo_no_signalling(s)
             .filter(|g| !g.generators.is_empty())
             .or_else(|| symmetries(s))?;
@@ -140,7 +142,7 @@ impl EntropyReduction {
         let mut kept: Vec<(Relabelling, Vec<u32>, Action)> = Vec::new();
         let mut terms = 0usize;
         for g in elements {
-            let Some(pi) = event_permutation(&g, s, target) else {
+            let Some(pi) = event_permutation(&g, s, parts) else {
                 continue;
             };
             let Some(a) = action(&g, &pi, words, &index, &last) else {
