@@ -64,6 +64,20 @@ fn unknown_variable_points_at_its_column() {
 }
 
 #[test]
+fn players_without_variable_names_get_a_hint_to_declare_them() {
+    expect_error(
+        "players:\n  - {name: alice, questions: 2, answers: 2}\n  - {name: bob, questions: 2, answers: 2}\nwin: \"(a + b) % 2 == x * y\"\n",
+        4,
+        Some(8),
+        "win",
+        "question: x, answer: a",
+    );
+    // With the names declared, an unknown name gets the list of known ones, not the hint.
+    let err = load(&format!("{PLAYERS}win: \"(a + b) % 2 == z * y\"\n")).unwrap_err();
+    assert!(!err.to_string().contains("named in its entry"), "{err}");
+}
+
+#[test]
 fn formula_syntax_error_points_at_its_column() {
     expect_error(
         &format!("{PLAYERS}win: (a + b) % 2 = x * y\n"),

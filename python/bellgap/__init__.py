@@ -47,6 +47,7 @@ __all__ = [
     "entropy",
     "finite_size",
     "key",
+    "local",
     "locality",
     "review",
     "sweep",
@@ -129,6 +130,9 @@ _KINDS = {
 def _raise_from(err: _bellgap.BellgapError):
     kind, message, location = err.args
     location = json.loads(location) if location else None
+    if kind == "too_large":
+        # The library's hint names the command line's option; here it is a keyword.
+        message = message.replace("pass --force", "pass force=True").replace("--force", "force=True")
     raise _KINDS.get(kind, BellgapError)(kind, message, location) from None
 
 
@@ -681,11 +685,20 @@ def key(chsh: float, qber: float, noisy_preprocessing: Optional[float] = None) -
     return _result(_call(_bellgap.key, float(chsh), float(qber), flip)["result"])
 
 
-def locality(correlations: Union[str, os.PathLike, dict], force: bool = False) -> Result:
+def local(correlations: Union[str, os.PathLike, dict], force: bool = False) -> Result:
     """Whether correlations have a local model (``bellgap local``): a correlations file's path,
     its YAML text, or a dict in the same schema."""
     text, name = _text_and_name(correlations)
     return _result(_call(_bellgap.locality, text, name, force)["result"])
+
+
+def locality(correlations: Union[str, os.PathLike, dict], force: bool = False) -> Result:
+    """The former name of :func:`local` (the command line's ``local``); kept so that existing
+    notebooks run, with a deprecation warning."""
+    import warnings
+
+    warnings.warn("bellgap.locality is now bellgap.local", DeprecationWarning, stacklevel=2)
+    return local(correlations, force=force)
 
 
 def _document_json(document: dict) -> str:

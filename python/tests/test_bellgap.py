@@ -317,7 +317,9 @@ def test_the_dask_sweep_returns_the_serial_table():
 
 def test_locality_equals_the_command_line():
     path = os.path.join(ROOT, "examples", "data", "lab-frequencies.yaml")
-    a = bellgap.locality(path).to_dict()
+    a = bellgap.local(path).to_dict()
+    with pytest.warns(DeprecationWarning):
+        assert bellgap.locality(path).to_dict()["local"] == a["local"]
     b = cli_json("local", os.path.join("examples", "data", "lab-frequencies.yaml"))
     assert_same(without_timing(a), without_timing(b))
 
@@ -533,6 +535,14 @@ def test_score_lists_have_the_command_lines_limit():
         bellgap.randomness(expr, scores=many)
 
 
+def test_a_refusal_names_the_keyword_not_the_command_line_option():
+    expr = os.path.join(ROOT, "games", "chsh-expression.yaml")
+    with pytest.raises(bellgap.TooLargeError) as refused:
+        bellgap.entropy(expr, score=2.7, level="7")
+    assert "force=True" in str(refused.value)
+    assert "--force" not in str(refused.value)
+
+
 def test_hostile_python_inputs_raise_typed_errors():
     # Seeded fuzzing of the Python entry points: hostile dicts (wrong types, NaN, huge sizes),
     # counts and strategies. Every failure is a typed BellgapError other than InternalError
@@ -574,7 +584,7 @@ def test_hostile_python_inputs_raise_typed_errors():
             ],
         }
         typed(lambda: bellgap.margin(chsh, counts=counts))
-        typed(lambda: bellgap.locality(counts))
+        typed(lambda: bellgap.local(counts))
         dims = [rng.choice([1, 2, 3]), rng.choice([1, 2, 3])]
         size = dims[0] * dims[1]
         state = [complex(rng.choice([0.5, float("nan"), 1.0])) for _ in range(rng.choice([size, size + 1]))]

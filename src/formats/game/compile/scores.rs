@@ -24,7 +24,15 @@ pub(super) fn build_scores(
     };
     let expr: Expr = formula::parse(src)
         .and_then(|e| e.bind(scope))
-        .map_err(|e| ctx.formula_error(field, &e, what))?;
+        .map_err(|mut e| {
+            // A formula can only name the variables the players declare; a player without
+            // `question:` or `answer:` declares none, and the error should say how to.
+            if e.message.starts_with("unknown name") && scope.variables.len() < 2 * parties.len()
+            {
+                e.message += "; a player's question and answer are named in its entry, e.g. `{name: alice, question: x, answer: a, questions: 2, answers: 2}`, and only then usable in formulas";
+            }
+            ctx.formula_error(field, &e, what)
+        })?;
     let n = parties.len();
     let qr: Vec<usize> = parties.iter().map(Party::questions).collect();
     let ar: Vec<usize> = parties.iter().map(Party::answers).collect();
