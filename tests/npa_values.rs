@@ -193,3 +193,52 @@ fn a_moment_matrix_too_large_to_build_is_refused_before_allocation() {
         "{err}"
     );
 }
+
+fn classical_of(s: &Scenario) -> f64 {
+    bellgap::bounds::classical::classical_value(s, &Default::default(), None)
+        .unwrap()
+        .value
+}
+
+#[test]
+fn the_added_families_meet_their_published_values() {
+    // Mermin with n players (Mermin 1990, PRL 65, 1838): local bound 2^(n/2) for even n and
+    // 2^((n−1)/2) for odd n, quantum value 2^(n−1) (from memory; the local bounds recomputed by
+    // the exact search here, the quantum value by NPA level 2).
+    for (n, local) in [(4, 4.0), (5, 4.0)] {
+        let s = compile(&families::mermin_players(n).unwrap());
+        let c = classical_of(&s);
+        assert!((c - local).abs() < 1e-9, "Mermin-{n}: classical {c}");
+        if n == 4 {
+            assert_bound(&npa(&s, "2"), 8.0, 1e-6, "Mermin-4");
+        }
+    }
+    // Svetlichny (Svetlichny 1987, PRD 35, 3066): 4 without genuine tripartite nonlocality,
+    // 4√2 for quantum players (Collins et al. 2002, PRL 88, 170405; from memory).
+    let s = compile(&families::svetlichny(3).unwrap());
+    assert!((classical_of(&s) - 4.0).abs() < 1e-9);
+    assert_bound(&npa(&s, "2"), 4.0 * 2f64.sqrt(), 1e-6, "Svetlichny-3");
+    // Tilted CHSH (Acín, Massar & Pironio 2012, PRL 108, 100402; from memory): local bound
+    // 2α + β, quantum value √((1 + α²)(4 + β²)); α = 1, β = 0.5 and α = 1.2, β = 0.3.
+    for (alpha, beta) in [(1.0f64, 0.5f64), (1.2, 0.3)] {
+        let s = compile(&families::tilted_chsh(alpha, beta).unwrap());
+        let c = classical_of(&s);
+        assert!(
+            (c - (2.0 * alpha + beta)).abs() < 1e-9,
+            "tilted: classical {c}"
+        );
+        let want = ((1.0 + alpha * alpha) * (4.0 + beta * beta)).sqrt();
+        assert_bound(&npa(&s, "3"), want, 1e-5, "tilted CHSH");
+    }
+    // CHSH modulo d: d = 2 is the CHSH game; d = 3 has classical value 2/3 (Bavarian & Shor
+    // 2015, ITCS; from memory) and a quantum value above it.
+    let s = compile(&families::chsh_mod(2).unwrap());
+    assert!((classical_of(&s) - 0.75).abs() < 1e-12);
+    assert_bound(&npa(&s, "1"), 0.5 + 8f64.sqrt() / 8.0, 1e-6, "CHSH mod 2");
+    let s = compile(&families::chsh_mod(3).unwrap());
+    assert!((classical_of(&s) - 2.0 / 3.0).abs() < 1e-12);
+    assert!(npa(&s, "1+joint").verified_upper > 0.7);
+    // Parameters out of range are refused.
+    assert!(families::svetlichny(2).is_err() && families::mermin_players(11).is_err());
+    assert!(families::chsh_mod(1).is_err() && families::tilted_chsh(f64::NAN, 0.0).is_err());
+}

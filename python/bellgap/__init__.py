@@ -258,7 +258,8 @@ class Game:
     def family(cls, name: str, **params) -> "Game":
         """A standard game: ``chsh``, ``chsh-expression``, ``xor`` (signs="1 1;1 -1"),
         ``odd-cycle`` (n), ``magic-square``, ``ghz`` (players), ``cglmp`` (d), ``i3322``,
-        ``chained`` (m), ``mermin``."""
+        ``chained`` (m), ``mermin`` (players, default 3), ``svetlichny`` (players, default 3),
+        ``chsh-mod`` (d), ``tilted-chsh`` (alpha, default 1; beta, default 0.5)."""
         inner = _call_game(_bellgap.family, name, _arguments(params))
         return cls(inner, ("family", name, params))
 

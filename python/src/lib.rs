@@ -208,6 +208,10 @@ struct FamilyArgs {
     players: Option<usize>,
     #[serde(default)]
     signs: Option<String>,
+    #[serde(default)]
+    alpha: Option<f64>,
+    #[serde(default)]
+    beta: Option<f64>,
 }
 
 /// One of the standard games by name, with its parameter (`n`, `d`, `m`, `players`, `signs`).
@@ -236,10 +240,20 @@ fn family(name: &str, args: &str) -> PyResult<PyGame> {
         "cglmp" => Family::Cglmp { d: need(a.d, "d")? },
         "i3322" => Family::I3322,
         "chained" => Family::Chained { m: need(a.m, "m")? },
-        "mermin" => Family::Mermin,
+        "mermin" => Family::Mermin {
+            players: a.players.unwrap_or(3),
+        },
+        "svetlichny" => Family::Svetlichny {
+            players: a.players.unwrap_or(3),
+        },
+        "chsh-mod" => Family::ChshMod { d: need(a.d, "d")? },
+        "tilted-chsh" => Family::TiltedChsh {
+            alpha: a.alpha.unwrap_or(1.0),
+            beta: a.beta.unwrap_or(0.5),
+        },
         other => {
             return Err(usage(format!(
-                "no family `{other}` (known: chsh, chsh-expression, xor, odd-cycle, magic-square, ghz, cglmp, i3322, chained, mermin)"
+                "no family `{other}` (known: chsh, chsh-expression, xor, odd-cycle, magic-square, ghz, cglmp, i3322, chained, mermin, svetlichny, chsh-mod, tilted-chsh)"
             )))
         }
     };

@@ -641,8 +641,29 @@ pub enum FamilyCommand {
         #[arg(long, default_value_t = 3)]
         m: usize,
     },
-    /// Mermin's three-player expression.
-    Mermin,
+    /// Mermin's expression for n players (three by default).
+    Mermin {
+        #[arg(long, default_value_t = 3)]
+        players: usize,
+    },
+    /// Svetlichny's expression for n players: a violation of 2^(n−1) witnesses genuine
+    /// multipartite nonlocality.
+    Svetlichny {
+        #[arg(long, default_value_t = 3)]
+        players: usize,
+    },
+    /// CHSH modulo d: win iff a + b = x·y mod d (questions and answers in 0..d).
+    ChshMod {
+        #[arg(long, default_value_t = 3)]
+        d: usize,
+    },
+    /// Tilted CHSH expression β⟨A0⟩ + α⟨A0B0⟩ + α⟨A0B1⟩ + ⟨A1B0⟩ − ⟨A1B1⟩.
+    TiltedChsh {
+        #[arg(long, default_value_t = 1.0, value_parser = parse_finite, allow_hyphen_values = true)]
+        alpha: f64,
+        #[arg(long, default_value_t = 0.5, value_parser = parse_finite, allow_hyphen_values = true)]
+        beta: f64,
+    },
     /// k-fold parallel repetition of any game file.
     Product {
         /// The game to repeat.

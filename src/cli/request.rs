@@ -69,7 +69,7 @@ pub enum DocumentFormat {
 }
 
 /// Which family `family` prints.
-#[derive(Debug, Clone, PartialEq, Eq)]
+#[derive(Debug, Clone, PartialEq)]
 pub enum FamilyChoice {
     /// A standard family member.
     Standard(Family),
@@ -391,7 +391,13 @@ pub fn family(f: &FamilyCommand) -> Result<FamilyChoice> {
         FamilyCommand::Cglmp { d } => Family::Cglmp { d: *d },
         FamilyCommand::I3322 => Family::I3322,
         FamilyCommand::Chained { m } => Family::Chained { m: *m },
-        FamilyCommand::Mermin => Family::Mermin,
+        FamilyCommand::Mermin { players } => Family::Mermin { players: *players },
+        FamilyCommand::Svetlichny { players } => Family::Svetlichny { players: *players },
+        FamilyCommand::ChshMod { d } => Family::ChshMod { d: *d },
+        FamilyCommand::TiltedChsh { alpha, beta } => Family::TiltedChsh {
+            alpha: *alpha,
+            beta: *beta,
+        },
         FamilyCommand::Product { game, rounds } => {
             return Ok(FamilyChoice::Product {
                 game: game.clone(),

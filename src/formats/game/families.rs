@@ -284,6 +284,129 @@ pub fn mermin() -> GameSpec {
     }
 }
 
+/// `n` players p0, p1, ... with question xi and answer ai, two of each.
+fn binary_players(n: usize) -> Vec<PlayerSpec> {
+    (0..n)
+        .map(|i| PlayerSpec::counted(&format!("p{i}"), &format!("x{i}"), &format!("a{i}"), 2, 2))
+        .collect()
+}
+
+/// `v0 + v1 + ... + v(n−1)`.
+fn sum_of(v: &str, n: usize) -> String {
+    (0..n)
+        .map(|i| format!("{v}{i}"))
+        .collect::<Vec<_>>()
+        .join(" + ")
+}
+
+fn check_players(what: &str, players: usize) -> Result<()> {
+    if !(3..=10).contains(&players) {
+        return Err(Error::InvalidArgument(format!(
+            "the {what} expression is built here for 3 to 10 players, got {players}"
+        )));
+    }
+    Ok(())
+}
+
+/// Mermin's expression for `players` players, Re ∏_k (A_k⁰ + i·A_k¹) = Σ over question tuples
+/// with an even number t of ones of (−1)^(t/2) ⟨∏_k A_k^(x_k)⟩ (Mermin 1990, PRL 65, 1838).
+/// Local bound 2^((n−1)/2) for odd n and 2^(n/2) for even n, quantum value 2^(n−1) (from
+/// memory). Three players give [`mermin`] itself.
+pub fn mermin_players(players: usize) -> Result<GameSpec> {
+    check_players("Mermin", players)?;
+    if players == 3 {
+        return Ok(mermin());
+    }
+    let (t, a) = (sum_of("x", players), sum_of("a", players));
+    Ok(GameSpec {
+        name: Some(format!("mermin-{players}")),
+        description: Some(format!(
+            "Mermin expression for {players} players: the sum over questions with an even number t of ones of (-1)^(t/2) times the correlator"
+        )),
+        players: binary_players(players),
+        distribution: Some(Value::from("sum")),
+        score: Some(format!(
+            "(if ({t}) % 2 == 0 then (-1) ** (({t}) // 2) else 0) * (-1) ** ({a})"
+        )),
+        ..Default::default()
+    })
+}
+
+/// Svetlichny's expression for `players` players: Σ over all question tuples of
+/// (−1)^(t(t−1)/2) ⟨∏_k A_k^(x_k)⟩ with t the number of ones (Svetlichny 1987, PRD 35, 3066,
+/// for three; Collins et al. 2002, PRL 88, 170405 and Seevinck & Svetlichny 2002, PRL 89,
+/// 060401, for n). Its value is at most 2^(n−1) for every model in which some group of players
+/// shares nonlocal resources only within itself, and 2^(n−1)·√2 for quantum players (from
+/// memory): a violation witnesses genuine multipartite nonlocality.
+pub fn svetlichny(players: usize) -> Result<GameSpec> {
+    check_players("Svetlichny", players)?;
+    let (t, a) = (sum_of("x", players), sum_of("a", players));
+    Ok(GameSpec {
+        name: Some(format!("svetlichny-{players}")),
+        description: Some(format!(
+            "Svetlichny expression for {players} players: the sum over all questions, with t ones, of (-1)^(t(t-1)/2) times the correlator"
+        )),
+        players: binary_players(players),
+        distribution: Some(Value::from("sum")),
+        score: Some(format!(
+            "(-1) ** ((({t}) * ({t} - 1)) // 2) * (-1) ** ({a})"
+        )),
+        ..Default::default()
+    })
+}
+
+/// CHSH modulo d: questions x, y and answers a, b in 0..d, uniform questions, won iff
+/// a + b ≡ x·y (mod d) (d = 2 is the CHSH game).
+pub fn chsh_mod(d: usize) -> Result<GameSpec> {
+    if !(2..=16).contains(&d) {
+        return Err(Error::InvalidArgument(format!(
+            "CHSH modulo d is built here for d from 2 to 16, got {d}"
+        )));
+    }
+    let mut constants = Mapping::new();
+    constants.insert(Value::from("d"), Value::from(d as u64));
+    Ok(GameSpec {
+        name: Some(format!("chsh-mod-{d}")),
+        description: Some(format!(
+            "CHSH modulo {d}: win iff a + b equals x times y modulo {d}, questions uniform"
+        )),
+        constants: Some(constants),
+        players: two_players(d, d, d, d),
+        distribution: Some(Value::from("uniform")),
+        win: Some("(a + b) % d == (x * y) % d".into()),
+        ..Default::default()
+    })
+}
+
+/// The tilted CHSH expression β⟨A0⟩ + α⟨A0B0⟩ + α⟨A0B1⟩ + ⟨A1B0⟩ − ⟨A1B1⟩ (Acín, Massar &
+/// Pironio 2012, PRL 108, 100402): local bound β + 2α (for α ≥ 1, β ≥ 0), quantum value
+/// √((1 + α²)(4 + β²)) (from memory); β = 0, α = 1 is CHSH.
+pub fn tilted_chsh(alpha: f64, beta: f64) -> Result<GameSpec> {
+    if !alpha.is_finite() || !beta.is_finite() || alpha.abs() > 1e6 || beta.abs() > 1e6 {
+        return Err(Error::InvalidArgument(format!(
+            "the tilted CHSH expression needs finite α and β of at most 10^6 in size, got {alpha} and {beta}"
+        )));
+    }
+    let mut constants = Mapping::new();
+    constants.insert(Value::from("alpha"), Value::from(alpha));
+    constants.insert(Value::from("beta"), Value::from(beta));
+    Ok(GameSpec {
+        name: Some("tilted-chsh".into()),
+        description: Some(format!(
+            "tilted CHSH expression: beta <A0> + alpha <A0B0> + alpha <A0B1> + <A1B0> - <A1B1>, alpha = {alpha}, beta = {beta}"
+        )),
+        constants: Some(constants),
+        players: two_players(2, 2, 2, 2),
+        distribution: Some(Value::from("sum")),
+        // Each question pair carries its correlator; Alice's marginal at x = 0 is shared
+        // between the two pairs (x, y) = (0, 0) and (0, 1), half each.
+        score: Some(
+            "(if x == 0 then alpha else (if y == 0 then 1 else -1)) * (-1) ** (a + b) + (if x == 0 then beta / 2 * (-1) ** a else 0)".into(),
+        ),
+        ..Default::default()
+    })
+}
+
 /// Parses a sign table written as rows separated by `;` and entries by `,`.
 pub fn parse_sign_table(text: &str) -> Result<Vec<Vec<i64>>> {
     text.split(';')
@@ -303,7 +426,7 @@ pub fn parse_sign_table(text: &str) -> Result<Vec<Vec<i64>>> {
 }
 
 /// A standard family member, by its parameters.
-#[derive(Debug, Clone, PartialEq, Eq)]
+#[derive(Debug, Clone, PartialEq)]
 pub enum Family {
     /// [`chsh`].
     Chsh,
@@ -338,8 +461,28 @@ pub enum Family {
         /// Settings.
         m: usize,
     },
-    /// [`mermin`].
-    Mermin,
+    /// [`mermin_players`] with `players` players ([`mermin`] for three).
+    Mermin {
+        /// Players.
+        players: usize,
+    },
+    /// [`svetlichny`] with `players` players.
+    Svetlichny {
+        /// Players.
+        players: usize,
+    },
+    /// [`chsh_mod`] modulo `d`.
+    ChshMod {
+        /// The modulus (questions and answers per player).
+        d: usize,
+    },
+    /// [`tilted_chsh`] with its two weights.
+    TiltedChsh {
+        /// α, the weight of ⟨A0B0⟩ and ⟨A0B1⟩.
+        alpha: f64,
+        /// β, the weight of ⟨A0⟩.
+        beta: f64,
+    },
 }
 
 impl Family {
@@ -355,7 +498,10 @@ impl Family {
             Family::Cglmp { d } => cglmp(*d)?,
             Family::I3322 => i3322(),
             Family::Chained { m } => chained_bell(*m)?,
-            Family::Mermin => mermin(),
+            Family::Mermin { players } => mermin_players(*players)?,
+            Family::Svetlichny { players } => svetlichny(*players)?,
+            Family::ChshMod { d } => chsh_mod(*d)?,
+            Family::TiltedChsh { alpha, beta } => tilted_chsh(*alpha, *beta)?,
         })
     }
 }
