@@ -751,7 +751,10 @@ fn symmetry_groups_beyond_64_bits_are_printed_exactly_in_json() {
     assert_eq!(out.status.code(), Some(0));
     let j = json_of(&out);
     assert!((j["classical"].as_f64().unwrap() - 1.0).abs() < 1e-12);
-    assert_eq!(j["npa_symmetry"]["detected_order"], Value::String(order));
+    assert_eq!(
+        j["npa_details"]["symmetry"]["detected_order"],
+        Value::String(order)
+    );
 }
 
 #[test]

@@ -209,6 +209,12 @@ def test_errors_carry_kind_message_and_location(tmp_path):
     assert info.value.kind in ("usage", "input")
     with pytest.raises(bellgap.UsageError):
         bellgap.Game.family("cglmp")  # needs d
+    # The added families, with the command line's parameters and defaults.
+    assert bellgap.classical(bellgap.Game.family("svetlichny")).classical == 4.0
+    assert bellgap.classical(bellgap.Game.family("mermin", players=4)).classical == 4.0
+    assert abs(bellgap.classical(bellgap.Game.family("chsh-mod", d=3)).classical - 2 / 3) < 1e-12
+    tilted = bellgap.classical(bellgap.Game.family("tilted-chsh", alpha=1.2, beta=0.3))
+    assert abs(tilted.classical - 2.7) < 1e-12
 
 
 def test_seesaw_strategy_reproduces_its_value_by_the_born_rule():

@@ -32,7 +32,7 @@ use crate::protocol::randomness::Randomness;
 use crate::protocol::CAUTION;
 
 /// Version of the JSON schema; raised when a key is renamed or removed.
-pub const SCHEMA_VERSION: u32 = 1;
+pub const SCHEMA_VERSION: u32 = 2;
 
 /// Any report as a JSON value.
 pub fn to_value<T: Serialize>(report: &T) -> Value {
@@ -144,7 +144,8 @@ struct NpaView<'a> {
     iterations: u32,
     seconds: f64,
     npa_primal: f64,
-    gap: f64,
+    /// The solver's relative primal–dual gap (not a gap between bounds: those are `gaps`).
+    duality_gap: f64,
     residual: f64,
     solver: Backend,
     /// How the relaxation was reduced by the game's symmetries (null: solved in full).
@@ -153,6 +154,33 @@ struct NpaView<'a> {
     levels: Option<Vec<&'a NpaBound>>,
     #[serde(skip_serializing_if = "Option::is_none")]
     best_verified_upper: Option<BestLevelView<'a>>,
+}
+
+/// The NPA bound within `bounds`: the bounds at the top level, like the other bounds', and the
+/// solve's details (status, time, iterations, accuracy) under `npa_details`, like
+/// `classical_details` and `no_signalling_details`.
+#[derive(Serialize)]
+struct NpaInBoundsView<'a> {
+    quantum_upper: f64,
+    verified_upper: f64,
+    npa_details: NpaDetailsView<'a>,
+}
+
+#[derive(Serialize)]
+struct NpaDetailsView<'a> {
+    level: &'a Level,
+    matrix_size: usize,
+    moments: usize,
+    status: SolveStatus,
+    iterations: u32,
+    seconds: f64,
+    primal: f64,
+    /// The solver's relative primal–dual gap.
+    duality_gap: f64,
+    residual: f64,
+    solver: Backend,
+    /// How the relaxation was reduced by the game's symmetries (null: solved in full).
+    symmetry: Option<&'a SymmetryUse>,
 }
 
 #[derive(Serialize)]
@@ -216,6 +244,8 @@ struct GameReportView<'a> {
     no_signalling_details: Option<NoSignallingDetailsView>,
     #[serde(flatten)]
     npa: Option<NpaView<'a>>,
+    #[serde(flatten)]
+    npa_in_bounds: Option<NpaInBoundsView<'a>>,
     #[serde(flatten)]
     seesaw: Option<SeesawView<'a>>,
     #[serde(flatten)]
@@ -309,32 +339,57 @@ impl<'a> GameReportView<'a> {
                 constraints: ns.constraints,
                 seconds: ns.seconds,
             }),
-            npa: r.npa.as_ref().map(|b| {
-                let compared = !r.npa_levels.is_empty();
-                NpaView {
+            npa: r
+                .npa
+                .as_ref()
+                .filter(|_| r.command != CommandKind::Bounds)
+                .map(|b| {
+                    let compared = !r.npa_levels.is_empty();
+                    NpaView {
+                        quantum_upper: b.quantum_upper,
+                        verified_upper: b.verified_upper,
+                        level: &b.level,
+                        matrix_size: b.matrix_size,
+                        moments: b.moments,
+                        status: b.status,
+                        iterations: b.iterations,
+                        seconds: b.seconds,
+                        npa_primal: b.primal,
+                        duality_gap: b.gap,
+                        residual: b.residual,
+                        solver: b.solver,
+                        npa_symmetry: b.symmetry.as_ref(),
+                        levels: compared
+                            .then(|| r.npa_levels.iter().chain(std::iter::once(b)).collect()),
+                        best_verified_upper: r.best_npa().filter(|_| compared).map(|best| {
+                            BestLevelView {
+                                level: &best.level,
+                                verified_upper: best.verified_upper,
+                            }
+                        }),
+                    }
+                }),
+            npa_in_bounds: r
+                .npa
+                .as_ref()
+                .filter(|_| r.command == CommandKind::Bounds)
+                .map(|b| NpaInBoundsView {
                     quantum_upper: b.quantum_upper,
                     verified_upper: b.verified_upper,
-                    level: &b.level,
-                    matrix_size: b.matrix_size,
-                    moments: b.moments,
-                    status: b.status,
-                    iterations: b.iterations,
-                    seconds: b.seconds,
-                    npa_primal: b.primal,
-                    gap: b.gap,
-                    residual: b.residual,
-                    solver: b.solver,
-                    npa_symmetry: b.symmetry.as_ref(),
-                    levels: compared
-                        .then(|| r.npa_levels.iter().chain(std::iter::once(b)).collect()),
-                    best_verified_upper: r.best_npa().filter(|_| compared).map(|best| {
-                        BestLevelView {
-                            level: &best.level,
-                            verified_upper: best.verified_upper,
-                        }
-                    }),
-                }
-            }),
+                    npa_details: NpaDetailsView {
+                        level: &b.level,
+                        matrix_size: b.matrix_size,
+                        moments: b.moments,
+                        status: b.status,
+                        iterations: b.iterations,
+                        seconds: b.seconds,
+                        primal: b.primal,
+                        duality_gap: b.gap,
+                        residual: b.residual,
+                        solver: b.solver,
+                        symmetry: b.symmetry.as_ref(),
+                    },
+                }),
             seesaw: r.seesaw.as_ref().map(|sw| SeesawView {
                 quantum_lower: sw.quantum_lower,
                 dims: &sw.dims,
@@ -792,30 +847,20 @@ mod tests {
                 "entanglement",
                 "game",
                 "gaps",
-                "gap",
-                "iterations",
                 "kind",
-                "level",
-                "matrix_size",
-                "moments",
                 "no_signalling",
                 "no_signalling_details",
-                "npa_primal",
-                "npa_symmetry",
+                "npa_details",
                 "players",
                 "quantum_lower",
                 "quantum_settled",
                 "quantum_upper",
-                "residual",
                 "restarts",
                 "robustness",
                 "schema_version",
-                "seconds",
                 "seed",
                 "seesaw_details",
-                "solver",
                 "source",
-                "status",
                 "verified_upper",
                 "warnings",
             ]
@@ -829,8 +874,22 @@ mod tests {
         assert_eq!(v["kind"], "win");
         assert_eq!(v["classical_details"]["status"], "exact");
         assert_eq!(v["no_signalling_details"]["method"], "simplex");
-        assert_eq!(v["status"], "solved");
-        assert!(v["solver"] == "moment-ipm" || v["solver"] == "clarabel");
+        // The NPA solve's own figures are its details, apart from the bounds' gaps.
+        let npa = &v["npa_details"];
+        assert_eq!(npa["status"], "solved");
+        assert!(npa["solver"] == "moment-ipm" || npa["solver"] == "clarabel");
+        assert!(npa["duality_gap"].as_f64().unwrap() < 1e-6);
+        for key in [
+            "level",
+            "iterations",
+            "moments",
+            "seconds",
+            "symmetry",
+            "primal",
+        ] {
+            assert!(npa.get(key).is_some(), "{key}");
+        }
+        assert!(v["gaps"]["quantum_upper_minus_lower"].as_f64().unwrap() < 1e-6);
         assert_eq!(v["classical"], 0.75);
         assert_eq!(v["quantum_settled"], true);
     }

@@ -675,7 +675,9 @@ pub struct NpaBound {
     pub seconds: f64,
     /// Time spent building the relaxation.
     pub build_seconds: f64,
-    /// Relative duality gap and residual at the returned point.
+    /// Relative duality gap and residual at the returned point (in JSON `duality_gap`: not a
+    /// gap between bounds).
+    #[serde(rename = "duality_gap")]
     pub gap: f64,
     /// Largest relative residual at the returned point.
     pub residual: f64,
