@@ -1531,3 +1531,78 @@ fn entropy_and_finite_size_refuse_hierarchies_estimated_above_an_hour() {
         );
     }
 }
+
+/// The optimal CHSH strategy written by hand, with expressions for its amplitudes and entries.
+const CHSH_STRATEGY_BY_HAND: &str = r#"dims: [2, 2]
+state: ["1/sqrt(2)", 0, 0, "1/sqrt(2)"]
+measurements:
+  alice:
+    - question: 0
+      elements: [[[1, 0], [0, 0]], [[0, 0], [0, 1]]]
+    - question: 1
+      elements: [[["1/2", "1/2"], ["1/2", "1/2"]], [["1/2", "-1/2"], ["-1/2", "1/2"]]]
+  bob:
+    - question: 0
+      elements:
+        - [["(1 + 1/sqrt(2))/2", "1/(2*sqrt(2))"], ["1/(2*sqrt(2))", "(1 - 1/sqrt(2))/2"]]
+        - [["(1 - 1/sqrt(2))/2", "-1/(2*sqrt(2))"], ["-1/(2*sqrt(2))", "(1 + 1/sqrt(2))/2"]]
+    - question: 1
+      elements:
+        - [["(1 + 1/sqrt(2))/2", "-1/(2*sqrt(2))"], ["-1/(2*sqrt(2))", "(1 - 1/sqrt(2))/2"]]
+        - [["(1 - 1/sqrt(2))/2", "1/(2*sqrt(2))"], ["1/(2*sqrt(2))", "(1 + 1/sqrt(2))/2"]]
+"#;
+
+#[test]
+fn strategy_files_take_expressions_and_rounded_states_get_a_hint() {
+    let exact = temp_file("chsh-by-hand.yaml", CHSH_STRATEGY_BY_HAND);
+    let j = json_of(&bellgap(&[
+        "evaluate",
+        "games/chsh.yaml",
+        exact.to_str().unwrap(),
+        "--json",
+    ]));
+    let tsirelson = 0.5 + 2f64.sqrt() / 4.0;
+    assert!(
+        (j["value"].as_f64().unwrap() - tsirelson).abs() < 1e-12,
+        "{j}"
+    );
+    // Amplitudes rounded to four digits miss the norm by 1e-5: refused with the hint, and
+    // accepted with --normalise.
+    let rounded = temp_file(
+        "chsh-rounded.yaml",
+        &CHSH_STRATEGY_BY_HAND
+            .replace("\"1/sqrt(2)\", 0, 0, \"1/sqrt(2)\"", "0.7071, 0, 0, 0.7071"),
+    );
+    let out = bellgap(&["evaluate", "games/chsh.yaml", rounded.to_str().unwrap()]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.contains("look rounded") && err.contains("--normalise"),
+        "{err}"
+    );
+    let j = json_of(&bellgap(&[
+        "evaluate",
+        "games/chsh.yaml",
+        rounded.to_str().unwrap(),
+        "--normalise",
+        "--json",
+    ]));
+    assert!(
+        (j["value"].as_f64().unwrap() - tsirelson).abs() < 1e-9,
+        "{j}"
+    );
+    // A state far from unit norm gets no hint, and a bad expression is located.
+    let far = temp_file(
+        "chsh-far.yaml",
+        &CHSH_STRATEGY_BY_HAND.replace("\"1/sqrt(2)\", 0, 0, \"1/sqrt(2)\"", "0.5, 0, 0, 0.5"),
+    );
+    let out = bellgap(&["evaluate", "games/chsh.yaml", far.to_str().unwrap()]);
+    assert!(!String::from_utf8_lossy(&out.stderr).contains("look rounded"));
+    let bad = temp_file(
+        "chsh-bad.yaml",
+        &CHSH_STRATEGY_BY_HAND.replace("\"1/sqrt(2)\", 0, 0", "\"1/sqrt(\", 0, 0"),
+    );
+    let out = bellgap(&["evaluate", "games/chsh.yaml", bad.to_str().unwrap()]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("state[0]"));
+}

@@ -164,3 +164,44 @@ fn invalid_strategies_are_rejected_with_locations() {
     .unwrap_err();
     assert!(e.to_string().contains("s.yaml:2"), "{e}");
 }
+
+#[test]
+fn a_strategy_in_its_schmidt_basis_has_the_same_behaviour_and_reads_plainly() {
+    // CHSH (maximally entangled: the first measurement diagonal, everything real) and CGLMP
+    // with three answers (a partially entangled optimum): the behaviour is the same to
+    // rounding, and the state has the Schmidt form Σ σ_k |kk⟩ with σ_k ≥ 0.
+    for (spec, d) in [(families::chsh(), 2usize), (families::cglmp(3).unwrap(), 3)] {
+        let s = compile(&spec);
+        let found = run(&s, d, 3).strategy;
+        let plain = found.in_schmidt_basis();
+        plain.check(&s).unwrap();
+        let (before, after) = (found.behaviour(&s), plain.behaviour(&s));
+        let moved = before
+            .iter()
+            .zip(&after)
+            .map(|(a, b)| (a - b).abs())
+            .fold(0.0, f64::max);
+        assert!(moved < 1e-12, "behaviour moved by {moved}");
+        for i in 0..d {
+            for j in 0..d {
+                let z = plain.state[i * d + j];
+                if i == j {
+                    assert!(z.im == 0.0 && z.re >= 0.0, "{z}");
+                } else {
+                    assert_eq!(z, Complex64::new(0.0, 0.0));
+                }
+            }
+        }
+        if d == 2 {
+            let all_real = plain
+                .measurements
+                .iter()
+                .flatten()
+                .flatten()
+                .all(|m| m.iter().all(|z| z.im == 0.0));
+            assert!(all_real);
+            let first = &plain.measurements[0][0][0];
+            assert!(first[(0, 1)].norm() < 1e-12, "{first}");
+        }
+    }
+}

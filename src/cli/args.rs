@@ -167,6 +167,10 @@ pub enum Command {
         /// it); on a large game computing it can take long.
         #[arg(long)]
         no_classical: bool,
+        /// Divide the strategy's state by its norm before checking it (for amplitudes written
+        /// rounded, such as 0.7071).
+        #[arg(long)]
+        normalise: bool,
     },
     /// What an observed score over n rounds certifies: confidence bounds, margin over the
     /// classical value, p-value of classical devices, rounds needed.

@@ -232,7 +232,10 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
                 .as_ref()
                 .ok_or_else(|| Error::solver("see-saw", "no strategy found"))?;
             if let Some(file) = save {
-                let yaml = readable_yaml(&found.strategy.to_yaml_value(&game.scenario));
+                // Saved in the Schmidt basis, real where it can be: the same behaviour, a file a
+                // person can read.
+                let readable = found.strategy.in_schmidt_basis();
+                let yaml = readable_yaml(&readable.to_yaml_value(&game.scenario));
                 write(file, &yaml, inputs)?;
             }
             if let Some(file) = svg {
@@ -248,11 +251,16 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
         Request::Evaluate {
             game,
             strategy,
+            reading,
             options,
             svg,
         } => {
             let game = load(game)?;
-            let st = QuantumStrategy::from_file(&strategy.to_string_lossy(), &game.scenario)?;
+            let st = QuantumStrategy::from_file_with(
+                &strategy.to_string_lossy(),
+                &game.scenario,
+                reading,
+            )?;
             let r = pipeline::evaluate(&game, &st, options, &observer)?;
             if let Some(file) = svg {
                 let classical = r.strategy_analysis.as_ref().and_then(|a| a.classical);

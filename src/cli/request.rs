@@ -11,6 +11,7 @@ use bellgap::bounds::quantum::seesaw::SeesawOptions;
 use bellgap::bounds::quantum::symmetric::SymmetryChoice;
 use bellgap::formats::game::families::{self, Family};
 use bellgap::formats::game::CompileOptions;
+use bellgap::formats::strategy_file::StrategyFileOptions;
 use bellgap::limits::Limits;
 use bellgap::optim::backend::Backend;
 use bellgap::optim::first_order::FirstOrderOptions;
@@ -141,6 +142,7 @@ pub enum Request {
     Evaluate {
         game: GameInput,
         strategy: PathBuf,
+        reading: StrategyFileOptions,
         options: EvaluateOptions,
         svg: Option<PathBuf>,
     },
@@ -486,9 +488,13 @@ impl Invocation {
                 strategy,
                 svg,
                 no_classical,
+                normalise,
             } => Request::Evaluate {
                 game: game_input(args),
                 strategy: strategy.clone(),
+                reading: StrategyFileOptions {
+                    normalise: *normalise,
+                },
                 options: EvaluateOptions {
                     skip_classical: *no_classical,
                     limits: limits(args.force),

@@ -6,11 +6,12 @@
 //!
 //! ```yaml
 //! dims: [2, 2]                       # local dimension of each player, in game order
-//! state: [[0.7071, 0], 0, 0, [0.7071, 0]]   # amplitudes, product basis, first player most significant
+//! state: ["1/sqrt(2)", 0, 0, [0.7071067811865476, 0]]   # amplitudes, product basis, first player most significant
 //! measurements:
 //!   alice:                           # one entry per question, in the game's question order
 //!     - question: 0                  # the question label
 //!       elements:                    # one d×d matrix per answer, entries real or [re, im]
+//!                                    # (each number may be an expression such as "1/sqrt(2)")
 //!         - [[1, 0], [0, 0]]
 //!         - [[0, 0], [0, 1]]
 //! ```
@@ -18,6 +19,7 @@
 use num_complex::Complex64;
 use serde_yaml::{Mapping, Value as Yaml};
 
+use super::fields::real;
 use super::files::read_text;
 use super::located::{yaml_error, Context, SourceMap};
 use crate::error::Result;
@@ -32,6 +34,11 @@ impl QuantumStrategy {
         // Integral parts are written as integers, and dust below 1e-15 as 0, for readable files.
         let clean = |v: f64| -> Yaml {
             let v = if v.abs() < 1e-15 { 0.0 } else { v };
+            // Within 1e-12 of a number with at most six decimals (0.5, 1, 0.25): that number.
+            // The file is re-checked when read, and the change is far below the checks'
+            // tolerances and the value's stated error.
+            let short = (v * 1e6).round() / 1e6;
+            let v = if (v - short).abs() < 1e-12 { short } else { v };
             if v == v.round() && v.abs() < 1e15 {
                 Yaml::from(v as i64)
             } else {
@@ -39,7 +46,7 @@ impl QuantumStrategy {
             }
         };
         let c = |z: Complex64| -> Yaml {
-            if z.im.abs() < 1e-15 {
+            if z.im.abs() < 1e-12 {
                 clean(z.re)
             } else {
                 Yaml::Sequence(vec![clean(z.re), clean(z.im)])
@@ -92,6 +99,16 @@ impl QuantumStrategy {
 
     /// Reads a strategy file for game `s`, with located errors.
     pub fn from_yaml(text: &str, file: &str, s: &Scenario) -> Result<QuantumStrategy> {
+        Self::from_yaml_with(text, file, s, &StrategyFileOptions::default())
+    }
+
+    /// [`QuantumStrategy::from_yaml`] with options (the state normalised first, when asked).
+    pub fn from_yaml_with(
+        text: &str,
+        file: &str,
+        s: &Scenario,
+        options: &StrategyFileOptions,
+    ) -> Result<QuantumStrategy> {
         let root: Yaml = serde_yaml::from_str(text).map_err(|e| yaml_error(e, file))?;
         let ctx = Context {
             file: file.to_string(),
@@ -142,18 +159,18 @@ impl QuantumStrategy {
             ));
         };
         // Non-finite entries are refused here: NaN passes every `> tolerance` check later.
+        // Numbers or constant expressions ("1/sqrt(2)"), as in correlations files.
         let complex = |v: &Yaml, field: &str| -> Result<Complex64> {
-            let z = match v {
-                Yaml::Number(x) => x.as_f64().map(|re| Complex64::new(re, 0.0)),
-                Yaml::Sequence(p) if p.len() == 2 => match (p[0].as_f64(), p[1].as_f64()) {
-                    (Some(re), Some(im)) => Some(Complex64::new(re, im)),
-                    _ => return Err(ctx.error(field, "expected [re, im] with two numbers")),
-                },
-                _ => return Err(ctx.error(field, "expected a number or [re, im]")),
-            };
-            match z {
-                Some(z) if z.re.is_finite() && z.im.is_finite() => Ok(z),
-                _ => Err(ctx.error(field, "expected a finite number")),
+            match v {
+                Yaml::Number(_) | Yaml::String(_) => {
+                    Ok(Complex64::new(real(v, &ctx, field, &[])?, 0.0))
+                }
+                Yaml::Sequence(p) if p.len() == 2 => Ok(Complex64::new(
+                    real(&p[0], &ctx, &format!("{field}[0]"), &[])?,
+                    real(&p[1], &ctx, &format!("{field}[1]"), &[])?,
+                )),
+                Yaml::Sequence(_) => Err(ctx.error(field, "expected [re, im] with two numbers")),
+                _ => Err(ctx.error(field, "expected a number or [re, im]")),
             }
         };
         let state = match map.get("state") {
@@ -258,6 +275,18 @@ impl QuantumStrategy {
             }
             measurements.push(povms);
         }
+        let state = if options.normalise {
+            let norm = state.norm();
+            if !(norm > 0.0 && norm.is_finite()) {
+                return Err(ctx.error(
+                    "state",
+                    format!("the state has norm {norm}: nothing to normalise"),
+                ));
+            }
+            &state / Complex64::new(norm, 0.0)
+        } else {
+            state
+        };
         let strategy = QuantumStrategy {
             dims,
             state,
@@ -271,7 +300,24 @@ impl QuantumStrategy {
 
     /// Reads and checks a strategy file for game `s`.
     pub fn from_file(path: &str, s: &Scenario) -> Result<QuantumStrategy> {
-        let text = read_text(path)?;
-        Self::from_yaml(&text, path, s)
+        Self::from_file_with(path, s, &StrategyFileOptions::default())
     }
+
+    /// [`QuantumStrategy::from_file`] with options.
+    pub fn from_file_with(
+        path: &str,
+        s: &Scenario,
+        options: &StrategyFileOptions,
+    ) -> Result<QuantumStrategy> {
+        let text = read_text(path)?;
+        Self::from_yaml_with(&text, path, s, options)
+    }
+}
+
+/// How a strategy file is read.
+#[derive(Debug, Clone, Default)]
+pub struct StrategyFileOptions {
+    /// Divide the state by its norm before the checks (amplitudes written rounded, such as
+    /// 0.7071, then pass the normalisation check).
+    pub normalise: bool,
 }

@@ -140,6 +140,103 @@ impl QuantumStrategy {
         s.value_of_behaviour(&self.behaviour(s))
     }
 
+    /// The same strategy, for a reader's eyes: for two players of equal dimension, the state in
+    /// its Schmidt basis (Σ_k σ_k |k⟩|k⟩ with σ_k ≥ 0, from the singular value decomposition
+    /// Ψ = U Σ V* of its amplitude matrix) and the measurements carried along (U* A U for the
+    /// first player, Vᵀ B V̄ for the second: the same behaviour); then the diagonal phases that
+    /// keep that state make the first player's first element's first row real, and entries
+    /// left with imaginary parts below 1e-12 are written as real numbers. Anything else is
+    /// returned unchanged. The behaviour is unchanged up to rounding.
+    pub fn in_schmidt_basis(&self) -> QuantumStrategy {
+        let [da, db] = self.dims[..] else {
+            return self.clone();
+        };
+        if da != db || self.measurements.len() != 2 {
+            return self.clone();
+        }
+        let psi = CMatrix::from_fn(da, db, |i, j| self.state[i * db + j]);
+        let svd = psi.svd(true, true);
+        let (Some(u), Some(v_t)) = (svd.u, svd.v_t) else {
+            return self.clone();
+        };
+        // Ψ = U Σ Vᴴ with Vᴴ = v_t; the second player's basis vectors are the columns of V̄.
+        let v = v_t.adjoint();
+        let mut state = CVector::zeros(da * db);
+        for k in 0..da {
+            state[k * db + k] = Complex64::new(svd.singular_values[k], 0.0);
+        }
+        let a_map = |m: &CMatrix| u.adjoint() * m * &u;
+        let b_map = |m: &CMatrix| v.transpose() * m * v.conjugate();
+        let mut measurements = vec![
+            self.measurements[0]
+                .iter()
+                .map(|q| q.iter().map(a_map).collect::<Vec<_>>())
+                .collect::<Vec<_>>(),
+            self.measurements[1]
+                .iter()
+                .map(|q| q.iter().map(b_map).collect::<Vec<_>>())
+                .collect::<Vec<_>>(),
+        ];
+        let sigma = &svd.singular_values;
+        let rotate = |measurements: &mut Vec<Vec<Vec<CMatrix>>>, w: &CMatrix| {
+            for q in &mut measurements[0] {
+                for m in q.iter_mut() {
+                    *m = w.adjoint() * &*m * w;
+                }
+            }
+            for q in &mut measurements[1] {
+                for m in q.iter_mut() {
+                    *m = w.transpose() * &*m * w.conjugate();
+                }
+            }
+        };
+        // With equal Schmidt coefficients (a maximally entangled state) every W ⊗ W̄ keeps the
+        // state: W diagonalises the first player's first element, as a reader would choose.
+        if sigma.iter().all(|s| (s - sigma[0]).abs() < 1e-9) {
+            let eig = measurements[0][0][0].clone().symmetric_eigen();
+            let mut order: Vec<usize> = (0..da).collect();
+            order.sort_by(|&a, &b| eig.eigenvalues[b].total_cmp(&eig.eigenvalues[a]));
+            let w = CMatrix::from_fn(da, da, |r, c| eig.eigenvectors[(r, order[c])]);
+            rotate(&mut measurements, &w);
+        }
+        // Phases D = diag(e^{iθ_k}) act as D* A D and Dᵀ B D̄, keeping Σ_k σ_k |kk⟩; θ_k makes
+        // entry (0, k) of the first player's first element with a non-zero first row real and
+        // non-negative.
+        let first = measurements[0]
+            .iter()
+            .flatten()
+            .find(|m| (1..da).any(|k| m[(0, k)].norm() > 1e-9))
+            .unwrap_or(&measurements[0][0][0])
+            .clone();
+        let phases: Vec<Complex64> = (0..da)
+            .map(|k| {
+                let z = first[(0, k)];
+                if k > 0 && z.norm() > 1e-9 {
+                    z.conj() / z.norm()
+                } else {
+                    Complex64::new(1.0, 0.0)
+                }
+            })
+            .collect();
+        let d = CMatrix::from_diagonal(&nalgebra::DVector::from_vec(phases));
+        rotate(&mut measurements, &d);
+        let real = measurements
+            .iter()
+            .flatten()
+            .flatten()
+            .all(|m| m.iter().all(|z| z.im.abs() < 1e-12));
+        if real {
+            for m in measurements.iter_mut().flatten().flatten() {
+                m.apply(|z| *z = Complex64::new(z.re, 0.0));
+            }
+        }
+        QuantumStrategy {
+            dims: self.dims.clone(),
+            state,
+            measurements,
+        }
+    }
+
     /// The same strategy made exactly valid (up to rounding): the state normalised, each
     /// element replaced by its Hermitian part with negative eigenvalues clipped, and each
     /// question's elements rescaled by `S^{-1/2} · S^{-1/2}` with `S = Σ_a M_a`. A strategy that
@@ -377,7 +474,15 @@ impl QuantumStrategy {
         // `at_most` is false for NaN, so a NaN fails every check.
         let norm = self.state.norm();
         if !at_most((norm - 1.0).abs(), NORM_TOLERANCE) {
-            return Err(("state".into(), format!("the state has norm {norm}, not 1")));
+            let hint = if (norm - 1.0).abs() <= 1e-3 {
+                " (within 1e-3: the amplitudes look rounded; write them exactly, e.g. \"1/sqrt(2)\", or normalise the state, with `--normalise` on `evaluate`)"
+            } else {
+                ""
+            };
+            return Err((
+                "state".into(),
+                format!("the state has norm {norm}, not 1{hint}"),
+            ));
         }
         for (i, player) in self.measurements.iter().enumerate() {
             let p = &s.parties()[i];
