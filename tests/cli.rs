@@ -1606,3 +1606,46 @@ fn strategy_files_take_expressions_and_rounded_states_get_a_hint() {
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("state[0]"));
 }
+
+#[test]
+fn the_reference_pages_in_the_repository_are_the_generated_ones() {
+    // docs/reference holds what `bellgap reference` writes (man pages and completions, from the
+    // command definitions); a changed option without regenerated pages fails here. To refresh:
+    // `cargo run --release -- reference docs/reference`.
+    let dir = std::env::temp_dir().join(format!("bellgap-reference-{}", std::process::id()));
+    let out = bellgap(&["reference", dir.to_str().unwrap(), "--json"]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j = json_of(&out);
+    let files = j["files"].as_array().unwrap();
+    assert!(files.len() >= 20, "{j}");
+    let mut names: Vec<String> = Vec::new();
+    for f in files {
+        let path = std::path::PathBuf::from(f.as_str().unwrap());
+        let name = path.file_name().unwrap().to_string_lossy().to_string();
+        let committed = std::fs::read_to_string(format!("docs/reference/{name}"))
+            .unwrap_or_else(|_| panic!("docs/reference/{name} is missing: regenerate the pages"));
+        assert_eq!(
+            std::fs::read_to_string(&path).unwrap(),
+            committed,
+            "docs/reference/{name} is stale: regenerate the pages"
+        );
+        names.push(name);
+    }
+    for expected in [
+        "bellgap.1",
+        "bellgap-npa.1",
+        "bellgap-entropy.1",
+        "bellgap.bash",
+        "_bellgap",
+        "bellgap.fish",
+    ] {
+        assert!(names.iter().any(|n| n == expected), "{expected}");
+    }
+    // Nothing else lies in the folder.
+    let committed = std::fs::read_dir("docs/reference").unwrap().count();
+    assert_eq!(committed, names.len());
+}

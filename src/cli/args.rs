@@ -454,6 +454,19 @@ pub enum Command {
         #[arg(long, short)]
         quiet: bool,
     },
+    /// Write the reference pages generated from the command definitions into a folder: a man
+    /// page per command (`bellgap.1`, `bellgap-npa.1`, ...) and shell completions
+    /// (`bellgap.bash`, `_bellgap` for zsh, `bellgap.fish`).
+    Reference {
+        /// The folder (created if missing); existing pages of the same names are replaced.
+        folder: PathBuf,
+        /// Print one JSON object listing the files written.
+        #[arg(long)]
+        json: bool,
+        /// No progress output on stderr (accepted for uniformity: `reference` has none).
+        #[arg(long, short)]
+        quiet: bool,
+    },
     /// Print a standard game or Bell expression as a game file.
     Family {
         #[command(subcommand)]
@@ -732,6 +745,7 @@ impl Cli {
             Command::Key { .. }
             | Command::Review { .. }
             | Command::Local { .. }
+            | Command::Reference { .. }
             | Command::Family { .. }
             | Command::Sweep { .. }
             | Command::SweepMerge { .. } => None,
@@ -746,6 +760,7 @@ impl Cli {
                 Command::Key { quiet, .. }
                 | Command::Review { quiet, .. }
                 | Command::Local { quiet, .. }
+                | Command::Reference { quiet, .. }
                 | Command::Family { quiet, .. }
                 | Command::Sweep { quiet, .. }
                 | Command::SweepMerge { quiet, .. },
@@ -781,6 +796,7 @@ impl Cli {
             (_, Some(a)) => a.json || self.wants_json_lines(),
             (Command::Key { json, .. } | Command::Review { json, .. }, None) => *json,
             (Command::Local { json, .. } | Command::Family { json, .. }, None) => *json,
+            (Command::Reference { json, .. }, None) => *json,
             (Command::Sweep { json, .. } | Command::SweepMerge { json, .. }, None) => *json,
             _ => false,
         }

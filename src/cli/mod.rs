@@ -141,6 +141,45 @@ fn load(input: &GameInput) -> Result<Game> {
     Game::from_file(&input.path.to_string_lossy(), input.compile)
 }
 
+/// The reference pages generated from the command definitions: a man page for `bellgap` and
+/// one per command, and completions for bash, zsh and fish.
+pub fn reference_pages() -> Result<Vec<(String, String)>> {
+    use clap::CommandFactory;
+    let render_error =
+        |e: std::io::Error| Error::solver("writing the reference pages", e.to_string());
+    let mut command = args::Cli::command();
+    command.build();
+    let mut pages = Vec::new();
+    let man = |cmd: clap::Command| -> Result<String> {
+        let mut buffer = Vec::new();
+        clap_mangen::Man::new(cmd)
+            .render(&mut buffer)
+            .map_err(render_error)?;
+        Ok(String::from_utf8_lossy(&buffer).into_owned())
+    };
+    pages.push(("bellgap.1".to_string(), man(command.clone())?));
+    for sub in command.get_subcommands().filter(|c| c.get_name() != "help") {
+        let name = format!("bellgap-{}", sub.get_name());
+        // The page's title is `bellgap-npa` (clap names want a static string: leaked once per
+        // command, a few dozen bytes for the life of this short command).
+        let page = sub.clone().name(&*Box::leak(name.clone().into_boxed_str()));
+        pages.push((format!("{name}.1"), man(page)?));
+    }
+    for (shell, file) in [
+        (clap_complete::Shell::Bash, "bellgap.bash"),
+        (clap_complete::Shell::Zsh, "_bellgap"),
+        (clap_complete::Shell::Fish, "bellgap.fish"),
+    ] {
+        let mut buffer = Vec::new();
+        clap_complete::generate(shell, &mut command.clone(), "bellgap", &mut buffer);
+        pages.push((
+            file.to_string(),
+            String::from_utf8_lossy(&buffer).into_owned(),
+        ));
+    }
+    Ok(pages)
+}
+
 /// Writes an output atomically, never over one of the command's inputs.
 fn write(file: &Path, content: &str, inputs: &[PathBuf]) -> Result<()> {
     let inputs: Vec<&Path> = inputs.iter().map(PathBuf::as_path).collect();
@@ -417,6 +456,39 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             shards,
             output: file,
         } => sweep::merge(shards, file.as_ref(), inputs),
+        Request::Reference { folder } => {
+            let files = reference_pages()?;
+            std::fs::create_dir_all(folder).map_err(|e| Error::Io {
+                path: folder.display().to_string(),
+                op: bellgap::IoOp::Write,
+                source: e,
+            })?;
+            let mut written = Vec::new();
+            for (name, content) in &files {
+                let path = folder.join(name);
+                write(&path, content, inputs)?;
+                written.push(path.display().to_string());
+            }
+            Ok(Output {
+                text: format!(
+                    "{} reference pages written to {}: {}\n",
+                    written.len(),
+                    folder.display(),
+                    files
+                        .iter()
+                        .map(|(n, _)| n.as_str())
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                ),
+                json: serde_json::json!({
+                    "schema_version": json::SCHEMA_VERSION,
+                    "command": "reference",
+                    "folder": folder.display().to_string(),
+                    "files": written,
+                }),
+                warnings: Vec::new(),
+            })
+        }
         Request::Family { family } => {
             let spec = match family {
                 FamilyChoice::Standard(f) => f.spec()?,

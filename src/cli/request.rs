@@ -210,6 +210,8 @@ pub enum Request {
         shards: Vec<PathBuf>,
         output: Option<PathBuf>,
     },
+    /// `reference`.
+    Reference { folder: PathBuf },
 }
 
 /// A request with how its result is presented.
@@ -726,6 +728,9 @@ impl Invocation {
                 list: list.clone(),
                 shard: s.as_deref().map(shard).transpose()?,
                 output: output.clone(),
+            },
+            Command::Reference { folder, .. } => Request::Reference {
+                folder: folder.clone(),
             },
             Command::SweepMerge { shards, output, .. } => Request::SweepMerge {
                 shards: shards.clone(),
