@@ -91,8 +91,13 @@ fn main() -> ExitCode {
             let failed = out.json.get("failed").and_then(|v| v.as_u64()).unwrap_or(0);
             if cli.is_sweep() && failed > 0 {
                 eprintln!(
-                    "error: {failed} line{} of the list failed (their error objects are among the records); exit code 3",
-                    if failed == 1 { "" } else { "s" }
+                    "error: {failed} {} of the list failed ({} among the records); exit code 3",
+                    if failed == 1 { "line" } else { "lines" },
+                    if failed == 1 {
+                        "its error object is"
+                    } else {
+                        "their error objects are"
+                    }
                 );
                 return ExitCode::from(3);
             }

@@ -384,7 +384,7 @@ fn plot(r: &Review) -> Option<String> {
 /// The review as one self-contained HTML page (every text escaped).
 pub fn html(r: &Review) -> String {
     let mut h = String::new();
-    let _ = write!(h, "<!DOCTYPE html>\n<html><head><meta charset=\"utf-8\"><title>Review: {0}</title><style>body{{font-family:sans-serif;max-width:60em;margin:2em auto}}table{{border-collapse:collapse}}td{{border:1px solid #ccc;padding:.3em .6em}}</style></head><body>\n<h1>Review: {0}</h1>\n<p><strong>{3}</strong></p>\n<p>Game: {1} ({2})</p>\n<p>{4}</p>\n", esc(&r.name), esc(&r.bounds.game.name), esc(&r.bounds.game.source), esc(&verdict(r)), esc(&provenance(r)));
+    let _ = write!(h, "<!DOCTYPE html>\n<html><head><meta charset=\"utf-8\"><title>Review: {0}</title><style>body{{font-family:sans-serif;max-width:60em;margin:2em auto}}table{{border-collapse:collapse}}td{{border:1px solid #ccc;padding:.3em .6em}}</style></head><body>\n<h1>Review: {0}</h1>\n<p><strong>{3}</strong></p>\n<p>Game: {1} ({2})</p>\n<p>{4}</p>\n", esc(&r.name), esc(&r.bounds.game.name), esc(&r.bounds.game.source), superscripts(&esc(&verdict(r))), esc(&provenance(r)));
     for (title, rows) in tables(r) {
         let _ = write!(h, "<h2>{}</h2>\n<table>\n", esc(&title));
         for (k, v) in rows {
