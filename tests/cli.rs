@@ -830,13 +830,12 @@ fn npa_compares_levels_and_plots() {
         "{v:?}"
     );
     assert_eq!(j["level"], "2");
-    assert!(
-        std::fs::read_to_string(&svg)
-            .unwrap()
-            .matches("<circle")
-            .count()
-            == 3
-    );
+    // Each level's excess over the best verified bound, on a log axis (0.12, 5.3e-4: two
+    // decades apart, flat on a linear axis); the best level is named in the title.
+    let plot = std::fs::read_to_string(&svg).unwrap();
+    assert_eq!(plot.matches("<circle").count(), 2, "{plot}");
+    assert!(plot.contains("best: level 2"), "{plot}");
+    assert!(plot.contains("<tspan"), "{plot}");
 }
 
 #[test]
@@ -1648,4 +1647,41 @@ fn the_reference_pages_in_the_repository_are_the_generated_ones() {
     // Nothing else lies in the folder.
     let committed = std::fs::read_dir("docs/reference").unwrap().count();
     assert_eq!(committed, names.len());
+}
+
+#[test]
+fn markdown_reviews_write_their_plots_beside_them_and_link_them() {
+    // Common Markdown renderers show linked images but not data URIs.
+    let dir = std::env::temp_dir().join(format!("bellgap-md-plots-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let report = dir.join("quarry.md");
+    let out = bellgap(&[
+        "review",
+        "examples/data/lab-counts-protocol.yaml",
+        "--markdown",
+        "-o",
+        report.to_str().unwrap(),
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let md = std::fs::read_to_string(&report).unwrap();
+    assert!(md.contains("](quarry-min-entropy.svg)"), "{md}");
+    assert!(!md.contains("data:image"), "{md}");
+    let svg = std::fs::read_to_string(dir.join("quarry-min-entropy.svg")).unwrap();
+    // The run's own score is marked on the curve.
+    assert!(svg.contains("this run (lower confidence score)") && svg.contains("stroke-dasharray"));
+    // To stdout there is nowhere to put a plot: the report says how to get them.
+    let out = bellgap(&[
+        "review",
+        "examples/data/lab-counts-protocol.yaml",
+        "--markdown",
+    ]);
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        text.contains("-o FILE.md") && !text.contains("data:image"),
+        "{text}"
+    );
 }

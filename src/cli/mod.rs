@@ -390,19 +390,33 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             let game = Game::from_file(&protocol.game_path.to_string_lossy(), Default::default())?;
             let mut r = pipeline::review(&protocol, &game, &observer)?;
             r.command_line = std::env::args().collect::<Vec<_>>().join(" ");
-            let doc = match format {
-                DocumentFormat::Markdown => document::markdown(&r),
-                DocumentFormat::Html => document::html(&r),
-            };
-            let text = match file {
-                Some(file) => {
-                    let mut inputs = inputs.clone();
-                    inputs.push(protocol.game_path.clone());
-                    inputs.extend(protocol.counts_path.clone());
-                    write(file, &doc, &inputs)?;
+            let mut inputs = inputs.clone();
+            inputs.push(protocol.game_path.clone());
+            inputs.extend(protocol.counts_path.clone());
+            let text = match (format, file) {
+                (DocumentFormat::Html, Some(file)) => {
+                    write(file, &document::html(&r), &inputs)?;
                     format!("review written to {}\n", file.to_string_lossy())
                 }
-                None => doc,
+                (DocumentFormat::Html, None) => document::html(&r),
+                (DocumentFormat::Markdown, Some(file)) => {
+                    // The plots go beside the report, named after it, and are linked from it.
+                    let stem = file
+                        .file_stem()
+                        .map(|s| s.to_string_lossy().into_owned())
+                        .unwrap_or_else(|| "review".into());
+                    let (doc, plots) = document::markdown(&r, Some(&stem));
+                    let folder = file.parent().unwrap_or(std::path::Path::new(""));
+                    let mut written = vec![file.to_string_lossy().into_owned()];
+                    for (name, svg) in &plots {
+                        let path = folder.join(name);
+                        write(&path, svg, &inputs)?;
+                        written.push(path.to_string_lossy().into_owned());
+                    }
+                    write(file, &doc, &inputs)?;
+                    format!("review written to {}\n", written.join(", "))
+                }
+                (DocumentFormat::Markdown, None) => document::markdown(&r, None).0,
             };
             Ok(output(text, &r, &game.warnings))
         }

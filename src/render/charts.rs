@@ -14,6 +14,36 @@ pub struct Series {
 
 const COLOURS: [&str; 4] = ["#1f5fa8", "#c0392b", "#27864a", "#8e44ad"];
 
+/// A reference line across the plot: the run's number of rounds, the observed score.
+pub struct Marker {
+    /// Vertical (at an x value) or horizontal (at a y value).
+    pub axis: MarkerAxis,
+    /// Where, in the data's units.
+    pub at: f64,
+    /// Its label, drawn beside it.
+    pub label: String,
+}
+
+/// Which way a [`Marker`] runs.
+#[derive(Clone, Copy, PartialEq, Eq)]
+pub enum MarkerAxis {
+    /// A vertical line at an x value.
+    X,
+    /// A horizontal line at a y value.
+    Y,
+}
+
+/// How a chart draws its axes.
+#[derive(Default)]
+pub struct ChartOptions {
+    /// Logarithmic x axis (points with x ≤ 0 are left out), ticks at powers of ten.
+    pub log_x: bool,
+    /// Logarithmic y axis (points with y ≤ 0 are left out), ticks at powers of ten.
+    pub log_y: bool,
+    /// Reference lines.
+    pub markers: Vec<Marker>,
+}
+
 fn ticks(lo: f64, hi: f64) -> Vec<f64> {
     let span = (hi - lo).max(1e-12);
     let raw = span / 5.0;
@@ -34,7 +64,25 @@ fn ticks(lo: f64, hi: f64) -> Vec<f64> {
 
 /// A chart of one or more series, 640×400 pixels.
 pub fn line_chart(title: &str, x_label: &str, y_label: &str, series: &[Series]) -> String {
-    chart(title, x_label, y_label, series, None)
+    chart(
+        title,
+        x_label,
+        y_label,
+        series,
+        None,
+        &ChartOptions::default(),
+    )
+}
+
+/// [`line_chart`] with options (log axes, reference lines).
+pub fn line_chart_with(
+    title: &str,
+    x_label: &str,
+    y_label: &str,
+    series: &[Series],
+    options: &ChartOptions,
+) -> String {
+    chart(title, x_label, y_label, series, None, options)
 }
 
 /// A chart whose x axis is a list of categories (e.g. NPA levels): point k of each series is
@@ -45,8 +93,9 @@ pub fn category_chart(
     categories: &[String],
     y_label: &str,
     series: &[Series],
+    options: &ChartOptions,
 ) -> String {
-    chart(title, x_label, y_label, series, Some(categories))
+    chart(title, x_label, y_label, series, Some(categories), options)
 }
 
 fn chart(
@@ -55,8 +104,31 @@ fn chart(
     y_label: &str,
     series: &[Series],
     categories: Option<&[String]>,
+    options: &ChartOptions,
 ) -> String {
-    let (w, h, left, right, top, bottom) = (640.0, 400.0, 70.0, 20.0, 40.0, 50.0);
+    // On a log axis values are drawn at their logarithm; points that have none are left out.
+    let to_x = |x: f64| if options.log_x { x.log10() } else { x };
+    let to_y = |y: f64| if options.log_y { y.log10() } else { y };
+    let drawn = |&(x, y): &(f64, f64)| {
+        (!options.log_x || x > 0.0) && (!options.log_y || y > 0.0) && x.is_finite() && y.is_finite()
+    };
+    let series: Vec<Series> = series
+        .iter()
+        .map(|s| Series {
+            name: s.name.clone(),
+            points: s
+                .points
+                .iter()
+                .filter(|p| drawn(p))
+                .map(|&(x, y)| (to_x(x), to_y(y)))
+                .collect(),
+        })
+        .collect();
+    let series = &series[..];
+    // The legend sits in a band above the plot, clear of the curves.
+    let legend = series.len() > 1;
+    let (w, h, left, right, bottom) = (640.0, 400.0, 70.0, 20.0, 50.0);
+    let top = if legend { 58.0 } else { 40.0 };
     let all = series.iter().flat_map(|s| s.points.iter());
     let (mut x0, mut x1, mut y0, mut y1) = (
         f64::INFINITY,
@@ -104,7 +176,13 @@ fn chart(
             .enumerate()
             .map(|(k, name)| ((k + 1) as f64, escape(name)))
             .collect(),
+        None if options.log_x => power_ticks(x0, x1),
         None => ticks(x0, x1).into_iter().map(|t| (t, short(t))).collect(),
+    };
+    let y_ticks: Vec<(f64, String)> = if options.log_y {
+        power_ticks(y0, y1)
+    } else {
+        ticks(y0, y1).into_iter().map(|t| (t, short(t))).collect()
     };
     for (t, label) in x_ticks {
         let _ = write!(
@@ -117,7 +195,7 @@ fn chart(
             label
         );
     }
-    for t in ticks(y0, y1) {
+    for (t, label) in y_ticks {
         let _ = write!(
             svg,
             r##"<line x1="{0}" y1="{1:.1}" x2="{2}" y2="{1:.1}" stroke="#ddd"/><text x="{3}" y="{4:.1}" text-anchor="end">{5}</text>"##,
@@ -126,7 +204,7 @@ fn chart(
             w - right,
             left - 6.0,
             py(t) + 4.0,
-            short(t)
+            label
         );
     }
     let _ = write!(
@@ -168,18 +246,83 @@ fn chart(
                 py(y)
             );
         }
-        if series.len() > 1 {
-            let ly = top + 16.0 + 16.0 * k as f64;
+        if legend {
+            // One row above the plot, entries side by side.
+            let lx = left + 150.0 * k as f64;
+            let ly = top - 10.0;
             let _ = write!(
                 svg,
-                r#"<text x="{}" y="{ly}" fill="{colour}">{}</text>"#,
-                left + 10.0,
+                r#"<line x1="{lx}" y1="{0}" x2="{1}" y2="{0}" stroke="{colour}" stroke-width="2"/><text x="{2}" y="{3}" fill="{colour}">{4}</text>"#,
+                ly - 4.0,
+                lx + 18.0,
+                lx + 22.0,
+                ly,
                 escape(&s.name)
             );
         }
     }
+    for m in &options.markers {
+        let (log, value) = match m.axis {
+            MarkerAxis::X => (options.log_x, m.at),
+            MarkerAxis::Y => (options.log_y, m.at),
+        };
+        if (log && value <= 0.0) || !value.is_finite() {
+            continue;
+        }
+        let v = if log { value.log10() } else { value };
+        match m.axis {
+            MarkerAxis::X if (x0..=x1).contains(&v) => {
+                let x = px(v);
+                let _ = write!(
+                    svg,
+                    r##"<line x1="{x:.1}" y1="{top}" x2="{x:.1}" y2="{0}" stroke="#555" stroke-dasharray="5,4"/><text x="{1:.1}" y="{2}" fill="#333">{3}</text>"##,
+                    h - bottom,
+                    x + 4.0,
+                    h - bottom - 8.0,
+                    escape(&m.label)
+                );
+            }
+            MarkerAxis::Y if (y0..=y1).contains(&v) => {
+                let y = py(v);
+                let _ = write!(
+                    svg,
+                    r##"<line x1="{left}" y1="{y:.1}" x2="{0}" y2="{y:.1}" stroke="#555" stroke-dasharray="5,4"/><text x="{1}" y="{2:.1}" fill="#333" text-anchor="end">{3}</text>"##,
+                    w - right,
+                    w - right - 4.0,
+                    y - 4.0,
+                    escape(&m.label)
+                );
+            }
+            _ => {}
+        }
+    }
     svg.push_str("</svg>\n");
     svg
+}
+
+/// Ticks at the integer powers of ten within [lo, hi] (in log₁₀ units), labelled 10ᵏ; when the
+/// range holds fewer than two, the linear ticks, labelled as powers.
+fn power_ticks(lo: f64, hi: f64) -> Vec<(f64, String)> {
+    let (first, last) = (lo.ceil() as i64, hi.floor() as i64);
+    let label = |t: f64| {
+        if (t - t.round()).abs() < 1e-9 {
+            format!(
+                r#"10<tspan dy="-6" font-size="9">{}</tspan>"#,
+                t.round() as i64
+            )
+        } else {
+            short(10f64.powf(t))
+        }
+    };
+    if last - first >= 1 {
+        let step = ((last - first) as f64 / 6.0).ceil().max(1.0) as i64;
+        (first..=last)
+            .step_by(step as usize)
+            .map(|k| (k as f64, label(k as f64)))
+            .collect()
+    } else {
+        ticks(lo, hi).into_iter().map(|t| (t, label(t))).collect()
+    }
 }
 
 fn short(v: f64) -> String {
@@ -237,70 +380,122 @@ pub fn robustness(
     )
 }
 
-/// The verified NPA bound against the level, for a report comparing levels.
+/// The verified NPA bounds of a report comparing levels. The bounds usually agree to several
+/// digits after the first level, so on a linear axis every later level looks flat: the chart
+/// shows each level's excess over the best verified bound, on a log axis (the best level, whose
+/// excess is 0, is named in the title).
 pub fn npa_levels(report: &crate::pipeline::GameReport) -> String {
     let bounds: Vec<&crate::bounds::quantum::npa::NpaBound> = report
         .npa_levels
         .iter()
         .chain(report.npa.as_ref())
         .collect();
+    let best = bounds
+        .iter()
+        .min_by(|a, b| a.verified_upper.total_cmp(&b.verified_upper));
+    let title = match best {
+        Some(b) => format!(
+            "NPA bound by level, {} (best: level {}, {})",
+            report.game.name,
+            b.level.name(),
+            crate::numbers::num(b.verified_upper)
+        ),
+        None => format!("NPA bound by level, {}", report.game.name),
+    };
+    let best_value = best.map_or(0.0, |b| b.verified_upper);
     category_chart(
-        &format!("NPA bound by level, {}", report.game.name),
+        &title,
         "level",
         &bounds.iter().map(|b| b.level.name()).collect::<Vec<_>>(),
-        "verified upper bound",
+        "verified bound minus the best (log scale)",
         &[Series {
-            name: "verified".into(),
+            name: "excess over the best verified bound".into(),
             points: bounds
                 .iter()
                 .enumerate()
-                .map(|(k, b)| ((k + 1) as f64, b.verified_upper))
+                .map(|(k, b)| ((k + 1) as f64, b.verified_upper - best_value))
                 .collect(),
         }],
+        &ChartOptions {
+            log_y: true,
+            ..Default::default()
+        },
     )
 }
 
-/// Certified min-entropy against the score, for a randomness sweep.
+/// Certified min-entropy against the score, for a randomness sweep; `observed` marks a score
+/// (a run's lower confidence score) with a vertical line.
 pub fn min_entropy(report: &crate::pipeline::RandomnessReport) -> String {
-    line_chart(
+    min_entropy_curve(
         &format!("Certified min-entropy, {}", report.game.name),
+        &report
+            .results
+            .iter()
+            .map(|r| (r.score, r.min_entropy))
+            .collect::<Vec<_>>(),
+        None,
+    )
+}
+
+/// The min-entropy curve with an optional marked score.
+pub fn min_entropy_curve(
+    title: &str,
+    points: &[(f64, f64)],
+    observed: Option<(f64, &str)>,
+) -> String {
+    line_chart_with(
+        title,
         "score",
         "min-entropy per round (bits)",
         &[Series {
             name: "min-entropy".into(),
-            points: report
-                .results
-                .iter()
-                .map(|r| (r.score, r.min_entropy))
-                .collect(),
+            points: points.to_vec(),
         }],
+        &ChartOptions {
+            markers: observed
+                .map(|(at, label)| Marker {
+                    axis: MarkerAxis::X,
+                    at,
+                    label: label.to_string(),
+                })
+                .into_iter()
+                .collect(),
+            ..Default::default()
+        },
     )
 }
 
-/// Certified rate per round against log₁₀ n, for a finite-size report.
+/// Certified rate per round against the number of rounds (log axis), with the run's own number
+/// of rounds marked, for a finite-size report.
 pub fn finite_size_rate(report: &crate::pipeline::FiniteSizeReport) -> String {
-    line_chart(
+    let n = report.run.protocol.rounds as f64;
+    line_chart_with(
         &format!("Certified rate against rounds, {}", report.game.name),
-        "log10 of the number of rounds",
+        "number of rounds",
         "certified bits per round",
         &[
             Series {
                 name: "certified rate".into(),
-                points: report
-                    .curve
-                    .iter()
-                    .map(|&(n, r)| ((n as f64).log10(), r))
-                    .collect(),
+                points: report.curve.iter().map(|&(n, r)| (n as f64, r)).collect(),
             },
             Series {
                 name: "limit as n grows".into(),
                 points: report
                     .curve
                     .iter()
-                    .map(|&(n, _)| ((n as f64).log10(), report.asymptotic_output_rate))
+                    .map(|&(n, _)| (n as f64, report.asymptotic_output_rate))
                     .collect(),
             },
         ],
+        &ChartOptions {
+            log_x: true,
+            markers: vec![Marker {
+                axis: MarkerAxis::X,
+                at: n,
+                label: format!("this run: n = {}", crate::numbers::num_sig(n, 3)),
+            }],
+            ..Default::default()
+        },
     )
 }
 
@@ -321,5 +516,48 @@ mod tests {
         );
         assert!(svg.starts_with("<svg") && svg.trim_end().ends_with("</svg>"));
         assert_eq!(svg.matches("<circle").count(), 3);
+    }
+}
+
+#[cfg(test)]
+mod more_tests {
+    use super::*;
+
+    #[test]
+    fn log_axes_markers_and_the_legend_above_the_plot() {
+        let svg = line_chart_with(
+            "t",
+            "rounds",
+            "rate",
+            &[
+                Series {
+                    name: "a".into(),
+                    points: vec![(1e3, 0.1), (1e6, 0.5), (1e9, 0.7), (0.0, 0.9)],
+                },
+                Series {
+                    name: "b".into(),
+                    points: vec![(1e3, 0.8), (1e9, 0.8)],
+                },
+            ],
+            &ChartOptions {
+                log_x: true,
+                markers: vec![Marker {
+                    axis: MarkerAxis::X,
+                    at: 1e7,
+                    label: "this run".into(),
+                }],
+                ..Default::default()
+            },
+        );
+        // The point at x = 0 has no logarithm and is left out; ticks are powers of ten.
+        assert_eq!(svg.matches("<circle").count(), 5);
+        assert!(
+            svg.contains(r#"10<tspan dy="-6" font-size="9">6</tspan>"#),
+            "{svg}"
+        );
+        assert!(svg.contains("stroke-dasharray") && svg.contains("this run"));
+        // The legend entries sit in the band above the plot's frame, which starts at y = 58.
+        assert!(svg.contains(r##"y="48" fill="#1f5fa8">a</text>"##), "{svg}");
+        assert!(svg.contains(r#"<rect x="70" y="58""#), "{svg}");
     }
 }

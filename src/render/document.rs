@@ -4,7 +4,7 @@
 
 use std::fmt::Write;
 
-use super::charts::{finite_size_rate, line_chart, Series};
+use super::charts::finite_size_rate;
 use super::text::p_value_text;
 use crate::numbers::{bits_text, count_text, num, num_sig};
 use crate::pipeline::{Extracting, Review};
@@ -370,14 +370,17 @@ fn plot(r: &Review) -> Option<String> {
     if sweep.len() < 2 {
         return None;
     }
-    Some(line_chart(
+    // The run's own score (its lower confidence bound, which every figure uses) is marked.
+    Some(super::charts::min_entropy_curve(
         &format!("Certified min-entropy of {who}"),
-        "score",
-        "min-entropy per round (bits)",
-        &[Series {
-            name: "min-entropy".into(),
-            points: sweep.iter().map(|r| (r.score, r.min_entropy)).collect(),
-        }],
+        &sweep
+            .iter()
+            .map(|r| (r.score, r.min_entropy))
+            .collect::<Vec<_>>(),
+        Some((
+            r.margin.certified_score,
+            "this run (lower confidence score)",
+        )),
     ))
 }
 
@@ -413,8 +416,12 @@ pub fn html(r: &Review) -> String {
     h
 }
 
-/// The review as Markdown with the plot embedded as a data URI (every text escaped).
-pub fn markdown(r: &Review) -> String {
+/// The review as Markdown (every text escaped), and its plots as SVG files to write beside it:
+/// `(file name, content)`, each named `{stem}-….svg` and linked by that relative name (common
+/// Markdown renderers show linked images but not data URIs). Without a stem (the report goes to
+/// stdout) no plot is written and the report says how to get them.
+pub fn markdown(r: &Review, stem: Option<&str>) -> (String, Vec<(String, String)>) {
+    let mut files: Vec<(String, String)> = Vec::new();
     let mut md = format!(
         "# Review: {}\n\n**{}**\n\nGame: {} ({})\n\n{}\n",
         md_escape(&r.name),
@@ -429,25 +436,35 @@ pub fn markdown(r: &Review) -> String {
             let _ = writeln!(md, "| {} | {} |", md_escape(&k), md_escape(&v));
         }
     }
+    let mut plots: Vec<(&str, &str, String)> = Vec::new();
     if let Some(svg) = plot(r) {
-        let _ = write!(
-            md,
-            "\n## Min-entropy against score\n\n![min-entropy](data:image/svg+xml;base64,{})\n",
-            base64(svg.as_bytes())
-        );
+        plots.push(("Min-entropy against score", "min-entropy", svg));
     }
     if let Some(f) = &r.finite_size {
-        let _ = write!(
-            md,
-            "\n## Certified rate against rounds\n\n![rate](data:image/svg+xml;base64,{})\n",
-            base64(finite_size_rate(&f.report).as_bytes())
-        );
+        plots.push((
+            "Certified rate against rounds",
+            "rate",
+            finite_size_rate(&f.report),
+        ));
+    }
+    for (title, suffix, svg) in plots {
+        let _ = write!(md, "\n## {title}\n\n");
+        match stem {
+            Some(stem) => {
+                let name = format!("{stem}-{suffix}.svg");
+                let _ = writeln!(md, "![{}]({})", md_escape(title), md_escape(&name));
+                files.push((name, svg));
+            }
+            None => {
+                md.push_str("(The plot is written beside the report when it goes to a file: `-o FILE.md`.)\n");
+            }
+        }
     }
     md.push_str("\n## Assumptions and cautions\n\n");
     for a in r.assumptions() {
         let _ = writeln!(md, "- {}", md_escape(&a));
     }
-    md
+    (md, files)
 }
 
 /// Text for a Markdown document, inert whatever it contains: HTML is escaped (Markdown
@@ -511,32 +528,6 @@ fn esc(s: &str) -> String {
         .replace('>', "&gt;")
 }
 
-fn base64(bytes: &[u8]) -> String {
-    const T: &[u8; 64] = b"ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/";
-    let mut out = String::with_capacity(bytes.len().div_ceil(3) * 4);
-    for chunk in bytes.chunks(3) {
-        let b = [
-            chunk[0],
-            *chunk.get(1).unwrap_or(&0),
-            *chunk.get(2).unwrap_or(&0),
-        ];
-        let n = (b[0] as u32) << 16 | (b[1] as u32) << 8 | b[2] as u32;
-        out.push(T[(n >> 18) as usize & 63] as char);
-        out.push(T[(n >> 12) as usize & 63] as char);
-        out.push(if chunk.len() > 1 {
-            T[(n >> 6) as usize & 63] as char
-        } else {
-            '='
-        });
-        out.push(if chunk.len() > 2 {
-            T[n as usize & 63] as char
-        } else {
-            '='
-        });
-    }
-    out
-}
-
 #[cfg(test)]
 mod tests {
     #[test]
@@ -552,13 +543,5 @@ mod tests {
         // Anything else after the caret is left as it was.
         assert_eq!(super::superscripts("10^x and 10^"), "10^x and 10^");
         assert_eq!(super::superscripts("&lt;b&gt;"), "&lt;b&gt;");
-    }
-
-    #[test]
-    fn base64_matches_the_standard_examples() {
-        // RFC 4648 test vectors.
-        assert_eq!(super::base64(b"foobar"), "Zm9vYmFy");
-        assert_eq!(super::base64(b"fooba"), "Zm9vYmE=");
-        assert_eq!(super::base64(b"foob"), "Zm9vYg==");
     }
 }
