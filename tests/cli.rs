@@ -1685,3 +1685,67 @@ fn markdown_reviews_write_their_plots_beside_them_and_link_them() {
         "{text}"
     );
 }
+
+#[test]
+fn text_outputs_read_well() {
+    let text = |args: &[&str]| {
+        let out = bellgap(args);
+        assert!(
+            out.status.success(),
+            "{args:?}: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        String::from_utf8_lossy(&out.stdout).into_owned()
+    };
+    // The caution once, not also as the last assumption; Fano's bound for two answers is h(Q).
+    let t = text(&[
+        "entropy",
+        "games/chsh-expression.yaml",
+        "--score",
+        "2.6",
+        "--error-rate",
+        "0.03",
+        "--nodes",
+        "4",
+        "--adversary-words",
+        "with-projectors",
+        "-q",
+    ]);
+    assert_eq!(t.matches("not a security proof").count(), 1, "{t}");
+    assert!(t.contains("error rate 0.03: h(Q)\n"), "{t}");
+    assert!(!t.contains("log₂(2 − 1)"), "{t}");
+    assert!(t.contains("solvers' sum: the same sum"), "{t}");
+    // No flip advised where none does measurably better; no threshold where no QBER gives a
+    // key (a flip of 1/2 makes the key answer uniform).
+    let t = text(&["key", "--chsh", "2.7", "--qber", "0.02", "-q"]);
+    assert!(t.contains("flip probability 0 → key rate"), "{t}");
+    let t = text(&[
+        "key",
+        "--chsh",
+        "2.7",
+        "--qber",
+        "0.02",
+        "--noisy-preprocessing",
+        "0.5",
+        "-q",
+    ]);
+    assert!(t.contains("none: no error rate gives a key"), "{t}");
+    // The margin's p-value bound without nested brackets; local's signalling explained.
+    let t = text(&[
+        "margin",
+        "games/chsh.yaml",
+        "--counts",
+        "examples/data/lab-counts.yaml",
+        "-q",
+    ]);
+    assert!(
+        t.contains("(Azuma–Hoeffding, valid for adaptive strategies)"),
+        "{t}"
+    );
+    let t = text(&["local", "examples/data/lab-frequencies.yaml", "-q"]);
+    assert!(
+        t.contains("signalling") && t.contains("0 for no-signalling correlations"),
+        "{t}"
+    );
+    assert!(!t.contains("-0.000000"), "{t}");
+}
