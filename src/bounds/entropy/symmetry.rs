@@ -44,6 +44,11 @@ pub struct EntropyReduction {
     expressions: Vec<Affine>,
     /// Per reduced variable, the moment it is.
     free: Vec<usize>,
+    /// A milder reduction by the same elements: moments merged when some element maps one's
+    /// word to the other's (orbits of words), each orbit one variable. More variables than the
+    /// affine reduction, but each a single moment, as in the full problem; `(expressions,
+    /// free moments)`.
+    orbits: (Vec<Affine>, Vec<usize>),
     /// Per element, its action on the generating words.
     actions: Vec<Action>,
     /// Per element, the image of each norm-bound word (indices into `norm_words`).
@@ -206,15 +211,31 @@ impl EntropyReduction {
                     .collect::<Option<Vec<usize>>>()
             })
             .collect::<Option<_>>()?;
+        let orbits = orbit_classes(&kept, moments);
         Some(EntropyReduction {
             order: kept.len(),
             moments: reduced,
             expressions: expressions.moments,
             free: expressions.free_moments,
+            orbits,
             actions: kept.into_iter().map(|(_, _, a)| a).collect(),
             norm_images,
             norm_words: norm.len(),
         })
+    }
+
+    /// The milder reduction by orbits of words (see `orbits`), with the same dual averaging.
+    pub fn by_orbits(&self) -> EntropyReduction {
+        EntropyReduction {
+            order: self.order,
+            moments: self.orbits.1.len(),
+            expressions: self.orbits.0.clone(),
+            free: self.orbits.1.clone(),
+            orbits: self.orbits.clone(),
+            actions: self.actions.clone(),
+            norm_images: self.norm_images.clone(),
+            norm_words: self.norm_words,
+        }
     }
 
     /// The node's problem in the free moments: every moment replaced by its expression.
@@ -349,6 +370,71 @@ impl EntropyReduction {
         out.extend(norms);
         out
     }
+}
+
+/// The orbits of the moments' words under the elements: two moments are merged when an element
+/// maps one's word (its projectors as they stand, a last answer kept as itself) to the other's,
+/// directly or through words outside the moments (equal at every invariant point either way).
+fn orbit_classes(
+    kept: &[(Relabelling, Vec<u32>, Action)],
+    moments: &[EntropyWord],
+) -> (Vec<Affine>, Vec<usize>) {
+    let image = |g: &Relabelling, pi: &[u32], w: &EntropyWord| -> EntropyWord {
+        let players = crate::bounds::quantum::words::canonical(
+            w.players.iter().map(|&p| symmetric::image(g, p)),
+        )
+        .unwrap_or_default();
+        EntropyWord {
+            players,
+            eve: letters_image(&w.eve, pi),
+        }
+        .key()
+    };
+    let mut id: HashMap<EntropyWord, usize> = HashMap::new();
+    let mut parent: Vec<usize> = Vec::new();
+    let mut queue: std::collections::VecDeque<EntropyWord> = Default::default();
+    for m in moments {
+        id.insert(m.clone(), parent.len());
+        parent.push(parent.len());
+        queue.push_back(m.clone());
+    }
+    while let Some(f) = queue.pop_front() {
+        let a = id[&f];
+        for (g, pi, _) in kept {
+            let f2 = image(g, pi, &f);
+            let b = match id.get(&f2) {
+                Some(&b) => b,
+                None => {
+                    let b = parent.len();
+                    id.insert(f2.clone(), b);
+                    parent.push(b);
+                    queue.push_back(f2);
+                    b
+                }
+            };
+            let (ra, rb) = (
+                symmetric::root(&mut parent, a),
+                symmetric::root(&mut parent, b),
+            );
+            if ra != rb {
+                parent[ra.max(rb)] = ra.min(rb);
+            }
+        }
+    }
+    let mut class_of_root: HashMap<usize, usize> = HashMap::new();
+    let mut free = Vec::new();
+    let expressions = (0..moments.len())
+        .map(|k| {
+            let r = symmetric::root(&mut parent, k);
+            let next = class_of_root.len();
+            let c = *class_of_root.entry(r).or_insert_with(|| {
+                free.push(k);
+                next
+            });
+            (0.0, vec![(c, 1.0)])
+        })
+        .collect();
+    (expressions, free)
 }
 
 /// An affine expression `(constant, terms)` of some variables.
