@@ -390,47 +390,17 @@ fn orbit_classes(
         }
         .key()
     };
-    let mut id: HashMap<EntropyWord, usize> = HashMap::new();
-    let mut parent: Vec<usize> = Vec::new();
-    let mut queue: std::collections::VecDeque<EntropyWord> = Default::default();
-    for m in moments {
-        id.insert(m.clone(), parent.len());
-        parent.push(parent.len());
-        queue.push_back(m.clone());
-    }
-    while let Some(f) = queue.pop_front() {
-        let a = id[&f];
-        for (g, pi, _) in kept {
-            let f2 = image(g, pi, &f);
-            let b = match id.get(&f2) {
-                Some(&b) => b,
-                None => {
-                    let b = parent.len();
-                    id.insert(f2.clone(), b);
-                    parent.push(b);
-                    queue.push_back(f2);
-                    b
-                }
-            };
-            let (ra, rb) = (
-                symmetric::root(&mut parent, a),
-                symmetric::root(&mut parent, b),
-            );
-            if ra != rb {
-                parent[ra.max(rb)] = ra.min(rb);
-            }
-        }
-    }
-    let mut class_of_root: HashMap<usize, usize> = HashMap::new();
+    let classes = symmetric::orbit_classes(moments, |w: &EntropyWord| {
+        kept.iter().map(|(g, pi, _)| image(g, pi, w)).collect()
+    });
     let mut free = Vec::new();
-    let expressions = (0..moments.len())
-        .map(|k| {
-            let r = symmetric::root(&mut parent, k);
-            let next = class_of_root.len();
-            let c = *class_of_root.entry(r).or_insert_with(|| {
+    let expressions = classes
+        .iter()
+        .enumerate()
+        .map(|(k, &c)| {
+            if c == free.len() {
                 free.push(k);
-                next
-            });
+            }
             (0.0, vec![(c, 1.0)])
         })
         .collect();

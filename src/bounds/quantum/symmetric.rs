@@ -254,6 +254,52 @@ pub(crate) fn closure(
     Some(elements)
 }
 
+/// The class of each of `moments` (numbered from 0 in order of first appearance): two are in one
+/// class when a chain of `images` (the words the group's generators map a word to) joins them,
+/// possibly through words outside the moments, which are visited too (breadth first). At every
+/// point invariant under the group, moments of one class are equal.
+pub(crate) fn orbit_classes<W, F>(moments: &[W], images: F) -> Vec<usize>
+where
+    W: Clone + Eq + std::hash::Hash,
+    F: Fn(&W) -> Vec<W>,
+{
+    let mut id: HashMap<W, usize> = HashMap::new();
+    let mut parent: Vec<usize> = Vec::new();
+    let mut queue: VecDeque<W> = VecDeque::new();
+    for m in moments {
+        id.insert(m.clone(), parent.len());
+        parent.push(parent.len());
+        queue.push_back(m.clone());
+    }
+    while let Some(f) = queue.pop_front() {
+        let a = id[&f];
+        for f2 in images(&f) {
+            let b = match id.get(&f2) {
+                Some(&b) => b,
+                None => {
+                    let b = parent.len();
+                    id.insert(f2.clone(), b);
+                    parent.push(b);
+                    queue.push_back(f2);
+                    b
+                }
+            };
+            let (ra, rb) = (root(&mut parent, a), root(&mut parent, b));
+            if ra != rb {
+                parent[ra.max(rb)] = ra.min(rb);
+            }
+        }
+    }
+    let mut class_of_root: HashMap<usize, usize> = HashMap::new();
+    (0..moments.len())
+        .map(|k| {
+            let r = root(&mut parent, k);
+            let next = class_of_root.len();
+            *class_of_root.entry(r).or_insert(next)
+        })
+        .collect()
+}
+
 /// Union–find root with path halving.
 pub(crate) fn root(parent: &mut [usize], mut x: usize) -> usize {
     while parent[x] != x {
@@ -342,43 +388,10 @@ pub fn reduce(
         });
     }
     // Classes: orbits of full-projector words through the moments.
-    let mut id: HashMap<Word, usize> = HashMap::new();
-    let mut parent: Vec<usize> = Vec::new();
-    let mut queue: VecDeque<Word> = VecDeque::new();
-    for m in moments {
-        id.insert(m.clone(), parent.len());
-        parent.push(parent.len());
-        queue.push_back(m.clone());
-    }
-    while let Some(f) = queue.pop_front() {
-        let a = id[&f];
-        for g in &chosen {
-            let f2 = full_image(g, &f);
-            let b = match id.get(&f2) {
-                Some(&b) => b,
-                None => {
-                    let b = parent.len();
-                    id.insert(f2.clone(), b);
-                    parent.push(b);
-                    queue.push_back(f2);
-                    b
-                }
-            };
-            let (ra, rb) = (root(&mut parent, a), root(&mut parent, b));
-            if ra != rb {
-                parent[ra.max(rb)] = ra.min(rb);
-            }
-        }
-    }
-    let mut class_of_root: HashMap<usize, usize> = HashMap::new();
-    let classes: Vec<usize> = (0..moments.len())
-        .map(|k| {
-            let r = root(&mut parent, k);
-            let next = class_of_root.len();
-            *class_of_root.entry(r).or_insert(next)
-        })
-        .collect();
-    let reduced = class_of_root.len();
+    let classes = orbit_classes(moments, |f: &Word| {
+        chosen.iter().map(|g| full_image(g, f)).collect()
+    });
+    let reduced = classes.iter().max().map_or(0, |&c| c + 1);
     if reduced == moments.len() {
         return None;
     }
