@@ -5,8 +5,7 @@ use super::{classical_observed, Observer, Stage};
 use crate::bounds::classical::locality::{locality_test, LocalityReport};
 use crate::bounds::classical::{classical_value, ClassicalOptions};
 use crate::bounds::entropy::{
-    conditional_entropy_reporting, ConditionalEntropy, EntropyConstraint, EntropyOptions,
-    Preprocessing,
+    ConditionalEntropy, EntropyConstraint, EntropyOptions, PreparedHierarchy, Preprocessing,
 };
 use crate::bounds::quantum::npa::{self, Level, Verification};
 use crate::error::{Error, Result};
@@ -833,6 +832,9 @@ pub fn entropy<'a>(
     let mut not_obtained = Vec::new();
     let sweep = constraints.len() > 1;
     let count = constraints.len();
+    // Built once for every score of a sweep (the level, the matrix, the reduction, the bound
+    // that scores are checked against).
+    let prepared = PreparedHierarchy::new(s, &target, &options.hierarchy)?;
     for (k, (score, constraint)) in constraints.into_iter().enumerate() {
         let solved = |done: usize, total: usize| {
             if observer.wants_progress() {
@@ -840,7 +842,8 @@ pub fn entropy<'a>(
             }
         };
         let typed = matches!(&options.given, EntropyGiven::Behaviour(c) if c.rounds.is_none());
-        match conditional_entropy_reporting(s, &target, &constraint, &options.hierarchy, &solved)
+        match prepared
+            .bound(&constraint, &solved)
             .map_err(|e| match e {
                 Error::InvalidArgument(m) if typed && m.contains("outside the quantum set") => {
                     Error::InvalidArgument(format!(

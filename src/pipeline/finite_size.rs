@@ -8,8 +8,7 @@ use super::figures::{preprocessing_assumption, target_name, TargetChoice};
 use super::{Observer, Stage};
 use crate::bounds::classical::{classical_value, ClassicalOptions};
 use crate::bounds::entropy::{
-    conditional_entropy_reporting, ConditionalEntropy, EntropyConstraint, EntropyOptions,
-    Preprocessing,
+    ConditionalEntropy, EntropyConstraint, EntropyOptions, PreparedHierarchy, Preprocessing,
 };
 use crate::error::{Error, Result};
 use crate::formats::game::Game;
@@ -477,19 +476,14 @@ pub fn finite_size<'a>(
     let mut tangents = Vec::new();
     let mut best: Option<(ConditionalEntropy, CrossoverTradeoff, Accumulation)> = None;
     let count = scores.len();
+    let prepared = PreparedHierarchy::new(s, &target, &options.hierarchy)?;
     for (k, score) in scores.into_iter().enumerate() {
         let solved = |done: usize, total: usize| {
             if observer.wants_progress() {
                 observer.progress(Stage::EntropyNodes, k * total + done, count * total);
             }
         };
-        let entropy = conditional_entropy_reporting(
-            s,
-            &target,
-            &EntropyConstraint::Score(score),
-            &options.hierarchy,
-            &solved,
-        )?;
+        let entropy = prepared.bound(&EntropyConstraint::Score(score), &solved)?;
         let line = entropy.min_tradeoff.clone().ok_or_else(|| {
             Error::solver(
                 "finite-size",

@@ -759,236 +759,287 @@ pub fn conditional_entropy_reporting(
     options: &EntropyOptions,
     solved: &(dyn Fn(usize, usize) + Sync),
 ) -> Result<ConditionalEntropy> {
-    let start = std::time::Instant::now();
-    target.check(s)?;
-    options.preprocessing.check()?;
-    if options.preprocessing != Preprocessing::None && target.parts.len() != 1 {
-        return Err(Error::InvalidArgument(
-            "noisy preprocessing is for one player's key answer: leave out the second player"
-                .into(),
-        ));
+    PreparedHierarchy::new(s, target, options)?.bound(constraint, solved)
+}
+
+/// What every constraint of one hierarchy shares (the rule, the level, the moment matrix, the
+/// symmetry reduction, the NPA bound that scores are checked against, the game's value as a
+/// functional), built once: a sweep of scores or a finite-size tangent search bounds many
+/// constraints with it.
+pub struct PreparedHierarchy<'a> {
+    s: &'a Scenario,
+    target: &'a Target,
+    options: &'a EntropyOptions,
+    rule: RadauRule,
+    level: Level,
+    matrix: EntropyMatrix,
+    /// The reduction for score constraints, built on first use.
+    reduction: std::sync::OnceLock<Option<EntropyReduction>>,
+    /// For score constraints: the NPA level's verified bound and the value's moment terms, on
+    /// first use.
+    score_context: std::sync::OnceLock<(f64, MomentTerms)>,
+}
+
+impl<'a> PreparedHierarchy<'a> {
+    /// Checks the request and builds what every constraint shares.
+    pub fn new(
+        s: &'a Scenario,
+        target: &'a Target,
+        options: &'a EntropyOptions,
+    ) -> Result<PreparedHierarchy<'a>> {
+        target.check(s)?;
+        options.preprocessing.check()?;
+        if options.preprocessing != Preprocessing::None && target.parts.len() != 1 {
+            return Err(Error::InvalidArgument(
+                "noisy preprocessing is for one player's key answer: leave out the second player"
+                    .into(),
+            ));
+        }
+        let (rule, level, matrix) = hierarchy_matrix(s, target, options)?;
+        Ok(PreparedHierarchy {
+            s,
+            target,
+            options,
+            rule,
+            level,
+            matrix,
+            reduction: std::sync::OnceLock::new(),
+            score_context: std::sync::OnceLock::new(),
+        })
     }
-    let (rule, level, matrix) = hierarchy_matrix(s, target, options)?;
-    let events = target.events(s).len();
-    let reduction = reduction_of(
-        s,
-        target,
-        &matrix,
-        options,
-        matches!(constraint, EntropyConstraint::Score(_)),
-    );
-    let cost = estimate_of(
-        &matrix,
-        level.clone(),
-        &rule,
-        options.field,
-        reduction.as_ref(),
-    );
-    if !options.limits.force && cost.seconds > npa::SECONDS_LIMIT {
-        return Err(Error::TooLarge {
-            what: "the entropy hierarchy".into(),
-            estimate: cost.describe(),
-            hint: "choose a lower level, fewer nodes or fewer adversary words, or pass --force"
-                .into(),
-        });
+
+    /// The NPA level's verified bound and the value's terms (computed once).
+    fn score_context(&self) -> Result<&(f64, MomentTerms)> {
+        if let Some(c) = self.score_context.get() {
+            return Ok(c);
+        }
+        let quantum = npa::npa_bound(self.s, &npa::NpaOptions::at(self.level.clone()))?;
+        let terms = value_terms(self.s, &self.level)?;
+        let _ = self.score_context.set((quantum.verified_upper, terms));
+        Ok(self.score_context.get().expect("just set"))
     }
-    let mut tradeoff_ends: Option<(f64, f64, f64)> = None;
-    let (equalities, at_least) = match constraint {
-        EntropyConstraint::Score(v) => {
-            if !v.is_finite() {
-                return Err(Error::InvalidArgument(format!(
-                    "the score {v} is not a finite number"
-                )));
-            }
-            // A score above every quantum behaviour's leaves nothing to bound: said here, so
-            // that a solver's failure below is never mistaken for it (or the reverse).
-            let quantum = npa::npa_bound(s, &npa::NpaOptions::at(level.clone()))?;
-            if *v > quantum.verified_upper {
-                return Err(Error::InvalidArgument(format!(
+
+    /// A verified lower bound on the entropy under `constraint` (see [`conditional_entropy`]).
+    pub fn bound(
+        &self,
+        constraint: &EntropyConstraint,
+        solved: &(dyn Fn(usize, usize) + Sync),
+    ) -> Result<ConditionalEntropy> {
+        let (s, target, options) = (self.s, self.target, self.options);
+        let (rule, level, matrix) = (&self.rule, &self.level, &self.matrix);
+        let start = std::time::Instant::now();
+        let events = target.events(s).len();
+        let score_constraint = matches!(constraint, EntropyConstraint::Score(_));
+        let reduction = if score_constraint {
+            self.reduction
+                .get_or_init(|| reduction_of(s, target, matrix, options, true))
+                .as_ref()
+        } else {
+            None
+        };
+        let cost = estimate_of(matrix, level.clone(), rule, options.field, reduction);
+        if !options.limits.force && cost.seconds > npa::SECONDS_LIMIT {
+            return Err(Error::TooLarge {
+                what: "the entropy hierarchy".into(),
+                estimate: cost.describe(),
+                hint: "choose a lower level, fewer nodes or fewer adversary words, or pass --force"
+                    .into(),
+            });
+        }
+        let mut tradeoff_ends: Option<(f64, f64, f64)> = None;
+        let (equalities, at_least) = match constraint {
+            EntropyConstraint::Score(v) => {
+                if !v.is_finite() {
+                    return Err(Error::InvalidArgument(format!(
+                        "the score {v} is not a finite number"
+                    )));
+                }
+                // A score above every quantum behaviour's leaves nothing to bound: said here, so
+                // that a solver's failure below is never mistaken for it (or the reverse).
+                let (quantum_upper, value) = self.score_context()?;
+                if *v > *quantum_upper {
+                    return Err(Error::InvalidArgument(format!(
                     "the score {v} is above the quantum bound {} (NPA level {}): no quantum behaviour reaches it",
-                    quantum.verified_upper,
+                    quantum_upper,
                     level.name()
                 )));
-            }
-            let (lowest, highest_value) = s.value_range();
-            if *v < lowest - 1e-9 * (1.0 + lowest.abs()) {
-                return Err(Error::InvalidArgument(format!(
+                }
+                let (lowest, highest_value) = s.value_range();
+                if *v < lowest - 1e-9 * (1.0 + lowest.abs()) {
+                    return Err(Error::InvalidArgument(format!(
                     "the score {v} is below the game's lowest value {lowest}: no behaviour scores that little, so the bound would be about nothing"
                 )));
-            }
-            tradeoff_ends = Some((lowest, quantum.verified_upper.min(highest_value), *v));
-            (
-                Vec::new(),
-                vec![(value_terms(s, &level)?, *v, highest_value)],
-            )
-        }
-        EntropyConstraint::Region(region) => {
-            // A region with no quantum behaviour would make every figure vacuous (the
-            // relaxations are infeasible and their duals unbounded): proven here and refused.
-            let distance = membership::region_distance(s, region, &level, options.backend)?;
-            if distance.proven_outside() {
-                return Err(outside_quantum_set(&level, distance.verified_lower));
-            }
-            (Vec::new(), region_constraints(s, region)?)
-        }
-    };
-    let m = rule.nodes.len();
-    let finished = std::sync::atomic::AtomicUsize::new(0);
-    let node_at = |(&t, &w): (&f64, &f64)| -> Result<NodeOutcome> {
-        let alpha = 1.0 / (2.0 * (t * (1.0 - t)).sqrt());
-        let objective = node_objective(s, target, options.preprocessing, t);
-        let node = node_problem(
-            &matrix,
-            &objective,
-            &equalities,
-            &at_least,
-            options.field,
-            alpha,
-        )?;
-        let stage = format!("entropy relaxation at t = {t:.4}");
-        let solved_node = match &reduction {
-            None => solve_node(&node.problem, options.backend, &stage),
-            Some(red) => {
-                let reduced = solve_node(&red.reduce(&node.problem), options.backend, &stage)
-                    .and_then(|reduced| red.lift(&node.problem, reduced));
-                // The smallest-t nodes are badly conditioned, and the reduced problem may
-                // stall further from its optimum than the full one (CGLMP-3 at 2.8: 1.7e-5
-                // at t = 0.0056, 6e-5 bits in all): a stalled node is solved again with the
-                // milder reduction by orbits of words (each variable one moment, as in the
-                // full problem, which it matched or beat there at a third of the full
-                // problem's cost), and the better verified bound kept (both are valid).
-                match reduced {
-                    Ok(sol) if sol.status == SolveStatus::Stalled => {
-                        let orbits = red.by_orbits();
-                        let milder =
-                            solve_node(&orbits.reduce(&node.problem), options.backend, &stage)
-                                .and_then(|s| orbits.lift(&node.problem, s));
-                        match milder {
-                            Ok(other) if other.certified < sol.certified => Ok(other),
-                            _ => Ok(sol),
-                        }
-                    }
-                    other => other,
                 }
+                tradeoff_ends = Some((lowest, quantum_upper.min(highest_value), *v));
+                (Vec::new(), vec![(value.clone(), *v, highest_value)])
+            }
+            EntropyConstraint::Region(region) => {
+                // A region with no quantum behaviour would make every figure vacuous (the
+                // relaxations are infeasible and their duals unbounded): proven here and refused.
+                let distance = membership::region_distance(s, region, level, options.backend)?;
+                if distance.proven_outside() {
+                    return Err(outside_quantum_set(level, distance.verified_lower));
+                }
+                (Vec::new(), region_constraints(s, region)?)
             }
         };
-        let sol = solved_node.map_err(|e| match (e, constraint) {
-            (
-                Error::Solver {
-                    status: Some(SolveStatus::Infeasible),
-                    ..
-                },
-                EntropyConstraint::Region(_),
-            ) => outside_quantum_set(&level, 0.0),
-            (other, _) => other,
-        })?;
-        // The same dual vector's verified bound with the score constraint moved to each end of
-        // the range (see [`MinTradeoff`]).
-        let mut at_ends = None;
-        if let Some((lowest, highest, _)) = tradeoff_ends {
-            let mut ends = [0.0; 2];
-            for (end, out) in [lowest, highest].into_iter().zip(&mut ends) {
-                let moved: Vec<(MomentTerms, f64, f64)> = at_least
-                    .iter()
-                    .map(|(terms, _, most)| (terms.clone(), end, *most))
-                    .collect();
-                let there = node_problem(
-                    &matrix,
-                    &objective,
-                    &equalities,
-                    &moved,
-                    options.field,
-                    alpha,
-                )?;
-                *out = there.problem.assemble().certified_bound(&sol.z)?;
+        let m = rule.nodes.len();
+        let finished = std::sync::atomic::AtomicUsize::new(0);
+        let node_at = |(&t, &w): (&f64, &f64)| -> Result<NodeOutcome> {
+            let alpha = 1.0 / (2.0 * (t * (1.0 - t)).sqrt());
+            let objective = node_objective(s, target, options.preprocessing, t);
+            let node = node_problem(
+                matrix,
+                &objective,
+                &equalities,
+                &at_least,
+                options.field,
+                alpha,
+            )?;
+            let stage = format!("entropy relaxation at t = {t:.4}");
+            let solved_node = match &reduction {
+                None => solve_node(&node.problem, options.backend, &stage),
+                Some(red) => {
+                    let reduced = solve_node(&red.reduce(&node.problem), options.backend, &stage)
+                        .and_then(|reduced| red.lift(&node.problem, reduced));
+                    // The smallest-t nodes are badly conditioned, and the reduced problem may
+                    // stall further from its optimum than the full one (CGLMP-3 at 2.8: 1.7e-5
+                    // at t = 0.0056, 6e-5 bits in all): a stalled node is solved again with the
+                    // milder reduction by orbits of words (each variable one moment, as in the
+                    // full problem, which it matched or beat there at a third of the full
+                    // problem's cost), and the better verified bound kept (both are valid).
+                    match reduced {
+                        Ok(sol) if sol.status == SolveStatus::Stalled => {
+                            let orbits = red.by_orbits();
+                            let milder =
+                                solve_node(&orbits.reduce(&node.problem), options.backend, &stage)
+                                    .and_then(|s| orbits.lift(&node.problem, s));
+                            match milder {
+                                Ok(other) if other.certified < sol.certified => Ok(other),
+                                _ => Ok(sol),
+                            }
+                        }
+                        other => other,
+                    }
+                }
+            };
+            let sol = solved_node.map_err(|e| match (e, constraint) {
+                (
+                    Error::Solver {
+                        status: Some(SolveStatus::Infeasible),
+                        ..
+                    },
+                    EntropyConstraint::Region(_),
+                ) => outside_quantum_set(level, 0.0),
+                (other, _) => other,
+            })?;
+            // The same dual vector's verified bound with the score constraint moved to each end of
+            // the range (see [`MinTradeoff`]).
+            let mut at_ends = None;
+            if let Some((lowest, highest, _)) = tradeoff_ends {
+                let mut ends = [0.0; 2];
+                for (end, out) in [lowest, highest].into_iter().zip(&mut ends) {
+                    let moved: Vec<(MomentTerms, f64, f64)> = at_least
+                        .iter()
+                        .map(|(terms, _, most)| (terms.clone(), end, *most))
+                        .collect();
+                    let there = node_problem(
+                        matrix,
+                        &objective,
+                        &equalities,
+                        &moved,
+                        options.field,
+                        alpha,
+                    )?;
+                    *out = there.problem.assemble().certified_bound(&sol.z)?;
+                }
+                at_ends = Some(ends);
             }
-            at_ends = Some(ends);
+            let done = finished.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
+            solved(done, m - 1);
+            Ok(NodeOutcome {
+                bound: NodeBound {
+                    t,
+                    weight: w,
+                    norm_bound: alpha,
+                    // The SDP maximised minus the objective: its verified upper bound is minus a
+                    // verified lower bound on the infimum.
+                    infimum: -sol.certified,
+                    solver_value: -sol.dual,
+                    status: sol.status,
+                    iterations: sol.iterations,
+                },
+                certified_at_ends: at_ends,
+            })
+        };
+        // The nodes are independent: solved side by side when two of them fit in memory at once
+        // (each interior-point solve holds a dense matrix of side the number of moments), one after
+        // the other otherwise. The sums below run in node order either way.
+        let pairs = rule.nodes[..m - 1].iter().zip(&rule.weights[..m - 1]);
+        let node_bytes = (matrix.moments.len() as f64).powi(2) * 8.0;
+        let outcomes: Vec<NodeOutcome> = if node_bytes * 2.0 <= PARALLEL_NODES_BYTES {
+            pairs
+                .collect::<Vec<_>>()
+                .into_par_iter()
+                .map(node_at)
+                .collect::<Result<_>>()?
+        } else {
+            pairs.map(node_at).collect::<Result<_>>()?
+        };
+        let mut terms = Vec::with_capacity(outcomes.len());
+        let (mut bits, mut solver_bits, mut magnitude) = (0.0, 0.0, 0.0);
+        let (mut at_ends, mut ends_magnitude) = ((0.0, 0.0), 0.0);
+        for outcome in outcomes {
+            let b = &outcome.bound;
+            let factor = b.weight / (b.t * std::f64::consts::LN_2);
+            if let Some([lowest, highest]) = outcome.certified_at_ends {
+                at_ends.0 += factor * (1.0 - lowest);
+                at_ends.1 += factor * (1.0 - highest);
+                ends_magnitude += factor * (2.0 + lowest.abs() + highest.abs());
+            }
+            bits += factor * (1.0 + b.infimum);
+            solver_bits += factor * (1.0 + b.solver_value);
+            magnitude += factor * (1.0 + b.infimum.abs());
+            terms.push(outcome.bound);
         }
-        let done = finished.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
-        solved(done, m - 1);
-        Ok(NodeOutcome {
-            bound: NodeBound {
-                t,
-                weight: w,
-                norm_bound: alpha,
-                // The SDP maximised minus the objective: its verified upper bound is minus a
-                // verified lower bound on the infimum.
-                infimum: -sol.certified,
-                solver_value: -sol.dual,
-                status: sol.status,
-                iterations: sol.iterations,
-            },
-            certified_at_ends: at_ends,
-        })
-    };
-    // The nodes are independent: solved side by side when two of them fit in memory at once
-    // (each interior-point solve holds a dense matrix of side the number of moments), one after
-    // the other otherwise. The sums below run in node order either way.
-    let pairs = rule.nodes[..m - 1].iter().zip(&rule.weights[..m - 1]);
-    let node_bytes = (matrix.moments.len() as f64).powi(2) * 8.0;
-    let outcomes: Vec<NodeOutcome> = if node_bytes * 2.0 <= PARALLEL_NODES_BYTES {
-        pairs
-            .collect::<Vec<_>>()
-            .into_par_iter()
-            .map(node_at)
-            .collect::<Result<_>>()?
-    } else {
-        pairs.map(node_at).collect::<Result<_>>()?
-    };
-    let mut terms = Vec::with_capacity(outcomes.len());
-    let (mut bits, mut solver_bits, mut magnitude) = (0.0, 0.0, 0.0);
-    let (mut at_ends, mut ends_magnitude) = ((0.0, 0.0), 0.0);
-    for outcome in outcomes {
-        let b = &outcome.bound;
-        let factor = b.weight / (b.t * std::f64::consts::LN_2);
-        if let Some([lowest, highest]) = outcome.certified_at_ends {
-            at_ends.0 += factor * (1.0 - lowest);
-            at_ends.1 += factor * (1.0 - highest);
-            ends_magnitude += factor * (2.0 + lowest.abs() + highest.abs());
-        }
-        bits += factor * (1.0 + b.infimum);
-        solver_bits += factor * (1.0 + b.solver_value);
-        magnitude += factor * (1.0 + b.infimum.abs());
-        terms.push(outcome.bound);
-    }
-    // The node at t = 1 contributes at least its floor (0 without preprocessing).
-    let last = rule.weights[m - 1] / std::f64::consts::LN_2
-        * options.preprocessing.last_node_floor(events);
-    bits += last;
-    solver_bits += last;
-    magnitude += last;
-    at_ends = (at_ends.0 + last, at_ends.1 + last);
-    ends_magnitude += 2.0 * last;
-    // The sum's rounding, and the nodes' and weights' own (each within a few units in the last
-    // place of the exact rule; the quadrature tests check 1e-14), are charged generously.
-    let bits = bits - 1e-12 * magnitude;
-    let most = (events as f64).log2();
-    let min_tradeoff = tradeoff_ends.and_then(|(lowest, highest, score)| {
-        let charge = 1e-12 * ends_magnitude;
-        let (at_lowest, at_highest) = (at_ends.0 - charge, at_ends.1 - charge);
-        (highest > lowest).then(|| MinTradeoff {
-            score,
-            lowest,
-            highest,
-            at_lowest,
-            at_highest,
-            slope: (at_highest - at_lowest) / (highest - lowest),
-        })
-    });
-    // For any quantum behaviour meeting the constraint, bits ≤ H(A|X=x*, E) ≤ log₂ |A|. A node
-    // whose verified infimum is positive proves its relaxation infeasible (every feasible point
-    // extends with Z = 0, where the objective is 0), and a sum above log₂ |A| proves that no
-    // quantum behaviour meets the constraint: either way every figure would be vacuous.
-    let infeasible_node = terms.iter().any(|b| b.infimum > 0.0);
-    if infeasible_node || bits > most {
-        return Err(match constraint {
-            EntropyConstraint::Region(_) => outside_quantum_set(&level, 0.0),
+        // The node at t = 1 contributes at least its floor (0 without preprocessing).
+        let last = rule.weights[m - 1] / std::f64::consts::LN_2
+            * options.preprocessing.last_node_floor(events);
+        bits += last;
+        solver_bits += last;
+        magnitude += last;
+        at_ends = (at_ends.0 + last, at_ends.1 + last);
+        ends_magnitude += 2.0 * last;
+        // The sum's rounding, and the nodes' and weights' own (each within a few units in the last
+        // place of the exact rule; the quadrature tests check 1e-14), are charged generously.
+        let bits = bits - 1e-12 * magnitude;
+        let most = (events as f64).log2();
+        let min_tradeoff = tradeoff_ends.and_then(|(lowest, highest, score)| {
+            let charge = 1e-12 * ends_magnitude;
+            let (at_lowest, at_highest) = (at_ends.0 - charge, at_ends.1 - charge);
+            (highest > lowest).then(|| MinTradeoff {
+                score,
+                lowest,
+                highest,
+                at_lowest,
+                at_highest,
+                slope: (at_highest - at_lowest) / (highest - lowest),
+            })
+        });
+        // For any quantum behaviour meeting the constraint, bits ≤ H(A|X=x*, E) ≤ log₂ |A|. A node
+        // whose verified infimum is positive proves its relaxation infeasible (every feasible point
+        // extends with Z = 0, where the objective is 0), and a sum above log₂ |A| proves that no
+        // quantum behaviour meets the constraint: either way every figure would be vacuous.
+        let infeasible_node = terms.iter().any(|b| b.infimum > 0.0);
+        if infeasible_node || bits > most {
+            return Err(match constraint {
+            EntropyConstraint::Region(_) => outside_quantum_set(level, 0.0),
             EntropyConstraint::Score(v) => Error::InvalidArgument(format!(
                 "no quantum behaviour reaches the score {v}: the entropy relaxations prove it (a bound of {bits:.6} bits exceeds log₂ {events})"
             )),
         });
-    }
-    Ok(ConditionalEntropy {
+        }
+        Ok(ConditionalEntropy {
         // H(A|E) of a classical A is at least 0, so a negative bound is replaced by 0.
         bits: bits.max(0.0),
         solver_bits,
@@ -1004,7 +1055,7 @@ pub fn conditional_entropy_reporting(
             }
         ),
         nodes: options.nodes,
-        level,
+        level: level.clone(),
         adversary: options.adversary,
         field: options.field,
         matrix_size: matrix.size(),
@@ -1018,6 +1069,7 @@ pub fn conditional_entropy_reporting(
         min_tradeoff,
         seconds: start.elapsed().as_secs_f64(),
     })
+    }
 }
 
 #[cfg(test)]

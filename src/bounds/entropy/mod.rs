@@ -13,6 +13,6 @@ pub mod symmetry;
 pub use hierarchy::{
     conditional_entropy, conditional_entropy_reporting, default_level, event_terms,
     ConditionalEntropy, EntropyConstraint, EntropyOptions, EntropySymmetry, MinTradeoff, NodeBound,
-    Preprocessing, Target,
+    PreparedHierarchy, Preprocessing, Target,
 };
 pub use relaxation::{AdversaryWords, MomentField};
