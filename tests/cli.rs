@@ -1749,3 +1749,31 @@ fn text_outputs_read_well() {
     );
     assert!(!t.contains("-0.000000"), "{t}");
 }
+
+#[test]
+fn normalise_and_reference_refuse_hostile_input() {
+    // A state of norm 0 (or not a number) has nothing to normalise: exit 2, located.
+    for state in ["0, 0, 0, 0", "\".nan\", 0, 0, 1", "1e308, 1e308, 0, 0"] {
+        let file = temp_file(
+            "chsh-hostile-state.yaml",
+            &CHSH_STRATEGY_BY_HAND.replace("\"1/sqrt(2)\", 0, 0, \"1/sqrt(2)\"", state),
+        );
+        let out = bellgap(&[
+            "evaluate",
+            "games/chsh.yaml",
+            file.to_str().unwrap(),
+            "--normalise",
+        ]);
+        assert_eq!(out.status.code(), Some(2), "{state}");
+        assert!(
+            String::from_utf8_lossy(&out.stderr).contains("state"),
+            "{state}"
+        );
+    }
+    // A folder that cannot be made, or a device, is an I/O error, not a panic.
+    for folder in ["/dev/null/pages", "/proc/bellgap-no"] {
+        let out = bellgap(&["reference", folder, "--json"]);
+        assert_eq!(out.status.code(), Some(2), "{folder}");
+        assert!(json_of(&out)["error"]["kind"].is_string(), "{folder}");
+    }
+}

@@ -498,13 +498,11 @@ pub enum EntropyGiven {
 /// A heads-up before entropy hierarchies estimated to take over half a minute in all (one
 /// hierarchy above the limit is refused by the hierarchy itself).
 pub(crate) fn warn_slow_entropy(
-    s: &Scenario,
-    target: &Target,
-    options: &EntropyOptions,
+    prepared: &PreparedHierarchy,
     hierarchies: usize,
     observer: &dyn Observer,
 ) -> Result<()> {
-    let est = crate::bounds::entropy::hierarchy::estimate(s, target, options)?;
+    let est = prepared.score_estimate();
     let total = est.seconds * hierarchies as f64;
     if total > 30.0 {
         observer.warn(&format!(
@@ -659,8 +657,11 @@ pub fn entropy<'a>(
             "a key rate is for one player's key answers: leave out the second player".into(),
         ));
     }
+    // Built once for every constraint (the level, the matrix, the reduction, the bound that
+    // scores are checked against), and for the estimate.
+    let prepared = PreparedHierarchy::new(s, &target, &options.hierarchy)?;
     if let EntropyGiven::Scores(scores) = &options.given {
-        warn_slow_entropy(s, &target, &options.hierarchy, scores.len(), observer)?;
+        warn_slow_entropy(&prepared, scores.len(), observer)?;
     }
     let (constraints, given): (Vec<(Option<f64>, EntropyConstraint)>, String) = match &options.given
     {
@@ -832,9 +833,6 @@ pub fn entropy<'a>(
     let mut not_obtained = Vec::new();
     let sweep = constraints.len() > 1;
     let count = constraints.len();
-    // Built once for every score of a sweep (the level, the matrix, the reduction, the bound
-    // that scores are checked against).
-    let prepared = PreparedHierarchy::new(s, &target, &options.hierarchy)?;
     for (k, (score, constraint)) in constraints.into_iter().enumerate() {
         let solved = |done: usize, total: usize| {
             if observer.wants_progress() {

@@ -472,11 +472,11 @@ pub fn finite_size<'a>(
     };
     let disclosure = |n: u64| disclosed(n, cap(n));
     let scores = tangent_scores(game, options)?;
-    super::figures::warn_slow_entropy(s, &target, &options.hierarchy, scores.len(), observer)?;
+    let prepared = PreparedHierarchy::new(s, &target, &options.hierarchy)?;
+    super::figures::warn_slow_entropy(&prepared, scores.len(), observer)?;
     let mut tangents = Vec::new();
     let mut best: Option<(ConditionalEntropy, CrossoverTradeoff, Accumulation)> = None;
     let count = scores.len();
-    let prepared = PreparedHierarchy::new(s, &target, &options.hierarchy)?;
     for (k, score) in scores.into_iter().enumerate() {
         let solved = |done: usize, total: usize| {
             if observer.wants_progress() {

@@ -349,30 +349,18 @@ pub fn estimate(
     target: &Target,
     options: &EntropyOptions,
 ) -> Result<EntropyEstimate> {
-    target.check(s)?;
-    let (rule, level, matrix) = hierarchy_matrix(s, target, options)?;
-    let reduction = reduction_of(s, target, &matrix, options, true);
-    Ok(estimate_of(
-        &matrix,
-        level,
-        &rule,
-        options.field,
-        reduction.as_ref(),
-    ))
+    Ok(PreparedHierarchy::new(s, target, options)?.score_estimate())
 }
 
-/// The symmetry reduction the options and the constraint allow (a score constraint, real
-/// moment matrices), if the game has one that keeps the target.
+/// The symmetry reduction the options allow for a score constraint (real moment matrices), if
+/// the game has one that keeps the target.
 fn reduction_of(
     s: &Scenario,
     target: &Target,
     matrix: &EntropyMatrix,
     options: &EntropyOptions,
-    score_constraint: bool,
 ) -> Option<EntropyReduction> {
-    (score_constraint
-        && options.symmetry == SymmetryChoice::Auto
-        && options.field == MomentField::Real)
+    (options.symmetry == SymmetryChoice::Auto && options.field == MomentField::Real)
         .then(|| EntropyReduction::new(s, &target.parts, matrix))
         .flatten()
 }
@@ -824,6 +812,24 @@ impl<'a> PreparedHierarchy<'a> {
         Ok(self.score_context.get().expect("just set"))
     }
 
+    /// The reduction for score constraints (built on first use).
+    fn score_reduction(&self) -> Option<&EntropyReduction> {
+        self.reduction
+            .get_or_init(|| reduction_of(self.s, self.target, &self.matrix, self.options))
+            .as_ref()
+    }
+
+    /// What one hierarchy with a score constraint is expected to cost.
+    pub fn score_estimate(&self) -> EntropyEstimate {
+        estimate_of(
+            &self.matrix,
+            self.level.clone(),
+            &self.rule,
+            self.options.field,
+            self.score_reduction(),
+        )
+    }
+
     /// A verified lower bound on the entropy under `constraint` (see [`conditional_entropy`]).
     pub fn bound(
         &self,
@@ -836,9 +842,7 @@ impl<'a> PreparedHierarchy<'a> {
         let events = target.events(s).len();
         let score_constraint = matches!(constraint, EntropyConstraint::Score(_));
         let reduction = if score_constraint {
-            self.reduction
-                .get_or_init(|| reduction_of(s, target, matrix, options, true))
-                .as_ref()
+            self.score_reduction()
         } else {
             None
         };
