@@ -373,6 +373,12 @@ impl QuantumStrategy {
     /// Value of the maximally mixed state with these measurements (for white-noise mixtures,
     /// whose value is linear in the visibility).
     pub fn noise_value(&self, s: &Scenario) -> f64 {
+        s.value_of_behaviour(&self.noise_behaviour(s))
+    }
+
+    /// The behaviour of the maximally mixed state with these measurements:
+    /// `p(a|q) = Π_i tr(M^i_{a_i|q_i}) / d_i`.
+    pub fn noise_behaviour(&self, s: &Scenario) -> Vec<f64> {
         let n = s.players();
         let qr = s.question_radices();
         let ar = s.answer_radices();
@@ -388,7 +394,7 @@ impl QuantumStrategy {
                     .product();
             }
         }
-        s.value_of_behaviour(&p)
+        p
     }
 
     /// Checks normalisation and the POVM conditions; the message names player, question, answer.

@@ -4,6 +4,7 @@
 //! (entanglement) and how robust they are (noise, detection efficiency).
 
 pub mod analysis;
+pub mod design;
 mod flips;
 pub mod membership;
 pub mod npa;

@@ -118,10 +118,10 @@ pub struct SeesawResult {
 pub const MAX_JOINT_DIMENSION: usize = 4096;
 
 /// splitmix64: small, seedable, reproducible.
-struct Rng(u64);
+pub(crate) struct Rng(pub(crate) u64);
 
 impl Rng {
-    fn next(&mut self) -> u64 {
+    pub(crate) fn next(&mut self) -> u64 {
         self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
         let mut z = self.0;
         z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
@@ -139,7 +139,7 @@ impl Rng {
     }
 }
 
-fn random_state(dim: usize, rng: &mut Rng) -> CVector {
+pub(crate) fn random_state(dim: usize, rng: &mut Rng) -> CVector {
     let v = CVector::from_fn(dim, |_, _| rng.complex());
     let n = v.norm();
     v / Complex64::new(n, 0.0)
@@ -148,7 +148,7 @@ fn random_state(dim: usize, rng: &mut Rng) -> CVector {
 /// A random projective measurement: the columns of a random unitary, dealt to the answers in
 /// a random order (so that with fewer columns than answers, different restarts give weight to
 /// different answers: a fixed order could leave the only winning answers empty in every start).
-fn random_measurement(d: usize, answers: usize, rng: &mut Rng) -> Vec<CMatrix> {
+pub(crate) fn random_measurement(d: usize, answers: usize, rng: &mut Rng) -> Vec<CMatrix> {
     let g = CMatrix::from_fn(d, d, |_, _| rng.complex());
     let q = g.qr().q();
     let mut order: Vec<usize> = (0..answers).collect();
@@ -165,7 +165,7 @@ fn random_measurement(d: usize, answers: usize, rng: &mut Rng) -> Vec<CMatrix> {
 
 /// A random full-rank POVM: `M_a = S^{-1/2} G_a G_a† S^{-1/2}` with Gaussian `G_a` and
 /// `S = Σ G_a G_a†`. Every answer starts with weight, so none can trap the run at zero.
-fn random_povm(d: usize, answers: usize, rng: &mut Rng) -> Vec<CMatrix> {
+pub(crate) fn random_povm(d: usize, answers: usize, rng: &mut Rng) -> Vec<CMatrix> {
     let povm: Vec<CMatrix> = (0..answers)
         .map(|_| {
             let g = CMatrix::from_fn(d, d, |_, _| rng.complex());
@@ -191,7 +191,7 @@ pub fn bell_operator(s: &Scenario, st: &QuantumStrategy) -> CMatrix {
 }
 
 /// Replaces the state by the top eigenvector of the Bell operator; returns the new value.
-fn optimise_state(s: &Scenario, st: &mut QuantumStrategy) -> f64 {
+pub(crate) fn optimise_state(s: &Scenario, st: &mut QuantumStrategy) -> f64 {
     let w = bell_operator(s, st);
     let w = (&w + w.adjoint()) * Complex64::new(0.5, 0.0);
     let eig = w.symmetric_eigen();
@@ -208,7 +208,11 @@ fn optimise_state(s: &Scenario, st: &mut QuantumStrategy) -> f64 {
 }
 
 /// `B_{a|x}` for `player`: the value is `Σ_{x,a} tr(M_{a|x} B_{a|x})` with everyone else fixed.
-fn effective_operators(s: &Scenario, st: &QuantumStrategy, player: usize) -> Vec<Vec<CMatrix>> {
+pub(crate) fn effective_operators(
+    s: &Scenario,
+    st: &QuantumStrategy,
+    player: usize,
+) -> Vec<Vec<CMatrix>> {
     let n = s.players();
     let d = st.dims[player];
     let p = &s.parties()[player];
@@ -274,7 +278,7 @@ fn effective_operators(s: &Scenario, st: &QuantumStrategy, player: usize) -> Vec
 }
 
 /// The best POVM for `max Σ_a tr(M_a B_a)`.
-fn best_povm(b: &[CMatrix]) -> Result<Vec<CMatrix>> {
+pub(crate) fn best_povm(b: &[CMatrix]) -> Result<Vec<CMatrix>> {
     let d = b[0].nrows();
     if b.len() == 1 {
         return Ok(vec![CMatrix::identity(d, d)]);

@@ -1,0 +1,199 @@
+//! Designing devices under noise: the noise model's behaviour, the best implementations and
+//! their thresholds, against published values (the source beside each).
+
+use bellgap::bounds::quantum::design::{
+    optimise, threshold, DesignOptions, NoiseParameter, StateChoice, ThresholdOptions,
+};
+use bellgap::bounds::quantum::seesaw::SeesawOptions;
+use bellgap::formats::game::{CompileOptions, Game};
+use bellgap::model::noise::{NoClick, NoiseModel};
+use bellgap::model::strategy::{CMatrix, CVector, QuantumStrategy};
+use num_complex::Complex64;
+
+fn chsh() -> Game {
+    Game::from_file(
+        concat!(env!("CARGO_MANIFEST_DIR"), "/games/chsh.yaml"),
+        CompileOptions::default(),
+    )
+    .unwrap()
+}
+
+fn options(noise: NoiseModel, state: StateChoice) -> DesignOptions {
+    DesignOptions {
+        seesaw: SeesawOptions {
+            dims: vec![2, 2],
+            restarts: 4,
+            seed: 3,
+            ..Default::default()
+        },
+        noise,
+        state,
+    }
+}
+
+/// The Tsirelson strategy: the maximally entangled state, Z and X for Alice, (Z ± X)/√2 for Bob.
+fn tsirelson() -> QuantumStrategy {
+    let c = |re: f64| Complex64::new(re, 0.0);
+    let projector = |theta: f64| -> Vec<CMatrix> {
+        let (cs, sn) = ((theta / 2.0).cos(), (theta / 2.0).sin());
+        let p = CMatrix::from_row_slice(2, 2, &[c(cs * cs), c(cs * sn), c(cs * sn), c(sn * sn)]);
+        let q = CMatrix::identity(2, 2) - &p;
+        vec![p, q]
+    };
+    let pi = std::f64::consts::PI;
+    let h = std::f64::consts::FRAC_1_SQRT_2;
+    QuantumStrategy {
+        dims: vec![2, 2],
+        state: CVector::from_vec(vec![c(h), c(0.0), c(0.0), c(h)]),
+        measurements: vec![
+            vec![projector(0.0), projector(pi / 2.0)],
+            vec![projector(pi / 4.0), projector(-pi / 4.0)],
+        ],
+    }
+}
+
+#[test]
+fn the_noisy_behaviour_is_the_mixture_post_processed_and_its_score_is_the_pulled_back_one() {
+    let game = chsh();
+    let s = &game.scenario;
+    let st = tsirelson();
+    let noise = NoiseModel {
+        visibility: 0.9,
+        efficiency: vec![0.8, 0.7],
+        dark_counts: 0.01,
+        no_click: NoClick::Answer(1),
+    };
+    let f = noise.initial_assignment(s);
+    let p = noise.behaviour(s, &st, &f);
+    // Still a behaviour: every question's probabilities sum to 1.
+    for q in 0..4 {
+        let total: f64 = p[q * 4..q * 4 + 4].iter().sum();
+        assert!((total - 1.0).abs() < 1e-12, "question {q}: {total}");
+    }
+    // By hand for the question pair (0, 0) and answers (1, 1): each player reports 1 when the
+    // detector clicks and the answer is 1, or it misses and (no dark count) assigns 1, or a dark
+    // count lands on 1. Joint: independent channels on the mixed behaviour.
+    let ideal = st.behaviour(s);
+    let white = st.noise_behaviour(s);
+    let mixed: Vec<f64> = ideal
+        .iter()
+        .zip(&white)
+        .map(|(a, b)| 0.9 * a + 0.1 * b)
+        .collect();
+    let k = |eta: f64, to: usize, from: usize| {
+        let kept = if to == from { eta } else { 0.0 };
+        kept + (1.0 - eta) * (0.01 / 2.0 + if to == 1 { 0.99 } else { 0.0 })
+    };
+    let expected: f64 = (0..2)
+        .flat_map(|a| (0..2).map(move |b| (a, b)))
+        .map(|(a, b)| k(0.8, 1, a) * k(0.7, 1, b) * mixed[a * 2 + b])
+        .sum();
+    assert!((p[3] - expected).abs() < 1e-14, "{} vs {expected}", p[3]);
+    // The certified score is the behaviour's score, within its error term.
+    let score = noise.certified_value(s, &st, &f);
+    let direct = s.value_of_behaviour(&p);
+    assert!((score.value - direct).abs() < 1e-13);
+    assert!(score.lower <= direct && score.error < 1e-12);
+}
+
+#[test]
+fn without_noise_the_best_implementation_reaches_tsirelsons_bound() {
+    // cos²(π/8) ≈ 0.853553 (Tsirelson 1980; Cirel'son, Lett. Math. Phys. 4, 93 (1980)).
+    let game = chsh();
+    let found = optimise(
+        &game.scenario,
+        0.75,
+        &options(NoiseModel::default(), StateChoice::Optimised),
+        None,
+    )
+    .unwrap();
+    let tsirelson = (std::f64::consts::PI / 8.0).cos().powi(2);
+    assert!(found.score.lower <= tsirelson + 1e-12);
+    assert!(
+        found.score.lower > tsirelson - 1e-7,
+        "{}",
+        found.score.lower
+    );
+    assert!(found.margin > 0.1);
+}
+
+#[test]
+fn the_critical_visibility_of_chsh_is_one_over_root_two() {
+    // 1/√2 ≈ 0.7071: below it the singlet's CHSH value 2√2·v falls under 2 (a textbook fact; see
+    // e.g. Brunner et al., Rev. Mod. Phys. 86, 419 (2014), from memory).
+    let game = chsh();
+    let t = threshold(
+        &game.scenario,
+        0.75,
+        &options(NoiseModel::default(), StateChoice::Optimised),
+        &ThresholdOptions {
+            parameter: NoiseParameter::Visibility,
+            tolerance: 1e-3,
+            curve_points: 3,
+        },
+        None,
+    )
+    .unwrap();
+    let b = t.bracket.unwrap();
+    let critical = std::f64::consts::FRAC_1_SQRT_2;
+    assert!(b.above - b.below <= 1e-3 + 1e-12);
+    assert!(b.above >= critical, "{b:?}");
+    assert!(
+        b.below <= critical + 2e-3 && b.above <= critical + 2e-3,
+        "{b:?}"
+    );
+    assert!(t.at_upper.beats_classical());
+}
+
+#[test]
+fn with_the_maximally_entangled_state_chsh_needs_the_garg_mermin_efficiency() {
+    // 2/(1 + √2) = 2(√2 − 1) ≈ 0.8284 (Garg & Mermin, Phys. Rev. D 35, 3831 (1987)).
+    let game = chsh();
+    let t = threshold(
+        &game.scenario,
+        0.75,
+        &options(NoiseModel::default(), StateChoice::MaximallyEntangled),
+        &ThresholdOptions {
+            parameter: NoiseParameter::Efficiency,
+            tolerance: 1e-3,
+            curve_points: 2,
+        },
+        None,
+    )
+    .unwrap();
+    let b = t.bracket.unwrap();
+    let garg_mermin = 2.0 * (2f64.sqrt() - 1.0);
+    assert!(b.above >= garg_mermin - 1e-9, "{b:?}");
+    assert!(b.above <= garg_mermin + 2e-3, "{b:?}");
+}
+
+#[test]
+fn with_a_partially_entangled_state_chsh_needs_only_about_two_thirds_efficiency() {
+    // Eberhard, Phys. Rev. A 47, R747 (1993): the threshold tends to 2/3 as the state approaches
+    // a product state. Our optimised threshold must come within 0.01 of it (and never below).
+    let game = chsh();
+    let t = threshold(
+        &game.scenario,
+        0.75,
+        &options(NoiseModel::default(), StateChoice::Optimised),
+        &ThresholdOptions {
+            parameter: NoiseParameter::Efficiency,
+            tolerance: 1e-3,
+            curve_points: 2,
+        },
+        None,
+    )
+    .unwrap();
+    let b = t.bracket.unwrap();
+    assert!(b.above > 2.0 / 3.0, "{b:?}");
+    assert!(b.above < 2.0 / 3.0 + 0.01, "{b:?}");
+    // The implementation at the upper end is partially entangled: its smaller Schmidt
+    // coefficient is well below the maximally entangled state's 1/√2.
+    let st = t.at_upper.strategy.in_schmidt_basis();
+    let smaller = st
+        .state
+        .iter()
+        .map(|a| a.norm())
+        .fold(f64::INFINITY, |m, v| if v > 1e-9 { m.min(v) } else { m });
+    assert!(smaller < 0.5, "{smaller}");
+}
