@@ -91,6 +91,10 @@ impl Observer for Stderr {
             Stage::ClassicalSearch => eprint!("\rclassical search: {done}/{total} subtrees"),
             Stage::SeesawRestarts => eprint!("\rsee-saw: {done}/{total} restarts"),
             Stage::EntropyNodes => eprint!("\rentropy hierarchy: {done}/{total} relaxations"),
+            Stage::TangentLines => eprint!("\rentropy bound: {done}/{total} scores"),
+            Stage::DesignSearches => {
+                eprint!("\rimplementation search: {done}/{total} noise levels")
+            }
         }
         if done == total {
             eprint!("\r{:40}\r", "");

@@ -6,10 +6,14 @@
 //! Long work reports through an [`Observer`]: warnings before it starts (estimates) and
 //! progress while it runs. The library prints nothing itself.
 
+mod design;
 mod figures;
 mod finite_size;
 mod review;
 
+pub use design::{
+    design, DesignFigure, DesignReport, DesignRequest, FigureValue, DEFAULT_TANGENTS,
+};
 pub use figures::{
     entropy, entropy_assumptions, key, local, margin, randomness, verify, BestFlip, DevetakWinter,
     EntropyCommandOptions, EntropyGiven, EntropyReport, EntropyResult, ErrorCorrection, KeyOptions,
@@ -58,6 +62,10 @@ pub enum Stage {
     SeesawRestarts,
     /// Quadrature nodes of the entropy hierarchy (each one relaxation).
     EntropyNodes,
+    /// Scores at which the entropy bound's min-tradeoff lines are computed.
+    TangentLines,
+    /// Implementation searches of a threshold search.
+    DesignSearches,
 }
 
 /// Receives what long work has to say while it runs. Every method has a silent default.

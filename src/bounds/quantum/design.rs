@@ -342,6 +342,20 @@ pub fn optimise(
     }
     let (_, strategy, f) =
         best.ok_or_else(|| Error::solver("implementation search", "no restart ran"))?;
+    let mut found = implementation(s, classical, opts, strategy, f)?;
+    found.seconds = began.elapsed().as_secs_f64();
+    Ok(found)
+}
+
+/// The report of `strategy` under `opts.noise` with no-click answers `f`: its certified noisy
+/// score and margin.
+pub fn implementation(
+    s: &Scenario,
+    classical: f64,
+    opts: &DesignOptions,
+    strategy: QuantumStrategy,
+    f: Assignment,
+) -> Result<Implementation> {
     let score = opts.noise.certified_value(s, &strategy, &f);
     if !score.lower.is_finite() {
         return Err(Error::solver(
@@ -356,12 +370,44 @@ pub fn optimise(
         classical,
         margin: score.lower - classical_ceiling(s, classical),
         state: opts.state,
-        dims,
+        dims: strategy.dims.clone(),
         restarts: opts.seesaw.restarts,
-        seed,
-        seconds: began.elapsed().as_secs_f64(),
+        seed: opts.seesaw.seed,
+        seconds: 0.0,
         strategy,
     })
+}
+
+/// Improves `start` for another score table of the game's shape (`table`, e.g. a figure's
+/// linearisation) under `opts.noise`: at most `rounds` rounds of the see-saw's exact steps, each
+/// kept only if it does not lower the table's noisy score.
+pub fn improve(
+    table: &Scenario,
+    opts: &DesignOptions,
+    start: &QuantumStrategy,
+    rounds: usize,
+) -> Result<(QuantumStrategy, Assignment)> {
+    let fixed_state = match opts.state {
+        StateChoice::Optimised => None,
+        StateChoice::MaximallyEntangled => Some(maximally_entangled(&start.dims)?),
+    };
+    let o = DesignOptions {
+        seesaw: SeesawOptions {
+            max_rounds: rounds,
+            ..opts.seesaw.clone()
+        },
+        ..opts.clone()
+    };
+    let mut rng = Rng(opts.seesaw.seed);
+    run(
+        table,
+        &o,
+        &start.dims,
+        fixed_state.as_ref(),
+        &mut rng,
+        0,
+        Some(start),
+    )
 }
 
 /// The noise parameter a threshold varies.
@@ -415,37 +461,39 @@ impl Default for ThresholdOptions {
     }
 }
 
-/// One point of the margin-against-noise curve.
+/// One point of the figure-against-noise curve.
 #[derive(Debug, Clone, Copy, Serialize)]
 pub struct CurvePoint {
     /// The parameter's value.
     pub parameter: f64,
-    /// The best implementation's margin over the classical value there (certified: rounded
-    /// down).
-    pub margin: f64,
+    /// The best implementation's figure there (certified: rounded down; positive means the
+    /// goal is met).
+    pub figure: f64,
 }
 
 /// The bracket around the threshold.
 #[derive(Debug, Clone, Copy, Serialize)]
 pub struct Bracket {
-    /// Where the search found no implementation beating the classical value (a search result,
-    /// not a proof).
+    /// Where the search found no implementation meeting the goal (a search result, not a
+    /// proof).
     pub below: f64,
-    /// Where it found one, with a certified margin (the implementation is reported).
+    /// Where it found one, with a certified positive figure (the implementation is reported).
     pub above: f64,
 }
 
-/// The least noise parameter at which an implementation beats the classical value.
+/// The least noise parameter at which an implementation meets the goal.
 #[derive(Debug, Clone, Serialize)]
 pub struct Threshold {
     /// The parameter varied.
     pub parameter: NoiseParameter,
-    /// The bracket; None when no implementation beats the classical value even without that
-    /// noise (at parameter 1).
+    /// The bracket; None when no implementation meets the goal even without that noise (at
+    /// parameter 1).
     pub bracket: Option<Bracket>,
     /// The implementation at the bracket's upper end (at 1 when there is no bracket).
     pub at_upper: Implementation,
-    /// The margin against the parameter, sorted by the parameter.
+    /// Its figure.
+    pub figure_at_upper: f64,
+    /// The figure against the parameter, sorted by the parameter.
     pub curve: Vec<CurvePoint>,
     /// Implementations optimised.
     pub searches: usize,
@@ -453,16 +501,24 @@ pub struct Threshold {
     pub seconds: f64,
 }
 
-/// Estimated seconds of a threshold search: the see-saw's estimate per search, one more restart
-/// for the continuation, times the bisection's steps and the curve's points.
-pub fn estimate_threshold_seconds(s: &Scenario, opts: &DesignOptions, t: &ThresholdOptions) -> f64 {
-    let per = estimate_seconds(s, &opts.seesaw);
-    let steps = (1.0 / t.tolerance.max(1e-12)).log2().ceil().max(1.0) + 1.0;
-    per * (steps + t.curve_points as f64)
+/// What a threshold search evaluates at one noise level: the best implementation found (from
+/// the given start, when there is one, and from random starts) and its figure, positive when
+/// the goal is met.
+pub type Evaluator<'a> =
+    dyn Fn(&NoiseModel, Option<&QuantumStrategy>) -> Result<(Implementation, f64)> + Sync + 'a;
+
+/// The number of implementation searches a threshold search runs at most.
+pub fn planned_searches(t: &ThresholdOptions) -> usize {
+    (1.0 / t.tolerance.max(1e-12)).log2().ceil().max(1.0) as usize + 1 + t.curve_points
 }
 
-/// Bisects for the threshold of `t.parameter`, re-optimising the implementation at each point;
-/// `progress` gets (searches done, searches planned).
+/// Estimated seconds of a threshold search on the margin: the see-saw's estimate per search
+/// times the searches planned.
+pub fn estimate_threshold_seconds(s: &Scenario, opts: &DesignOptions, t: &ThresholdOptions) -> f64 {
+    estimate_seconds(s, &opts.seesaw) * planned_searches(t) as f64
+}
+
+/// The threshold of the margin over the classical value.
 pub fn threshold(
     s: &Scenario,
     classical: f64,
@@ -470,13 +526,6 @@ pub fn threshold(
     t: &ThresholdOptions,
     progress: Option<&(dyn Fn(usize, usize) + Sync)>,
 ) -> Result<Threshold> {
-    let began = Instant::now();
-    if !(t.tolerance > 0.0 && t.tolerance < 0.5) {
-        return Err(Error::InvalidArgument(format!(
-            "the threshold's tolerance must lie in (0, 0.5) (found {})",
-            t.tolerance
-        )));
-    }
     let seconds = estimate_threshold_seconds(s, opts, t);
     if seconds > SECONDS_LIMIT && !opts.seesaw.limits.force {
         return Err(Error::TooLarge {
@@ -489,8 +538,35 @@ pub fn threshold(
                 .into(),
         });
     }
-    let steps = (1.0 / t.tolerance).log2().ceil() as usize + 1;
-    let planned = steps + t.curve_points;
+    let evaluate = |noise: &NoiseModel, start: Option<&QuantumStrategy>| {
+        let o = DesignOptions {
+            noise: noise.clone(),
+            ..opts.clone()
+        };
+        let found = optimise(s, classical, &o, start)?;
+        let margin = found.margin;
+        Ok((found, margin))
+    };
+    threshold_of(&opts.noise, t, &evaluate, progress)
+}
+
+/// Bisects for the least value of `t.parameter` at which `evaluate` finds a positive figure,
+/// re-optimising at each point from the bracket's upper end's implementation; then evaluates
+/// the curve from a little below the bracket to 1. `progress` gets (searches done, planned).
+pub fn threshold_of(
+    base: &NoiseModel,
+    t: &ThresholdOptions,
+    evaluate: &Evaluator,
+    progress: Option<&(dyn Fn(usize, usize) + Sync)>,
+) -> Result<Threshold> {
+    let began = Instant::now();
+    if !(t.tolerance > 0.0 && t.tolerance < 0.5) {
+        return Err(Error::InvalidArgument(format!(
+            "the threshold's tolerance must lie in (0, 0.5) (found {})",
+            t.tolerance
+        )));
+    }
+    let planned = planned_searches(t);
     let mut searches = 0;
     let tick = |searches: &mut usize| {
         *searches += 1;
@@ -499,57 +575,54 @@ pub fn threshold(
         }
     };
     let at = |value: f64, start: Option<&QuantumStrategy>| {
-        let o = DesignOptions {
-            noise: t.parameter.set(&opts.noise, value),
-            ..opts.clone()
-        };
-        optimise(s, classical, &o, start)
+        evaluate(&t.parameter.set(base, value), start)
     };
-    let top = at(1.0, None)?;
+    let (top, top_figure) = at(1.0, None)?;
     tick(&mut searches);
     let mut curve = vec![CurvePoint {
         parameter: 1.0,
-        margin: top.margin,
+        figure: top_figure,
     }];
-    if !top.beats_classical() {
+    if top_figure <= 0.0 {
         return Ok(Threshold {
             parameter: t.parameter,
             bracket: None,
             at_upper: top,
+            figure_at_upper: top_figure,
             curve,
             searches,
             seconds: began.elapsed().as_secs_f64(),
         });
     }
-    let (mut below, mut above, mut upper) = (0.0, 1.0, top);
+    let (mut below, mut above, mut upper) = (0.0, 1.0, (top, top_figure));
     while above - below > t.tolerance && !crate::limits::stop_requested() {
         let mid = 0.5 * (below + above);
-        let found = at(mid, Some(&upper.strategy))?;
+        let (found, figure) = at(mid, Some(&upper.0.strategy))?;
         tick(&mut searches);
         curve.push(CurvePoint {
             parameter: mid,
-            margin: found.margin,
+            figure,
         });
-        if found.beats_classical() {
+        if figure > 0.0 {
             above = mid;
-            upper = found;
+            upper = (found, figure);
         } else {
             below = mid;
         }
     }
-    // The curve from a little below the threshold to 1, each point continued from the one above.
+    // The curve from a little below the threshold to 1, each point continued from the last.
     let from = (below - 0.25 * (1.0 - below)).max(t.tolerance);
-    let mut previous = upper.strategy.clone();
-    for k in (0..t.curve_points).rev() {
+    let mut previous = upper.0.strategy.clone();
+    for k in 0..t.curve_points {
         if crate::limits::stop_requested() {
             break;
         }
-        let value = from + (1.0 - from) * k as f64 / t.curve_points as f64;
-        let found = at(value, Some(&previous))?;
+        let value = 1.0 - (1.0 - from) * (k + 1) as f64 / t.curve_points as f64;
+        let (found, figure) = at(value, Some(&previous))?;
         tick(&mut searches);
         curve.push(CurvePoint {
             parameter: value,
-            margin: found.margin,
+            figure,
         });
         previous = found.strategy;
     }
@@ -557,7 +630,8 @@ pub fn threshold(
     Ok(Threshold {
         parameter: t.parameter,
         bracket: Some(Bracket { below, above }),
-        at_upper: upper,
+        at_upper: upper.0,
+        figure_at_upper: upper.1,
         curve,
         searches,
         seconds: began.elapsed().as_secs_f64(),
