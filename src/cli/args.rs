@@ -172,6 +172,66 @@ pub enum Command {
         #[arg(long)]
         normalise: bool,
     },
+    /// The best honest implementation under noise (visibility, detection efficiency, dark
+    /// counts) for a figure, and the least efficiency or visibility at which the figure is
+    /// positive.
+    Design {
+        #[command(flatten)]
+        args: GameArgs,
+        /// The figure to maximise: the margin over the classical value, the certified
+        /// min-entropy, the von Neumann entropy bound, or the Devetak–Winter key rate.
+        #[arg(long, value_enum, default_value = "margin")]
+        figure: FigureArg,
+        /// Detection efficiency in (0, 1]: one for every player, or one per player, comma
+        /// separated.
+        #[arg(long, value_delimiter = ',', value_parser = parse_finite)]
+        efficiency: Vec<f64>,
+        /// Visibility in [0, 1]: the weight of the intended state against white noise.
+        #[arg(long, default_value_t = 1.0, value_parser = parse_finite)]
+        visibility: f64,
+        /// Probability in [0, 1] that a round without a click registers a uniformly random
+        /// answer.
+        #[arg(long, default_value_t = 0.0, value_parser = parse_finite)]
+        dark_counts: f64,
+        /// What a round without a click is reported as: `best` (the best assignment per player
+        /// and question) or an answer label used by every player.
+        #[arg(long, default_value = "best", allow_hyphen_values = true)]
+        no_click: String,
+        /// Which states the search may use.
+        #[arg(long, value_enum, default_value = "optimised")]
+        state: StateArg,
+        /// Search for the least value of this parameter at which the figure is positive
+        /// (bisection, re-optimising at each point), instead of one noise level.
+        #[arg(long, value_enum)]
+        threshold: Option<NoiseParameterArg>,
+        /// Width of the threshold's final bracket.
+        #[arg(long, default_value_t = 1e-3, value_parser = parse_finite)]
+        tolerance: f64,
+        /// Points of the figure-against-noise curve besides the bisection's own.
+        #[arg(long, default_value_t = 10)]
+        curve_points: usize,
+        #[command(flatten)]
+        answers: KeyAnswerArgs,
+        /// Key rate: the other player, whose answers the key is reconciled with.
+        #[arg(long)]
+        key_with: Option<String>,
+        /// Key rate: that player's question (label; default: the first).
+        #[arg(long, allow_hyphen_values = true, requires = "key_with")]
+        key_question: Option<i64>,
+        /// NPA level of the min-entropy's guessing-probability SDP.
+        #[arg(long, default_value = "2", long_help = ONE_LEVEL_HELP)]
+        randomness_level: String,
+        #[command(flatten)]
+        hierarchy: HierarchyArgs,
+        #[command(flatten)]
+        seesaw: SeesawArgs,
+        /// Write the implementation (state and measurements, before noise) to this file.
+        #[arg(long, value_name = "FILE")]
+        save: Option<PathBuf>,
+        /// Plot the figure against the noise parameter (SVG; with --threshold).
+        #[arg(long, value_name = "FILE", requires = "threshold")]
+        svg: Option<PathBuf>,
+    },
     /// What an observed score over n rounds certifies: confidence bounds, margin over the
     /// classical value, p-value of classical devices, rounds needed.
     Margin {
@@ -571,6 +631,48 @@ pub struct HierarchyArgs {
     pub symmetry: SymmetryArg,
 }
 
+/// Whose answer the entropy figures of `design` are about.
+#[derive(Args, Debug, Clone)]
+pub struct KeyAnswerArgs {
+    /// Whose answer (default: the first player).
+    #[arg(long)]
+    pub player: Option<String>,
+    /// To which question (label; default: the first).
+    #[arg(long, allow_hyphen_values = true)]
+    pub question: Option<i64>,
+}
+
+/// `design --figure`.
+#[derive(ValueEnum, Debug, Clone, Copy)]
+pub enum FigureArg {
+    /// The noisy score's margin over the classical value.
+    Margin,
+    /// The certified min-entropy of the key player's answer.
+    MinEntropy,
+    /// The bound on the conditional von Neumann entropy H(A|X=x*, E).
+    Entropy,
+    /// The Devetak–Winter key rate (needs --key-with).
+    KeyRate,
+}
+
+/// `design --state`.
+#[derive(ValueEnum, Debug, Clone, Copy)]
+pub enum StateArg {
+    /// Any state of the local dimensions, optimised.
+    Optimised,
+    /// The maximally entangled state, fixed (two players of equal dimension).
+    MaximallyEntangled,
+}
+
+/// `design --threshold`.
+#[derive(ValueEnum, Debug, Clone, Copy)]
+pub enum NoiseParameterArg {
+    /// Every player's detection efficiency (the same for all).
+    Efficiency,
+    /// The visibility.
+    Visibility,
+}
+
 /// Whose answers (`randomness`, `entropy`, `finite-size`): one player's, or a pair's.
 #[derive(Args, Debug, Clone)]
 pub struct AnswerArgs {
@@ -741,6 +843,7 @@ impl Cli {
             | Command::Margin { args, .. }
             | Command::Randomness { args, .. }
             | Command::Entropy { args, .. }
+            | Command::Design { args, .. }
             | Command::FiniteSize { args, .. } => Some(args),
             Command::Key { .. }
             | Command::Review { .. }

@@ -291,6 +291,29 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             }
             Ok(output(text::game_report(&r), &r, &game.warnings))
         }
+        Request::Design {
+            game,
+            request,
+            dims,
+            no_click,
+            save,
+            svg,
+        } => {
+            let game = load(game)?;
+            let mut request = request.clone();
+            request.design.seesaw.dims = dims.resolve(game.scenario.players());
+            request.design.noise.no_click = no_click.resolve(&game.scenario)?;
+            let r = pipeline::design(&game, &request, &observer)?;
+            if let Some(file) = save {
+                let readable = r.implementation.strategy.in_schmidt_basis();
+                let yaml = readable_yaml(&readable.to_yaml_value(&game.scenario));
+                write(file, &yaml, inputs)?;
+            }
+            if let Some(file) = svg {
+                write(file, &charts::design_threshold(&r), inputs)?;
+            }
+            Ok(output(text::design(&r), &r, &game.warnings))
+        }
         Request::Evaluate {
             game,
             strategy,

@@ -6,6 +6,9 @@ use std::path::PathBuf;
 
 use bellgap::bounds::classical::{Choice, ClassicalOptions};
 use bellgap::bounds::entropy::{AdversaryWords, EntropyOptions, MomentField, Preprocessing};
+use bellgap::bounds::quantum::design::{
+    DesignOptions, NoiseParameter, StateChoice, ThresholdOptions,
+};
 use bellgap::bounds::quantum::npa::Level;
 use bellgap::bounds::quantum::seesaw::SeesawOptions;
 use bellgap::bounds::quantum::symmetric::SymmetryChoice;
@@ -13,12 +16,13 @@ use bellgap::formats::game::families::{self, Family};
 use bellgap::formats::game::CompileOptions;
 use bellgap::formats::strategy_file::StrategyFileOptions;
 use bellgap::limits::Limits;
+use bellgap::model::noise::{NoClick, NoiseModel};
 use bellgap::optim::backend::Backend;
 use bellgap::optim::first_order::FirstOrderOptions;
 use bellgap::pipeline::{
-    BoundKind, BoundsOptions, EntropyCommandOptions, EntropyGiven, ErrorCorrection,
-    EvaluateOptions, FiniteSizeOptions, KeyDisclosure, KeyOptions, KeyParts, MarginOptions,
-    NpaLevelsOptions, RandomnessOptions, Tangent, TargetChoice,
+    BoundKind, BoundsOptions, DesignFigure, DesignRequest, EntropyCommandOptions, EntropyGiven,
+    ErrorCorrection, EvaluateOptions, FiniteSizeOptions, KeyDisclosure, KeyOptions, KeyParts,
+    MarginOptions, NpaLevelsOptions, RandomnessOptions, Tangent, TargetChoice, DEFAULT_TANGENTS,
 };
 use bellgap::protocol::accumulation::{SecurityParameters, Statement};
 use bellgap::protocol::finite::ObservedRun;
@@ -26,7 +30,8 @@ use bellgap::{Error, Result};
 
 use super::args::{
     AdversaryWordsArg, AnswerArgs, BoundArg, Cli, Command, EntropySolverArg, FamilyCommand,
-    GameArgs, HierarchyArgs, MethodArg, MomentsArg, SeesawArgs, SolverArg, SymmetryArg,
+    FigureArg, GameArgs, HierarchyArgs, MethodArg, MomentsArg, NoiseParameterArg, SeesawArgs,
+    SolverArg, StateArg, SymmetryArg,
 };
 
 /// A game file and how to compile it.
@@ -91,6 +96,49 @@ fn one_level(text: &str) -> Result<Level> {
         )));
     }
     Level::parse(text)
+}
+
+/// `design --no-click`: the best assignment, or one answer label for every player.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum NoClickChoice {
+    /// The best assignment per player and question.
+    Best,
+    /// This answer label for every player and question.
+    Label(i64),
+}
+
+impl NoClickChoice {
+    /// The noise model's assignment for `s`: the label's index for every player.
+    pub fn resolve(&self, s: &bellgap::Scenario) -> Result<NoClick> {
+        match self {
+            NoClickChoice::Best => Ok(NoClick::Best),
+            NoClickChoice::Label(l) => {
+                let indices: Vec<usize> = s
+                    .parties()
+                    .iter()
+                    .map(|p| {
+                        p.answer_labels.iter().position(|a| a == l).ok_or_else(|| {
+                            Error::InvalidArgument(format!(
+                                "--no-click: {} has no answer {l}",
+                                p.name
+                            ))
+                        })
+                    })
+                    .collect::<Result<_>>()?;
+                Ok(if indices.iter().all(|&i| i == indices[0]) {
+                    NoClick::Answer(indices[0])
+                } else {
+                    NoClick::Table(
+                        s.parties()
+                            .iter()
+                            .zip(&indices)
+                            .map(|(p, &i)| vec![i; p.questions()])
+                            .collect(),
+                    )
+                })
+            }
+        }
+    }
 }
 
 /// A run's data as typed: a summary, or a counts file the runner reads.
@@ -168,6 +216,15 @@ pub enum Request {
         strategy: Option<PathBuf>,
         counts: Option<(PathBuf, f64)>,
         options: EntropyCommandOptions,
+    },
+    /// `design`; the no-click answer label and the dimensions are resolved with the game.
+    Design {
+        game: GameInput,
+        request: DesignRequest,
+        dims: DimsChoice,
+        no_click: NoClickChoice,
+        save: Option<PathBuf>,
+        svg: Option<PathBuf>,
     },
     /// `finite-size`.
     FiniteSize {
@@ -612,6 +669,80 @@ impl Invocation {
                     },
                     hierarchy: hierarchy_options(hierarchy, args.force)?,
                 },
+            },
+            Command::Design {
+                args,
+                figure,
+                efficiency,
+                visibility,
+                dark_counts,
+                no_click,
+                state,
+                threshold,
+                tolerance,
+                curve_points,
+                answers,
+                key_with,
+                key_question,
+                randomness_level,
+                hierarchy,
+                seesaw,
+                save,
+                svg,
+            } => Request::Design {
+                game: game_input(args),
+                request: DesignRequest {
+                    figure: match figure {
+                        FigureArg::Margin => DesignFigure::Margin,
+                        FigureArg::MinEntropy => DesignFigure::MinEntropy,
+                        FigureArg::Entropy => DesignFigure::Entropy,
+                        FigureArg::KeyRate => DesignFigure::KeyRate,
+                    },
+                    design: DesignOptions {
+                        seesaw: seesaw_options(seesaw, args.force),
+                        noise: NoiseModel {
+                            visibility: *visibility,
+                            efficiency: efficiency.clone(),
+                            dark_counts: *dark_counts,
+                            no_click: NoClick::Best,
+                        },
+                        state: match state {
+                            StateArg::Optimised => StateChoice::Optimised,
+                            StateArg::MaximallyEntangled => StateChoice::MaximallyEntangled,
+                        },
+                    },
+                    threshold: threshold.map(|t| ThresholdOptions {
+                        parameter: match t {
+                            NoiseParameterArg::Efficiency => NoiseParameter::Efficiency,
+                            NoiseParameterArg::Visibility => NoiseParameter::Visibility,
+                        },
+                        tolerance: *tolerance,
+                        curve_points: *curve_points,
+                    }),
+                    key: TargetChoice {
+                        player: answers.player.clone(),
+                        question: answers.question,
+                    },
+                    partner: key_with.as_ref().map(|p| TargetChoice {
+                        player: Some(p.clone()),
+                        question: *key_question,
+                    }),
+                    randomness_level: Some(one_level(randomness_level)?),
+                    entropy: hierarchy_options(hierarchy, args.force)?,
+                    tangents: DEFAULT_TANGENTS,
+                },
+                dims: dims(seesaw.dim, seesaw.dims.as_ref()),
+                no_click: if no_click.trim() == "best" {
+                    NoClickChoice::Best
+                } else {
+                    NoClickChoice::Label(no_click.trim().parse().map_err(|_| {
+                        Error::Usage(format!(
+                            "--no-click: `{no_click}` is neither `best` nor an answer label"
+                        ))
+                    })?)
+                },
+                save: save.clone(),
+                svg: svg.clone(),
             },
             Command::FiniteSize {
                 args,

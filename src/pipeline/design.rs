@@ -404,9 +404,14 @@ pub fn design<'a>(
                 Ok((imp, value.value))
             };
             let progress = |done: usize, total: usize| {
-                observer.progress(Stage::DesignSearches, done, total);
+                if observer.wants_progress() {
+                    observer.progress(Stage::DesignSearches, done, total);
+                }
             };
             let found = threshold_of(&request.design.noise, t, &evaluate, Some(&progress))?;
+            // The bisection may end before the searches planned: the progress line is closed.
+            let planned = planned_searches(t);
+            progress(planned, planned);
             let value = figures.value(&found.at_upper)?;
             (found.at_upper.clone(), value, Some(found))
         }
@@ -474,7 +479,9 @@ fn tangent_lines(
     for k in 1..=count {
         let score = classical + (top - classical) * k as f64 / count as f64;
         let bound = hierarchy.bound(&EntropyConstraint::Score(score), &|_, _| {})?;
-        observer.progress(Stage::TangentLines, k, count);
+        if observer.wants_progress() {
+            observer.progress(Stage::TangentLines, k, count);
+        }
         if let Some(line) = bound.min_tradeoff {
             lines.push(line);
         }

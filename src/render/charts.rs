@@ -465,6 +465,45 @@ pub fn min_entropy_curve(
     )
 }
 
+/// A design's figure against the noise parameter of its threshold search, with the bracket's
+/// upper end marked.
+pub fn design_threshold(report: &crate::pipeline::DesignReport) -> String {
+    let Some(t) = &report.threshold else {
+        return String::new();
+    };
+    line_chart_with(
+        &format!(
+            "{} against {}, {}",
+            report.figure.describe(),
+            t.parameter.name(),
+            report.game.name
+        ),
+        t.parameter.name(),
+        report.figure.describe(),
+        &[Series {
+            name: "best implementation found".into(),
+            points: t.curve.iter().map(|p| (p.parameter, p.figure)).collect(),
+        }],
+        &ChartOptions {
+            markers: t
+                .bracket
+                .iter()
+                .map(|b| Marker {
+                    axis: MarkerAxis::X,
+                    at: b.above,
+                    label: format!("threshold ≤ {}", crate::numbers::num_sig(b.above, 4)),
+                })
+                .chain(std::iter::once(Marker {
+                    axis: MarkerAxis::Y,
+                    at: 0.0,
+                    label: "0".into(),
+                }))
+                .collect(),
+            ..Default::default()
+        },
+    )
+}
+
 /// Certified rate per round against the number of rounds (log axis), with the run's own number
 /// of rounds marked, for a finite-size report.
 pub fn finite_size_rate(report: &crate::pipeline::FiniteSizeReport) -> String {

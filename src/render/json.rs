@@ -523,6 +523,40 @@ struct EntropyView<'a> {
     caution: &'static str,
 }
 
+#[derive(Serialize)]
+struct DesignView<'a> {
+    schema_version: u32,
+    command: &'static str,
+    game: &'a str,
+    figure: crate::pipeline::DesignFigure,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    about: &'a Option<String>,
+    implementation: &'a crate::bounds::quantum::design::Implementation,
+    value: &'a crate::pipeline::FigureValue,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    threshold: &'a Option<crate::bounds::quantum::design::Threshold>,
+    assumptions: &'a [String],
+    caution: &'static str,
+}
+
+impl Serialize for crate::pipeline::DesignReport<'_> {
+    fn serialize<S: Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        DesignView {
+            schema_version: SCHEMA_VERSION,
+            command: "design",
+            game: &self.game.name,
+            figure: self.figure,
+            about: &self.about,
+            implementation: &self.implementation,
+            value: &self.value,
+            threshold: &self.threshold,
+            assumptions: &self.assumptions,
+            caution: CAUTION,
+        }
+        .serialize(serializer)
+    }
+}
+
 impl Serialize for EntropyReport<'_> {
     fn serialize<S: Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
         EntropyView {

@@ -630,6 +630,149 @@ pub fn entropy(report: &EntropyReport) -> String {
     out
 }
 
+/// The `design` command's report.
+pub fn design(report: &crate::pipeline::DesignReport) -> String {
+    use crate::bounds::quantum::design::StateChoice;
+    let imp = &report.implementation;
+    let noise = &imp.noise;
+    let s = &report.game.scenario;
+    let mut out = format!(
+        "game        {} ({})\nfigure      {}\n",
+        report.game.name,
+        report.game.source,
+        report.figure.describe()
+    );
+    if let Some(about) = &report.about {
+        out += &format!("about       {about}\n");
+    }
+    let efficiency = if noise.efficiency.is_empty() {
+        "1".to_string()
+    } else {
+        noise
+            .efficiency
+            .iter()
+            .map(|e| num(*e))
+            .collect::<Vec<_>>()
+            .join(", ")
+    };
+    if let Some(t) = &report.threshold {
+        out += &format!("\nthreshold of the {}\n", t.parameter.name());
+        match &t.bracket {
+            Some(b) => out += &format!(
+                "  between     {} and {}: positive at {} (implementation below), none found at {}\n",
+                num(b.below),
+                num(b.above),
+                num(b.above),
+                num(b.below)
+            ),
+            None => out += "  none: no implementation found has a positive figure even at 1\n",
+        }
+        out += &format!(
+            "  searches    {} implementations, {:.1} s\n\n  {:>12}  {}\n",
+            t.searches,
+            t.seconds,
+            t.parameter.name(),
+            report.figure.describe()
+        );
+        for p in &t.curve {
+            out += &format!(
+                "  {:>12}  {}\n",
+                num_sig(p.parameter, 6),
+                if p.figure > 0.0 {
+                    num_sig(p.figure, 4)
+                } else {
+                    "none found (≤ 0)".to_string()
+                }
+            );
+        }
+    }
+    out += &format!(
+        "\nnoise       visibility {}, detection efficiency {}, dark counts {}\n",
+        num(noise.visibility),
+        efficiency,
+        num(noise.dark_counts)
+    );
+    if !noise.lossless() {
+        let answers: Vec<String> = imp
+            .no_click_answers
+            .iter()
+            .zip(s.parties())
+            .map(|(row, p)| {
+                format!(
+                    "{} {}",
+                    p.name,
+                    row.iter()
+                        .map(|&a| p.answer_labels[a].to_string())
+                        .collect::<Vec<_>>()
+                        .join(",")
+                )
+            })
+            .collect();
+        out += &format!(
+            "no-click    reported as: {} (per question){}\n",
+            answers.join("; "),
+            if noise.no_click == crate::model::noise::NoClick::Best {
+                ", the best assignment found"
+            } else {
+                ""
+            }
+        );
+    }
+    out += &format!(
+        "state       {}, dims {:?}, {} restarts, seed {}\n",
+        match imp.state {
+            StateChoice::Optimised => "optimised",
+            StateChoice::MaximallyEntangled => "maximally entangled (fixed)",
+        },
+        imp.dims,
+        imp.restarts,
+        imp.seed
+    );
+    out += &format!(
+        "score       ≥ {} under this noise (certified; classical value {}, margin {})\n",
+        num(imp.score.lower),
+        num(imp.classical),
+        num(imp.margin)
+    );
+    let v = &report.value;
+    if let Some(g) = v.guessing_probability {
+        out += &format!("guessing    ≤ {} (verified)\n", num(g));
+    }
+    if let Some(h) = v.conditional_entropy {
+        out += &format!("H(A|X,E)    ≥ {} bits\n", num(h));
+    }
+    if let Some(ec) = v.error_correction {
+        out += &format!(
+            "H(A|B)      ≤ {} bits (the noisy behaviour's, rounded up)\n",
+            num(ec)
+        );
+    }
+    out += &format!(
+        "figure      {} {}\n",
+        num(v.value),
+        if v.value > 0.0 {
+            "(positive: the goal is met)"
+        } else {
+            "(not positive: the goal is not met at this noise)"
+        }
+    );
+    if report.figure != crate::pipeline::DesignFigure::Margin {
+        out += &format!(
+            "            certified at the score {} (the implementation's noisy score, rounded down)\n",
+            num(v.score)
+        );
+    }
+    let schmidt: Vec<String> = crate::bounds::quantum::analysis::bipartitions(s, &imp.strategy)
+        .first()
+        .map(|b| b.schmidt.iter().map(|c| num_sig(*c, 6)).collect())
+        .unwrap_or_default();
+    if !schmidt.is_empty() {
+        out += &format!("Schmidt     {}\n", schmidt.join(", "));
+    }
+    out += &assumptions_and_caution(&report.assumptions);
+    out
+}
+
 /// A small probability in scientific notation (`1.234e-12`), 0 as `0`.
 fn probability_text(x: f64) -> String {
     if x == 0.0 {

@@ -627,6 +627,14 @@ pub fn threshold_of(
         previous = found.strategy;
     }
     curve.sort_by(|a, b| a.parameter.total_cmp(&b.parameter));
+    // A point searched twice (a curve point on a bisection point) keeps its better figure.
+    curve.dedup_by(|later, kept| {
+        let same = later.parameter == kept.parameter;
+        if same {
+            kept.figure = kept.figure.max(later.figure);
+        }
+        same
+    });
     Ok(Threshold {
         parameter: t.parameter,
         bracket: Some(Bracket { below, above }),

@@ -9,5 +9,6 @@ mod flips;
 pub mod membership;
 pub mod npa;
 pub mod seesaw;
+pub mod selftest;
 pub mod symmetric;
 pub mod words;
