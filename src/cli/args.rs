@@ -232,6 +232,32 @@ pub enum Command {
         #[arg(long, value_name = "FILE", requires = "threshold")]
         svg: Option<PathBuf>,
     },
+    /// Self-testing: a verified lower bound on the fidelity of the devices' state (extracted by
+    /// local SWAP isometries) with a target state, from a score (two players, binary questions).
+    SelfTest {
+        #[command(flatten)]
+        args: GameArgs,
+        /// The score (in the game's own units): the bound holds for every quantum behaviour
+        /// scoring at least this.
+        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite)]
+        score: f64,
+        /// The target's four real amplitudes of |00⟩, |01⟩, |10⟩, |11⟩, comma separated
+        /// (default: the state the see-saw's best strategy extracts to).
+        #[arg(long, value_delimiter = ',', allow_hyphen_values = true, value_parser = parse_finite, conflicts_with = "strategy")]
+        target: Option<Vec<f64>>,
+        /// Take the target from this strategy file's extracted state instead.
+        #[arg(long, value_name = "FILE")]
+        strategy: Option<PathBuf>,
+        /// The question labels whose measurements build each player's Z and X: the first
+        /// player's two, then the second's (default: each player's first two).
+        #[arg(long, value_delimiter = ',', allow_hyphen_values = true)]
+        questions: Option<Vec<i64>>,
+        /// The NPA level (default: `1 A B AA AB BB AAB ABB AABB`).
+        #[arg(long, long_help = ONE_LEVEL_HELP)]
+        level: Option<String>,
+        #[command(flatten)]
+        seesaw: SeesawArgs,
+    },
     /// What an observed score over n rounds certifies: confidence bounds, margin over the
     /// classical value, p-value of classical devices, rounds needed.
     Margin {
@@ -804,6 +830,9 @@ impl Cli {
             .collect();
         match &self.command {
             Command::Evaluate { strategy, .. } => v.push(strategy.clone()),
+            Command::SelfTest {
+                strategy: Some(st), ..
+            } => v.push(st.clone()),
             Command::Verify { certificate, .. } => v.push(certificate.clone()),
             Command::Review { protocol, .. } => v.push(protocol.clone()),
             Command::Local { correlations, .. } => v.push(correlations.clone()),
@@ -844,6 +873,7 @@ impl Cli {
             | Command::Randomness { args, .. }
             | Command::Entropy { args, .. }
             | Command::Design { args, .. }
+            | Command::SelfTest { args, .. }
             | Command::FiniteSize { args, .. } => Some(args),
             Command::Key { .. }
             | Command::Review { .. }

@@ -28,7 +28,9 @@ use bellgap::pipeline::{self, BoundKind, EntropyGiven, GameReport, Observer, Run
 use bellgap::render::{charts, document, json, text};
 use bellgap::{Error, Result};
 
-use request::{DocumentFormat, FamilyChoice, GameInput, Invocation, Request, RunInput};
+use request::{
+    DocumentFormat, FamilyChoice, GameInput, Invocation, Request, RunInput, TargetSource,
+};
 
 /// What a command produced: text for people, one JSON object for programs, warnings for stderr.
 pub struct Output {
@@ -313,6 +315,49 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
                 write(file, &charts::design_threshold(&r), inputs)?;
             }
             Ok(output(text::design(&r), &r, &game.warnings))
+        }
+        Request::SelfTest {
+            game,
+            score,
+            target,
+            questions,
+            level,
+            dims,
+            seesaw,
+        } => {
+            let game = load(game)?;
+            let target = match target {
+                TargetSource::Seesaw => pipeline::SelfTestTarget::Seesaw(
+                    bellgap::bounds::quantum::seesaw::SeesawOptions {
+                        dims: match dims.resolve(game.scenario.players()) {
+                            d if d.is_empty() => vec![2; game.scenario.players()],
+                            d => d,
+                        },
+                        ..seesaw.clone()
+                    },
+                ),
+                TargetSource::Amplitudes(a) => pipeline::SelfTestTarget::Amplitudes(a.clone()),
+                TargetSource::Strategy(file) => {
+                    let name = file.to_string_lossy().to_string();
+                    let st = QuantumStrategy::from_file_with(
+                        &name,
+                        &game.scenario,
+                        &Default::default(),
+                    )?;
+                    pipeline::SelfTestTarget::Strategy(st, name)
+                }
+            };
+            let r = pipeline::self_test(
+                &game,
+                &pipeline::SelfTestRequest {
+                    score: *score,
+                    target,
+                    questions: questions.clone(),
+                    level: level.clone(),
+                },
+                &observer,
+            )?;
+            Ok(output(text::self_test(&r), &r, &game.warnings))
         }
         Request::Evaluate {
             game,

@@ -98,6 +98,17 @@ fn one_level(text: &str) -> Result<Level> {
     Level::parse(text)
 }
 
+/// Where `self-test` takes its target state from.
+#[derive(Debug, Clone, PartialEq)]
+pub enum TargetSource {
+    /// The state the see-saw's best strategy extracts to.
+    Seesaw,
+    /// Amplitudes typed on the command line.
+    Amplitudes(Vec<f64>),
+    /// A strategy file's extracted state.
+    Strategy(PathBuf),
+}
+
 /// `design --no-click`: the best assignment, or one answer label for every player.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub enum NoClickChoice {
@@ -225,6 +236,17 @@ pub enum Request {
         no_click: NoClickChoice,
         save: Option<PathBuf>,
         svg: Option<PathBuf>,
+    },
+    /// `self-test`; the question labels, the target's source and the see-saw's dimensions are
+    /// resolved with the game.
+    SelfTest {
+        game: GameInput,
+        score: f64,
+        target: TargetSource,
+        questions: Option<Vec<i64>>,
+        level: Option<Level>,
+        dims: DimsChoice,
+        seesaw: SeesawOptions,
     },
     /// `finite-size`.
     FiniteSize {
@@ -743,6 +765,27 @@ impl Invocation {
                 },
                 save: save.clone(),
                 svg: svg.clone(),
+            },
+            Command::SelfTest {
+                args,
+                score,
+                target,
+                strategy,
+                questions,
+                level,
+                seesaw,
+            } => Request::SelfTest {
+                game: game_input(args),
+                score: *score,
+                target: match (target, strategy) {
+                    (Some(t), _) => TargetSource::Amplitudes(t.clone()),
+                    (None, Some(f)) => TargetSource::Strategy(f.clone()),
+                    (None, None) => TargetSource::Seesaw,
+                },
+                questions: questions.clone(),
+                level: level.as_deref().map(one_level).transpose()?,
+                dims: dims(seesaw.dim, seesaw.dims.as_ref()),
+                seesaw: seesaw_options(seesaw, args.force),
             },
             Command::FiniteSize {
                 args,

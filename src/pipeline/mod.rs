@@ -10,6 +10,7 @@ mod design;
 mod figures;
 mod finite_size;
 mod review;
+mod selftest;
 
 pub use design::{
     design, DesignFigure, DesignReport, DesignRequest, FigureValue, DEFAULT_TANGENTS,
@@ -26,7 +27,11 @@ pub use finite_size::{
     DEFAULT_TANGENT_POINTS, DEFAULT_TEST_CAP_ABORT, MAX_TANGENT_POINTS,
 };
 pub use review::{
-    review, Review, ReviewEntropyKey, ReviewFiniteSize, ReviewKey, ReviewRandomness, REVIEW_NODES,
+    review, Review, ReviewDevices, ReviewEntropyKey, ReviewFiniteSize, ReviewKey, ReviewRandomness,
+    ReviewThreshold, REVIEW_NODES,
+};
+pub use selftest::{
+    self_test, self_test_assumptions, SelfTestReport, SelfTestRequest, SelfTestTarget,
 };
 
 use serde::Serialize;

@@ -69,6 +69,31 @@ pub struct ReviewEntropyKey {
     pub preprocessing: Preprocessing,
 }
 
+/// What the run's score certifies about the devices' state (two-player games whose first two
+/// questions of each player are binary), and the honest implementation the game needs.
+#[derive(Debug, Clone, Serialize)]
+pub struct ReviewDevices {
+    /// The verified SWAP fidelity bound at the lower confidence score, with the target the
+    /// see-saw's best strategy extracts to (and Kaniewski's bound for CHSH); None when the game
+    /// does not allow the construction.
+    pub state: Option<crate::bounds::quantum::selftest::FidelityBound>,
+    /// The least detection efficiency (all players alike) and visibility at which the best
+    /// implementation found beats the classical value, each computed when affordable.
+    pub thresholds: Vec<ReviewThreshold>,
+    /// Why a figure is missing, in words.
+    pub notes: Vec<String>,
+}
+
+/// One noise threshold of a review.
+#[derive(Debug, Clone, Serialize)]
+pub struct ReviewThreshold {
+    /// The noise parameter.
+    pub parameter: crate::bounds::quantum::design::NoiseParameter,
+    /// The bracket (below, above); None when no implementation found beats the classical
+    /// value even without that noise.
+    pub bracket: Option<(f64, f64)>,
+}
+
 /// The finite-size figures in a review.
 #[derive(Debug, Clone)]
 pub struct ReviewFiniteSize<'a> {
@@ -102,6 +127,8 @@ pub struct Review<'a> {
     pub entropy_key: Option<ReviewEntropyKey>,
     /// Finite-size figures, when the file asks for them.
     pub finite_size: Option<ReviewFiniteSize<'a>>,
+    /// The devices: the state's certified fidelity and the noise the game tolerates.
+    pub devices: ReviewDevices,
     /// Tool version and the UTC date the report was made.
     pub generated: String,
     /// The command that made the report (set by the caller; empty when unknown).
@@ -377,6 +404,7 @@ pub fn review<'a>(
             })
         }
     };
+    let devices = review_devices(game, &report, certified_score, classical);
     Ok(Review {
         name: p.name.clone().unwrap_or_else(|| path.to_string()),
         bounds: report,
@@ -388,6 +416,7 @@ pub fn review<'a>(
         key,
         entropy_key,
         finite_size,
+        devices,
         generated: format!(
             "bellgap {} on {} (UTC)",
             env!("CARGO_PKG_VERSION"),
@@ -395,6 +424,85 @@ pub fn review<'a>(
         ),
         command_line: String::new(),
     })
+}
+
+/// Seconds of implementation searches a review spends on thresholds at most (estimated):
+/// beyond that, the thresholds are left to the `design` command.
+const REVIEW_DESIGN_SECONDS: f64 = 30.0;
+
+/// The devices' section: never fatal (a figure that cannot be had is noted).
+fn review_devices(
+    game: &Game,
+    report: &GameReport,
+    certified_score: f64,
+    classical: f64,
+) -> ReviewDevices {
+    use crate::bounds::quantum::design::{
+        estimate_threshold_seconds, threshold, DesignOptions, NoiseParameter, ThresholdOptions,
+    };
+    use crate::bounds::quantum::selftest::{fidelity_bound, target_from, SelfTestOptions};
+    let s = &game.scenario;
+    let mut out = ReviewDevices {
+        state: None,
+        thresholds: Vec::new(),
+        notes: Vec::new(),
+    };
+    let binary = s.players() == 2
+        && s.parties()
+            .iter()
+            .all(|p| p.questions() >= 2 && p.answers() == 2);
+    match (&report.seesaw, binary) {
+        (Some(sw), true) => {
+            let options = SelfTestOptions::default();
+            let bound = target_from(s, &sw.strategy, &options.questions)
+                .and_then(|t| fidelity_bound(s, certified_score, &t, &options));
+            match bound {
+                Ok(b) => out.state = Some(b),
+                Err(e) => out.notes.push(format!("state fidelity: {e}")),
+            }
+        }
+        (None, true) => out
+            .notes
+            .push("state fidelity: needs the see-saw's strategy for its target".into()),
+        (_, false) => out.notes.push(
+            "state fidelity: the SWAP construction needs two players with two binary questions each".into(),
+        ),
+    }
+    let design = DesignOptions {
+        seesaw: crate::bounds::quantum::seesaw::SeesawOptions {
+            dims: report
+                .seesaw
+                .as_ref()
+                .map(|sw| sw.dims.clone())
+                .unwrap_or_default(),
+            ..Default::default()
+        },
+        ..Default::default()
+    };
+    for parameter in [NoiseParameter::Efficiency, NoiseParameter::Visibility] {
+        let t = ThresholdOptions {
+            parameter,
+            tolerance: 1e-3,
+            curve_points: 0,
+        };
+        if estimate_threshold_seconds(s, &design, &t) > REVIEW_DESIGN_SECONDS {
+            out.notes.push(format!(
+                "{} threshold: estimated above {REVIEW_DESIGN_SECONDS} s, left to `bellgap design`",
+                parameter.name()
+            ));
+            continue;
+        }
+        match threshold(s, classical, &design, &t, None) {
+            Ok(found) => out.thresholds.push(ReviewThreshold {
+                parameter,
+                bracket: found.bracket.map(|b| (b.below, b.above)),
+            }),
+            Err(e) => out
+                .notes
+                .push(format!("{} threshold: {e}", parameter.name())),
+        }
+    }
+    out
 }
 
 impl Review<'_> {
@@ -426,6 +534,12 @@ impl Review<'_> {
         }
         if self.entropy_key.is_some() {
             a.push("The key rate of this game is the Devetak–Winter rate with a verified lower bound on H(A|X=x*, E) from the Gauss–Radau entropy hierarchy at the lower confidence score, and Fano's bound on H(A|B) at the stated error rate: collective attacks, i.i.d. rounds, asymptotic, one-way error correction at the Shannon limit.".into());
+        }
+        if self.devices.state.is_some() {
+            a.push("The state's fidelity is that of the state each player's partial SWAP isometry (built from its first two measurements) extracts, with the state the see-saw's best strategy extracts to; it holds for every quantum behaviour scoring at least the lower confidence score, for one round of i.i.d. rounds.".into());
+        }
+        if !self.devices.thresholds.is_empty() {
+            a.push("Noise thresholds are those of the best honest implementation found (see-saw with restarts, no-click answers chosen best, white noise on the state): search results, not proofs that nothing better exists.".into());
         }
         if let Some(f) = &self.finite_size {
             a.extend(

@@ -313,6 +313,53 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
             ],
         ));
     }
+    {
+        let d = &r.devices;
+        let mut rows = Vec::new();
+        if let Some(b) = &d.state {
+            rows.push((
+                format!(
+                    "fidelity of the extracted state ≥ (SWAP isometries, at the {} lower confidence bound {})",
+                    m.confidence_method,
+                    num(b.score)
+                ),
+                format!(
+                    "{} (verified; target {} from the see-saw's best strategy; NPA level {})",
+                    num(b.fidelity),
+                    b.target.iter().map(|a| num_sig(*a, 6)).collect::<Vec<_>>().join(", "),
+                    b.level.name()
+                ),
+            ));
+            if let (Some(k), Some(sv)) = (b.chsh_analytic, b.chsh_value) {
+                rows.push((
+                    format!("Kaniewski's CHSH bound at S = {}", num(sv)),
+                    format!(
+                        "F ≥ {} with the maximally entangled state under the best local channels (PRL 117, 070402 (2016); formula quoted from memory)",
+                        num(k)
+                    ),
+                ));
+            }
+        }
+        for t in &d.thresholds {
+            rows.push((
+                format!("{} needed to beat the classical value", t.parameter.name()),
+                t.bracket.map_or(
+                    "none found: no implementation found beats the classical value".into(),
+                    |(lo, hi)| {
+                        format!(
+                            "between {} and {} (best implementation found; `bellgap design` gives it)",
+                            num_sig(lo, 4),
+                            num_sig(hi, 4)
+                        )
+                    },
+                ),
+            ));
+        }
+        for n in &d.notes {
+            rows.push(("note".into(), n.clone()));
+        }
+        out.push(("Devices: state and noise".into(), rows));
+    }
     if let Some(f) = &r.finite_size {
         let (rep, run) = (&f.report, &f.report.run);
         let p = &run.protocol;

@@ -524,6 +524,34 @@ struct EntropyView<'a> {
 }
 
 #[derive(Serialize)]
+struct SelfTestView<'a> {
+    schema_version: u32,
+    command: &'static str,
+    game: &'a str,
+    bound: &'a crate::bounds::quantum::selftest::FidelityBound,
+    target_from: &'a str,
+    questions: [[i64; 2]; 2],
+    assumptions: &'a [String],
+    caution: &'static str,
+}
+
+impl Serialize for crate::pipeline::SelfTestReport<'_> {
+    fn serialize<S: Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        SelfTestView {
+            schema_version: SCHEMA_VERSION,
+            command: "self-test",
+            game: &self.game.name,
+            bound: &self.bound,
+            target_from: &self.target_from,
+            questions: self.questions,
+            assumptions: &self.assumptions,
+            caution: CAUTION,
+        }
+        .serialize(serializer)
+    }
+}
+
+#[derive(Serialize)]
 struct DesignView<'a> {
     schema_version: u32,
     command: &'static str,
@@ -801,6 +829,7 @@ struct ReviewView<'a> {
     entropy_key: Option<&'a crate::pipeline::ReviewEntropyKey>,
     #[serde(skip_serializing_if = "Option::is_none")]
     finite_size: Option<ReviewFiniteSizeView<'a>>,
+    devices: &'a crate::pipeline::ReviewDevices,
     assumptions: Vec<String>,
     #[serde(skip_serializing_if = "<[String]>::is_empty")]
     notes: &'a [String],
@@ -847,6 +876,7 @@ impl Serialize for Review<'_> {
                 observed_passes: f.observed_passes,
                 figures: &f.report,
             }),
+            devices: &self.devices,
             assumptions: self.assumptions(),
             notes: &b.notes,
             not_obtained: &b.not_obtained,

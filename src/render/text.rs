@@ -630,6 +630,58 @@ pub fn entropy(report: &EntropyReport) -> String {
     out
 }
 
+/// The `self-test` command's report.
+pub fn self_test(report: &crate::pipeline::SelfTestReport) -> String {
+    let b = &report.bound;
+    let s = &report.game.scenario;
+    let mut out = format!(
+        "game        {} ({})\nscore       every quantum behaviour scoring at least {}\n",
+        report.game.name,
+        report.game.source,
+        num(b.score)
+    );
+    let names: Vec<String> = s
+        .parties()
+        .iter()
+        .zip(&report.questions)
+        .map(|(p, q)| format!("{} questions {} (Z) and {} (X)", p.name, q[0], q[1]))
+        .collect();
+    out += &format!(
+        "isometry    partial SWAP per player: {}\n",
+        names.join("; ")
+    );
+    out += &format!(
+        "target      {} [{}] ({})\n",
+        "|00⟩, |01⟩, |10⟩, |11⟩ amplitudes",
+        b.target
+            .iter()
+            .map(|a| num_sig(*a, 6))
+            .collect::<Vec<_>>()
+            .join(", "),
+        report.target_from
+    );
+    out += &format!(
+        "fidelity    ≥ {}  (verified; solver's value {}, NPA level {}, {}×{} matrix, {:?}, {:.2} s)\n",
+        num(b.fidelity),
+        num(b.solver_value),
+        b.level.name(),
+        b.matrix_size,
+        b.matrix_size,
+        b.status,
+        b.seconds
+    );
+    if let (Some(k), Some(chsh)) = (b.chsh_analytic, b.chsh_value) {
+        out += &format!(
+            "CHSH        S = {}: Kaniewski's analytic bound F ≥ {} with the maximally entangled state under the best local channels (PRL 117, 070402 (2016); formula quoted from memory){}\n",
+            num(chsh),
+            num(k),
+            if k <= 0.5 { ", which says nothing at or below S* ≈ 2.1058" } else { "" }
+        );
+    }
+    out += &assumptions_and_caution(&report.assumptions);
+    out
+}
+
 /// The `design` command's report.
 pub fn design(report: &crate::pipeline::DesignReport) -> String {
     use crate::bounds::quantum::design::StateChoice;

@@ -195,8 +195,10 @@ pub fn target_from(
         .expect("four eigenvalues");
     let v = eig.eigenvectors.column(top).into_owned();
     // Remove the global phase of the largest amplitude.
+    // The first of the largest amplitudes (within rounding) is made real and positive.
+    let largest = v.iter().map(|a| a.norm()).fold(0.0, f64::max);
     let big = (0..4)
-        .max_by(|&a, &b| v[a].norm().total_cmp(&v[b].norm()))
+        .find(|&a| v[a].norm() >= largest - 1e-12)
         .expect("four amplitudes");
     let phase = v[big].conj() / v[big].norm();
     let v = v * phase;
@@ -253,7 +255,7 @@ pub fn chsh_form(s: &Scenario) -> Option<(f64, f64)> {
     let (mut kappa, mut alpha, mut beta, mut gamma) = (s.offset(), [0.0; 2], [0.0; 2], [0.0; 4]);
     let mut d = [0usize; 2];
     let mut ad = [0usize; 2];
-    for q in 0..4 {
+    for (q, g) in gamma.iter_mut().enumerate() {
         digits(q, &[2, 2], &mut d);
         for a in 0..4 {
             digits(a, &[2, 2], &mut ad);
@@ -265,7 +267,7 @@ pub fn chsh_form(s: &Scenario) -> Option<(f64, f64)> {
             kappa += c;
             alpha[d[0]] += sa * c;
             beta[d[1]] += sb * c;
-            gamma[q] += sa * sb * c;
+            *g += sa * sb * c;
         }
     }
     let tiny = 1e-12 * (1.0 + gamma.iter().map(|g| g.abs()).sum::<f64>());
