@@ -1777,3 +1777,119 @@ fn normalise_and_reference_refuse_hostile_input() {
         assert!(json_of(&out)["error"]["kind"].is_string(), "{folder}");
     }
 }
+
+#[test]
+fn design_and_self_test_answer_in_json_and_refuse_bad_noise() {
+    // The visibility threshold of CHSH: 1/√2 (textbook; e.g. Brunner et al., RMP 86, 419 (2014),
+    // from memory).
+    let out = bellgap(&[
+        "design",
+        "games/chsh.yaml",
+        "--threshold",
+        "visibility",
+        "--curve-points",
+        "2",
+        "--json",
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j = json_of(&out);
+    assert_eq!(j["command"], "design");
+    let above = j["threshold"]["bracket"]["above"].as_f64().unwrap();
+    assert!(
+        above >= std::f64::consts::FRAC_1_SQRT_2 && above < 0.709,
+        "{above}"
+    );
+    assert!(j["value"]["value"].as_f64().unwrap() > 0.0);
+    // A saved implementation is a strategy file that `evaluate` reads back.
+    let saved = std::env::temp_dir().join(format!("bellgap-design-{}.yaml", std::process::id()));
+    let out = bellgap(&[
+        "design",
+        "games/chsh.yaml",
+        "--efficiency",
+        "0.9",
+        "--no-click",
+        "0",
+        "--save",
+        saved.to_str().unwrap(),
+        "--quiet",
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let out = bellgap(&[
+        "evaluate",
+        "games/chsh.yaml",
+        saved.to_str().unwrap(),
+        "--json",
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let _ = std::fs::remove_file(&saved);
+    // Bad noise parameters exit 2 and name the field.
+    for (flag, value, field) in [
+        ("--efficiency", "0", "efficiency"),
+        ("--efficiency", "1.5", "efficiency"),
+        ("--efficiency", "NaN", "efficiency"),
+        ("--visibility", "-0.1", "visibility"),
+        ("--dark-counts", "2", "dark_counts"),
+        ("--no-click", "7", "no-click"),
+    ] {
+        let out = bellgap(&["design", "games/chsh.yaml", flag, value]);
+        assert_eq!(out.status.code(), Some(2), "{flag} {value}");
+        let err = String::from_utf8_lossy(&out.stderr);
+        assert!(
+            err.contains(field) || err.contains(flag),
+            "{flag} {value}: {err}"
+        );
+    }
+    // Dimensions too large for the machine are refused with an estimate.
+    let out = bellgap(&["design", "games/chsh.yaml", "--dims", "100,100"]);
+    assert_eq!(
+        out.status.code(),
+        Some(2),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    // The key rate needs the key partner.
+    let out = bellgap(&["design", "games/chsh.yaml", "--figure", "key-rate"]);
+    assert_eq!(out.status.code(), Some(2));
+    // Self-testing: at Tsirelson's bound the fidelity is close to 1; a target of the wrong size
+    // or norm exits 2.
+    let out = bellgap(&[
+        "self-test",
+        "games/chsh.yaml",
+        "--score",
+        "0.8535533",
+        "--json",
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j = json_of(&out);
+    assert!(j["bound"]["fidelity"].as_f64().unwrap() > 0.99);
+    assert!(j["bound"]["chsh_analytic"].as_f64().unwrap() > 0.99);
+    for target in ["1,0,0", "1,1,0,0", "1,0,0,inf"] {
+        let out = bellgap(&[
+            "self-test",
+            "games/chsh.yaml",
+            "--score",
+            "0.8",
+            "--target",
+            target,
+        ]);
+        assert_eq!(out.status.code(), Some(2), "{target}");
+    }
+    let out = bellgap(&["self-test", "games/cglmp-3.yaml", "--score", "0.5"]);
+    assert_eq!(out.status.code(), Some(2));
+}

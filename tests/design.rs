@@ -8,7 +8,10 @@ use bellgap::bounds::quantum::seesaw::SeesawOptions;
 use bellgap::formats::game::{CompileOptions, Game};
 use bellgap::model::noise::{NoClick, NoiseModel};
 use bellgap::model::strategy::{CMatrix, CVector, QuantumStrategy};
-use bellgap::pipeline::{design, DesignFigure, DesignRequest, Observer, TargetChoice};
+use bellgap::pipeline::{
+    design, DesignFigure, DesignReport, DesignRequest, Observer, TargetChoice,
+};
+use std::sync::OnceLock;
 
 struct Silent;
 impl Observer for Silent {}
@@ -248,15 +251,25 @@ fn the_chsh_key_rate_needs_about_ninety_two_percent_efficiency() {
     )
     .unwrap();
     let t = r.threshold.unwrap();
-    eprintln!("TOP {:?} {:?}", r.value, t.curve);
     let b = t.bracket.unwrap();
-    eprintln!("KEY {b:?} {:?} {}", r.value, t.seconds);
     assert!(b.above > 0.9 && b.above < 0.926, "{b:?}");
     assert!(r.value.value > 0.0);
 }
 
+/// The key-rate design with optimised states, computed once for the tests that read it.
+fn optimised_key_design() -> &'static DesignReport<'static> {
+    static GAME: OnceLock<Game> = OnceLock::new();
+    static REPORT: OnceLock<DesignReport<'static>> = OnceLock::new();
+    REPORT.get_or_init(|| {
+        let game = GAME.get_or_init(chsh_with_key_setting);
+        design(game, &key_rate_request(StateChoice::Optimised), &Silent).unwrap()
+    })
+}
+
 #[test]
 fn optimised_states_and_noisy_preprocessing_lower_the_key_rates_threshold() {
+    // Measured: 0.9238 with the maximally entangled state, 0.8848 optimised, 0.8496 with noisy
+    // preprocessing at probability 0.1 (the last two rechecked in closed form below).
     let game = chsh_with_key_setting();
     let fixed = design(
         &game,
@@ -264,21 +277,14 @@ fn optimised_states_and_noisy_preprocessing_lower_the_key_rates_threshold() {
         &Silent,
     )
     .unwrap();
-    let optimised = design(&game, &key_rate_request(StateChoice::Optimised), &Silent).unwrap();
+    let optimised = optimised_key_design();
     let mut request = key_rate_request(StateChoice::Optimised);
     request.entropy.preprocessing =
         bellgap::bounds::entropy::Preprocessing::Noisy { probability: 0.1 };
     let noisy = design(&game, &request, &Silent).unwrap();
-    let upper =
-        |r: &bellgap::pipeline::DesignReport| r.threshold.as_ref().unwrap().bracket.unwrap().above;
-    eprintln!(
-        "THRESHOLDS fixed {} optimised {} noisy {}",
-        upper(&fixed),
-        upper(&optimised),
-        upper(&noisy)
-    );
-    assert!(upper(&optimised) <= upper(&fixed) + 1e-3);
-    assert!(upper(&noisy) < upper(&optimised));
+    let upper = |r: &DesignReport| r.threshold.as_ref().unwrap().bracket.unwrap().above;
+    assert!(upper(optimised) <= upper(&fixed) + 1e-3);
+    assert!(upper(&noisy) < upper(optimised));
 }
 
 #[test]
@@ -287,9 +293,8 @@ fn the_optimised_key_implementation_rechecks_with_the_closed_forms() {
     // bound H(A|E) ≥ 1 − h((1 + √((S/2)² − 1))/2) (Acín et al., PRL 98, 230501 (2007); Pironio et
     // al., NJP 11, 045021 (2009)) and H(A|B) of the key questions' table. The design's rate must
     // not exceed that closed-form rate, and must be positive at its threshold's upper end.
-    let game = chsh_with_key_setting();
-    let s = &game.scenario;
-    let r = design(&game, &key_rate_request(StateChoice::Optimised), &Silent).unwrap();
+    let r = optimised_key_design();
+    let s = &r.game.scenario;
     let imp = &r.implementation;
     let p = imp.noise.behaviour(s, &imp.strategy, &imp.no_click_answers);
     // Joint question x·3 + y, answers a·2 + b.

@@ -25,6 +25,9 @@ _bellgap() {
             bellgap,classical)
                 cmd="bellgap__subcmd__classical"
                 ;;
+            bellgap,design)
+                cmd="bellgap__subcmd__design"
+                ;;
             bellgap,entropy)
                 cmd="bellgap__subcmd__entropy"
                 ;;
@@ -66,6 +69,9 @@ _bellgap() {
                 ;;
             bellgap,seesaw)
                 cmd="bellgap__subcmd__seesaw"
+                ;;
+            bellgap,self-test)
+                cmd="bellgap__subcmd__self__subcmd__test"
                 ;;
             bellgap,sweep)
                 cmd="bellgap__subcmd__sweep"
@@ -175,6 +181,9 @@ _bellgap() {
             bellgap__subcmd__help,classical)
                 cmd="bellgap__subcmd__help__subcmd__classical"
                 ;;
+            bellgap__subcmd__help,design)
+                cmd="bellgap__subcmd__help__subcmd__design"
+                ;;
             bellgap__subcmd__help,entropy)
                 cmd="bellgap__subcmd__help__subcmd__entropy"
                 ;;
@@ -216,6 +225,9 @@ _bellgap() {
                 ;;
             bellgap__subcmd__help,seesaw)
                 cmd="bellgap__subcmd__help__subcmd__seesaw"
+                ;;
+            bellgap__subcmd__help,self-test)
+                cmd="bellgap__subcmd__help__subcmd__self__subcmd__test"
                 ;;
             bellgap__subcmd__help,sweep)
                 cmd="bellgap__subcmd__help__subcmd__sweep"
@@ -275,7 +287,7 @@ _bellgap() {
 
     case "${cmd}" in
         bellgap)
-            opts="-h -V --help --version check classical nosignal bounds npa seesaw evaluate margin randomness entropy finite-size key review verify local sweep sweep-merge reference family help"
+            opts="-h -V --help --version check classical nosignal bounds npa seesaw evaluate design self-test margin randomness entropy finite-size key review verify local sweep sweep-merge reference family help"
             if [[ ${cur} == -* || ${COMP_CWORD} -eq 1 ]] ; then
                 COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
                 return 0
@@ -361,6 +373,128 @@ _bellgap() {
             case "${prev}" in
                 --method)
                     COMPREPLY=($(compgen -W "auto search milp" -- "${cur}"))
+                    return 0
+                    ;;
+                *)
+                    COMPREPLY=()
+                    ;;
+            esac
+            COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
+            return 0
+            ;;
+        bellgap__subcmd__design)
+            opts="-q -h --json --quiet --force --allow-large --figure --efficiency --visibility --dark-counts --no-click --state --threshold --tolerance --curve-points --player --question --key-with --key-question --randomness-level --nodes --level --adversary-words --moments --solver --noisy-preprocessing --symmetry --dim --dims --restarts --seed --save --svg --help"
+            if [[ ${cur} == -* || ${COMP_CWORD} -eq 2 ]] ; then
+                COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
+                return 0
+            fi
+            case "${prev}" in
+                --figure)
+                    COMPREPLY=($(compgen -W "margin min-entropy entropy key-rate" -- "${cur}"))
+                    return 0
+                    ;;
+                --efficiency)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --visibility)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --dark-counts)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --no-click)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --state)
+                    COMPREPLY=($(compgen -W "optimised maximally-entangled" -- "${cur}"))
+                    return 0
+                    ;;
+                --threshold)
+                    COMPREPLY=($(compgen -W "efficiency visibility" -- "${cur}"))
+                    return 0
+                    ;;
+                --tolerance)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --curve-points)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --player)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --question)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --key-with)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --key-question)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --randomness-level)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --nodes)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --level)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --adversary-words)
+                    COMPREPLY=($(compgen -W "letters with-projectors with-player-words with-pairs" -- "${cur}"))
+                    return 0
+                    ;;
+                --moments)
+                    COMPREPLY=($(compgen -W "real complex" -- "${cur}"))
+                    return 0
+                    ;;
+                --solver)
+                    COMPREPLY=($(compgen -W "auto ipm clarabel" -- "${cur}"))
+                    return 0
+                    ;;
+                --noisy-preprocessing)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --symmetry)
+                    COMPREPLY=($(compgen -W "auto off" -- "${cur}"))
+                    return 0
+                    ;;
+                --dim)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --dims)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --restarts)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --seed)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --save)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --svg)
+                    COMPREPLY=($(compgen -f "${cur}"))
                     return 0
                     ;;
                 *)
@@ -1095,7 +1229,7 @@ _bellgap() {
             return 0
             ;;
         bellgap__subcmd__help)
-            opts="check classical nosignal bounds npa seesaw evaluate margin randomness entropy finite-size key review verify local sweep sweep-merge reference family help"
+            opts="check classical nosignal bounds npa seesaw evaluate design self-test margin randomness entropy finite-size key review verify local sweep sweep-merge reference family help"
             if [[ ${cur} == -* || ${COMP_CWORD} -eq 2 ]] ; then
                 COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
                 return 0
@@ -1137,6 +1271,20 @@ _bellgap() {
             return 0
             ;;
         bellgap__subcmd__help__subcmd__classical)
+            opts=""
+            if [[ ${cur} == -* || ${COMP_CWORD} -eq 3 ]] ; then
+                COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
+                return 0
+            fi
+            case "${prev}" in
+                *)
+                    COMPREPLY=()
+                    ;;
+            esac
+            COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
+            return 0
+            ;;
+        bellgap__subcmd__help__subcmd__design)
             opts=""
             if [[ ${cur} == -* || ${COMP_CWORD} -eq 3 ]] ; then
                 COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
@@ -1542,6 +1690,20 @@ _bellgap() {
             COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
             return 0
             ;;
+        bellgap__subcmd__help__subcmd__self__subcmd__test)
+            opts=""
+            if [[ ${cur} == -* || ${COMP_CWORD} -eq 3 ]] ; then
+                COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
+                return 0
+            fi
+            case "${prev}" in
+                *)
+                    COMPREPLY=()
+                    ;;
+            esac
+            COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
+            return 0
+            ;;
         bellgap__subcmd__help__subcmd__sweep)
             opts=""
             if [[ ${cur} == -* || ${COMP_CWORD} -eq 3 ]] ; then
@@ -1844,6 +2006,56 @@ _bellgap() {
                     return 0
                     ;;
                 --svg)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                *)
+                    COMPREPLY=()
+                    ;;
+            esac
+            COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
+            return 0
+            ;;
+        bellgap__subcmd__self__subcmd__test)
+            opts="-q -h --json --quiet --force --allow-large --score --target --strategy --questions --level --dim --dims --restarts --seed --help"
+            if [[ ${cur} == -* || ${COMP_CWORD} -eq 2 ]] ; then
+                COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
+                return 0
+            fi
+            case "${prev}" in
+                --score)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --target)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --strategy)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --questions)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --level)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --dim)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --dims)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --restarts)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --seed)
                     COMPREPLY=($(compgen -f "${cur}"))
                     return 0
                     ;;

@@ -184,14 +184,14 @@ pub enum Command {
         figure: FigureArg,
         /// Detection efficiency in (0, 1]: one for every player, or one per player, comma
         /// separated.
-        #[arg(long, value_delimiter = ',', value_parser = parse_finite)]
+        #[arg(long, value_delimiter = ',', allow_hyphen_values = true, value_parser = parse_finite)]
         efficiency: Vec<f64>,
         /// Visibility in [0, 1]: the weight of the intended state against white noise.
-        #[arg(long, default_value_t = 1.0, value_parser = parse_finite)]
+        #[arg(long, default_value_t = 1.0, allow_hyphen_values = true, value_parser = parse_finite)]
         visibility: f64,
         /// Probability in [0, 1] that a round without a click registers a uniformly random
         /// answer.
-        #[arg(long, default_value_t = 0.0, value_parser = parse_finite)]
+        #[arg(long, default_value_t = 0.0, allow_hyphen_values = true, value_parser = parse_finite)]
         dark_counts: f64,
         /// What a round without a click is reported as: `best` (the best assignment per player
         /// and question) or an answer label used by every player.

@@ -61,10 +61,13 @@ pub fn self_test_assumptions() -> Vec<String> {
     ]
 }
 
+/// Per player, the two questions of the SWAP construction (indices, or labels).
+type QuestionPairs<T> = [[T; 2]; 2];
+
 fn question_indices(
     s: &Scenario,
     labels: Option<&Vec<i64>>,
-) -> Result<([[usize; 2]; 2], [[i64; 2]; 2])> {
+) -> Result<(QuestionPairs<usize>, QuestionPairs<i64>)> {
     if s.players() != 2 {
         return Err(Error::InvalidArgument(format!(
             "self-testing is for two-player games ({} players here)",
