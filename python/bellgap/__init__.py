@@ -46,6 +46,8 @@ __all__ = [
     "randomness",
     "entropy",
     "finite_size",
+    "design",
+    "self_test",
     "key",
     "local",
     "locality",
@@ -202,7 +204,7 @@ class Result:
 
 _COMMANDS = [
     "check", "classical", "nosignal", "bounds", "npa", "seesaw", "evaluate", "local", "margin",
-    "randomness", "entropy", "finite-size", "key", "review",
+    "randomness", "entropy", "finite-size", "key", "review", "design", "self-test",
 ]
 RESULT_TYPES: Dict[str, type] = {}
 for _command in _COMMANDS:
@@ -667,6 +669,58 @@ def entropy(game: GameLike, score=None, scores=None, player=None, question=None,
     if strategy is not None:
         args.append(strategy._to_json())
     return _result(_call(_bellgap.run_figure, *args)["result"])
+
+
+def design(game: GameLike, figure: str = "margin", efficiency=None, visibility: float = 1.0,
+           dark_counts: float = 0.0, no_click="best", state: str = "optimised",
+           threshold: Optional[str] = None, tolerance: float = 1e-3, curve_points: int = 10,
+           player=None, question=None, key_with=None, key_question=None,
+           noisy_preprocessing=None, nodes=None, level=None, dims=None, restarts=None,
+           seed=None, force: bool = False) -> Result:
+    """The best honest implementation under noise for a figure (``bellgap design``).
+
+    ``figure`` is ``margin`` (over the classical value), ``min-entropy``, ``entropy`` or
+    ``key-rate`` (with ``key_with`` and ``key_question``, the other player's key question).
+    The noise: ``visibility`` in [0, 1], ``efficiency`` in (0, 1] (one number, or one per
+    player), ``dark_counts`` in [0, 1], and ``no_click`` (``"best"`` or an answer label every
+    player reports for a round without a click). ``threshold`` (``"efficiency"`` or
+    ``"visibility"``) searches for the least value at which the figure is positive. The
+    result's ``strategy`` attribute is the implementation (state and measurements before noise)."""
+    if isinstance(efficiency, (int, float)):
+        efficiency = [efficiency]
+    kwargs = dict(
+        figure=figure, efficiency=list(efficiency) if efficiency is not None else None,
+        visibility=visibility, dark_counts=dark_counts, no_click=no_click, state=state,
+        threshold=threshold, tolerance=tolerance, curve_points=curve_points, player=player,
+        question=question, key_with=key_with, key_question=key_question,
+        noisy_preprocessing=noisy_preprocessing, nodes=nodes, level=level,
+        dims=list(dims) if dims is not None else None, restarts=restarts, seed=seed, force=force,
+    )
+    g = load(game)
+    reply = _call(_bellgap.run_design, "design", g._inner, _arguments(kwargs))
+    result = _result(reply["result"])
+    if reply.get("extra"):
+        result.__dict__["strategy"] = Strategy._from_json(reply["extra"])
+    return result
+
+
+def self_test(game: GameLike, score: float, target=None, strategy: Optional[Strategy] = None,
+              questions=None, level=None, dims=None, restarts=None, seed=None) -> Result:
+    """A verified lower bound on the fidelity of the devices' state, extracted by local SWAP
+    isometries, with a target state, over every quantum behaviour scoring at least ``score``
+    (``bellgap self-test``; two players, binary questions). ``target`` is four real amplitudes
+    of |00>, |01>, |10>, |11>; by default the state the see-saw's best strategy extracts to, or
+    that of ``strategy``. For games equivalent to CHSH, Kaniewski's analytic bound is beside it."""
+    kwargs = dict(
+        score=score, target=list(target) if target is not None else None,
+        questions=list(questions) if questions is not None else None, level=level,
+        dims=list(dims) if dims is not None else None, restarts=restarts, seed=seed,
+    )
+    g = load(game)
+    args = ["self-test", g._inner, _arguments(kwargs)]
+    if strategy is not None:
+        args.append(strategy._to_json())
+    return _result(_call(_bellgap.run_design, *args)["result"])
 
 
 def finite_size(game: GameLike, rounds: int, testing: float, threshold: float, **kwargs) -> Result:

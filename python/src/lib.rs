@@ -964,6 +964,254 @@ fn run_figure(
     }
 }
 
+/// Keyword arguments of `design` and `self_test`.
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct DesignArgs {
+    #[serde(default)]
+    figure: Option<String>,
+    #[serde(default)]
+    efficiency: Option<Vec<f64>>,
+    #[serde(default)]
+    visibility: Option<f64>,
+    #[serde(default)]
+    dark_counts: Option<f64>,
+    /// `best`, or an answer label used by every player.
+    #[serde(default)]
+    no_click: Option<Value>,
+    #[serde(default)]
+    state: Option<String>,
+    #[serde(default)]
+    threshold: Option<String>,
+    #[serde(default)]
+    tolerance: Option<f64>,
+    #[serde(default)]
+    curve_points: Option<usize>,
+    #[serde(default)]
+    player: Option<String>,
+    #[serde(default)]
+    question: Option<i64>,
+    #[serde(default)]
+    key_with: Option<String>,
+    #[serde(default)]
+    key_question: Option<i64>,
+    #[serde(default)]
+    noisy_preprocessing: Option<f64>,
+    #[serde(default)]
+    nodes: Option<usize>,
+    #[serde(default)]
+    dims: Option<Vec<usize>>,
+    #[serde(default)]
+    restarts: Option<usize>,
+    #[serde(default)]
+    seed: Option<u64>,
+    // self_test
+    #[serde(default)]
+    score: Option<f64>,
+    #[serde(default)]
+    target: Option<Vec<f64>>,
+    #[serde(default)]
+    questions: Option<Vec<i64>>,
+    #[serde(default)]
+    level: Option<String>,
+    #[serde(default)]
+    force: bool,
+}
+
+/// `design` and `self_test`: the best implementation under noise (and thresholds), and the
+/// verified fidelity bound; the implementation's strategy comes back as the reply's extra.
+#[pyfunction]
+#[pyo3(signature = (command, game, args, strategy=None))]
+fn run_design(
+    py: Python<'_>,
+    command: String,
+    game: &PyGame,
+    args: &str,
+    strategy: Option<String>,
+) -> PyResult<String> {
+    use bellgap::bounds::quantum::design::{
+        DesignOptions, NoiseParameter, StateChoice, ThresholdOptions,
+    };
+    use bellgap::model::noise::{NoClick, NoiseModel};
+    let a: DesignArgs = options(args)?;
+    let strategy: Option<StrategyInput> = strategy.map(|s| options(&s)).transpose()?;
+    let game = game.game.clone();
+    let limits = Limits {
+        force: a.force,
+        ..Default::default()
+    };
+    let seesaw = SeesawOptions {
+        dims: a.dims.clone().unwrap_or_default(),
+        restarts: a
+            .restarts
+            .unwrap_or(bellgap::bounds::quantum::seesaw::DEFAULT_RESTARTS),
+        seed: a.seed.unwrap_or(1),
+        limits,
+        ..Default::default()
+    };
+    match command.as_str() {
+        "design" => {
+            let figure = match a.figure.as_deref().unwrap_or("margin") {
+                "margin" => pipeline::DesignFigure::Margin,
+                "min-entropy" => pipeline::DesignFigure::MinEntropy,
+                "entropy" => pipeline::DesignFigure::Entropy,
+                "key-rate" => pipeline::DesignFigure::KeyRate,
+                other => {
+                    return Err(usage(format!(
+                        "figure must be margin, min-entropy, entropy or key-rate, got `{other}`"
+                    )))
+                }
+            };
+            let state = match a.state.as_deref().unwrap_or("optimised") {
+                "optimised" => StateChoice::Optimised,
+                "maximally-entangled" => StateChoice::MaximallyEntangled,
+                other => {
+                    return Err(usage(format!(
+                        "state must be optimised or maximally-entangled, got `{other}`"
+                    )))
+                }
+            };
+            let no_click = match &a.no_click {
+                None => NoClick::Best,
+                Some(Value::String(t)) if t == "best" => NoClick::Best,
+                Some(Value::Number(n)) => {
+                    let label = n
+                        .as_i64()
+                        .ok_or_else(|| usage(format!("no_click: `{n}` is not an answer label")))?;
+                    let indices: Vec<usize> = game
+                        .scenario
+                        .parties()
+                        .iter()
+                        .map(|p| {
+                            p.answer_labels
+                                .iter()
+                                .position(|&l| l == label)
+                                .ok_or_else(|| {
+                                    usage(format!("no_click: {} has no answer {label}", p.name))
+                                })
+                        })
+                        .collect::<PyResult<_>>()?;
+                    NoClick::Table(
+                        game.scenario
+                            .parties()
+                            .iter()
+                            .zip(&indices)
+                            .map(|(p, &i)| vec![i; p.questions()])
+                            .collect(),
+                    )
+                }
+                Some(other) => {
+                    return Err(usage(format!(
+                        "no_click must be \"best\" or an answer label, got {other}"
+                    )))
+                }
+            };
+            let threshold = match a.threshold.as_deref() {
+                None => None,
+                Some(t) => Some(ThresholdOptions {
+                    parameter: match t {
+                        "efficiency" => NoiseParameter::Efficiency,
+                        "visibility" => NoiseParameter::Visibility,
+                        other => {
+                            return Err(usage(format!(
+                                "threshold must be efficiency or visibility, got `{other}`"
+                            )))
+                        }
+                    },
+                    tolerance: a.tolerance.unwrap_or(1e-3),
+                    curve_points: a.curve_points.unwrap_or(10),
+                }),
+            };
+            let mut entropy = EntropyOptions {
+                preprocessing: Preprocessing::noisy_if(a.noisy_preprocessing),
+                limits,
+                ..Default::default()
+            };
+            if let Some(n) = a.nodes {
+                entropy.nodes = n;
+            }
+            let request = pipeline::DesignRequest {
+                figure,
+                design: DesignOptions {
+                    seesaw,
+                    noise: NoiseModel {
+                        visibility: a.visibility.unwrap_or(1.0),
+                        efficiency: a.efficiency.clone().unwrap_or_default(),
+                        dark_counts: a.dark_counts.unwrap_or(0.0),
+                        no_click,
+                    },
+                    state,
+                },
+                threshold,
+                key: TargetChoice {
+                    player: a.player.clone(),
+                    question: a.question,
+                },
+                partner: a.key_with.clone().map(|p| TargetChoice {
+                    player: Some(p),
+                    question: a.key_question,
+                }),
+                randomness_level: a
+                    .level
+                    .as_deref()
+                    .map(Level::parse)
+                    .transpose()
+                    .map_err(to_py)?,
+                entropy,
+                tangents: pipeline::DEFAULT_TANGENTS,
+            };
+            interruptible(py, move || {
+                let r = pipeline::design(&game, &request, &Silent)?;
+                let extra = strategy_json(&r.implementation.strategy);
+                Ok(reply(to_value(&r), Some(extra)))
+            })
+        }
+        "self-test" => {
+            let score = a
+                .score
+                .ok_or_else(|| usage("self_test needs a score".into()))?;
+            let level = a
+                .level
+                .as_deref()
+                .map(Level::parse)
+                .transpose()
+                .map_err(to_py)?;
+            interruptible(py, move || {
+                let target = match (a.target, strategy) {
+                    (Some(_), Some(_)) => {
+                        return Err(Error::Usage("give a target or a strategy, not both".into()))
+                    }
+                    (Some(t), None) => pipeline::SelfTestTarget::Amplitudes(t),
+                    (None, Some(input)) => pipeline::SelfTestTarget::Strategy(
+                        strategy_from(input, &game)?,
+                        "<strategy>".into(),
+                    ),
+                    (None, None) => pipeline::SelfTestTarget::Seesaw(SeesawOptions {
+                        dims: if seesaw.dims.is_empty() {
+                            vec![2; game.scenario.players()]
+                        } else {
+                            seesaw.dims.clone()
+                        },
+                        ..seesaw
+                    }),
+                };
+                let r = pipeline::self_test(
+                    &game,
+                    &pipeline::SelfTestRequest {
+                        score,
+                        target,
+                        questions: a.questions,
+                        level,
+                    },
+                    &Silent,
+                )?;
+                Ok(reply(to_value(&r), None))
+            })
+        }
+        other => Err(usage(format!("no design command `{other}`"))),
+    }
+}
+
 /// `key`: CHSH-based DIQKD figures.
 #[pyfunction]
 #[pyo3(signature = (chsh, qber, noisy_preprocessing=None))]
@@ -1018,6 +1266,7 @@ fn _bellgap(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(family, m)?)?;
     m.add_function(wrap_pyfunction!(run_game, m)?)?;
     m.add_function(wrap_pyfunction!(run_figure, m)?)?;
+    m.add_function(wrap_pyfunction!(run_design, m)?)?;
     m.add_function(wrap_pyfunction!(key, m)?)?;
     m.add_function(wrap_pyfunction!(review, m)?)?;
     m.add_function(wrap_pyfunction!(locality, m)?)?;

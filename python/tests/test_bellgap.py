@@ -613,3 +613,26 @@ def test_bounds_takes_the_seesaw_options_skip_and_budget_like_the_command_line()
         bellgap.bounds(chsh, skip=["quantum"])
     with pytest.raises(bellgap.UsageError):
         bellgap.bounds(chsh, budget=-1.0)
+
+
+def test_design_finds_eberhards_efficiency_and_self_test_certifies_the_state():
+    chsh = os.path.join(GAMES, "chsh.yaml")
+    # Eberhard, PRA 47, R747 (1993): with partially entangled states CHSH needs only about 2/3.
+    r = bellgap.design(chsh, threshold="efficiency", curve_points=2)
+    above = r.threshold["bracket"]["above"]
+    assert 2 / 3 < above < 2 / 3 + 0.01
+    assert r.value["value"] > 0
+    assert isinstance(r.strategy.state, np.ndarray)
+    # The saved implementation scores what the report says under the same noise.
+    r = bellgap.design(chsh, efficiency=0.9, no_click=0)
+    assert r.implementation["margin"] > 0
+    with pytest.raises(bellgap.UsageError):
+        bellgap.design(chsh, efficiency=float("nan"))
+    with pytest.raises(bellgap.BellgapError) as bad:
+        bellgap.design(chsh, efficiency=1.5)
+    assert "efficiency" in str(bad.value)
+    # Self-testing at Tsirelson's bound: fidelity close to 1; a bad target is refused.
+    t = bellgap.self_test(chsh, score=0.8535533)
+    assert t.bound["fidelity"] > 0.99 and t.bound["chsh_analytic"] > 0.99
+    with pytest.raises(bellgap.BellgapError):
+        bellgap.self_test(chsh, score=0.8, target=[1, 0, 0])
