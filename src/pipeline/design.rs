@@ -128,6 +128,7 @@ pub struct DesignReport<'a> {
 
 /// What the search needs besides the implementation search itself.
 struct Figures<'a> {
+    /// The game's table.
     s: &'a Scenario,
     classical: f64,
     request: &'a DesignRequest,
@@ -136,10 +137,29 @@ struct Figures<'a> {
     pair: Option<((usize, usize), (usize, usize))>,
     /// The min-tradeoff lines (entropy and key rate).
     lines: Vec<MinTradeoff>,
+    /// The hierarchy itself, for a direct bound where the lines certify nothing (near the
+    /// classical value, below the lowest line's reach).
+    hierarchy: Option<PreparedHierarchy<'a>>,
     level: Level,
 }
 
 impl Figures<'_> {
+    /// The entropy bound at `score`: the lines', and where they certify nothing above the
+    /// classical value, the hierarchy's own bound there (both verified; the larger is kept).
+    fn entropy_bound(&self, score: f64) -> Result<f64> {
+        let (from_lines, _) = self.entropy_at(score);
+        if from_lines > 0.0 || score <= self.classical {
+            return Ok(from_lines);
+        }
+        match &self.hierarchy {
+            Some(h) => Ok(h
+                .bound(&EntropyConstraint::Score(score), &|_, _| {})?
+                .bits
+                .max(from_lines)),
+            None => Ok(from_lines),
+        }
+    }
+
     /// The entropy bound at `score` from the lines (each valid at every score up to its
     /// `highest`), floored at 0 (H(A|E) ≥ 0 for a classical A); and the slope of the best line.
     fn entropy_at(&self, score: f64) -> (f64, f64) {
@@ -183,12 +203,12 @@ impl Figures<'_> {
                 }
             }
             DesignFigure::Entropy => {
-                let (h, _) = self.entropy_at(score);
+                let h = self.entropy_bound(score)?;
                 out.conditional_entropy = Some(h);
                 out.value = h;
             }
             DesignFigure::KeyRate => {
-                let (h, _) = self.entropy_at(score);
+                let h = self.entropy_bound(score)?;
                 let ec = self.error_correction(imp)?.0;
                 out.conditional_entropy = Some(h);
                 out.error_correction = Some(ec);
@@ -385,6 +405,7 @@ pub fn design<'a>(
         target: target.clone(),
         pair,
         lines: Vec::new(),
+        hierarchy: None,
         level: request.randomness_level.clone().unwrap_or(Level::Length(2)),
     };
     if matches!(
@@ -392,6 +413,7 @@ pub fn design<'a>(
         DesignFigure::Entropy | DesignFigure::KeyRate
     ) {
         figures.lines = tangent_lines(s, &target, request, classical, observer)?;
+        figures.hierarchy = Some(PreparedHierarchy::new(s, &figures.target, &request.entropy)?);
     }
     let (implementation, value, threshold) = match &request.threshold {
         None => {
