@@ -333,3 +333,53 @@ fn the_optimised_key_implementation_rechecks_with_the_closed_forms() {
     assert!((r.value.score - (chsh + 4.0) / 8.0).abs() < 1e-9);
     assert!(r.value.conditional_entropy.unwrap() <= analytic + 1e-9);
 }
+
+#[test]
+fn with_the_no_click_as_an_answer_of_its_own_the_clauser_horne_expression_needs_two_thirds() {
+    // The Clauser–Horne expression with the no-click as a third answer: local bound 0, quantum
+    // maximum (√2 − 1)/2 (Clauser & Horne, PRD 10, 526 (1974); Tsirelson); with loss and
+    // partially entangled qubits, violated down to η → 2/3 (Eberhard, PRA 47, R747 (1993)).
+    let game = Game::from_file(
+        concat!(env!("CARGO_MANIFEST_DIR"), "/games/ch-no-click.yaml"),
+        CompileOptions::default(),
+    )
+    .unwrap();
+    let s = &game.scenario;
+    let noise = NoiseModel {
+        no_click: NoClick::Extra,
+        ..Default::default()
+    };
+    let top = optimise(
+        s,
+        0.0,
+        &options(noise.clone(), StateChoice::Optimised),
+        None,
+    )
+    .unwrap();
+    assert!(
+        (top.score.lower - (2f64.sqrt() - 1.0) / 2.0).abs() < 1e-7,
+        "{:?}",
+        top.score
+    );
+    // A clicking detector never reports the no-click answer.
+    for povms in &top.strategy.measurements {
+        for povm in povms {
+            assert!(povm[2].norm() < 1e-12);
+        }
+    }
+    let t = threshold(
+        s,
+        0.0,
+        &options(noise, StateChoice::Optimised),
+        &ThresholdOptions {
+            parameter: NoiseParameter::Efficiency,
+            tolerance: 1e-3,
+            curve_points: 0,
+        },
+        None,
+    )
+    .unwrap();
+    let b = t.bracket.unwrap();
+    assert!(b.above > 2.0 / 3.0 && b.above < 2.0 / 3.0 + 0.01, "{b:?}");
+    assert_eq!(t.at_upper.no_click_answers, vec![vec![2, 2], vec![2, 2]]);
+}

@@ -217,3 +217,100 @@ proptest! {
         prop_assert!(lower >= lo - 1e-9);
     }
 }
+
+/// A qubit projective measurement with `answers` outcomes: the columns of a real rotation by
+/// `angle`, dealt to answers 0 and 1 (any further answer gets zero).
+fn qubit_measurement(angle: f64, answers: usize) -> Vec<bellgap::model::strategy::CMatrix> {
+    use bellgap::model::strategy::CMatrix;
+    use num_complex::Complex64;
+    let (c, s) = (angle.cos(), angle.sin());
+    let p = CMatrix::from_row_slice(
+        2,
+        2,
+        &[c * c, c * s, c * s, s * s].map(|v| Complex64::new(v, 0.0)),
+    );
+    let q = CMatrix::identity(2, 2) - &p;
+    let mut out = vec![CMatrix::zeros(2, 2); answers];
+    out[0] = p;
+    if answers > 1 {
+        out[1] = q;
+    } else {
+        out[0] = CMatrix::identity(2, 2);
+    }
+    out
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 64, ..ProptestConfig::default() })]
+
+    /// The noise model on random two-player games and qubit strategies: the noisy behaviour is a
+    /// behaviour, the certified score is its score rounded down, no noise changes nothing, and
+    /// the best no-click assignment is at least every single-answer one.
+    #[test]
+    fn the_noise_model_keeps_behaviours_and_scores_honest(
+        g in random_game(2),
+        angles in proptest::collection::vec(0.0f64..std::f64::consts::PI, 12),
+        theta in 0.0f64..std::f64::consts::FRAC_PI_2,
+        visibility in 0.0f64..=1.0,
+        efficiency in proptest::collection::vec(0.05f64..=1.0, 2),
+        dark in 0.0f64..=1.0,
+    ) {
+        use bellgap::model::noise::{NoClick, NoiseModel};
+        use bellgap::model::strategy::{CVector, QuantumStrategy};
+        use num_complex::Complex64;
+        let s = &g.scenario;
+        let mut k = 0;
+        let measurements = s
+            .parties()
+            .iter()
+            .map(|p| {
+                (0..p.questions())
+                    .map(|_| {
+                        k += 1;
+                        qubit_measurement(angles[k % angles.len()], p.answers())
+                    })
+                    .collect()
+            })
+            .collect();
+        let st = QuantumStrategy {
+            dims: vec![2, 2],
+            state: CVector::from_vec(
+                [theta.cos(), 0.0, 0.0, theta.sin()].map(|v| Complex64::new(v, 0.0)).to_vec(),
+            ),
+            measurements,
+        };
+        prop_assert!(st.check(s).is_ok());
+        let noise = NoiseModel {
+            visibility,
+            efficiency: efficiency.clone(),
+            dark_counts: dark,
+            no_click: NoClick::Best,
+        };
+        prop_assert!(noise.check(s).is_ok());
+        let f = noise.best_assignment(s, &st, &noise.initial_assignment(s));
+        let p = noise.behaviour(s, &st, &f);
+        let na = s.joint_answers();
+        for q in 0..s.joint_questions() {
+            let total: f64 = p[q * na..(q + 1) * na].iter().sum();
+            prop_assert!((total - 1.0).abs() < 1e-12, "question {q} sums to {total}");
+            prop_assert!(p[q * na..(q + 1) * na].iter().all(|&v| (-1e-12..=1.0 + 1e-12).contains(&v)));
+        }
+        let certified = noise.certified_value(s, &st, &f);
+        let direct = s.value_of_behaviour(&p);
+        prop_assert!(certified.lower <= direct + 1e-12, "{certified:?} vs {direct}");
+        prop_assert!((certified.value - direct).abs() < 1e-9 * (1.0 + direct.abs()));
+        // The best assignment scores at least any one answer for everyone.
+        let answers = s.parties().iter().map(|p| p.answers()).min().unwrap();
+        for a in 0..answers {
+            let fixed = NoiseModel { no_click: NoClick::Answer(a), ..noise.clone() };
+            let g = fixed.initial_assignment(s);
+            let v = s.value_of_behaviour(&fixed.behaviour(s, &st, &g));
+            prop_assert!(direct >= v - 1e-9, "best {direct} < answer {a}: {v}");
+        }
+        // No noise: the ideal behaviour.
+        let none = NoiseModel::default();
+        let ideal = st.behaviour(s);
+        let same = none.behaviour(s, &st, &none.initial_assignment(s));
+        prop_assert!(ideal.iter().zip(&same).all(|(a, b)| (a - b).abs() < 1e-15));
+    }
+}

@@ -1074,6 +1074,7 @@ fn run_design(
             let no_click = match &a.no_click {
                 None => NoClick::Best,
                 Some(Value::String(t)) if t == "best" => NoClick::Best,
+                Some(Value::String(t)) if t == "extra" => NoClick::Extra,
                 Some(Value::Number(n)) => {
                     let label = n
                         .as_i64()
@@ -1102,7 +1103,7 @@ fn run_design(
                 }
                 Some(other) => {
                     return Err(usage(format!(
-                        "no_click must be \"best\" or an answer label, got {other}"
+                        "no_click must be \"best\", \"extra\" or an answer label, got {other}"
                     )))
                 }
             };

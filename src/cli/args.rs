@@ -194,7 +194,8 @@ pub enum Command {
         #[arg(long, default_value_t = 0.0, allow_hyphen_values = true, value_parser = parse_finite)]
         dark_counts: f64,
         /// What a round without a click is reported as: `best` (the best assignment per player
-        /// and question) or an answer label used by every player.
+        /// and question), an answer label used by every player, or `extra` (each player's last
+        /// answer means "no click" and a clicking detector never reports it).
         #[arg(long, default_value = "best", allow_hyphen_values = true)]
         no_click: String,
         /// Which states the search may use.

@@ -114,6 +114,8 @@ pub enum TargetSource {
 pub enum NoClickChoice {
     /// The best assignment per player and question.
     Best,
+    /// Each player's last answer is "no click", never reported by a clicking detector.
+    Extra,
     /// This answer label for every player and question.
     Label(i64),
 }
@@ -123,6 +125,7 @@ impl NoClickChoice {
     pub fn resolve(&self, s: &bellgap::Scenario) -> Result<NoClick> {
         match self {
             NoClickChoice::Best => Ok(NoClick::Best),
+            NoClickChoice::Extra => Ok(NoClick::Extra),
             NoClickChoice::Label(l) => {
                 let indices: Vec<usize> = s
                     .parties()
@@ -756,10 +759,12 @@ impl Invocation {
                 dims: dims(seesaw.dim, seesaw.dims.as_ref()),
                 no_click: if no_click.trim() == "best" {
                     NoClickChoice::Best
+                } else if no_click.trim() == "extra" {
+                    NoClickChoice::Extra
                 } else {
                     NoClickChoice::Label(no_click.trim().parse().map_err(|_| {
                         Error::Usage(format!(
-                            "--no-click: `{no_click}` is neither `best` nor an answer label"
+                            "--no-click: `{no_click}` is not `best`, `extra` or an answer label"
                         ))
                     })?)
                 },

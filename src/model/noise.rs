@@ -35,6 +35,10 @@ pub enum NoClick {
     Answer(usize),
     /// The given answer index per player and question.
     Table(Vec<Vec<usize>>),
+    /// Kept as an answer of its own: each player's last answer means "no click" (as in
+    /// Eberhard's and Clauser–Horne's inequalities), and a clicking detector never reports it
+    /// (the measurement's last element is zero).
+    Extra,
 }
 
 /// Most assignments tried one by one when the best is sought.
@@ -119,6 +123,17 @@ impl NoiseModel {
         }
         match &self.no_click {
             NoClick::Best => {}
+            NoClick::Extra => {
+                if let Some(p) = s.parties().iter().find(|p| p.answers() < 2) {
+                    return field(
+                        "no_click",
+                        format!(
+                            "{} has one answer: a no-click answer of its own needs another",
+                            p.name
+                        ),
+                    );
+                }
+            }
             NoClick::Answer(a) => {
                 if let Some(p) = s.parties().iter().find(|p| *a >= p.answers()) {
                     return field(
@@ -174,6 +189,11 @@ impl NoiseModel {
                 .map(|p| vec![*a; p.questions()])
                 .collect(),
             NoClick::Best => s.parties().iter().map(|p| vec![0; p.questions()]).collect(),
+            NoClick::Extra => s
+                .parties()
+                .iter()
+                .map(|p| vec![p.answers() - 1; p.questions()])
+                .collect(),
         }
     }
 

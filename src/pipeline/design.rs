@@ -413,7 +413,11 @@ pub fn design<'a>(
         DesignFigure::Entropy | DesignFigure::KeyRate
     ) {
         figures.lines = tangent_lines(s, &target, request, classical, observer)?;
-        figures.hierarchy = Some(PreparedHierarchy::new(s, &figures.target, &request.entropy)?);
+        figures.hierarchy = Some(PreparedHierarchy::new(
+            s,
+            &figures.target,
+            &request.entropy,
+        )?);
     }
     let (implementation, value, threshold) = match &request.threshold {
         None => {

@@ -30,7 +30,7 @@ use super::seesaw::{
     SECONDS_LIMIT,
 };
 use crate::error::{Error, Result};
-use crate::model::noise::{Assignment, NoiseModel};
+use crate::model::noise::{Assignment, NoClick, NoiseModel};
 use crate::model::scenario::{digits, Scenario};
 use crate::model::strategy::{CMatrix, CVector, CertifiedValue, QuantumStrategy};
 
@@ -204,6 +204,23 @@ fn run(
     if let Some(state) = fixed_state {
         st.state = state.clone();
     }
+    let extra = noise.no_click == NoClick::Extra;
+    if extra && start.is_none() {
+        // A clicking detector never reports the no-click answer: the start's measurements
+        // use the other answers only.
+        for (i, p) in s.parties().iter().enumerate() {
+            for x in 0..p.questions() {
+                let make = if restart.is_multiple_of(2) {
+                    random_measurement
+                } else {
+                    random_povm
+                };
+                let mut povm = make(dims[i], p.answers() - 1, rng);
+                povm.push(CMatrix::zeros(dims[i], dims[i]));
+                st.measurements[i][x] = povm;
+            }
+        }
+    }
     let mut f = noise.best_assignment(s, &st, &noise.initial_assignment(s));
     let mut pulled = noise.pulled_back(s, &f);
     if fixed_state.is_none() && noise.visibility > 0.0 {
@@ -232,8 +249,18 @@ fn run(
                         m
                     })
                     .collect();
-                // A failed measurement step leaves the measurement as it was.
-                if let Ok(povm) = best_povm(&combined) {
+                // A failed measurement step leaves the measurement as it was. With the no-click
+                // answer of its own, the measurement is over the other answers only.
+                let kept = if extra {
+                    combined.len() - 1
+                } else {
+                    combined.len()
+                };
+                if let Ok(mut povm) = best_povm(&combined[..kept]) {
+                    if extra {
+                        let d = st.dims[player];
+                        povm.push(CMatrix::zeros(d, d));
+                    }
                     candidate.measurements[player][x] = povm;
                 }
             }
