@@ -303,6 +303,52 @@ proptest! {
     }
 
     #[test]
+    fn strategy_files_noise_sections_are_checked_without_panics(
+        visibility in number(),
+        efficiency in number(),
+        dark in number(),
+        no_click in prop_oneof![
+            Just("best".to_string()),
+            Just("extra".to_string()),
+            Just("0".to_string()),
+            Just("7".to_string()),
+            Just("{alice: [0, 1], bob: [1, 0]}".to_string()),
+            Just("{alice: [0], bob: [1, 0]}".to_string()),
+            Just("{alice: [0, 1], carol: [1, 0]}".to_string()),
+            Just("[0, 1]".to_string()),
+        ],
+    ) {
+        let chsh = Game::from_file(
+            concat!(env!("CARGO_MANIFEST_DIR"), "/games/chsh.yaml"),
+            CompileOptions::default(),
+        ).unwrap();
+        let text = format!(
+            "dims: [2, 2]\nstate: [\"1/sqrt(2)\", 0, 0, \"1/sqrt(2)\"]\nmeasurements:\n  alice:\n    - question: 0\n      elements: [[[1, 0], [0, 0]], [[0, 0], [0, 1]]]\n    - question: 1\n      elements: [[[0.5, 0.5], [0.5, 0.5]], [[0.5, -0.5], [-0.5, 0.5]]]\n  bob:\n    - question: 0\n      elements: [[[1, 0], [0, 0]], [[0, 0], [0, 1]]]\n    - question: 1\n      elements: [[[0.5, 0.5], [0.5, 0.5]], [[0.5, -0.5], [-0.5, 0.5]]]\nnoise:\n  visibility: {visibility}\n  efficiency: {efficiency}\n  dark_counts: {dark}\n  no_click: {no_click}\n"
+        );
+        let r = catch_unwind(AssertUnwindSafe(|| QuantumStrategy::noise_from_yaml(&text, "s.yaml", &chsh.scenario)));
+        prop_assert!(r.is_ok(), "panic on\n{text}");
+        match r.unwrap() {
+            Ok(Some(noise)) => {
+                // Anything accepted is a valid model, and the noisy score a probability.
+                prop_assert!(noise.check(&chsh.scenario).is_ok());
+                let st = QuantumStrategy::from_yaml(&text, "s.yaml", &chsh.scenario).unwrap();
+                let f = noise.best_assignment(&chsh.scenario, &st, &noise.initial_assignment(&chsh.scenario));
+                let v = noise.certified_value(&chsh.scenario, &st, &f);
+                prop_assert!(v.lower.is_finite() && v.lower >= -1e-12 && v.lower <= 1.0, "{v:?}");
+            }
+            Ok(None) => prop_assert!(false, "the section was not read"),
+            Err(e) => {
+                // Located at the file and a field under `noise`.
+                let bellgap::Error::Input { location, .. } = &e else {
+                    return Err(TestCaseError::fail(format!("not an input error: {e}")));
+                };
+                prop_assert_eq!(&location.file, "s.yaml");
+                prop_assert!(location.field.as_deref().unwrap_or("").starts_with("noise"), "{e}");
+            }
+        }
+    }
+
+    #[test]
     fn correlations_files_are_checked_without_panics(
         row in proptest::collection::vec(number(), 4),
         questions in prop_oneof![Just("[0, 0]"), Just("[0]"), Just("[5, 0]"), Just("[-1, 0]")],

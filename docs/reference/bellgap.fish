@@ -129,7 +129,7 @@ key-rate\t'The Devetak–Winter key rate (needs --key-with)'"
 complete -c bellgap -n "__fish_bellgap_using_subcommand design" -l efficiency -d 'Detection efficiency in (0, 1]: one for every player, or one per player, comma separated' -r
 complete -c bellgap -n "__fish_bellgap_using_subcommand design" -l visibility -d 'Visibility in [0, 1]: the weight of the intended state against white noise' -r
 complete -c bellgap -n "__fish_bellgap_using_subcommand design" -l dark-counts -d 'Probability in [0, 1] that a round without a click registers a uniformly random answer' -r
-complete -c bellgap -n "__fish_bellgap_using_subcommand design" -l no-click -d 'What a round without a click is reported as: `best` (the best assignment per player and question) or an answer label used by every player' -r
+complete -c bellgap -n "__fish_bellgap_using_subcommand design" -l no-click -d 'What a round without a click is reported as: `best` (the best assignment per player and question), an answer label used by every player, or `extra` (each player\'s last answer means "no click" and a clicking detector never reports it)' -r
 complete -c bellgap -n "__fish_bellgap_using_subcommand design" -l state -d 'Which states the search may use' -r -f -a "optimised\t'Any state of the local dimensions, optimised'
 maximally-entangled\t'The maximally entangled state, fixed (two players of equal dimension)'"
 complete -c bellgap -n "__fish_bellgap_using_subcommand design" -l threshold -d 'Search for the least value of this parameter at which the figure is positive (bisection, re-optimising at each point), instead of one noise level' -r -f -a "efficiency\t'Every player\'s detection efficiency (the same for all)'

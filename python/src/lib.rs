@@ -577,6 +577,7 @@ fn run_game(
                 let o = EvaluateOptions {
                     skip_classical: a.no_classical,
                     limits,
+                    noise: None,
                 };
                 Ok(reply(
                     to_value(&pipeline::evaluate(g, &st, &o, &Silent)?),

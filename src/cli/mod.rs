@@ -307,8 +307,14 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             request.design.noise.no_click = no_click.resolve(&game.scenario)?;
             let r = pipeline::design(&game, &request, &observer)?;
             if let Some(file) = save {
-                let readable = r.implementation.strategy.in_schmidt_basis();
-                let yaml = readable_yaml(&readable.to_yaml_value(&game.scenario));
+                // The implementation with the noise it was designed for (`evaluate` scores it).
+                let imp = &r.implementation;
+                let readable = imp.strategy.in_schmidt_basis();
+                let yaml = readable_yaml(&readable.to_yaml_value_with_noise(
+                    &game.scenario,
+                    &imp.noise,
+                    &imp.no_click_answers,
+                ));
                 write(file, &yaml, inputs)?;
             }
             if let Some(file) = svg {
@@ -367,12 +373,17 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             svg,
         } => {
             let game = load(game)?;
-            let st = QuantumStrategy::from_file_with(
+            let (st, noise) = QuantumStrategy::with_noise_from_file(
                 &strategy.to_string_lossy(),
                 &game.scenario,
                 reading,
             )?;
-            let r = pipeline::evaluate(&game, &st, options, &observer)?;
+            // The file's noise model, when it has one, is scored too.
+            let options = pipeline::EvaluateOptions {
+                noise,
+                ..options.clone()
+            };
+            let r = pipeline::evaluate(&game, &st, &options, &observer)?;
             if let Some(file) = svg {
                 let classical = r.strategy_analysis.as_ref().and_then(|a| a.classical);
                 write(

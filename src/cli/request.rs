@@ -582,6 +582,7 @@ impl Invocation {
                 options: EvaluateOptions {
                     skip_classical: *no_classical,
                     limits: limits(args.force),
+                    noise: None,
                 },
                 svg: svg.clone(),
             },

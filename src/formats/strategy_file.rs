@@ -14,6 +14,11 @@
 //!                                    # (each number may be an expression such as "1/sqrt(2)")
 //!         - [[1, 0], [0, 0]]
 //!         - [[0, 0], [0, 1]]
+//! noise:                             # optional: the noise the implementation meets
+//!   visibility: 0.98                 # in [0, 1] (default 1)
+//!   efficiency: 0.9                  # in (0, 1], one number or one per player (default 1)
+//!   dark_counts: 0                   # in [0, 1] (default 0)
+//!   no_click: {alice: [0, 0], bob: [0, 0]}   # answer label per question, or `extra`, or one label
 //! ```
 
 use num_complex::Complex64;
@@ -23,6 +28,7 @@ use super::fields::real;
 use super::files::read_text;
 use super::located::{yaml_error, Context, SourceMap};
 use crate::error::Result;
+use crate::model::noise::{Assignment, NoClick, NoiseModel};
 use crate::model::scenario::Scenario;
 use crate::model::strategy::{
     joint_dimension, CMatrix, CVector, QuantumStrategy, MAX_JOINT_DIMENSION,
@@ -97,6 +103,99 @@ impl QuantumStrategy {
         Yaml::Mapping(root)
     }
 
+    /// The file's `noise:` section, when it has one (see the module notes), checked against
+    /// the game with located errors.
+    pub fn noise_from_yaml(text: &str, file: &str, s: &Scenario) -> Result<Option<NoiseModel>> {
+        let root: Yaml = serde_yaml::from_str(text).map_err(|e| yaml_error(e, file))?;
+        let ctx = Context {
+            file: file.to_string(),
+            map: SourceMap::new(text),
+        };
+        let Some(section) = root.get("noise") else {
+            return Ok(None);
+        };
+        let Yaml::Mapping(m) = section else {
+            return Err(ctx.error(
+                "noise",
+                "expected a mapping with `visibility`, `efficiency`, `dark_counts`, `no_click`",
+            ));
+        };
+        let mut noise = NoiseModel::default();
+        for (k, v) in m {
+            let key = k.as_str().unwrap_or("");
+            let field = format!("noise.{key}");
+            match key {
+                "visibility" => noise.visibility = real(v, &ctx, &field, &[])?,
+                "dark_counts" => noise.dark_counts = real(v, &ctx, &field, &[])?,
+                "efficiency" => {
+                    noise.efficiency = match v {
+                        Yaml::Sequence(list) => list
+                            .iter()
+                            .enumerate()
+                            .map(|(i, e)| real(e, &ctx, &format!("{field}[{i}]"), &[]))
+                            .collect::<Result<_>>()?,
+                        other => vec![real(other, &ctx, &field, &[])?],
+                    }
+                }
+                "no_click" => noise.no_click = no_click_from(v, &ctx, &field, s)?,
+                other => {
+                    return Err(ctx.error(
+                        &field,
+                        format!("unknown field `{other}` (expected `visibility`, `efficiency`, `dark_counts`, `no_click`)"),
+                    ))
+                }
+            }
+        }
+        noise
+            .check(s)
+            .map_err(|(f, m)| ctx.error(&format!("noise.{f}"), m))?;
+        Ok(Some(noise))
+    }
+
+    /// The strategy as a file with a `noise:` section: the noise model, its no-click answers
+    /// (`f`, by label per player and question) written out.
+    pub fn to_yaml_value_with_noise(
+        &self,
+        s: &Scenario,
+        noise: &NoiseModel,
+        f: &Assignment,
+    ) -> Yaml {
+        let mut root = match self.to_yaml_value(s) {
+            Yaml::Mapping(m) => m,
+            _ => Mapping::new(),
+        };
+        let mut n = Mapping::new();
+        n.insert("visibility".into(), Yaml::from(noise.visibility));
+        n.insert(
+            "efficiency".into(),
+            match noise.efficiency.as_slice() {
+                [] => Yaml::from(1),
+                [one] => Yaml::from(*one),
+                many => Yaml::Sequence(many.iter().map(|&e| Yaml::from(e)).collect()),
+            },
+        );
+        n.insert("dark_counts".into(), Yaml::from(noise.dark_counts));
+        let no_click = if noise.no_click == NoClick::Extra {
+            Yaml::from("extra")
+        } else {
+            let mut per = Mapping::new();
+            for (p, row) in s.parties().iter().zip(f) {
+                per.insert(
+                    Yaml::from(p.name.clone()),
+                    Yaml::Sequence(
+                        row.iter()
+                            .map(|&a| Yaml::from(p.answer_labels[a]))
+                            .collect(),
+                    ),
+                );
+            }
+            Yaml::Mapping(per)
+        };
+        n.insert("no_click".into(), no_click);
+        root.insert("noise".into(), Yaml::Mapping(n));
+        Yaml::Mapping(root)
+    }
+
     /// Reads a strategy file for game `s`, with located errors.
     pub fn from_yaml(text: &str, file: &str, s: &Scenario) -> Result<QuantumStrategy> {
         Self::from_yaml_with(text, file, s, &StrategyFileOptions::default())
@@ -122,10 +221,15 @@ impl QuantumStrategy {
         };
         for k in map.keys() {
             let key = k.as_str().unwrap_or("");
-            if !matches!(key, "dims" | "state" | "measurements" | "game" | "value") {
+            if !matches!(
+                key,
+                "dims" | "state" | "measurements" | "game" | "value" | "noise"
+            ) {
                 return Err(ctx.error(
                     key,
-                    format!("unknown field `{key}` (expected `dims`, `state`, `measurements`)"),
+                    format!(
+                        "unknown field `{key}` (expected `dims`, `state`, `measurements`, `noise`)"
+                    ),
                 ));
             }
         }
@@ -312,6 +416,17 @@ impl QuantumStrategy {
         let text = read_text(path)?;
         Self::from_yaml_with(&text, path, s, options)
     }
+
+    /// A strategy file and its `noise:` section, when it has one.
+    pub fn with_noise_from_file(
+        path: &str,
+        s: &Scenario,
+        options: &StrategyFileOptions,
+    ) -> Result<(QuantumStrategy, Option<NoiseModel>)> {
+        let text = read_text(path)?;
+        let strategy = Self::from_yaml_with(&text, path, s, options)?;
+        Ok((strategy, Self::noise_from_yaml(&text, path, s)?))
+    }
 }
 
 /// How a strategy file is read.
@@ -320,4 +435,73 @@ pub struct StrategyFileOptions {
     /// Divide the state by its norm before the checks (amplitudes written rounded, such as
     /// 0.7071, then pass the normalisation check).
     pub normalise: bool,
+}
+
+/// `noise.no_click`: `best`, `extra`, one answer label for everyone, or per player a list of
+/// labels, one per question.
+fn no_click_from(v: &Yaml, ctx: &Context, field: &str, s: &Scenario) -> Result<NoClick> {
+    let index = |p: &crate::model::scenario::Party, label: &Yaml, at: &str| -> Result<usize> {
+        let l = label
+            .as_i64()
+            .ok_or_else(|| ctx.error(at, "expected an answer label"))?;
+        p.answer_labels
+            .iter()
+            .position(|&a| a == l)
+            .ok_or_else(|| ctx.error(at, format!("{} has no answer {l}", p.name)))
+    };
+    match v {
+        Yaml::String(t) if t == "best" => Ok(NoClick::Best),
+        Yaml::String(t) if t == "extra" => Ok(NoClick::Extra),
+        Yaml::Number(_) => {
+            let table = s
+                .parties()
+                .iter()
+                .map(|p| Ok(vec![index(p, v, field)?; p.questions()]))
+                .collect::<Result<_>>()?;
+            Ok(NoClick::Table(table))
+        }
+        Yaml::Mapping(m) => {
+            let mut table = Vec::with_capacity(s.players());
+            for p in s.parties() {
+                let at = format!("{field}.{}", p.name);
+                let Some(Yaml::Sequence(list)) = m.get(p.name.as_str()) else {
+                    return Err(ctx.error(
+                        field,
+                        format!(
+                            "expected a list of {} answer labels for `{}`",
+                            p.questions(),
+                            p.name
+                        ),
+                    ));
+                };
+                if list.len() != p.questions() {
+                    return Err(ctx.error(
+                        &at,
+                        format!(
+                            "expected {} answer labels (one per question), found {}",
+                            p.questions(),
+                            list.len()
+                        ),
+                    ));
+                }
+                table.push(
+                    list.iter()
+                        .enumerate()
+                        .map(|(x, l)| index(p, l, &format!("{at}[{x}]")))
+                        .collect::<Result<_>>()?,
+                );
+            }
+            if let Some(k) = m.keys().find_map(|k| {
+                let name = k.as_str().unwrap_or("");
+                (!s.parties().iter().any(|p| p.name == name)).then(|| name.to_string())
+            }) {
+                return Err(ctx.error(field, format!("there is no player `{k}`")));
+            }
+            Ok(NoClick::Table(table))
+        }
+        _ => Err(ctx.error(
+            field,
+            "expected `best`, `extra`, an answer label, or a list of labels per player",
+        )),
+    }
 }

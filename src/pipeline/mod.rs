@@ -206,12 +206,28 @@ pub struct GameReport<'a> {
     pub seesaw: Option<SeesawResult>,
     /// The Born-rule value of a given strategy (`evaluate`).
     pub evaluated: Option<CertifiedValue>,
+    /// Its score under the strategy file's noise model (`evaluate`, with a `noise:` section).
+    pub noisy: Option<NoisyValue>,
     /// Entanglement and robustness of the strategy found or given.
     pub strategy_analysis: Option<StrategyAnalysis>,
     /// Bounds that could not be obtained, with the reason.
     pub not_obtained: Vec<String>,
     /// How reported bounds were reconciled with each other ([`GameReport::reconcile_bounds`]).
     pub notes: Vec<String>,
+}
+
+/// A strategy's score under a noise model (`evaluate` of a file with a `noise:` section).
+#[derive(Debug, Clone, Serialize)]
+pub struct NoisyValue {
+    /// The noise model.
+    pub noise: crate::model::noise::NoiseModel,
+    /// The no-click answer index per player and question used (the best, when not fixed).
+    pub no_click_answers: crate::model::noise::Assignment,
+    /// The noisy score with its error term; `lower` is certain.
+    pub score: CertifiedValue,
+    /// `score.lower` minus the classical value rounded up, when the classical value is known.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub margin: Option<f64>,
 }
 
 /// Differences between the bounds, each present when both of its bounds are.
@@ -258,6 +274,7 @@ impl<'a> GameReport<'a> {
             npa_levels: Vec::new(),
             seesaw: None,
             evaluated: None,
+            noisy: None,
             strategy_analysis: None,
             not_obtained: Vec::new(),
             notes: Vec::new(),
@@ -812,13 +829,15 @@ pub fn seesaw<'a>(
 }
 
 /// Options of [`evaluate`].
-#[derive(Debug, Clone, Copy, Default)]
+#[derive(Debug, Clone, Default)]
 pub struct EvaluateOptions {
     /// Skip the classical value (and so the robustness figures, which are measured against
     /// it); on a large game computing it can take long.
     pub skip_classical: bool,
     /// Work limits of the classical value.
     pub limits: Limits,
+    /// A noise model to score the strategy under as well (a strategy file's `noise:`).
+    pub noise: Option<crate::model::noise::NoiseModel>,
 }
 
 /// The `evaluate` command: a given strategy's Born-rule value (of the strategy made exactly
@@ -848,6 +867,20 @@ pub fn evaluate<'a>(
     };
     let mut r = GameReport::new(CommandKind::Evaluate, game);
     r.evaluated = Some(strategy.certified_value(s));
+    if let Some(noise) = &options.noise {
+        noise.check(s).map_err(|(field, message)| {
+            Error::InvalidArgument(format!("noise.{field}: {message}"))
+        })?;
+        let f = noise.best_assignment(s, &strategy, &noise.initial_assignment(s));
+        let score = noise.certified_value(s, &strategy, &f);
+        r.noisy = Some(NoisyValue {
+            noise: noise.clone(),
+            no_click_answers: f,
+            score,
+            margin: classical
+                .map(|c| score.lower - crate::bounds::quantum::design::classical_ceiling(s, c)),
+        });
+    }
     r.strategy_analysis = Some(analyse(s, &strategy, classical));
     Ok(r)
 }

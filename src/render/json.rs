@@ -251,6 +251,8 @@ struct GameReportView<'a> {
     #[serde(flatten)]
     evaluated: Option<EvaluatedView>,
     #[serde(skip_serializing_if = "Option::is_none")]
+    noisy: Option<&'a crate::pipeline::NoisyValue>,
+    #[serde(skip_serializing_if = "Option::is_none")]
     entanglement: Option<&'a [Bipartition]>,
     #[serde(skip_serializing_if = "Option::is_none")]
     robustness: Option<Option<&'a Robustness>>,
@@ -406,6 +408,7 @@ impl<'a> GameReportView<'a> {
                 value_error: v.error,
                 quantum_lower: v.lower,
             }),
+            noisy: r.noisy.as_ref(),
             entanglement: r.strategy_analysis.as_ref().map(|a| &a.bipartitions[..]),
             robustness: r.strategy_analysis.as_ref().map(|a| a.robustness.as_ref()),
             quantum_settled: r.quantum_settled(),

@@ -227,6 +227,31 @@ pub fn game_report(r: &GameReport) -> String {
         ));
         rows.push(("quantum ≥".into(), num(v.lower)));
     }
+    if let Some(n) = &r.noisy {
+        let efficiency = if n.noise.efficiency.is_empty() {
+            "1".to_string()
+        } else {
+            n.noise
+                .efficiency
+                .iter()
+                .map(|e| num(*e))
+                .collect::<Vec<_>>()
+                .join(", ")
+        };
+        rows.push((
+            "under noise".into(),
+            format!(
+                "score ≥ {} at visibility {}, detection efficiency {}, dark counts {} (the file's `noise:`){}",
+                num(n.score.lower),
+                num(n.noise.visibility),
+                efficiency,
+                num(n.noise.dark_counts),
+                n.margin
+                    .map(|m| format!("; margin over the classical value {}", num(m)))
+                    .unwrap_or_default()
+            ),
+        ));
+    }
     if let (Some(sw), Some(b)) = (&r.seesaw, &r.npa) {
         let gap = b.verified_upper - sw.quantum_lower;
         rows.push((

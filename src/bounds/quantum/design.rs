@@ -94,7 +94,7 @@ impl Implementation {
 }
 
 /// The classical value rounded up by its summation's error (it is a sum of table entries).
-fn classical_ceiling(s: &Scenario, classical: f64) -> f64 {
+pub fn classical_ceiling(s: &Scenario, classical: f64) -> f64 {
     let weight: f64 = s.objective().iter().map(|c| c.abs()).sum::<f64>() + s.offset().abs();
     classical + 8.0 * f64::EPSILON * (weight + classical.abs())
 }
