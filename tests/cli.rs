@@ -1800,7 +1800,7 @@ fn design_and_self_test_answer_in_json_and_refuse_bad_noise() {
     assert_eq!(j["command"], "design");
     let above = j["threshold"]["bracket"]["above"].as_f64().unwrap();
     assert!(
-        above >= std::f64::consts::FRAC_1_SQRT_2 && above < 0.709,
+        (std::f64::consts::FRAC_1_SQRT_2..0.709).contains(&above),
         "{above}"
     );
     assert!(j["value"]["value"].as_f64().unwrap() > 0.0);
