@@ -1893,3 +1893,46 @@ fn design_and_self_test_answer_in_json_and_refuse_bad_noise() {
     let out = bellgap(&["self-test", "games/cglmp-3.yaml", "--score", "0.5"]);
     assert_eq!(out.status.code(), Some(2));
 }
+
+#[test]
+fn the_review_says_what_the_score_certifies_about_the_devices() {
+    let out = bellgap(&["review", "examples/data/lab-counts-protocol.yaml", "--json"]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j = json_of(&out);
+    let d = &j["devices"];
+    let state = &d["state"];
+    let score = state["score"].as_f64().unwrap();
+    // At the run's lower confidence score, the same one as the margin's.
+    assert!((score - j["margin"]["certified_score"].as_f64().unwrap()).abs() < 1e-12);
+    let fidelity = state["fidelity"].as_f64().unwrap();
+    // A noisy singlet with this CHSH score has fidelity (1 + 3v)/4 at v = S/(2√2): no valid
+    // bound exceeds it; Kaniewski's bound is reported beside it.
+    let v = state["chsh_value"].as_f64().unwrap() / (2.0 * 2f64.sqrt());
+    assert!(
+        fidelity > 0.5 && fidelity <= (1.0 + 3.0 * v) / 4.0,
+        "{fidelity} at v = {v}"
+    );
+    assert!(state["chsh_analytic"].as_f64().unwrap() <= (1.0 + 3.0 * v) / 4.0 + 1e-12);
+    // Eberhard's 2/3 and 1/√2 (see tests/design.rs for the sources).
+    let brackets: Vec<(String, f64)> = d["thresholds"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|t| {
+            (
+                t["parameter"].as_str().unwrap().to_string(),
+                t["bracket"][1].as_f64().unwrap(),
+            )
+        })
+        .collect();
+    assert_eq!(brackets.len(), 2);
+    assert!((brackets[0].1 - 2.0 / 3.0).abs() < 0.01, "{brackets:?}");
+    assert!(
+        (brackets[1].1 - std::f64::consts::FRAC_1_SQRT_2).abs() < 0.01,
+        "{brackets:?}"
+    );
+}

@@ -92,6 +92,8 @@ pub struct ReviewThreshold {
     /// The bracket (below, above); None when no implementation found beats the classical
     /// value even without that noise.
     pub bracket: Option<(f64, f64)>,
+    /// The best implementation's margin against the parameter (for the plot).
+    pub curve: Vec<crate::bounds::quantum::design::CurvePoint>,
 }
 
 /// The finite-size figures in a review.
@@ -483,7 +485,7 @@ fn review_devices(
         let t = ThresholdOptions {
             parameter,
             tolerance: 1e-3,
-            curve_points: 0,
+            curve_points: 6,
         };
         if estimate_threshold_seconds(s, &design, &t) > REVIEW_DESIGN_SECONDS {
             out.notes.push(format!(
@@ -496,6 +498,7 @@ fn review_devices(
             Ok(found) => out.thresholds.push(ReviewThreshold {
                 parameter,
                 bracket: found.bracket.map(|b| (b.below, b.above)),
+                curve: found.curve,
             }),
             Err(e) => out
                 .notes

@@ -465,6 +465,37 @@ pub fn min_entropy_curve(
     )
 }
 
+/// A review's noise thresholds: the best implementation's margin over the classical value
+/// against detection efficiency and visibility (None without a curve).
+pub fn review_noise(review: &crate::pipeline::Review) -> Option<String> {
+    let series: Vec<Series> = review
+        .devices
+        .thresholds
+        .iter()
+        .filter(|t| t.curve.len() >= 2)
+        .map(|t| Series {
+            name: t.parameter.name().into(),
+            points: t
+                .curve
+                .iter()
+                .map(|p| (p.parameter, p.figure.max(0.0)))
+                .collect(),
+        })
+        .collect();
+    if series.is_empty() {
+        return None;
+    }
+    Some(line_chart(
+        &format!(
+            "Margin over the classical value against noise, {}",
+            review.bounds.game.name
+        ),
+        "detection efficiency / visibility",
+        "margin of the best implementation found",
+        &series,
+    ))
+}
+
 /// A design's figure against the noise parameter of its threshold search, with the bracket's
 /// upper end marked.
 pub fn design_threshold(report: &crate::pipeline::DesignReport) -> String {

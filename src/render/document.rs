@@ -451,6 +451,10 @@ pub fn html(r: &Review) -> String {
         h.push_str("<h2>Min-entropy against score</h2>\n");
         h.push_str(&svg);
     }
+    if let Some(svg) = super::charts::review_noise(r) {
+        h.push_str("<h2>Margin against noise</h2>\n");
+        h.push_str(&svg);
+    }
     if let Some(f) = &r.finite_size {
         h.push_str("<h2>Certified rate against rounds</h2>\n");
         h.push_str(&finite_size_rate(&f.report));
@@ -486,6 +490,9 @@ pub fn markdown(r: &Review, stem: Option<&str>) -> (String, Vec<(String, String)
     let mut plots: Vec<(&str, &str, String)> = Vec::new();
     if let Some(svg) = plot(r) {
         plots.push(("Min-entropy against score", "min-entropy", svg));
+    }
+    if let Some(svg) = super::charts::review_noise(r) {
+        plots.push(("Margin against noise", "noise", svg));
     }
     if let Some(f) = &r.finite_size {
         plots.push((
