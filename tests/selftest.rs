@@ -116,3 +116,52 @@ fn bad_targets_and_games_are_refused() {
     )
     .is_err());
 }
+
+#[test]
+fn a_behaviour_certifies_at_least_what_its_score_does() {
+    use bellgap::bounds::quantum::selftest::{fidelity_bound_given, FidelityGiven};
+    use bellgap::model::region::BehaviourRegion;
+    // The noisy singlet at visibility 0.95 with Tsirelson's measurements: its whole behaviour
+    // leaves the adversary fewer options than its score alone, so the bound is at least the
+    // score's, and still at most the realisation's own fidelity (1 + 3v)/4.
+    let game = chsh();
+    let s = &game.scenario;
+    let ideal = tsirelson();
+    let v = 0.95;
+    let p: Vec<f64> = ideal
+        .behaviour(s)
+        .iter()
+        .zip(ideal.noise_behaviour(s))
+        .map(|(a, b)| v * a + (1.0 - v) * b)
+        .collect();
+    let target = target_from(s, &ideal, &[[0, 1], [0, 1]]).unwrap();
+    let options = SelfTestOptions::default();
+    let region = BehaviourRegion::around(&p, 1e-9, "the noisy singlet".into()).unwrap();
+    let from_behaviour =
+        fidelity_bound_given(s, &FidelityGiven::Region(region), &target, &options).unwrap();
+    let from_score = fidelity_bound(s, s.value_of_behaviour(&p) - 1e-8, &target, &options).unwrap();
+    let realisation = (1.0 + 3.0 * v) / 4.0;
+    assert!(
+        from_behaviour.fidelity >= from_score.fidelity - 1e-7,
+        "{from_behaviour:?} {from_score:?}"
+    );
+    assert!(
+        from_behaviour.fidelity <= realisation + 1e-7,
+        "{from_behaviour:?}"
+    );
+    assert!(from_behaviour.region_score_floor.unwrap() <= s.value_of_behaviour(&p));
+    // A behaviour no quantum device shows (a Popescu–Rohrlich box) is refused.
+    let mut pr = vec![0.0; 16];
+    for q in 0..4 {
+        let (x, y) = (q / 2, q % 2);
+        for a in 0..2 {
+            for b in 0..2 {
+                if (a + b) % 2 == x * y {
+                    pr[q * 4 + a * 2 + b] = 0.5;
+                }
+            }
+        }
+    }
+    let region = BehaviourRegion::around(&pr, 1e-9, "a PR box".into()).unwrap();
+    assert!(fidelity_bound_given(s, &FidelityGiven::Region(region), &target, &options).is_err());
+}

@@ -2017,13 +2017,25 @@ _bellgap() {
             return 0
             ;;
         bellgap__subcmd__self__subcmd__test)
-            opts="-q -h --json --quiet --force --allow-large --score --target --strategy --questions --level --dim --dims --restarts --seed --help"
+            opts="-q -h --json --quiet --force --allow-large --score --behaviour --counts --alpha --target --strategy --questions --level --dim --dims --restarts --seed --help"
             if [[ ${cur} == -* || ${COMP_CWORD} -eq 2 ]] ; then
                 COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
                 return 0
             fi
             case "${prev}" in
                 --score)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --behaviour)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --counts)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --alpha)
                     COMPREPLY=($(compgen -f "${cur}"))
                     return 0
                     ;;

@@ -167,6 +167,9 @@ complete -c bellgap -n "__fish_bellgap_using_subcommand design" -l force -d 'Run
 complete -c bellgap -n "__fish_bellgap_using_subcommand design" -l allow-large -d 'Build game tables larger than the default memory limit'
 complete -c bellgap -n "__fish_bellgap_using_subcommand design" -s h -l help -d 'Print help (see more with \'--help\')'
 complete -c bellgap -n "__fish_bellgap_using_subcommand self-test" -l score -d 'The score (in the game\'s own units): the bound holds for every quantum behaviour scoring at least this' -r
+complete -c bellgap -n "__fish_bellgap_using_subcommand self-test" -l behaviour -d 'Condition on a behaviour instead: a correlations file (with rounds, the confidence region of the counts they stand for; without, every behaviour within 1e-6)' -r -F
+complete -c bellgap -n "__fish_bellgap_using_subcommand self-test" -l counts -d 'Condition on a lab\'s counts instead: every quantum behaviour in their confidence region (error `--alpha`)' -r -F
+complete -c bellgap -n "__fish_bellgap_using_subcommand self-test" -l alpha -d 'The confidence region\'s error probability (with --counts)' -r
 complete -c bellgap -n "__fish_bellgap_using_subcommand self-test" -l target -d 'The target\'s four real amplitudes of |00⟩, |01⟩, |10⟩, |11⟩, comma separated (default: the state the see-saw\'s best strategy extracts to)' -r
 complete -c bellgap -n "__fish_bellgap_using_subcommand self-test" -l strategy -d 'Take the target from this strategy file\'s extracted state instead' -r -F
 complete -c bellgap -n "__fish_bellgap_using_subcommand self-test" -l questions -d 'The question labels whose measurements build each player\'s Z and X: the first player\'s two, then the second\'s (default: each player\'s first two)' -r

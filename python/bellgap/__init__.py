@@ -704,14 +704,24 @@ def design(game: GameLike, figure: str = "margin", efficiency=None, visibility: 
     return result
 
 
-def self_test(game: GameLike, score: float, target=None, strategy: Optional[Strategy] = None,
-              questions=None, level=None, dims=None, restarts=None, seed=None) -> Result:
+def self_test(game: GameLike, score: Optional[float] = None, target=None,
+              strategy: Optional[Strategy] = None, questions=None, level=None, dims=None,
+              restarts=None, seed=None, behaviour=None, counts=None, alpha=None) -> Result:
     """A verified lower bound on the fidelity of the devices' state, extracted by local SWAP
-    isometries, with a target state, over every quantum behaviour scoring at least ``score``
-    (``bellgap self-test``; two players, binary questions). ``target`` is four real amplitudes
-    of |00>, |01>, |10>, |11>; by default the state the see-saw's best strategy extracts to, or
-    that of ``strategy``. For games equivalent to CHSH, Kaniewski's analytic bound is beside it."""
+    isometries, with a target state (``bellgap self-test``; two players, binary questions):
+    over every quantum behaviour scoring at least ``score``, or in the region of ``behaviour``
+    or ``counts`` (a file's path, its YAML text or a dict; ``alpha`` the counts' error).
+    ``target`` is four real amplitudes of |00>, |01>, |10>, |11>; by default the state the
+    see-saw's best strategy extracts to, or that of ``strategy``. For games equivalent to CHSH,
+    Kaniewski's analytic bound is beside it."""
+    extra = {}
+    if behaviour is not None:
+        extra["behaviour_text"], extra["behaviour_name"] = _text_and_name(behaviour)
+    if counts is not None:
+        extra["counts_text"], extra["counts_name"] = _text_and_name(counts)
+        extra["alpha"] = alpha
     kwargs = dict(
+        **extra,
         score=score, target=list(target) if target is not None else None,
         questions=list(questions) if questions is not None else None, level=level,
         dims=list(dims) if dims is not None else None, restarts=restarts, seed=seed,

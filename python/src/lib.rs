@@ -1016,6 +1016,16 @@ struct DesignArgs {
     #[serde(default)]
     level: Option<String>,
     #[serde(default)]
+    behaviour_text: Option<String>,
+    #[serde(default)]
+    behaviour_name: Option<String>,
+    #[serde(default)]
+    counts_text: Option<String>,
+    #[serde(default)]
+    counts_name: Option<String>,
+    #[serde(default)]
+    alpha: Option<f64>,
+    #[serde(default)]
     force: bool,
 }
 
@@ -1169,9 +1179,26 @@ fn run_design(
             })
         }
         "self-test" => {
-            let score = a
-                .score
-                .ok_or_else(|| usage("self_test needs a score".into()))?;
+            let given = match (a.score, &a.behaviour_text, &a.counts_text) {
+                (Some(v), None, None) => pipeline::SelfTestGiven::Score(v),
+                (None, Some(text), None) => pipeline::SelfTestGiven::Behaviour(
+                    bellgap::Correlations::from_yaml(
+                        text,
+                        a.behaviour_name.as_deref().unwrap_or("<string>"),
+                    )
+                    .map_err(to_py)?,
+                ),
+                (None, None, Some(text)) => pipeline::SelfTestGiven::Counts(
+                    Counts::from_yaml(text, a.counts_name.as_deref().unwrap_or("<string>"))
+                        .map_err(to_py)?,
+                    a.alpha.unwrap_or(1e-6),
+                ),
+                _ => {
+                    return Err(usage(
+                        "self_test needs one of score, behaviour or counts".into(),
+                    ))
+                }
+            };
             let level = a
                 .level
                 .as_deref()
@@ -1200,7 +1227,7 @@ fn run_design(
                 let r = pipeline::self_test(
                     &game,
                     &pipeline::SelfTestRequest {
-                        score,
+                        given,
                         target,
                         questions: a.questions,
                         level,

@@ -636,3 +636,10 @@ def test_design_finds_eberhards_efficiency_and_self_test_certifies_the_state():
     assert t.bound["fidelity"] > 0.99 and t.bound["chsh_analytic"] > 0.99
     with pytest.raises(bellgap.BellgapError):
         bellgap.self_test(chsh, score=0.8, target=[1, 0, 0])
+
+
+def test_self_test_from_counts():
+    counts = os.path.join(ROOT, "examples", "data", "lab-counts.yaml")
+    t = bellgap.self_test(os.path.join(GAMES, "chsh.yaml"), counts=counts)
+    assert 0.5 < t.bound["fidelity"] < 1
+    assert "confidence region" in t.given

@@ -240,8 +240,19 @@ pub enum Command {
         args: GameArgs,
         /// The score (in the game's own units): the bound holds for every quantum behaviour
         /// scoring at least this.
-        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite)]
-        score: f64,
+        #[arg(long, allow_hyphen_values = true, value_parser = parse_finite, required_unless_present_any = ["behaviour", "counts"], conflicts_with_all = ["behaviour", "counts"])]
+        score: Option<f64>,
+        /// Condition on a behaviour instead: a correlations file (with rounds, the confidence
+        /// region of the counts they stand for; without, every behaviour within 1e-6).
+        #[arg(long, value_name = "FILE", conflicts_with = "counts")]
+        behaviour: Option<PathBuf>,
+        /// Condition on a lab's counts instead: every quantum behaviour in their confidence
+        /// region (error `--alpha`).
+        #[arg(long, value_name = "FILE")]
+        counts: Option<PathBuf>,
+        /// The confidence region's error probability (with --counts).
+        #[arg(long, default_value_t = 1e-6, value_parser = parse_finite)]
+        alpha: f64,
         /// The target's four real amplitudes of |00⟩, |01⟩, |10⟩, |11⟩, comma separated
         /// (default: the state the see-saw's best strategy extracts to).
         #[arg(long, value_delimiter = ',', allow_hyphen_values = true, value_parser = parse_finite, conflicts_with = "strategy")]
@@ -832,8 +843,11 @@ impl Cli {
         match &self.command {
             Command::Evaluate { strategy, .. } => v.push(strategy.clone()),
             Command::SelfTest {
-                strategy: Some(st), ..
-            } => v.push(st.clone()),
+                strategy,
+                behaviour,
+                counts,
+                ..
+            } => v.extend([strategy, behaviour, counts].into_iter().flatten().cloned()),
             Command::Verify { certificate, .. } => v.push(certificate.clone()),
             Command::Review { protocol, .. } => v.push(protocol.clone()),
             Command::Local { correlations, .. } => v.push(correlations.clone()),

@@ -29,7 +29,8 @@ use bellgap::render::{charts, document, json, text};
 use bellgap::{Error, Result};
 
 use request::{
-    DocumentFormat, FamilyChoice, GameInput, Invocation, Request, RunInput, TargetSource,
+    DocumentFormat, FamilyChoice, GameInput, Invocation, Request, RunInput, SelfTestInput,
+    TargetSource,
 };
 
 /// What a command produced: text for people, one JSON object for programs, warnings for stderr.
@@ -324,7 +325,7 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
         }
         Request::SelfTest {
             game,
-            score,
+            given,
             target,
             questions,
             level,
@@ -356,7 +357,16 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             let r = pipeline::self_test(
                 &game,
                 &pipeline::SelfTestRequest {
-                    score: *score,
+                    given: match given {
+                        SelfTestInput::Score(v) => pipeline::SelfTestGiven::Score(*v),
+                        SelfTestInput::Behaviour(f) => pipeline::SelfTestGiven::Behaviour(
+                            Correlations::from_file(&f.to_string_lossy())?,
+                        ),
+                        SelfTestInput::Counts(f, alpha) => pipeline::SelfTestGiven::Counts(
+                            Counts::from_file(&f.to_string_lossy())?,
+                            *alpha,
+                        ),
+                    },
                     target,
                     questions: questions.clone(),
                     level: level.clone(),

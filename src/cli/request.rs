@@ -98,6 +98,17 @@ fn one_level(text: &str) -> Result<Level> {
     Level::parse(text)
 }
 
+/// What `self-test` conditions on, as typed (files are read by the runner).
+#[derive(Debug, Clone, PartialEq)]
+pub enum SelfTestInput {
+    /// A score.
+    Score(f64),
+    /// A correlations file.
+    Behaviour(PathBuf),
+    /// A counts file and the confidence region's error.
+    Counts(PathBuf, f64),
+}
+
 /// Where `self-test` takes its target state from.
 #[derive(Debug, Clone, PartialEq)]
 pub enum TargetSource {
@@ -244,7 +255,7 @@ pub enum Request {
     /// resolved with the game.
     SelfTest {
         game: GameInput,
-        score: f64,
+        given: SelfTestInput,
         target: TargetSource,
         questions: Option<Vec<i64>>,
         level: Option<Level>,
@@ -775,6 +786,9 @@ impl Invocation {
             Command::SelfTest {
                 args,
                 score,
+                behaviour,
+                counts,
+                alpha,
                 target,
                 strategy,
                 questions,
@@ -782,7 +796,14 @@ impl Invocation {
                 seesaw,
             } => Request::SelfTest {
                 game: game_input(args),
-                score: *score,
+                given: match (score, behaviour, counts) {
+                    (Some(v), _, _) => SelfTestInput::Score(*v),
+                    (None, Some(f), _) => SelfTestInput::Behaviour(f.clone()),
+                    (None, None, Some(f)) => SelfTestInput::Counts(f.clone(), *alpha),
+                    (None, None, None) => {
+                        return Err(Error::Usage("give --score, --behaviour or --counts".into()))
+                    }
+                },
                 target: match (target, strategy) {
                     (Some(t), _) => TargetSource::Amplitudes(t.clone()),
                     (None, Some(f)) => TargetSource::Strategy(f.clone()),

@@ -678,40 +678,9 @@ pub fn entropy<'a>(
                 "every quantum behaviour scoring at least the row's score".into(),
             )
         }
-        EntropyGiven::Behaviour(c) if c.rounds.is_some() => {
-            // Measured frequencies with their rounds: the confidence region of the counts they
-            // stand for (each frequency times its rounds, rounded), each interval widened by
-            // the rounding and the file's tolerance; no projection.
-            check_same_players(s, c)?;
-            let as_counts = Counts::of_measured(c)?;
-            let mut region = as_counts.confidence_region(MEASURED_BEHAVIOUR_ERROR)?;
-            let fitted = as_counts.frequencies();
-            for (k, &p) in c.p.iter().enumerate() {
-                let slack = (p - fitted[k]).abs() + ROW_TOLERANCE;
-                region.lower[k] = (region.lower[k] - slack).max(0.0);
-                region.upper[k] = (region.upper[k] + slack).min(1.0);
-            }
-            region.centre = c.p.clone();
-            let given = region.description.clone();
-            (vec![(None, EntropyConstraint::Region(region))], given)
-        }
         EntropyGiven::Behaviour(c) => {
-            check_same_players(s, c)?;
-            let region = BehaviourRegion::around(
-                &c.p,
-                ROW_TOLERANCE,
-                format!(
-                    "every behaviour within {ROW_TOLERANCE:e} of `{}` in each probability (the tolerance a typed behaviour is read to)",
-                    c.name
-                ),
-            )?;
-            (
-                vec![(None, EntropyConstraint::Region(region))],
-                format!(
-                    "the behaviour `{}`, as every behaviour within {ROW_TOLERANCE:e} of it in each probability",
-                    c.name
-                ),
-            )
+            let (region, given) = region_of_correlations(s, c)?;
+            (vec![(None, EntropyConstraint::Region(region))], given)
         }
         EntropyGiven::Counts { counts, error } => {
             check_same_parties(s, &counts.parties, &counts.name)?;
@@ -909,6 +878,45 @@ pub(crate) fn target_name(s: &Scenario, target: &Target) -> String {
 }
 
 /// Refuses correlations whose players differ from the game's (names, question and answer counts).
+/// The region a correlations file stands for, and its description: with rounds, the confidence
+/// region of the counts they stand for (each frequency times its rounds, rounded), each interval
+/// widened by the rounding and the file's tolerance, no projection; without, every behaviour
+/// within the tolerance a typed behaviour is read to.
+pub(crate) fn region_of_correlations(
+    s: &Scenario,
+    c: &Correlations,
+) -> Result<(BehaviourRegion, String)> {
+    check_same_players(s, c)?;
+    if c.rounds.is_some() {
+        let as_counts = Counts::of_measured(c)?;
+        let mut region = as_counts.confidence_region(MEASURED_BEHAVIOUR_ERROR)?;
+        let fitted = as_counts.frequencies();
+        for (k, &p) in c.p.iter().enumerate() {
+            let slack = (p - fitted[k]).abs() + ROW_TOLERANCE;
+            region.lower[k] = (region.lower[k] - slack).max(0.0);
+            region.upper[k] = (region.upper[k] + slack).min(1.0);
+        }
+        region.centre = c.p.clone();
+        let given = region.description.clone();
+        return Ok((region, given));
+    }
+    let region = BehaviourRegion::around(
+        &c.p,
+        ROW_TOLERANCE,
+        format!(
+            "every behaviour within {ROW_TOLERANCE:e} of `{}` in each probability (the tolerance a typed behaviour is read to)",
+            c.name
+        ),
+    )?;
+    Ok((
+        region,
+        format!(
+            "the behaviour `{}`, as every behaviour within {ROW_TOLERANCE:e} of it in each probability",
+            c.name
+        ),
+    ))
+}
+
 fn check_same_players(s: &Scenario, c: &Correlations) -> Result<()> {
     check_same_parties(s, &c.parties, &c.name)
 }

@@ -31,7 +31,8 @@ pub use review::{
     ReviewThreshold, REVIEW_NODES,
 };
 pub use selftest::{
-    self_test, self_test_assumptions, SelfTestReport, SelfTestRequest, SelfTestTarget,
+    self_test, self_test_assumptions, SelfTestGiven, SelfTestReport, SelfTestRequest,
+    SelfTestTarget,
 };
 
 use serde::Serialize;

@@ -2,14 +2,18 @@
 //! from the see-saw's best strategy), the question labels turned into indices, and the verified
 //! SWAP fidelity bound at the score.
 
+use super::figures::{check_same_parties, region_of_correlations};
 use super::Observer;
 use crate::bounds::quantum::npa::Level;
 use crate::bounds::quantum::seesaw::{seesaw, SeesawOptions};
 use crate::bounds::quantum::selftest::{
-    checked_target, fidelity_bound, target_from, FidelityBound, SelfTestOptions,
+    checked_target, fidelity_bound_given, target_from, FidelityBound, FidelityGiven,
+    SelfTestOptions,
 };
 use crate::error::{Error, Result};
 use crate::formats::game::Game;
+use crate::model::correlations::Correlations;
+use crate::model::counts::Counts;
 use crate::model::scenario::Scenario;
 use crate::model::strategy::QuantumStrategy;
 
@@ -24,11 +28,23 @@ pub enum SelfTestTarget {
     Strategy(QuantumStrategy, String),
 }
 
+/// What the fidelity bound is conditioned on.
+#[derive(Debug, Clone)]
+pub enum SelfTestGiven {
+    /// Every quantum behaviour scoring at least this.
+    Score(f64),
+    /// A behaviour (a correlations file: with rounds, the confidence region of the counts they
+    /// stand for; without, every behaviour within the typed tolerance).
+    Behaviour(Correlations),
+    /// A lab's counts: every quantum behaviour in their confidence region of this error.
+    Counts(Counts, f64),
+}
+
 /// What the `self-test` command is asked.
 #[derive(Debug, Clone)]
 pub struct SelfTestRequest {
-    /// The score the bound assumes.
-    pub score: f64,
+    /// What the bound is conditioned on.
+    pub given: SelfTestGiven,
     /// The target.
     pub target: SelfTestTarget,
     /// Question labels: the first player's two, then the second's (default: the first two).
@@ -44,6 +60,8 @@ pub struct SelfTestReport<'a> {
     pub game: &'a Game,
     /// The bound.
     pub bound: FidelityBound,
+    /// What it is conditioned on, in words.
+    pub given: String,
     /// Where the target came from, in words.
     pub target_from: String,
     /// The questions used, by label, per player.
@@ -143,9 +161,33 @@ pub fn self_test<'a>(
             )
         }
     };
-    let bound = fidelity_bound(
+    let (given, described) = match &request.given {
+        SelfTestGiven::Score(v) => (
+            FidelityGiven::Score(*v),
+            format!(
+                "every quantum behaviour scoring at least {}",
+                crate::numbers::num(*v)
+            ),
+        ),
+        SelfTestGiven::Behaviour(c) => {
+            let (region, text) = region_of_correlations(s, c)?;
+            (FidelityGiven::Region(region), text)
+        }
+        SelfTestGiven::Counts(counts, error) => {
+            check_same_parties(s, &counts.parties, &counts.name)?;
+            if !(*error > 0.0 && *error < 1.0) {
+                return Err(Error::InvalidArgument(format!(
+                    "the error probability must lie strictly between 0 and 1, got {error}"
+                )));
+            }
+            let region = counts.confidence_region(*error)?;
+            let text = region.description.clone();
+            (FidelityGiven::Region(region), text)
+        }
+    };
+    let bound = fidelity_bound_given(
         s,
-        request.score,
+        &given,
         &target,
         &SelfTestOptions {
             questions,
@@ -156,6 +198,7 @@ pub fn self_test<'a>(
     Ok(SelfTestReport {
         game,
         bound,
+        given: described,
         target_from,
         questions: labels,
         assumptions: self_test_assumptions(),

@@ -321,7 +321,7 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
                 format!(
                     "fidelity of the extracted state ≥ (SWAP isometries, at the {} lower confidence bound {})",
                     m.confidence_method,
-                    num(b.score)
+                    b.score.map_or_else(String::new, num)
                 ),
                 format!(
                     "{} (verified; target {} from the see-saw's best strategy; NPA level {})",

@@ -660,10 +660,8 @@ pub fn self_test(report: &crate::pipeline::SelfTestReport) -> String {
     let b = &report.bound;
     let s = &report.game.scenario;
     let mut out = format!(
-        "game        {} ({})\nscore       every quantum behaviour scoring at least {}\n",
-        report.game.name,
-        report.game.source,
-        num(b.score)
+        "game        {} ({})\ngiven       {}\n",
+        report.game.name, report.game.source, report.given
     );
     let names: Vec<String> = s
         .parties()
@@ -697,7 +695,8 @@ pub fn self_test(report: &crate::pipeline::SelfTestReport) -> String {
     );
     if let (Some(k), Some(chsh)) = (b.chsh_analytic, b.chsh_value) {
         out += &format!(
-            "CHSH        S = {}: Kaniewski's analytic bound F ≥ {} with the maximally entangled state under the best local channels (PRL 117, 070402 (2016); formula quoted from memory){}\n",
+            "CHSH        S {} {}: Kaniewski's analytic bound F ≥ {} with the maximally entangled state under the best local channels (PRL 117, 070402 (2016); formula quoted from memory){}\n",
+            if b.region_score_floor.is_some() { "≥" } else { "=" },
             num(chsh),
             num(k),
             if k <= 0.5 { ", which says nothing at or below S* ≈ 2.1058" } else { "" }

@@ -27,6 +27,8 @@ use serde::Serialize;
 use super::npa::{self, Entry, Level};
 use super::words::{adjoint, canonical, moment_key, Projector, Word};
 use crate::error::{Error, Result};
+use crate::model::collins_gisin::CollinsGisin;
+use crate::model::region::BehaviourRegion;
 use crate::model::scenario::{digits, Scenario};
 use crate::model::strategy::{CMatrix, CVector, QuantumStrategy};
 use crate::optim::backend::{self, Backend};
@@ -60,11 +62,23 @@ pub fn default_level() -> Level {
     Level::parse("1 A B AA AB BB AAB ABB AABB").expect("a valid level")
 }
 
+/// What the fidelity bound is conditioned on.
+#[derive(Debug, Clone)]
+pub enum FidelityGiven {
+    /// Every quantum behaviour scoring at least this.
+    Score(f64),
+    /// Every quantum behaviour in this region (a behaviour with its tolerance, or counts'
+    /// confidence region).
+    Region(BehaviourRegion),
+}
+
 /// A verified fidelity bound.
 #[derive(Debug, Clone, Serialize)]
 pub struct FidelityBound {
-    /// The score the bound assumes (every quantum behaviour scoring at least this).
-    pub score: f64,
+    /// The score the bound assumes (every quantum behaviour scoring at least this), when it
+    /// is conditioned on a score.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub score: Option<f64>,
     /// Verified lower bound on the extracted state's fidelity with the target.
     pub fidelity: f64,
     /// The solver's value, before the verification's margin (not a bound).
@@ -81,9 +95,14 @@ pub struct FidelityBound {
     /// CHSH (its own target and extraction: best local channels).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub chsh_analytic: Option<f64>,
-    /// The score as a CHSH value S, for such games.
+    /// The score as a CHSH value S, for such games (for a region, the least S of any behaviour
+    /// in it).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub chsh_value: Option<f64>,
+    /// For a region: the least score of any behaviour in it (each probability at the end of its
+    /// interval that lowers the score).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub region_score_floor: Option<f64>,
     /// Wall-clock seconds.
     pub seconds: f64,
 }
@@ -303,14 +322,43 @@ pub fn fidelity_bound(
     target: &[f64; 4],
     options: &SelfTestOptions,
 ) -> Result<FidelityBound> {
+    fidelity_bound_given(s, &FidelityGiven::Score(score), target, options)
+}
+
+/// The verified lower bound on the SWAP-extracted state's fidelity with `target`, over every
+/// quantum behaviour scoring at least a score, or in a region of behaviours (each probability
+/// within its interval; a region with no quantum behaviour is refused, proven from an SDP's
+/// dual, since every bound would then be vacuous).
+pub fn fidelity_bound_given(
+    s: &Scenario,
+    given: &FidelityGiven,
+    target: &[f64; 4],
+    options: &SelfTestOptions,
+) -> Result<FidelityBound> {
     let start = std::time::Instant::now();
     check_shape(s, &options.questions)?;
-    if !score.is_finite() {
-        return Err(Error::InvalidArgument(format!(
-            "the score {score} is not a finite number"
-        )));
-    }
     let level = options.level.clone().unwrap_or_else(default_level);
+    let score = match given {
+        FidelityGiven::Score(score) => {
+            if !score.is_finite() {
+                return Err(Error::InvalidArgument(format!(
+                    "the score {score} is not a finite number"
+                )));
+            }
+            Some(*score)
+        }
+        FidelityGiven::Region(region) => {
+            let distance = super::membership::region_distance(s, region, &level, options.backend)?;
+            if distance.proven_outside() {
+                return Err(Error::InvalidArgument(format!(
+                    "no quantum behaviour (NPA level {}) lies in the region: it is at least {:.3e} away, proven from the dual",
+                    level.name(),
+                    distance.verified_lower
+                )));
+            }
+            None
+        }
+    };
     let (r, _) = npa::sized_relaxation(
         s,
         &npa::NpaOptions {
@@ -352,32 +400,102 @@ pub fn fidelity_bound(
             }
         }
     }
-    // The score constraint: value(y) = c·y + c0 ≥ score.
-    let value_terms: Vec<(usize, f64)> = r
-        .problem
-        .objective
-        .iter()
-        .enumerate()
-        .filter(|(_, c)| **c != 0.0)
-        .map(|(k, &c)| (k, -c))
-        .collect();
-    problem
-        .inequalities
-        .push((value_terms, r.problem.objective_constant - score));
+    match given {
+        FidelityGiven::Score(score) => {
+            // The score constraint: value(y) = c·y + c0 ≥ score.
+            let value_terms: Vec<(usize, f64)> = r
+                .problem
+                .objective
+                .iter()
+                .enumerate()
+                .filter(|(_, c)| **c != 0.0)
+                .map(|(k, &c)| (k, -c))
+                .collect();
+            problem
+                .inequalities
+                .push((value_terms, r.problem.objective_constant - score));
+        }
+        FidelityGiven::Region(region) => {
+            // lo ≤ p(a|q) ≤ hi for every probability, p(a|q) in Collins–Gisin moments.
+            let na = s.joint_answers();
+            if region.lower.len() != s.joint_questions() * na
+                || region.upper.len() != region.lower.len()
+            {
+                return Err(Error::InvalidArgument(format!(
+                    "the behaviour has {} probabilities, the game's players need {}",
+                    region.lower.len(),
+                    s.joint_questions() * na
+                )));
+            }
+            let cg = CollinsGisin::new(s);
+            for q in 0..s.joint_questions() {
+                for a in 0..na {
+                    let k = q * na + a;
+                    let (lo, hi) = (region.lower[k], region.upper[k]);
+                    if !(lo.is_finite() && hi.is_finite() && lo <= hi) {
+                        return Err(Error::InvalidArgument(format!(
+                            "the behaviour's interval {k} is empty or not a number"
+                        )));
+                    }
+                    let (words, mut constant) =
+                        super::membership::full_probability_terms(s, &cg, q, a);
+                    let mut terms: Vec<(usize, f64)> = Vec::new();
+                    for (w, c) in words {
+                        match by_key.get(&moment_key(w)) {
+                            Some(Entry::Moment(m)) => terms.push((*m, c)),
+                            Some(Entry::Identity) => constant += c,
+                            Some(Entry::Zero) => {}
+                            None => {
+                                return Err(Error::InvalidArgument(format!(
+                                    "NPA level {} does not contain the behaviour's moments",
+                                    level.name()
+                                )))
+                            }
+                        }
+                    }
+                    let negated: Vec<(usize, f64)> = terms.iter().map(|&(m, c)| (m, -c)).collect();
+                    problem.inequalities.push((terms, hi - constant));
+                    problem.inequalities.push((negated, constant - lo));
+                }
+            }
+        }
+    }
     problem.objective = objective;
     problem.objective_constant = constant;
-    let stage = format!("SWAP fidelity at score {score}");
+    let stage = match score {
+        Some(v) => format!("SWAP fidelity at score {v}"),
+        None => "SWAP fidelity of the behaviour".to_string(),
+    };
     let sol = backend::solve(&problem, options.backend, &stage).map_err(|e| match e {
         Error::Solver {
             status: Some(SolveStatus::Infeasible),
             ..
-        } => Error::InvalidArgument(format!(
-            "no quantum behaviour (NPA level {}) reaches the score {score}",
-            level.name()
-        )),
+        } => Error::InvalidArgument(match score {
+            Some(v) => format!(
+                "no quantum behaviour (NPA level {}) reaches the score {v}",
+                level.name()
+            ),
+            None => format!(
+                "no quantum behaviour (NPA level {}) lies in the region",
+                level.name()
+            ),
+        }),
         other => other,
     })?;
-    let chsh_value = chsh_form(s).map(|(kappa, lambda)| (score - kappa) / lambda);
+    let region_score_floor = match given {
+        FidelityGiven::Score(_) => None,
+        FidelityGiven::Region(region) => Some(
+            s.offset()
+                + s.objective()
+                    .iter()
+                    .zip(region.lower.iter().zip(&region.upper))
+                    .map(|(&c, (&lo, &hi))| if c >= 0.0 { c * lo } else { c * hi })
+                    .sum::<f64>(),
+        ),
+    };
+    let chsh_value = score
+        .or(region_score_floor)
+        .and_then(|v| chsh_form(s).map(|(kappa, lambda)| (v - kappa) / lambda));
     Ok(FidelityBound {
         score,
         // The SDP maximised −F: its verified upper bound is minus a verified lower bound on F.
@@ -389,6 +507,7 @@ pub fn fidelity_bound(
         target: *target,
         chsh_analytic: chsh_value.map(kaniewski_bound),
         chsh_value,
+        region_score_floor,
         seconds: start.elapsed().as_secs_f64(),
     })
 }
