@@ -1890,7 +1890,8 @@ fn design_and_self_test_answer_in_json_and_refuse_bad_noise() {
         ]);
         assert_eq!(out.status.code(), Some(2), "{target}");
     }
-    let out = bellgap(&["self-test", "games/cglmp-3.yaml", "--score", "0.5"]);
+    // Three players: no SWAP construction of two.
+    let out = bellgap(&["self-test", "games/ghz-3.yaml", "--score", "0.8"]);
     assert_eq!(out.status.code(), Some(2));
 }
 

@@ -708,7 +708,7 @@ def self_test(game: GameLike, score: Optional[float] = None, target=None,
               strategy: Optional[Strategy] = None, questions=None, level=None, dims=None,
               restarts=None, seed=None, behaviour=None, counts=None, alpha=None) -> Result:
     """A verified lower bound on the fidelity of the devices' state, extracted by local SWAP
-    isometries, with a target state (``bellgap self-test``; two players, binary questions):
+    isometries, with a target state (``bellgap self-test``; two players, two questions each):
     over every quantum behaviour scoring at least ``score``, or in the region of ``behaviour``
     or ``counts`` (a file's path, its YAML text or a dict; ``alpha`` the counts' error).
     ``target`` is four real amplitudes of |00>, |01>, |10>, |11>; by default the state the

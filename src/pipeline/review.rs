@@ -452,7 +452,7 @@ fn review_devices(
     let binary = s.players() == 2
         && s.parties()
             .iter()
-            .all(|p| p.questions() >= 2 && p.answers() == 2);
+            .all(|p| p.questions() >= 2 && p.answers() >= 2);
     match (&report.seesaw, binary) {
         (Some(sw), true) => {
             let options = SelfTestOptions::default();
@@ -467,7 +467,8 @@ fn review_devices(
             .notes
             .push("state fidelity: needs the see-saw's strategy for its target".into()),
         (_, false) => out.notes.push(
-            "state fidelity: the SWAP construction needs two players with two binary questions each".into(),
+            "state fidelity: the SWAP construction needs two players with two questions each"
+                .into(),
         ),
     }
     let design = DesignOptions {

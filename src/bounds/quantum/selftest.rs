@@ -2,8 +2,8 @@
 //! from an observed score, by the SWAP-isometry relaxation (Yang, Vértesi, Bancal, Scarani &
 //! Navascués, PRL 113, 040401 (2014); Bancal et al., PRA 91, 022115 (2015); from memory).
 //!
-//! Each of two players takes two of its binary measurements, with answer-0 projectors `P` and
-//! `Q`, and builds the involutions `Z = 2P − 1` and `X = 2Q − 1`. The partial SWAP circuit with
+//! Each of two players takes two of its measurements, with answer-0 projectors `P` and `Q` (for
+//! more than two answers, answer 0 against the rest), and builds the involutions `Z = 2P − 1` and `X = 2Q − 1`. The partial SWAP circuit with
 //! a qubit ancilla maps the player's system to `|0⟩ ⊗ K₀|ψ⟩ + |1⟩ ⊗ K₁|ψ⟩` with `K₀ = (1 + Z)/2 =
 //! P` and `K₁ = X(1 − Z)/2`; since `K₀†K₀ + K₁†K₁ = P + (1 − P) = 1`, that is an isometry for any
 //! devices. The two ancillas then hold `ρ_(ij),(kl) = ⟨(K_k ⊗ K_l)†(K_i ⊗ K_j)⟩`, and its fidelity
@@ -107,8 +107,9 @@ pub struct FidelityBound {
     pub seconds: f64,
 }
 
-/// Checks that the game and the chosen questions allow the SWAP construction: two players,
-/// each chosen question with two answers, two different questions per player.
+/// Checks that the game and the chosen questions allow the SWAP construction: two players, two
+/// different questions per player, each with at least two answers (with more, `P` is the
+/// projector of answer 0 against the rest: any projector builds an involution).
 fn check_shape(s: &Scenario, questions: &[[usize; 2]; 2]) -> Result<()> {
     if s.players() != 2 {
         return Err(Error::InvalidArgument(format!(
@@ -130,11 +131,10 @@ fn check_shape(s: &Scenario, questions: &[[usize; 2]; 2]) -> Result<()> {
                     p.name
                 )));
             }
-            if p.answers() != 2 {
+            if p.answers() < 2 {
                 return Err(Error::InvalidArgument(format!(
-                    "{} has {} answers: the SWAP construction needs binary measurements",
-                    p.name,
-                    p.answers()
+                    "{} has one answer: the SWAP construction needs two",
+                    p.name
                 )));
             }
         }
