@@ -234,7 +234,8 @@ pub enum Command {
         svg: Option<PathBuf>,
     },
     /// Self-testing: a verified lower bound on the fidelity of the devices' state (extracted by
-    /// local SWAP isometries) with a target state, from a score, a behaviour or counts (two players, two questions each).
+    /// local SWAP isometries) with a target state, from a score, a behaviour or counts (two
+    /// players, two questions each).
     SelfTest {
         #[command(flatten)]
         args: GameArgs,
