@@ -383,3 +383,48 @@ fn with_the_no_click_as_an_answer_of_its_own_the_clauser_horne_expression_needs_
     assert!(b.above > 2.0 / 3.0 && b.above < 2.0 / 3.0 + 0.01, "{b:?}");
     assert_eq!(t.at_upper.no_click_answers, vec![vec![2, 2], vec![2, 2]]);
 }
+
+#[test]
+fn randomness_and_entropy_need_about_two_thirds_efficiency_on_chsh() {
+    // Any CHSH score above 3/4 certifies some randomness of Alice's answer (and a positive
+    // conditional entropy: 1 − h((1 + √((S/2)² − 1))/2) > 0 for S > 2, Pironio et al., NJP 11,
+    // 045021 (2009)), so both thresholds sit at the violation's, 2/3 (Eberhard 1993), up to what
+    // the relaxations can certify a hair above the classical value.
+    let game = chsh();
+    for (figure, within) in [
+        (DesignFigure::MinEntropy, 0.01),
+        (DesignFigure::Entropy, 0.02),
+    ] {
+        let r = design(
+            &game,
+            &DesignRequest {
+                figure,
+                design: options(NoiseModel::default(), StateChoice::Optimised),
+                threshold: Some(ThresholdOptions {
+                    parameter: NoiseParameter::Efficiency,
+                    tolerance: 1e-3,
+                    curve_points: 0,
+                }),
+                tangents: 8,
+                ..Default::default()
+            },
+            &Silent,
+        )
+        .unwrap();
+        let t = r.threshold.as_ref().unwrap();
+        let b = t.bracket.unwrap();
+        assert!(
+            b.above > 2.0 / 3.0 && b.above < 2.0 / 3.0 + within,
+            "{figure:?}: {b:?}"
+        );
+        assert!(r.value.value > 0.0);
+        // Without loss the best implementation's figure is close to a full bit (the optimum
+        // at Tsirelson's bound).
+        let top = t.curve.last().unwrap();
+        assert_eq!(top.parameter, 1.0);
+        assert!(
+            top.figure > 0.95 && top.figure <= 1.0 + 1e-12,
+            "{figure:?}: {top:?}"
+        );
+    }
+}

@@ -231,8 +231,16 @@ impl Figures<'_> {
             .preprocessing
             .apply_to_rows(&key_pair_table(self.s, &p, a, b));
         let entries = table.iter().map(Vec::len).sum::<usize>() as f64;
-        // Each probability within per_probability (and its own few roundings) of the exact.
-        let distance = entries * (per_probability + 8.0 * f64::EPSILON) / 2.0;
+        // Each ideal probability is within per_probability of the exact one; the channels add
+        // up to Σ_a K(a'|a) ≤ |A| of them into one noisy probability, per player (and a few
+        // roundings of their own).
+        let amplification: f64 = self
+            .s
+            .parties()
+            .iter()
+            .map(|p| p.answers() as f64)
+            .product();
+        let distance = entries * (amplification * per_probability + 8.0 * f64::EPSILON) / 2.0;
         Ok((error_correction_entropy_within(&table, distance)?, table))
     }
 
