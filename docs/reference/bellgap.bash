@@ -2127,7 +2127,7 @@ _bellgap() {
             return 0
             ;;
         bellgap__subcmd__verify)
-            opts="-q -h --json --quiet --force --allow-large --help"
+            opts="-q -h --json --quiet --force --allow-large --exact --help"
             if [[ ${cur} == -* || ${COMP_CWORD} -eq 2 ]] ; then
                 COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
                 return 0

@@ -299,6 +299,7 @@ complete -c bellgap -n "__fish_bellgap_using_subcommand verify" -l json -d 'Prin
 complete -c bellgap -n "__fish_bellgap_using_subcommand verify" -s q -l quiet -d 'No progress output on stderr'
 complete -c bellgap -n "__fish_bellgap_using_subcommand verify" -l force -d 'Run even when the size estimate says it would take very long'
 complete -c bellgap -n "__fish_bellgap_using_subcommand verify" -l allow-large -d 'Build game tables larger than the default memory limit'
+complete -c bellgap -n "__fish_bellgap_using_subcommand verify" -l exact -d 'Also prove the bound in exact rational arithmetic (the dual rounded to rationals, its positive semidefiniteness proven exactly) and print it as a fraction'
 complete -c bellgap -n "__fish_bellgap_using_subcommand verify" -s h -l help -d 'Print help (see more with \'--help\')'
 complete -c bellgap -n "__fish_bellgap_using_subcommand local" -l save -d 'Write the separating Bell expression (if any) as a game file here' -r -F
 complete -c bellgap -n "__fish_bellgap_using_subcommand local" -l counts -d 'The file is a counts file: the test runs on its frequencies, with its rounds for the signalling p-value'

@@ -492,6 +492,10 @@ pub enum Command {
         args: GameArgs,
         /// Certificate written by `bellgap npa --certificate`.
         certificate: PathBuf,
+        /// Also prove the bound in exact rational arithmetic (the dual rounded to rationals,
+        /// its positive semidefiniteness proven exactly) and print it as a fraction.
+        #[arg(long)]
+        exact: bool,
     },
     /// Decide whether given correlations p(answers|questions) have a local model.
     Local {

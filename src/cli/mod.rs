@@ -517,11 +517,12 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             game,
             certificate,
             limits,
+            exact,
         } => {
             let game = load(game)?;
             let cert = Certificate::from_file(certificate)?;
             let source = certificate.to_string_lossy();
-            let r = pipeline::verify(&game, &cert, &source, limits)?;
+            let r = pipeline::verify(&game, &cert, &source, limits, *exact)?;
             Ok(output(text::verify(&r), &r, &game.warnings))
         }
         Request::Local {

@@ -281,6 +281,7 @@ pub enum Request {
         game: GameInput,
         certificate: PathBuf,
         limits: Limits,
+        exact: bool,
     },
     /// `local`.
     Local {
@@ -902,10 +903,15 @@ impl Invocation {
                 },
                 output: output.clone(),
             },
-            Command::Verify { args, certificate } => Request::Verify {
+            Command::Verify {
+                args,
+                certificate,
+                exact,
+            } => Request::Verify {
                 game: game_input(args),
                 certificate: certificate.clone(),
                 limits: limits(args.force),
+                exact: *exact,
             },
             Command::Local {
                 correlations,

@@ -434,6 +434,8 @@ pub struct VerifyReport<'a> {
     pub certificate: String,
     /// The recomputed bound.
     pub verification: Verification,
+    /// The bound proven in exact rational arithmetic, when asked.
+    pub exact: Option<crate::bounds::quantum::npa::ExactVerification>,
 }
 
 /// The `verify` command: recompute the bound a certificate proves, without any solver.
@@ -442,13 +444,23 @@ pub fn verify<'a>(
     certificate: &Certificate,
     source: &str,
     limits: &Limits,
+    exact: bool,
 ) -> Result<VerifyReport<'a>> {
     let verification =
         npa::verify(&game.scenario, certificate, limits).map_err(|e| e.in_file(source))?;
+    let exact = if exact {
+        Some(
+            npa::verify_exact(&game.scenario, certificate, limits)
+                .map_err(|e| e.in_file(source))?,
+        )
+    } else {
+        None
+    };
     Ok(VerifyReport {
         game,
         certificate: source.to_string(),
         verification,
+        exact,
     })
 }
 

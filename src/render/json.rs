@@ -754,6 +754,8 @@ struct VerifyView<'a> {
     verified_upper: f64,
     claimed: f64,
     matches_claim: bool,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    exact: Option<&'a crate::optim::exact::ExactBound>,
 }
 
 impl Serialize for VerifyReport<'_> {
@@ -768,6 +770,7 @@ impl Serialize for VerifyReport<'_> {
             verified_upper: v.verified_upper,
             claimed: v.claimed,
             matches_claim: v.matches_claim,
+            exact: self.exact.as_ref().map(|e| &e.exact),
         }
         .serialize(serializer)
     }

@@ -495,6 +495,28 @@ pub fn verify(report: &VerifyReport) -> String {
     if !v.matches_claim {
         out += "warning: the recomputed bound is larger than the one the file claims; the recomputed one holds\n";
     }
+    if let Some(e) = &report.exact {
+        out += &table(&[
+            (
+                "proven exactly ≤".into(),
+                format!("{} (rounded up)", num_sig(e.exact.rounded_up, 17)),
+            ),
+            ("as a fraction".into(), e.exact.fraction.clone()),
+            (
+                "PSD shifts".into(),
+                e.exact
+                    .shifts
+                    .iter()
+                    .map(|v| format!("{v:.1e}"))
+                    .collect::<Vec<_>>()
+                    .join(", "),
+            ),
+            (
+                "residual charge".into(),
+                format!("{:.1e}", e.exact.residual_charge),
+            ),
+        ]);
+    }
     out
 }
 

@@ -1,0 +1,92 @@
+//! Bounds that are theorems: NPA certificates re-proven in exact rational arithmetic, against
+//! published values (the source beside each), and tampered certificates refused.
+
+use bellgap::bounds::quantum::npa::{self, Level, NpaOptions};
+use bellgap::formats::game::{families, CompileOptions, Game};
+use bellgap::Limits;
+
+fn game(name: &str) -> Game {
+    Game::from_file(
+        &format!("{}/games/{name}.yaml", env!("CARGO_MANIFEST_DIR")),
+        CompileOptions::default(),
+    )
+    .unwrap()
+}
+
+/// The exact bound of a fresh certificate at `level`, with the floating verified bound.
+fn proven(g: &Game, level: &str) -> (f64, f64, npa::ExactVerification) {
+    let bound = npa::npa_bound(&g.scenario, &NpaOptions::at(Level::parse(level).unwrap())).unwrap();
+    let cert = npa::certificate(&g.name, &g.scenario, &bound).unwrap();
+    let exact = npa::verify_exact(&g.scenario, &cert, &Limits::default()).unwrap();
+    (exact.exact.rounded_up, bound.verified_upper, exact)
+}
+
+#[test]
+fn published_bounds_are_proven_exactly_within_1e_8_of_the_floating_ones() {
+    let cglmp = |d: usize| Game::from_spec(&families::cglmp(d).unwrap(), "cglmp").unwrap();
+    // (game, level, the true quantum value or a published lower bound on it)
+    let cases: Vec<(Game, &str, f64)> = vec![
+        // Tsirelson (1980): cos²(π/8).
+        (
+            game("chsh"),
+            "2",
+            (std::f64::consts::PI / 8.0).cos().powi(2),
+        ),
+        // CGLMP, Collins et al., PRL 88, 040404 (2002); the maximal violations 2.9149, 2.9727,
+        // 3.0157 for d = 3, 4, 5 (Navascués, Pironio, Acín 2008; from memory).
+        (game("cglmp-3"), "1+joint", 2.914_854),
+        (cglmp(4), "1+joint", 2.972_698),
+        (cglmp(5), "1+joint", 3.015_710),
+        // The magic square is won with certainty by quantum players (Mermin 1990; Peres 1990).
+        (game("magic-square"), "1+joint", 1.0),
+        // I3322: 0.25087538 (Pál & Vértesi, PRA 82, 022116 (2010); from memory).
+        (game("i3322"), "3", 0.250_875_3),
+        (game("i3322"), "4", 0.250_875_3),
+    ];
+    for (g, level, truth) in cases {
+        let (exact, float, e) = proven(&g, level);
+        assert!(
+            exact >= truth - 1e-12,
+            "{} {level}: {exact} below {truth}",
+            g.name
+        );
+        assert!(
+            (exact - float).abs() < 1e-8,
+            "{} {level}: exact {exact} vs {float}",
+            g.name
+        );
+        // The fraction is the exact bound; its decimal is rounded up.
+        let (num, den) = e.exact.fraction.split_once('/').unwrap();
+        assert!(!num.is_empty() && !den.is_empty());
+    }
+}
+
+#[test]
+fn tampered_or_foreign_certificates_are_refused() {
+    let g = game("chsh");
+    let bound = npa::npa_bound(&g.scenario, &NpaOptions::at(Level::Length(2))).unwrap();
+    let cert = npa::certificate(&g.name, &g.scenario, &bound).unwrap();
+    let limits = Limits::default();
+    // One dual entry changed.
+    let mut tampered = cert.clone();
+    let k = tampered.dual.len() - 1;
+    tampered.dual[k] += 0.01;
+    assert!(npa::verify_exact(&g.scenario, &tampered, &limits).is_err());
+    // A claim below the true value (Tsirelson's cos²(π/8) = 0.853553390593…) never verifies.
+    let mut greedy = cert.clone();
+    greedy.verified_upper = 0.853_553_390_5;
+    assert!(npa::verify_exact(&g.scenario, &greedy, &limits).is_err());
+    // Another game's table.
+    let other = game("odd-cycle-3");
+    assert!(npa::verify_exact(&other.scenario, &cert, &limits).is_err());
+    // A dual vector one entry short.
+    let mut short = cert.clone();
+    short.dual.pop();
+    assert!(npa::verify_exact(&g.scenario, &short, &limits).is_err());
+    // I3322 below its value: 0.2508753 is under the true 0.25087538.
+    let i = game("i3322");
+    let b = npa::npa_bound(&i.scenario, &NpaOptions::at(Level::Length(3))).unwrap();
+    let mut low = npa::certificate(&i.name, &i.scenario, &b).unwrap();
+    low.verified_upper = 0.250_875_3;
+    assert!(npa::verify_exact(&i.scenario, &low, &limits).is_err());
+}
