@@ -90,3 +90,29 @@ fn tampered_or_foreign_certificates_are_refused() {
     low.verified_upper = 0.250_875_3;
     assert!(npa::verify_exact(&i.scenario, &low, &limits).is_err());
 }
+
+#[test]
+fn a_plain_certificate_holds_the_table_the_words_and_a_claim_just_above_the_exact_bound() {
+    let g = game("chsh");
+    let bound = npa::npa_bound(&g.scenario, &NpaOptions::at(Level::Length(2))).unwrap();
+    let plain = npa::plain_certificate(&g.name, &g.scenario, &bound).unwrap();
+    let text = plain.to_text();
+    assert!(text.starts_with("bellgap plain certificate 1\n") && text.ends_with("end\n"));
+    // 16 table entries, each w(q)·V(a|q) ∈ {0, 1/4} for CHSH; 13 generating words at level 2.
+    assert_eq!(text.lines().filter(|l| l.starts_with("c ")).count(), 16);
+    assert!(text
+        .lines()
+        .filter(|l| l.starts_with("c "))
+        .all(|l| l == "c 0" || l == "c 1/4"));
+    assert_eq!(text.lines().filter(|l| l.starts_with('w')).count(), 14); // `words 13` + 13
+    let cert = npa::certificate(&g.name, &g.scenario, &bound).unwrap();
+    let exact = npa::verify_exact(&g.scenario, &cert, &Limits::default()).unwrap();
+    let (n, d) = plain.claim.split_once('/').unwrap();
+    let claim = n.parse::<f64>().unwrap() / d.parse::<f64>().unwrap();
+    assert!(
+        claim >= exact.exact.rounded_up && claim < exact.exact.rounded_up + 1e-11,
+        "{claim}"
+    );
+    // The claim never undercuts Tsirelson's bound.
+    assert!(claim > (std::f64::consts::PI / 8.0).cos().powi(2));
+}

@@ -1851,7 +1851,7 @@ _bellgap() {
             return 0
             ;;
         bellgap__subcmd__npa)
-            opts="-q -h --json --quiet --force --allow-large --level --certificate --svg --solver --symmetry --budget --help"
+            opts="-q -h --json --quiet --force --allow-large --level --certificate --exact-certificate --svg --solver --symmetry --budget --help"
             if [[ ${cur} == -* || ${COMP_CWORD} -eq 2 ]] ; then
                 COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
                 return 0
@@ -1862,6 +1862,10 @@ _bellgap() {
                     return 0
                     ;;
                 --certificate)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --exact-certificate)
                     COMPREPLY=($(compgen -f "${cur}"))
                     return 0
                     ;;

@@ -90,6 +90,7 @@ complete -c bellgap -n "__fish_bellgap_using_subcommand bounds" -l json-lines -d
 complete -c bellgap -n "__fish_bellgap_using_subcommand bounds" -s h -l help -d 'Print help (see more with \'--help\')'
 complete -c bellgap -n "__fish_bellgap_using_subcommand npa" -l level -d '`1`, `2`, ... (all words up to that length), `1+joint` (level 1 plus products of one operator per player), or patterns of player letters such as "1 A B AB AA". Several levels separated by `;` are compared (e.g. "1;1+joint;2")' -r
 complete -c bellgap -n "__fish_bellgap_using_subcommand npa" -l certificate -d 'Write the dual certificate (JSON) of the last level here; `bellgap verify` re-checks it' -r -F
+complete -c bellgap -n "__fish_bellgap_using_subcommand npa" -l exact-certificate -d 'Write the last level\'s bound as a plain certificate (text, exact fractions) that `scripts/check_certificate.py` re-proves with Python\'s standard library alone' -r -F
 complete -c bellgap -n "__fish_bellgap_using_subcommand npa" -l svg -d 'Plot the verified bound against the level (SVG), when comparing levels' -r -F
 complete -c bellgap -n "__fish_bellgap_using_subcommand npa" -l solver -d 'SDP solver: our interior-point method (`ipm`), `clarabel`, our first-order method (`first-order`), or `auto` (chosen from cost estimates, with fallbacks)' -r -f -a "auto\t''
 ipm\t''

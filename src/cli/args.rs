@@ -125,6 +125,10 @@ pub enum Command {
         /// Write the dual certificate (JSON) of the last level here; `bellgap verify` re-checks it.
         #[arg(long, value_name = "FILE")]
         certificate: Option<PathBuf>,
+        /// Write the last level's bound as a plain certificate (text, exact fractions) that
+        /// `scripts/check_certificate.py` re-proves with Python's standard library alone.
+        #[arg(long, value_name = "FILE")]
+        exact_certificate: Option<PathBuf>,
         /// Plot the verified bound against the level (SVG), when comparing levels.
         #[arg(long, value_name = "FILE")]
         svg: Option<PathBuf>,

@@ -242,10 +242,19 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             game,
             options,
             certificate,
+            exact_certificate,
             svg,
         } => {
             let game = load(game)?;
             let r = pipeline::npa_levels(&game, options, &observer)?;
+            if let Some(file) = exact_certificate {
+                let bound = r
+                    .npa
+                    .as_ref()
+                    .ok_or_else(|| Error::solver("NPA", "no bound to certify"))?;
+                let plain = npa::plain_certificate(&game.name, &game.scenario, bound)?;
+                write(file, &plain.to_text(), inputs)?;
+            }
             if let Some(file) = svg {
                 write(file, &charts::npa_levels(&r), inputs)?;
             }

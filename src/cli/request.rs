@@ -201,6 +201,7 @@ pub enum Request {
         game: GameInput,
         options: NpaLevelsOptions,
         certificate: Option<PathBuf>,
+        exact_certificate: Option<PathBuf>,
         svg: Option<PathBuf>,
     },
     /// `seesaw`.
@@ -551,6 +552,7 @@ impl Invocation {
                 args,
                 level,
                 certificate,
+                exact_certificate,
                 svg,
                 solver,
                 symmetry: sym,
@@ -565,6 +567,7 @@ impl Invocation {
                     limits: limits(args.force),
                 },
                 certificate: certificate.clone(),
+                exact_certificate: exact_certificate.clone(),
                 svg: svg.clone(),
             },
             Command::Seesaw {

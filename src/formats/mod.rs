@@ -12,5 +12,6 @@ pub mod files;
 pub mod formula;
 pub mod game;
 pub(crate) mod located;
+pub mod plain_certificate;
 pub mod protocol_file;
 pub mod strategy_file;

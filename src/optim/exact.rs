@@ -65,7 +65,7 @@ pub fn round_up(q: &BigRational) -> f64 {
 /// One block's dual matrix rounded to a grid 2^(−2b), with b chosen so that every integer
 /// below fits in 127 bits, and the shift that proves it PSD: the rounded numerators, the bits
 /// `2b` of their denominator, and ρ as a rational.
-fn proven_psd(z: &DMatrix<f64>) -> Result<(Vec<Vec<i128>>, u32, BigRational)> {
+fn proven_psd(z: &DMatrix<f64>) -> Result<(Vec<Vec<i128>>, u32, BigRational, PsdProof)> {
     let n = z.nrows();
     let overflow = || {
         Error::solver(
@@ -125,15 +125,63 @@ fn proven_psd(z: &DMatrix<f64>) -> Result<(Vec<Vec<i128>>, u32, BigRational)> {
         }
         rho_num = rho_num.max(row_sum);
     }
+    let proof = PsdProof {
+        size: n,
+        z_bits: 2 * b,
+        z: (0..n)
+            .flat_map(|r| (r..n).map(move |c| (r, c)))
+            .filter(|&(r, c)| zi[r][c] != 0)
+            .map(|(r, c)| (r, c, zi[r][c]))
+            .collect(),
+        l_bits: b,
+        l: l.iter()
+            .enumerate()
+            .flat_map(|(r, row)| {
+                row.iter()
+                    .enumerate()
+                    .filter(|(_, v)| **v != 0)
+                    .map(move |(t, &v)| (r, t, v))
+            })
+            .collect(),
+        rho: rho_num,
+    };
     Ok((
         zi,
         2 * b,
         BigRational::new(BigInt::from(rho_num), pow2(2 * b)),
+        proof,
     ))
+}
+
+/// The exact PSD proof of one dual matrix, for a plain certificate: `Z = z/2^z_bits` (upper
+/// triangle, non-zero entries), `L = l/2^l_bits` (non-zero entries), and `ρ = rho/2^z_bits`
+/// with `Z + ρI − LLᵀ` diagonally dominant with a non-negative diagonal (`z_bits = 2·l_bits`).
+#[derive(Debug, Clone)]
+pub struct PsdProof {
+    /// Side of the matrix.
+    pub size: usize,
+    /// Bits of Z's (and ρ's) denominator.
+    pub z_bits: u32,
+    /// Z's upper-triangle numerators (row, column, numerator), non-zero ones.
+    pub z: Vec<(usize, usize, i128)>,
+    /// Bits of L's denominator.
+    pub l_bits: u32,
+    /// L's numerators (row, column, numerator), non-zero ones.
+    pub l: Vec<(usize, usize, i128)>,
+    /// ρ's numerator.
+    pub rho: i128,
 }
 
 /// The exact bound a dual vector (in [`SdpProblem::assemble`]'s layout) proves for `problem`.
 pub fn exact_bound(problem: &SdpProblem, z: &[f64]) -> Result<ExactBound> {
+    exact_bound_with_proofs(problem, z).map(|(b, _)| b)
+}
+
+/// [`exact_bound`], with each block's PSD proof (for a plain certificate).
+pub fn exact_bound_with_proofs(
+    problem: &SdpProblem,
+    z: &[f64],
+) -> Result<(ExactBound, Vec<PsdProof>)> {
     let assembled = problem.assemble();
     if z.len() != assembled.b.len() {
         return Err(Error::solver(
@@ -177,6 +225,7 @@ pub fn exact_bound(problem: &SdpProblem, z: &[f64]) -> Result<ExactBound> {
     }
     let mut offset = ne + ni;
     let mut shifts = Vec::with_capacity(problem.blocks.len());
+    let mut proofs = Vec::with_capacity(problem.blocks.len());
     for block in &problem.blocks {
         let n = block.size;
         let mut zm = DMatrix::zeros(n, n);
@@ -192,7 +241,8 @@ pub fn exact_bound(problem: &SdpProblem, z: &[f64]) -> Result<ExactBound> {
                 zm[(col, row)] = v;
             }
         }
-        let (zi, bits, rho) = proven_psd(&zm)?;
+        let (zi, bits, rho, proof) = proven_psd(&zm)?;
+        proofs.push(proof);
         shifts.push(round_up(&rho));
         // ⟨Z', F⟩ over the upper triangle (off-diagonal entries count twice), Z' = Z + ρ I.
         let denominator = pow2(bits);
@@ -227,12 +277,15 @@ pub fn exact_bound(problem: &SdpProblem, z: &[f64]) -> Result<ExactBound> {
         }
     }
     bound += &charge;
-    Ok(ExactBound {
-        fraction: format!("{}/{}", bound.numer(), bound.denom()),
-        rounded_up: round_up(&bound),
-        shifts,
-        residual_charge: round_up(&charge),
-    })
+    Ok((
+        ExactBound {
+            fraction: format!("{}/{}", bound.numer(), bound.denom()),
+            rounded_up: round_up(&bound),
+            shifts,
+            residual_charge: round_up(&charge),
+        },
+        proofs,
+    ))
 }
 
 #[cfg(test)]

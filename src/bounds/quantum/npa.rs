@@ -938,6 +938,59 @@ pub fn certificate(game: &str, s: &Scenario, bound: &NpaBound) -> Option<Certifi
     })
 }
 
+/// The plain certificate of an NPA bound (see [`crate::formats::plain_certificate`]): the
+/// relaxation rebuilt in full, the bound proven exactly from the solution's dual, the game's
+/// table and the generating words written out.
+pub fn plain_certificate(
+    game: &str,
+    s: &Scenario,
+    bound: &NpaBound,
+) -> Result<crate::formats::plain_certificate::PlainCertificate> {
+    let sol = bound
+        .solution
+        .as_ref()
+        .ok_or_else(|| Error::solver("NPA", "no dual solution to write"))?;
+    let r = relaxation(s, &bound.level)?;
+    let (exact, mut proofs) = crate::optim::exact::exact_bound_with_proofs(&r.problem, &sol.z)?;
+    let proof = proofs
+        .pop()
+        .filter(|_| proofs.is_empty())
+        .ok_or_else(|| Error::solver("NPA", "expected one moment matrix"))?;
+    Ok(crate::formats::plain_certificate::PlainCertificate {
+        game: game.to_string(),
+        players: s
+            .parties()
+            .iter()
+            .map(|p| (p.name.clone(), p.questions(), p.answers()))
+            .collect(),
+        offset: s.offset(),
+        table: s.objective().to_vec(),
+        words: r
+            .matrix
+            .words
+            .iter()
+            .map(|w| {
+                w.iter()
+                    .map(|p| (p.player as usize, p.setting as usize, p.outcome as usize))
+                    .collect()
+            })
+            .collect(),
+        // A hair above the exact bound (1e-12 relative), so that an independent exact check
+        // that rebuilds the value from the table (summing it in another order) meets it.
+        claim: {
+            let claim = (exact.rounded_up + 1e-12 * (1.0 + exact.rounded_up.abs())).next_up();
+            let q = num_rational::BigRational::from_float(claim)
+                .ok_or_else(|| Error::solver("NPA", "the exact bound is not finite"))?;
+            format!("{}/{}", q.numer(), q.denom())
+        },
+        z_bits: proof.z_bits,
+        z: proof.z,
+        l_bits: proof.l_bits,
+        l: proof.l,
+        rho: proof.rho,
+    })
+}
+
 /// Result of re-checking a certificate.
 #[derive(Debug, Clone, Serialize)]
 pub struct Verification {
