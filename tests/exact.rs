@@ -116,3 +116,87 @@ fn a_plain_certificate_holds_the_table_the_words_and_a_claim_just_above_the_exac
     // The claim never undercuts Tsirelson's bound.
     assert!(claim > (std::f64::consts::PI / 8.0).cos().powi(2));
 }
+
+#[test]
+fn an_sdpa_export_reads_back_and_an_external_dual_is_verified_on_our_relaxation() {
+    use bellgap::optim::sdpa::SdpaProblem;
+    let g = game("i3322");
+    let level = Level::Length(2);
+    let (text, words) = npa::sdpa_export(&g.scenario, &level, &Limits::default()).unwrap();
+    // Read back by our own parser: the same problem as exported.
+    let r = npa::relaxation(&g.scenario, &level).unwrap();
+    let exported = SdpaProblem::from_problem(&r.problem);
+    assert_eq!(SdpaProblem::parse(&text).unwrap(), exported);
+    assert_eq!(words.lines().count(), r.matrix.moments.len() + 1);
+    // c = −b, and the identity entries are F_0 = −1.
+    assert!(exported
+        .c
+        .iter()
+        .zip(&r.problem.objective)
+        .all(|(c, b)| *c == -b));
+    // A dual in SDPA's output format (here our own solver's, written as an external solver
+    // would) is verified on our relaxation: the same bound as our own certificate's.
+    let bound = npa::npa_bound(
+        &g.scenario,
+        &NpaOptions {
+            symmetry: bellgap::bounds::quantum::symmetric::SymmetryChoice::Off,
+            ..NpaOptions::at(level.clone())
+        },
+    )
+    .unwrap();
+    let cert = npa::certificate(&g.name, &g.scenario, &bound).unwrap();
+    let n = r.matrix.size();
+    let mut z = vec![vec![0.0; n]; n];
+    let mut k = 0;
+    for col in 0..n {
+        for row in 0..=col {
+            let v = if row == col {
+                cert.dual[k]
+            } else {
+                cert.dual[k] / std::f64::consts::SQRT_2
+            };
+            z[row][col] = v;
+            z[col][row] = v;
+            k += 1;
+        }
+    }
+    let rows: Vec<String> = z
+        .iter()
+        .map(|r| {
+            format!(
+                "{{{}}}",
+                r.iter()
+                    .map(|v| format!("{v:e}"))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            )
+        })
+        .collect();
+    let garbage: Vec<String> = (0..n)
+        .map(|_| format!("{{{}}}", vec!["1.0"; n].join(", ")))
+        .collect();
+    let output = format!(
+        "objValPrimal = 0.25\nxVec = \n{{0}}\nxMat = \n{{\n{{ {} }}\n}}\nyMat = \n{{\n{{ {} }}\n}}\n",
+        garbage.join(", "),
+        rows.join(", ")
+    );
+    let imported =
+        npa::sdpa_import(&g.scenario, &level, &output, true, &Limits::default()).unwrap();
+    assert_eq!(imported.matrix, "yMat");
+    assert!(
+        (imported.verified_upper - bound.verified_upper).abs() < 1e-9,
+        "{imported:?}"
+    );
+    let exact = imported.exact.unwrap().rounded_up;
+    // I3322 at level 2 is above the true value 0.2508753 (Pál & Vértesi 2010, from memory).
+    assert!(exact >= 0.250_875_3 && (exact - bound.verified_upper).abs() < 1e-8);
+    // A solution of another shape is refused.
+    assert!(npa::sdpa_import(
+        &g.scenario,
+        &Level::Length(3),
+        &output,
+        false,
+        &Limits::default()
+    )
+    .is_err());
+}

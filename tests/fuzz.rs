@@ -349,6 +349,16 @@ proptest! {
     }
 
     #[test]
+    fn sdpa_files_and_solutions_never_panic(text in mutated(
+        "\"comment\n2 = mDIM\n1 = nBLOCK\n2 = bLOCKsTRUCT\n-1.0 0.5\n0 1 1 1 -1.0\n1 1 1 2 1.0\n2 1 2 2 1.0\nxMat = \n{\n{ {1, 0}, {0, 1} }\n}\nyMat = {\n{ {0.5, -0.5}, {-0.5, 0.5} }\n}\n".to_string())) {
+        let r = catch_unwind(AssertUnwindSafe(|| {
+            let _ = bellgap::optim::sdpa::SdpaProblem::parse(&text);
+            let _ = bellgap::optim::sdpa::parse_solution(&text);
+        }));
+        prop_assert!(r.is_ok(), "panic on\n{text}");
+    }
+
+    #[test]
     fn correlations_files_are_checked_without_panics(
         row in proptest::collection::vec(number(), 4),
         questions in prop_oneof![Just("[0, 0]"), Just("[0]"), Just("[5, 0]"), Just("[-1, 0]")],

@@ -1851,7 +1851,7 @@ _bellgap() {
             return 0
             ;;
         bellgap__subcmd__npa)
-            opts="-q -h --json --quiet --force --allow-large --level --certificate --exact-certificate --svg --solver --symmetry --budget --help"
+            opts="-q -h --json --quiet --force --allow-large --level --certificate --exact-certificate --sdpa --svg --solver --symmetry --budget --help"
             if [[ ${cur} == -* || ${COMP_CWORD} -eq 2 ]] ; then
                 COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
                 return 0
@@ -1866,6 +1866,10 @@ _bellgap() {
                     return 0
                     ;;
                 --exact-certificate)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --sdpa)
                     COMPREPLY=($(compgen -f "${cur}"))
                     return 0
                     ;;
@@ -2131,12 +2135,16 @@ _bellgap() {
             return 0
             ;;
         bellgap__subcmd__verify)
-            opts="-q -h --json --quiet --force --allow-large --exact --help"
+            opts="-q -h --json --quiet --force --allow-large --exact --sdpa-level --help"
             if [[ ${cur} == -* || ${COMP_CWORD} -eq 2 ]] ; then
                 COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
                 return 0
             fi
             case "${prev}" in
+                --sdpa-level)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
                 *)
                     COMPREPLY=()
                     ;;

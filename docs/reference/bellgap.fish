@@ -91,6 +91,7 @@ complete -c bellgap -n "__fish_bellgap_using_subcommand bounds" -s h -l help -d 
 complete -c bellgap -n "__fish_bellgap_using_subcommand npa" -l level -d '`1`, `2`, ... (all words up to that length), `1+joint` (level 1 plus products of one operator per player), or patterns of player letters such as "1 A B AB AA". Several levels separated by `;` are compared (e.g. "1;1+joint;2")' -r
 complete -c bellgap -n "__fish_bellgap_using_subcommand npa" -l certificate -d 'Write the dual certificate (JSON) of the last level here; `bellgap verify` re-checks it' -r -F
 complete -c bellgap -n "__fish_bellgap_using_subcommand npa" -l exact-certificate -d 'Write the last level\'s bound as a plain certificate (text, exact fractions) that `scripts/check_certificate.py` re-proves with Python\'s standard library alone' -r -F
+complete -c bellgap -n "__fish_bellgap_using_subcommand npa" -l sdpa -d 'Write the last level\'s full relaxation in the SDPA sparse format (FILE) and its moment map (FILE.words), for external solvers; `verify --sdpa-level` reads their solutions back' -r -F
 complete -c bellgap -n "__fish_bellgap_using_subcommand npa" -l svg -d 'Plot the verified bound against the level (SVG), when comparing levels' -r -F
 complete -c bellgap -n "__fish_bellgap_using_subcommand npa" -l solver -d 'SDP solver: our interior-point method (`ipm`), `clarabel`, our first-order method (`first-order`), or `auto` (chosen from cost estimates, with fallbacks)' -r -f -a "auto\t''
 ipm\t''
@@ -296,6 +297,7 @@ complete -c bellgap -n "__fish_bellgap_using_subcommand review" -l markdown -d '
 complete -c bellgap -n "__fish_bellgap_using_subcommand review" -l json -d 'Print exactly one JSON object on stdout instead of the report'
 complete -c bellgap -n "__fish_bellgap_using_subcommand review" -s q -l quiet -d 'No progress output on stderr'
 complete -c bellgap -n "__fish_bellgap_using_subcommand review" -s h -l help -d 'Print help'
+complete -c bellgap -n "__fish_bellgap_using_subcommand verify" -l sdpa-level -d 'The file is an external solver\'s solution in SDPA output format for the relaxation `npa --sdpa` exported at this level: its dual is verified on our own relaxation' -r
 complete -c bellgap -n "__fish_bellgap_using_subcommand verify" -l json -d 'Print exactly one JSON object on stdout'
 complete -c bellgap -n "__fish_bellgap_using_subcommand verify" -s q -l quiet -d 'No progress output on stderr'
 complete -c bellgap -n "__fish_bellgap_using_subcommand verify" -l force -d 'Run even when the size estimate says it would take very long'

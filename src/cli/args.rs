@@ -129,6 +129,11 @@ pub enum Command {
         /// `scripts/check_certificate.py` re-proves with Python's standard library alone.
         #[arg(long, value_name = "FILE")]
         exact_certificate: Option<PathBuf>,
+        /// Write the last level's full relaxation in the SDPA sparse format (FILE) and its
+        /// moment map (FILE.words), for external solvers; `verify --sdpa-level` reads their
+        /// solutions back.
+        #[arg(long, value_name = "FILE")]
+        sdpa: Option<PathBuf>,
         /// Plot the verified bound against the level (SVG), when comparing levels.
         #[arg(long, value_name = "FILE")]
         svg: Option<PathBuf>,
@@ -500,6 +505,10 @@ pub enum Command {
         /// its positive semidefiniteness proven exactly) and print it as a fraction.
         #[arg(long)]
         exact: bool,
+        /// The file is an external solver's solution in SDPA output format for the relaxation
+        /// `npa --sdpa` exported at this level: its dual is verified on our own relaxation.
+        #[arg(long, value_name = "LEVEL")]
+        sdpa_level: Option<String>,
     },
     /// Decide whether given correlations p(answers|questions) have a local model.
     Local {

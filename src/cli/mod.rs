@@ -243,9 +243,18 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             options,
             certificate,
             exact_certificate,
+            sdpa,
             svg,
         } => {
             let game = load(game)?;
+            if let Some(file) = sdpa {
+                let level = options.levels.last().cloned().unwrap_or(npa::Level::Joint);
+                let (text, words) = npa::sdpa_export(&game.scenario, &level, &options.limits)?;
+                write(file, &text, inputs)?;
+                let mut words_file = file.clone().into_os_string();
+                words_file.push(".words");
+                write(Path::new(&words_file), &words, inputs)?;
+            }
             let r = pipeline::npa_levels(&game, options, &observer)?;
             if let Some(file) = exact_certificate {
                 let bound = r
@@ -527,8 +536,26 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             certificate,
             limits,
             exact,
+            sdpa_level,
         } => {
             let game = load(game)?;
+            if let Some(level) = sdpa_level {
+                let text = bellgap::formats::files::read_text(certificate)?;
+                let r = npa::sdpa_import(&game.scenario, level, &text, *exact, limits)
+                    .map_err(|e| e.in_file(&certificate.to_string_lossy()))?;
+                let out = text::sdpa_import(&game, &certificate.to_string_lossy(), &r);
+                let mut json = json::to_value(&r);
+                if let Value::Object(m) = &mut json {
+                    m.insert("schema_version".into(), Value::from(json::SCHEMA_VERSION));
+                    m.insert("command".into(), Value::from("verify"));
+                    m.insert("game".into(), Value::from(game.name.clone()));
+                }
+                return Ok(Output {
+                    text: out,
+                    json,
+                    warnings: game.warnings.clone(),
+                });
+            }
             let cert = Certificate::from_file(certificate)?;
             let source = certificate.to_string_lossy();
             let r = pipeline::verify(&game, &cert, &source, limits, *exact)?;

@@ -202,6 +202,7 @@ pub enum Request {
         options: NpaLevelsOptions,
         certificate: Option<PathBuf>,
         exact_certificate: Option<PathBuf>,
+        sdpa: Option<PathBuf>,
         svg: Option<PathBuf>,
     },
     /// `seesaw`.
@@ -283,6 +284,7 @@ pub enum Request {
         certificate: PathBuf,
         limits: Limits,
         exact: bool,
+        sdpa_level: Option<Level>,
     },
     /// `local`.
     Local {
@@ -553,6 +555,7 @@ impl Invocation {
                 level,
                 certificate,
                 exact_certificate,
+                sdpa,
                 svg,
                 solver,
                 symmetry: sym,
@@ -568,6 +571,7 @@ impl Invocation {
                 },
                 certificate: certificate.clone(),
                 exact_certificate: exact_certificate.clone(),
+                sdpa: sdpa.clone(),
                 svg: svg.clone(),
             },
             Command::Seesaw {
@@ -910,11 +914,13 @@ impl Invocation {
                 args,
                 certificate,
                 exact,
+                sdpa_level,
             } => Request::Verify {
                 game: game_input(args),
                 certificate: certificate.clone(),
                 limits: limits(args.force),
                 exact: *exact,
+                sdpa_level: sdpa_level.as_deref().map(one_level).transpose()?,
             },
             Command::Local {
                 correlations,

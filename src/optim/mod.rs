@@ -12,6 +12,7 @@ pub mod first_order;
 pub mod lp;
 pub(crate) mod moment_ipm;
 pub mod sdp;
+pub mod sdpa;
 
 pub use crate::error::SolveStatus;
 

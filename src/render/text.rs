@@ -677,6 +677,34 @@ pub fn entropy(report: &EntropyReport) -> String {
     out
 }
 
+/// `verify --sdpa-level`: an external solver's dual checked on our relaxation.
+pub fn sdpa_import(
+    game: &crate::formats::game::Game,
+    source: &str,
+    r: &crate::bounds::quantum::npa::SdpaImport,
+) -> String {
+    let mut rows = vec![
+        (
+            "game".to_string(),
+            format!("{} ({})", game.name, game.source),
+        ),
+        (
+            "SDPA solution".into(),
+            format!("{source} ({} as the dual)", r.matrix),
+        ),
+        ("level".into(), r.level.name()),
+        ("verified quantum ≤".into(), num(r.verified_upper)),
+    ];
+    if let Some(e) = &r.exact {
+        rows.push((
+            "proven exactly ≤".into(),
+            format!("{} (rounded up)", num_sig(e.rounded_up, 17)),
+        ));
+        rows.push(("as a fraction".into(), e.fraction.clone()));
+    }
+    table(&rows)
+}
+
 /// The `self-test` command's report.
 pub fn self_test(report: &crate::pipeline::SelfTestReport) -> String {
     let b = &report.bound;

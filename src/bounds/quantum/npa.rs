@@ -991,6 +991,109 @@ pub fn plain_certificate(
     })
 }
 
+/// The full relaxation at `level` in the SDPA sparse format, and its moment map (one line per
+/// variable: its 1-based index in the SDPA file and the operator word, `player:question:answer`
+/// projectors left to right).
+pub fn sdpa_export(s: &Scenario, level: &Level, limits: &Limits) -> Result<(String, String)> {
+    let (r, _) = sized_relaxation(
+        s,
+        &NpaOptions {
+            level: level.clone(),
+            symmetry: SymmetryChoice::Off,
+            limits: *limits,
+            ..Default::default()
+        },
+    )?;
+    let sdpa = crate::optim::sdpa::SdpaProblem::from_problem(&r.problem);
+    let comment = vec![
+        format!(
+            "bellgap NPA relaxation, level {}: maximise c0 + Σ b_i y_i is minimise Σ c_i x_i with c = −b; c0 = {:?}",
+            level.name(),
+            r.problem.objective_constant
+        ),
+        "every variable is a moment of projectors, in [−1, 1]; the moment map is in the .words file".into(),
+    ];
+    let mut words =
+        String::from("# variable (1-based) and its word, player:question:answer projectors\n");
+    for (i, w) in r.matrix.moments.iter().enumerate() {
+        let text: Vec<String> = w
+            .iter()
+            .map(|p| format!("{}:{}:{}", p.player, p.setting, p.outcome))
+            .collect();
+        words.push_str(&format!("{} {}\n", i + 1, text.join(" ")));
+    }
+    Ok((sdpa.to_text(&comment), words))
+}
+
+/// A dual solution written by an external solver (SDPA output format), checked on our own
+/// relaxation at `level`: each of its matrices (`xMat`, `yMat`) is tried as the dual and the
+/// smallest verified bound kept (any matrix gives a valid bound).
+#[derive(Debug, Clone, Serialize)]
+pub struct SdpaImport {
+    /// The level.
+    pub level: Level,
+    /// The verified bound.
+    pub verified_upper: f64,
+    /// The matrix that proved it.
+    pub matrix: String,
+    /// The bound proven exactly, when asked.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub exact: Option<crate::optim::exact::ExactBound>,
+}
+
+/// Checks an SDPA output's dual on the relaxation at `level` (see [`SdpaImport`]).
+pub fn sdpa_import(
+    s: &Scenario,
+    level: &Level,
+    text: &str,
+    exact: bool,
+    limits: &Limits,
+) -> Result<SdpaImport> {
+    let (r, _) = sized_relaxation(
+        s,
+        &NpaOptions {
+            level: level.clone(),
+            symmetry: SymmetryChoice::Off,
+            limits: *limits,
+            ..Default::default()
+        },
+    )?;
+    let assembled = r.problem.assemble();
+    let mut best: Option<(f64, Vec<f64>, String)> = None;
+    for (name, matrices) in crate::optim::sdpa::parse_solution(text)? {
+        let Some(z) = crate::optim::sdpa::dual_vector(&r.problem, &matrices) else {
+            continue;
+        };
+        if z.iter().any(|v| !v.is_finite()) {
+            continue;
+        }
+        if let Ok(bound) = assembled.certified_bound(&z) {
+            if bound.is_finite() && best.as_ref().is_none_or(|b| bound < b.0) {
+                best = Some((bound, z, name));
+            }
+        }
+    }
+    let (verified_upper, z, matrix) = best.ok_or_else(|| {
+        Error::InvalidArgument(format!(
+            "the SDPA solution has no matrix of this relaxation's shape (level {}: one {}×{} block)",
+            level.name(),
+            r.matrix.size(),
+            r.matrix.size()
+        ))
+    })?;
+    let exact = if exact {
+        Some(crate::optim::exact::exact_bound(&r.problem, &z)?)
+    } else {
+        None
+    };
+    Ok(SdpaImport {
+        level: level.clone(),
+        verified_upper,
+        matrix,
+        exact,
+    })
+}
+
 /// Result of re-checking a certificate.
 #[derive(Debug, Clone, Serialize)]
 pub struct Verification {
