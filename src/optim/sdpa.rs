@@ -143,7 +143,7 @@ impl SdpaProblem {
             .take(nb)
             .map(|t| t.parse().map_err(|_| bad(format!("block size `{t}`"))))
             .collect::<Result<_>>()?;
-        if blocks.len() != nb || blocks.iter().any(|&b| b == 0) {
+        if blocks.len() != nb || blocks.contains(&0) {
             return Err(bad("the block structure does not match nBLOCK".into()));
         }
         let c: Vec<f64> = numbers("c")?
@@ -300,9 +300,9 @@ pub fn dual_vector(p: &SdpProblem, y: &[Vec<Vec<f64>>]) -> Option<Vec<f64>> {
         if ym.len() != n || ym.iter().any(|r| r.len() != n) {
             return None;
         }
-        for col in 0..n {
-            for row in 0..=col {
-                let v = 0.5 * (ym[row][col] + ym[col][row]);
+        for (col, column_row) in ym.iter().enumerate() {
+            for (row, upper_row) in ym.iter().enumerate().take(col + 1) {
+                let v = 0.5 * (upper_row[col] + column_row[row]);
                 z.push(if row == col {
                     v
                 } else {
