@@ -146,19 +146,17 @@ fn an_sdpa_export_reads_back_and_an_external_dual_is_verified_on_our_relaxation(
     .unwrap();
     let cert = npa::certificate(&g.name, &g.scenario, &bound).unwrap();
     let n = r.matrix.size();
+    // The dual matrix from the triangle (off-diagonal entries carry √2 in our layout).
     let mut z = vec![vec![0.0; n]; n];
-    let mut k = 0;
-    for col in 0..n {
-        for row in 0..=col {
-            let v = if row == col {
-                cert.dual[k]
-            } else {
-                cert.dual[k] / std::f64::consts::SQRT_2
-            };
-            z[row][col] = v;
-            z[col][row] = v;
-            k += 1;
-        }
+    let positions = (0..n).flat_map(|col| (0..=col).map(move |row| (row, col)));
+    for ((row, col), &v) in positions.zip(&cert.dual) {
+        let v = if row == col {
+            v
+        } else {
+            v / std::f64::consts::SQRT_2
+        };
+        z[row][col] = v;
+        z[col][row] = v;
     }
     let rows: Vec<String> = z
         .iter()
