@@ -19,6 +19,55 @@ pub fn num(x: f64) -> String {
     }
 }
 
+/// An upper bound with at most ten decimals, rounded up: never below `x` (exactly, by rational
+/// arithmetic), unless `x` is within four units in its last place of a ten-decimal number,
+/// which is then written (a distance far inside the error terms every verified bound is
+/// rounded by).
+pub fn num_up(x: f64) -> String {
+    directed(x, true)
+}
+
+/// A lower bound with at most ten decimals, rounded down (see [`num_up`]).
+pub fn num_down(x: f64) -> String {
+    directed(x, false)
+}
+
+fn directed(x: f64, up: bool) -> String {
+    use num_bigint::BigInt;
+    use num_rational::BigRational;
+    if x == 0.0 || !x.is_finite() {
+        return num(x);
+    }
+    let nearest = num(x);
+    if let Ok(v) = nearest.parse::<f64>() {
+        let ulp = (x.next_up() - x).abs().max((x - x.next_down()).abs());
+        if (v - x).abs() <= 4.0 * ulp {
+            return nearest;
+        }
+    }
+    let Some(q) = BigRational::from_float(x) else {
+        return nearest;
+    };
+    let scale = BigInt::from(10u64).pow(10);
+    let scaled = q * BigRational::from_integer(scale.clone());
+    let n = if up { scaled.ceil() } else { scaled.floor() }.to_integer();
+    let negative = n < BigInt::from(0);
+    let digits = if negative { -n.clone() } else { n.clone() }.to_string();
+    let digits = format!("{digits:0>11}");
+    let (int, frac) = digits.split_at(digits.len() - 10);
+    let frac = frac.trim_end_matches('0');
+    let body = if frac.is_empty() {
+        int.to_string()
+    } else {
+        format!("{int}.{frac}")
+    };
+    if negative && body != "0" {
+        format!("-{body}")
+    } else {
+        body
+    }
+}
+
 /// The value, plus `= p/q` when it is within 1e-12 of a fraction with a small denominator
 /// (exact values of games with rational probabilities are such fractions).
 pub fn with_fraction(x: f64) -> String {
@@ -102,5 +151,26 @@ pub(crate) fn serialize_count<S: serde::Serializer>(
         Ok(small) => serializer.serialize_u64(small),
         Err(_) if *count == u128::MAX => serializer.serialize_str("at least 3.4e38"),
         Err(_) => serializer.serialize_str(&count.to_string()),
+    }
+}
+
+#[cfg(test)]
+mod directed_tests {
+    use super::*;
+
+    #[test]
+    fn bounds_are_written_on_their_side() {
+        // 0.85355339114…: the upper bound is written up, the lower bound down.
+        let x = 0.853_553_391_14;
+        assert_eq!(num_up(x), "0.8535533912");
+        assert_eq!(num_down(x), "0.8535533911");
+        assert!(num_up(x).parse::<f64>().unwrap() >= x);
+        assert!(num_down(x).parse::<f64>().unwrap() <= x);
+        // Values a few units in the last place from a short decimal stay short.
+        assert_eq!(num_up(0.1), "0.1");
+        assert_eq!(num_down(0.75), "0.75");
+        assert_eq!(num_down(-0.123_456_789_012_3), "-0.1234567891");
+        assert_eq!(num_up(-0.123_456_789_012_3), "-0.123456789");
+        assert_eq!(num_up(2.0), "2");
     }
 }

@@ -6,7 +6,9 @@ use crate::bounds::entropy::Preprocessing;
 use crate::bounds::quantum::analysis::StrategyAnalysis;
 use crate::model::scenario::Scenario;
 use crate::model::symmetry::Relabelling;
-use crate::numbers::{bits_text, count_text, fixed6, num, num_sig, with_fraction};
+use crate::numbers::{
+    bits_text, count_text, fixed6, num, num_down, num_sig, num_up, with_fraction,
+};
 use crate::pipeline::{
     BoundKind, EntropyReport, Extracting, FiniteSizeReport, GameReport, KeyReport, Leakage,
     LocalReport, MarginReport, RandomnessReport, VerifyReport, COMMON_EFFICIENCY,
@@ -154,7 +156,7 @@ pub fn game_report(r: &GameReport) -> String {
             format!("quantum ≤ (NPA {})", b.level),
             format!(
                 "{}  (verified; {}×{} matrix, {:.2} s)",
-                num(b.verified_upper),
+                num_up(b.verified_upper),
                 b.matrix_size,
                 b.matrix_size,
                 b.seconds
@@ -178,7 +180,7 @@ pub fn game_report(r: &GameReport) -> String {
             "quantum ≤ (NPA)".into(),
             format!(
                 "{}  (verified; {raw}, verified − raw {:.1e}; level {}, {}×{} matrix, {} moments, {} {}, {} iterations, {:.2} s)",
-                num(b.verified_upper),
+                num_up(b.verified_upper),
                 b.verified_upper - raw_value,
                 b.level,
                 b.matrix_size,
@@ -212,7 +214,7 @@ pub fn game_report(r: &GameReport) -> String {
             "quantum ≥ (see-saw)".into(),
             format!(
                 "{}  (dims {:?}, {} restarts, seed {}, {:.2} s)",
-                num(sw.quantum_lower),
+                num_down(sw.quantum_lower),
                 sw.dims,
                 sw.restarts,
                 sw.seed,
@@ -225,7 +227,7 @@ pub fn game_report(r: &GameReport) -> String {
             "value (Born rule)".into(),
             format!("{}  (error ≤ {:.1e})", num(v.value), v.error),
         ));
-        rows.push(("quantum ≥".into(), num(v.lower)));
+        rows.push(("quantum ≥".into(), num_down(v.lower)));
     }
     if let Some(n) = &r.noisy {
         let efficiency = if n.noise.efficiency.is_empty() {
@@ -242,7 +244,7 @@ pub fn game_report(r: &GameReport) -> String {
             "under noise".into(),
             format!(
                 "score ≥ {} at visibility {}, detection efficiency {}, dark counts {} (the file's `noise:`){}",
-                num(n.score.lower),
+                num_down(n.score.lower),
                 num(n.noise.visibility),
                 efficiency,
                 num(n.noise.dark_counts),
@@ -347,7 +349,7 @@ pub fn bound_obtained(r: &GameReport, bound: BoundKind) -> String {
         BoundKind::Npa => r.npa.as_ref().map(|b| {
             format!(
                 "quantum ≤ {} (NPA {}, verified, {:.2} s)",
-                num(b.verified_upper),
+                num_up(b.verified_upper),
                 b.level,
                 b.seconds
             )
@@ -355,7 +357,7 @@ pub fn bound_obtained(r: &GameReport, bound: BoundKind) -> String {
         BoundKind::Seesaw => r.seesaw.as_ref().map(|sw| {
             format!(
                 "quantum ≥ {} (see-saw, dims {:?}, {} restarts, {:.2} s)",
-                num(sw.quantum_lower),
+                num_down(sw.quantum_lower),
                 sw.dims,
                 sw.restarts,
                 sw.seconds
@@ -489,7 +491,7 @@ pub fn verify(report: &VerifyReport) -> String {
         ("game".into(), format!("{} ({})", game.name, game.source)),
         ("certificate".into(), certificate.to_string()),
         ("level".into(), v.level.name()),
-        ("verified quantum ≤".into(), num(v.verified_upper)),
+        ("verified quantum ≤".into(), num_up(v.verified_upper)),
         ("claimed in file".into(), num(v.claimed)),
     ]);
     if !v.matches_claim {
@@ -602,8 +604,8 @@ pub fn randomness(report: &RandomnessReport) -> String {
         out += &format!(
             "{:>14}  {:>22}  {:>18}  {status} (level {}{used})\n",
             num(r.score),
-            num(r.guessing_probability),
-            num(r.min_entropy),
+            num_up(r.guessing_probability),
+            num_down(r.min_entropy),
             r.level
         );
     }
@@ -644,11 +646,15 @@ pub fn entropy(report: &EntropyReport) -> String {
         out += &format!(
             "{:>14}  {:>18}  {:>14}",
             score,
-            num(r.entropy.bits),
+            num_down(r.entropy.bits),
             num(r.entropy.solver_bits)
         );
         if let Some(k) = &r.key {
-            out += &format!("   {:>13}   {}", num(k.error_correction), num(k.key_rate));
+            out += &format!(
+                "   {:>13}   {}",
+                num_up(k.error_correction),
+                num_down(k.key_rate)
+            );
         }
         out += &format!("  ({:.2} s)\n", r.entropy.seconds);
     }
@@ -693,7 +699,7 @@ pub fn sdpa_import(
             format!("{source} ({} as the dual)", r.matrix),
         ),
         ("level".into(), r.level.name()),
-        ("verified quantum ≤".into(), num(r.verified_upper)),
+        ("verified quantum ≤".into(), num_up(r.verified_upper)),
     ];
     if let Some(e) = &r.exact {
         rows.push((
@@ -735,7 +741,7 @@ pub fn self_test(report: &crate::pipeline::SelfTestReport) -> String {
     );
     out += &format!(
         "fidelity    ≥ {}  (verified; solver's value {}, NPA level {}, {}×{} matrix, {:?}, {:.2} s)\n",
-        num(b.fidelity),
+        num_down(b.fidelity),
         num(b.solver_value),
         b.level.name(),
         b.matrix_size,
@@ -856,16 +862,16 @@ pub fn design(report: &crate::pipeline::DesignReport) -> String {
     );
     out += &format!(
         "score       ≥ {} under this noise (certified; classical value {}, margin {})\n",
-        num(imp.score.lower),
+        num_down(imp.score.lower),
         num(imp.classical),
-        num(imp.margin)
+        num_down(imp.margin)
     );
     let v = &report.value;
     if let Some(g) = v.guessing_probability {
-        out += &format!("guessing    ≤ {} (verified)\n", num(g));
+        out += &format!("guessing    ≤ {} (verified)\n", num_up(g));
     }
     if let Some(h) = v.conditional_entropy {
-        out += &format!("H(A|X,E)    ≥ {} bits\n", num(h));
+        out += &format!("H(A|X,E)    ≥ {} bits\n", num_down(h));
     }
     if let Some(ec) = v.error_correction {
         out += &format!(
@@ -875,7 +881,7 @@ pub fn design(report: &crate::pipeline::DesignReport) -> String {
     }
     out += &format!(
         "figure      {} {}\n",
-        num(v.value),
+        num_down(v.value),
         if v.value > 0.0 {
             "(positive: the goal is met)"
         } else {
