@@ -6,7 +6,7 @@ use std::fmt::Write;
 
 use super::charts::finite_size_rate;
 use super::text::p_value_text;
-use crate::numbers::{bits_text, count_text, num, num_sig};
+use crate::numbers::{bits_text, count_text, num, num_down, num_sig, num_up};
 use crate::pipeline::{Extracting, Review};
 
 /// The headline: whether the run certifies a score above every classical strategy (at the one
@@ -22,18 +22,18 @@ pub fn verdict(r: &Review) -> String {
         parts.push(format!(
             "Nonlocal at confidence {confidence}: the {} lower confidence bound {} exceeds the classical value {} by {} (i.i.d. rounds); classical devices, even adaptive ones, score this much with probability at most {}.",
             m.confidence_method,
-            num(m.certified_score),
+            num_down(m.certified_score),
             num(m.classical),
-            num(m.margin),
+            num_down(m.margin),
             p_value_text(m)
         ));
     } else {
         parts.push(format!(
             "Not certified at confidence {confidence}: the {} lower confidence bound {} does not exceed the classical value {} (margin {}); classical devices score this much with probability up to {}.",
             m.confidence_method,
-            num(m.certified_score),
+            num_down(m.certified_score),
             num(m.classical),
-            num(m.margin),
+            num_down(m.margin),
             p_value_text(m)
         ));
     }
@@ -127,7 +127,7 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
             "quantum lower bound (see-saw)".into(),
             format!(
                 "{} (dims {:?}, seed {})",
-                num(sw.quantum_lower),
+                num_down(sw.quantum_lower),
                 sw.dims,
                 sw.seed
             ),
@@ -138,7 +138,7 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
             "quantum upper bound (NPA, verified)".into(),
             format!(
                 "{} (level {}, {})",
-                num(n.verified_upper),
+                num_up(n.verified_upper),
                 n.level,
                 n.status
             ),
@@ -161,8 +161,8 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
             "quantum − classical".into(),
             format!(
                 "between {} and {}",
-                num(lower - r.classical),
-                num(upper - r.classical)
+                num_down(lower - r.classical),
+                num_up(upper - r.classical)
             ),
         ));
     }
@@ -191,12 +191,12 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
                 "lower confidence bound ({}, α = {:e})",
                 m.confidence_method, m.alpha
             ),
-            num(m.certified_score),
+            num_down(m.certified_score),
         ),
     ];
     stats.push((
         format!("margin over the classical value ({})", m.confidence_method),
-        num(m.margin),
+        num_down(m.margin),
     ));
     stats.push((
         format!("p-value of \"classical devices\" ({})", m.p_value_bound),
@@ -243,7 +243,7 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
                         num(r.score)
                     },
                 ),
-                ("guessing probability ≤".into(), num(r.guessing_probability)),
+                ("guessing probability ≤".into(), num_up(r.guessing_probability)),
                 ("min-entropy per round ≥".into(), bits_text(r.min_entropy)),
                 ("NPA level".into(), r.level.name()),
             ],
@@ -325,7 +325,7 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
                 ),
                 format!(
                     "{} (verified; target {} from the see-saw's best strategy; NPA level {})",
-                    num(b.fidelity),
+                    num_down(b.fidelity),
                     b.target.iter().map(|a| num_sig(*a, 6)).collect::<Vec<_>>().join(", "),
                     b.level.name()
                 ),
@@ -335,7 +335,7 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
                     format!("Kaniewski's CHSH bound at S = {}", num(sv)),
                     format!(
                         "F ≥ {} with the maximally entangled state under the best local channels (PRL 117, 070402 (2016); formula quoted from memory)",
-                        num(k)
+                        num_down(k)
                     ),
                 ));
             }
