@@ -243,7 +243,10 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
                         num(r.score)
                     },
                 ),
-                ("guessing probability ≤".into(), num_up(r.guessing_probability)),
+                (
+                    "guessing probability ≤".into(),
+                    num_up(r.guessing_probability),
+                ),
                 ("min-entropy per round ≥".into(), bits_text(r.min_entropy)),
                 ("NPA level".into(), r.level.name()),
             ],
