@@ -120,7 +120,18 @@ pub fn count_text(x: f64) -> String {
 
 /// `1 bit`, `0.5 bits`.
 pub fn bits_text(x: f64) -> String {
-    let n = num(x);
+    // Certified bits are lower bounds: written down.
+    let n = num_down(x);
+    if n == "1" {
+        "1 bit".into()
+    } else {
+        format!("{n} bits")
+    }
+}
+
+/// An upper bound in bits (an error-correction term), written up.
+pub fn bits_up_text(x: f64) -> String {
+    let n = num_up(x);
     if n == "1" {
         "1 bit".into()
     } else {

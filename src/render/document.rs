@@ -6,7 +6,7 @@ use std::fmt::Write;
 
 use super::charts::finite_size_rate;
 use super::text::p_value_text;
-use crate::numbers::{bits_text, count_text, num, num_down, num_sig, num_up};
+use crate::numbers::{bits_text, bits_up_text, count_text, num, num_down, num_sig, num_up};
 use crate::pipeline::{Extracting, Review};
 
 /// The headline: whether the run certifies a score above every classical strategy (at the one
@@ -305,7 +305,7 @@ fn tables(r: &Review) -> Vec<(String, Vec<(String, String)>)> {
                     "H(A|B) ≤".into(),
                     format!(
                         "{} ({})",
-                        bits_text(rate.error_correction),
+                        bits_up_text(rate.error_correction),
                         rate.error_correction_from
                     ),
                 ),
