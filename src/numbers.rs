@@ -1,4 +1,5 @@
-//! How numbers are written for people: ten significant digits without trailing zeros, exact
+//! How numbers are written for people: ten decimals without trailing zeros (bounds rounded on
+//! their side: `num_up`, `num_down`), exact
 //! fractions where a value is one, counts too large for integers, bits. Used by every text
 //! renderer and by the notes the library writes.
 
