@@ -301,7 +301,7 @@ _bellgap() {
             return 0
             ;;
         bellgap__subcmd__bounds)
-            opts="-q -h --json --quiet --force --allow-large --level --solver --symmetry --budget --skip --json-lines --dim --dims --restarts --seed --help"
+            opts="-q -h --json --quiet --force --allow-large --level --solver --symmetry --budget --skip --json-lines --table --dim --dims --restarts --seed --help"
             if [[ ${cur} == -* || ${COMP_CWORD} -eq 2 ]] ; then
                 COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
                 return 0
@@ -325,6 +325,10 @@ _bellgap() {
                     ;;
                 --skip)
                     COMPREPLY=($(compgen -W "classical no-signalling npa seesaw" -- "${cur}"))
+                    return 0
+                    ;;
+                --table)
+                    COMPREPLY=($(compgen -W "csv latex" -- "${cur}"))
                     return 0
                     ;;
                 --dim)
@@ -1851,7 +1855,7 @@ _bellgap() {
             return 0
             ;;
         bellgap__subcmd__npa)
-            opts="-q -h --json --quiet --force --allow-large --level --certificate --exact-certificate --sdpa --svg --solver --symmetry --budget --help"
+            opts="-q -h --json --quiet --force --allow-large --level --certificate --exact-certificate --table --sdpa --svg --solver --symmetry --budget --help"
             if [[ ${cur} == -* || ${COMP_CWORD} -eq 2 ]] ; then
                 COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
                 return 0
@@ -1867,6 +1871,10 @@ _bellgap() {
                     ;;
                 --exact-certificate)
                     COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --table)
+                    COMPREPLY=($(compgen -W "csv latex" -- "${cur}"))
                     return 0
                     ;;
                 --sdpa)

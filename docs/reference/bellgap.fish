@@ -78,6 +78,8 @@ complete -c bellgap -n "__fish_bellgap_using_subcommand bounds" -l skip -d 'Boun
 no-signalling\t'The no-signalling value'
 npa\t'The NPA upper bound'
 seesaw\t'The see-saw lower bound'"
+complete -c bellgap -n "__fish_bellgap_using_subcommand bounds" -l table -d 'Print the bounds as a table to paste into a paper instead of the report (upper bounds rounded up, lower bounds down)' -r -f -a "csv\t'Comma-separated values'
+latex\t'A LaTeX tabular'"
 complete -c bellgap -n "__fish_bellgap_using_subcommand bounds" -l dim -d 'Local dimension of every player in the see-saw' -r
 complete -c bellgap -n "__fish_bellgap_using_subcommand bounds" -l dims -d 'Local dimension per player in the see-saw, comma separated (e.g. 2,3)' -r
 complete -c bellgap -n "__fish_bellgap_using_subcommand bounds" -l restarts -d 'Random restarts of the see-saw (run in parallel; the best is kept)' -r
@@ -91,6 +93,8 @@ complete -c bellgap -n "__fish_bellgap_using_subcommand bounds" -s h -l help -d 
 complete -c bellgap -n "__fish_bellgap_using_subcommand npa" -l level -d '`1`, `2`, ... (all words up to that length), `1+joint` (level 1 plus products of one operator per player), or patterns of player letters such as "1 A B AB AA". Several levels separated by `;` are compared (e.g. "1;1+joint;2")' -r
 complete -c bellgap -n "__fish_bellgap_using_subcommand npa" -l certificate -d 'Write the dual certificate (JSON) of the last level here; `bellgap verify` re-checks it' -r -F
 complete -c bellgap -n "__fish_bellgap_using_subcommand npa" -l exact-certificate -d 'Write the last level\'s bound as a plain certificate (text, exact fractions) that `scripts/check_certificate.py` re-proves with Python\'s standard library alone' -r -F
+complete -c bellgap -n "__fish_bellgap_using_subcommand npa" -l table -d 'Print the levels\' verified bounds as a table to paste into a paper instead of the report (rounded up)' -r -f -a "csv\t'Comma-separated values'
+latex\t'A LaTeX tabular'"
 complete -c bellgap -n "__fish_bellgap_using_subcommand npa" -l sdpa -d 'Write the last level\'s full relaxation in the SDPA sparse format (FILE) and its moment map (FILE.words), for external solvers; `verify --sdpa-level` reads their solutions back' -r -F
 complete -c bellgap -n "__fish_bellgap_using_subcommand npa" -l svg -d 'Plot the verified bound against the level (SVG), when comparing levels' -r -F
 complete -c bellgap -n "__fish_bellgap_using_subcommand npa" -l solver -d 'SDP solver: our interior-point method (`ipm`), `clarabel`, our first-order method (`first-order`), or `auto` (chosen from cost estimates, with fallbacks)' -r -f -a "auto\t''

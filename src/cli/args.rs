@@ -110,6 +110,10 @@ pub enum Command {
         /// far, with `obtained` naming the bound), then the whole report as the last line.
         #[arg(long)]
         json_lines: bool,
+        /// Print the bounds as a table to paste into a paper instead of the report (upper
+        /// bounds rounded up, lower bounds down).
+        #[arg(long, value_enum, conflicts_with_all = ["json", "json_lines"])]
+        table: Option<TableArg>,
         #[command(flatten)]
         seesaw: SeesawArgs,
     },
@@ -129,6 +133,10 @@ pub enum Command {
         /// `scripts/check_certificate.py` re-proves with Python's standard library alone.
         #[arg(long, value_name = "FILE")]
         exact_certificate: Option<PathBuf>,
+        /// Print the levels' verified bounds as a table to paste into a paper instead of the
+        /// report (rounded up).
+        #[arg(long, value_enum, conflicts_with = "json")]
+        table: Option<TableArg>,
         /// Write the last level's full relaxation in the SDPA sparse format (FILE) and its
         /// moment map (FILE.words), for external solvers; `verify --sdpa-level` reads their
         /// solutions back.
@@ -696,6 +704,15 @@ pub struct KeyAnswerArgs {
     /// To which question (label; default: the first).
     #[arg(long, allow_hyphen_values = true)]
     pub question: Option<i64>,
+}
+
+/// `bounds --table`, `npa --table`.
+#[derive(ValueEnum, Debug, Clone, Copy, PartialEq, Eq)]
+pub enum TableArg {
+    /// Comma-separated values.
+    Csv,
+    /// A LaTeX tabular.
+    Latex,
 }
 
 /// `design --figure`.

@@ -225,6 +225,7 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             game,
             options,
             dims,
+            table,
             ..
         } => {
             let game = load(game)?;
@@ -236,7 +237,11 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
                 ..options.clone()
             };
             let r = pipeline::bounds(&game, &options, &observer)?;
-            Ok(output(text::game_report(&r), &r, &game.warnings))
+            let text = match table {
+                Some(format) => bellgap::render::tables::bounds(&r, *format),
+                None => text::game_report(&r),
+            };
+            Ok(output(text, &r, &game.warnings))
         }
         Request::Npa {
             game,
@@ -244,6 +249,7 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             certificate,
             exact_certificate,
             sdpa,
+            table,
             svg,
         } => {
             let game = load(game)?;
@@ -276,7 +282,11 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
                     .ok_or_else(|| Error::solver("NPA", "no dual solution to save"))?;
                 write(file, &cert.to_json(), inputs)?;
             }
-            Ok(output(text::game_report(&r), &r, &game.warnings))
+            let text = match table {
+                Some(format) => bellgap::render::tables::npa_levels(&r, *format),
+                None => text::game_report(&r),
+            };
+            Ok(output(text, &r, &game.warnings))
         }
         Request::Seesaw {
             game,

@@ -26,12 +26,13 @@ use bellgap::pipeline::{
 };
 use bellgap::protocol::accumulation::{SecurityParameters, Statement};
 use bellgap::protocol::finite::ObservedRun;
+use bellgap::render::tables::TableFormat;
 use bellgap::{Error, Result};
 
 use super::args::{
     AdversaryWordsArg, AnswerArgs, BoundArg, Cli, Command, EntropySolverArg, FamilyCommand,
     FigureArg, GameArgs, HierarchyArgs, MethodArg, MomentsArg, NoiseParameterArg, SeesawArgs,
-    SolverArg, StateArg, SymmetryArg,
+    SolverArg, StateArg, SymmetryArg, TableArg,
 };
 
 /// A game file and how to compile it.
@@ -195,6 +196,8 @@ pub enum Request {
         dims: DimsChoice,
         /// Each bound printed as a JSON line as soon as it is obtained.
         json_lines: bool,
+        /// A table instead of the report.
+        table: Option<TableFormat>,
     },
     /// `npa`.
     Npa {
@@ -203,6 +206,7 @@ pub enum Request {
         certificate: Option<PathBuf>,
         exact_certificate: Option<PathBuf>,
         sdpa: Option<PathBuf>,
+        table: Option<TableFormat>,
         svg: Option<PathBuf>,
     },
     /// `seesaw`.
@@ -377,6 +381,14 @@ fn seesaw_options(a: &SeesawArgs, force: bool) -> SeesawOptions {
     }
 }
 
+/// `--table`.
+fn table_format(t: TableArg) -> TableFormat {
+    match t {
+        TableArg::Csv => TableFormat::Csv,
+        TableArg::Latex => TableFormat::Latex,
+    }
+}
+
 /// `--skip`.
 pub fn bound_kind(b: BoundArg) -> BoundKind {
     match b {
@@ -534,6 +546,7 @@ impl Invocation {
                 budget,
                 skip,
                 json_lines,
+                table,
                 seesaw,
             } => Request::Bounds {
                 game: game_input(args),
@@ -549,6 +562,7 @@ impl Invocation {
                 },
                 dims: dims(seesaw.dim, seesaw.dims.as_ref()),
                 json_lines: *json_lines,
+                table: table.map(table_format),
             },
             Command::Npa {
                 args,
@@ -556,6 +570,7 @@ impl Invocation {
                 certificate,
                 exact_certificate,
                 sdpa,
+                table,
                 svg,
                 solver,
                 symmetry: sym,
@@ -572,6 +587,7 @@ impl Invocation {
                 certificate: certificate.clone(),
                 exact_certificate: exact_certificate.clone(),
                 sdpa: sdpa.clone(),
+                table: table.map(table_format),
                 svg: svg.clone(),
             },
             Command::Seesaw {
