@@ -1,5 +1,5 @@
 //! Bound tables to paste into papers: CSV and LaTeX (`bounds --table`, `npa --table`). Upper
-//! bounds are written rounded up and lower bounds rounded down ([`crate::numbers::num_up`]);
+//! bounds are written rounded up and lower bounds rounded down (by exact rational rounding);
 //! every text from a file (a game's name) is escaped.
 
 use serde::Serialize;
