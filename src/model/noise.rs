@@ -280,14 +280,17 @@ impl NoiseModel {
 
     /// The behaviour the noisy implementation of `st` shows, with no-clicks assigned by `f`.
     pub fn behaviour(&self, s: &Scenario, st: &QuantumStrategy, f: &Assignment) -> Vec<f64> {
-        let ideal = st.behaviour(s);
-        let white = st.noise_behaviour(s);
-        let mixed: Vec<f64> = ideal
+        self.through_channels(s, &self.mixed(s, st), f)
+    }
+
+    /// The behaviour of `v·|ψ⟩⟨ψ| + (1 − v)·𝟙/D` with the strategy's measurements (before the
+    /// detectors' channels).
+    fn mixed(&self, s: &Scenario, st: &QuantumStrategy) -> Vec<f64> {
+        st.behaviour(s)
             .iter()
-            .zip(&white)
+            .zip(st.noise_behaviour(s))
             .map(|(p, w)| self.visibility * p + (1.0 - self.visibility) * w)
-            .collect();
-        self.through_channels(s, &mixed, f)
+            .collect()
     }
 
     /// The noisy implementation's score with its error term: a lower bound (`lower`) that
@@ -344,13 +347,7 @@ impl NoiseModel {
         if self.no_click != NoClick::Best || self.lossless() {
             return self.initial_assignment(s);
         }
-        let ideal = st.behaviour(s);
-        let white = st.noise_behaviour(s);
-        let mixed: Vec<f64> = ideal
-            .iter()
-            .zip(&white)
-            .map(|(p, w)| self.visibility * p + (1.0 - self.visibility) * w)
-            .collect();
+        let mixed = self.mixed(s, st);
         let score = |f: &Assignment| s.value_of_behaviour(&self.through_channels(s, &mixed, f));
         let slots: Vec<(usize, usize, usize)> = s
             .parties()
