@@ -1985,3 +1985,80 @@ fn bound_tables_for_papers_are_escaped_and_rounded_on_their_side() {
     let level3: f64 = lines[2].rsplit(',').next().unwrap().parse().unwrap();
     assert!(level3 >= 0.250_875_38, "{level3}");
 }
+
+/// The number printed after `label` on the line that holds it.
+fn printed_after(text: &str, label: &str) -> f64 {
+    let line = text
+        .lines()
+        .find(|l| l.contains(label))
+        .unwrap_or_else(|| panic!("no `{label}` in\n{text}"));
+    let rest = &line[line.find(label).unwrap() + label.len()..];
+    rest.split_whitespace()
+        .next()
+        .and_then(|t| {
+            t.trim_end_matches(|c: char| !c.is_ascii_digit())
+                .parse()
+                .ok()
+        })
+        .unwrap_or_else(|| panic!("no number after `{label}` in `{line}`"))
+}
+
+#[test]
+fn design_self_test_and_exact_figures_are_printed_on_their_side() {
+    // Each text figure against the full-precision JSON: lower bounds at most, upper at least.
+    let args = [
+        "design",
+        "games/chsh.yaml",
+        "--efficiency",
+        "0.9",
+        "--quiet",
+    ];
+    let text = String::from_utf8_lossy(&bellgap(&args).stdout).to_string();
+    let j = json_of(&bellgap(&[&args[..], &["--json"]].concat()));
+    assert!(
+        printed_after(&text, "score       ≥")
+            <= j["implementation"]["score"]["lower"].as_f64().unwrap()
+    );
+    assert!(printed_after(&text, ", margin") <= j["implementation"]["margin"].as_f64().unwrap());
+    let args = ["self-test", "games/chsh.yaml", "--score", "0.84", "--quiet"];
+    let text = String::from_utf8_lossy(&bellgap(&args).stdout).to_string();
+    let j = json_of(&bellgap(&[&args[..], &["--json"]].concat()));
+    assert!(printed_after(&text, "fidelity    ≥") <= j["bound"]["fidelity"].as_f64().unwrap());
+    assert!(printed_after(&text, "bound F ≥") <= j["bound"]["chsh_analytic"].as_f64().unwrap());
+    let cert = std::env::temp_dir().join(format!("bellgap-exact-{}.json", std::process::id()));
+    let out = bellgap(&[
+        "npa",
+        "games/chsh.yaml",
+        "--level",
+        "2",
+        "--certificate",
+        cert.to_str().unwrap(),
+        "--quiet",
+    ]);
+    assert!(out.status.success());
+    let args = [
+        "verify",
+        "games/chsh.yaml",
+        cert.to_str().unwrap(),
+        "--exact",
+    ];
+    let text = String::from_utf8_lossy(&bellgap(&args).stdout).to_string();
+    let j = json_of(&bellgap(&[&args[..], &["--json"]].concat()));
+    let _ = std::fs::remove_file(&cert);
+    assert!(printed_after(&text, "proven exactly ≤") >= j["exact"]["rounded_up"].as_f64().unwrap());
+    // A point count whose searches would overflow is refused by the estimate (exit 2).
+    let out = bellgap(&[
+        "design",
+        "games/chsh.yaml",
+        "--threshold",
+        "efficiency",
+        "--curve-points",
+        "18446744073709551615",
+    ]);
+    assert_eq!(
+        out.status.code(),
+        Some(2),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+}

@@ -1090,27 +1090,8 @@ fn run_design(
                     let label = n
                         .as_i64()
                         .ok_or_else(|| usage(format!("no_click: `{n}` is not an answer label")))?;
-                    let indices: Vec<usize> = game
-                        .scenario
-                        .parties()
-                        .iter()
-                        .map(|p| {
-                            p.answer_labels
-                                .iter()
-                                .position(|&l| l == label)
-                                .ok_or_else(|| {
-                                    usage(format!("no_click: {} has no answer {label}", p.name))
-                                })
-                        })
-                        .collect::<PyResult<_>>()?;
-                    NoClick::Table(
-                        game.scenario
-                            .parties()
-                            .iter()
-                            .zip(&indices)
-                            .map(|(p, &i)| vec![i; p.questions()])
-                            .collect(),
-                    )
+                    NoClick::from_label(&game.scenario, label)
+                        .map_err(|m| usage(format!("no_click: {m}")))?
                 }
                 Some(other) => {
                     return Err(usage(format!(

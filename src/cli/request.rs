@@ -138,31 +138,8 @@ impl NoClickChoice {
         match self {
             NoClickChoice::Best => Ok(NoClick::Best),
             NoClickChoice::Extra => Ok(NoClick::Extra),
-            NoClickChoice::Label(l) => {
-                let indices: Vec<usize> = s
-                    .parties()
-                    .iter()
-                    .map(|p| {
-                        p.answer_labels.iter().position(|a| a == l).ok_or_else(|| {
-                            Error::InvalidArgument(format!(
-                                "--no-click: {} has no answer {l}",
-                                p.name
-                            ))
-                        })
-                    })
-                    .collect::<Result<_>>()?;
-                Ok(if indices.iter().all(|&i| i == indices[0]) {
-                    NoClick::Answer(indices[0])
-                } else {
-                    NoClick::Table(
-                        s.parties()
-                            .iter()
-                            .zip(&indices)
-                            .map(|(p, &i)| vec![i; p.questions()])
-                            .collect(),
-                    )
-                })
-            }
+            NoClickChoice::Label(l) => NoClick::from_label(s, *l)
+                .map_err(|m| Error::InvalidArgument(format!("--no-click: {m}"))),
         }
     }
 }

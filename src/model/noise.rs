@@ -41,6 +41,34 @@ pub enum NoClick {
     Extra,
 }
 
+impl NoClick {
+    /// The answer labelled `label` for every player and question (each player's own index of
+    /// that label: [`NoClick::Answer`] when it is the same for all); the error names the player
+    /// without it.
+    pub fn from_label(s: &Scenario, label: i64) -> std::result::Result<NoClick, String> {
+        let indices: Vec<usize> = s
+            .parties()
+            .iter()
+            .map(|p| {
+                p.answer_labels
+                    .iter()
+                    .position(|&l| l == label)
+                    .ok_or_else(|| format!("{} has no answer {label}", p.name))
+            })
+            .collect::<std::result::Result<_, _>>()?;
+        Ok(match indices.first() {
+            Some(&first) if indices.iter().all(|&i| i == first) => NoClick::Answer(first),
+            _ => NoClick::Table(
+                s.parties()
+                    .iter()
+                    .zip(&indices)
+                    .map(|(p, &i)| vec![i; p.questions()])
+                    .collect(),
+            ),
+        })
+    }
+}
+
 /// Most assignments tried one by one when the best is sought.
 pub const EXHAUSTIVE_ASSIGNMENTS: usize = 4096;
 

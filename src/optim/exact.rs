@@ -326,5 +326,8 @@ mod tests {
         assert!(worse.rounded_up > 1.1, "{worse:?}");
         assert!(exact_bound(&p, &[0.5, f64::NAN, 0.5]).is_err());
         assert!(exact_bound(&p, &[0.5, 0.5]).is_err());
+        // Entries too large for exact integers are refused, not wrapped.
+        assert!(exact_bound(&p, &[1e300, 0.0, 1e300]).is_err());
+        assert!(exact_bound(&p, &[0.5, f64::INFINITY, 0.5]).is_err());
     }
 }

@@ -249,7 +249,7 @@ pub fn game_report(r: &GameReport) -> String {
                 efficiency,
                 num(n.noise.dark_counts),
                 n.margin
-                    .map(|m| format!("; margin over the classical value {}", num(m)))
+                    .map(|m| format!("; margin over the classical value {}", num_down(m)))
                     .unwrap_or_default()
             ),
         ));
@@ -501,7 +501,7 @@ pub fn verify(report: &VerifyReport) -> String {
         out += &table(&[
             (
                 "proven exactly ≤".into(),
-                format!("{} (rounded up)", num_sig(e.exact.rounded_up, 17)),
+                format!("{} (rounded up)", num_up(e.exact.rounded_up)),
             ),
             ("as a fraction".into(), e.exact.fraction.clone()),
             (
@@ -704,7 +704,7 @@ pub fn sdpa_import(
     if let Some(e) = &r.exact {
         rows.push((
             "proven exactly ≤".into(),
-            format!("{} (rounded up)", num_sig(e.rounded_up, 17)),
+            format!("{} (rounded up)", num_up(e.rounded_up)),
         ));
         rows.push(("as a fraction".into(), e.fraction.clone()));
     }
@@ -754,7 +754,7 @@ pub fn self_test(report: &crate::pipeline::SelfTestReport) -> String {
             "CHSH        S {} {}: Kaniewski's analytic bound F ≥ {} with the maximally entangled state under the best local channels (PRL 117, 070402 (2016); formula quoted from memory){}\n",
             if b.region_score_floor.is_some() { "≥" } else { "=" },
             num(chsh),
-            num(k),
+            num_down(k),
             if k <= 0.5 { ", which says nothing at or below S* ≈ 2.1058" } else { "" }
         );
     }
@@ -811,7 +811,7 @@ pub fn design(report: &crate::pipeline::DesignReport) -> String {
                 "  {:>12}  {}\n",
                 num_sig(p.parameter, 6),
                 if p.figure > 0.0 {
-                    num_sig(p.figure, 4)
+                    num_down(p.figure)
                 } else {
                     "none found (≤ 0)".to_string()
                 }
@@ -876,7 +876,7 @@ pub fn design(report: &crate::pipeline::DesignReport) -> String {
     if let Some(ec) = v.error_correction {
         out += &format!(
             "H(A|B)      ≤ {} bits (the noisy behaviour's, rounded up)\n",
-            num(ec)
+            num_up(ec)
         );
     }
     out += &format!(

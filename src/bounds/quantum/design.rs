@@ -536,7 +536,9 @@ pub type Evaluator<'a> =
 
 /// The number of implementation searches a threshold search runs at most.
 pub fn planned_searches(t: &ThresholdOptions) -> usize {
-    (1.0 / t.tolerance.max(1e-12)).log2().ceil().max(1.0) as usize + 1 + t.curve_points
+    // Saturating: a huge point count is refused by the estimate, never overflows.
+    ((1.0 / t.tolerance.max(1e-12)).log2().ceil().max(1.0) as usize + 1)
+        .saturating_add(t.curve_points)
 }
 
 /// Estimated seconds of a threshold search on the margin: the see-saw's estimate per search

@@ -991,11 +991,10 @@ pub fn plain_certificate(
     })
 }
 
-/// The full relaxation at `level` in the SDPA sparse format, and its moment map (one line per
-/// variable: its 1-based index in the SDPA file and the operator word, `player:question:answer`
-/// projectors left to right).
-pub fn sdpa_export(s: &Scenario, level: &Level, limits: &Limits) -> Result<(String, String)> {
-    let (r, _) = sized_relaxation(
+/// The relaxation at `level` without any symmetry reduction, size-checked first (for
+/// certificates, exports and objectives of our own that need every moment).
+pub fn full_relaxation(s: &Scenario, level: &Level, limits: &Limits) -> Result<Relaxation> {
+    sized_relaxation(
         s,
         &NpaOptions {
             level: level.clone(),
@@ -1003,7 +1002,15 @@ pub fn sdpa_export(s: &Scenario, level: &Level, limits: &Limits) -> Result<(Stri
             limits: *limits,
             ..Default::default()
         },
-    )?;
+    )
+    .map(|(r, _)| r)
+}
+
+/// The full relaxation at `level` in the SDPA sparse format, and its moment map (one line per
+/// variable: its 1-based index in the SDPA file and the operator word, `player:question:answer`
+/// projectors left to right).
+pub fn sdpa_export(s: &Scenario, level: &Level, limits: &Limits) -> Result<(String, String)> {
+    let r = full_relaxation(s, level, limits)?;
     let sdpa = crate::optim::sdpa::SdpaProblem::from_problem(&r.problem);
     let comment = vec![
         format!(
@@ -1049,15 +1056,7 @@ pub fn sdpa_import(
     exact: bool,
     limits: &Limits,
 ) -> Result<SdpaImport> {
-    let (r, _) = sized_relaxation(
-        s,
-        &NpaOptions {
-            level: level.clone(),
-            symmetry: SymmetryChoice::Off,
-            limits: *limits,
-            ..Default::default()
-        },
-    )?;
+    let r = full_relaxation(s, level, limits)?;
     let assembled = r.problem.assemble();
     let mut best: Option<(f64, Vec<f64>, String)> = None;
     for (name, matrices) in crate::optim::sdpa::parse_solution(text)? {

@@ -359,14 +359,7 @@ pub fn fidelity_bound_given(
             None
         }
     };
-    let (r, _) = npa::sized_relaxation(
-        s,
-        &npa::NpaOptions {
-            level: level.clone(),
-            symmetry: super::symmetric::SymmetryChoice::Off,
-            ..npa::NpaOptions::at(level.clone())
-        },
-    )?;
+    let r = npa::full_relaxation(s, &level, &crate::limits::Limits::default())?;
     // Every product u†v of generating words, by its moment key: the moments the fidelity can
     // use.
     let words = &r.matrix.words;
