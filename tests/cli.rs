@@ -2062,3 +2062,80 @@ fn design_self_test_and_exact_figures_are_printed_on_their_side() {
         String::from_utf8_lossy(&out.stderr)
     );
 }
+
+#[test]
+fn randomness_exports_its_sdp_verifies_an_external_solution_and_proves_exactly() {
+    let dir = std::env::temp_dir().join(format!("bellgap-guess-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let sdpa = dir.join("guess.dat-s");
+    let args = [
+        "randomness",
+        "games/chsh.yaml",
+        "--score",
+        "0.85",
+        "--exact",
+        "--sdpa",
+        sdpa.to_str().unwrap(),
+        "--quiet",
+    ];
+    let out = bellgap(&args);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8_lossy(&out.stdout).to_string();
+    let j = json_of(&bellgap(&[&args[..], &["--json"]].concat()));
+    let exact = &j["exact"];
+    let rounded_up = exact["rounded_up"].as_f64().unwrap();
+    // 0.6 at CHSH value 2.8 (Pironio et al., Nature 464, 1021 (2010)).
+    assert!((0.6 - 1e-12..0.6 + 1e-7).contains(&rounded_up), "{j}");
+    assert!(printed_after(&text, ": guessing probability ≤") >= rounded_up);
+    assert!(text.contains("proven exactly at score 0.85"));
+    let words = std::fs::read_to_string(format!("{}.words", sdpa.display())).unwrap();
+    assert!(words.contains("guess 0:0:1 | weight"), "{words}");
+    // A solution file in SDPA output format: the diagonal block and two 13×13 blocks, all zero
+    // except the normalisation's multiplier of 1 (Z = 0 and μ = 1 prove P_guess ≤ 1 + charges).
+    let zero_row = format!("{{{}}}", vec!["0"; 13].join(", "));
+    let zero_block = format!("{{ {} }}", vec![zero_row.as_str(); 13].join(", "));
+    let solution = dir.join("guess.out");
+    std::fs::write(
+        &solution,
+        format!("yMat =\n{{\n{zero_block},\n{zero_block},\n{{0, 1, 0}}\n}}\n"),
+    )
+    .unwrap();
+    let out = bellgap(&[
+        "randomness",
+        "games/chsh.yaml",
+        "--score",
+        "0.85",
+        "--sdpa-solution",
+        solution.to_str().unwrap(),
+        "--exact",
+        "--json",
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j = json_of(&out);
+    // λ_0 + λ_1 = 1 with μ = 1 leaves residuals on the guessed moments, charged at their
+    // bounds: a valid bound, just a weak one.
+    assert!(j["verified_upper"].as_f64().unwrap() >= 1.0, "{j}");
+    assert_eq!(j["matrix"], "yMat");
+    assert!(j["exact"]["rounded_up"].as_f64().unwrap() >= 1.0);
+    // A solution of another shape is refused with exit 2, naming the file.
+    std::fs::write(&solution, "yMat =\n{\n{1, 2}\n}\n").unwrap();
+    let out = bellgap(&[
+        "randomness",
+        "games/chsh.yaml",
+        "--score",
+        "0.85",
+        "--sdpa-solution",
+        solution.to_str().unwrap(),
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("guess.out"));
+    let _ = std::fs::remove_dir_all(&dir);
+}

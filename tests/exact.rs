@@ -180,12 +180,12 @@ fn an_sdpa_export_reads_back_and_an_external_dual_is_verified_on_our_relaxation(
     );
     let imported =
         npa::sdpa_import(&g.scenario, &level, &output, true, &Limits::default()).unwrap();
-    assert_eq!(imported.matrix, "yMat");
+    assert_eq!(imported.bound.matrix, "yMat");
     assert!(
-        (imported.verified_upper - bound.verified_upper).abs() < 1e-9,
+        (imported.bound.verified_upper - bound.verified_upper).abs() < 1e-9,
         "{imported:?}"
     );
-    let exact = imported.exact.unwrap().rounded_up;
+    let exact = imported.bound.exact.unwrap().rounded_up;
     // I3322 at level 2 is above the true value 0.2508753 (Pál & Vértesi 2010, from memory).
     assert!(exact >= 0.250_875_3 && (exact - bound.verified_upper).abs() < 1e-8);
     // A solution of another shape is refused.
@@ -197,4 +197,57 @@ fn an_sdpa_export_reads_back_and_an_external_dual_is_verified_on_our_relaxation(
         &Limits::default()
     )
     .is_err());
+}
+
+#[test]
+fn a_guessing_probability_is_proven_exactly_and_its_sdp_exported_and_reimported() {
+    use bellgap::protocol::randomness::{self, Target};
+    let g = game("chsh");
+    let s = &g.scenario;
+    let target = Target {
+        parts: vec![(0, 0)],
+    };
+    // At CHSH value S = 8·0.85 − 4 = 2.8 the guessing probability of one answer is
+    // 1/2 + 1/2·√(2 − S²/4) = 0.6 (Pironio et al., Nature 464, 1021 (2010)).
+    let r = randomness::guessing_probability(s, &target, 0.85, &Level::Length(2)).unwrap();
+    let exact = randomness::prove_exactly(s, &target, &r).unwrap();
+    assert!(exact.bound.rounded_up >= 0.6 - 1e-12, "{exact:?}");
+    assert!(
+        (exact.bound.rounded_up - r.guessing_probability).abs() < 1e-8,
+        "{exact:?} against {}",
+        r.guessing_probability
+    );
+    assert!(exact.min_entropy <= -(0.6f64.log2()) + 1e-12 && exact.min_entropy > 0.73);
+    // A dual entry changed proves less (or nothing).
+    let mut tampered = r.clone();
+    tampered.dual[3] += 0.25;
+    let worse = randomness::prove_exactly(s, &target, &tampered).unwrap();
+    assert!(worse.bound.rounded_up > exact.bound.rounded_up + 1e-3);
+    tampered.dual.pop();
+    assert!(randomness::prove_exactly(s, &target, &tampered).is_err());
+
+    // The SDP written in SDPA format reads back to the same problem (two 13×13 moment matrices,
+    // one per guess, and a diagonal block for the score and the normalisation).
+    let (text, words) = randomness::sdpa_export(s, &target, 0.85, &Level::Length(2)).unwrap();
+    let problem = randomness::guessing_sdp(s, &target, 0.85, &Level::Length(2)).unwrap();
+    let read = bellgap::optim::sdpa::SdpaProblem::parse(&text).unwrap();
+    assert_eq!(
+        read,
+        bellgap::optim::sdpa::SdpaProblem::from_problem(&problem)
+    );
+    assert_eq!(read.blocks, vec![13, 13, -3]);
+    assert_eq!(words.lines().count(), problem.variables + 1);
+    // Our own dual, written as an external solver's output, proves the same bound on the SDP
+    // rebuilt from the options, and exactly.
+    let solution = bellgap::optim::sdpa::solution_text(&problem, &r.dual);
+    let imported =
+        randomness::sdpa_import(s, &target, 0.85, &Level::Length(2), &solution, true).unwrap();
+    assert!(
+        (imported.bound.verified_upper - r.guessing_probability).abs() < 1e-9,
+        "{imported:?}"
+    );
+    let e = imported.bound.exact.unwrap();
+    assert!(e.rounded_up >= 0.6 - 1e-12 && e.rounded_up < 0.6 + 1e-7);
+    // At another level the shapes differ and the solution is refused.
+    assert!(randomness::sdpa_import(s, &target, 0.85, &Level::Joint, &solution, false).is_err());
 }

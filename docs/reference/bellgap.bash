@@ -1905,7 +1905,7 @@ _bellgap() {
             return 0
             ;;
         bellgap__subcmd__randomness)
-            opts="-q -h --json --quiet --force --allow-large --score --sweep --counts --alpha --player --question --with --with-question --level --svg --help"
+            opts="-q -h --json --quiet --force --allow-large --score --sweep --counts --alpha --player --question --with --with-question --level --svg --exact --sdpa --sdpa-solution --help"
             if [[ ${cur} == -* || ${COMP_CWORD} -eq 2 ]] ; then
                 COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
                 return 0
@@ -1948,6 +1948,14 @@ _bellgap() {
                     return 0
                     ;;
                 --svg)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --sdpa)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
+                --sdpa-solution)
                     COMPREPLY=($(compgen -f "${cur}"))
                     return 0
                     ;;

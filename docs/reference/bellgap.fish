@@ -212,10 +212,13 @@ complete -c bellgap -n "__fish_bellgap_using_subcommand randomness" -l with -d '
 complete -c bellgap -n "__fish_bellgap_using_subcommand randomness" -l with-question -d 'The second player\'s question (label; default: the first)' -r
 complete -c bellgap -n "__fish_bellgap_using_subcommand randomness" -l level -d 'NPA level of the relaxation' -r
 complete -c bellgap -n "__fish_bellgap_using_subcommand randomness" -l svg -d 'Write the min-entropy curve of a sweep as an SVG plot' -r -F
+complete -c bellgap -n "__fish_bellgap_using_subcommand randomness" -l sdpa -d 'Write the guessing-probability SDP at the score (one) in the SDPA sparse format, with its variable map (FILE.words), for external solvers' -r -F
+complete -c bellgap -n "__fish_bellgap_using_subcommand randomness" -l sdpa-solution -d 'Instead of solving, verify an external solver\'s solution (SDPA output format) of the SDP that `--sdpa` writes at the same score and level' -r -F
 complete -c bellgap -n "__fish_bellgap_using_subcommand randomness" -l json -d 'Print exactly one JSON object on stdout'
 complete -c bellgap -n "__fish_bellgap_using_subcommand randomness" -s q -l quiet -d 'No progress output on stderr'
 complete -c bellgap -n "__fish_bellgap_using_subcommand randomness" -l force -d 'Run even when the size estimate says it would take very long'
 complete -c bellgap -n "__fish_bellgap_using_subcommand randomness" -l allow-large -d 'Build game tables larger than the default memory limit'
+complete -c bellgap -n "__fish_bellgap_using_subcommand randomness" -l exact -d 'Also prove each bound in exact rational arithmetic (the dual rounded to rationals, its positive semidefiniteness proven exactly) and print it as a fraction'
 complete -c bellgap -n "__fish_bellgap_using_subcommand randomness" -s h -l help -d 'Print help (see more with \'--help\')'
 complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -l score -d 'The score (in the game\'s own units): the bound holds for every quantum behaviour scoring at least this' -r
 complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -l sweep -d 'Sweep the score: LOW:HIGH:POINTS' -r

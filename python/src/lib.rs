@@ -833,6 +833,7 @@ fn run_figure(
                 level: Level::parse(a.level.as_deref().unwrap_or("2")).map_err(to_py)?,
                 from_counts,
                 limits: limits(a.force),
+                ..Default::default()
             };
             interruptible(py, move || {
                 Ok(reply(

@@ -347,6 +347,18 @@ pub enum Command {
         /// Write the min-entropy curve of a sweep as an SVG plot.
         #[arg(long, value_name = "FILE")]
         svg: Option<PathBuf>,
+        /// Also prove each bound in exact rational arithmetic (the dual rounded to rationals,
+        /// its positive semidefiniteness proven exactly) and print it as a fraction.
+        #[arg(long)]
+        exact: bool,
+        /// Write the guessing-probability SDP at the score (one) in the SDPA sparse format,
+        /// with its variable map (FILE.words), for external solvers.
+        #[arg(long, value_name = "FILE", requires = "score")]
+        sdpa: Option<PathBuf>,
+        /// Instead of solving, verify an external solver's solution (SDPA output format) of
+        /// the SDP that `--sdpa` writes at the same score and level.
+        #[arg(long, value_name = "FILE", requires = "score", conflicts_with_all = ["sweep", "counts", "svg"])]
+        sdpa_solution: Option<PathBuf>,
     },
     /// A verified lower bound on the conditional von Neumann entropy of a player's answer given
     /// a quantum adversary, H(A|X=x*, E), at a score or for an observed behaviour (Gauss–Radau

@@ -448,8 +448,24 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             options,
             counts,
             svg,
+            sdpa,
+            sdpa_solution,
         } => {
             let game = load(game)?;
+            if let Some(file) = sdpa {
+                let (text, words) = pipeline::randomness_sdpa_export(&game, options)?;
+                write(file, &text, inputs)?;
+                let mut words_file = file.clone().into_os_string();
+                words_file.push(".words");
+                write(Path::new(&words_file), &words, inputs)?;
+            }
+            if let Some(file) = sdpa_solution {
+                let text = bellgap::formats::files::read_text(file)?;
+                let r = pipeline::randomness_sdpa_import(&game, options, &text)
+                    .map_err(|e| e.in_file(&file.to_string_lossy()))?;
+                let out = text::guessing_import(&r, &file.to_string_lossy());
+                return Ok(output(out, &r, &game.warnings));
+            }
             let mut options = options.clone();
             if let Some((file, alpha)) = counts {
                 options.from_counts = Some((Counts::from_file(&file.to_string_lossy())?, *alpha));

@@ -215,6 +215,10 @@ pub enum Request {
         /// A counts file and the error of its lower confidence score (read by the runner).
         counts: Option<(PathBuf, f64)>,
         svg: Option<PathBuf>,
+        /// Where to write the SDP in SDPA format (at the one score).
+        sdpa: Option<PathBuf>,
+        /// An external solver's SDPA output to verify instead of solving.
+        sdpa_solution: Option<PathBuf>,
     },
     /// `entropy`; the behaviour, strategy or counts file, when given, is read by the runner
     /// (counts with the confidence region's error).
@@ -643,6 +647,9 @@ impl Invocation {
                 answers,
                 level,
                 svg,
+                exact,
+                sdpa,
+                sdpa_solution,
             } => Request::Randomness {
                 game: game_input(args),
                 options: RandomnessOptions {
@@ -659,9 +666,12 @@ impl Invocation {
                     level: one_level(level)?,
                     from_counts: None,
                     limits: limits(args.force),
+                    exact: *exact,
                 },
                 counts: counts.clone().map(|c| (c, *alpha)),
                 svg: svg.clone(),
+                sdpa: sdpa.clone(),
+                sdpa_solution: sdpa_solution.clone(),
             },
             Command::Entropy {
                 args,

@@ -14,6 +14,9 @@
 
 use std::fmt::Write;
 
+use serde::Serialize;
+
+use super::exact::ExactBound;
 use super::sdp::{upper_index, SdpProblem};
 use crate::error::{Error, Result};
 
@@ -277,6 +280,121 @@ pub fn parse_solution(text: &str) -> Result<Vec<SolutionMatrix>> {
     Ok(out)
 }
 
+/// Our dual vector `z` (in [`SdpProblem::assemble`]'s layout) written as an SDPA output's `yMat`
+/// (blocks as exported by [`SdpaProblem::from_problem`]): the inverse of [`dual_vector`], for
+/// handing a solution to other tools.
+pub fn solution_text(p: &SdpProblem, z: &[f64]) -> String {
+    let (ne, ni) = (p.equalities.len(), p.inequalities.len());
+    let mut out = String::from("yMat =\n{\n");
+    let mut blocks = Vec::new();
+    let mut offset = ne + ni;
+    for block in &p.blocks {
+        let n = block.size;
+        let entry = |row: usize, col: usize| {
+            let (r, c) = (row.min(col), row.max(col));
+            let v = z.get(offset + upper_index(r, c)).copied().unwrap_or(0.0);
+            if r == c {
+                v
+            } else {
+                v * std::f64::consts::FRAC_1_SQRT_2
+            }
+        };
+        let rows: Vec<String> = (0..n)
+            .map(|row| {
+                let v: Vec<String> = (0..n).map(|col| format!("{:e}", entry(row, col))).collect();
+                format!("{{{}}}", v.join(", "))
+            })
+            .collect();
+        blocks.push(format!("{{ {} }}", rows.join(", ")));
+        offset += n * (n + 1) / 2;
+    }
+    if ne + ni > 0 {
+        let mut diag = Vec::new();
+        for k in 0..ni {
+            diag.push(z.get(ne + k).copied().unwrap_or(0.0).max(0.0));
+        }
+        for j in 0..ne {
+            let mu = z.get(j).copied().unwrap_or(0.0);
+            diag.push(mu.max(0.0));
+            diag.push((-mu).max(0.0));
+        }
+        let d: Vec<String> = diag.iter().map(|v| format!("{v:e}")).collect();
+        blocks.push(format!("{{{}}}", d.join(", ")));
+    }
+    out += &blocks.join(",\n");
+    out += "\n}\n";
+    out
+}
+
+/// An external solver's solution checked on one of our problems: the matrix of the SDPA output
+/// that proves the smallest verified bound (each of `xMat` and `yMat` is tried as the dual;
+/// any of them gives a valid bound), and the bound proven exactly when asked.
+#[derive(Debug, Clone, Serialize)]
+pub struct ImportedBound {
+    /// The verified bound (rounding charged, floating point).
+    pub verified_upper: f64,
+    /// The matrix that proved it.
+    pub matrix: String,
+    /// The bound proven exactly, when asked.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub exact: Option<ExactBound>,
+}
+
+/// Verifies the SDPA output `text` as a dual solution of `problem` (see [`ImportedBound`]).
+/// Nothing in the file is trusted: the bound is recomputed on our own problem.
+pub fn import_dual(problem: &SdpProblem, text: &str, exact: bool) -> Result<ImportedBound> {
+    // Said of the file (the caller names it), not of the options.
+    let bad = |message: String| Error::Input {
+        location: crate::error::Location::default(),
+        message,
+    };
+    let assembled = problem.assemble();
+    let mut best: Option<(f64, Vec<f64>, String)> = None;
+    let solution = parse_solution(text).map_err(|e| match e {
+        Error::InvalidArgument(m) => bad(m),
+        other => other,
+    })?;
+    for (name, matrices) in solution {
+        let Some(z) = dual_vector(problem, &matrices) else {
+            continue;
+        };
+        if z.iter().any(|v| !v.is_finite()) {
+            continue;
+        }
+        if let Ok(bound) = assembled.certified_bound(&z) {
+            if bound.is_finite() && best.as_ref().is_none_or(|b| bound < b.0) {
+                best = Some((bound, z, name));
+            }
+        }
+    }
+    let sizes: Vec<String> = problem
+        .blocks
+        .iter()
+        .map(|b| format!("{0}×{0}", b.size))
+        .collect();
+    let (verified_upper, z, matrix) = best.ok_or_else(|| {
+        bad(format!(
+            "the SDPA solution has no matrix of this problem's shape (blocks {}{})",
+            sizes.join(", "),
+            if problem.equalities.is_empty() && problem.inequalities.is_empty() {
+                ""
+            } else {
+                " and one diagonal block"
+            }
+        ))
+    })?;
+    let exact = if exact {
+        Some(super::exact::exact_bound(problem, &z)?)
+    } else {
+        None
+    };
+    Ok(ImportedBound {
+        verified_upper,
+        matrix,
+        exact,
+    })
+}
+
 /// Our dual vector (in [`SdpProblem::assemble`]'s layout) from an SDPA dual matrix `Y` (blocks
 /// as exported by [`SdpaProblem::from_problem`]); None when the shapes differ.
 pub fn dual_vector(p: &SdpProblem, y: &[Vec<Vec<f64>>]) -> Option<Vec<f64>> {
@@ -312,4 +430,43 @@ pub fn dual_vector(p: &SdpProblem, y: &[Vec<Vec<f64>>]) -> Option<Vec<f64>> {
         }
     }
     Some(z)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::optim::sdp::{AffineEntry, MatrixBlock};
+
+    #[test]
+    fn a_dual_written_as_a_solution_reads_back_to_itself() {
+        let entry = |constant: f64, terms: Vec<(usize, f64)>| AffineEntry { constant, terms };
+        let p = SdpProblem {
+            variables: 2,
+            objective: vec![1.0, 0.5],
+            equalities: vec![(vec![(0, 1.0)], 0.25)],
+            inequalities: vec![(vec![(1, 1.0)], 0.75)],
+            blocks: vec![MatrixBlock {
+                size: 2,
+                upper: vec![
+                    entry(1.0, vec![]),
+                    entry(0.0, vec![(0, 1.0), (1, 1.0)]),
+                    entry(1.0, vec![]),
+                ],
+                trace_bound: 2.0,
+            }],
+            variable_bound: 1.0,
+            ..Default::default()
+        };
+        // μ (negative: written on the second row of its pair), ν, then Z's svec.
+        let z = [-0.375, 0.125, 0.5, -0.3 * std::f64::consts::SQRT_2, 0.625];
+        let text = solution_text(&p, &z);
+        let parsed = parse_solution(&text).unwrap();
+        assert_eq!(parsed.len(), 1);
+        let back = dual_vector(&p, &parsed[0].1).unwrap();
+        for (a, b) in back.iter().zip(&z) {
+            assert!((a - b).abs() < 1e-15, "{back:?} against {z:?}");
+        }
+        // The exported problem has the matrix block and a diagonal one of three rows.
+        assert_eq!(SdpaProblem::from_problem(&p).blocks, vec![2, -3]);
+    }
 }

@@ -183,6 +183,8 @@ pub struct RandomnessOptions {
     pub from_counts: Option<(Counts, f64)>,
     /// Work limits: a run estimated above an hour is refused unless forced.
     pub limits: Limits,
+    /// Also prove each bound in exact rational arithmetic.
+    pub exact: bool,
 }
 
 impl Default for RandomnessOptions {
@@ -194,6 +196,7 @@ impl Default for RandomnessOptions {
             level: Level::Length(2),
             from_counts: None,
             limits: Limits::default(),
+            exact: false,
         }
     }
 }
@@ -250,7 +253,12 @@ pub fn randomness<'a>(
     let mut not_obtained = Vec::new();
     for &v in &scores {
         match guessing_probability(s, &target, v, &options.level) {
-            Ok(r) => results.push(r),
+            Ok(mut r) => {
+                if options.exact {
+                    r.exact = Some(crate::protocol::randomness::prove_exactly(s, &target, &r)?);
+                }
+                results.push(r)
+            }
             Err(e) if scores.len() > 1 && !matches!(e, Error::TooLarge { .. }) => {
                 not_obtained.push(format!("score {v}: {e}"))
             }
@@ -272,6 +280,64 @@ pub fn randomness<'a>(
         not_obtained,
         given,
     })
+}
+
+/// An external solver's solution of the guessing-probability SDP, verified here (the
+/// `randomness --sdpa-solution` command).
+#[derive(Debug, Clone, Serialize)]
+pub struct GuessingImportReport<'a> {
+    /// The game.
+    #[serde(skip)]
+    pub game: &'a Game,
+    /// The guessed answers in words.
+    pub guessed: String,
+    /// The verified bound.
+    #[serde(flatten)]
+    pub import: crate::protocol::randomness::GuessingImport,
+}
+
+/// The guessing-probability SDP at the options' one score in the SDPA sparse format, and its
+/// variable map.
+pub fn randomness_sdpa_export(
+    game: &Game,
+    options: &RandomnessOptions,
+) -> Result<(String, String)> {
+    let s = &game.scenario;
+    let target = TargetChoice::target(s, &options.guessed, options.with.as_ref())?;
+    crate::protocol::randomness::sdpa_export(s, &target, one_score(options)?, &options.level)
+}
+
+/// Verifies an external solver's SDPA output `text` as a dual solution of the SDP that
+/// [`randomness_sdpa_export`] writes with the same options.
+pub fn randomness_sdpa_import<'a>(
+    game: &'a Game,
+    options: &RandomnessOptions,
+    text: &str,
+) -> Result<GuessingImportReport<'a>> {
+    let s = &game.scenario;
+    let target = TargetChoice::target(s, &options.guessed, options.with.as_ref())?;
+    let import = crate::protocol::randomness::sdpa_import(
+        s,
+        &target,
+        one_score(options)?,
+        &options.level,
+        text,
+        options.exact,
+    )?;
+    Ok(GuessingImportReport {
+        game,
+        guessed: target_name(s, &target),
+        import,
+    })
+}
+
+fn one_score(options: &RandomnessOptions) -> Result<f64> {
+    match options.scores[..] {
+        [v] => Ok(v),
+        _ => Err(Error::InvalidArgument(
+            "an SDPA export or import is for one score: give --score".into(),
+        )),
+    }
 }
 
 /// The run's cost, announced before any SDP is solved: refused above an hour (unless forced),

@@ -21,6 +21,7 @@ use crate::bounds::quantum::words::{moment_key, Word};
 use crate::error::{Error, Result};
 use crate::model::scenario::Scenario;
 use crate::optim::backend::{self, Backend};
+use crate::optim::exact::{exact_bound, ExactBound};
 use crate::optim::moment_ipm::{self, IpmOptions, StallPolicy};
 use crate::optim::sdp::{AffineEntry, MatrixBlock, SdpProblem};
 use crate::optim::SolveStatus;
@@ -48,6 +49,12 @@ pub struct Randomness {
     /// (near the edge of the quantum set), the multiplier μ; the bound is valid either way.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub score_multiplier: Option<f64>,
+    /// The bound proven in exact rational arithmetic, when asked ([`prove_exactly`]).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub exact: Option<ExactGuess>,
+    /// The dual vector that proves the bound (for [`prove_exactly`]).
+    #[serde(skip)]
+    pub dual: Vec<f64>,
     /// Wall-clock time.
     pub seconds: f64,
 }
@@ -246,19 +253,21 @@ enum Mode {
     Penalty(f64),
 }
 
-fn guessing_probability_at(
+/// The guessing-probability SDP in one of its two forms, with a name for each variable (for an
+/// export's moment map).
+struct GuessingProblem {
+    problem: SdpProblem,
+    names: Vec<String>,
+}
+
+fn guessing_problem(
     s: &Scenario,
     target: &Target,
     score: f64,
     mode: Mode,
     r: &Relaxation,
-) -> Result<Attempt> {
+) -> Result<GuessingProblem> {
     let level = &r.level;
-    let score_used = match mode {
-        Mode::Constraint(v) => v,
-        Mode::Penalty(_) => score,
-    };
-    let start = std::time::Instant::now();
     target.check(s)?;
     let m = r.matrix.moments.len();
     let index: BTreeMap<&Word, usize> = r
@@ -279,6 +288,7 @@ fn guessing_probability_at(
     let var = |e: usize, k: usize| e * per + 1 + k;
     let lambda = |e: usize| e * per;
     let mut objective = vec![0.0; guesses * per];
+    let mut names = Vec::with_capacity(guesses * per);
     let mut digits = vec![0; radices.len()];
     for e in 0..guesses {
         crate::model::scenario::digits(e, &radices, &mut digits);
@@ -288,6 +298,19 @@ fn guessing_probability_at(
             .zip(&digits)
             .map(|(&(p, x), &a)| (p, x, a))
             .collect();
+        let guess: Vec<String> = parts
+            .iter()
+            .map(|(p, x, a)| format!("{p}:{x}:{a}"))
+            .collect();
+        let guess = format!("guess {}", guess.join(" "));
+        names.push(format!("{guess} | weight"));
+        for w in &r.matrix.moments {
+            let text: Vec<String> = w
+                .iter()
+                .map(|p| format!("{}:{}:{}", p.player, p.setting, p.outcome))
+                .collect();
+            names.push(format!("{guess} | {}", text.join(" ")));
+        }
         for (w, c) in event_terms(s, &parts) {
             if w.is_empty() {
                 objective[lambda(e)] += c;
@@ -348,16 +371,35 @@ fn guessing_probability_at(
             (-mu * score, Vec::new())
         }
     };
-    let problem = SdpProblem {
-        variables: guesses * per,
-        objective,
-        objective_constant,
-        equalities: vec![normalisation],
-        inequalities,
-        blocks,
-        variable_bound: 1.0,
-        variable_bounds: Vec::new(),
+    Ok(GuessingProblem {
+        problem: SdpProblem {
+            variables: guesses * per,
+            objective,
+            objective_constant,
+            equalities: vec![normalisation],
+            inequalities,
+            blocks,
+            variable_bound: 1.0,
+            variable_bounds: Vec::new(),
+        },
+        names,
+    })
+}
+
+fn guessing_probability_at(
+    s: &Scenario,
+    target: &Target,
+    score: f64,
+    mode: Mode,
+    r: &Relaxation,
+) -> Result<Attempt> {
+    let level = &r.level;
+    let score_used = match mode {
+        Mode::Constraint(v) => v,
+        Mode::Penalty(_) => score,
     };
+    let start = std::time::Instant::now();
+    let problem = guessing_problem(s, target, score, mode, r)?.problem;
     let stage = "guessing probability SDP";
     // Only the verified bound is reported, which holds for any dual point: a run of the
     // moment-matrix method that stalls near the edge of the quantum set keeps its best point
@@ -397,12 +439,128 @@ fn guessing_probability_at(
             Mode::Constraint(_) => None,
             Mode::Penalty(mu) => Some(mu),
         },
+        exact: None,
+        dual: sol.z,
         seconds: start.elapsed().as_secs_f64(),
     };
     Ok(Attempt {
         result,
         solver_value: sol.primal,
         multiplier,
+    })
+}
+
+/// A guessing-probability bound proven in exact rational arithmetic
+/// ([`crate::optim::exact`]).
+#[derive(Debug, Clone, Serialize)]
+pub struct ExactGuess {
+    /// The exact bound on the guessing probability.
+    #[serde(flatten)]
+    pub bound: ExactBound,
+    /// −log₂ of its rounded-up value, rounded down: a lower bound on the min-entropy in bits.
+    pub min_entropy: f64,
+}
+
+impl ExactGuess {
+    fn from_bound(bound: ExactBound) -> ExactGuess {
+        // log2 is within an ulp or so of exact: two steps down keep the figure on its side.
+        let min_entropy = (-bound.rounded_up.min(1.0).log2()).next_down().next_down();
+        ExactGuess {
+            bound,
+            min_entropy: min_entropy.max(0.0),
+        }
+    }
+}
+
+/// Proves `r`'s bound (a result of [`guessing_probability`] for `target`) in exact rational
+/// arithmetic: the SDP it came from is rebuilt and its dual vector checked exactly.
+pub fn prove_exactly(s: &Scenario, target: &Target, r: &Randomness) -> Result<ExactGuess> {
+    let (base, _) = sized(s, target, &r.level)?;
+    let mode = match r.score_multiplier {
+        Some(mu) => Mode::Penalty(mu),
+        None => Mode::Constraint(r.score_used),
+    };
+    let g = guessing_problem(s, target, r.score, mode, &base)?;
+    exact_bound(&g.problem, &r.dual).map(ExactGuess::from_bound)
+}
+
+/// The guessing-probability SDP at `score` with the score as a constraint (the problem whose
+/// dual [`Randomness::dual`] is when no Lagrangian term was used).
+pub fn guessing_sdp(
+    s: &Scenario,
+    target: &Target,
+    score: f64,
+    level: &Level,
+) -> Result<SdpProblem> {
+    let (base, _) = sized(s, target, level)?;
+    Ok(guessing_problem(s, target, score, Mode::Constraint(score), &base)?.problem)
+}
+
+/// The guessing-probability SDP at `score` (the score as a constraint) in the SDPA sparse
+/// format, and its variable map (one line per variable: its 1-based index, the guess and either
+/// the guess's weight λ_e or a moment's word, `player:question:answer` projectors).
+pub fn sdpa_export(
+    s: &Scenario,
+    target: &Target,
+    score: f64,
+    level: &Level,
+) -> Result<(String, String)> {
+    let (base, _) = sized(s, target, level)?;
+    let g = guessing_problem(s, target, score, Mode::Constraint(score), &base)?;
+    let sdpa = crate::optim::sdpa::SdpaProblem::from_problem(&g.problem);
+    let comment = vec![
+        format!(
+            "bellgap guessing-probability SDP, NPA level {}, score at least {score:?}: maximise Σ b_i y_i is minimise Σ c_i x_i with c = −b",
+            level.name()
+        ),
+        "one moment matrix per guess, scaled by the guess's weight; every variable lies in [−1, 1]; the variable map is in the .words file".into(),
+    ];
+    let mut words = String::from(
+        "# variable (1-based), its guess and its word (player:question:answer projectors) or the guess's weight\n",
+    );
+    for (i, name) in g.names.iter().enumerate() {
+        words.push_str(&format!("{} {name}\n", i + 1));
+    }
+    Ok((sdpa.to_text(&comment), words))
+}
+
+/// A dual solution of the SDP [`sdpa_export`] writes, from an external solver in SDPA output
+/// format, checked on the SDP rebuilt here.
+#[derive(Debug, Clone, Serialize)]
+pub struct GuessingImport {
+    /// The score.
+    pub score: f64,
+    /// The NPA level.
+    pub level: Level,
+    /// The bound on the guessing probability it proves.
+    #[serde(flatten)]
+    pub bound: crate::optim::sdpa::ImportedBound,
+    /// −log₂ of the verified bound, rounded down.
+    pub min_entropy: f64,
+}
+
+/// Checks an SDPA output's dual on the guessing-probability SDP at `score` (see
+/// [`GuessingImport`]).
+pub fn sdpa_import(
+    s: &Scenario,
+    target: &Target,
+    score: f64,
+    level: &Level,
+    text: &str,
+    exact: bool,
+) -> Result<GuessingImport> {
+    let (base, _) = sized(s, target, level)?;
+    let g = guessing_problem(s, target, score, Mode::Constraint(score), &base)?;
+    let bound = crate::optim::sdpa::import_dual(&g.problem, text, exact)?;
+    let min_entropy = (-bound.verified_upper.min(1.0).log2())
+        .next_down()
+        .next_down()
+        .max(0.0);
+    Ok(GuessingImport {
+        score,
+        level: level.clone(),
+        bound,
+        min_entropy,
     })
 }
 

@@ -453,19 +453,6 @@ impl Serialize for MarginReport<'_> {
 }
 
 #[derive(Serialize)]
-struct RandomnessOneView<'a> {
-    score: f64,
-    score_used: f64,
-    guessing_probability: f64,
-    min_entropy: f64,
-    level: &'a Level,
-    status: SolveStatus,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    score_multiplier: Option<f64>,
-    seconds: f64,
-}
-
-#[derive(Serialize)]
 struct RandomnessView<'a> {
     schema_version: u32,
     command: &'static str,
@@ -475,7 +462,7 @@ struct RandomnessView<'a> {
     given: Option<&'a str>,
     caution: &'static str,
     #[serde(flatten)]
-    one: Option<RandomnessOneView<'a>>,
+    one: Option<&'a Randomness>,
     #[serde(skip_serializing_if = "Option::is_none")]
     sweep: Option<&'a [Randomness]>,
     #[serde(skip_serializing_if = "<[String]>::is_empty")]
@@ -485,16 +472,7 @@ struct RandomnessView<'a> {
 impl Serialize for RandomnessReport<'_> {
     fn serialize<S: Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
         let one = match &self.results[..] {
-            [r] => Some(RandomnessOneView {
-                score: r.score,
-                score_used: r.score_used,
-                guessing_probability: r.guessing_probability,
-                min_entropy: r.min_entropy,
-                level: &r.level,
-                status: r.status,
-                score_multiplier: r.score_multiplier,
-                seconds: r.seconds,
-            }),
+            [r] => Some(r),
             _ => None,
         };
         RandomnessView {

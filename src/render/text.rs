@@ -609,6 +609,17 @@ pub fn randomness(report: &RandomnessReport) -> String {
             r.level
         );
     }
+    for r in rs {
+        if let Some(e) = &r.exact {
+            out += &format!(
+                "proven exactly at score {}: guessing probability ≤ {} (rounded up), min-entropy ≥ {} bits; as a fraction {}\n",
+                num(r.score),
+                num_up(e.bound.rounded_up),
+                num_down(e.min_entropy),
+                e.bound.fraction
+            );
+        }
+    }
     for f in &report.not_obtained {
         out += &format!("not obtained: {f}\n");
     }
@@ -696,12 +707,12 @@ pub fn sdpa_import(
         ),
         (
             "SDPA solution".into(),
-            format!("{source} ({} as the dual)", r.matrix),
+            format!("{source} ({} as the dual)", r.bound.matrix),
         ),
         ("level".into(), r.level.name()),
-        ("verified quantum ≤".into(), num_up(r.verified_upper)),
+        ("verified quantum ≤".into(), num_up(r.bound.verified_upper)),
     ];
-    if let Some(e) = &r.exact {
+    if let Some(e) = &r.bound.exact {
         rows.push((
             "proven exactly ≤".into(),
             format!("{} (rounded up)", num_up(e.rounded_up)),
@@ -709,6 +720,41 @@ pub fn sdpa_import(
         rows.push(("as a fraction".into(), e.fraction.clone()));
     }
     table(&rows)
+}
+
+/// An external solver's solution of the guessing-probability SDP, verified.
+pub fn guessing_import(r: &crate::pipeline::GuessingImportReport, source: &str) -> String {
+    let i = &r.import;
+    let mut rows = vec![
+        (
+            "game".to_string(),
+            format!("{} ({})", r.game.name, r.game.source),
+        ),
+        ("guessed".into(), r.guessed.clone()),
+        (
+            "SDPA solution".into(),
+            format!("{source} ({} as the dual)", i.bound.matrix),
+        ),
+        ("score at least".into(), num(i.score)),
+        ("level".into(), i.level.name()),
+        (
+            "guessing probability ≤".into(),
+            format!("{} (verified)", num_up(i.bound.verified_upper)),
+        ),
+        ("min-entropy ≥ (bits)".into(), num_down(i.min_entropy)),
+    ];
+    if let Some(e) = &i.bound.exact {
+        rows.push((
+            "proven exactly ≤".into(),
+            format!("{} (rounded up)", num_up(e.rounded_up)),
+        ));
+        rows.push(("as a fraction".into(), e.fraction.clone()));
+    }
+    let mut out = table(&rows);
+    out += &format!(
+        "\nassumptions: quantum adversary, i.i.d. rounds, asymptotic per-round figure.\n{CAUTION}\n"
+    );
+    out
 }
 
 /// The `self-test` command's report.

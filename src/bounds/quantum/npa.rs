@@ -1033,19 +1033,14 @@ pub fn sdpa_export(s: &Scenario, level: &Level, limits: &Limits) -> Result<(Stri
 }
 
 /// A dual solution written by an external solver (SDPA output format), checked on our own
-/// relaxation at `level`: each of its matrices (`xMat`, `yMat`) is tried as the dual and the
-/// smallest verified bound kept (any matrix gives a valid bound).
+/// relaxation at `level` (see [`crate::optim::sdpa::import_dual`]).
 #[derive(Debug, Clone, Serialize)]
 pub struct SdpaImport {
     /// The level.
     pub level: Level,
-    /// The verified bound.
-    pub verified_upper: f64,
-    /// The matrix that proved it.
-    pub matrix: String,
-    /// The bound proven exactly, when asked.
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub exact: Option<crate::optim::exact::ExactBound>,
+    /// The bound it proves.
+    #[serde(flatten)]
+    pub bound: crate::optim::sdpa::ImportedBound,
 }
 
 /// Checks an SDPA output's dual on the relaxation at `level` (see [`SdpaImport`]).
@@ -1057,39 +1052,9 @@ pub fn sdpa_import(
     limits: &Limits,
 ) -> Result<SdpaImport> {
     let r = full_relaxation(s, level, limits)?;
-    let assembled = r.problem.assemble();
-    let mut best: Option<(f64, Vec<f64>, String)> = None;
-    for (name, matrices) in crate::optim::sdpa::parse_solution(text)? {
-        let Some(z) = crate::optim::sdpa::dual_vector(&r.problem, &matrices) else {
-            continue;
-        };
-        if z.iter().any(|v| !v.is_finite()) {
-            continue;
-        }
-        if let Ok(bound) = assembled.certified_bound(&z) {
-            if bound.is_finite() && best.as_ref().is_none_or(|b| bound < b.0) {
-                best = Some((bound, z, name));
-            }
-        }
-    }
-    let (verified_upper, z, matrix) = best.ok_or_else(|| {
-        Error::InvalidArgument(format!(
-            "the SDPA solution has no matrix of this relaxation's shape (level {}: one {}×{} block)",
-            level.name(),
-            r.matrix.size(),
-            r.matrix.size()
-        ))
-    })?;
-    let exact = if exact {
-        Some(crate::optim::exact::exact_bound(&r.problem, &z)?)
-    } else {
-        None
-    };
     Ok(SdpaImport {
         level: level.clone(),
-        verified_upper,
-        matrix,
-        exact,
+        bound: crate::optim::sdpa::import_dual(&r.problem, text, exact)?,
     })
 }
 
