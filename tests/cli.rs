@@ -2139,3 +2139,55 @@ fn randomness_exports_its_sdp_verifies_an_external_solution_and_proves_exactly()
     assert!(String::from_utf8_lossy(&out.stderr).contains("guess.out"));
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+#[test]
+fn entropy_writes_each_node_sdp_with_its_variable_map() {
+    let dir = std::env::temp_dir().join(format!("bellgap-nodes-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let prefix = dir.join("chsh");
+    let out = bellgap(&[
+        "entropy",
+        "games/chsh.yaml",
+        "--score",
+        "0.84",
+        "--nodes",
+        "4",
+        "--sdpa",
+        prefix.to_str().unwrap(),
+        "--quiet",
+    ]);
+    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    let mut names: Vec<String> = std::fs::read_dir(&dir)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().to_string())
+        .collect();
+    names.sort();
+    assert_eq!(
+        names,
+        [
+            "chsh-node-01.dat-s",
+            "chsh-node-01.dat-s.words",
+            "chsh-node-02.dat-s",
+            "chsh-node-02.dat-s.words",
+            "chsh-node-03.dat-s",
+            "chsh-node-03.dat-s.words"
+        ]
+    );
+    let text = std::fs::read_to_string(dir.join("chsh-node-01.dat-s")).unwrap();
+    assert!(text.contains("node 1 of 3"), "{text}");
+    let parsed = bellgap::optim::sdpa::SdpaProblem::parse(&text).unwrap();
+    let words = std::fs::read_to_string(dir.join("chsh-node-01.dat-s.words")).unwrap();
+    assert_eq!(words.lines().count(), parsed.variables + 1);
+    assert!(words.contains(" Z0"), "{words}");
+    // Without a single score there is nothing to export.
+    let out = bellgap(&[
+        "entropy",
+        "games/chsh.yaml",
+        "--sweep",
+        "0.8:0.84:2",
+        "--sdpa",
+        prefix.to_str().unwrap(),
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    let _ = std::fs::remove_dir_all(&dir);
+}

@@ -593,3 +593,40 @@ fn the_reduced_hierarchy_never_proves_less_than_the_full_one_where_it_once_did()
         );
     }
 }
+
+#[test]
+fn exported_node_sdps_are_the_nodes_the_hierarchy_solves() {
+    use bellgap::bounds::entropy::PreparedHierarchy;
+    use bellgap::optim::sdpa::SdpaProblem;
+    let g = chsh();
+    let s = &g.scenario;
+    let target = alice_first();
+    let options = EntropyOptions {
+        symmetry: SymmetryChoice::Off,
+        ..light()
+    };
+    let prepared = PreparedHierarchy::new(s, &target, &options).unwrap();
+    let constraint = EntropyConstraint::Score(2.6);
+    let nodes = prepared.node_sdps(&constraint).unwrap();
+    let bound = prepared.bound(&constraint, &|_, _| {}).unwrap();
+    assert_eq!(nodes.len(), options.nodes - 1);
+    for (node, term) in nodes.iter().zip(&bound.terms) {
+        assert_eq!(node.t, term.t);
+        assert_eq!(node.variables.len(), node.problem.variables);
+        // The file reads back to the same problem.
+        let sdpa = SdpaProblem::from_problem(&node.problem);
+        assert_eq!(SdpaProblem::parse(&sdpa.to_text(&[])).unwrap(), sdpa);
+        // Solved on its own, the exported node gives the infimum the hierarchy summed.
+        let sol =
+            bellgap::optim::backend::solve(&node.problem, bellgap::Backend::Auto, "node").unwrap();
+        assert!(
+            (-sol.certified - term.infimum).abs() < 1e-6,
+            "t = {}: {} against {}",
+            node.t,
+            -sol.certified,
+            term.infimum
+        );
+    }
+    // A score the hierarchy refuses is refused for export too.
+    assert!(prepared.node_sdps(&EntropyConstraint::Score(3.0)).is_err());
+}

@@ -247,6 +247,7 @@ off\t''"
 complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -l key-with -d 'Key rate: the player whose answers the key is reconciled with (needs --behaviour or --strategy)' -r
 complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -l key-question -d 'Key rate: that player\'s question (label; default: the first)' -r
 complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -l error-rate -d 'Key rate: the probability that the key answers differ (H(A|B) by Fano\'s bound)' -r
+complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -l sdpa -d 'Write each node\'s SDP at the score (one) in the SDPA sparse format, as PREFIX-node-KK.dat-s (K from 01) with its variable map (.words), for external solvers' -r -F
 complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -l json -d 'Print exactly one JSON object on stdout'
 complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -s q -l quiet -d 'No progress output on stderr'
 complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -l force -d 'Run even when the size estimate says it would take very long'

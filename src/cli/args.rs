@@ -403,6 +403,10 @@ pub enum Command {
         /// Key rate: the probability that the key answers differ (H(A|B) by Fano's bound).
         #[arg(long, allow_hyphen_values = true, value_parser = parse_finite)]
         error_rate: Option<f64>,
+        /// Write each node's SDP at the score (one) in the SDPA sparse format, as
+        /// PREFIX-node-KK.dat-s (K from 01) with its variable map (.words), for external solvers.
+        #[arg(long, value_name = "PREFIX", requires = "score")]
+        sdpa: Option<PathBuf>,
     },
     /// What a spot-checking run of n rounds certifies, by entropy accumulation: the smooth
     /// min-entropy, the certified bits of randomness (or key) and the rate per round, the n at

@@ -482,8 +482,21 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             strategy,
             counts,
             options,
+            sdpa,
         } => {
             let game = load(game)?;
+            if let Some(prefix) = sdpa {
+                for (k, node) in pipeline::entropy_sdpa_export(&game, options)?
+                    .iter()
+                    .enumerate()
+                {
+                    let mut file = prefix.clone().into_os_string();
+                    file.push(format!("-node-{:02}.dat-s", k + 1));
+                    write(Path::new(&file), &node.sdpa, inputs)?;
+                    file.push(".words");
+                    write(Path::new(&file), &node.words, inputs)?;
+                }
+            }
             let mut options = options.clone();
             if let Some((file, alpha)) = counts {
                 let c = Counts::from_file(&file.to_string_lossy())?;

@@ -228,6 +228,8 @@ pub enum Request {
         strategy: Option<PathBuf>,
         counts: Option<(PathBuf, f64)>,
         options: EntropyCommandOptions,
+        /// Where to write the node SDPs (a path prefix).
+        sdpa: Option<PathBuf>,
     },
     /// `design`; the no-click answer label and the dimensions are resolved with the game.
     Design {
@@ -686,8 +688,10 @@ impl Invocation {
                 key_with,
                 key_question,
                 error_rate,
+                sdpa,
             } => Request::Entropy {
                 game: game_input(args),
+                sdpa: sdpa.clone(),
                 behaviour: behaviour.clone(),
                 strategy: strategy.clone(),
                 counts: counts.clone().map(|c| (c, *alpha)),

@@ -720,6 +720,73 @@ pub(crate) fn preprocessing_assumption(preprocessing: Preprocessing) -> Option<S
     }
 }
 
+/// One node's SDP of the entropy hierarchy in the SDPA sparse format (`entropy --sdpa`).
+#[derive(Debug, Clone)]
+pub struct EntropyNodeExport {
+    /// The node t.
+    pub t: f64,
+    /// The SDPA file.
+    pub sdpa: String,
+    /// Its variable map, with each variable's bound.
+    pub words: String,
+}
+
+/// Every node's SDP (t < 1) of the entropy hierarchy at the options' one score, in full (no
+/// symmetry reduction), in the SDPA sparse format with a variable map each. Each file's comment
+/// says how its optimum enters the bound.
+pub fn entropy_sdpa_export(
+    game: &Game,
+    options: &EntropyCommandOptions,
+) -> Result<Vec<EntropyNodeExport>> {
+    let s = &game.scenario;
+    let EntropyGiven::Scores(scores) = &options.given else {
+        return Err(Error::InvalidArgument(
+            "the entropy nodes are exported at a score: give --score".into(),
+        ));
+    };
+    let &[score] = &scores[..] else {
+        return Err(Error::InvalidArgument(
+            "the entropy nodes are exported at one score: give --score".into(),
+        ));
+    };
+    let target = TargetChoice::target(s, &options.target, options.with.as_ref())?;
+    let prepared = PreparedHierarchy::new(s, &target, &options.hierarchy)?;
+    let nodes = prepared.node_sdps(&EntropyConstraint::Score(score))?;
+    let count = nodes.len() + 1;
+    Ok(nodes
+        .into_iter()
+        .enumerate()
+        .map(|(i, node)| {
+            let comment = vec![
+                format!(
+                    "bellgap entropy hierarchy (Gauss–Radau, {count} nodes), node {} of {}: t = {:?}, weight w = {:?}; score at least {score:?}",
+                    i + 1,
+                    count - 1,
+                    node.t,
+                    node.weight
+                ),
+                format!(
+                    "maximise c0 + Σ b_i y_i is minimise Σ c_i x_i with c = −b; c0 = {:?}; the node's infimum is minus the maximum, and H ≥ Σ_nodes w/(t ln 2)·(1 + infimum) + the node t = 1's floor",
+                    node.problem.objective_constant
+                ),
+                "each variable's bound (not part of the format) is in the .words file with its word".into(),
+            ];
+            let mut words = String::from(
+                "# variable (1-based), real or imaginary part, word (player:question:answer projectors, then the adversary's Z<e> and Z<e>*) and its bound\n",
+            );
+            for (k, name) in node.variables.iter().enumerate() {
+                words.push_str(&format!("{} {name}\n", k + 1));
+            }
+            EntropyNodeExport {
+                t: node.t,
+                sdpa: crate::optim::sdpa::SdpaProblem::from_problem(&node.problem)
+                    .to_text(&comment),
+                words,
+            }
+        })
+        .collect())
+}
+
 /// The `entropy` command: a verified lower bound on H(A|X=x*, E) at each score, or for the
 /// behaviour, and optionally the Devetak–Winter key rate.
 pub fn entropy<'a>(

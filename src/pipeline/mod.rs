@@ -16,11 +16,12 @@ pub use design::{
     design, DesignFigure, DesignReport, DesignRequest, FigureValue, DEFAULT_TANGENTS,
 };
 pub use figures::{
-    entropy, entropy_assumptions, key, local, margin, randomness, randomness_sdpa_export,
-    randomness_sdpa_import, verify, BestFlip, DevetakWinter, EntropyCommandOptions, EntropyGiven,
-    EntropyReport, EntropyResult, ErrorCorrection, GuessingImportReport, KeyOptions, KeyReport,
-    LocalReport, MarginOptions, MarginReport, RandomnessOptions, RandomnessReport, RunData,
-    TargetChoice, VerifyReport, MAX_SCORES,
+    entropy, entropy_assumptions, entropy_sdpa_export, key, local, margin, randomness,
+    randomness_sdpa_export, randomness_sdpa_import, verify, BestFlip, DevetakWinter,
+    EntropyCommandOptions, EntropyGiven, EntropyNodeExport, EntropyReport, EntropyResult,
+    ErrorCorrection, GuessingImportReport, KeyOptions, KeyReport, LocalReport, MarginOptions,
+    MarginReport, RandomnessOptions, RandomnessReport, RunData, TargetChoice, VerifyReport,
+    MAX_SCORES,
 };
 pub use finite_size::{
     finite_size, finite_size_assumptions, Extracting, FiniteSizeOptions, FiniteSizeReport,

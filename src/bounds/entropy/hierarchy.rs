@@ -55,7 +55,7 @@ use serde::Serialize;
 use super::quadrature::RadauRule;
 use super::relaxation::{
     node_problem, players_only, with_letters, AdversaryWords, EntropyMatrix, EntropyWord,
-    EveLetter, MomentField, MomentTerms,
+    EveLetter, MomentField, MomentTerms, NodeProblem,
 };
 use super::symmetry::EntropyReduction;
 use crate::bounds::quantum::membership;
@@ -732,6 +732,42 @@ fn solve_node(problem: &SdpProblem, solver: Backend, stage: &str) -> Result<SdpS
     }
 }
 
+/// A constraint's rows in the node problems (see [`PreparedHierarchy::bound`]).
+struct ConstraintRows {
+    equalities: Vec<(MomentTerms, f64)>,
+    at_least: Vec<(MomentTerms, f64, f64)>,
+    tradeoff_ends: Option<(f64, f64, f64)>,
+}
+
+/// One node's SDP, for export ([`PreparedHierarchy::node_sdps`]).
+#[derive(Debug, Clone)]
+pub struct NodeSdp {
+    /// The node t.
+    pub t: f64,
+    /// Its Gauss–Radau weight.
+    pub weight: f64,
+    /// The SDP: maximise minus the node's objective.
+    pub problem: SdpProblem,
+    /// Each variable's name: `re` or `im`, the moment's word (players' projectors
+    /// `player:question:answer`, the adversary's `Z<e>` and `Z<e>*`), and its bound.
+    pub variables: Vec<String>,
+}
+
+/// A word in text: the players' projectors, then the adversary's letters.
+fn word_text(w: &EntropyWord) -> String {
+    let mut parts: Vec<String> = w
+        .players
+        .iter()
+        .map(|p| format!("{}:{}:{}", p.player, p.setting, p.outcome))
+        .collect();
+    parts.extend(
+        w.eve
+            .iter()
+            .map(|l| format!("Z{}{}", l.event, if l.adjoint { "*" } else { "" })),
+    );
+    parts.join(" ")
+}
+
 /// A verified lower bound on H(A|X=x*, E) (one part) or H(AB|X=x*, Y=y*, E) (two parts), in
 /// bits, over every quantum strategy meeting `constraint`, by the Gauss–Radau hierarchy.
 pub fn conditional_entropy(
@@ -830,6 +866,106 @@ impl<'a> PreparedHierarchy<'a> {
         )
     }
 
+    /// The constraint's rows in the node problems: equalities, "at least" functionals, and for
+    /// a score the ends of the min-tradeoff line's range (lowest, highest, score). Checks first
+    /// that some quantum behaviour meets the constraint.
+    fn constraint_rows(&self, constraint: &EntropyConstraint) -> Result<ConstraintRows> {
+        let (s, level) = (self.s, &self.level);
+        let mut tradeoff_ends: Option<(f64, f64, f64)> = None;
+        let (equalities, at_least) = match constraint {
+            EntropyConstraint::Score(v) => {
+                if !v.is_finite() {
+                    return Err(Error::InvalidArgument(format!(
+                        "the score {v} is not a finite number"
+                    )));
+                }
+                // A score above every quantum behaviour's leaves nothing to bound: said here, so
+                // that a solver's failure below is never mistaken for it (or the reverse).
+                let (quantum_upper, value) = self.score_context()?;
+                if *v > *quantum_upper {
+                    return Err(Error::InvalidArgument(format!(
+                        "the score {v} is above the quantum bound {} (NPA level {}): no quantum behaviour reaches it",
+                        quantum_upper,
+                        level.name()
+                    )));
+                }
+                let (lowest, highest_value) = s.value_range();
+                if *v < lowest - 1e-9 * (1.0 + lowest.abs()) {
+                    return Err(Error::InvalidArgument(format!(
+                        "the score {v} is below the game's lowest value {lowest}: no behaviour scores that little, so the bound would be about nothing"
+                    )));
+                }
+                tradeoff_ends = Some((lowest, quantum_upper.min(highest_value), *v));
+                (Vec::new(), vec![(value.clone(), *v, highest_value)])
+            }
+            EntropyConstraint::Region(region) => {
+                // A region with no quantum behaviour would make every figure vacuous (the
+                // relaxations are infeasible and their duals unbounded): proven here and refused.
+                let distance = membership::region_distance(s, region, level, self.options.backend)?;
+                if distance.proven_outside() {
+                    return Err(outside_quantum_set(level, distance.verified_lower));
+                }
+                (Vec::new(), region_constraints(s, region)?)
+            }
+        };
+        Ok(ConstraintRows {
+            equalities,
+            at_least,
+            tradeoff_ends,
+        })
+    }
+
+    /// The node at `t`: its objective, the norm bound α = 1/(2√(t(1 − t))) of the adversary's
+    /// operators, and its SDP.
+    fn node_at(
+        &self,
+        t: f64,
+        equalities: &[(MomentTerms, f64)],
+        at_least: &[(MomentTerms, f64, f64)],
+    ) -> Result<(Vec<(EntropyWord, f64)>, f64, NodeProblem)> {
+        let alpha = 1.0 / (2.0 * (t * (1.0 - t)).sqrt());
+        let objective = node_objective(self.s, self.target, self.options.preprocessing, t);
+        let node = node_problem(
+            &self.matrix,
+            &objective,
+            equalities,
+            at_least,
+            self.options.field,
+            alpha,
+        )?;
+        Ok((objective, alpha, node))
+    }
+
+    /// Each node's SDP (t < 1) under `constraint`, in full (no symmetry reduction), with a
+    /// name for each variable, for export: what [`PreparedHierarchy::bound`] solves at each
+    /// node, its verified infimum −(the SDP's maximum) entering the sum with the weight
+    /// w/(t ln 2).
+    pub fn node_sdps(&self, constraint: &EntropyConstraint) -> Result<Vec<NodeSdp>> {
+        let rows = self.constraint_rows(constraint)?;
+        let m = self.rule.nodes.len();
+        let names: Vec<String> = self.matrix.moments.iter().map(word_text).collect();
+        let mut out = Vec::with_capacity(m - 1);
+        for (&t, &weight) in self.rule.nodes[..m - 1].iter().zip(&self.rule.weights) {
+            let (_, _, node) = self.node_at(t, &rows.equalities, &rows.at_least)?;
+            let bounds = &node.problem.variable_bounds;
+            let mut variables = vec![String::new(); node.problem.variables];
+            for (k, name) in names.iter().enumerate() {
+                let re = node.real[k];
+                variables[re] = format!("re {name} (|·| ≤ {:?})", bounds[re]);
+                if let Some(im) = node.imaginary[k] {
+                    variables[im] = format!("im {name} (|·| ≤ {:?})", bounds[im]);
+                }
+            }
+            out.push(NodeSdp {
+                t,
+                weight,
+                problem: node.problem,
+                variables,
+            });
+        }
+        Ok(out)
+    }
+
     /// A verified lower bound on the entropy under `constraint` (see [`conditional_entropy`]).
     pub fn bound(
         &self,
@@ -855,56 +991,15 @@ impl<'a> PreparedHierarchy<'a> {
                     .into(),
             });
         }
-        let mut tradeoff_ends: Option<(f64, f64, f64)> = None;
-        let (equalities, at_least) = match constraint {
-            EntropyConstraint::Score(v) => {
-                if !v.is_finite() {
-                    return Err(Error::InvalidArgument(format!(
-                        "the score {v} is not a finite number"
-                    )));
-                }
-                // A score above every quantum behaviour's leaves nothing to bound: said here, so
-                // that a solver's failure below is never mistaken for it (or the reverse).
-                let (quantum_upper, value) = self.score_context()?;
-                if *v > *quantum_upper {
-                    return Err(Error::InvalidArgument(format!(
-                    "the score {v} is above the quantum bound {} (NPA level {}): no quantum behaviour reaches it",
-                    quantum_upper,
-                    level.name()
-                )));
-                }
-                let (lowest, highest_value) = s.value_range();
-                if *v < lowest - 1e-9 * (1.0 + lowest.abs()) {
-                    return Err(Error::InvalidArgument(format!(
-                    "the score {v} is below the game's lowest value {lowest}: no behaviour scores that little, so the bound would be about nothing"
-                )));
-                }
-                tradeoff_ends = Some((lowest, quantum_upper.min(highest_value), *v));
-                (Vec::new(), vec![(value.clone(), *v, highest_value)])
-            }
-            EntropyConstraint::Region(region) => {
-                // A region with no quantum behaviour would make every figure vacuous (the
-                // relaxations are infeasible and their duals unbounded): proven here and refused.
-                let distance = membership::region_distance(s, region, level, options.backend)?;
-                if distance.proven_outside() {
-                    return Err(outside_quantum_set(level, distance.verified_lower));
-                }
-                (Vec::new(), region_constraints(s, region)?)
-            }
-        };
+        let ConstraintRows {
+            equalities,
+            at_least,
+            tradeoff_ends,
+        } = self.constraint_rows(constraint)?;
         let m = rule.nodes.len();
         let finished = std::sync::atomic::AtomicUsize::new(0);
         let node_at = |(&t, &w): (&f64, &f64)| -> Result<NodeOutcome> {
-            let alpha = 1.0 / (2.0 * (t * (1.0 - t)).sqrt());
-            let objective = node_objective(s, target, options.preprocessing, t);
-            let node = node_problem(
-                matrix,
-                &objective,
-                &equalities,
-                &at_least,
-                options.field,
-                alpha,
-            )?;
+            let (objective, alpha, node) = self.node_at(t, &equalities, &at_least)?;
             let stage = format!("entropy relaxation at t = {t:.4}");
             let solved_node = match &reduction {
                 None => solve_node(&node.problem, options.backend, &stage),
