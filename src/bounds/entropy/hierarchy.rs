@@ -739,6 +739,13 @@ struct ConstraintRows {
     tradeoff_ends: Option<(f64, f64, f64)>,
 }
 
+/// One node's objective, norm bound α and SDP ([`PreparedHierarchy::bound`]).
+struct NodeAt {
+    objective: Vec<(EntropyWord, f64)>,
+    alpha: f64,
+    node: NodeProblem,
+}
+
 /// One node's SDP, for export ([`PreparedHierarchy::node_sdps`]).
 #[derive(Debug, Clone)]
 pub struct NodeSdp {
@@ -922,7 +929,7 @@ impl<'a> PreparedHierarchy<'a> {
         t: f64,
         equalities: &[(MomentTerms, f64)],
         at_least: &[(MomentTerms, f64, f64)],
-    ) -> Result<(Vec<(EntropyWord, f64)>, f64, NodeProblem)> {
+    ) -> Result<NodeAt> {
         let alpha = 1.0 / (2.0 * (t * (1.0 - t)).sqrt());
         let objective = node_objective(self.s, self.target, self.options.preprocessing, t);
         let node = node_problem(
@@ -933,7 +940,11 @@ impl<'a> PreparedHierarchy<'a> {
             self.options.field,
             alpha,
         )?;
-        Ok((objective, alpha, node))
+        Ok(NodeAt {
+            objective,
+            alpha,
+            node,
+        })
     }
 
     /// Each node's SDP (t < 1) under `constraint`, in full (no symmetry reduction), with a
@@ -946,7 +957,7 @@ impl<'a> PreparedHierarchy<'a> {
         let names: Vec<String> = self.matrix.moments.iter().map(word_text).collect();
         let mut out = Vec::with_capacity(m - 1);
         for (&t, &weight) in self.rule.nodes[..m - 1].iter().zip(&self.rule.weights) {
-            let (_, _, node) = self.node_at(t, &rows.equalities, &rows.at_least)?;
+            let node = self.node_at(t, &rows.equalities, &rows.at_least)?.node;
             let bounds = &node.problem.variable_bounds;
             let mut variables = vec![String::new(); node.problem.variables];
             for (k, name) in names.iter().enumerate() {
@@ -999,7 +1010,11 @@ impl<'a> PreparedHierarchy<'a> {
         let m = rule.nodes.len();
         let finished = std::sync::atomic::AtomicUsize::new(0);
         let node_at = |(&t, &w): (&f64, &f64)| -> Result<NodeOutcome> {
-            let (objective, alpha, node) = self.node_at(t, &equalities, &at_least)?;
+            let NodeAt {
+                objective,
+                alpha,
+                node,
+            } = self.node_at(t, &equalities, &at_least)?;
             let stage = format!("entropy relaxation at t = {t:.4}");
             let solved_node = match &reduction {
                 None => solve_node(&node.problem, options.backend, &stage),
