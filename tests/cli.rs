@@ -180,9 +180,26 @@ fn locality_test_of_the_tsirelson_box() {
     assert!(j["signalling"].as_f64().unwrap() < 1e-12);
     let value = j["separating"]["value"].as_f64().unwrap();
     assert!((value - (1.0 - 1.0 / 2f64.sqrt())).abs() < 1e-7);
-    // The saved separating expression is a game file whose classical value is its local bound 0.
+    // Scaled to small integers it is the CHSH game's win count (the correlated answers at
+    // three question pairs, the anti-correlated ones at the fourth): local bound 3, value
+    // 2 + √2 on the box, proven exactly.
+    let int = &j["separating"]["integer"];
+    let coefficients: Vec<i64> = int["coefficients"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|v| v.as_i64().unwrap())
+        .collect();
+    assert_eq!(
+        coefficients,
+        [1, 0, 0, 1, 1, 0, 0, 1, 1, 0, 0, 1, 0, 1, 1, 0]
+    );
+    assert_eq!(int["local_bound"], 3);
+    let v = int["value"].as_f64().unwrap();
+    assert!(v <= 2.0 + 2f64.sqrt() + 1e-9 && v > 3.414, "{int}");
+    // The saved file is that integer expression: its classical value is its local bound.
     let c = json_of(&bellgap(&["classical", &save.to_string_lossy(), "--json"]));
-    assert!(c["classical"].as_f64().unwrap().abs() < 1e-7, "{c}");
+    assert_eq!(c["classical"].as_f64().unwrap(), 3.0, "{c}");
 }
 
 #[test]
@@ -2156,7 +2173,11 @@ fn entropy_writes_each_node_sdp_with_its_variable_map() {
         prefix.to_str().unwrap(),
         "--quiet",
     ]);
-    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     let mut names: Vec<String> = std::fs::read_dir(&dir)
         .unwrap()
         .map(|e| e.unwrap().file_name().to_string_lossy().to_string())

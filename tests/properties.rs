@@ -314,3 +314,72 @@ proptest! {
         prop_assert!(ideal.iter().zip(&same).all(|(a, b)| (a - b).abs() < 1e-15));
     }
 }
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 96, ..ProptestConfig::default() })]
+
+    /// A separating expression scaled to integers is re-checked by brute force: its local
+    /// bound is the best deterministic strategy's value, and the correlations exceed it.
+    #[test]
+    fn integer_separating_expressions_separate(
+        sizes in proptest::collection::vec((2usize..=3, 2usize..=3), 2),
+        table in proptest::collection::vec(-3i8..=3, 81),
+        visibility in 0.7f64..1.0,
+    ) {
+        use bellgap::bounds::classical::locality::locality_test;
+        use bellgap::Correlations;
+        let parties: Vec<Party> = sizes
+            .iter()
+            .enumerate()
+            .map(|(i, &(q, a))| Party {
+                name: format!("p{i}"),
+                question_labels: (0..q as i64).collect(),
+                answer_labels: (0..a as i64).collect(),
+            })
+            .collect();
+        let nq = sizes[0].0 * sizes[1].0;
+        let cells = nq * sizes[0].1 * sizes[1].1;
+        let s = &Scenario::new(
+            parties,
+            vec![1.0 / nq as f64; nq],
+            table[..cells].iter().map(|&v| v as f64).collect(),
+            0.0,
+            ScoreKind::Score,
+        )
+        .unwrap();
+        let ns = no_signalling_value(s, &bellgap::Limits::default()).unwrap();
+        let na: usize = s.parties().iter().map(|p| p.answers()).product();
+        // The game's optimal no-signalling behaviour with white noise.
+        let p: Vec<f64> = ns
+            .behaviour
+            .iter()
+            .map(|v| visibility * v.max(0.0) + (1.0 - visibility) / na as f64)
+            .collect();
+        let c = Correlations {
+            name: "random".into(),
+            parties: s.parties().to_vec(),
+            p,
+            rounds: None,
+        };
+        let Ok(report) = locality_test(&c, &bellgap::Limits::default()) else {
+            return Ok(());
+        };
+        let Some(int) = report.separating.and_then(|sep| sep.integer) else {
+            return Ok(());
+        };
+        let nq = c.p.len() / na;
+        let expression = Scenario::new(
+            s.parties().to_vec(),
+            vec![1.0 / nq as f64; nq],
+            int.coefficients.iter().map(|&k| k as f64).collect(),
+            0.0,
+            ScoreKind::Score,
+        )
+        .unwrap();
+        let local = brute_force(&expression) * nq as f64;
+        prop_assert!((local - int.local_bound as f64).abs() < 1e-6, "{local} against {int:?}");
+        let value: f64 = int.coefficients.iter().zip(&c.p).map(|(&k, p)| k as f64 * p).sum();
+        prop_assert!(value > int.local_bound as f64, "{value} against {int:?}");
+        prop_assert!(int.coefficients.iter().all(|&k| (0..=1000).contains(&k)));
+    }
+}

@@ -615,12 +615,24 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             let r = pipeline::local(&c, limits)?;
             let mut saved = None;
             if let (Some(file), Some(sep)) = (save, &r.test.separating) {
-                let spec = bellgap::formats::correlations::expression_as_game(
-                    &c,
-                    &sep.coefficients,
-                    sep.local_bound,
-                    sep.value,
-                );
+                // The integer form when there is one: its bound and value are exact.
+                let spec = match &sep.integer {
+                    Some(int) => bellgap::formats::correlations::expression_as_game(
+                        &c,
+                        &int.coefficients
+                            .iter()
+                            .map(|&k| k as f64)
+                            .collect::<Vec<_>>(),
+                        int.local_bound as f64,
+                        int.value,
+                    ),
+                    None => bellgap::formats::correlations::expression_as_game(
+                        &c,
+                        &sep.coefficients,
+                        sep.local_bound,
+                        sep.value,
+                    ),
+                };
                 write(file, &spec.to_yaml(), inputs)?;
                 saved = Some(file.to_string_lossy().to_string());
             }

@@ -211,7 +211,13 @@ pub fn expression_as_game(
             );
         }
         let mut term = Mapping::new();
-        term.insert(Yaml::from("coefficient"), Yaml::from(coef));
+        // Whole numbers are written as integers (an integer expression reads as one).
+        let coefficient = if coef.fract() == 0.0 && coef.abs() < 1e15 {
+            Yaml::from(coef as i64)
+        } else {
+            Yaml::from(coef)
+        };
+        term.insert(Yaml::from("coefficient"), coefficient);
         term.insert(Yaml::from("event"), Yaml::Mapping(event));
         terms.push(Yaml::Mapping(term));
     }
@@ -221,10 +227,14 @@ pub fn expression_as_game(
     GameSpec {
         name: Some(format!("separating-{}", c.name)),
         description: Some(format!(
-            "Bell expression separating {} from the local set: local bound {:.6}, value on the correlations {:.6}",
+            "Bell expression separating {} from the local set: local bound {}, value on the correlations {:.6}",
             c.name,
-            // Rounding residue below the printed precision reads 0, never -0.000000.
-            if local_bound.abs() < 5e-7 { 0.0 } else { local_bound },
+            if local_bound.fract() == 0.0 {
+                format!("{local_bound}")
+            } else {
+                // Rounding residue below the printed precision reads 0, never -0.000000.
+                format!("{:.6}", if local_bound.abs() < 5e-7 { 0.0 } else { local_bound })
+            },
             if value.abs() < 5e-7 { 0.0 } else { value }
         )),
         players: c

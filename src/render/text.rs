@@ -441,8 +441,26 @@ pub fn local(report: &LocalReport, saved: Option<&str>) -> String {
                 "local bound {}, value on the input {}{}",
                 num(clean_zero(sep.local_bound)),
                 num(sep.value),
+                // The integer form, when there is one, is what the file holds.
                 saved
+                    .filter(|_| sep.integer.is_none())
                     .map(|f| format!(" (saved to {f})"))
+                    .unwrap_or_default()
+            ),
+        ));
+    }
+    if let Some(int) = r.separating.as_ref().and_then(|s| s.integer.as_ref()) {
+        let largest = int.coefficients.iter().copied().max().unwrap_or(0);
+        rows.push((
+            "integer form".to_string(),
+            format!(
+                "coefficients 0 to {largest}: local bound {} (every deterministic strategy), value {} ≥ {}, violation ≥ {} (exact){}",
+                int.local_bound,
+                int.value_fraction,
+                num_down(int.value),
+                num_down(int.violation),
+                saved
+                    .map(|f| format!("; saved to {f}"))
                     .unwrap_or_default()
             ),
         ));

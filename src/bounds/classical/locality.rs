@@ -70,7 +70,35 @@ pub struct SeparatingExpression {
     pub local_bound: f64,
     /// c·P = 1 − v*.
     pub value: f64,
+    /// The same separation with small integer coefficients, its local bound and its value on
+    /// the correlations proven exactly (absent when no scale up to [`MAX_INTEGER_COEFFICIENT`]
+    /// keeps the violation).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub integer: Option<IntegerExpression>,
 }
+
+/// A Bell expression with integer coefficients that separates the correlations from the local
+/// set, checked in exact arithmetic: `local_bound` is the largest value of any deterministic
+/// strategy (every one enumerated, in integers), and `value` the expression's exact value on the
+/// correlations as read (each probability the binary64 number the file's decimal became).
+#[derive(Debug, Clone, Serialize)]
+pub struct IntegerExpression {
+    /// `c[q * joint_answers + a]`, integers with no common factor, the smallest of each
+    /// question's coefficients 0 (adding a constant to one question's coefficients shifts the
+    /// local bound and the value alike).
+    pub coefficients: Vec<i64>,
+    /// The exact local bound: every local behaviour has `c·p ≤ local_bound`.
+    pub local_bound: i64,
+    /// `c·P` exactly, as a reduced fraction.
+    pub value_fraction: String,
+    /// `c·P` rounded down.
+    pub value: f64,
+    /// `value − local_bound`, rounded down (positive).
+    pub violation: f64,
+}
+
+/// Largest coefficient an integer separating expression may have.
+pub const MAX_INTEGER_COEFFICIENT: i64 = 1000;
 
 /// Signalling below this (in the largest violated no-signalling condition) counts as rounding.
 pub const SIGNALLING_TOLERANCE: f64 = 1e-9;
@@ -214,6 +242,125 @@ pub fn locality_test(c: &Correlations, limits: &Limits) -> Result<LocalityReport
     Ok(report)
 }
 
+/// Calls `f` with each deterministic strategy's cells: for every joint question q, the index
+/// `q * joint_answers + a` of the joint answer a the strategy gives.
+fn for_each_deterministic(c: &Correlations, mut f: impl FnMut(&[usize])) {
+    let s = c.scenario_shape();
+    let na = s.joint_answers();
+    let nq = s.joint_questions();
+    let strategy_radices: Vec<usize> = c
+        .parties
+        .iter()
+        .flat_map(|p| std::iter::repeat_n(p.answers(), p.questions()))
+        .collect();
+    let n_strategies: usize = strategy_radices.iter().product();
+    let qr = s.question_radices();
+    let ar = s.answer_radices();
+    let mut flat = vec![0; strategy_radices.len()];
+    let (mut qd, mut ad) = (vec![0; qr.len()], vec![0; qr.len()]);
+    let offsets: Vec<usize> = c
+        .parties
+        .iter()
+        .scan(0, |acc, p| {
+            let o = *acc;
+            *acc += p.questions();
+            Some(o)
+        })
+        .collect();
+    let mut cells = vec![0; nq];
+    for lambda in 0..n_strategies {
+        digits(lambda, &strategy_radices, &mut flat);
+        for (q, cell) in cells.iter_mut().enumerate() {
+            digits(q, &qr, &mut qd);
+            for i in 0..qr.len() {
+                ad[i] = flat[offsets[i] + qd[i]];
+            }
+            *cell = q * na + index_of(&ad, &ar);
+        }
+        f(&cells);
+    }
+}
+
+/// The separating expression `coefficients` scaled to small integers that still separate, the
+/// smallest scale first (largest coefficient 1, 2, 3, 4, 5, 6, 8, 10, … up to
+/// [`MAX_INTEGER_COEFFICIENT`]), each candidate's local bound and value proven exactly.
+pub fn integer_expression(c: &Correlations, coefficients: &[f64]) -> Option<IntegerExpression> {
+    use num_rational::BigRational;
+    let na = c.scenario_shape().joint_answers();
+    // Each question's smallest coefficient moved to 0 (the separation is unchanged).
+    let shifted: Vec<f64> = coefficients
+        .chunks(na)
+        .flat_map(|row| {
+            let least = row.iter().copied().fold(f64::INFINITY, f64::min);
+            row.iter().map(move |v| v - least)
+        })
+        .collect();
+    let largest = shifted.iter().copied().fold(0.0, f64::max);
+    if !(largest.is_finite() && largest > 0.0) {
+        return None;
+    }
+    let p: Vec<BigRational> =
+        c.p.iter()
+            .map(|&v| BigRational::from_float(v))
+            .collect::<Option<_>>()?;
+    let mut scales = vec![1i64, 2, 3, 4, 5, 6, 8];
+    while let Some(&last) = scales.last() {
+        if last >= MAX_INTEGER_COEFFICIENT {
+            break;
+        }
+        scales.push((last * 5 / 4).min(MAX_INTEGER_COEFFICIENT));
+    }
+    let mut tried: Option<Vec<i64>> = None;
+    for scale in scales {
+        let mut ints: Vec<i64> = shifted
+            .iter()
+            .map(|v| (v / largest * scale as f64).round() as i64)
+            .collect();
+        let divisor = ints.iter().fold(0i64, |g, &v| gcd(g, v));
+        if divisor > 1 {
+            ints.iter_mut().for_each(|v| *v /= divisor);
+        }
+        if tried.as_ref() == Some(&ints) {
+            continue;
+        }
+        let value: BigRational = ints
+            .iter()
+            .zip(&p)
+            .filter(|(k, _)| **k != 0)
+            .map(|(&k, q)| q * BigRational::from_integer(k.into()))
+            .sum();
+        let mut local_bound = i64::MIN;
+        for_each_deterministic(c, |cells| {
+            local_bound = local_bound.max(cells.iter().map(|&k| ints[k]).sum());
+        });
+        let margin = &value - BigRational::from_integer(local_bound.into());
+        if margin > BigRational::from_integer(0.into()) {
+            return Some(IntegerExpression {
+                value_fraction: format!("{}/{}", value.numer(), value.denom()),
+                value: round_down(&value),
+                violation: round_down(&margin),
+                coefficients: ints,
+                local_bound,
+            });
+        }
+        tried = Some(ints);
+    }
+    None
+}
+
+fn gcd(a: i64, b: i64) -> i64 {
+    let (mut a, mut b) = (a.abs(), b.abs());
+    while b != 0 {
+        (a, b) = (b, a % b);
+    }
+    a
+}
+
+/// The largest binary64 number at most `q`.
+fn round_down(q: &num_rational::BigRational) -> f64 {
+    -crate::optim::exact::round_up(&-q)
+}
+
 /// Runs the locality LP on correlations taken as given; the caller fills in `signalling`.
 /// `force` skips the refusal on very many deterministic strategies.
 fn locality_test_as_given(c: &Correlations, force: bool) -> Result<LocalityReport> {
@@ -256,37 +403,10 @@ fn locality_test_as_given(c: &Correlations, force: bool) -> Result<LocalityRepor
         Relation::Eq,
         1.0,
     );
-    let strategy_radices: Vec<usize> = c
-        .parties
-        .iter()
-        .flat_map(|p| std::iter::repeat_n(p.answers(), p.questions()))
-        .collect();
-    let qr = s.question_radices();
-    let ar = s.answer_radices();
-    let mut flat = vec![0; strategy_radices.len()];
-    let (mut qd, mut ad) = (vec![0; qr.len()], vec![0; qr.len()]);
-    let offsets: Vec<usize> = c
-        .parties
-        .iter()
-        .scan(0, |acc, p| {
-            let o = *acc;
-            *acc += p.questions();
-            Some(o)
-        })
-        .collect();
     let n_strategies = strategies as usize;
-    for lambda in 0..n_strategies {
-        digits(lambda, &strategy_radices, &mut flat);
-        let mut terms = Vec::with_capacity(nq);
-        for q in 0..nq {
-            digits(q, &qr, &mut qd);
-            for i in 0..qr.len() {
-                ad[i] = flat[offsets[i] + qd[i]];
-            }
-            terms.push((q * na + index_of(&ad, &ar), 1.0));
-        }
-        lp.add_row(terms, Relation::Ge, 0.0);
-    }
+    for_each_deterministic(c, |cells| {
+        lp.add_row(cells.iter().map(|&k| (k, 1.0)).collect(), Relation::Ge, 0.0);
+    });
     // The dual has whole lines of optimal solutions (e.g. shifting all coefficients of one
     // question by a constant and another by minus it), which makes the simplex cycle; the
     // interior-point method is indifferent to that.
@@ -302,23 +422,16 @@ fn locality_test_as_given(c: &Correlations, force: bool) -> Result<LocalityRepor
             .map(|b| if b.abs() < 1e-12 { 0.0 } else { -b })
             .collect();
         let mut local_bound = f64::NEG_INFINITY;
-        for lambda in 0..n_strategies {
-            digits(lambda, &strategy_radices, &mut flat);
-            let mut v = 0.0;
-            for q in 0..nq {
-                digits(q, &qr, &mut qd);
-                for i in 0..qr.len() {
-                    ad[i] = flat[offsets[i] + qd[i]];
-                }
-                v += coefficients[q * na + index_of(&ad, &ar)];
-            }
-            local_bound = local_bound.max(v);
-        }
+        for_each_deterministic(c, |cells| {
+            local_bound = local_bound.max(cells.iter().map(|&k| coefficients[k]).sum());
+        });
         let value = coefficients.iter().zip(&c.p).map(|(c, p)| c * p).sum();
+        let integer = integer_expression(c, &coefficients);
         Some(SeparatingExpression {
             coefficients,
             local_bound,
             value,
+            integer,
         })
     };
     Ok(LocalityReport {
