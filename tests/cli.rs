@@ -2212,3 +2212,71 @@ fn entropy_writes_each_node_sdp_with_its_variable_map() {
     assert_eq!(out.status.code(), Some(2));
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+#[test]
+fn nosignal_writes_an_optimal_behaviour_in_exact_fractions() {
+    let dir = std::env::temp_dir().join(format!("bellgap-ns-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    // (game, its no-signalling value): the PR box wins CHSH always (Popescu & Rohrlich 1994);
+    // CGLMP's no-signalling maximum is 4 (Barrett et al., PRA 71, 022101 (2005); from memory).
+    for (game, value) in [("chsh", "1"), ("cglmp-3", "4")] {
+        let file = dir.join(format!("{game}-box.yaml"));
+        let out = bellgap(&[
+            "nosignal",
+            &format!("games/{game}.yaml"),
+            "--save",
+            file.to_str().unwrap(),
+            "--json",
+        ]);
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let j = json_of(&out);
+        assert_eq!(j["saved_behaviour"]["exact"], true, "{j}");
+        assert_eq!(j["saved_behaviour"]["value_fraction"], value);
+        // The file is a correlations file: read back, it scores the value in the game.
+        let c = bellgap::Correlations::from_file(file.to_str().unwrap()).unwrap();
+        let g = bellgap::Game::from_file(
+            &format!("games/{game}.yaml"),
+            bellgap::CompileOptions::default(),
+        )
+        .unwrap();
+        let scored: f64 = g
+            .scenario
+            .objective()
+            .iter()
+            .zip(&c.p)
+            .map(|(w, p)| w * p)
+            .sum::<f64>()
+            + g.scenario.offset();
+        assert!(
+            (scored - value.parse::<f64>().unwrap()).abs() < 1e-12,
+            "{scored}"
+        );
+        assert!(c.signalling() < 1e-15);
+    }
+    // The PR box's critical visibility is 1/2 (its CHSH value 4 against the local 2).
+    let local = json_of(&bellgap(&[
+        "local",
+        dir.join("chsh-box.yaml").to_str().unwrap(),
+        "--json",
+    ]));
+    assert!((local["visibility"].as_f64().unwrap() - 0.5).abs() < 1e-9);
+    // The game file itself is never overwritten.
+    let game = dir.join("g.yaml");
+    std::fs::copy("games/chsh.yaml", &game).unwrap();
+    let out = bellgap(&[
+        "nosignal",
+        game.to_str().unwrap(),
+        "--save",
+        game.to_str().unwrap(),
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    assert_eq!(
+        std::fs::read_to_string(&game).unwrap(),
+        std::fs::read_to_string("games/chsh.yaml").unwrap()
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}

@@ -373,6 +373,44 @@ proptest! {
             prop_assert!(c.p.iter().all(|v| v.is_finite() && *v >= -1e-6));
         }
     }
+
+    /// What `nosignal --save` writes reads back to the same behaviour, with any player names
+    /// and labels (the writer quotes what YAML would misread).
+    #[test]
+    fn written_behaviours_read_back(
+        names in proptest::collection::vec("[a-z: #'\"-]{1,8}", 2),
+        labels in proptest::collection::vec(-5i64..5, 2),
+        numerators in proptest::collection::vec(0u32..4, 16),
+    ) {
+        use bellgap::model::scenario::Party;
+        prop_assume!(names[0] != names[1]);
+        let parties: Vec<Party> = names
+            .iter()
+            .zip(&labels)
+            .map(|(n, &l)| Party {
+                name: n.clone(),
+                question_labels: vec![l, l + 7],
+                answer_labels: vec![0, 1],
+            })
+            .collect();
+        // Four rows of four, each k_i/Σk (a uniform row when all are 0).
+        let mut texts = Vec::new();
+        let mut expected = Vec::new();
+        for row in numerators.chunks(4) {
+            let total: u32 = row.iter().sum();
+            for &k in row {
+                let (n, d) = if total == 0 { (1, 4) } else { (k, total) };
+                texts.push(if n == 0 { "0".to_string() } else { format!("{n}/{d}") });
+                expected.push(n as f64 / d as f64);
+            }
+        }
+        let text = bellgap::formats::correlations::behaviour_file("b", "d: 'x'", &parties, &texts);
+        let c = Correlations::from_yaml(&text, "b.yaml").map_err(|e| TestCaseError::fail(format!("{e}\n{text}")))?;
+        prop_assert_eq!(&c.parties[0].name, &names[0]);
+        for (a, b) in c.p.iter().zip(&expected) {
+            prop_assert!((a - b).abs() < 1e-15, "{} against {}\n{}", a, b, text);
+        }
+    }
 }
 
 proptest! {

@@ -1845,12 +1845,16 @@ _bellgap() {
             return 0
             ;;
         bellgap__subcmd__nosignal)
-            opts="-q -h --json --quiet --force --allow-large --help"
+            opts="-q -h --json --quiet --force --allow-large --save --help"
             if [[ ${cur} == -* || ${COMP_CWORD} -eq 2 ]] ; then
                 COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
                 return 0
             fi
             case "${prev}" in
+                --save)
+                    COMPREPLY=($(compgen -f "${cur}"))
+                    return 0
+                    ;;
                 *)
                     COMPREPLY=()
                     ;;

@@ -61,6 +61,7 @@ complete -c bellgap -n "__fish_bellgap_using_subcommand classical" -s q -l quiet
 complete -c bellgap -n "__fish_bellgap_using_subcommand classical" -l force -d 'Run even when the size estimate says it would take very long'
 complete -c bellgap -n "__fish_bellgap_using_subcommand classical" -l allow-large -d 'Build game tables larger than the default memory limit'
 complete -c bellgap -n "__fish_bellgap_using_subcommand classical" -s h -l help -d 'Print help (see more with \'--help\')'
+complete -c bellgap -n "__fish_bellgap_using_subcommand nosignal" -l save -d 'Write an optimal no-signalling behaviour as a correlations file (exact fractions when the LP\'s solution reads as one, checked exactly)' -r -F
 complete -c bellgap -n "__fish_bellgap_using_subcommand nosignal" -l json -d 'Print exactly one JSON object on stdout'
 complete -c bellgap -n "__fish_bellgap_using_subcommand nosignal" -s q -l quiet -d 'No progress output on stderr'
 complete -c bellgap -n "__fish_bellgap_using_subcommand nosignal" -l force -d 'Run even when the size estimate says it would take very long'

@@ -9,6 +9,8 @@
 
 use std::time::Instant;
 
+use num_rational::BigRational;
+use num_traits::{One, ToPrimitive, Zero};
 use serde::Serialize;
 
 use crate::error::{Error, Result};
@@ -40,6 +42,9 @@ pub struct NoSignallingValue {
     /// An optimal behaviour, `p(a|q)` at `q * joint_answers + a`.
     #[serde(skip)]
     pub behaviour: Vec<f64>,
+    /// The same behaviour's Collins–Gisin coordinates (the LP's solution).
+    #[serde(skip)]
+    pub coordinates: Vec<f64>,
     /// LP variables (Collins–Gisin coordinates).
     pub variables: usize,
     /// LP constraints.
@@ -198,8 +203,127 @@ pub fn no_signalling_value(s: &Scenario, limits: &Limits) -> Result<NoSignalling
         },
         status: sol.status,
         behaviour,
+        coordinates: sol.x.clone(),
         variables: cg.variables,
         constraints: rows,
         seconds: start.elapsed().as_secs_f64(),
     })
+}
+
+/// An optimal no-signalling behaviour in exact fractions, checked exactly.
+#[derive(Debug, Clone)]
+pub struct ExactBehaviour {
+    /// `p(a|q)` at `q * joint_answers + a`, as reduced fractions `n/d` (or `n`).
+    pub probabilities: Vec<String>,
+    /// Its value in the game (the table as stored, binary64 numbers taken exactly).
+    pub value: BigRational,
+    /// The largest denominator.
+    pub largest_denominator: u64,
+}
+
+/// Largest denominator tried when the LP's solution is read as fractions.
+pub const MAX_DENOMINATOR: u64 = 10_000;
+
+/// The LP's optimal behaviour read as fractions: each Collins–Gisin coordinate replaced by the
+/// simplest fraction (denominator at most [`MAX_DENOMINATOR`]) within 1e-11 of it (a vertex's
+/// coordinates are fractions with small denominators; a number that is not one is rarely that
+/// close to one). A behaviour
+/// built from Collins–Gisin coordinates is normalised and no-signalling by construction, so it is
+/// kept when every probability is exactly non-negative and its exact value is within 1e-9 of the
+/// LP's (None otherwise, e.g. after an interior-point solve that ended between vertices).
+pub fn exact_behaviour(s: &Scenario, ns: &NoSignallingValue) -> Option<ExactBehaviour> {
+    let x: Vec<BigRational> = ns
+        .coordinates
+        .iter()
+        .map(|&v| simplest_fraction(v, 1e-11, MAX_DENOMINATOR))
+        .collect::<Option<_>>()?;
+    let cg = CollinsGisin::new(s);
+    if x.len() != cg.variables {
+        return None;
+    }
+    let n = s.players();
+    let (qr, ar, na) = (s.question_radices(), s.answer_radices(), s.joint_answers());
+    let (mut qd, mut ad) = (vec![0; n], vec![0; n]);
+    let mut terms = Vec::new();
+    let exact = |v: f64| BigRational::from_float(v);
+    let mut value = exact(s.offset())?;
+    let mut probabilities = Vec::with_capacity(s.joint_questions() * na);
+    let mut largest_denominator = 1u64;
+    for q in 0..s.joint_questions() {
+        digits(q, &qr, &mut qd);
+        for a in 0..na {
+            digits(a, &ar, &mut ad);
+            let mut p = exact(cg.expand(&qd, &ad, &mut terms))?;
+            for &(v, c) in &terms {
+                p += &x[v] * exact(c)?;
+            }
+            if p < BigRational::zero() {
+                return None;
+            }
+            let c = s.objective()[q * na + a];
+            if c != 0.0 {
+                value += &p * exact(c)?;
+            }
+            largest_denominator = largest_denominator.max(p.denom().to_u64()?);
+            probabilities.push(if p.denom().is_one() {
+                p.numer().to_string()
+            } else {
+                format!("{}/{}", p.numer(), p.denom())
+            });
+        }
+    }
+    let close = (value.to_f64()? - ns.value).abs() <= 1e-9 * (1.0 + ns.value.abs());
+    close.then_some(ExactBehaviour {
+        probabilities,
+        value,
+        largest_denominator,
+    })
+}
+
+/// The fraction with the smallest denominator (at most `most`) within `tolerance` of `v`, by
+/// the continued fraction's convergents.
+fn simplest_fraction(v: f64, tolerance: f64, most: u64) -> Option<BigRational> {
+    if !v.is_finite() || v.abs() > 1e6 {
+        return None;
+    }
+    let (mut h0, mut h1) = (0i128, 1i128);
+    let (mut k0, mut k1) = (1i128, 0i128);
+    let mut rest = v;
+    for _ in 0..64 {
+        let a = rest.floor();
+        let ai = a as i128;
+        let (h2, k2) = (ai * h1 + h0, ai * k1 + k0);
+        if k2 > most as i128 {
+            return None;
+        }
+        (h0, h1, k0, k1) = (h1, h2, k1, k2);
+        if ((h1 as f64) / (k1 as f64) - v).abs() <= tolerance {
+            return Some(BigRational::new(h1.into(), k1.into()));
+        }
+        let frac = rest - a;
+        if frac <= 0.0 {
+            return None;
+        }
+        rest = 1.0 / frac;
+    }
+    None
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn fractions_are_the_simplest_within_the_tolerance() {
+        let q = |v: f64| simplest_fraction(v, 1e-11, MAX_DENOMINATOR).map(|r| r.to_string());
+        assert_eq!(q(0.5).as_deref(), Some("1/2"));
+        assert_eq!(q(1.0 / 3.0 + 1e-12).as_deref(), Some("1/3"));
+        assert_eq!(q(0.0).as_deref(), Some("0"));
+        assert_eq!(q(-0.25).as_deref(), Some("-1/4"));
+        assert_eq!(q(2.0 / 7.0).as_deref(), Some("2/7"));
+        // 1/√2's convergents are 5741/8119 (5e-9 away), then 13860/19601: none qualifies.
+        assert_eq!(q(std::f64::consts::FRAC_1_SQRT_2), None);
+        assert_eq!(q(f64::NAN), None);
+        assert_eq!(q(1e300), None);
+    }
 }

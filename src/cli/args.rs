@@ -85,7 +85,14 @@ pub enum Command {
         method: MethodArg,
     },
     /// No-signalling value (linear programme).
-    Nosignal(GameArgs),
+    Nosignal {
+        #[command(flatten)]
+        args: GameArgs,
+        /// Write an optimal no-signalling behaviour as a correlations file (exact fractions when
+        /// the LP's solution reads as one, checked exactly).
+        #[arg(long, value_name = "FILE")]
+        save: Option<PathBuf>,
+    },
     /// Every bound available, then the gaps between them.
     Bounds {
         #[command(flatten)]
@@ -914,8 +921,14 @@ impl Cli {
                 counts: Some(c), ..
             }
             | Command::Randomness {
-                counts: Some(c), ..
+                counts: Some(c),
+                sdpa_solution: None,
+                ..
             } => v.push(c.clone()),
+            Command::Randomness {
+                sdpa_solution: Some(f),
+                ..
+            } => v.push(f.clone()),
             Command::Family {
                 family: FamilyCommand::Product { game, .. },
                 ..
@@ -928,7 +941,7 @@ impl Cli {
     /// The options every game command shares, for the commands that read a game.
     fn game_args(&self) -> Option<&GameArgs> {
         match &self.command {
-            Command::Check(a) | Command::Nosignal(a) => Some(a),
+            Command::Check(a) | Command::Nosignal { args: a, .. } => Some(a),
             Command::Classical { args, .. }
             | Command::Bounds { args, .. }
             | Command::Npa { args, .. }

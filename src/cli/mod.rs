@@ -216,10 +216,26 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             let r = pipeline::classical(&game, options, &observer)?;
             Ok(output(text::game_report(&r), &r, &game.warnings))
         }
-        Request::Nosignal { game, limits } => {
+        Request::Nosignal { game, limits, save } => {
             let game = load(game)?;
             let r = pipeline::nosignal(&game, limits)?;
-            Ok(output(text::game_report(&r), &r, &game.warnings))
+            let mut out = output(text::game_report(&r), &r, &game.warnings);
+            if let Some(file) = save {
+                let saved = pipeline::nosignal_behaviour(&game, &r)?;
+                write(file, &saved.text, inputs)?;
+                out.text += &text::saved_behaviour(&saved, &file.to_string_lossy());
+                if let Value::Object(m) = &mut out.json {
+                    let mut view = json::to_value(&saved);
+                    if let Value::Object(v) = &mut view {
+                        v.insert(
+                            "file".into(),
+                            Value::from(file.to_string_lossy().to_string()),
+                        );
+                    }
+                    m.insert("saved_behaviour".into(), view);
+                }
+            }
+            Ok(out)
         }
         Request::Bounds {
             game,

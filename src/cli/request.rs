@@ -164,7 +164,12 @@ pub enum Request {
         options: ClassicalOptions,
     },
     /// `nosignal`.
-    Nosignal { game: GameInput, limits: Limits },
+    Nosignal {
+        game: GameInput,
+        limits: Limits,
+        /// Where to write an optimal behaviour.
+        save: Option<PathBuf>,
+    },
     /// `bounds`.
     Bounds {
         game: GameInput,
@@ -517,9 +522,10 @@ impl Invocation {
                     limits: limits(args.force),
                 },
             },
-            Command::Nosignal(a) => Request::Nosignal {
+            Command::Nosignal { args: a, save } => Request::Nosignal {
                 game: game_input(a),
                 limits: limits(a.force),
+                save: save.clone(),
             },
             Command::Bounds {
                 args,

@@ -179,6 +179,60 @@ impl Correlations {
     }
 }
 
+/// A behaviour as a correlations file that [`Correlations::from_yaml`] reads back: one row per
+/// joint question, `probabilities[k]` the text of `p(a|q)` at `q * joint_answers + a` (a number
+/// or a fraction `n/d`).
+pub fn behaviour_file(
+    name: &str,
+    description: &str,
+    parties: &[Party],
+    probabilities: &[String],
+) -> String {
+    let qr: Vec<usize> = parties.iter().map(Party::questions).collect();
+    let nq: usize = qr.iter().product();
+    let na: usize = parties.iter().map(Party::answers).product();
+    let labels = |l: &[i64]| Yaml::Sequence(l.iter().map(|&v| Yaml::from(v)).collect());
+    let mut players = Vec::new();
+    for p in parties {
+        let mut m = Mapping::new();
+        m.insert(Yaml::from("name"), Yaml::from(p.name.clone()));
+        m.insert(Yaml::from("questions"), labels(&p.question_labels));
+        m.insert(Yaml::from("answers"), labels(&p.answer_labels));
+        players.push(Yaml::Mapping(m));
+    }
+    let mut qd = vec![0; qr.len()];
+    let mut rows = Vec::new();
+    for q in 0..nq {
+        digits(q, &qr, &mut qd);
+        let questions: Vec<i64> = qd
+            .iter()
+            .zip(parties)
+            .map(|(&k, p)| p.question_labels[k])
+            .collect();
+        let values = probabilities[q * na..(q + 1) * na]
+            .iter()
+            .map(|t| match t.parse::<i64>() {
+                // Whole numbers as numbers; fractions and decimals as written.
+                Ok(k) => Yaml::from(k),
+                Err(_) => match t.parse::<f64>() {
+                    Ok(v) => Yaml::from(v),
+                    Err(_) => Yaml::from(t.clone()),
+                },
+            })
+            .collect();
+        let mut m = Mapping::new();
+        m.insert(Yaml::from("questions"), labels(&questions));
+        m.insert(Yaml::from("probabilities"), Yaml::Sequence(values));
+        rows.push(Yaml::Mapping(m));
+    }
+    let mut file = Mapping::new();
+    file.insert(Yaml::from("name"), Yaml::from(name));
+    file.insert(Yaml::from("description"), Yaml::from(description));
+    file.insert(Yaml::from("players"), Yaml::Sequence(players));
+    file.insert(Yaml::from("behaviour"), Yaml::Sequence(rows));
+    serde_yaml::to_string(&Yaml::Mapping(file)).unwrap_or_default()
+}
+
 /// A Bell expression over the correlations' full events (`coefficients` in their layout) as a game
 /// file, so that the classical value of the file confirms `local_bound`; `value` is the
 /// expression's value on the correlations (for the description).

@@ -577,6 +577,78 @@ pub fn nosignal<'a>(game: &'a Game, limits: &Limits) -> Result<GameReport<'a>> {
     Ok(r)
 }
 
+/// An optimal no-signalling behaviour written out (`nosignal --save`): the correlations file,
+/// and whether its probabilities are exact fractions (with their exact value) or the LP's
+/// floating-point solution.
+#[derive(Debug, Clone, Serialize)]
+pub struct SavedBehaviour {
+    /// The file's text.
+    #[serde(skip)]
+    pub text: String,
+    /// Whether the probabilities are exact fractions, checked exactly (non-negative, and
+    /// normalised and no-signalling by construction).
+    pub exact: bool,
+    /// With exact fractions: the behaviour's exact value in the game, as a fraction.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub value_fraction: Option<String>,
+    /// The behaviour's value (nearest binary64 to the exact one, or the LP's).
+    pub value: f64,
+    /// With exact fractions: the largest denominator.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub largest_denominator: Option<u64>,
+}
+
+/// `n/d`, or `n` when the denominator is 1.
+fn fraction_text(q: &num_rational::BigRational) -> String {
+    if num_traits::One::is_one(q.denom()) {
+        q.numer().to_string()
+    } else {
+        format!("{}/{}", q.numer(), q.denom())
+    }
+}
+
+/// The optimal behaviour of `report`'s no-signalling value as a correlations file, in exact
+/// fractions when the LP's solution reads as one ([`crate::bounds::nosignal::exact_behaviour`]).
+pub fn nosignal_behaviour(game: &Game, report: &GameReport) -> Result<SavedBehaviour> {
+    let s = &game.scenario;
+    let ns = report
+        .no_signalling
+        .as_ref()
+        .ok_or_else(|| Error::solver("no-signalling LP", "no behaviour to write"))?;
+    let exact = crate::bounds::nosignal::exact_behaviour(s, ns);
+    let (probabilities, description) = match &exact {
+        Some(e) => (
+            e.probabilities.clone(),
+            format!(
+                "an optimal no-signalling behaviour of {}, in exact fractions (non-negative, normalised and no-signalling, checked exactly); its value is {} (the table's binary64 numbers taken exactly)",
+                game.name,
+                fraction_text(&e.value)
+            ),
+        ),
+        None => (
+            ns.behaviour.iter().map(|v| format!("{:?}", v.max(0.0))).collect(),
+            format!(
+                "an optimal no-signalling behaviour of {} as the LP solved it (floating point); its value is about {}",
+                game.name, ns.value
+            ),
+        ),
+    };
+    Ok(SavedBehaviour {
+        text: crate::formats::correlations::behaviour_file(
+            &format!("nosignal-{}", game.name),
+            &description,
+            s.parties(),
+            &probabilities,
+        ),
+        exact: exact.is_some(),
+        value_fraction: exact.as_ref().map(|e| fraction_text(&e.value)),
+        value: exact.as_ref().map_or(ns.value, |e| {
+            num_traits::ToPrimitive::to_f64(&e.value).unwrap_or(ns.value)
+        }),
+        largest_denominator: exact.as_ref().map(|e| e.largest_denominator),
+    })
+}
+
 /// Every bound, in order: the classical value, the no-signalling value, the NPA upper bound and
 /// the see-saw lower bound with its strategy's analysis; then the bounds are reconciled. A
 /// classical value, NPA bound or see-saw that cannot be obtained (too large, solver stopped) is

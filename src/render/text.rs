@@ -775,6 +775,19 @@ pub fn guessing_import(r: &crate::pipeline::GuessingImportReport, source: &str) 
     out
 }
 
+/// Where `nosignal --save` wrote its behaviour, and in what form.
+pub fn saved_behaviour(saved: &crate::pipeline::SavedBehaviour, file: &str) -> String {
+    match (&saved.value_fraction, saved.largest_denominator) {
+        (Some(value), Some(d)) => format!(
+            "\noptimal behaviour saved to {file}: exact fractions (denominators up to {d}), non-negative, normalised and no-signalling; its value is {value} exactly (≈ {})\n",
+            num(saved.value)
+        ),
+        _ => format!(
+            "\noptimal behaviour saved to {file}: the LP's floating-point solution (it does not read as exact fractions)\n"
+        ),
+    }
+}
+
 /// The `self-test` command's report.
 pub fn self_test(report: &crate::pipeline::SelfTestReport) -> String {
     let b = &report.bound;
