@@ -2200,6 +2200,55 @@ fn entropy_writes_each_node_sdp_with_its_variable_map() {
     let words = std::fs::read_to_string(dir.join("chsh-node-01.dat-s.words")).unwrap();
     assert_eq!(words.lines().count(), parsed.variables + 1);
     assert!(words.contains(" Z0"), "{words}");
+    // Solutions of the nodes (our own solver's, written in SDPA output format as an external
+    // solver would) are verified and summed into the bound the hierarchy itself proves.
+    let g =
+        bellgap::Game::from_file("games/chsh.yaml", bellgap::CompileOptions::default()).unwrap();
+    let target = bellgap::bounds::entropy::Target {
+        parts: vec![(0, 0)],
+    };
+    let options = bellgap::bounds::entropy::EntropyOptions {
+        nodes: 4,
+        ..Default::default()
+    };
+    let prepared =
+        bellgap::bounds::entropy::PreparedHierarchy::new(&g.scenario, &target, &options).unwrap();
+    let nodes = prepared
+        .node_sdps(&bellgap::bounds::entropy::EntropyConstraint::Score(0.84))
+        .unwrap();
+    for (k, node) in nodes.iter().enumerate() {
+        let sol =
+            bellgap::optim::backend::solve(&node.problem, bellgap::Backend::Auto, "node").unwrap();
+        std::fs::write(
+            dir.join(format!("chsh-node-{:02}.out", k + 1)),
+            bellgap::optim::sdpa::solution_text(&node.problem, &sol.z),
+        )
+        .unwrap();
+    }
+    let common = [
+        "entropy",
+        "games/chsh.yaml",
+        "--score",
+        "0.84",
+        "--nodes",
+        "4",
+        "--json",
+    ];
+    let imported = json_of(&bellgap(
+        &[&common[..], &["--sdpa-solutions", prefix.to_str().unwrap()]].concat(),
+    ));
+    let solved = json_of(&bellgap(&common));
+    let (a, b) = (
+        imported["bits"].as_f64().unwrap(),
+        solved["results"][0]["entropy"]["bits"].as_f64().unwrap(),
+    );
+    assert!((a - b).abs() < 1e-6, "{imported} against {solved}");
+    assert_eq!(imported["nodes"].as_array().unwrap().len(), 3);
+    // A missing solution file is an error naming it.
+    std::fs::remove_file(dir.join("chsh-node-02.out")).unwrap();
+    let out = bellgap(&[&common[..], &["--sdpa-solutions", prefix.to_str().unwrap()]].concat());
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stdout).contains("chsh-node-02.out"));
     // Without a single score there is nothing to export.
     let out = bellgap(&[
         "entropy",

@@ -627,6 +627,36 @@ fn exported_node_sdps_are_the_nodes_the_hierarchy_solves() {
             term.infimum
         );
     }
+    // The nodes' own duals, written as an external solver's outputs, prove the same bound
+    // once read back; a solution missing or of the wrong shape is refused.
+    let solutions: Vec<(String, String)> = nodes
+        .iter()
+        .map(|node| {
+            let sol = bellgap::optim::backend::solve(&node.problem, bellgap::Backend::Auto, "node")
+                .unwrap();
+            (
+                format!("t = {}", node.t),
+                bellgap::optim::sdpa::solution_text(&node.problem, &sol.z),
+            )
+        })
+        .collect();
+    let imported = prepared
+        .bound_from_solutions(&constraint, &solutions)
+        .unwrap();
+    assert!(
+        (imported.bits - bound.bits).abs() < 1e-6,
+        "{} against {}",
+        imported.bits,
+        bound.bits
+    );
+    assert!(prepared
+        .bound_from_solutions(&constraint, &solutions[1..])
+        .is_err());
+    let mut swapped = solutions.clone();
+    swapped[0].1 = "yMat = {\n{1, 2}\n}\n".into();
+    assert!(prepared
+        .bound_from_solutions(&constraint, &swapped)
+        .is_err());
     // A score the hierarchy refuses is refused for export too.
     assert!(prepared.node_sdps(&EntropyConstraint::Score(3.0)).is_err());
 }

@@ -249,6 +249,7 @@ complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -l key-with -d 
 complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -l key-question -d 'Key rate: that player\'s question (label; default: the first)' -r
 complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -l error-rate -d 'Key rate: the probability that the key answers differ (H(A|B) by Fano\'s bound)' -r
 complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -l sdpa -d 'Write each node\'s SDP at the score (one) in the SDPA sparse format, as PREFIX-node-KK.dat-s (K from 01) with its variable map (.words), for external solvers' -r -F
+complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -l sdpa-solutions -d 'Instead of solving, verify external solvers\' solutions (SDPA output format) of the node SDPs that `--sdpa` writes at the same score and options, read from PREFIX-node-KK.out, and sum the bound they prove' -r -F
 complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -l json -d 'Print exactly one JSON object on stdout'
 complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -s q -l quiet -d 'No progress output on stderr'
 complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -l force -d 'Run even when the size estimate says it would take very long'

@@ -414,6 +414,11 @@ pub enum Command {
         /// PREFIX-node-KK.dat-s (K from 01) with its variable map (.words), for external solvers.
         #[arg(long, value_name = "PREFIX", requires = "score")]
         sdpa: Option<PathBuf>,
+        /// Instead of solving, verify external solvers' solutions (SDPA output format) of the
+        /// node SDPs that `--sdpa` writes at the same score and options, read from
+        /// PREFIX-node-KK.out, and sum the bound they prove.
+        #[arg(long, value_name = "PREFIX", requires = "score", conflicts_with_all = ["sweep", "behaviour", "strategy", "counts", "key_with", "error_rate"])]
+        sdpa_solutions: Option<PathBuf>,
     },
     /// What a spot-checking run of n rounds certifies, by entropy accumulation: the smooth
     /// min-entropy, the certified bits of randomness (or key) and the rate per round, the n at

@@ -499,8 +499,20 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             counts,
             options,
             sdpa,
+            sdpa_solutions,
         } => {
             let game = load(game)?;
+            if let Some(prefix) = sdpa_solutions {
+                let mut texts = Vec::new();
+                for k in 0..pipeline::entropy_node_count(options) {
+                    let mut file = prefix.clone().into_os_string();
+                    file.push(format!("-node-{:02}.out", k + 1));
+                    let text = bellgap::formats::files::read_text(Path::new(&file))?;
+                    texts.push((file.to_string_lossy().to_string(), text));
+                }
+                let r = pipeline::entropy_sdpa_import(&game, options, &texts)?;
+                return Ok(output(text::entropy_import(&r), &r, &game.warnings));
+            }
             if let Some(prefix) = sdpa {
                 for (k, node) in pipeline::entropy_sdpa_export(&game, options)?
                     .iter()

@@ -235,6 +235,8 @@ pub enum Request {
         options: EntropyCommandOptions,
         /// Where to write the node SDPs (a path prefix).
         sdpa: Option<PathBuf>,
+        /// Where to read external solutions of them (a path prefix).
+        sdpa_solutions: Option<PathBuf>,
     },
     /// `design`; the no-click answer label and the dimensions are resolved with the game.
     Design {
@@ -695,9 +697,11 @@ impl Invocation {
                 key_question,
                 error_rate,
                 sdpa,
+                sdpa_solutions,
             } => Request::Entropy {
                 game: game_input(args),
                 sdpa: sdpa.clone(),
+                sdpa_solutions: sdpa_solutions.clone(),
                 behaviour: behaviour.clone(),
                 strategy: strategy.clone(),
                 counts: counts.clone().map(|c| (c, *alpha)),

@@ -739,16 +739,7 @@ pub fn entropy_sdpa_export(
     options: &EntropyCommandOptions,
 ) -> Result<Vec<EntropyNodeExport>> {
     let s = &game.scenario;
-    let EntropyGiven::Scores(scores) = &options.given else {
-        return Err(Error::InvalidArgument(
-            "the entropy nodes are exported at a score: give --score".into(),
-        ));
-    };
-    let &[score] = &scores[..] else {
-        return Err(Error::InvalidArgument(
-            "the entropy nodes are exported at one score: give --score".into(),
-        ));
-    };
+    let score = one_entropy_score(options)?;
     let target = TargetChoice::target(s, &options.target, options.with.as_ref())?;
     let prepared = PreparedHierarchy::new(s, &target, &options.hierarchy)?;
     let nodes = prepared.node_sdps(&EntropyConstraint::Score(score))?;
@@ -785,6 +776,57 @@ pub fn entropy_sdpa_export(
             }
         })
         .collect())
+}
+
+fn one_entropy_score(options: &EntropyCommandOptions) -> Result<f64> {
+    match &options.given {
+        EntropyGiven::Scores(scores) if scores.len() == 1 => Ok(scores[0]),
+        _ => Err(Error::InvalidArgument(
+            "the entropy nodes are exported and imported at one score: give --score".into(),
+        )),
+    }
+}
+
+/// External solvers' solutions of the nodes [`entropy_sdpa_export`] writes, verified here
+/// (`entropy --sdpa-solutions`).
+#[derive(Debug, Clone, Serialize)]
+pub struct EntropyImportReport<'a> {
+    /// The game.
+    #[serde(skip)]
+    pub game: &'a Game,
+    /// The answers in words.
+    pub answers: String,
+    /// The score.
+    pub score: f64,
+    /// The bound they prove.
+    #[serde(flatten)]
+    pub imported: crate::bounds::entropy::hierarchy::ImportedEntropy,
+}
+
+/// Verifies `solutions` (SDPA output format, one per node in order, with their sources' names)
+/// as solutions of the nodes
+/// that [`entropy_sdpa_export`] writes with the same options, and sums the bound they prove.
+pub fn entropy_sdpa_import<'a>(
+    game: &'a Game,
+    options: &EntropyCommandOptions,
+    solutions: &[(String, String)],
+) -> Result<EntropyImportReport<'a>> {
+    let s = &game.scenario;
+    let score = one_entropy_score(options)?;
+    let target = TargetChoice::target(s, &options.target, options.with.as_ref())?;
+    let prepared = PreparedHierarchy::new(s, &target, &options.hierarchy)?;
+    let imported = prepared.bound_from_solutions(&EntropyConstraint::Score(score), solutions)?;
+    Ok(EntropyImportReport {
+        game,
+        answers: target_name(s, &target),
+        score,
+        imported,
+    })
+}
+
+/// How many node files an entropy export writes with these options (the nodes t < 1).
+pub fn entropy_node_count(options: &EntropyCommandOptions) -> usize {
+    options.hierarchy.nodes.saturating_sub(1)
 }
 
 /// The `entropy` command: a verified lower bound on H(A|X=x*, E) at each score, or for the

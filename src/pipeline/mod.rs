@@ -16,12 +16,12 @@ pub use design::{
     design, DesignFigure, DesignReport, DesignRequest, FigureValue, DEFAULT_TANGENTS,
 };
 pub use figures::{
-    entropy, entropy_assumptions, entropy_sdpa_export, key, local, margin, randomness,
-    randomness_sdpa_export, randomness_sdpa_import, verify, BestFlip, DevetakWinter,
-    EntropyCommandOptions, EntropyGiven, EntropyNodeExport, EntropyReport, EntropyResult,
-    ErrorCorrection, GuessingImportReport, KeyOptions, KeyReport, LocalReport, MarginOptions,
-    MarginReport, RandomnessOptions, RandomnessReport, RunData, TargetChoice, VerifyReport,
-    MAX_SCORES,
+    entropy, entropy_assumptions, entropy_node_count, entropy_sdpa_export, entropy_sdpa_import,
+    key, local, margin, randomness, randomness_sdpa_export, randomness_sdpa_import, verify,
+    BestFlip, DevetakWinter, EntropyCommandOptions, EntropyGiven, EntropyImportReport,
+    EntropyNodeExport, EntropyReport, EntropyResult, ErrorCorrection, GuessingImportReport,
+    KeyOptions, KeyReport, LocalReport, MarginOptions, MarginReport, RandomnessOptions,
+    RandomnessReport, RunData, TargetChoice, VerifyReport, MAX_SCORES,
 };
 pub use finite_size::{
     finite_size, finite_size_assumptions, Extracting, FiniteSizeOptions, FiniteSizeReport,

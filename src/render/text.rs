@@ -788,6 +788,36 @@ pub fn saved_behaviour(saved: &crate::pipeline::SavedBehaviour, file: &str) -> S
     }
 }
 
+/// External solutions of the entropy nodes, verified and summed.
+pub fn entropy_import(r: &crate::pipeline::EntropyImportReport) -> String {
+    let mut out = format!(
+        "game     {} ({})\nanswers  {}\ngiven    every quantum behaviour scoring at least {}\n\n",
+        r.game.name,
+        r.game.source,
+        r.answers,
+        num(r.score)
+    );
+    out += &format!(
+        "{:>4}  {:>12}  {:>12}  {:>20}  solution\n",
+        "node", "t", "weight", "infimum ≥"
+    );
+    for (k, n) in r.imported.nodes.iter().enumerate() {
+        out += &format!(
+            "{:>4}  {:>12.6e}  {:>12.6e}  {:>20}  {}\n",
+            k + 1,
+            n.t,
+            n.weight,
+            num_down(n.infimum),
+            n.matrix
+        );
+    }
+    out += &format!(
+        "\nH(A|X,E) ≥ {} bits (each node's solution verified on the node rebuilt here, the sum's rounding charged)\n\n{CAUTION}\n",
+        num_down(r.imported.bits)
+    );
+    out
+}
+
 /// The `self-test` command's report.
 pub fn self_test(report: &crate::pipeline::SelfTestReport) -> String {
     let b = &report.bound;

@@ -732,6 +732,29 @@ fn solve_node(problem: &SdpProblem, solver: Backend, stage: &str) -> Result<SdpS
     }
 }
 
+/// The entropy bound external solutions of the nodes prove
+/// ([`PreparedHierarchy::bound_from_solutions`]).
+#[derive(Debug, Clone, Serialize)]
+pub struct ImportedEntropy {
+    /// Lower bound on H(A|X=x*, E) in bits.
+    pub bits: f64,
+    /// Per node (t < 1).
+    pub nodes: Vec<ImportedNode>,
+}
+
+/// One node's verified infimum from an external solution.
+#[derive(Debug, Clone, Serialize)]
+pub struct ImportedNode {
+    /// The node t.
+    pub t: f64,
+    /// Its weight.
+    pub weight: f64,
+    /// The verified lower bound on the node's infimum.
+    pub infimum: f64,
+    /// The matrix of the solution file that proved it (`xMat` or `yMat`).
+    pub matrix: String,
+}
+
 /// A constraint's rows in the node problems (see [`PreparedHierarchy::bound`]).
 struct ConstraintRows {
     equalities: Vec<(MomentTerms, f64)>,
@@ -977,6 +1000,85 @@ impl<'a> PreparedHierarchy<'a> {
         Ok(out)
     }
 
+    /// The entropy bound from the nodes' verified infima (t < 1, in the rule's order):
+    /// Σ w/(t ln 2)·(1 + infimum), plus the node t = 1's floor, less the charge for rounding.
+    pub fn node_sum(&self, infima: &[f64]) -> f64 {
+        let m = self.rule.nodes.len();
+        let mut sum = 0.0;
+        for ((&t, &w), infimum) in self.rule.nodes.iter().zip(&self.rule.weights).zip(infima) {
+            sum += w / (t * std::f64::consts::LN_2) * (1.0 + infimum);
+        }
+        let events = self.target.events(self.s).len();
+        sum += self.rule.weights[m - 1] / std::f64::consts::LN_2
+            * self.options.preprocessing.last_node_floor(events);
+        sum - self.node_sum_charge(infima)
+    }
+
+    /// The rounding charge of [`PreparedHierarchy::node_sum`]: the sum's rounding, and the
+    /// nodes' and weights' own (each within a few units in the last place of the exact rule;
+    /// the quadrature tests check 1e-14), charged generously.
+    fn node_sum_charge(&self, infima: &[f64]) -> f64 {
+        let m = self.rule.nodes.len();
+        let mut magnitude = 0.0;
+        for ((&t, &w), infimum) in self.rule.nodes.iter().zip(&self.rule.weights).zip(infima) {
+            magnitude += w / (t * std::f64::consts::LN_2) * (1.0 + infimum.abs());
+        }
+        let events = self.target.events(self.s).len();
+        magnitude += self.rule.weights[m - 1] / std::f64::consts::LN_2
+            * self.options.preprocessing.last_node_floor(events);
+        1e-12 * magnitude
+    }
+
+    /// The entropy bound that external solvers' solutions of the nodes' SDPs prove (SDPA
+    /// output format, one per node in [`PreparedHierarchy::node_sdps`]'s order, each with the
+    /// name of its source for errors): each verified
+    /// on the node rebuilt here, then summed as [`PreparedHierarchy::bound`] sums its own.
+    pub fn bound_from_solutions(
+        &self,
+        constraint: &EntropyConstraint,
+        solutions: &[(String, String)],
+    ) -> Result<ImportedEntropy> {
+        let nodes = self.node_sdps(constraint)?;
+        if solutions.len() != nodes.len() {
+            return Err(Error::InvalidArgument(format!(
+                "{} solutions for {} nodes (t < 1)",
+                solutions.len(),
+                nodes.len()
+            )));
+        }
+        let mut imported = Vec::with_capacity(nodes.len());
+        for (k, (node, (source, text))) in nodes.iter().zip(solutions).enumerate() {
+            let b = crate::optim::sdpa::import_dual(&node.problem, text, false).map_err(
+                |e| match e {
+                    Error::Input { location, message } => Error::Input {
+                        location,
+                        message: format!("node {} (t = {:.6e}): {message}", k + 1, node.t),
+                    }
+                    .in_file(source),
+                    other => other,
+                },
+            )?;
+            imported.push(ImportedNode {
+                t: node.t,
+                weight: node.weight,
+                infimum: -b.verified_upper,
+                matrix: b.matrix,
+            });
+        }
+        let infima: Vec<f64> = imported.iter().map(|n| n.infimum).collect();
+        let events = self.target.events(self.s).len();
+        let bits = self.node_sum(&infima);
+        if imported.iter().any(|n| n.infimum > 0.0) || bits > (events as f64).log2() {
+            return Err(Error::InvalidArgument(
+                "the solutions prove that no quantum behaviour meets the constraint: every figure would be vacuous".into(),
+            ));
+        }
+        Ok(ImportedEntropy {
+            bits: bits.max(0.0),
+            nodes: imported,
+        })
+    }
+
     /// A verified lower bound on the entropy under `constraint` (see [`conditional_entropy`]).
     pub fn bound(
         &self,
@@ -1119,7 +1221,6 @@ impl<'a> PreparedHierarchy<'a> {
             pairs.map(node_at).collect::<Result<_>>()?
         };
         let mut terms = Vec::with_capacity(outcomes.len());
-        let (mut bits, mut solver_bits, mut magnitude) = (0.0, 0.0, 0.0);
         let (mut at_ends, mut ends_magnitude) = ((0.0, 0.0), 0.0);
         for outcome in outcomes {
             let b = &outcome.bound;
@@ -1129,22 +1230,17 @@ impl<'a> PreparedHierarchy<'a> {
                 at_ends.1 += factor * (1.0 - highest);
                 ends_magnitude += factor * (2.0 + lowest.abs() + highest.abs());
             }
-            bits += factor * (1.0 + b.infimum);
-            solver_bits += factor * (1.0 + b.solver_value);
-            magnitude += factor * (1.0 + b.infimum.abs());
             terms.push(outcome.bound);
         }
+        let infima: Vec<f64> = terms.iter().map(|b| b.infimum).collect();
+        let solver_values: Vec<f64> = terms.iter().map(|b| b.solver_value).collect();
+        let bits = self.node_sum(&infima);
+        let solver_bits = self.node_sum(&solver_values) + self.node_sum_charge(&solver_values);
         // The node at t = 1 contributes at least its floor (0 without preprocessing).
         let last = rule.weights[m - 1] / std::f64::consts::LN_2
             * options.preprocessing.last_node_floor(events);
-        bits += last;
-        solver_bits += last;
-        magnitude += last;
         at_ends = (at_ends.0 + last, at_ends.1 + last);
         ends_magnitude += 2.0 * last;
-        // The sum's rounding, and the nodes' and weights' own (each within a few units in the last
-        // place of the exact rule; the quadrature tests check 1e-14), are charged generously.
-        let bits = bits - 1e-12 * magnitude;
         let most = (events as f64).log2();
         let min_tradeoff = tradeoff_ends.and_then(|(lowest, highest, score)| {
             let charge = 1e-12 * ends_magnitude;
