@@ -620,17 +620,20 @@ def margin(
 
 def randomness(game: GameLike, score=None, scores=None, player=None, question=None,
                with_player=None, with_question=None, level: str = "2", counts=None,
-               alpha=None, force: bool = False) -> Result:
+               alpha=None, exact: bool = False, force: bool = False) -> Result:
     """Certified min-entropy from the guessing probability at a score (or a list of scores),
     or at the lower confidence score of ``counts`` (a counts file's path, its YAML text or a
-    dict) with error ``alpha`` (default 1e-6)."""
+    dict) with error ``alpha`` (default 1e-6). With ``exact=True`` each bound is also proven
+    in exact rational arithmetic (the result's ``exact``: the fraction, the bound rounded up
+    and the min-entropy rounded down)."""
     extra = {}
     if counts is not None:
         extra["counts_text"], extra["counts_name"] = _text_and_name(counts)
         extra["alpha"] = alpha
     return _figure_command(
         "randomness", game, **extra, score=score, scores=scores, player=player, question=question,
-        with_player=with_player, with_question=with_question, level=level, force=force,
+        with_player=with_player, with_question=with_question, level=level, exact=exact,
+        force=force,
     )
 
 

@@ -681,6 +681,9 @@ struct FigureArgs {
     tangent: Option<f64>,
     #[serde(default)]
     tangent_points: Option<usize>,
+    /// Randomness: also prove each bound in exact rationals.
+    #[serde(default)]
+    exact: bool,
     #[serde(default)]
     force: bool,
 }
@@ -833,7 +836,7 @@ fn run_figure(
                 level: Level::parse(a.level.as_deref().unwrap_or("2")).map_err(to_py)?,
                 from_counts,
                 limits: limits(a.force),
-                ..Default::default()
+                exact: a.exact,
             };
             interruptible(py, move || {
                 Ok(reply(

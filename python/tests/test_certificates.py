@@ -88,3 +88,18 @@ def test_tampered_plain_certificates_are_refused(tmp_path):
     refused(change_dual_entry, "dual.txt")
     refused(drop_word, "word.txt")
     refused(other_table, "table.txt")
+
+
+def test_an_exact_guessing_probability_from_python_matches_the_command_line():
+    import bellgap
+    from test_bellgap import assert_same, cli_json, without_timing
+
+    chsh = os.path.join(ROOT, "games", "chsh.yaml")
+    r = bellgap.randomness(chsh, score=0.85, exact=True).to_dict()
+    exact = r["exact"]
+    # 0.6 at CHSH value 2.8 (Pironio et al., Nature 464, 1021 (2010)).
+    assert 0.6 - 1e-12 <= exact["rounded_up"] < 0.6 + 1e-7
+    assert Fraction(exact["fraction"]) <= Fraction(exact["rounded_up"])
+    assert_same(without_timing(r),
+                without_timing(cli_json("randomness", "games/chsh.yaml", "--score", "0.85",
+                                        "--exact")))
