@@ -640,23 +640,27 @@ fn schur(
                 touched.sort_unstable();
                 touched.dedup();
                 let pos = |c: usize| touched.binary_search(&c).unwrap_or(0);
+                // Columns as slices (contiguous, column-major): the axpy loops vectorise.
+                let axpy = |dst: &mut [f64], coef: f64, src: &[f64]| {
+                    for (d, s) in dst.iter_mut().zip(src) {
+                        *d += coef * s;
+                    }
+                };
                 let mut xf = Mat::<f64>::zeros(n, touched.len());
                 for e in mine {
                     let (r, c) = (e.row as usize, e.col as usize);
                     let (pc, pr) = (pos(c), pos(r));
-                    for t in 0..n {
-                        xf[(t, pc)] += e.coef * x[k][(t, r)];
-                    }
+                    axpy(xf.col_as_slice_mut(pc), e.coef, x[k].col_as_slice(r));
                     if r != c {
-                        for t in 0..n {
-                            xf[(t, pr)] += e.coef * x[k][(t, c)];
-                        }
+                        axpy(xf.col_as_slice_mut(pr), e.coef, x[k].col_as_slice(c));
                     }
                 }
+                // Rows `touched` of S⁻¹ are its columns (S⁻¹ is symmetric): Gᵀ = (S⁻¹)_{:,T}·XFᵀ
+                // would do as well, but the product below keeps G's layout.
                 let mut srows = Mat::<f64>::zeros(touched.len(), n);
                 for (a, &c) in touched.iter().enumerate() {
-                    for t in 0..n {
-                        srows[(a, t)] = sinv[k][(c, t)];
+                    for (t, v) in sinv[k].col_as_slice(c).iter().enumerate() {
+                        srows[(a, t)] = *v;
                     }
                 }
                 let mut g = Mat::<f64>::zeros(n, n);
@@ -682,9 +686,9 @@ fn schur(
                 for &(r, c, j, coef) in &entries[from..] {
                     let (r, c) = (r as usize, c as usize);
                     row[j as usize] += if r == c {
-                        coef * g[(r, r)]
+                        coef * g.col_as_slice(c)[r]
                     } else {
-                        coef * (g[(r, c)] + g[(c, r)])
+                        coef * (g.col_as_slice(c)[r] + g.col_as_slice(r)[c])
                     };
                 }
             }
