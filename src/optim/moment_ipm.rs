@@ -615,9 +615,12 @@ fn schur(
     xl: &[f64],
     sl: &[f64],
 ) -> Option<Mat<f64>> {
+    // Per worker, one G per block, reused from row to row: the product below overwrites it, so
+    // it is never zeroed again (zeroing n² entries per row cost as much as the sparse pass).
+    let scratch = || -> Vec<Mat<f64>> { p.sizes.iter().map(|&n| Mat::zeros(n, n)).collect() };
     let rows: Vec<(Vec<f64>, Vec<Vec<f64>>)> = (0..p.m)
         .into_par_iter()
-        .map(|i| {
+        .map_init(scratch, |gs, i| {
             if crate::limits::stop_requested() {
                 return (Vec::new(), Vec::new());
             }
@@ -663,8 +666,9 @@ fn schur(
                         srows[(a, t)] = *v;
                     }
                 }
-                let mut g = Mat::<f64>::zeros(n, n);
-                matmul(&mut g, Accum::Replace, &xf, &srows, 1.0, Par::Seq);
+                let g = &mut gs[k];
+                matmul(&mut *g, Accum::Replace, &xf, &srows, 1.0, Par::Seq);
+                let g = &*g;
                 if p.dense[k].is_some() {
                     let mut v = vec![0.0; n * (n + 1) / 2];
                     for col in 0..n {
