@@ -81,8 +81,9 @@ struct Internal {
     f0: Vec<Mat<f64>>,
     /// Per variable, the entries of F_i (upper triangle).
     columns: Vec<Vec<Entry>>,
-    /// Per block, all (row, col, variable, coef) entries, for the Schur row pass.
-    by_block: Vec<Vec<(u32, u32, u32, f64)>>,
+    /// Per block, its entries by variable (compressed columns): variable j's entries are
+    /// `starts[j]..starts[j + 1]` of (triangle slot, coefficient).
+    by_variable: Vec<SlotColumns>,
     /// Inequality rows G y ≤ g.
     g_rows: Vec<(Vec<(usize, f64)>, f64)>,
     /// Per block, when the F_i fill it densely (as after a split into symmetry blocks): the
@@ -95,6 +96,13 @@ struct Internal {
     /// When they overlap (and there are no inequality rows): the Cholesky factor of their Gram
     /// matrix `⟨F_i, F_j⟩`, for projecting onto the constraints.
     gram: Option<faer::linalg::solvers::Llt<f64>>,
+}
+
+/// The entries of one block by variable, as compressed columns over triangle slots.
+struct SlotColumns {
+    starts: Vec<usize>,
+    slots: Vec<u32>,
+    coefs: Vec<f64>,
 }
 
 /// `y = y0 + N w`: the equality constraints solved for some variables.
@@ -296,6 +304,27 @@ fn build(p: &SdpProblem, el: &Elimination) -> Internal {
             by_block[e.block as usize].push((e.row, e.col, j as u32, e.coef));
         }
     }
+    // by_block lists each block's entries in variable order: cut it into columns.
+    let by_variable = by_block
+        .iter()
+        .map(|entries| {
+            let mut starts = vec![0; m + 1];
+            for &(_, _, j, _) in entries {
+                starts[j as usize + 1] += 1;
+            }
+            for j in 0..m {
+                starts[j + 1] += starts[j];
+            }
+            SlotColumns {
+                starts,
+                slots: entries
+                    .iter()
+                    .map(|&(r, c, _, _)| upper_index(r as usize, c as usize) as u32)
+                    .collect(),
+                coefs: entries.iter().map(|e| e.3).collect(),
+            }
+        })
+        .collect();
     let b: Vec<f64> = el
         .basis
         .iter()
@@ -365,7 +394,7 @@ fn build(p: &SdpProblem, el: &Elimination) -> Internal {
         sizes,
         f0,
         columns,
-        by_block,
+        by_variable,
         g_rows,
         disjoint,
         norms,
@@ -669,31 +698,30 @@ fn schur(
                 let g = &mut gs[k];
                 matmul(&mut *g, Accum::Replace, &xf, &srows, 1.0, Par::Seq);
                 let g = &*g;
-                if p.dense[k].is_some() {
-                    let mut v = vec![0.0; n * (n + 1) / 2];
-                    for col in 0..n {
-                        for r in 0..=col {
-                            v[upper_index(r, col)] = if r == col {
-                                g[(r, r)]
-                            } else {
-                                g[(r, col)] + g[(col, r)]
-                            };
-                        }
+                // ⟨E_slot, G⟩ per triangle slot: G_rr on the diagonal, G_rc + G_cr off it.
+                let mut v = vec![0.0; n * (n + 1) / 2];
+                for col in 0..n {
+                    let gc = g.col_as_slice(col);
+                    let at = upper_index(0, col);
+                    for r in 0..col {
+                        v[at + r] = gc[r] + g.col_as_slice(r)[col];
                     }
+                    v[at + col] = gc[col];
+                }
+                if p.dense[k].is_some() {
                     slot_values[k] = v;
                     continue;
                 }
-                // M is symmetric: the sparse part fills j ≥ i only (entries are sorted by j),
-                // and is mirrored below.
-                let entries = &p.by_block[k];
-                let from = entries.partition_point(|e| (e.2 as usize) < i);
-                for &(r, c, j, coef) in &entries[from..] {
-                    let (r, c) = (r as usize, c as usize);
-                    row[j as usize] += if r == c {
-                        coef * g.col_as_slice(c)[r]
-                    } else {
-                        coef * (g.col_as_slice(c)[r] + g.col_as_slice(r)[c])
-                    };
+                // M is symmetric: the sparse part fills j ≥ i only, and is mirrored below.
+                // Each M_ij gathers its own entries (a register sum, one load each).
+                let sc = &p.by_variable[k];
+                for (j, out) in row.iter_mut().enumerate().skip(i) {
+                    let range = sc.starts[j]..sc.starts[j + 1];
+                    let mut sum = 0.0;
+                    for (&slot, &coef) in sc.slots[range.clone()].iter().zip(&sc.coefs[range]) {
+                        sum += coef * v[slot as usize];
+                    }
+                    *out += sum;
                 }
             }
             (row, slot_values)
