@@ -19,6 +19,19 @@ struct RandomGame {
     answers: Vec<Vec<Vec<usize>>>,
 }
 
+/// Players p0, p1, … with (questions, answers) each, labelled 0, 1, ….
+fn parties_of(sizes: &[(usize, usize)]) -> Vec<Party> {
+    sizes
+        .iter()
+        .enumerate()
+        .map(|(i, &(q, a))| Party {
+            name: format!("p{i}"),
+            question_labels: (0..q as i64).collect(),
+            answer_labels: (0..a as i64).collect(),
+        })
+        .collect()
+}
+
 fn permutation(n: usize) -> impl Strategy<Value = Vec<usize>> {
     Just((0..n).collect::<Vec<_>>()).prop_shuffle()
 }
@@ -50,15 +63,7 @@ fn random_game(max_players: usize) -> impl Strategy<Value = RandomGame> {
         })
         .prop_map(
             |(sizes, weights, scores, win, players, questions, answers)| {
-                let parties = sizes
-                    .iter()
-                    .enumerate()
-                    .map(|(i, &(q, a))| Party {
-                        name: format!("p{i}"),
-                        question_labels: (0..q as i64).collect(),
-                        answer_labels: (0..a as i64).collect(),
-                    })
-                    .collect();
+                let parties = parties_of(&sizes);
                 let total: f64 = weights.iter().map(|&w| w as f64).sum();
                 let weights = weights.iter().map(|&w| w as f64 / total).collect();
                 let (scores, kind) = if win {
@@ -328,15 +333,7 @@ proptest! {
     ) {
         use bellgap::bounds::classical::locality::locality_test;
         use bellgap::Correlations;
-        let parties: Vec<Party> = sizes
-            .iter()
-            .enumerate()
-            .map(|(i, &(q, a))| Party {
-                name: format!("p{i}"),
-                question_labels: (0..q as i64).collect(),
-                answer_labels: (0..a as i64).collect(),
-            })
-            .collect();
+        let parties = parties_of(&sizes);
         let nq = sizes[0].0 * sizes[1].0;
         let cells = nq * sizes[0].1 * sizes[1].1;
         let s = &Scenario::new(
