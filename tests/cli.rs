@@ -2243,6 +2243,19 @@ fn entropy_writes_each_node_sdp_with_its_variable_map() {
         solved["results"][0]["entropy"]["bits"].as_f64().unwrap(),
     );
     assert!((a - b).abs() < 1e-6, "{imported} against {solved}");
+    // Each node's bound proven in exact rationals: the same bound.
+    let exact = json_of(&bellgap(
+        &[
+            &common[..],
+            &["--sdpa-solutions", prefix.to_str().unwrap(), "--exact"],
+        ]
+        .concat(),
+    ));
+    assert!(
+        (exact["bits"].as_f64().unwrap() - a).abs() < 1e-9,
+        "{exact}"
+    );
+    assert!(exact["nodes"][0]["exact"].as_str().unwrap().contains('/'));
     assert_eq!(imported["nodes"].as_array().unwrap().len(), 3);
     // A missing solution file is an error naming it.
     std::fs::remove_file(dir.join("chsh-node-02.out")).unwrap();

@@ -641,7 +641,7 @@ fn exported_node_sdps_are_the_nodes_the_hierarchy_solves() {
         })
         .collect();
     let imported = prepared
-        .bound_from_solutions(&constraint, &solutions)
+        .bound_from_solutions(&constraint, &solutions, false)
         .unwrap();
     assert!(
         (imported.bits - bound.bits).abs() < 1e-6,
@@ -649,13 +649,19 @@ fn exported_node_sdps_are_the_nodes_the_hierarchy_solves() {
         imported.bits,
         bound.bits
     );
+    // Proven exactly node by node: the same bound within 1e-9.
+    let exact = prepared
+        .bound_from_solutions(&constraint, &solutions, true)
+        .unwrap();
+    assert!((exact.bits - imported.bits).abs() < 1e-9);
+    assert!(exact.nodes.iter().all(|n| n.exact.is_some()));
     assert!(prepared
-        .bound_from_solutions(&constraint, &solutions[1..])
+        .bound_from_solutions(&constraint, &solutions[1..], false)
         .is_err());
     let mut swapped = solutions.clone();
     swapped[0].1 = "yMat = {\n{1, 2}\n}\n".into();
     assert!(prepared
-        .bound_from_solutions(&constraint, &swapped)
+        .bound_from_solutions(&constraint, &swapped, false)
         .is_err());
     // A score the hierarchy refuses is refused for export too.
     assert!(prepared.node_sdps(&EntropyConstraint::Score(3.0)).is_err());

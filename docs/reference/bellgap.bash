@@ -509,7 +509,7 @@ _bellgap() {
             return 0
             ;;
         bellgap__subcmd__entropy)
-            opts="-q -h --json --quiet --force --allow-large --score --sweep --behaviour --counts --alpha --strategy --player --question --with --with-question --nodes --level --adversary-words --moments --solver --noisy-preprocessing --symmetry --key-with --key-question --error-rate --sdpa --sdpa-solutions --help"
+            opts="-q -h --json --quiet --force --allow-large --score --sweep --behaviour --counts --alpha --strategy --player --question --with --with-question --nodes --level --adversary-words --moments --solver --noisy-preprocessing --symmetry --key-with --key-question --error-rate --sdpa --sdpa-solutions --exact --help"
             if [[ ${cur} == -* || ${COMP_CWORD} -eq 2 ]] ; then
                 COMPREPLY=( $(compgen -W "${opts}" -- "${cur}") )
                 return 0

@@ -254,6 +254,7 @@ complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -l json -d 'Pri
 complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -s q -l quiet -d 'No progress output on stderr'
 complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -l force -d 'Run even when the size estimate says it would take very long'
 complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -l allow-large -d 'Build game tables larger than the default memory limit'
+complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -l exact -d 'With --sdpa-solutions: prove each node\'s bound in exact rational arithmetic'
 complete -c bellgap -n "__fish_bellgap_using_subcommand entropy" -s h -l help -d 'Print help (see more with \'--help\')'
 complete -c bellgap -n "__fish_bellgap_using_subcommand finite-size" -l rounds -d 'Rounds n of the run' -r
 complete -c bellgap -n "__fish_bellgap_using_subcommand finite-size" -l testing -d 'Probability γ that a round is a test round (questions from the game\'s distribution)' -r

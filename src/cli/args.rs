@@ -419,6 +419,9 @@ pub enum Command {
         /// PREFIX-node-KK.out, and sum the bound they prove.
         #[arg(long, value_name = "PREFIX", requires = "score", conflicts_with_all = ["sweep", "behaviour", "strategy", "counts", "key_with", "error_rate"])]
         sdpa_solutions: Option<PathBuf>,
+        /// With --sdpa-solutions: prove each node's bound in exact rational arithmetic.
+        #[arg(long, requires = "sdpa_solutions")]
+        exact: bool,
     },
     /// What a spot-checking run of n rounds certifies, by entropy accumulation: the smooth
     /// min-entropy, the certified bits of randomness (or key) and the rate per round, the n at

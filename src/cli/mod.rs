@@ -500,6 +500,7 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
             options,
             sdpa,
             sdpa_solutions,
+            exact,
         } => {
             let game = load(game)?;
             if let Some(prefix) = sdpa_solutions {
@@ -510,7 +511,7 @@ pub fn run(invocation: &Invocation) -> Result<Output> {
                     let text = bellgap::formats::files::read_text(Path::new(&file))?;
                     texts.push((file.to_string_lossy().to_string(), text));
                 }
-                let r = pipeline::entropy_sdpa_import(&game, options, &texts)?;
+                let r = pipeline::entropy_sdpa_import(&game, options, &texts, *exact)?;
                 return Ok(output(text::entropy_import(&r), &r, &game.warnings));
             }
             if let Some(prefix) = sdpa {

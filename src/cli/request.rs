@@ -237,6 +237,8 @@ pub enum Request {
         sdpa: Option<PathBuf>,
         /// Where to read external solutions of them (a path prefix).
         sdpa_solutions: Option<PathBuf>,
+        /// Prove the imported nodes' bounds exactly.
+        exact: bool,
     },
     /// `design`; the no-click answer label and the dimensions are resolved with the game.
     Design {
@@ -698,10 +700,12 @@ impl Invocation {
                 error_rate,
                 sdpa,
                 sdpa_solutions,
+                exact,
             } => Request::Entropy {
                 game: game_input(args),
                 sdpa: sdpa.clone(),
                 sdpa_solutions: sdpa_solutions.clone(),
+                exact: *exact,
                 behaviour: behaviour.clone(),
                 strategy: strategy.clone(),
                 counts: counts.clone().map(|c| (c, *alpha)),

@@ -810,12 +810,14 @@ pub fn entropy_sdpa_import<'a>(
     game: &'a Game,
     options: &EntropyCommandOptions,
     solutions: &[(String, String)],
+    exact: bool,
 ) -> Result<EntropyImportReport<'a>> {
     let s = &game.scenario;
     let score = one_entropy_score(options)?;
     let target = TargetChoice::target(s, &options.target, options.with.as_ref())?;
     let prepared = PreparedHierarchy::new(s, &target, &options.hierarchy)?;
-    let imported = prepared.bound_from_solutions(&EntropyConstraint::Score(score), solutions)?;
+    let imported =
+        prepared.bound_from_solutions(&EntropyConstraint::Score(score), solutions, exact)?;
     Ok(EntropyImportReport {
         game,
         answers: target_name(s, &target),

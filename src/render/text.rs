@@ -811,9 +811,15 @@ pub fn entropy_import(r: &crate::pipeline::EntropyImportReport) -> String {
             n.matrix
         );
     }
+    let exact = r.imported.nodes.iter().all(|n| n.exact.is_some());
     out += &format!(
-        "\nH(A|X,E) ≥ {} bits (each node's solution verified on the node rebuilt here, the sum's rounding charged)\n\n{CAUTION}\n",
-        num_down(r.imported.bits)
+        "\nH(A|X,E) ≥ {} bits (each node's solution verified on the node rebuilt here{}, the sum's rounding charged)\n\n{CAUTION}\n",
+        num_down(r.imported.bits),
+        if exact {
+            " and its bound proven in exact rationals"
+        } else {
+            ""
+        }
     );
     out
 }

@@ -749,8 +749,12 @@ pub struct ImportedNode {
     pub t: f64,
     /// Its weight.
     pub weight: f64,
-    /// The verified lower bound on the node's infimum.
+    /// The verified lower bound on the node's infimum (proven exactly when `exact` is given).
     pub infimum: f64,
+    /// When asked: the exact upper bound on the node's SDP (minus the infimum's bound), as a
+    /// fraction.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub exact: Option<String>,
     /// The matrix of the solution file that proved it (`xMat` or `yMat`).
     pub matrix: String,
 }
@@ -1033,10 +1037,15 @@ impl<'a> PreparedHierarchy<'a> {
     /// output format, one per node in [`PreparedHierarchy::node_sdps`]'s order, each with the
     /// name of its source for errors): each verified
     /// on the node rebuilt here, then summed as [`PreparedHierarchy::bound`] sums its own.
+    ///
+    /// With `exact`, each node's bound is proven in exact rationals ([`crate::optim::exact`])
+    /// and that bound is the one summed; the sum itself stays in floating point with its
+    /// rounding charged, as the quadrature's nodes and weights are.
     pub fn bound_from_solutions(
         &self,
         constraint: &EntropyConstraint,
         solutions: &[(String, String)],
+        exact: bool,
     ) -> Result<ImportedEntropy> {
         let nodes = self.node_sdps(constraint)?;
         if solutions.len() != nodes.len() {
@@ -1048,7 +1057,7 @@ impl<'a> PreparedHierarchy<'a> {
         }
         let mut imported = Vec::with_capacity(nodes.len());
         for (k, (node, (source, text))) in nodes.iter().zip(solutions).enumerate() {
-            let b = crate::optim::sdpa::import_dual(&node.problem, text, false).map_err(
+            let b = crate::optim::sdpa::import_dual(&node.problem, text, exact).map_err(
                 |e| match e {
                     Error::Input { location, message } => Error::Input {
                         location,
@@ -1061,7 +1070,8 @@ impl<'a> PreparedHierarchy<'a> {
             imported.push(ImportedNode {
                 t: node.t,
                 weight: node.weight,
-                infimum: -b.verified_upper,
+                infimum: -b.exact.as_ref().map_or(b.verified_upper, |e| e.rounded_up),
+                exact: b.exact.map(|e| e.fraction),
                 matrix: b.matrix,
             });
         }
