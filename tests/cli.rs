@@ -2140,6 +2140,9 @@ fn randomness_exports_its_sdp_verifies_an_external_solution_and_proves_exactly()
     // λ_0 + λ_1 = 1 with μ = 1 leaves residuals on the guessed moments, charged at their
     // bounds: a valid bound, just a weak one.
     assert!(j["verified_upper"].as_f64().unwrap() >= 1.0, "{j}");
+    // As a probability it says nothing: reported as 1, with no min-entropy.
+    assert_eq!(j["guessing_probability"], 1.0);
+    assert_eq!(j["min_entropy"], 0.0);
     assert_eq!(j["matrix"], "yMat");
     assert!(j["exact"]["rounded_up"].as_f64().unwrap() >= 1.0);
     // A solution of another shape is refused with exit 2, naming the file.

@@ -246,6 +246,8 @@ fn a_guessing_probability_is_proven_exactly_and_its_sdp_exported_and_reimported(
         (imported.bound.verified_upper - r.guessing_probability).abs() < 1e-9,
         "{imported:?}"
     );
+    assert_eq!(imported.guessing_probability, imported.bound.verified_upper);
+    assert!(imported.min_entropy > 0.73 && imported.min_entropy <= -(0.6f64.log2()) + 1e-7);
     let e = imported.bound.exact.unwrap();
     assert!(e.rounded_up >= 0.6 - 1e-12 && e.rounded_up < 0.6 + 1e-7);
     // At another level the shapes differ and the solution is refused.

@@ -532,10 +532,12 @@ pub struct GuessingImport {
     pub score: f64,
     /// The NPA level.
     pub level: Level,
-    /// The bound on the guessing probability it proves.
+    /// The bound on the SDP's optimum it proves.
     #[serde(flatten)]
     pub bound: crate::optim::sdpa::ImportedBound,
-    /// −log₂ of the verified bound, rounded down.
+    /// The guessing probability's bound: the verified bound, or 1 when that is above 1.
+    pub guessing_probability: f64,
+    /// −log₂ of `guessing_probability`, rounded down.
     pub min_entropy: f64,
 }
 
@@ -552,7 +554,8 @@ pub fn sdpa_import(
     let (base, _) = sized(s, target, level)?;
     let g = guessing_problem(s, target, score, Mode::Constraint(score), &base)?;
     let bound = crate::optim::sdpa::import_dual(&g.problem, text, exact)?;
-    let min_entropy = (-bound.verified_upper.min(1.0).log2())
+    let guessing_probability = bound.verified_upper.min(1.0);
+    let min_entropy = (-guessing_probability.log2())
         .next_down()
         .next_down()
         .max(0.0);
@@ -560,6 +563,7 @@ pub fn sdpa_import(
         score,
         level: level.clone(),
         bound,
+        guessing_probability,
         min_entropy,
     })
 }

@@ -757,7 +757,14 @@ pub fn guessing_import(r: &crate::pipeline::GuessingImportReport, source: &str) 
         ("level".into(), i.level.name()),
         (
             "guessing probability ≤".into(),
-            format!("{} (verified)", num_up(i.bound.verified_upper)),
+            if i.bound.verified_upper > 1.0 {
+                format!(
+                    "1 (the solution proves only {} for the SDP, which says nothing)",
+                    num_up(i.bound.verified_upper)
+                )
+            } else {
+                format!("{} (verified)", num_up(i.guessing_probability))
+            },
         ),
         ("min-entropy ≥ (bits)".into(), num_down(i.min_entropy)),
     ];
