@@ -169,13 +169,13 @@ impl Assembled {
 }
 
 #[cfg(test)]
-mod tests {
+pub(crate) mod tests {
 
     use crate::optim::sdp::{AffineEntry, MatrixBlock, SdpProblem};
 
     /// maximise y subject to [[corner, y], [y, 1]] ⪰ 0 (optimum √corner), with every moment
-    /// bounded by one.
-    fn two_by_two(corner: f64) -> SdpProblem {
+    /// bounded by one (also the exact verification's test problem).
+    pub(crate) fn two_by_two(corner: f64) -> SdpProblem {
         let entry = |constant: f64, terms: Vec<(usize, f64)>| AffineEntry { constant, terms };
         SdpProblem {
             variables: 1,

@@ -291,31 +291,12 @@ pub fn exact_bound_with_proofs(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::optim::sdp::{AffineEntry, MatrixBlock};
-
-    /// maximise y subject to [[1, y], [y, 1]] ⪰ 0: optimum 1, dual Z = [[1/2, −1/2], [−1/2, 1/2]].
-    fn two_by_two() -> SdpProblem {
-        let entry = |constant: f64, terms: Vec<(usize, f64)>| AffineEntry { constant, terms };
-        SdpProblem {
-            variables: 1,
-            objective: vec![1.0],
-            blocks: vec![MatrixBlock {
-                size: 2,
-                upper: vec![
-                    entry(1.0, vec![]),
-                    entry(0.0, vec![(0, 1.0)]),
-                    entry(1.0, vec![]),
-                ],
-                trace_bound: 2.0,
-            }],
-            variable_bound: 1.0,
-            ..Default::default()
-        }
-    }
+    use crate::optim::certify::tests::two_by_two;
 
     #[test]
     fn the_exact_dual_proves_the_optimum_and_a_bad_one_proves_less() {
-        let p = two_by_two();
+        // maximise y subject to [[1, y], [y, 1]] ⪰ 0: optimum 1, dual Z = [[1/2, −1/2], [−1/2, 1/2]].
+        let p = two_by_two(1.0);
         // svec layout: Z00, √2·Z01, Z11.
         let z = [0.5, -0.5 * std::f64::consts::SQRT_2, 0.5];
         let b = exact_bound(&p, &z).unwrap();
