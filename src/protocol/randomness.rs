@@ -463,13 +463,20 @@ pub struct ExactGuess {
 
 impl ExactGuess {
     fn from_bound(bound: ExactBound) -> ExactGuess {
-        // log2 is within an ulp or so of exact: two steps down keep the figure on its side.
-        let min_entropy = (-bound.rounded_up.min(1.0).log2()).next_down().next_down();
         ExactGuess {
+            min_entropy: min_entropy_below(bound.rounded_up),
             bound,
-            min_entropy: min_entropy.max(0.0),
         }
     }
+}
+
+/// −log₂ of a bound on the guessing probability (capped at 1), rounded down: log₂ is within an
+/// ulp or so of exact, and two steps down keep the figure on its side.
+fn min_entropy_below(guessing_probability: f64) -> f64 {
+    (-guessing_probability.min(1.0).log2())
+        .next_down()
+        .next_down()
+        .max(0.0)
 }
 
 /// Proves `r`'s bound (a result of [`guessing_probability`] for `target`) in exact rational
@@ -551,20 +558,14 @@ pub fn sdpa_import(
     text: &str,
     exact: bool,
 ) -> Result<GuessingImport> {
-    let (base, _) = sized(s, target, level)?;
-    let g = guessing_problem(s, target, score, Mode::Constraint(score), &base)?;
-    let bound = crate::optim::sdpa::import_dual(&g.problem, text, exact)?;
-    let guessing_probability = bound.verified_upper.min(1.0);
-    let min_entropy = (-guessing_probability.log2())
-        .next_down()
-        .next_down()
-        .max(0.0);
+    let problem = guessing_sdp(s, target, score, level)?;
+    let bound = crate::optim::sdpa::import_dual(&problem, text, exact)?;
     Ok(GuessingImport {
         score,
         level: level.clone(),
+        guessing_probability: bound.verified_upper.min(1.0),
+        min_entropy: min_entropy_below(bound.verified_upper),
         bound,
-        guessing_probability,
-        min_entropy,
     })
 }
 

@@ -1007,30 +1007,25 @@ impl<'a> PreparedHierarchy<'a> {
     /// The entropy bound from the nodes' verified infima (t < 1, in the rule's order):
     /// Σ w/(t ln 2)·(1 + infimum), plus the node t = 1's floor, less the charge for rounding.
     pub fn node_sum(&self, infima: &[f64]) -> f64 {
-        let m = self.rule.nodes.len();
-        let mut sum = 0.0;
-        for ((&t, &w), infimum) in self.rule.nodes.iter().zip(&self.rule.weights).zip(infima) {
-            sum += w / (t * std::f64::consts::LN_2) * (1.0 + infimum);
-        }
-        let events = self.target.events(self.s).len();
-        sum += self.rule.weights[m - 1] / std::f64::consts::LN_2
-            * self.options.preprocessing.last_node_floor(events);
-        sum - self.node_sum_charge(infima)
+        let (sum, charge) = self.node_sum_and_charge(infima);
+        sum - charge
     }
 
-    /// The rounding charge of [`PreparedHierarchy::node_sum`]: the sum's rounding, and the
-    /// nodes' and weights' own (each within a few units in the last place of the exact rule;
-    /// the quadrature tests check 1e-14), charged generously.
-    fn node_sum_charge(&self, infima: &[f64]) -> f64 {
+    /// [`PreparedHierarchy::node_sum`] before its charge, and the charge: the sum's rounding,
+    /// and the nodes' and weights' own (each within a few units in the last place of the exact
+    /// rule; the quadrature tests check 1e-14), charged generously.
+    fn node_sum_and_charge(&self, infima: &[f64]) -> (f64, f64) {
         let m = self.rule.nodes.len();
-        let mut magnitude = 0.0;
+        let (mut sum, mut magnitude) = (0.0, 0.0);
         for ((&t, &w), infimum) in self.rule.nodes.iter().zip(&self.rule.weights).zip(infima) {
-            magnitude += w / (t * std::f64::consts::LN_2) * (1.0 + infimum.abs());
+            let factor = w / (t * std::f64::consts::LN_2);
+            sum += factor * (1.0 + infimum);
+            magnitude += factor * (1.0 + infimum.abs());
         }
         let events = self.target.events(self.s).len();
-        magnitude += self.rule.weights[m - 1] / std::f64::consts::LN_2
+        let last = self.rule.weights[m - 1] / std::f64::consts::LN_2
             * self.options.preprocessing.last_node_floor(events);
-        1e-12 * magnitude
+        (sum + last, 1e-12 * (magnitude + last))
     }
 
     /// The entropy bound that external solvers' solutions of the nodes' SDPs prove (SDPA
@@ -1245,7 +1240,7 @@ impl<'a> PreparedHierarchy<'a> {
         let infima: Vec<f64> = terms.iter().map(|b| b.infimum).collect();
         let solver_values: Vec<f64> = terms.iter().map(|b| b.solver_value).collect();
         let bits = self.node_sum(&infima);
-        let solver_bits = self.node_sum(&solver_values) + self.node_sum_charge(&solver_values);
+        let solver_bits = self.node_sum_and_charge(&solver_values).0;
         // The node at t = 1 contributes at least its floor (0 without preprocessing).
         let last = rule.weights[m - 1] / std::f64::consts::LN_2
             * options.preprocessing.last_node_floor(events);
