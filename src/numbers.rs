@@ -109,6 +109,15 @@ pub fn num_sig(x: f64, digits: usize) -> String {
     }
 }
 
+/// An exact rational as `n/d`, or `n` when the denominator is 1.
+pub fn fraction_text(q: &num_rational::BigRational) -> String {
+    if num_traits::One::is_one(q.denom()) {
+        q.numer().to_string()
+    } else {
+        format!("{}/{}", q.numer(), q.denom())
+    }
+}
+
 /// A count that may be astronomically large: exact up to 10^15, then `m×10^e`.
 pub fn count_text(x: f64) -> String {
     if x < 1e15 {
@@ -122,17 +131,15 @@ pub fn count_text(x: f64) -> String {
 /// `1 bit`, `0.5 bits`.
 pub fn bits_text(x: f64) -> String {
     // Certified bits are lower bounds: written down.
-    let n = num_down(x);
-    if n == "1" {
-        "1 bit".into()
-    } else {
-        format!("{n} bits")
-    }
+    with_bits(num_down(x))
 }
 
 /// An upper bound in bits (an error-correction term), written up.
 pub fn bits_up_text(x: f64) -> String {
-    let n = num_up(x);
+    with_bits(num_up(x))
+}
+
+fn with_bits(n: String) -> String {
     if n == "1" {
         "1 bit".into()
     } else {

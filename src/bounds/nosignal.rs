@@ -10,7 +10,7 @@
 use std::time::Instant;
 
 use num_rational::BigRational;
-use num_traits::{One, ToPrimitive, Zero};
+use num_traits::{ToPrimitive, Zero};
 use serde::Serialize;
 
 use crate::error::{Error, Result};
@@ -265,11 +265,7 @@ pub fn exact_behaviour(s: &Scenario, ns: &NoSignallingValue) -> Option<ExactBeha
                 value += &p * exact(c)?;
             }
             largest_denominator = largest_denominator.max(p.denom().to_u64()?);
-            probabilities.push(if p.denom().is_one() {
-                p.numer().to_string()
-            } else {
-                format!("{}/{}", p.numer(), p.denom())
-            });
+            probabilities.push(crate::numbers::fraction_text(&p));
         }
     }
     let close = (value.to_f64()? - ns.value).abs() <= 1e-9 * (1.0 + ns.value.abs());

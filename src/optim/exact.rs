@@ -62,6 +62,11 @@ pub fn round_up(q: &BigRational) -> f64 {
     f
 }
 
+/// The largest binary64 number at most `q`.
+pub fn round_down(q: &BigRational) -> f64 {
+    -round_up(&-q)
+}
+
 /// One block's dual matrix rounded to a grid 2^(−2b), with b chosen so that every integer
 /// below fits in 127 bits, and the shift that proves it PSD: the rounded numerators, the bits
 /// `2b` of their denominator, and ρ as a rational.

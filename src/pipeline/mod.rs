@@ -598,15 +598,6 @@ pub struct SavedBehaviour {
     pub largest_denominator: Option<u64>,
 }
 
-/// `n/d`, or `n` when the denominator is 1.
-fn fraction_text(q: &num_rational::BigRational) -> String {
-    if num_traits::One::is_one(q.denom()) {
-        q.numer().to_string()
-    } else {
-        format!("{}/{}", q.numer(), q.denom())
-    }
-}
-
 /// The optimal behaviour of `report`'s no-signalling value as a correlations file, in exact
 /// fractions when the LP's solution reads as one ([`crate::bounds::nosignal::exact_behaviour`]).
 pub fn nosignal_behaviour(game: &Game, report: &GameReport) -> Result<SavedBehaviour> {
@@ -622,7 +613,7 @@ pub fn nosignal_behaviour(game: &Game, report: &GameReport) -> Result<SavedBehav
             format!(
                 "an optimal no-signalling behaviour of {}, in exact fractions (non-negative, normalised and no-signalling, checked exactly); its value is {} (the table's binary64 numbers taken exactly)",
                 game.name,
-                fraction_text(&e.value)
+                crate::numbers::fraction_text(&e.value)
             ),
         ),
         None => (
@@ -641,7 +632,9 @@ pub fn nosignal_behaviour(game: &Game, report: &GameReport) -> Result<SavedBehav
             &probabilities,
         ),
         exact: exact.is_some(),
-        value_fraction: exact.as_ref().map(|e| fraction_text(&e.value)),
+        value_fraction: exact
+            .as_ref()
+            .map(|e| crate::numbers::fraction_text(&e.value)),
         value: exact.as_ref().map_or(ns.value, |e| {
             num_traits::ToPrimitive::to_f64(&e.value).unwrap_or(ns.value)
         }),

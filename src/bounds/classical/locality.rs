@@ -337,8 +337,8 @@ pub fn integer_expression(c: &Correlations, coefficients: &[f64]) -> Option<Inte
         if margin > BigRational::from_integer(0.into()) {
             return Some(IntegerExpression {
                 value_fraction: format!("{}/{}", value.numer(), value.denom()),
-                value: round_down(&value),
-                violation: round_down(&margin),
+                value: crate::optim::exact::round_down(&value),
+                violation: crate::optim::exact::round_down(&margin),
                 coefficients: ints,
                 local_bound,
             });
@@ -354,11 +354,6 @@ fn gcd(a: i64, b: i64) -> i64 {
         (a, b) = (b, a % b);
     }
     a
-}
-
-/// The largest binary64 number at most `q`.
-fn round_down(q: &num_rational::BigRational) -> f64 {
-    -crate::optim::exact::round_up(&-q)
 }
 
 /// Runs the locality LP on correlations taken as given; the caller fills in `signalling`.
