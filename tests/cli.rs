@@ -2259,6 +2259,16 @@ fn entropy_writes_each_node_sdp_with_its_variable_map() {
         "{exact}"
     );
     assert!(exact["nodes"][0]["exact"].as_str().unwrap().contains('/'));
+    // The printed bound is written down.
+    let out = bellgap(
+        &[
+            &common[..common.len() - 1],
+            &["--sdpa-solutions", prefix.to_str().unwrap(), "--exact"],
+        ]
+        .concat(),
+    );
+    let text = String::from_utf8_lossy(&out.stdout).to_string();
+    assert!(printed_after(&text, "H(A|X,E) ≥") <= exact["bits"].as_f64().unwrap());
     assert_eq!(imported["nodes"].as_array().unwrap().len(), 3);
     // A missing solution file is an error naming it.
     std::fs::remove_file(dir.join("chsh-node-02.out")).unwrap();
@@ -2343,5 +2353,143 @@ fn nosignal_writes_an_optimal_behaviour_in_exact_fractions() {
         std::fs::read_to_string(&game).unwrap(),
         std::fs::read_to_string("games/chsh.yaml").unwrap()
     );
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn exact_and_imported_figures_are_printed_on_their_side() {
+    use bellgap::protocol::randomness::{self, Target};
+    let dir = std::env::temp_dir().join(format!("bellgap-sides-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let text_and_json = |args: &[&str]| {
+        let out = bellgap(args);
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let text = String::from_utf8_lossy(&out.stdout).to_string();
+        (text, json_of(&bellgap(&[args, &["--json"]].concat())))
+    };
+    // randomness --exact: the exact min-entropy is a lower bound, written down.
+    let (text, j) = text_and_json(&[
+        "randomness",
+        "games/chsh.yaml",
+        "--score",
+        "0.85",
+        "--exact",
+    ]);
+    assert!(printed_after(&text, ", min-entropy ≥") <= j["exact"]["min_entropy"].as_f64().unwrap());
+    // An imported solution (our own dual in SDPA output form): the guessing probability up,
+    // the min-entropy down.
+    let g =
+        bellgap::Game::from_file("games/chsh.yaml", bellgap::CompileOptions::default()).unwrap();
+    let target = Target {
+        parts: vec![(0, 0)],
+    };
+    let level = bellgap::Level::Length(2);
+    let r = randomness::guessing_probability(&g.scenario, &target, 0.85, &level).unwrap();
+    let problem = randomness::guessing_sdp(&g.scenario, &target, 0.85, &level).unwrap();
+    let solution = dir.join("guess.out");
+    std::fs::write(
+        &solution,
+        bellgap::optim::sdpa::solution_text(&problem, &r.dual),
+    )
+    .unwrap();
+    let (text, j) = text_and_json(&[
+        "randomness",
+        "games/chsh.yaml",
+        "--score",
+        "0.85",
+        "--sdpa-solution",
+        solution.to_str().unwrap(),
+        "--exact",
+    ]);
+    assert!(
+        printed_after(&text, "guessing probability ≤")
+            >= j["guessing_probability"].as_f64().unwrap()
+    );
+    assert!(printed_after(&text, "min-entropy ≥ (bits)") <= j["min_entropy"].as_f64().unwrap());
+    assert!(printed_after(&text, "proven exactly ≤") >= j["exact"]["rounded_up"].as_f64().unwrap());
+    // local's integer form: its value and violation are lower bounds, written down.
+    let path = tsirelson_box("sides-tsirelson.yaml");
+    let (text, j) = text_and_json(&["local", path.to_str().unwrap()]);
+    let int = &j["separating"]["integer"];
+    let value_label = format!("{} ≥", int["value_fraction"].as_str().unwrap());
+    assert!(printed_after(&text, &value_label) <= int["value"].as_f64().unwrap());
+    assert!(printed_after(&text, "violation ≥") <= int["violation"].as_f64().unwrap());
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn hostile_sdpa_solutions_are_refused_with_exit_2() {
+    let dir = std::env::temp_dir().join(format!("bellgap-hostile-sdpa-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let block = |v: &str| {
+        let row = format!("{{{}}}", vec![v; 13].join(", "));
+        format!("{{ {} }}", vec![row.as_str(); 13].join(", "))
+    };
+    // Not-a-number, infinite and overflowing entries, and a diagonal block of the wrong length:
+    // no matrix of this shape proves anything, so the file is refused, never a bound.
+    for (name, entry, diagonal) in [
+        ("nan.out", "nan", "{0, 1, 0}"),
+        ("inf.out", "inf", "{0, 1, 0}"),
+        ("huge.out", "1e308", "{1e308, 1e308, 1e308}"),
+        ("short.out", "0", "{0, 1}"),
+    ] {
+        let file = dir.join(name);
+        std::fs::write(
+            &file,
+            format!(
+                "yMat =\n{{\n{},\n{},\n{diagonal}\n}}\n",
+                block(entry),
+                block(entry)
+            ),
+        )
+        .unwrap();
+        for exact in [false, true] {
+            let mut args = vec![
+                "randomness",
+                "games/chsh.yaml",
+                "--score",
+                "0.85",
+                "--sdpa-solution",
+                file.to_str().unwrap(),
+            ];
+            if exact {
+                args.push("--exact");
+            }
+            let out = bellgap(&args);
+            assert_eq!(
+                out.status.code(),
+                Some(2),
+                "{name}: {}{}",
+                String::from_utf8_lossy(&out.stdout),
+                String::from_utf8_lossy(&out.stderr)
+            );
+            assert!(String::from_utf8_lossy(&out.stderr).contains(name));
+        }
+    }
+    // The same for the entropy nodes' solutions.
+    let prefix = dir.join("chsh");
+    for k in 1..=3 {
+        std::fs::write(
+            dir.join(format!("chsh-node-{k:02}.out")),
+            "yMat =\n{\n{ {nan} }\n}\n",
+        )
+        .unwrap();
+    }
+    let out = bellgap(&[
+        "entropy",
+        "games/chsh.yaml",
+        "--score",
+        "0.84",
+        "--nodes",
+        "4",
+        "--sdpa-solutions",
+        prefix.to_str().unwrap(),
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("chsh-node-01.out"));
     let _ = std::fs::remove_dir_all(&dir);
 }
