@@ -242,9 +242,25 @@ pub fn locality_test(c: &Correlations, limits: &Limits) -> Result<LocalityReport
     Ok(report)
 }
 
+/// How many deterministic strategies the players have (Π answers^questions).
+fn deterministic_strategies(c: &Correlations) -> f64 {
+    c.parties
+        .iter()
+        .map(|p| (p.answers() as f64).powi(p.questions() as i32))
+        .product()
+}
+
 /// Calls `f` with each deterministic strategy's cells: for every joint question q, the index
 /// `q * joint_answers + a` of the joint answer a the strategy gives.
 fn for_each_deterministic(c: &Correlations, mut f: impl FnMut(&[usize])) {
+    for_each_deterministic_while(c, |cells| {
+        f(cells);
+        true
+    });
+}
+
+/// [`for_each_deterministic`], stopping as soon as `f` returns false.
+fn for_each_deterministic_while(c: &Correlations, mut f: impl FnMut(&[usize]) -> bool) {
     let s = c.scenario_shape();
     let na = s.joint_answers();
     let nq = s.joint_questions();
@@ -277,7 +293,9 @@ fn for_each_deterministic(c: &Correlations, mut f: impl FnMut(&[usize])) {
             }
             *cell = q * na + index_of(&ad, &ar);
         }
-        f(&cells);
+        if !f(&cells) {
+            return;
+        }
     }
 }
 
@@ -295,6 +313,12 @@ pub fn integer_expression(c: &Correlations, coefficients: &[f64]) -> Option<Inte
             row.iter().map(move |v| v - least)
         })
         .collect();
+    // Each candidate enumerates every deterministic strategy again: only within the size the
+    // locality test takes without being forced.
+    let strategies = deterministic_strategies(c);
+    if strategies > STRATEGY_LIMIT {
+        return None;
+    }
     let largest = shifted.iter().copied().fold(0.0, f64::max);
     if !(largest.is_finite() && largest > 0.0) {
         return None;
@@ -329,9 +353,12 @@ pub fn integer_expression(c: &Correlations, coefficients: &[f64]) -> Option<Inte
             .filter(|(k, _)| **k != 0)
             .map(|(&k, q)| q * BigRational::from_integer(k.into()))
             .sum();
+        // A strategy reaching the value rules the candidate out: the enumeration stops there.
+        let reach = value.ceil().to_integer();
         let mut local_bound = i64::MIN;
-        for_each_deterministic(c, |cells| {
+        for_each_deterministic_while(c, |cells| {
             local_bound = local_bound.max(cells.iter().map(|&k| ints[k]).sum());
+            num_bigint::BigInt::from(local_bound) < reach
         });
         let margin = &value - BigRational::from_integer(local_bound.into());
         if margin > BigRational::from_integer(0.into()) {
@@ -361,11 +388,7 @@ fn gcd(a: i64, b: i64) -> i64 {
 fn locality_test_as_given(c: &Correlations, force: bool) -> Result<LocalityReport> {
     let start = Instant::now();
     let s = c.scenario_shape();
-    let strategies: f64 = c
-        .parties
-        .iter()
-        .map(|p| (p.answers() as f64).powi(p.questions() as i32))
-        .product();
+    let strategies = deterministic_strategies(c);
     if strategies > STRATEGY_LIMIT && !force {
         return Err(Error::TooLarge {
             what: "the locality LP".into(),
