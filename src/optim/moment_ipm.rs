@@ -646,7 +646,13 @@ fn schur(
 ) -> Option<Mat<f64>> {
     // Per worker, one G per block, reused from row to row: the product below overwrites it, so
     // it is never zeroed again (zeroing n² entries per row cost as much as the sparse pass).
-    let scratch = || -> Vec<Mat<f64>> { p.sizes.iter().map(|&n| Mat::zeros(n, n)).collect() };
+    // The slot values alongside, overwritten whole per row likewise.
+    let scratch = || -> Vec<(Mat<f64>, Vec<f64>)> {
+        p.sizes
+            .iter()
+            .map(|&n| (Mat::zeros(n, n), vec![0.0; n * (n + 1) / 2]))
+            .collect()
+    };
     let rows: Vec<(Vec<f64>, Vec<Vec<f64>>)> = (0..p.m)
         .into_par_iter()
         .map_init(scratch, |gs, i| {
@@ -695,11 +701,10 @@ fn schur(
                         srows[(a, t)] = *v;
                     }
                 }
-                let g = &mut gs[k];
+                let (g, v) = &mut gs[k];
                 matmul(&mut *g, Accum::Replace, &xf, &srows, 1.0, Par::Seq);
                 let g = &*g;
                 // ⟨E_slot, G⟩ per triangle slot: G_rr on the diagonal, G_rc + G_cr off it.
-                let mut v = vec![0.0; n * (n + 1) / 2];
                 for col in 0..n {
                     let gc = g.col_as_slice(col);
                     let at = upper_index(0, col);
@@ -709,7 +714,7 @@ fn schur(
                     v[at + col] = gc[col];
                 }
                 if p.dense[k].is_some() {
-                    slot_values[k] = v;
+                    slot_values[k] = v.clone();
                     continue;
                 }
                 // M is symmetric: the sparse part fills j ≥ i only, and is mirrored below.
