@@ -103,6 +103,10 @@ struct SlotColumns {
     starts: Vec<usize>,
     slots: Vec<u32>,
     coefs: Vec<f64>,
+    /// Per variable i, the first matrix column holding an entry of some F_j with j ≥ i: row i of
+    /// the Schur complement (j ≥ i) reads no slot left of it, so neither the slot values nor
+    /// the top-left square of G = X F_i S⁻¹ before it are formed.
+    first_column: Vec<u32>,
 }
 
 /// `y = y0 + N w`: the equality constraints solved for some variables.
@@ -315,6 +319,17 @@ fn build(p: &SdpProblem, el: &Elimination) -> Internal {
             for j in 0..m {
                 starts[j + 1] += starts[j];
             }
+            // Entries are (row ≤ column): a variable's leftmost column is its smallest `c`;
+            // a suffix minimum gives the leftmost over j ≥ i.
+            let mut first_column = vec![u32::MAX; m + 1];
+            for &(_, c, j, _) in entries {
+                let f = &mut first_column[j as usize];
+                *f = (*f).min(c);
+            }
+            for j in (0..m).rev() {
+                first_column[j] = first_column[j].min(first_column[j + 1]);
+            }
+            first_column.truncate(m);
             SlotColumns {
                 starts,
                 slots: entries
@@ -322,6 +337,7 @@ fn build(p: &SdpProblem, el: &Elimination) -> Internal {
                     .map(|&(r, c, _, _)| upper_index(r as usize, c as usize) as u32)
                     .collect(),
                 coefs: entries.iter().map(|e| e.3).collect(),
+                first_column,
             }
         })
         .collect();
@@ -731,10 +747,36 @@ fn schur_into(
                     }
                 }
                 let (g, v) = &mut gs[k];
-                matmul(&mut *g, Accum::Replace, &xf, &srows, 1.0, Par::Seq);
+                // Dense blocks need every slot; otherwise only columns from `first` on (and
+                // the rows below `first` of the columns before it, for G_cr).
+                let first = if p.dense[k].is_some() {
+                    0
+                } else {
+                    (p.by_variable[k].first_column[i] as usize).min(n)
+                };
+                if first == 0 {
+                    matmul(&mut *g, Accum::Replace, &xf, &srows, 1.0, Par::Seq);
+                } else {
+                    matmul(
+                        g.as_mut().subcols_mut(first, n - first),
+                        Accum::Replace,
+                        &xf,
+                        srows.as_ref().subcols(first, n - first),
+                        1.0,
+                        Par::Seq,
+                    );
+                    matmul(
+                        g.as_mut().submatrix_mut(first, 0, n - first, first),
+                        Accum::Replace,
+                        xf.as_ref().subrows(first, n - first),
+                        srows.as_ref().subcols(0, first),
+                        1.0,
+                        Par::Seq,
+                    );
+                }
                 let g = &*g;
                 // ⟨E_slot, G⟩ per triangle slot: G_rr on the diagonal, G_rc + G_cr off it.
-                for col in 0..n {
+                for col in first..n {
                     let gc = g.col_as_slice(col);
                     let at = upper_index(0, col);
                     for r in 0..col {
