@@ -666,15 +666,15 @@ fn schur_into(
     buf: &mut [f64],
 ) -> bool {
     let m = p.m;
-    // Per worker, one G per block, reused from row to row: the product below overwrites it, so
-    // it is never zeroed again (zeroing n² entries per row cost as much as the sparse pass).
-    // The slot values alongside, overwritten whole per row likewise.
+    // Per worker, the slot values of each block, reused from row to row (overwritten, never
+    // zeroed).
     let scratch = || -> Vec<(Mat<f64>, Vec<f64>)> {
         p.sizes
             .iter()
             .map(|&n| (Mat::zeros(n, n), vec![0.0; n * (n + 1) / 2]))
             .collect()
     };
+    let fused_limit: usize = std::env::var("BELLGAP_FUSED").ok().and_then(|v| v.parse().ok()).unwrap_or(16);
     // The dense blocks' slot values per row (one row of `dense_values` per variable).
     let dense_offsets: Vec<usize> = p
         .sizes
@@ -738,14 +738,6 @@ fn schur_into(
                         axpy(xf.col_as_slice_mut(pr), e.coef, x[k].col_as_slice(c));
                     }
                 }
-                // Rows `touched` of S⁻¹ are its columns (S⁻¹ is symmetric): Gᵀ = (S⁻¹)_{:,T}·XFᵀ
-                // would do as well, but the product below keeps G's layout.
-                let mut srows = Mat::<f64>::zeros(touched.len(), n);
-                for (a, &c) in touched.iter().enumerate() {
-                    for (t, v) in sinv[k].col_as_slice(c).iter().enumerate() {
-                        srows[(a, t)] = *v;
-                    }
-                }
                 let (g, v) = &mut gs[k];
                 // Dense blocks need every slot; otherwise only columns from `first` on (and
                 // the rows below `first` of the columns before it, for G_cr).
@@ -754,9 +746,18 @@ fn schur_into(
                 } else {
                     (p.by_variable[k].first_column[i] as usize).min(n)
                 };
-                if first == 0 {
-                    matmul(&mut *g, Accum::Replace, &xf, &srows, 1.0, Par::Seq);
+                if touched.len() <= fused_limit {
+                    let sinv_cols: Vec<&[f64]> =
+                        touched.iter().map(|&t| sinv[k].col_as_slice(t)).collect();
+                    slot_values(&xf, &sinv_cols, first, v);
                 } else {
+                    // Rows `touched` of S⁻¹ are its columns (S⁻¹ is symmetric).
+                    let mut srows = Mat::<f64>::zeros(touched.len(), n);
+                    for (a, &c) in touched.iter().enumerate() {
+                        for (t, v) in sinv[k].col_as_slice(c).iter().enumerate() {
+                            srows[(a, t)] = *v;
+                        }
+                    }
                     matmul(
                         g.as_mut().subcols_mut(first, n - first),
                         Accum::Replace,
@@ -773,16 +774,16 @@ fn schur_into(
                         1.0,
                         Par::Seq,
                     );
-                }
-                let g = &*g;
-                // ⟨E_slot, G⟩ per triangle slot: G_rr on the diagonal, G_rc + G_cr off it.
-                for col in first..n {
-                    let gc = g.col_as_slice(col);
-                    let at = upper_index(0, col);
-                    for r in 0..col {
-                        v[at + r] = gc[r] + g.col_as_slice(r)[col];
+                    let g = &*g;
+                    // ⟨E_slot, G⟩ per triangle slot: G_rr on the diagonal, G_rc + G_cr off it.
+                    for col in first..n {
+                        let gc = g.col_as_slice(col);
+                        let at = upper_index(0, col);
+                        for r in 0..col {
+                            v[at + r] = gc[r] + g.col_as_slice(r)[col];
+                        }
+                        v[at + col] = gc[col];
                     }
-                    v[at + col] = gc[col];
                 }
                 if p.dense[k].is_some() {
                     let at = dense_offsets[k];
@@ -840,6 +841,74 @@ fn schur_into(
         }
     }
     true
+}
+
+/// The triangle-slot values of G + Gᵀ for G = X F_i S⁻¹ = A·S⁻¹_{T,:} (A = X F_i restricted to
+/// the touched columns T, `sinv_cols` the columns T of S⁻¹, which are its rows T), in the
+/// columns from `first` on: `v[slot(r, c)] = G_rc + G_cr` for r < c and `G_cc` on the
+/// diagonal. Each G entry is one fused multiply-add chain over T in order, from zero, as the
+/// matrix-product kernels form it (so the values are those of forming G whole and adding its
+/// transpose), but only the upper triangle's pairs are formed, with no n × n G written and read
+/// back across its columns.
+fn slot_values(a: &Mat<f64>, sinv_cols: &[&[f64]], first: usize, v: &mut [f64]) {
+    #[cfg(target_arch = "x86_64")]
+    {
+        if std::arch::is_x86_feature_detected!("avx2") && std::arch::is_x86_feature_detected!("fma")
+        {
+            // SAFETY: the features the function is compiled for are present.
+            unsafe { slot_values_fma(a, sinv_cols, first, v) };
+            return;
+        }
+    }
+    slot_values_generic(a, sinv_cols, first, v);
+}
+
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2,fma")]
+unsafe fn slot_values_fma(a: &Mat<f64>, sinv_cols: &[&[f64]], first: usize, v: &mut [f64]) {
+    slot_values_generic(a, sinv_cols, first, v)
+}
+
+/// [`slot_values`]'s body, inlined into each instruction-set variant.
+#[inline(always)]
+fn slot_values_generic(a: &Mat<f64>, sinv_cols: &[&[f64]], first: usize, v: &mut [f64]) {
+    const CHUNK: usize = 16;
+    let n = a.nrows();
+    let a_cols: Vec<&[f64]> = (0..a.ncols()).map(|t| a.col_as_slice(t)).collect();
+    for c in first..n {
+        let at = upper_index(0, c);
+        let out = &mut v[at..=at + c];
+        let mut r0 = 0;
+        while r0 <= c {
+            let len = CHUNK.min(c + 1 - r0);
+            // G_rc = Σ_t A_rt S⁻¹_{t_t, c} and G_cr = Σ_t A_ct S⁻¹_{r, t_t}, each in order.
+            let mut lower = [0.0f64; CHUNK];
+            let mut upper = [0.0f64; CHUNK];
+            if len == CHUNK {
+                for (acol, scol) in a_cols.iter().zip(sinv_cols) {
+                    let (x, y) = (scol[c], acol[c]);
+                    let (ar, sr) = (&acol[r0..r0 + CHUNK], &scol[r0..r0 + CHUNK]);
+                    for j in 0..CHUNK {
+                        lower[j] = ar[j].mul_add(x, lower[j]);
+                        upper[j] = y.mul_add(sr[j], upper[j]);
+                    }
+                }
+            } else {
+                for (acol, scol) in a_cols.iter().zip(sinv_cols) {
+                    let (x, y) = (scol[c], acol[c]);
+                    for j in 0..len {
+                        lower[j] = acol[r0 + j].mul_add(x, lower[j]);
+                        upper[j] = y.mul_add(scol[r0 + j], upper[j]);
+                    }
+                }
+            }
+            for j in 0..len {
+                let r = r0 + j;
+                out[r] = if r == c { lower[j] } else { lower[j] + upper[j] };
+            }
+            r0 += len;
+        }
+    }
 }
 
 /// The Schur complement as a full symmetric matrix (for the Gram matrix of a projection), or
@@ -927,15 +996,25 @@ pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpS
         let bmax = p.b.iter().fold(1.0f64, |m, v| m.max(v.abs()));
         10.0 * fmax.max(bmax).max(total.sqrt())
     };
+    let per_block = std::env::var("BELLGAP_PERBLOCK").is_ok();
+    let block_scale = |k: usize| -> f64 {
+        if !per_block {
+            return scale;
+        }
+        let bmax = p.b.iter().fold(1.0f64, |m, v| m.max(v.abs()));
+        10.0 * p.f0[k].norm_l2().max(bmax).max(total.sqrt())
+    };
     let mut x: Vec<Mat<f64>> = p
         .sizes
         .iter()
-        .map(|&n| Mat::<f64>::identity(n, n) * Scale(scale))
+        .enumerate()
+        .map(|(k, &n)| Mat::<f64>::identity(n, n) * Scale(block_scale(k)))
         .collect();
     let mut s: Vec<Mat<f64>> = p
         .sizes
         .iter()
-        .map(|&n| Mat::<f64>::identity(n, n) * Scale(scale))
+        .enumerate()
+        .map(|(k, &n)| Mat::<f64>::identity(n, n) * Scale(block_scale(k)))
         .collect();
     let mut xl = vec![scale; nl];
     let mut sl = vec![scale; nl];
@@ -950,6 +1029,19 @@ pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpS
     let (mut accuracy_gap, mut accuracy_residual) = (f64::NAN, f64::NAN);
     let mut iterations = 0;
     let mut schur_factor = SchurFactor::new(p.m);
+    if std::env::var("BELLGAP_SLOTS").is_ok() {
+        for (k, &n) in p.sizes.iter().enumerate() {
+            let sc = &p.by_variable[k];
+            let mut needed = 0usize;
+            let mut entries = 0usize;
+            for i in 0..p.m {
+                let f = sc.first_column[i].min(n as u32) as usize;
+                needed += n * (n + 1) / 2 - f * (f + 1) / 2;
+                entries += sc.starts[p.m] - sc.starts[i];
+            }
+            eprintln!("block {k} n {n} m {} slot work {needed} gather entries {entries}", p.m);
+        }
+    }
     let (mut best_gap, mut stalled, mut progress_mu) = (f64::INFINITY, 0, f64::INFINITY);
     for it in 0..opts.max_iterations {
         if crate::limits::stop_requested() {
@@ -1125,7 +1217,7 @@ pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpS
         );
         // A step to 90% of the way to the boundary: more aggressive choices reached the
         // boundary region too early on degenerate check problems and stalled above 1e-8.
-        let gamma = 0.9;
+        let gamma: f64 = std::env::var("BELLGAP_GAMMA").ok().and_then(|v| v.parse().ok()).unwrap_or(0.9);
         let (ap, ad) = step(&corr, gamma);
         for k in 0..nb {
             x[k] += &corr.dx[k] * Scale(ap);
@@ -1206,6 +1298,9 @@ pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpS
     }
     let primal = problem.primal_value(&yo);
     let dual = asm.dual_value(&z);
+    if std::env::var("BELLGAP_IPM_SUMMARY").is_ok() {
+        eprintln!("solve m {} its {iterations} {:.3}s {status:?} certified {certified:.12}", p.m, start.elapsed().as_secs_f64());
+    }
     Ok(SdpSolution {
         primal,
         dual,
