@@ -674,7 +674,6 @@ fn schur_into(
             .map(|&n| (Mat::zeros(n, n), vec![0.0; n * (n + 1) / 2]))
             .collect()
     };
-    let fused_limit: usize = std::env::var("BELLGAP_FUSED").ok().and_then(|v| v.parse().ok()).unwrap_or(16);
     // The dense blocks' slot values per row (one row of `dense_values` per variable).
     let dense_offsets: Vec<usize> = p
         .sizes
@@ -746,7 +745,7 @@ fn schur_into(
                 } else {
                     (p.by_variable[k].first_column[i] as usize).min(n)
                 };
-                if touched.len() <= fused_limit {
+                if touched.len() <= FUSED_SLOT_COLUMNS {
                     let sinv_cols: Vec<&[f64]> =
                         touched.iter().map(|&t| sinv[k].col_as_slice(t)).collect();
                     slot_values(&xf, &sinv_cols, first, v);
@@ -843,6 +842,11 @@ fn schur_into(
     true
 }
 
+/// Most columns a Schur row's F_i may touch for its slot values to come from [`slot_values`]
+/// rather than a whole product G = X F_i S⁻¹ (both give the same values): past about this
+/// many, the matrix product's register blocking wins (measured on CGLMP-3's entropy nodes).
+const FUSED_SLOT_COLUMNS: usize = 16;
+
 /// The triangle-slot values of G + Gᵀ for G = X F_i S⁻¹ = A·S⁻¹_{T,:} (A = X F_i restricted to
 /// the touched columns T, `sinv_cols` the columns T of S⁻¹, which are its rows T), in the
 /// columns from `first` on: `v[slot(r, c)] = G_rc + G_cr` for r < c and `G_cc` on the
@@ -904,7 +908,11 @@ fn slot_values_generic(a: &Mat<f64>, sinv_cols: &[&[f64]], first: usize, v: &mut
             }
             for j in 0..len {
                 let r = r0 + j;
-                out[r] = if r == c { lower[j] } else { lower[j] + upper[j] };
+                out[r] = if r == c {
+                    lower[j]
+                } else {
+                    lower[j] + upper[j]
+                };
             }
             r0 += len;
         }
@@ -981,7 +989,6 @@ impl SchurFactor {
     }
 }
 
-
 /// Solves the problem; the solution carries clarabel's dual layout so that
 /// [`Assembled::certified_bound`] applies unchanged.
 pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpSolution> {
@@ -996,25 +1003,15 @@ pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpS
         let bmax = p.b.iter().fold(1.0f64, |m, v| m.max(v.abs()));
         10.0 * fmax.max(bmax).max(total.sqrt())
     };
-    let per_block = std::env::var("BELLGAP_PERBLOCK").is_ok();
-    let block_scale = |k: usize| -> f64 {
-        if !per_block {
-            return scale;
-        }
-        let bmax = p.b.iter().fold(1.0f64, |m, v| m.max(v.abs()));
-        10.0 * p.f0[k].norm_l2().max(bmax).max(total.sqrt())
-    };
     let mut x: Vec<Mat<f64>> = p
         .sizes
         .iter()
-        .enumerate()
-        .map(|(k, &n)| Mat::<f64>::identity(n, n) * Scale(block_scale(k)))
+        .map(|&n| Mat::<f64>::identity(n, n) * Scale(scale))
         .collect();
     let mut s: Vec<Mat<f64>> = p
         .sizes
         .iter()
-        .enumerate()
-        .map(|(k, &n)| Mat::<f64>::identity(n, n) * Scale(block_scale(k)))
+        .map(|&n| Mat::<f64>::identity(n, n) * Scale(scale))
         .collect();
     let mut xl = vec![scale; nl];
     let mut sl = vec![scale; nl];
@@ -1029,19 +1026,6 @@ pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpS
     let (mut accuracy_gap, mut accuracy_residual) = (f64::NAN, f64::NAN);
     let mut iterations = 0;
     let mut schur_factor = SchurFactor::new(p.m);
-    if std::env::var("BELLGAP_SLOTS").is_ok() {
-        for (k, &n) in p.sizes.iter().enumerate() {
-            let sc = &p.by_variable[k];
-            let mut needed = 0usize;
-            let mut entries = 0usize;
-            for i in 0..p.m {
-                let f = sc.first_column[i].min(n as u32) as usize;
-                needed += n * (n + 1) / 2 - f * (f + 1) / 2;
-                entries += sc.starts[p.m] - sc.starts[i];
-            }
-            eprintln!("block {k} n {n} m {} slot work {needed} gather entries {entries}", p.m);
-        }
-    }
     let (mut best_gap, mut stalled, mut progress_mu) = (f64::INFINITY, 0, f64::INFINITY);
     for it in 0..opts.max_iterations {
         if crate::limits::stop_requested() {
@@ -1217,7 +1201,7 @@ pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpS
         );
         // A step to 90% of the way to the boundary: more aggressive choices reached the
         // boundary region too early on degenerate check problems and stalled above 1e-8.
-        let gamma: f64 = std::env::var("BELLGAP_GAMMA").ok().and_then(|v| v.parse().ok()).unwrap_or(0.9);
+        let gamma = 0.9;
         let (ap, ad) = step(&corr, gamma);
         for k in 0..nb {
             x[k] += &corr.dx[k] * Scale(ap);
@@ -1298,9 +1282,6 @@ pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpS
     }
     let primal = problem.primal_value(&yo);
     let dual = asm.dual_value(&z);
-    if std::env::var("BELLGAP_IPM_SUMMARY").is_ok() {
-        eprintln!("solve m {} its {iterations} {:.3}s {status:?} certified {certified:.12}", p.m, start.elapsed().as_secs_f64());
-    }
     Ok(SdpSolution {
         primal,
         dual,

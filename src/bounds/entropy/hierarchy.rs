@@ -1140,9 +1140,6 @@ impl<'a> PreparedHierarchy<'a> {
                             let milder =
                                 solve_node(&orbits.reduce(&node.problem), options.backend, &stage)
                                     .and_then(|s| orbits.lift(&node.problem, s));
-                            if std::env::var("BELLGAP_RETRY_LOG").is_ok() {
-                                eprintln!("retry t {t:.4} reduced {:.12} orbit {:?}", sol.certified, milder.as_ref().map(|m| (m.certified, m.status)).ok());
-                            }
                             let best = match milder {
                                 Ok(other) if other.certified < sol.certified => other,
                                 _ => sol,
@@ -1153,11 +1150,7 @@ impl<'a> PreparedHierarchy<'a> {
                             if best.status == SolveStatus::Stalled
                                 && matrix.moments.len() <= FULL_RETRY_MOMENTS
                             {
-                                let full = solve_node(&node.problem, options.backend, &stage);
-                                if std::env::var("BELLGAP_RETRY_LOG").is_ok() {
-                                    eprintln!("retry t {t:.4} best {:.12} full {:?}", best.certified, full.as_ref().map(|m| (m.certified, m.status)).ok());
-                                }
-                                match full {
+                                match solve_node(&node.problem, options.backend, &stage) {
                                     Ok(full) if full.certified < best.certified => Ok(full),
                                     _ => Ok(best),
                                 }
