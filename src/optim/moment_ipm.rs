@@ -1490,3 +1490,169 @@ impl SdpBackend for MomentIpmBackend {
         solve(problem, stage, IpmOptions::default())
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::optim::sdp::{AffineEntry, MatrixBlock};
+
+    fn numbers(mut seed: u64) -> impl FnMut() -> f64 {
+        move || {
+            seed ^= seed << 13;
+            seed ^= seed >> 7;
+            seed ^= seed << 17;
+            (seed >> 11) as f64 / (1u64 << 53) as f64 - 0.5
+        }
+    }
+
+    /// A random positive definite matrix of side n.
+    fn positive_definite(n: usize, next: &mut impl FnMut() -> f64) -> Mat<f64> {
+        let a = Mat::<f64>::from_fn(n, n, |_, _| next());
+        let mut m = mul(&a, &a.transpose().to_owned());
+        for i in 0..n {
+            m[(i, i)] += 0.5;
+        }
+        m
+    }
+
+    #[test]
+    fn the_slot_kernel_gives_the_products_values() {
+        // G = A·S⁻¹_{T,:}; the kernel's G_rc + G_cr (G_cc on the diagonal) against the whole
+        // product, for few and many touched columns and a cut at `first`.
+        let mut next = numbers(3);
+        for &(n, k) in &[(5usize, 1usize), (40, 3), (110, 16), (70, 20), (175, 9)] {
+            let a = Mat::<f64>::from_fn(n, k, |_, _| next());
+            let sinv = positive_definite(n, &mut next);
+            let touched: Vec<usize> = (0..k).map(|t| (t * 7 + 1) % n).collect();
+            let srows = Mat::<f64>::from_fn(k, n, |t, c| sinv[(touched[t], c)]);
+            let g = mul(&a, &srows);
+            let cols: Vec<&[f64]> = touched.iter().map(|&t| sinv.col_as_slice(t)).collect();
+            for first in [0, n / 3] {
+                let mut v = vec![f64::NAN; n * (n + 1) / 2];
+                slot_values(&a, &cols, first, &mut v);
+                for c in 0..n {
+                    for r in 0..=c {
+                        let got = v[upper_index(r, c)];
+                        if c < first {
+                            assert!(got.is_nan(), "slot ({r}, {c}) left of {first} written");
+                            continue;
+                        }
+                        let want = if r == c {
+                            g[(c, c)]
+                        } else {
+                            g[(r, c)] + g[(c, r)]
+                        };
+                        assert!(
+                            (got - want).abs() <= 1e-13 * (1.0 + want.abs()),
+                            "n {n} k {k} ({r}, {c}): {got} against {want}"
+                        );
+                    }
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn the_schur_complement_is_its_definition() {
+        // Overlapping F_i (each entry an expression of up to three variables, as in reduced
+        // problems), some touching more columns than the slot kernel takes, a 1 × 1 block and
+        // an inequality row: M_ij = ⟨F_i, X F_j S⁻¹⟩ + Σ_r g_ri g_rj x_r / s_r, formed densely.
+        let mut next = numbers(5);
+        let (n, m) = (24usize, 30usize);
+        let mut upper = Vec::new();
+        for c in 0..n {
+            for r in 0..=c {
+                let terms: Vec<(usize, f64)> = (0..1 + (r * 3 + c) % 3)
+                    .map(|t| ((r * 5 + c * 11 + t * 7) % m, next()))
+                    .collect();
+                upper.push(AffineEntry {
+                    constant: if r == c { 1.0 } else { 0.0 },
+                    terms,
+                });
+            }
+        }
+        let problem = SdpProblem {
+            variables: m,
+            objective: (0..m).map(|_| next()).collect(),
+            inequalities: vec![(vec![(0, 1.0), (3, -2.0)], 4.0)],
+            blocks: vec![
+                MatrixBlock {
+                    size: n,
+                    upper,
+                    trace_bound: n as f64,
+                },
+                MatrixBlock {
+                    size: 1,
+                    upper: vec![AffineEntry {
+                        constant: 2.0,
+                        terms: vec![(1, -1.0)],
+                    }],
+                    trace_bound: 2.0,
+                },
+            ],
+            variable_bound: 1.0,
+            ..Default::default()
+        };
+        let el = eliminate(&problem).unwrap();
+        let p = build(&problem, &el);
+        assert!(p
+            .shapes
+            .iter()
+            .any(|s| s.iter().any(|r| r.touched.len() > FUSED_SLOT_COLUMNS)));
+        let x: Vec<Mat<f64>> = p
+            .sizes
+            .iter()
+            .map(|&s| positive_definite(s, &mut next))
+            .collect();
+        let s: Vec<Mat<f64>> = p
+            .sizes
+            .iter()
+            .map(|&s| positive_definite(s, &mut next))
+            .collect();
+        let sinv: Vec<Mat<f64>> = s.iter().map(|b| spd_inverse(b).unwrap()).collect();
+        let (xl, sl) = (vec![0.7], vec![1.3]);
+        let got = schur(&p, &x, &sinv, &xl, &sl).unwrap();
+        let dense = |i: usize| -> Vec<Mat<f64>> {
+            let mut f: Vec<Mat<f64>> = p.sizes.iter().map(|&s| Mat::zeros(s, s)).collect();
+            add_f(&p.columns[i], 1.0, &mut f);
+            f
+        };
+        for i in 0..p.m {
+            let fi = dense(i);
+            for j in 0..p.m {
+                let fj = dense(j);
+                let mut want: f64 = (0..p.sizes.len())
+                    .map(|k| frob(&fi[k], &mul(&mul(&x[k], &fj[k]), &sinv[k])))
+                    .sum();
+                for (r, (terms, _)) in p.g_rows.iter().enumerate() {
+                    let gi: f64 = terms.iter().filter(|t| t.0 == i).map(|t| t.1).sum();
+                    let gj: f64 = terms.iter().filter(|t| t.0 == j).map(|t| t.1).sum();
+                    want += xl[r] / sl[r] * gi * gj;
+                }
+                assert!(
+                    (got[(i, j)] - want).abs() <= 1e-10 * (1.0 + want.abs()),
+                    "M[{i}][{j}] = {} against {want}",
+                    got[(i, j)]
+                );
+            }
+        }
+        // The factor kept across iterations solves with it.
+        let mut factor = SchurFactor::new(p.m);
+        assert!(schur_into(&p, &x, &sinv, &xl, &sl, &mut factor.buf));
+        assert!(factor.factor());
+        let want: Vec<f64> = (0..p.m).map(|_| next()).collect();
+        let rhs_vec: Vec<f64> = (0..p.m)
+            .map(|i| (0..p.m).map(|j| got[(i, j)] * want[j]).sum())
+            .collect();
+        let mut rhs = Mat::<f64>::from_fn(p.m, 1, |i, _| rhs_vec[i]);
+        factor.solve_in_place(&mut rhs);
+        for i in 0..p.m {
+            assert!(
+                (rhs[(i, 0)] - want[i]).abs() < 1e-8,
+                "{i}: {} against {}",
+                rhs[(i, 0)],
+                want[i]
+            );
+        }
+    }
+}
