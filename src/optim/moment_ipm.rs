@@ -739,6 +739,10 @@ fn schur_into(
         .map(|(&n, _)| n * (n + 1) / 2)
         .sum::<usize>();
     let any_dense = dense_width > 0;
+    if m == 0 {
+        // Nothing to assemble (every variable eliminated); chunks of zero are not allowed.
+        return !crate::limits::stop_requested();
+    }
     let mut dense_values = vec![0.0; m * dense_width.max(1)];
     buf[..m * m]
         .par_chunks_mut(m)
@@ -1028,6 +1032,9 @@ impl SchurFactor {
     /// buffer is then spoiled).
     fn factor(&mut self) -> bool {
         use faer::dyn_stack::{MemBuffer, MemStack};
+        if self.m == 0 {
+            return true;
+        }
         use faer::linalg::cholesky::llt::factor;
         let par = factor_parallelism();
         let mut mem = MemBuffer::new(factor::cholesky_in_place_scratch::<f64>(
@@ -1043,6 +1050,9 @@ impl SchurFactor {
     /// Solves M v = rhs in place.
     fn solve_in_place(&self, rhs: &mut Mat<f64>) {
         use faer::dyn_stack::{MemBuffer, MemStack};
+        if self.m == 0 {
+            return;
+        }
         use faer::linalg::cholesky::llt::solve;
         // The solve stays on the global setting: its parallel and sequential forms round
         // differently, and the factorisation above does not.
