@@ -739,6 +739,7 @@ fn schur_into(
         .map(|(&n, _)| n * (n + 1) / 2)
         .sum::<usize>();
     let any_dense = dense_width > 0;
+    let fused = fused_slots_available();
     if m == 0 {
         // Nothing to assemble (every variable eliminated); chunks of zero are not allowed.
         return !crate::limits::stop_requested();
@@ -782,7 +783,7 @@ fn schur_into(
                 } else {
                     (p.by_variable[k].first_column[i] as usize).min(n)
                 };
-                if touched.len() <= FUSED_SLOT_COLUMNS {
+                if touched.len() <= FUSED_SLOT_COLUMNS && fused {
                     let sinv_cols: Vec<&[f64]> =
                         touched.iter().map(|&t| sinv[k].col_as_slice(t)).collect();
                     slot_values(&xf, &sinv_cols, first, v);
@@ -894,19 +895,37 @@ const FUSED_SLOT_COLUMNS: usize = 16;
 fn slot_values(a: &Mat<f64>, sinv_cols: &[&[f64]], first: usize, v: &mut [f64]) {
     #[cfg(target_arch = "x86_64")]
     {
-        if std::arch::is_x86_feature_detected!("avx512f") {
+        let fma = std::arch::is_x86_feature_detected!("avx2")
+            && std::arch::is_x86_feature_detected!("fma");
+        if fma && std::arch::is_x86_feature_detected!("avx512f") {
             // SAFETY: the features the function is compiled for are present.
             unsafe { slot_values_avx512(a, sinv_cols, first, v) };
             return;
         }
-        if std::arch::is_x86_feature_detected!("avx2") && std::arch::is_x86_feature_detected!("fma")
-        {
+        if fma {
             // SAFETY: the features the function is compiled for are present.
             unsafe { slot_values_fma(a, sinv_cols, first, v) };
             return;
         }
     }
     slot_values_generic(a, sinv_cols, first, v);
+}
+
+/// Whether [`slot_values`] runs on hardware fused multiply-add (x86-64 with AVX2 and FMA, or
+/// ARM64); elsewhere `mul_add` would be a library call, and the matrix product is used instead.
+fn fused_slots_available() -> bool {
+    #[cfg(target_arch = "x86_64")]
+    {
+        std::arch::is_x86_feature_detected!("avx2") && std::arch::is_x86_feature_detected!("fma")
+    }
+    #[cfg(target_arch = "aarch64")]
+    {
+        true
+    }
+    #[cfg(not(any(target_arch = "x86_64", target_arch = "aarch64")))]
+    {
+        false
+    }
 }
 
 #[cfg(target_arch = "x86_64")]
