@@ -506,13 +506,22 @@ fn frob(a: &Mat<f64>, b: &Mat<f64>) -> f64 {
     s
 }
 
-fn symmetrise(a: &mut Mat<f64>) {
+fn symmetrise(mut a: MatMut<'_, f64>) {
     let n = a.nrows();
     for j in 0..n {
         for i in 0..j {
             let v = 0.5 * (a[(i, j)] + a[(j, i)]);
             a[(i, j)] = v;
             a[(j, i)] = v;
+        }
+    }
+}
+
+/// Copies the strict lower triangle onto the upper one.
+fn mirror_lower(mut a: MatMut<'_, f64>) {
+    for j in 0..a.ncols() {
+        for i in 0..j {
+            a[(i, j)] = a[(j, i)];
         }
     }
 }
@@ -528,7 +537,7 @@ fn spd_inverse(a: &Mat<f64>) -> Option<Mat<f64>> {
     let llt = a.llt(Side::Lower).ok()?;
     let mut inv = Mat::<f64>::identity(a.nrows(), a.ncols());
     llt.solve_in_place(&mut inv);
-    symmetrise(&mut inv);
+    symmetrise(inv.as_mut());
     Some(inv)
 }
 
@@ -543,7 +552,7 @@ fn max_step(a: &Mat<f64>, d: &Mat<f64>) -> f64 {
     llt.L().solve_lower_triangular_in_place(&mut t);
     let mut tt = t.transpose().to_owned();
     llt.L().solve_lower_triangular_in_place(&mut tt);
-    symmetrise(&mut tt);
+    symmetrise(tt.as_mut());
     let Ok(ev) = tt.self_adjoint_eigenvalues(Side::Lower) else {
         return 0.0;
     };
@@ -576,7 +585,7 @@ fn centred(
         t -= k;
     }
     let mut w = mul(&t, sinv);
-    symmetrise(&mut w);
+    symmetrise(w.as_mut());
     w
 }
 
@@ -718,26 +727,21 @@ fn schur_into(
             .map(|&n| (Mat::zeros(n, n), vec![0.0; n * (n + 1) / 2]))
             .collect()
     };
-    // The dense blocks' slot values per row (one row of `dense_values` per variable).
+    // The dense blocks' slot values per row (one row of `dense_values` per variable): each
+    // dense block's offset in a row, and the row's width.
+    let mut dense_width = 0;
     let dense_offsets: Vec<usize> = p
         .sizes
         .iter()
         .zip(&p.dense)
-        .scan(0, |at, (&n, d)| {
-            let here = *at;
+        .map(|(&n, d)| {
+            let here = dense_width;
             if d.is_some() {
-                *at += n * (n + 1) / 2;
+                dense_width += n * (n + 1) / 2;
             }
-            Some(here)
+            here
         })
         .collect();
-    let dense_width = p
-        .sizes
-        .iter()
-        .zip(&p.dense)
-        .filter(|(_, d)| d.is_some())
-        .map(|(&n, _)| n * (n + 1) / 2)
-        .sum::<usize>();
     let any_dense = dense_width > 0;
     let fused = fused_slots_available();
     if m == 0 {
@@ -847,11 +851,7 @@ fn schur_into(
     let mut mat = MatMut::from_column_major_slice_mut(&mut buf[..m * m], m, m);
     if any_dense {
         // Both triangles, as the dense product below adds to both and the two are averaged.
-        for j in 0..m {
-            for i in 0..j {
-                mat[(i, j)] = mat[(j, i)];
-            }
-        }
+        mirror_lower(mat.rb_mut());
         for (k, dense) in p.dense.iter().enumerate() {
             let Some(a) = dense else { continue };
             let slots = a.nrows();
@@ -869,13 +869,7 @@ fn schur_into(
         }
     }
     if any_dense {
-        for j in 0..m {
-            for i in 0..j {
-                let v = 0.5 * (mat[(i, j)] + mat[(j, i)]);
-                mat[(i, j)] = v;
-                mat[(j, i)] = v;
-            }
-        }
+        symmetrise(mat);
     }
     true
 }
@@ -895,8 +889,7 @@ const FUSED_SLOT_COLUMNS: usize = 16;
 fn slot_values(a: &Mat<f64>, sinv_cols: &[&[f64]], first: usize, v: &mut [f64]) {
     #[cfg(target_arch = "x86_64")]
     {
-        let fma = std::arch::is_x86_feature_detected!("avx2")
-            && std::arch::is_x86_feature_detected!("fma");
+        let fma = fused_slots_available();
         if fma && std::arch::is_x86_feature_detected!("avx512f") {
             // SAFETY: the features the function is compiled for are present.
             unsafe { slot_values_avx512(a, sinv_cols, first, v) };
@@ -1011,11 +1004,7 @@ fn schur(
         return None;
     }
     let mut m = Mat::<f64>::from_fn(p.m, p.m, |i, j| buf[j * p.m + i]);
-    for j in 0..p.m {
-        for i in 0..j {
-            m[(i, j)] = m[(j, i)];
-        }
-    }
+    mirror_lower(m.as_mut());
     Some(m)
 }
 
@@ -1051,10 +1040,10 @@ impl SchurFactor {
     /// buffer is then spoiled).
     fn factor(&mut self) -> bool {
         use faer::dyn_stack::{MemBuffer, MemStack};
+        use faer::linalg::cholesky::llt::factor;
         if self.m == 0 {
             return true;
         }
-        use faer::linalg::cholesky::llt::factor;
         let par = factor_parallelism();
         let mut mem = MemBuffer::new(factor::cholesky_in_place_scratch::<f64>(
             self.m,
@@ -1069,10 +1058,10 @@ impl SchurFactor {
     /// Solves M v = rhs in place.
     fn solve_in_place(&self, rhs: &mut Mat<f64>) {
         use faer::dyn_stack::{MemBuffer, MemStack};
+        use faer::linalg::cholesky::llt::solve;
         if self.m == 0 {
             return;
         }
-        use faer::linalg::cholesky::llt::solve;
         // The solve stays on the global setting: its parallel and sequential forms round
         // differently, and the factorisation above does not.
         let par = faer::get_global_parallelism();
@@ -1304,8 +1293,8 @@ pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpS
         for k in 0..nb {
             x[k] += &corr.dx[k] * Scale(ap);
             s[k] += &corr.ds[k] * Scale(ad);
-            symmetrise(&mut x[k]);
-            symmetrise(&mut s[k]);
+            symmetrise(x[k].as_mut());
+            symmetrise(s[k].as_mut());
         }
         for r in 0..nl {
             xl[r] += ap * corr.dxl[r];
