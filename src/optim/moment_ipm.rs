@@ -1026,23 +1026,47 @@ fn factor_parallelism() -> Par {
 struct SchurFactor {
     m: usize,
     buf: Vec<f64>,
+    /// Once a factorisation has failed in this run: the lower triangle as assembled, packed by
+    /// columns, copied before each factorisation. Failures come in runs (every iteration of a
+    /// stall near the optimum, where the complement is numerically singular), and a copy
+    /// restores the spoiled buffer for the regularised retry in a fraction of the time that
+    /// assembling it again takes, with the same values. Empty before the first failure or
+    /// when the copy would exceed [`SCHUR_COPY_BYTES`].
+    copy: Vec<f64>,
 }
+
+/// Most bytes the copy of a Schur complement's lower triangle may take.
+const SCHUR_COPY_BYTES: usize = 256 << 20;
 
 impl SchurFactor {
     fn new(m: usize) -> Self {
         SchurFactor {
             m,
             buf: vec![0.0; m * m],
+            copy: Vec::new(),
         }
     }
 
+    /// The columns' lower parts in turn: (start in the buffer, length).
+    fn lower_columns(&self) -> impl Iterator<Item = (usize, usize)> {
+        let m = self.m;
+        (0..m).map(move |j| (j * m + j, m - j))
+    }
+
     /// Factors the lower triangle in place; `false` if it is not positive definite (the
-    /// buffer is then spoiled).
+    /// buffer is then spoiled: see [`SchurFactor::restore`]).
     fn factor(&mut self) -> bool {
         use faer::dyn_stack::{MemBuffer, MemStack};
         use faer::linalg::cholesky::llt::factor;
         if self.m == 0 {
             return true;
+        }
+        if !self.copy.is_empty() {
+            let mut at = 0;
+            for (start, len) in self.lower_columns() {
+                self.copy[at..at + len].copy_from_slice(&self.buf[start..start + len]);
+                at += len;
+            }
         }
         let par = factor_parallelism();
         let mut mem = MemBuffer::new(factor::cholesky_in_place_scratch::<f64>(
@@ -1053,6 +1077,25 @@ impl SchurFactor {
         let stack = MemStack::new(&mut mem);
         let a = MatMut::from_column_major_slice_mut(&mut self.buf, self.m, self.m);
         factor::cholesky_in_place(a, Default::default(), par, stack, Default::default()).is_ok()
+    }
+
+    /// After a failed factorisation: the assembled lower triangle back from the copy (`true`),
+    /// or `false` when no copy was kept (it is kept from now on, when affordable), and the
+    /// complement must be assembled again.
+    fn restore(&mut self) -> bool {
+        if self.copy.is_empty() {
+            let packed = self.m * (self.m + 1) / 2;
+            if packed * std::mem::size_of::<f64>() <= SCHUR_COPY_BYTES {
+                self.copy = vec![0.0; packed];
+            }
+            return false;
+        }
+        let mut at = 0;
+        for (start, len) in self.lower_columns() {
+            self.buf[start..start + len].copy_from_slice(&self.copy[at..at + len]);
+            at += len;
+        }
+        true
     }
 
     /// Solves M v = rhs in place.
@@ -1215,8 +1258,10 @@ pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpS
         }
         if !schur_factor.factor() {
             // Regularise slightly: the Schur complement is PD in exact arithmetic. The failed
-            // factorisation spoiled the buffer, so the complement is formed again.
-            if !schur_into(&p, &x, &sinv, &xl, &sl, &mut schur_factor.buf) {
+            // factorisation spoiled the buffer: restored from its copy, or formed again.
+            if !schur_factor.restore()
+                && !schur_into(&p, &x, &sinv, &xl, &sl, &mut schur_factor.buf)
+            {
                 break;
             }
             let m = p.m;
@@ -1567,6 +1612,45 @@ mod tests {
                     }
                 }
             }
+        }
+    }
+
+    #[test]
+    fn a_failed_factorisation_is_restored_from_the_copy() {
+        // An indefinite 3 × 3 lower triangle: the first failure keeps no copy (the caller
+        // assembles again), later ones restore exactly what was assembled.
+        let lower = [4.0, 2.0, 1.0, 1.0, 3.0, -5.0];
+        let fill = |f: &mut SchurFactor| {
+            let mut at = 0;
+            for j in 0..3 {
+                for i in j..3 {
+                    f.buf[j * 3 + i] = lower[at];
+                    at += 1;
+                }
+            }
+        };
+        let mut f = SchurFactor::new(3);
+        fill(&mut f);
+        assert!(!f.factor());
+        assert!(!f.restore(), "no copy before the first failure");
+        fill(&mut f);
+        assert!(!f.factor());
+        assert!(f.restore());
+        let mut at = 0;
+        for j in 0..3 {
+            for i in j..3 {
+                assert_eq!(f.buf[j * 3 + i], lower[at], "entry ({i}, {j})");
+                at += 1;
+            }
+        }
+        // A positive definite matrix then factors, and its solve is right.
+        f.buf
+            .copy_from_slice(&[4.0, 2.0, 0.0, 0.0, 3.0, 1.0, 0.0, 0.0, 2.0]);
+        assert!(f.factor());
+        let mut rhs = Mat::<f64>::from_fn(3, 1, |i, _| [6.0, 6.0, 3.0][i]);
+        f.solve_in_place(&mut rhs);
+        for (i, want) in [1.0, 1.0, 1.0].into_iter().enumerate() {
+            assert!((rhs[(i, 0)] - want).abs() < 1e-12, "solution {i}");
         }
     }
 
