@@ -40,6 +40,11 @@ pub struct IpmOptions {
     pub tolerance: f64,
     /// What a run that stalls short of the relaxed tolerance returns.
     pub on_stall: StallPolicy,
+    /// The starting point `X = S = c·I` as a multiple of the standard `c`, ten times the largest
+    /// of ‖F0‖, max |b_i| and √(total size): that `c` sits well inside both cones on any
+    /// problem, but where F0 carries large constants far from the solution's scale (the
+    /// entropy nodes' norm bounds) a smaller one saves the first iterations' shrinking.
+    pub start_scale: f64,
 }
 
 /// What a run that stalls short of the relaxed tolerance returns.
@@ -60,6 +65,7 @@ impl Default for IpmOptions {
             max_iterations: 100,
             tolerance: 1e-9,
             on_stall: StallPolicy::Error,
+            start_scale: 1.0,
         }
     }
 }
@@ -1131,7 +1137,12 @@ pub fn solve(problem: &SdpProblem, stage: &str, opts: IpmOptions) -> Result<SdpS
     let scale = {
         let fmax = p.f0.iter().map(|f| f.norm_l2()).fold(1.0f64, f64::max);
         let bmax = p.b.iter().fold(1.0f64, |m, v| m.max(v.abs()));
-        10.0 * fmax.max(bmax).max(total.sqrt())
+        let scale = 10.0 * fmax.max(bmax).max(total.sqrt());
+        if opts.start_scale.is_finite() && opts.start_scale > 0.0 {
+            scale * opts.start_scale
+        } else {
+            scale
+        }
     };
     let mut x: Vec<Mat<f64>> = p
         .sizes
