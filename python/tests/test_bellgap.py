@@ -34,14 +34,23 @@ def is_timing(key):
     return key == "generated" or key.endswith("seconds")
 
 
+# The finite-size statement's Rényi parameter α minimises its penalty by a golden-section
+# search: a minimiser is fixed only to about the square root of its objective's rounding, and so
+# are the terms at it (seen: entropies equal to 3e-15 moved α − 1 and the error term by 1.8e-8
+# relative), while their sum, the penalty, keeps the objective's accuracy.
+ARGMIN_TOLERANCE = 1e-6
+
+
 def assert_same(a, b, path="", tolerance=1e-9):
     """The same JSON up to floating-point noise: parallel sums in the solvers may round the
     last bits differently from run to run (seen: 0.987463956378975 against …749), so numbers
-    agree within 1e-9 relative; everything else exactly."""
+    agree within 1e-9 relative (the terms at the chosen α within ARGMIN_TOLERANCE); everything
+    else exactly."""
     if isinstance(a, dict) and isinstance(b, dict):
         assert set(a) == set(b), (path, sorted(set(a) ^ set(b)))
         for k in a:
-            assert_same(a[k], b[k], f"{path}.{k}", tolerance)
+            inner = max(tolerance, ARGMIN_TOLERANCE) if k == "second_order" else tolerance
+            assert_same(a[k], b[k], f"{path}.{k}", inner)
     elif isinstance(a, list) and isinstance(b, list):
         assert len(a) == len(b), path
         for i, (x, y) in enumerate(zip(a, b)):

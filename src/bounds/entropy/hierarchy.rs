@@ -1193,7 +1193,11 @@ impl<'a> PreparedHierarchy<'a> {
             } else {
                 NodeForm::Full
             };
-            let mut retries = vec![(first, NodeStart::Standard)];
+            let mut retries = Vec::new();
+            // Only the interior-point method has a starting point to change.
+            if matches!(options.backend, Backend::Auto | Backend::MomentIpm) {
+                retries.push((first, NodeStart::Standard));
+            }
             if reduction.is_some() {
                 retries.push((NodeForm::Orbits, NodeStart::Standard));
                 if matrix.moments.len() <= FULL_RETRY_MOMENTS {
