@@ -1214,6 +1214,15 @@ impl<'a> PreparedHierarchy<'a> {
                             }
                         }
                     }
+                    // A failed first run (not an infeasible problem, which fails from any
+                    // start) is tried once from the standard start, as before the near start.
+                    Err(Error::Solver { status, .. })
+                        if kind == first && status != &Some(SolveStatus::Infeasible) =>
+                    {
+                        if let Ok(other) = attempt(kind, start) {
+                            solved_node = Ok(other);
+                        }
+                    }
                     _ => break,
                 }
             }
